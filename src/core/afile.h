@@ -1,0 +1,47 @@
+/*
+ * afile.h: atomic output files.  Every file wakeline writes goes through this:
+ * the data is written to a temporary file beside the target
+ * ("<dir>/.<name>.tmp-<pid>-<n>"), flushed, fsync'ed and renamed over the
+ * target only on commit, so an interrupted run never leaves a half file.
+ *
+ * Ownership: wl_afile_open returns an object that exactly one of
+ * wl_afile_commit or wl_afile_abort frees (both accept NULL).
+ */
+#ifndef WL_AFILE_H
+#define WL_AFILE_H
+
+#include <stddef.h>
+#include <stdio.h>
+
+#include "core/err.h"
+
+typedef struct wl_afile wl_afile;
+
+/* Opens a temporary file for `path`.  Fails with WL_EIO naming the path. */
+wl_status wl_afile_open(const char *path, wl_afile **out, wl_err *err);
+
+/* The stream to write to (binary mode).  Valid until commit or abort. */
+FILE *wl_afile_fp(wl_afile *af);
+
+/* The temporary file's path (for libraries that want a file name). */
+const char *wl_afile_tmp_path(const wl_afile *af);
+
+/* Flushes, syncs and renames into place, then frees af.  On any failure
+ * (a full disk is reported as "no space left on device") the temporary file
+ * is removed, the target is left as it was, and WL_EIO names the target. */
+wl_status wl_afile_commit(wl_afile *af, wl_err *err);
+
+/* Removes the temporary file and frees af.  The target is untouched. */
+void wl_afile_abort(wl_afile *af);
+
+/* Writes `len` bytes to `path` atomically (open + write + commit). */
+wl_status wl_write_file_atomic(const char *path, const void *data, size_t len, wl_err *err);
+
+/* Reads a whole file into a NUL-terminated buffer that the caller frees with
+ * free().  Refuses files larger than max_bytes (WL_ELIMIT). */
+wl_status wl_read_file(const char *path, size_t max_bytes, char **out, size_t *len, wl_err *err);
+
+/* Creates a directory and its parents (mkdir -p).  Existing is fine. */
+wl_status wl_mkdirs(const char *path, wl_err *err);
+
+#endif
