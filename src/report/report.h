@@ -35,7 +35,8 @@
 
 /* "Nice" tick positions (1, 2 or 5 times a power of ten apart, in the manner
  * of Heckbert's "Nice numbers for graph labels", Graphics Gems, 1990) that
- * lie within [lo, hi], at most max_ticks of them (>= 2).  Writes at most cap
+ * lie within [lo, hi], at most max_ticks of them (>= 2), except that a short
+ * range gets at least two ticks even if that takes more.  Writes at most cap
  * values to out and returns how many.  Ticks that are zero within rounding
  * are written as exactly 0. */
 size_t wl_ticks_linear(double lo, double hi, size_t max_ticks, double *out, size_t cap);

@@ -22,7 +22,7 @@ static double nice_step(double raw)
 
 size_t wl_ticks_linear(double lo, double hi, size_t max_ticks, double *out, size_t cap)
 {
-	double step, first, span;
+	double step, span;
 	size_t n = 0;
 	long k, k0, k1;
 
@@ -50,8 +50,13 @@ size_t wl_ticks_linear(double lo, double hi, size_t max_ticks, double *out, size
 			break;
 		step = nice_step(step * 1.01);
 	}
-	first = (double)k0 * step;
-	(void)first;
+	/* a short range between two coarse ticks: refine so that at least two show */
+	while (k1 - k0 + 1 < 2) {
+		double e = pow(10.0, floor(log10(step) + 1e-12)), f = step / e;
+		step = f > 4.5 ? 2 * e : f > 1.5 ? e : 0.5 * e;
+		k0 = (long)ceil(lo / step - 1e-9);
+		k1 = (long)floor(hi / step + 1e-9);
+	}
 	for (k = k0; k <= k1 && n < cap; k++) {
 		double v = (double)k * step;
 		if (fabs(v) < step * 1e-9)
@@ -174,21 +179,31 @@ void wl_palette(size_t i, double rgb[3])
 
 char *wl_tick_label(char *buf, double v)
 {
-	int sig;
+	int d, sig;
+	double back;
 	char tmp[WL_NUMBUF];
 	if (v == 0 || fabs(v) < 1e-300) {
 		strcpy(buf, "0");
 		return buf;
 	}
-	/* the fewest significant digits that give back v to 1e-9 relative */
+	/* plain decimals for everyday magnitudes: the fewest that give back v */
+	if (fabs(v) >= 1e-4 && fabs(v) < 1e7) {
+		for (d = 0; d <= 10; d++) {
+			wl_fmt_fixed(tmp, v, d);
+			if (wl_parse_double(tmp, &back) && fabs(back - v) <= 1e-9 * fabs(v))
+				break;
+		}
+		if (d <= 10) {
+			snprintf(buf, 32, "%s", tmp);
+			return buf;
+		}
+	}
 	for (sig = 1; sig < 6; sig++) {
-		double back;
 		wl_fmt_g(tmp, v, sig);
 		if (wl_parse_double(tmp, &back) && fabs(back - v) <= 1e-9 * fabs(v))
 			break;
 	}
 	wl_fmt_g(tmp, v, sig);
-	strncpy(buf, tmp, 31);
-	buf[31] = '\0';
+	snprintf(buf, 32, "%s", tmp);
 	return buf;
 }
