@@ -249,7 +249,7 @@ static wl_status run(const char *clip, const char *frames_csv, int threads, int 
 		int nd;
 		const wl_damage *dm = wl_decoder_damage(dec, &nd);
 		char b[WL_NUMBUF];
-		wl_err_set(err, WL_EDECODE, "%s: frame %lld at %s s: %s (%lld problems in all): the clip is damaged; "
+		wl_err_set(err, WL_EDECODE, "%s: frame %lld at %s s: %s (%lld damage reports in all): the clip is damaged; "
 			   "frames around these times may be wrong",
 			   clip, (long long)dm[0].frame_index, isfinite(dm[0].t_s) ? wl_fmt_fixed(b, dm[0].t_s, 3) : "?",
 			   dm[0].what, (long long)wl_decoder_damage_count(dec));

@@ -7,6 +7,8 @@
  */
 #include "decode/decode.h"
 
+#include "core/csvio.h"
+
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>
@@ -37,6 +39,7 @@ struct wl_decoder {
 	int draining;    /* the NULL packet was sent */
 	int finished;    /* the decoder returned AVERROR_EOF */
 	int after_seek;  /* frame indices are unknown since a seek */
+	int end_checked; /* check_end has run */
 
 	wl_video_info info;
 	wl_frame out;
@@ -466,6 +469,41 @@ static void feed(wl_decoder *dec)
 	av_packet_unref(dec->pkt);
 }
 
+/*
+ * A clip cut short (a copy that stopped, a full card) often ends without a
+ * read error: the demuxer just meets the end of the file.  The container's
+ * own frame count and stream duration then say more than was decoded.  Two
+ * frames of slack allow for edit lists that drop a frame or two.
+ */
+static void check_end(wl_decoder *dec)
+{
+	const wl_video_info *in = &dec->info;
+	double dur = NAN, dt, span;
+	char what[96];
+
+	if (dec->end_checked || dec->after_seek || dec->nframes == 0)
+		return;
+	dec->end_checked = 1;
+	if (in->frames_hint > 0 && dec->nframes + 2 < in->frames_hint) {
+		snprintf(what, sizeof what, "stream ends early: %lld of the %lld frames listed (file cut short?)",
+			 (long long)dec->nframes, (long long)in->frames_hint);
+		add_damage(dec, dec->nframes, dec->last_t_s, what, 0);
+		return;
+	}
+	if (dec->st->duration != AV_NOPTS_VALUE && dec->st->duration > 0)
+		dur = (double)dec->st->duration * dec->tb_s;
+	else if (dec->fmt->nb_streams == 1 && dec->fmt->duration != AV_NOPTS_VALUE && dec->fmt->duration > 0)
+		dur = (double)dec->fmt->duration / AV_TIME_BASE; /* only one stream: it is the video's */
+	dt = dec->nframes > 1 ? dec->last_t_s / (double)(dec->nframes - 1) : dec->guess_dt_s;
+	span = dec->last_t_s + dt;
+	if (isfinite(dur) && span + 2 * dt + 0.5 < dur) {
+		char b1[WL_NUMBUF], b2[WL_NUMBUF];
+		snprintf(what, sizeof what, "stream ends early: at %s s of the %s s announced (file cut short?)",
+			 wl_fmt_fixed(b1, span, 3), wl_fmt_fixed(b2, dur, 3));
+		add_damage(dec, dec->nframes, dec->last_t_s, what, 0);
+	}
+}
+
 wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 {
 	*frame = NULL;
@@ -478,6 +516,7 @@ wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 		}
 		if (ret == AVERROR_EOF) {
 			dec->finished = 1;
+			check_end(dec);
 		} else if (ret != AVERROR(EAGAIN)) {
 			add_damage(dec, next_index(dec), NAN, "frame could not be decoded", ret);
 			if (++dec->errors_in_a_row > MAX_ERRORS_IN_A_ROW) {
@@ -534,6 +573,7 @@ wl_status wl_decoder_seek(wl_decoder *dec, double t_s, wl_err *err)
 	dec->finished = 0;
 	dec->errors_in_a_row = 0;
 	dec->after_seek = 1;
+	dec->end_checked = 1;
 	return WL_OK;
 }
 
