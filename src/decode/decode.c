@@ -20,12 +20,20 @@
 #include <libavformat/avformat.h>
 #include <libavutil/display.h>
 #include <libavutil/imgutils.h>
+#include <libavutil/opt.h>
 #include <libavutil/pixdesc.h>
 #include <libswscale/swscale.h>
 
 /* After this many receive errors in a row the stream is given up (a decoder
  * that keeps failing would otherwise spin). */
 #define MAX_ERRORS_IN_A_ROW 1000
+
+/* A swscale conversion and its output frame, remade when the input changes. */
+struct conv {
+	struct SwsContext *sws;
+	AVFrame *out;
+	int w, h, src_fmt, src_full, cs;
+};
 
 struct wl_decoder {
 	AVFormatContext *fmt;
@@ -57,9 +65,7 @@ struct wl_decoder {
 	wl_damage damage[WL_DAMAGE_KEEP];
 	int errors_in_a_row;
 
-	struct SwsContext *sws_luma, *sws_rgb;
-	uint8_t *luma_buf, *rgb_buf;
-	size_t luma_cap, rgb_cap;
+	struct conv *luma_conv, *rgb_conv;
 };
 
 /* ---- orientation ------------------------------------------------------ */
@@ -323,52 +329,103 @@ static int frame_full_range(const AVFrame *f)
 	       (d && (d->flags & AV_PIX_FMT_FLAG_RGB));
 }
 
-static int grow(uint8_t **buf, size_t *cap, size_t need)
+static void conv_free(struct conv *c)
 {
-	uint8_t *p;
-	if (need <= *cap)
-		return 1;
-	p = av_realloc(*buf, need);
-	if (!p)
-		return 0;
-	*buf = p;
-	*cap = need;
-	return 1;
+	if (!c)
+		return;
+	sws_freeContext(c->sws);
+	av_frame_free(&c->out);
+	free(c);
+}
+
+/* The 8-bit YUV format with the same chroma layout, so that swscale does not
+ * resample chroma we do not use. */
+static enum AVPixelFormat yuv8_like(enum AVPixelFormat f)
+{
+	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get(f);
+	if (d && d->log2_chroma_w == 0 && d->log2_chroma_h == 0)
+		return AV_PIX_FMT_YUV444P;
+	if (d && d->log2_chroma_w == 1 && d->log2_chroma_h == 0)
+		return AV_PIX_FMT_YUV422P;
+	return AV_PIX_FMT_YUV420P;
 }
 
 /*
- * Converts the frame with swscale into an 8-bit plane of `dst_fmt`.  For
- * luma (GRAY8) the range is kept as in the source (src and dst range are
- * told the same), so a limited-range 10-bit clip gives the same 16..235
- * plane as its 8-bit version; swscale would otherwise treat gray as full
- * range and stretch it.  RGB is always full range, with the source's range
- * and matrix told to swscale.
+ * Sets up a conversion of frames like f to dst_fmt.  The ranges are given as
+ * options before sws_init_context: FFmpeg 5.1's sws_setColorspaceDetails does
+ * not redo the range conversion for sources deeper than 8 bits, and swscale
+ * takes GRAY8 as full range, so a limited 10-bit clip would come out
+ * stretched.  The luma of a YUV source therefore goes through an 8-bit YUV
+ * format in the source's own range; RGB output is full range, with the
+ * source's matrix (BT.601 when the stream does not say, as swscale and the
+ * ffmpeg CLI assume).
  */
-static wl_status convert(wl_decoder *dec, struct SwsContext **ctx, enum AVPixelFormat dst_fmt, uint8_t **buf,
-			 size_t *cap, int *stride, wl_err *err)
+static int conv_setup(struct conv *c, const AVFrame *f, enum AVPixelFormat dst_fmt, int full, int cs)
+{
+	int rgb_dst = dst_fmt == AV_PIX_FMT_RGB24;
+	sws_freeContext(c->sws);
+	av_frame_free(&c->out);
+	c->sws = sws_alloc_context();
+	c->out = av_frame_alloc();
+	if (!c->sws || !c->out)
+		return 0;
+	av_opt_set_int(c->sws, "srcw", f->width, 0);
+	av_opt_set_int(c->sws, "srch", f->height, 0);
+	av_opt_set_int(c->sws, "src_format", f->format, 0);
+	av_opt_set_int(c->sws, "dstw", f->width, 0);
+	av_opt_set_int(c->sws, "dsth", f->height, 0);
+	av_opt_set_int(c->sws, "dst_format", dst_fmt, 0);
+	av_opt_set_int(c->sws, "sws_flags", SWS_BILINEAR | SWS_ACCURATE_RND, 0);
+	av_opt_set_int(c->sws, "src_range", full, 0);
+	av_opt_set_int(c->sws, "dst_range", rgb_dst ? 1 : full, 0);
+	if (sws_init_context(c->sws, NULL, NULL) < 0)
+		return 0;
+	/* The matrix (and the same ranges again); refused harmlessly for RGB sources. */
+	sws_setColorspaceDetails(c->sws, sws_getCoefficients(cs), full, sws_getCoefficients(SWS_CS_DEFAULT),
+				 rgb_dst ? 1 : full, 0, 1 << 16, 1 << 16);
+	c->out->format = dst_fmt;
+	c->out->width = f->width;
+	c->out->height = f->height;
+	if (av_frame_get_buffer(c->out, 64) < 0)
+		return 0;
+	c->w = f->width;
+	c->h = f->height;
+	c->src_fmt = f->format;
+	c->src_full = full;
+	c->cs = cs;
+	return 1;
+}
+
+/* Converts the current frame for luma (rgb = 0) or RGB24 (rgb = 1). */
+static wl_status convert(wl_decoder *dec, struct conv **cp, int rgb, wl_err *err)
 {
 	const AVFrame *f = dec->frame;
+	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get((enum AVPixelFormat)f->format);
 	int full = frame_full_range(f);
 	int cs = (f->colorspace >= 0 && f->colorspace <= 10) ? (int)f->colorspace : SWS_CS_DEFAULT;
-	int bpp = dst_fmt == AV_PIX_FMT_RGB24 ? 3 : 1;
-	uint8_t *dst[4] = { NULL };
-	int dst_stride[4] = { 0 };
+	enum AVPixelFormat dst = rgb ? AV_PIX_FMT_RGB24
+				     : (d && (d->flags & AV_PIX_FMT_FLAG_RGB)) ? AV_PIX_FMT_GRAY8
+									      : yuv8_like((enum AVPixelFormat)f->format);
+	struct conv *c = *cp;
 
-	*ctx = sws_getCachedContext(*ctx, f->width, f->height, (enum AVPixelFormat)f->format, f->width, f->height,
-				    dst_fmt, SWS_BILINEAR | SWS_ACCURATE_RND, NULL, NULL, NULL);
-	if (!*ctx)
-		return wl_err_set(err, WL_EDECODE, "%s: frame %lld: cannot convert pixel format '%s': re-encode "
-				  "the clip as yuv420p", dec->info.path, (long long)dec->nframes,
-				  av_get_pix_fmt_name((enum AVPixelFormat)f->format));
-	/* Fails (harmlessly) for RGB sources, which have no YUV matrix. */
-	sws_setColorspaceDetails(*ctx, sws_getCoefficients(cs), full, sws_getCoefficients(SWS_CS_DEFAULT),
-				 dst_fmt == AV_PIX_FMT_RGB24 ? 1 : full, 0, 1 << 16, 1 << 16);
-	*stride = FFALIGN(f->width * bpp, 64);
-	if (!grow(buf, cap, (size_t)*stride * (size_t)f->height + 64))
-		return wl_err_set(err, WL_ENOMEM, "%s: out of memory converting a frame", dec->info.path);
-	dst[0] = *buf;
-	dst_stride[0] = *stride;
-	sws_scale(*ctx, (const uint8_t *const *)f->data, f->linesize, 0, f->height, dst, dst_stride);
+	if (!c) {
+		c = *cp = calloc(1, sizeof *c);
+		if (!c)
+			return wl_err_set(err, WL_ENOMEM, "%s: out of memory converting a frame", dec->info.path);
+	}
+	if (!c->sws || c->w != f->width || c->h != f->height || c->src_fmt != f->format || c->src_full != full ||
+	    c->cs != cs) {
+		if (!conv_setup(c, f, dst, full, cs)) {
+			c->w = 0; /* set up again next time */
+			return wl_err_set(err, WL_EDECODE,
+					  "%s: frame %lld: cannot convert pixel format '%s' to 8 bits: re-encode the "
+					  "clip as yuv420p",
+					  dec->info.path, (long long)dec->nframes,
+					  av_get_pix_fmt_name((enum AVPixelFormat)f->format));
+		}
+	}
+	sws_scale(c->sws, (const uint8_t *const *)f->data, f->linesize, 0, f->height, c->out->data,
+		  c->out->linesize);
 	return WL_OK;
 }
 
@@ -381,16 +438,20 @@ static wl_status make_planes(wl_decoder *dec, wl_err *err)
 		dec->out.luma = f->data[0];
 		dec->out.luma_stride = f->linesize[0];
 	} else {
-		st = convert(dec, &dec->sws_luma, AV_PIX_FMT_GRAY8, &dec->luma_buf, &dec->luma_cap,
-			     &dec->out.luma_stride, err);
-		dec->out.luma = dec->luma_buf;
+		st = convert(dec, &dec->luma_conv, 0, err);
+		if (st == WL_OK) {
+			dec->out.luma = dec->luma_conv->out->data[0];
+			dec->out.luma_stride = dec->luma_conv->out->linesize[0];
+		}
 	}
 	dec->out.rgb = NULL;
 	dec->out.rgb_stride = 0;
 	if (st == WL_OK && (dec->flags & WL_DECODE_RGB)) {
-		st = convert(dec, &dec->sws_rgb, AV_PIX_FMT_RGB24, &dec->rgb_buf, &dec->rgb_cap, &dec->out.rgb_stride,
-			     err);
-		dec->out.rgb = dec->rgb_buf;
+		st = convert(dec, &dec->rgb_conv, 1, err);
+		if (st == WL_OK) {
+			dec->out.rgb = dec->rgb_conv->out->data[0];
+			dec->out.rgb_stride = dec->rgb_conv->out->linesize[0];
+		}
 	}
 	return st;
 }
@@ -597,10 +658,8 @@ void wl_decoder_destroy(wl_decoder *dec)
 {
 	if (!dec)
 		return;
-	sws_freeContext(dec->sws_luma);
-	sws_freeContext(dec->sws_rgb);
-	av_free(dec->luma_buf);
-	av_free(dec->rgb_buf);
+	conv_free(dec->luma_conv);
+	conv_free(dec->rgb_conv);
 	av_frame_free(&dec->frame);
 	av_packet_free(&dec->pkt);
 	avcodec_free_context(&dec->cc);
