@@ -168,7 +168,8 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 
 /* Rebuilds OUT/summary.csv, the sweep plots and OUT/report.html from
  * OUT/clips/<name>/clip.json and summary.json (and OUT/batch.json for the
- * manifest's missing clips and, when sweep is NULL, the sweep options).
+ * manifest's missing clips and the batch's sweep options; fields set in
+ * `sweep` (may be NULL) replace those).
  * Clip folders without path_m.png get their plots drawn from clean.csv and
  * summary.json.  res may be NULL. */
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,

@@ -398,13 +398,20 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 			if (!prow_new(&p, wl_json_string_or(m, "clip", "?"), "", "missing", wl_json_string_or(m, "error", "")))
 				break;
 		}
-		if (!sweep) {
+		{
 			const char *x = wl_json_string_or(bj, "x_col", ""), *g = wl_json_string_or(bj, "group_col", "");
 			so.x_col = x[0] ? x : NULL;
 			so.group_col = g[0] ? g : NULL;
 			so.body_diameter_m = wl_json_number_or(bj, "body_diameter_m", 0);
 		}
 	}
+	/* what the caller gives wins; what it leaves out comes from batch.json */
+	if (sweep && sweep->x_col)
+		so.x_col = sweep->x_col;
+	if (sweep && sweep->group_col)
+		so.group_col = sweep->group_col;
+	if (sweep && sweep->body_diameter_m > 0)
+		so.body_diameter_m = sweep->body_diameter_m;
 	if (p.oom) {
 		s = wl_err_set(err, WL_ENOMEM, "out of memory reading the clip folders of '%s'", out_dir);
 		goto out;
@@ -421,7 +428,7 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	}
 	res->clips = nn;
 	/* a bad sweep column is an error, but the table is still worth a page */
-	s = wl_report_sweep_plots(&t, sweep ? sweep : &so, out_dir, &written, err);
+	s = wl_report_sweep_plots(&t, &so, out_dir, &written, err);
 	{
 		wl_err herr;
 		wl_status hs = wl_report_html(&t, out_dir, "wakeline batch report", written, s ? &herr : err);
