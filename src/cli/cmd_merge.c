@@ -69,7 +69,9 @@ int cmd_merge(int argc, char **argv)
 	if (argc - optind != 1)
 		return cli_usage_error("merge", "wants one OUTDIR (the -o folder of a batch)");
 	wl_err_clear(&err);
-	if (wl_batch_merge(argv[optind], use_so ? &so : NULL, &res, &err) != WL_OK)
+	c = wl_batch_merge(argv[optind], use_so ? &so : NULL, &res, &err);
+	wl_report_release_caches();
+	if (c != WL_OK)
 		return cli_fail("merge", &err);
 	printf("merge: %zu runs from %zu clip folders, %zu failed, %zu missing; see %s/report.html\n", res.runs,
 	       res.clips, res.failed, res.missing, argv[optind]);

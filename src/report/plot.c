@@ -5,8 +5,10 @@
  * through cairo's own font API (fontconfig's sans face); SVG output is
  * produced by cairo's SVG surface, never by hand.
  */
-#define _POSIX_C_SOURCE 200809L
+#define _GNU_SOURCE
 #include "report/report.h"
+
+#include <dlfcn.h>
 
 #include <cairo.h>
 #include <cairo-svg.h>
@@ -827,4 +829,17 @@ wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double
 				  "cannot draw '%s': %s: check free disk space", path, cairo_status_to_string(cs));
 	}
 	return wl_afile_commit(af, err);
+}
+
+/* fontconfig comes in through cairo; its FcFini is looked up at run time so
+ * that the library need not link fontconfig itself. */
+void wl_report_release_caches(void)
+{
+	void (*fc_fini)(void);
+	void *sym;
+	cairo_debug_reset_static_data();
+	sym = dlsym(RTLD_DEFAULT, "FcFini");
+	memcpy(&fc_fini, &sym, sizeof fc_fini);
+	if (fc_fini)
+		fc_fini();
 }

@@ -145,6 +145,11 @@ void wl_plot_layout(const wl_plot *p, double width_pt, double height_pt, double 
 wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double height_pt, const char *path,
 		       wl_err *err);
 
+/* Frees cairo's process-wide caches (fonts).  Call once before a program
+ * that drew plots exits, after all drawing, so that leak checkers see only
+ * real leaks; drawing after it works but rebuilds the caches. */
+void wl_report_release_caches(void);
+
 /* ---- per-run plots ------------------------------------------------------ */
 
 /* What the path plot draws besides the track.  Any field may be empty. */

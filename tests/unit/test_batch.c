@@ -548,5 +548,7 @@ int main(void)
 		cmocka_unit_test(test_run_resume_and_failures),
 		cmocka_unit_test(test_kill_and_resume),
 	};
-	return cmocka_run_group_tests(tests, setup, teardown);
+	int rc = cmocka_run_group_tests(tests, setup, teardown);
+	wl_report_release_caches();
+	return rc;
 }

@@ -475,5 +475,7 @@ int main(void)
 		cmocka_unit_test(test_clip_plots),
 		cmocka_unit_test(test_sweep_and_html),
 	};
-	return cmocka_run_group_tests(tests, setup_dir, teardown_dir);
+	int rc = cmocka_run_group_tests(tests, setup_dir, teardown_dir);
+	wl_report_release_caches();
+	return rc;
 }
