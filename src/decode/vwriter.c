@@ -84,9 +84,12 @@ static wl_status check_opts(const char *path, const wl_vwriter_opts *o, wl_err *
 	return WL_OK;
 }
 
-/* Stores the display matrix.  av_display_rotation_set takes degrees
- * counter-clockwise, the same sense as the contract's rotation_deg (and as
- * av_display_rotation_get, which the decoder reads back). */
+/* Stores the display matrix.  FFmpeg 5.1's display.h: av_display_rotation_set
+ * builds a CLOCKWISE rotation while av_display_rotation_get (what ffprobe
+ * prints and the decoder reads) returns the COUNTER-CLOCKWISE angle; so a
+ * counter-clockwise rotation_deg is stored as set(-rotation_deg).  Checked
+ * with ffprobe against `ffmpeg -metadata:s:v:0 rotate=90` (REFERENCES.md):
+ * both report rotation 90 (tests/e2e/0100-synth-clip.sh). */
 static wl_status add_rotation(wl_vwriter *w, wl_err *err)
 {
 	uint8_t *m;
@@ -95,7 +98,7 @@ static wl_status add_rotation(wl_vwriter *w, wl_err *err)
 	m = av_malloc(9 * sizeof(int32_t));
 	if (!m)
 		return wl_err_set(err, WL_ENOMEM, "cannot write video '%s': out of memory", w->path);
-	av_display_rotation_set((int32_t *)m, (double)w->o.rotation_deg);
+	av_display_rotation_set((int32_t *)m, -(double)w->o.rotation_deg);
 	if (av_stream_add_side_data(w->st, AV_PKT_DATA_DISPLAYMATRIX, m, 9 * sizeof(int32_t)) < 0) {
 		av_free(m);
 		return wl_err_set(err, WL_ENOMEM, "cannot write video '%s': cannot store the rotation", w->path);
