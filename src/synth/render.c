@@ -52,7 +52,14 @@ struct wl_synth_renderer {
 	tag_tex *robot_tex;   /* one per robot (unused cells NULL) */
 	int16_t noise[NOISE_TAB];
 	int order[WL_SYNTH_MAX_ROBOTS]; /* robots by marker height, lowest first */
+	double mcos[WL_SYNTH_MAX_MARKERS], msin[WL_SYNTH_MAX_MARKERS]; /* floor marker yaws */
 };
+
+/* A robot pose ready for shading: centre, heading and tag-up directions. */
+typedef struct {
+	double x, y, ch, sh, cu, su;
+	int visible;
+} rpose;
 
 /* Builds the cell grid of one code exactly as AprilTag's apriltag_to_image:
  * bit i (most significant first) sits at (bit_x[i], bit_y[i]) inside the
@@ -102,7 +109,7 @@ static void shade_floor(const wl_synth_renderer *r, double x, double y, float ou
 	const uint8_t *c;
 	for (int i = 0; i < sc->n_markers; i++) {
 		const wl_synth_marker *m = &sc->markers[i];
-		double dx = x - m->x_m, dy = y - m->y_m, cs = cos(m->yaw_rad), sn = sin(m->yaw_rad);
+		double dx = x - m->x_m, dy = y - m->y_m, cs = r->mcos[i], sn = r->msin[i];
 		float g;
 		/* right = (cos yaw, sin yaw), up = (-sin yaw, cos yaw) */
 		if (tex_sample(&r->marker_tex[i], m->size_m, dx * cs + dy * sn, -dx * sn + dy * cs, &g)) {
@@ -190,13 +197,21 @@ static int render_background(wl_synth_renderer *r, int nthreads)
 
 static void noise_table(wl_synth_renderer *r)
 {
-	/* Box-Muller over counter-based uniforms: deterministic per seed */
+	/* Box-Muller over counter-based uniforms (deterministic per seed),
+	 * then standardised so the table itself has mean 0 and variance 1 */
+	double g[NOISE_TAB], m = 0, v = 0;
 	for (int i = 0; i < NOISE_TAB; i++) {
 		double u1 = synth_unit(synth_mix64(r->sc->seed * 2654435761u + 2 * (uint64_t)i + 11));
 		double u2 = synth_unit(synth_mix64(r->sc->seed * 2654435761u + 2 * (uint64_t)i + 12));
-		double g = sqrt(-2 * log(1 - u1)) * cos(2 * M_PI * u2);
-		r->noise[i] = (int16_t)lround(g * r->sc->noise_sigma);
+		g[i] = sqrt(-2 * log(1 - u1)) * cos(2 * M_PI * u2);
+		m += g[i];
 	}
+	m /= NOISE_TAB;
+	for (int i = 0; i < NOISE_TAB; i++)
+		v += (g[i] - m) * (g[i] - m);
+	v = sqrt(v / NOISE_TAB);
+	for (int i = 0; i < NOISE_TAB; i++)
+		r->noise[i] = (int16_t)lround((g[i] - m) / v * r->sc->noise_sigma);
 }
 
 wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_synth_renderer **out, wl_err *err)
@@ -250,6 +265,10 @@ wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_sy
 		}
 		r->order[j] = i;
 	}
+	for (int i = 0; i < sc->n_markers; i++) {
+		r->mcos[i] = cos(sc->markers[i].yaw_rad);
+		r->msin[i] = sin(sc->markers[i].yaw_rad);
+	}
 	noise_table(r);
 	render_background(r, nthreads);
 	for (size_t i = 0; i < (size_t)r->w * r->h * 3; i++)
@@ -287,22 +306,20 @@ void wl_synth_renderer_destroy(wl_synth_renderer *r)
 
 /* Shades a point of robot i's marker plane given relative to the marker
  * centre (dx, dy, metres, tank axes).  Returns 0 when off the robot. */
-static int shade_robot(const wl_synth_renderer *r, int i, const wl_synth_pose *p, double dx, double dy, float out[3])
+static int shade_robot(const wl_synth_renderer *r, int i, const rpose *p, double dx, double dy, float out[3])
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
-	double ch = cos(p->heading_rad), sh = sin(p->heading_rad);
-	double fwd = dx * ch + dy * sh, left = -dx * sh + dy * ch;
 	double rr = 0.5 * rb->diameter_m;
 	if (rb->kind == WL_SYNTH_TAG) {
 		/* the tag's up is heading + offset, its right 90 degrees clockwise of that */
-		double o = rb->tag_offset_rad, co = cos(o), so = sin(o);
-		double up = fwd * co + left * so, lup = -fwd * so + left * co; /* lup: along the tag's left */
+		double up = dx * p->cu + dy * p->su, right = dx * p->su - dy * p->cu;
 		float g;
-		if (tex_sample(&r->robot_tex[i], rb->tag_size_m, -lup, up, &g)) {
+		if (tex_sample(&r->robot_tex[i], rb->tag_size_m, right, up, &g)) {
 			out[0] = out[1] = out[2] = g;
 			return 1;
 		}
 	} else {
+		double fwd = dx * p->ch + dy * p->sh, left = -dx * p->sh + dy * p->ch;
 		double cr2 = 0.25 * rb->cap_diameter_m * rb->cap_diameter_m;
 		double f1 = fwd - rb->cap_offset_m, f2 = fwd + rb->cap_offset_m;
 		if (f1 * f1 + left * left <= cr2) {
@@ -316,7 +333,7 @@ static int shade_robot(const wl_synth_renderer *r, int i, const wl_synth_pose *p
 			return 1;
 		}
 	}
-	if (fwd * fwd + left * left <= rr * rr) {
+	if (dx * dx + dy * dy <= rr * rr) {
 		for (int k = 0; k < 3; k++)
 			out[k] = rb->disc_rgb[k];
 		return 1;
@@ -325,7 +342,7 @@ static int shade_robot(const wl_synth_renderer *r, int i, const wl_synth_pose *p
 }
 
 /* The pixel box that robot i can cover during the exposure of time t. */
-static int robot_box(const wl_synth_renderer *r, int i, const wl_synth_pose *poses, int np, int box[4])
+static int robot_box(const wl_synth_renderer *r, int i, const rpose *poses, int np, int box[4])
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
 	double reach = 0.5 * rb->diameter_m;
@@ -339,8 +356,8 @@ static int robot_box(const wl_synth_renderer *r, int i, const wl_synth_pose *pos
 		for (int a = 0; a < 24; a++) {
 			double ang = 2 * M_PI * a / 24, X[3], u, v;
 			/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
-			X[0] = poses[j].x_m + reach * 1.01 * cos(ang);
-			X[1] = poses[j].y_m + reach * 1.01 * sin(ang);
+			X[0] = poses[j].x + reach * 1.01 * cos(ang);
+			X[1] = poses[j].y + reach * 1.01 * sin(ang);
 			X[2] = rb->height_m;
 			if (!wl_camera_project_water(&r->sc->cam, X, &u, &v))
 				return 0;
@@ -367,7 +384,7 @@ static int robot_box(const wl_synth_renderer *r, int i, const wl_synth_pose *pos
 }
 
 /* Renders robot i over the frame for the exposure's sub-frame poses. */
-static void draw_robot(const wl_synth_renderer *r, int i, const wl_synth_pose *poses, int np, uint8_t *rgb,
+static void draw_robot(const wl_synth_renderer *r, int i, const rpose *poses, int np, uint8_t *rgb,
 		       int stride)
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
@@ -388,7 +405,7 @@ static void draw_robot(const wl_synth_renderer *r, int i, const wl_synth_pose *p
 					for (int j = 0; j < np; j++) {
 						if (!poses[j].visible)
 							continue;
-						if (shade_robot(r, i, &poses[j], x - poses[j].x_m, y - poses[j].y_m, c)) {
+						if (shade_robot(r, i, &poses[j], x - poses[j].x, y - poses[j].y, c)) {
 							acc[0] += c[0];
 							acc[1] += c[1];
 							acc[2] += c[2];
@@ -473,7 +490,7 @@ static void add_noise(const wl_synth_renderer *r, long k, uint8_t *rgb, int stri
 wl_status wl_synth_render_at(wl_synth_renderer *r, double t_s, long k, uint8_t *rgb, int stride, wl_err *err)
 {
 	const wl_synth_scene *sc = r->sc;
-	wl_synth_pose poses[32];
+	rpose poses[32];
 	int np = sc->blur_samples < 1 ? 1 : sc->blur_samples > 32 ? 32 : sc->blur_samples;
 	if (stride < 3 * r->w)
 		return wl_err_set(err, WL_EINVAL, "render: stride %d is less than 3 x width %d", stride, r->w);
@@ -484,7 +501,15 @@ wl_status wl_synth_render_at(wl_synth_renderer *r, double t_s, long k, uint8_t *
 		for (int j = 0; j < np; j++) {
 			/* sub-frame times spread evenly over an exposure centred on t */
 			double dt = np > 1 ? sc->exposure_s * ((j + 0.5) / np - 0.5) : 0;
-			wl_synth_robot_pose(sc, i, t_s + dt, &poses[j]);
+			wl_synth_pose p;
+			wl_synth_robot_pose(sc, i, t_s + dt, &p);
+			poses[j].x = p.x_m;
+			poses[j].y = p.y_m;
+			poses[j].ch = cos(p.heading_rad);
+			poses[j].sh = sin(p.heading_rad);
+			poses[j].cu = cos(p.heading_rad + sc->robots[i].tag_offset_rad);
+			poses[j].su = sin(p.heading_rad + sc->robots[i].tag_offset_rad);
+			poses[j].visible = p.visible;
 		}
 		draw_robot(r, i, poses, np, rgb, stride);
 	}

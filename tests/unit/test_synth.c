@@ -353,6 +353,100 @@ static void test_bad_scenes(void **state)
 	check_bad("{ \"tank\": { \"size_m\": [1, 1] },\n \"camera\": { ]", "bad.json:2:");
 }
 
+static void render_rgb(wl_synth_renderer *r, const wl_synth_scene *sc, double t, long k, uint8_t *rgb)
+{
+	wl_err err = { 0 };
+	assert_int_equal(wl_synth_render_at(r, t, k, rgb, 3 * sc->cam.width_px, &err), WL_OK);
+}
+
+static const uint8_t *px(const wl_synth_scene *sc, const uint8_t *rgb, double u, double v)
+{
+	return rgb + ((size_t)lround(v) * sc->cam.width_px + (size_t)lround(u)) * 3;
+}
+
+/* Caps: the front cap lies ahead along the heading, the back cap behind;
+ * occlusion intervals hide the robot (background pixels only). */
+static void test_caps_and_occlusion(void **state)
+{
+	static const char text[] =
+		"{ \"tank\": { \"size_m\": [1.2, 0.8], \"floor_rgb\": [200, 200, 200] },"
+		"  \"camera\": { \"width_px\": 640, \"height_px\": 480, \"hfov_deg\": 60, \"position_m\": [0.6, 0.4, 1.2] },"
+		"  \"robots\": [ { \"diameter_m\": 0.16, \"height_m\": 0.1, \"disc_rgb\": [30, 30, 30],"
+		"     \"marker\": { \"type\": \"caps\", \"front_rgb\": [250, 0, 0], \"back_rgb\": [0, 0, 250],"
+		"                   \"cap_diameter_m\": 0.05, \"offset_m\": 0.05 },"
+		"     \"path\": { \"start_m\": [0.6, 0.4], \"heading_deg\": 120, \"speed_mps\": 0 },"
+		"     \"occlusions\": [ [1.0, 2.0] ] } ] }";
+	wl_synth_scene sc;
+	wl_synth_renderer *r = NULL;
+	wl_err err = { 0 };
+	uint8_t *rgb;
+	double h = 120 * M_PI / 180, X[3], u, v;
+	(void)state;
+	load(text, &sc);
+	rgb = malloc((size_t)640 * 480 * 3);
+	assert_int_equal(wl_synth_renderer_create(&sc, 2, &r, &err), WL_OK);
+	render_rgb(r, &sc, 0.5, 0, rgb);
+	X[2] = 0.1;
+	X[0] = 0.6 + 0.05 * cos(h);
+	X[1] = 0.4 + 0.05 * sin(h);
+	wl_camera_project(&sc.cam, X, &u, &v);
+	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){ 250, 0, 0 }), 3);
+	X[0] = 0.6 - 0.05 * cos(h);
+	X[1] = 0.4 - 0.05 * sin(h);
+	wl_camera_project(&sc.cam, X, &u, &v);
+	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){ 0, 0, 250 }), 3);
+	X[0] = 0.6 + 0.065 * cos(h + M_PI / 2); /* beside the caps: the disc */
+	X[1] = 0.4 + 0.065 * sin(h + M_PI / 2);
+	wl_camera_project(&sc.cam, X, &u, &v);
+	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){ 30, 30, 30 }), 3);
+	/* hidden at t = 1.5 s: the floor colour where the disc was */
+	render_rgb(r, &sc, 1.5, 45, rgb);
+	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){ 200, 200, 200 }), 3);
+	wl_synth_pose p;
+	wl_synth_robot_pose(&sc, 0, 1.5, &p);
+	assert_int_equal(p.visible, 0);
+	wl_synth_robot_pose(&sc, 0, 2.01, &p);
+	assert_int_equal(p.visible, 1);
+	wl_synth_renderer_destroy(r);
+	free(rgb);
+}
+
+/* Noise: its standard deviation on a flat floor is the requested sigma;
+ * the same frame renders the same pixels, another frame other noise. */
+static void test_noise(void **state)
+{
+	static const char text[] = "{ \"seed\": 9, \"tank\": { \"size_m\": [4, 4], \"floor_rgb\": [128, 128, 128] },"
+				   "  \"camera\": { \"width_px\": 320, \"height_px\": 240, \"hfov_deg\": 40, \"position_m\": [2, 2, 2] },"
+				   "  \"effects\": { \"noise_sigma\": 4 } }";
+	wl_synth_scene sc;
+	wl_synth_renderer *r = NULL;
+	wl_err err = { 0 };
+	size_t n = (size_t)320 * 240 * 3;
+	uint8_t *a = malloc(n), *b = malloc(n), *c = malloc(n);
+	double sum = 0, sum2 = 0;
+	(void)state;
+	load(text, &sc);
+	assert_int_equal(wl_synth_renderer_create(&sc, 2, &r, &err), WL_OK);
+	render_rgb(r, &sc, 0, 3, a);
+	render_rgb(r, &sc, 0, 4, b);
+	render_rgb(r, &sc, 0, 3, c);
+	assert_memory_equal(a, c, n);
+	assert_memory_not_equal(a, b, n);
+	for (size_t i = 0; i < n; i++) {
+		sum += a[i] - 128.0;
+		sum2 += (a[i] - 128.0) * (a[i] - 128.0);
+	}
+	double mean = sum / n, sd = sqrt(sum2 / n - mean * mean);
+	printf("noise: sd %.4f mean %.4f\n", sd, mean);
+	/* rounding the Gaussian to whole levels adds 1/12 level^2 of variance */
+	assert_float_equal(sd, sqrt(16 + 1.0 / 12), 0.1);
+	assert_float_equal(mean, 0, 0.05);
+	wl_synth_renderer_destroy(r);
+	free(a);
+	free(b);
+	free(c);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -363,6 +457,8 @@ int main(void)
 		cmocka_unit_test(test_path_model),
 		cmocka_unit_test(test_vfr_times),
 		cmocka_unit_test(test_bad_scenes),
+		cmocka_unit_test(test_caps_and_occlusion),
+		cmocka_unit_test(test_noise),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
