@@ -96,7 +96,7 @@ typedef struct {
 	int worst;                  /* index of the largest residual among the used */
 	int focal_determined;       /* 1: the homography gave f (oblique view) */
 	double focal_from_h_px;     /* that estimate (0 when not determined) */
-	double focal_spread;        /* relative jackknife spread of it (0 if n < 5) */
+	double focal_spread;        /* relative jackknife spread of it (0 if n < 7) */
 	double height_m, tilt_deg;  /* camera above the floor, optical axis from nadir */
 	int n_warn;
 	char warn[WL_CALIB_MAX_WARN][200];
@@ -111,6 +111,31 @@ typedef struct {
  * used as 3-D points.  cal is initialised here; warnings go to rep. */
 wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *opts, wl_calib *cal,
 			 wl_calib_report *rep, wl_err *err);
+
+/* ---- input tables and markers --------------------------------------- */
+
+/* One floor marker of a layout.  size_m: side of the tag's black square
+ * (0: unknown, only the centre is used); yaw_rad: counter-clockwise turn
+ * of the printed tag's "right" direction from tank +x. */
+typedef struct {
+	long id;
+	double x_m, y_m, z_m, size_m, yaw_rad;
+	long line; /* line in the layout file */
+} wl_calib_marker;
+
+/* Reads POINTS.csv (header u_px,v_px,x_m,y_m and optional z_m, id).
+ * Errors name the file and line; fewer than 4 rows is an error. */
+wl_status wl_calib_read_points(const char *path, wl_calib_point *pts, int max, int *n, wl_err *err);
+
+/* Reads LAYOUT.csv (header marker_id,x_m,y_m and optional z_m, size_m,
+ * yaw_rad).  Errors name the file and line: duplicate ids, cells that are
+ * not numbers, fewer than 4 rows. */
+wl_status wl_calib_read_layout(const char *path, wl_calib_marker *marks, int max, int *n, wl_err *err);
+
+/* The four tank positions of a marker's corners, in the order the tag
+ * detector reports them (see detect.c): for yaw 0, (-s/2,-s/2),
+ * (+s/2,-s/2), (+s/2,+s/2), (-s/2,+s/2) about the centre. */
+void wl_calib_marker_corners(const wl_calib_marker *m, double xy[4][2]);
 
 /* ---- the maths ------------------------------------------------------ */
 

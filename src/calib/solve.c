@@ -36,6 +36,7 @@ typedef struct {
 	double uv[2 * WL_CALIB_MAX_POINTS];  /* observed pixels */
 	double uvi[2 * WL_CALIB_MAX_POINTS]; /* ideal pixels (distortion removed) */
 	int used[WL_CALIB_MAX_POINTS];
+	const char *id[WL_CALIB_MAX_POINTS]; /* the points' names, for messages */
 } work;
 
 /* Copies the used points (skip < 0: all used; else also leave out skip). */
@@ -96,36 +97,58 @@ static void find_outlier(work *w, const wl_calib_opts *o, double H[9], wl_calib_
 			}
 		return;
 	}
-	for (int i = 0; i < w->n; i++) {
-		double Hi[9], rms;
-		if (!w->used[i] || fit_h(w, i, Hi, &rms, NULL))
-			continue;
-		if (rms < best) {
-			best = rms;
-			who = i;
+	{
+		double second = INFINITY;
+		int who2 = -1;
+		for (int i = 0; i < w->n; i++) {
+			double Hi[9], rms;
+			if (!w->used[i] || fit_h(w, i, Hi, &rms, NULL))
+				continue;
+			if (rms < best) {
+				second = best;
+				who2 = who;
+				best = rms;
+				who = i;
+			} else if (rms < second) {
+				second = rms;
+				who2 = i;
+			}
 		}
-	}
-	if (who >= 0) {
-		double Hi[9], rms, r;
-		fit_h(w, who, Hi, &rms, NULL);
-		r = h_resid(Hi, w, who);
-		if (r > thr && r > 4 * rms) {
-			w->used[who] = 0;
-			rep->outlier = who;
-			rep->outlier_residual_px = r;
-			memcpy(H, Hi, sizeof Hi);
+		if (who >= 0) {
+			double Hi[9], rms, r;
+			fit_h(w, who, Hi, &rms, NULL);
+			r = h_resid(Hi, w, who);
+			if (r > thr && r > 4 * rms) {
+				/* another point whose removal fits about as well: the
+				 * layout cannot tell them apart (e.g. three points on
+				 * a line, one shifted along it) */
+				if (who2 >= 0 && second < 3 * fmax(best, 0.2)) {
+					warn(rep,
+					     "one point is about %.0f px off, but the points cannot tell whether it is "
+					     "'%s' or '%s' (or another on the same line): check them, or add points "
+					     "off their lines",
+					     r, w->id[who], w->id[who2]);
+					return;
+				}
+				w->used[who] = 0;
+				rep->outlier = who;
+				rep->outlier_residual_px = r;
+				memcpy(H, Hi, sizeof Hi);
+			}
 		}
 	}
 }
 
-/* The jackknife spread of f (relative), 0 when it cannot be computed. */
+/* The jackknife spread of f (relative), 0 when it cannot be computed: with
+ * fewer than 7 points the leave-one-out fits rest on 4 or 5 points and
+ * scatter far more than f itself does, so only the tilt test applies. */
 static double focal_spread(const work *w, double cx, double cy, double f)
 {
 	double s = 0;
 	int k = 0, n_used = 0;
 	for (int i = 0; i < w->n; i++)
 		n_used += w->used[i];
-	if (n_used < 5)
+	if (n_used < 7)
 		return 0;
 	for (int i = 0; i < w->n; i++) {
 		double Hi[9], rms, fi;
@@ -221,10 +244,9 @@ static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opt
 		return WL_OK;
 	}
 	return wl_err_set(err, WL_ECALIB,
-			  "the view is too close to nadir (or the points too few or too noisy) to find the "
-			  "focal length from the markers%s: give the lens with --lens LENS.json (see "
-			  "'wakeline lens') or the horizontal field of view with --hfov-deg",
-			  rep->focal_from_h_px > 0 ? "" : " (no oblique perspective)");
+			  "the markers do not determine the focal length (the view is too close to nadir, "
+			  "or the points are too few or too noisy): give the lens with --lens LENS.json (see "
+			  "'wakeline lens') or the horizontal field of view with --hfov-deg");
 }
 
 static wl_status solve_planar(wl_calib *cal, work *w, double z0, const wl_calib_opts *o, wl_calib_report *rep,
@@ -234,7 +256,15 @@ static wl_status solve_planar(wl_calib *cal, work *w, double z0, const wl_calib_
 	wl_status st;
 	{
 		double xy[2 * WL_CALIB_MAX_POINTS], uv[2 * WL_CALIB_MAX_POINTS];
-		int k = gather(w, -1, xy, uv);
+		int k = gather(w, -1, xy, uv), ijk[3], idx[WL_CALIB_MAX_POINTS], m = 0;
+		for (int i = 0; i < w->n; i++)
+			if (w->used[i])
+				idx[m++] = i;
+		if (k == 4 && wl_points_collinear_triple(xy, k, ijk))
+			return wl_err_set(err, WL_ECALIB,
+					  "points '%s', '%s' and '%s' lie on one line, so four points do not fix a "
+					  "homography: move one or add points",
+					  w->id[idx[ijk[0]]], w->id[idx[ijk[1]]], w->id[idx[ijk[2]]]);
 		if ((st = wl_homography_check_points(xy, k, "tank positions", err)) ||
 		    (st = wl_homography_check_points(uv, k, "pixel positions", err)))
 			return st;
@@ -309,6 +339,7 @@ static wl_status load_work(const wl_calib_point *pts, int n, const wl_calib_opts
 			w->uvi[2 * i + 1] = lens.K[4] * y + lens.K[5];
 		}
 		w->used[i] = 1;
+		w->id[i] = p->id;
 	}
 	return WL_OK;
 }

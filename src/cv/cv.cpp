@@ -36,7 +36,7 @@ extern "C" wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixe
 	try {
 		if (channels != 1 && channels != 3)
 			return wl_err_set(err, WL_EINVAL, "imread: channels must be 1 or 3");
-		cv::Mat m = cv::imread(path, channels == 1 ? cv::IMREAD_GRAYSCALE : cv::IMREAD_COLOR);
+		cv::Mat m = cv::imread(path, (channels == 1 ? cv::IMREAD_GRAYSCALE : cv::IMREAD_COLOR) | cv::IMREAD_IGNORE_ORIENTATION);
 		if (m.empty())
 			return wl_err_set(err, WL_EIO, "cannot read image '%s': missing, unreadable or not an image",
 					  path);

@@ -20,7 +20,8 @@ extern "C" {
 #include "core/err.h" /* a C header: declared with C linkage here */
 
 /* Reads a PNG/JPEG/... file (cv::imread) into 8-bit gray (channels 1) or
- * packed RGB (channels 3).  *pixels (stride = width·channels) is freed with
+ * packed RGB (channels 3), as stored (EXIF orientation is ignored: the
+ * pixels are coded pixels).  *pixels (stride = width·channels) is freed with
  * free().  WL_EIO when the file cannot be read or is not an image. */
 wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixels, int *width_px, int *height_px,
 		       wl_err *err);
