@@ -12,6 +12,7 @@
 #include "calib/lens.h"
 #include "cli/cli.h"
 #include "cv/cv.h"
+#include "decode/decode.h"
 
 const char cmd_calibrate_summary[] = "floor markers or picked points -> camera model (CAL.json)";
 
@@ -90,6 +91,48 @@ static int is_image(const char *path)
 		       !strcasecmp(dot, ".bmp") || !strcasecmp(dot, ".tif") || !strcasecmp(dot, ".tiff"));
 }
 
+#define CLIP_FRAMES 20 /* frames of the span handed to the detector (spread evenly) */
+
+/* Frames from --at over --span seconds of a clip; corrupt frames skipped. */
+static wl_status read_clip(const options *op, wl_calib_tags *tags, int *w, int *h, int *rotation_deg,
+			   int *frames, wl_err *err)
+{
+	wl_decoder *dec = NULL;
+	const wl_frame *fr;
+	const wl_video_info *info;
+	double next_t = op->at_s, step;
+	wl_status st = wl_decoder_open(op->source, 0, 0, &dec, err);
+	if (st)
+		return st;
+	info = wl_decoder_info(dec);
+	*w = info->width_px;
+	*h = info->height_px;
+	*rotation_deg = info->rotation_deg;
+	step = op->span_s / CLIP_FRAMES;
+	if (op->at_s > 0 && (st = wl_decoder_seek(dec, op->at_s, err)))
+		goto out;
+	while (!(st = wl_decoder_next(dec, &fr, err)) && fr) {
+		int seen;
+		if (fr->t_s > op->at_s + op->span_s)
+			break;
+		if (fr->t_s + 1e-9 < next_t || fr->corrupt)
+			continue;
+		next_t = fr->t_s + step;
+		(*frames)++;
+		if (tags && (st = wl_calib_tags_add(tags, fr->luma, fr->width_px, fr->height_px, fr->luma_stride, &seen,
+						    err)))
+			break;
+		if (!tags)
+			break;
+	}
+	if (!st && *frames == 0)
+		st = wl_err_set(err, WL_EDECODE, "'%s': no frames between %.2f s and %.2f s: check --at and --span",
+				op->source, op->at_s, op->at_s + op->span_s);
+out:
+	wl_decoder_destroy(dec);
+	return st;
+}
+
 /* Frames of SOURCE handed to the tag detector (when tags != NULL); gives
  * the image size and orientation. */
 static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int *h, int *rotation_deg,
@@ -107,10 +150,7 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 		*frames = 1;
 		return st;
 	}
-	return wl_err_set(err, WL_EINVAL,
-			  "'%s': reading clips needs the decoder, which this build lacks: give a photo (PNG/JPEG) "
-			  "taken from the camera position",
-			  op->source);
+	return read_clip(op, tags, w, h, rotation_deg, frames, err);
 }
 
 #define MIN_MARGIN 40.0 /* median decision margin below this: a weak detection (our choice) */
