@@ -15,7 +15,13 @@
 #include <unistd.h>
 #include <cmocka.h>
 
+#include <apriltag.h>
+#include <common/image_u8.h>
+#include <tag36h11.h>
+
 #include "calib/calib.h"
+#include "calib/detect.h"
+#include "calib/lens.h"
 #include "core/afile.h"
 #include "core/linalg.h"
 
@@ -476,6 +482,116 @@ static void test_water_pose(void **state)
 	}
 }
 
+/* ---- tag detection at the AprilTag boundary ---- */
+
+/* A tag36h11 tag drawn with 20 px cells at a known place: its black square
+ * covers pixels 120..279, so in wakeline's convention (pixel centres at
+ * integers) the corners lie at 119.5 and 279.5 and the centre at 199.5;
+ * AprilTag reports them 0.5 px larger (PITFALLS.md). */
+static void test_tag_pixel_convention(void **state)
+{
+	apriltag_family_t *fam = tag36h11_create();
+	image_u8_t *tag = apriltag_to_image(fam, 5);
+	enum { W = 400, S = 20, OFF = 100 };
+	static uint8_t im[W * W];
+	const double want[4][2] = { { 119.5, 279.5 }, { 279.5, 279.5 }, { 279.5, 119.5 }, { 119.5, 119.5 } };
+	wl_calib_tags *t = NULL;
+	wl_tag_obs o;
+	wl_err err;
+	int seen;
+	(void)state;
+	memset(im, 255, sizeof im);
+	for (int y = OFF; y < OFF + S * tag->height; y++)
+		for (int x = OFF; x < OFF + S * tag->width; x++)
+			im[y * W + x] = tag->buf[((y - OFF) / S) * tag->stride + (x - OFF) / S];
+	assert_int_equal(wl_calib_tags_create("tag36h11", &t, &err), WL_OK);
+	assert_int_equal(wl_calib_tags_add(t, im, W, W, W, &seen, &err), WL_OK);
+	assert_int_equal(seen, 1);
+	assert_true(wl_calib_tags_get(t, 5, &o));
+	assert_false(wl_calib_tags_get(t, 4, &o));
+	assert_true(fabs(o.c[0] - 199.5) < 0.3 && fabs(o.c[1] - 199.5) < 0.3);
+	for (int k = 0; k < 4; k++) {
+		/* order: bottom-left, bottom-right, top-right, top-left on screen */
+		assert_true(fabs(o.p[k][0] - want[k][0]) < 0.3);
+		assert_true(fabs(o.p[k][1] - want[k][1]) < 0.3);
+	}
+	/* the same marker in a layout: corners in that order on the floor */
+	{
+		wl_calib_marker m = { 5, 1.0, 2.0, 0, 0.2, 0, 1 };
+		double xy[4][2];
+		wl_calib_marker_corners(&m, xy);
+		assert_true(fabs(xy[0][0] - 0.9) < 1e-12 && fabs(xy[0][1] - 1.9) < 1e-12);
+		assert_true(fabs(xy[2][0] - 1.1) < 1e-12 && fabs(xy[2][1] - 2.1) < 1e-12);
+		m.yaw_rad = 3.14159265358979323846 / 2; /* turned: corner 0 moves to (+, -) */
+		wl_calib_marker_corners(&m, xy);
+		assert_true(fabs(xy[0][0] - 1.1) < 1e-12 && fabs(xy[0][1] - 1.9) < 1e-12);
+	}
+	/* a tag whose black square starts 2 px from the frame edge is not used
+	 * (it may be cut) */
+	{
+		wl_calib_tags *t2 = NULL;
+		assert_int_equal(wl_calib_tags_create("tag36h11", &t2, &err), WL_OK);
+		assert_int_equal(wl_calib_tags_add(t2, im + 118, W - 118, W, W, &seen, &err), WL_OK);
+		assert_int_equal(seen, 0);
+		wl_calib_tags_destroy(t2);
+	}
+	assert_int_equal(wl_calib_tags_create("tag99x", &t, &err) == WL_OK, 0);
+	wl_calib_tags_destroy(t);
+	image_u8_destroy(tag);
+	tag36h11_destroy(fam);
+}
+
+/* Points at two heights (floor and 0.25 m) seen from nadir: the 3-D
+ * points give the focal length that a floor homography cannot. */
+static void test_points3d_nadir(void **state)
+{
+	wl_calib_point pts[64];
+	static wl_calib cal;
+	wl_camera cam;
+	wl_calib_opts o;
+	wl_calib_report rep;
+	wl_err err;
+	int n;
+	(void)state;
+	make_camera(&cam, 2, 1400);
+	n = make_points(&cam, 4, 3, 0, 0.2, 21, pts);
+	n += make_points(&cam, 4, 3, 0.25, 0.2, 22, pts + n);
+	for (int i = 12; i < n; i++)
+		snprintf(pts[i].id, sizeof pts[i].id, "up%d", i);
+	default_opts(&o);
+	assert_int_equal(wl_calib_solve(pts, n, &o, &cal, &rep, &err), WL_OK);
+	assert_string_equal(cal.intrinsics_source, "points3d");
+	print_message("points at two heights, nadir: f %.1f (true 1400), height %.4f m\n", cal.cam.K[0], rep.height_m);
+	assert_true(fabs(cal.cam.K[0] - 1400) < 28);
+	assert_true(fabs(rep.height_m - 2.0) < 0.04);
+}
+
+/* LENS.json round trip and validation. */
+static void test_lens_file(void **state)
+{
+	wl_lens a, b;
+	wl_err err;
+	char path[300], bad[300];
+	(void)state;
+	memset(&a, 0, sizeof a);
+	wl_camera_init(&a.cam, 640, 480, 532.8, 532.9, 342.5, 233.9);
+	a.cam.dist[0] = -0.28;
+	a.cam.dist[4] = 0.15;
+	a.rms_px = 0.196;
+	tmp_path(path, sizeof path, "LENS.json");
+	assert_int_equal(wl_lens_save(path, &a, &err), WL_OK);
+	assert_int_equal(wl_lens_load(path, &b, &err), WL_OK);
+	assert_int_equal(b.cam.width_px, 640);
+	assert_true(fabs(b.cam.K[0] - 532.8) < 1e-12 && fabs(b.cam.dist[4] - 0.15) < 1e-15);
+	tmp_path(bad, sizeof bad, "badlens.json");
+	{
+		const char *txt = "{\"image_size_px\": [640, 480], \"camera_matrix\": [[1, 0]]}";
+		assert_int_equal(wl_write_file_atomic(bad, txt, strlen(txt), &err), WL_OK);
+	}
+	assert_int_not_equal(wl_lens_load(bad, &b, &err), WL_OK);
+	assert_non_null(strstr(err.msg, "'camera_matrix'"));
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -489,6 +605,9 @@ int main(void)
 		cmocka_unit_test(test_pose_recovery),
 		cmocka_unit_test(test_nadir_needs_intrinsics),
 		cmocka_unit_test(test_water_pose),
+		cmocka_unit_test(test_tag_pixel_convention),
+		cmocka_unit_test(test_points3d_nadir),
+		cmocka_unit_test(test_lens_file),
 	};
 	return cmocka_run_group_tests(tests, setup_tmp, NULL);
 }
