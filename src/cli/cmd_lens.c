@@ -11,6 +11,7 @@
 #include "calib/lens.h"
 #include "cli/cli.h"
 #include "cv/cv.h"
+#include "decode/decode.h"
 
 const char cmd_lens_summary[] = "lens intrinsics from photos of a chessboard -> LENS.json";
 
@@ -19,12 +20,14 @@ static const char usage_text[] =
 	"\n"
 	"Finds the camera's focal length, principal point and lens distortion from\n"
 	"photos of a flat printed chessboard taken with the same camera setting as\n"
-	"the tank videos.  SOURCE is a folder of PNG/JPEG photos or one photo.\n"
+	"the tank videos.  SOURCE is a folder of PNG/JPEG photos, one photo, or a clip\n"
+	"(one frame every --every-s seconds is offered; move the board slowly).\n"
 	"\n"
 	"  --board COLSxROWS   inner corners of the board (a 10x7-square board is 9x6)\n"
 	"  --square-mm S       side of one square in millimetres\n"
 	"  -o, --output FILE   LENS.json to write\n"
 	"  --subpix-win N      corner refinement window: N is half the side (default 5: 11x11 px)\n"
+	"  --every-s T         clip: seconds between frames offered (default 0.5)\n"
 	"  -q, --quiet         no progress line\n"
 	"  -h, --help          this text\n"
 	"\n"
@@ -92,6 +95,33 @@ static wl_status list_images(const char *src, char ***out, int *n, wl_err *err)
 	return WL_OK;
 }
 
+/* Offers one frame every every_s seconds of a clip. */
+static wl_status lens_from_clip(const char *src, double every_s, wl_lens_collector *lc, int *offered,
+				cli_progress *prog, wl_err *err)
+{
+	wl_decoder *dec = NULL;
+	const wl_frame *fr;
+	double next_t = 0;
+	wl_status st = wl_decoder_open(src, 0, 0, &dec, err);
+	*offered = 0;
+	if (st)
+		return st;
+	while (!(st = wl_decoder_next(dec, &fr, err)) && fr) {
+		int kept;
+		if (fr->t_s + 1e-9 < next_t || fr->corrupt)
+			continue;
+		next_t = fr->t_s + every_s;
+		(*offered)++;
+		if ((st = wl_lens_collector_add(lc, fr->luma, fr->width_px, fr->height_px, fr->luma_stride, &kept, err))) {
+			wl_err_prefix(err, "%s: frame at %.3f s", src, fr->t_s);
+			break;
+		}
+		cli_progress_update(prog, "lens: %.1f s, %d frames offered", fr->t_s, *offered);
+	}
+	wl_decoder_destroy(dec);
+	return st;
+}
+
 static void free_list(char **v, int n)
 {
 	for (int i = 0; i < n; i++)
@@ -105,11 +135,13 @@ int cmd_lens(int argc, char **argv)
 		{ "board", required_argument, NULL, 'b' },    { "square-mm", required_argument, NULL, 's' },
 		{ "output", required_argument, NULL, 'o' },   { "subpix-win", required_argument, NULL, 'w' },
 		{ "quiet", no_argument, NULL, 'q' },          { "help", no_argument, NULL, 'h' },
+		{ "every-s", required_argument, NULL, 'e' },
 		{ NULL, 0, NULL, 0 },
 	};
 	const char *out_path = NULL, *src;
 	int cols = 0, rows = 0, win = 5, quiet = 0, c, n_files = 0, status = WL_EXIT_FAIL;
-	double square_mm = 0;
+	double square_mm = 0, every_s = 0.5;
+	struct stat sb;
 	char **files = NULL;
 	wl_lens_collector *lc = NULL;
 	static wl_lens lens;
@@ -138,6 +170,10 @@ int cmd_lens(int argc, char **argv)
 		case 'q':
 			quiet = 1;
 			break;
+		case 'e':
+			if (!cli_parse_double(optarg, &every_s) || !(every_s > 0))
+				return cli_usage_error("lens", "--every-s '%s' is not a positive number", optarg);
+			break;
 		case 'h':
 			fputs(usage_text, stdout);
 			return cli_finish("lens", WL_EXIT_OK);
@@ -150,10 +186,16 @@ int cmd_lens(int argc, char **argv)
 	if (!cols || !(square_mm > 0) || !out_path)
 		return cli_usage_error("lens", "--board, --square-mm and -o are required");
 	src = argv[optind];
-	if (list_images(src, &files, &n_files, &err) ||
-	    wl_lens_collector_create(cols, rows, square_mm, win, &lc, &err))
+	if (wl_lens_collector_create(cols, rows, square_mm, win, &lc, &err))
 		goto out;
 	cli_progress_init(&prog, quiet);
+	if (stat(src, &sb) == 0 && !S_ISDIR(sb.st_mode) && !is_image_name(src)) {
+		if (lens_from_clip(src, every_s, lc, &n_files, &prog, &err))
+			goto out;
+		n_files = -n_files; /* frames, not files: nothing to free */
+	} else if (list_images(src, &files, &n_files, &err)) {
+		goto out;
+	}
 	for (int i = 0; i < n_files; i++) {
 		uint8_t *px = NULL;
 		int w, h, kept;
@@ -175,7 +217,7 @@ int cmd_lens(int argc, char **argv)
 		goto out;
 	printf("lens: %s -> %s\n", src, out_path);
 	printf("  views used %d of %d (no board %d, too alike %d, blurred %d); coverage %.0f%% of the image\n",
-	       lens.views_used, n_files, lens.views_no_board, lens.views_alike, lens.views_blurred,
+	       lens.views_used, n_files < 0 ? -n_files : n_files, lens.views_no_board, lens.views_alike, lens.views_blurred,
 	       100 * lens.coverage);
 	printf("  RMS reprojection error %.4f px\n", lens.rms_px);
 	printf("  fx %.3f  fy %.3f  cx %.3f  cy %.3f  (image %dx%d)\n", lens.cam.K[0], lens.cam.K[4], lens.cam.K[2],
@@ -194,6 +236,6 @@ out:
 	if (status != WL_EXIT_OK)
 		cli_fail("lens", &err);
 	wl_lens_collector_destroy(lc);
-	free_list(files, n_files);
+	free_list(files, n_files > 0 ? n_files : 0);
 	return cli_finish("lens", status);
 }
