@@ -269,13 +269,10 @@ static wl_status path_plot(const char *dir, const reader *r, const circle *cs, s
 	if (sc && sc->n_markers) {
 		wl_style st = {{0.35, 0.35, 0.35}, 1, 1, 0, WL_MARK_SQUARE, 7, 1};
 		for (i = 0; i < sc->n_markers && !s; i++) {
-			char lab[32];
 			s = wl_plot_add_scatter(p, &sc->markers_m[i][0], &sc->markers_m[i][1], 1, &st,
 						i == 0 ? "floor markers" : NULL, err);
-			if (!s && sc->marker_ids) {
-				snprintf(lab, sizeof lab, "%d", sc->marker_ids[i]);
-				s = wl_plot_add_text(p, sc->markers_m[i][0], sc->markers_m[i][1], lab, &st, err);
-			}
+			if (!s && sc->marker_ids && sc->marker_ids[i])
+				s = wl_plot_add_text(p, sc->markers_m[i][0], sc->markers_m[i][1], sc->marker_ids[i], &st, err);
 		}
 		if (s)
 			goto out;

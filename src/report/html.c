@@ -103,7 +103,10 @@ static const char JS[] =
 	"   for(var j=0;j<hs.length;j++)hs[j].classList.remove('asc','desc');h.classList.add(dir>0?'asc':'desc');\n"
 	"   var b=t.tBodies[0],rs=Array.prototype.slice.call(b.rows);\n"
 	"   rs.sort(function(p,q){var c=cmp(key(p.cells[i]),key(q.cells[i]));return c===0?0:(c<0?-dir:dir);});\n"
-	"   rs.forEach(function(r){b.appendChild(r);});});})(i);}\n"
+	"   rs.forEach(function(r){b.appendChild(r);});});})(i);\n"
+	/* report.html#sort=COLUMN (or #sort=COLUMN,desc) opens the table sorted */
+	" var m=/^#sort=([^,]+)(,desc)?$/.exec(decodeURIComponent(location.hash));\n"
+	" if(m)for(var i2=0;i2<hs.length;i2++)if(hs[i2].textContent===m[1]){hs[i2].click();if(m[2])hs[i2].click();}}\n"
 	"window.addEventListener('load',function(){var im=document.images,ok=0;\n"
 	" for(var k=0;k<im.length;k++)if(im[k].complete&&im[k].naturalWidth>0)ok++;\n"
 	" document.body.setAttribute('data-images-total',String(im.length));\n"
@@ -159,7 +162,7 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 		      "<img src=\"sweep_curvature.svg\" alt=\"curvature against the sweep column\">"
 		      "<img src=\"sweep_radius.svg\" alt=\"signed radius against the sweep column\"></div>\n",
 		      fp);
-	fputs("<h2>Runs</h2>\n<p>Click a column heading to sort.</p>\n<table id=\"runs\">\n<thead><tr>"
+	fputs("<h2>Runs</h2>\n<p>Click a column heading to sort (or open the page as report.html#sort=COLUMN).</p>\n<table id=\"runs\">\n<thead><tr>"
 	      "<th class=\"nosort t\">path</th><th class=\"t\">clip</th>",
 	      fp);
 	for (j = 0; j < t->ncols; j++) {

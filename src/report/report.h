@@ -158,7 +158,7 @@ typedef struct {
 	const double (*outline_m)[2];
 	size_t n_markers;             /* floor markers: centre and id */
 	const double (*markers_m)[2];
-	const int *marker_ids;
+	const char *const *marker_ids; /* labels (CAL.json's point ids), may be NULL */
 	double body_diameter_m;       /* 0 if unknown */
 } wl_report_scene;
 

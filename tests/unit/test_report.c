@@ -340,7 +340,7 @@ static void make_clip_folder(const char *dir, int nrows)
 static void test_clip_plots(void **state)
 {
 	double outline[4][2] = {{0, 0}, {2, 0}, {2, 1.2}, {0, 1.2}}, markers[2][2] = {{0.1, 0.1}, {1.9, 1.1}};
-	int ids[2] = {0, 1};
+	const char *ids[2] = {"A0", "A1"};
 	wl_report_scene sc = {4, (const double (*)[2])outline, 2, (const double (*)[2])markers, ids, 0.1};
 	char path[400];
 	wl_err err;
