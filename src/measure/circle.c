@@ -15,12 +15,6 @@
 
 #define PI 3.14159265358979323846
 
-static void packed(const wl_geofit *f, double p[3])
-{
-	p[0] = f->kappa_per_m;
-	p[1] = f->d_m;
-	p[2] = f->phi_rad;
-}
 
 /* Centred moments used by the Pratt and Taubin fits (Chernov 2010, §5). */
 typedef struct {
@@ -185,6 +179,17 @@ double wl_measure_swept_angle(const double *x, const double *y, size_t n, double
 
 /* ---- geometric fit in (kappa, d, phi) ------------------------------------ */
 
+/* The parameters: kappa, d, phi and, with a sway term, the coefficients a, b
+ * of the lateral offset a·cos(ωt) + b·sin(ωt) (left positive). */
+#define NP_MAX 5
+
+typedef struct {
+	const double *x, *y, *t; /* t: NULL without a sway term */
+	size_t n;
+	double rx, ry, w; /* reference point, sway angular frequency */
+	int np;           /* 3 or 5 */
+} problem;
+
 /* Distance of point (X, Y), relative to the reference point, from the circle
  * p = (kappa, d, phi), positive to the right of travel, and its gradient
  * (Karimäki 1991, eq. for the distance; derivatives worked out here). */
@@ -205,11 +210,25 @@ static double resid(const double p[3], double X, double Y, double J[3])
 	return e;
 }
 
-static double cost(const double p[3], const double *x, const double *y, size_t n, double rx, double ry)
+/* Residual of point i under the full model: the distance to the right of the
+ * circle plus the modelled left offset. */
+static double presid(const problem *pb, const double *p, size_t i, double *J)
+{
+	double e = resid(p, pb->x[i] - pb->rx, pb->y[i] - pb->ry, J);
+	if (pb->np == 5) {
+		double c = cos(pb->w * pb->t[i]), s = sin(pb->w * pb->t[i]);
+		e += p[3] * c + p[4] * s;
+		if (J)
+			J[3] = c, J[4] = s;
+	}
+	return e;
+}
+
+static double cost(const problem *pb, const double *p)
 {
 	double c = 0;
-	for (size_t i = 0; i < n; i++) {
-		double e = resid(p, x[i] - rx, y[i] - ry, NULL);
+	for (size_t i = 0; i < pb->n; i++) {
+		double e = presid(pb, p, i, NULL);
 		c += e * e;
 	}
 	return c;
@@ -265,44 +284,53 @@ static void start_values(const double *x, const double *y, size_t n, double rx, 
 	p[2] = atan2(uy, ux);
 }
 
-/* Levenberg-Marquardt (Marquardt 1963) on the three parameters. */
-static int lm_refine(const double *x, const double *y, size_t n, double rx, double ry, double p[3])
+/* Normal matrix JᵀJ and gradient Jᵀe at p. */
+static void normal_eq(const problem *pb, const double *p, double *H, double *g)
 {
-	double lambda = 1e-3, c0 = cost(p, x, y, n, rx, ry);
-	int it;
-	for (it = 0; it < 500; it++) {
-		double H[9] = {0}, g[3] = {0}, A[9], b[3], q[3], c1;
-		int accepted = 0;
-		for (size_t i = 0; i < n; i++) {
-			double J[3], e = resid(p, x[i] - rx, y[i] - ry, J);
-			for (int r = 0; r < 3; r++) {
-				g[r] += J[r] * e;
-				for (int s = 0; s < 3; s++)
-					H[3 * r + s] += J[r] * J[s];
-			}
+	int np = pb->np;
+	memset(H, 0, sizeof(double) * np * np);
+	memset(g, 0, sizeof(double) * np);
+	for (size_t i = 0; i < pb->n; i++) {
+		double J[NP_MAX], e = presid(pb, p, i, J);
+		for (int r = 0; r < np; r++) {
+			g[r] += J[r] * e;
+			for (int s = 0; s < np; s++)
+				H[np * r + s] += J[r] * J[s];
 		}
+	}
+}
+
+/* Levenberg-Marquardt (Marquardt 1963). */
+static int lm_refine(const problem *pb, double *p)
+{
+	double lambda = 1e-3, c0 = cost(pb, p);
+	int it, np = pb->np;
+	for (it = 0; it < 500; it++) {
+		double H[NP_MAX * NP_MAX], g[NP_MAX], A[NP_MAX * NP_MAX], b[NP_MAX], q[NP_MAX], c1, tr = 0;
+		int accepted = 0;
+		normal_eq(pb, p, H, g);
+		for (int r = 0; r < np; r++)
+			tr += H[(np + 1) * r];
 		while (!accepted && lambda < 1e20) {
-			memcpy(A, H, sizeof A);
-			for (int r = 0; r < 3; r++) {
-				A[4 * r] += lambda * fmax(H[4 * r], 1e-12 * (H[0] + H[4] + H[8]));
+			memcpy(A, H, sizeof(double) * np * np);
+			for (int r = 0; r < np; r++) {
+				A[(np + 1) * r] += lambda * fmax(H[(np + 1) * r], 1e-12 * tr);
 				b[r] = -g[r];
 			}
-			if (!wl_solve(A, b, 3)) {
+			if (!wl_solve(A, b, np)) {
 				lambda *= 10;
 				continue;
 			}
-			for (int r = 0; r < 3; r++)
+			for (int r = 0; r < np; r++)
 				q[r] = p[r] + b[r];
-			c1 = cost(q, x, y, n, rx, ry);
+			c1 = cost(pb, q);
 			if (c1 <= c0) {
 				double gain = c0 - c1;
-				memcpy(p, q, sizeof q);
+				memcpy(p, q, sizeof(double) * np);
 				accepted = 1;
 				lambda = fmax(lambda * 0.3, 1e-15);
-				if (gain <= 1e-16 * c0 || c1 == 0) {
-					c0 = c1;
+				if (gain <= 1e-16 * c0 || c1 == 0)
 					return it + 1;
-				}
 				c0 = c1;
 			} else {
 				lambda *= 10;
@@ -314,183 +342,216 @@ static int lm_refine(const double *x, const double *y, size_t n, double rx, doub
 	return it + 1;
 }
 
+static void unpack(wl_geofit *f, const double *p, int np)
+{
+	f->kappa_per_m = p[0];
+	f->d_m = p[1];
+	f->phi_rad = p[2];
+	f->sway_a_m = np == 5 ? p[3] : 0;
+	f->sway_b_m = np == 5 ? p[4] : 0;
+}
+
+static void packed(const wl_geofit *f, double *p)
+{
+	p[0] = f->kappa_per_m;
+	p[1] = f->d_m;
+	p[2] = f->phi_rad;
+	p[3] = f->sway_a_m;
+	p[4] = f->sway_b_m;
+}
+
+/* The sign of kappa follows the direction of travel about the centre; the
+ * same circle travelled the other way is (-kappa, -d, phi + π), which also
+ * turns "left" around, so the sway coefficients change sign. */
 static void geofit_finish(const double *x, const double *y, size_t n, wl_geofit *f)
 {
-	double nx, ny, p[3];
-	/* the sign of kappa follows the direction of travel about the centre */
+	problem pb = {x, y, NULL, n, f->ref_x_m, f->ref_y_m, 0, 3};
+	double nx, ny, p[NP_MAX];
 	for (int pass = 0; pass < 2; pass++) {
+		int flip = 0;
 		nx = -sin(f->phi_rad), ny = cos(f->phi_rad);
 		if (f->kappa_per_m != 0) {
 			double rho = 1 / f->kappa_per_m;
 			f->cx_m = f->ref_x_m + (f->d_m + rho) * nx;
 			f->cy_m = f->ref_y_m + (f->d_m + rho) * ny;
 			f->r_m = fabs(rho);
-			if (pass == 0 && wl_measure_swept_angle(x, y, n, f->cx_m, f->cy_m) * f->kappa_per_m < 0) {
-				f->kappa_per_m = -f->kappa_per_m, f->d_m = -f->d_m, f->phi_rad += PI;
-				continue;
-			}
+			flip = wl_measure_swept_angle(x, y, n, f->cx_m, f->cy_m) * f->kappa_per_m < 0;
 		} else {
 			f->cx_m = f->cy_m = NAN;
 			f->r_m = INFINITY;
-			if (pass == 0 && (x[n - 1] - x[0]) * ny - (y[n - 1] - y[0]) * nx < 0) {
-				f->d_m = -f->d_m, f->phi_rad += PI;
-				continue;
-			}
+			flip = (x[n - 1] - x[0]) * ny - (y[n - 1] - y[0]) * nx < 0;
 		}
-		break;
+		if (pass > 0 || !flip)
+			break;
+		f->kappa_per_m = -f->kappa_per_m, f->d_m = -f->d_m, f->phi_rad += PI;
+		f->sway_a_m = -f->sway_a_m, f->sway_b_m = -f->sway_b_m;
 	}
 	f->phi_rad = atan2(sin(f->phi_rad), cos(f->phi_rad));
 	packed(f, p);
-	f->rms_m = sqrt(cost(p, x, y, n, f->ref_x_m, f->ref_y_m) / (double)n);
+	f->rms_m = sqrt(cost(&pb, p) / (double)n);
 }
 
 wl_status wl_measure_fit_geometric(const double *x, const double *y, size_t n, wl_geofit *out, wl_err *err)
 {
-	double p[3];
+	double p[NP_MAX] = {0};
+	problem pb = {x, y, NULL, n, 0, 0, 0, 3};
 	wl_status st = check_points(x, y, n, "geometric", err);
 	if (st)
 		return st;
 	memset(out, 0, sizeof *out);
 	/* a data point as the reference keeps d small and the parameters well
 	 * conditioned whether the path is a loop, an arc or a line */
-	out->ref_x_m = x[n / 2];
-	out->ref_y_m = y[n / 2];
-	start_values(x, y, n, out->ref_x_m, out->ref_y_m, p);
-	out->iterations = lm_refine(x, y, n, out->ref_x_m, out->ref_y_m, p);
+	out->ref_x_m = pb.rx = x[n / 2];
+	out->ref_y_m = pb.ry = y[n / 2];
+	start_values(x, y, n, pb.rx, pb.ry, p);
+	out->iterations = lm_refine(&pb, p);
 	if (!isfinite(p[0]) || !isfinite(p[1]) || !isfinite(p[2]))
 		return wl_err_set(err, WL_EINVAL, "geometric circle fit: did not converge");
-	out->kappa_per_m = p[0];
-	out->d_m = p[1];
-	out->phi_rad = p[2];
+	unpack(out, p, 3);
+	geofit_finish(x, y, n, out);
+	return WL_OK;
+}
+
+wl_status wl_measure_fit_geometric_sway(const double *x, const double *y, const double *t, size_t n,
+					double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err)
+{
+	double p[NP_MAX];
+	wl_geofit first;
+	problem pb = {x, y, t, n, 0, 0, 2 * PI * freq_hz, 5};
+	wl_status st = wl_measure_fit_geometric(x, y, n, &first, err);
+	if (st)
+		return st;
+	if (!(freq_hz > 0) || !isfinite(freq_hz) || n < 6)
+		return wl_err_set(err, WL_EINVAL, "geometric circle fit with sway: frequency %g Hz or %zu points", freq_hz,
+				  n);
+	*out = first;
+	out->sway_freq_hz = freq_hz;
+	out->sway_a_m = a0_m;
+	out->sway_b_m = b0_m;
+	pb.rx = first.ref_x_m;
+	pb.ry = first.ref_y_m;
+	packed(out, p);
+	out->iterations += lm_refine(&pb, p);
+	for (int i = 0; i < 5; i++)
+		if (!isfinite(p[i]))
+			return wl_err_set(err, WL_EINVAL, "geometric circle fit with sway: did not converge");
+	unpack(out, p, 5);
 	geofit_finish(x, y, n, out);
 	return WL_OK;
 }
 
 double wl_measure_geofit_offset(const wl_geofit *f, double x, double y)
 {
-	double p[3];
+	double p[NP_MAX];
 	packed(f, p);
 	return -resid(p, x - f->ref_x_m, y - f->ref_y_m, NULL);
 }
 
 /* ---- autocorrelation-consistent standard error ---------------------------- */
 
-/* Andrews (1991) AR(1) plug-in bandwidth for the Bartlett kernel, averaged
- * over the standardised score components. */
-static int andrews_bandwidth(const double *e, size_t m)
+#define AR_MAX 12
+
+/* Levinson-Durbin recursion on the autocovariances g[0..pmax]: phi[m][j]
+ * (j = 1..m) are the order-m predictor coefficients and v[m] its innovation
+ * variance.  Returns the order chosen by Akaike's criterion n·ln v + 2m. */
+static int levinson_aic(const double *g, int pmax, size_t n, double phi[AR_MAX + 1][AR_MAX + 1], double *v)
 {
-	double alpha = 0;
-	for (int a = 0; a < 3; a++) {
-		double num = 0, den = 0, rho;
-		for (size_t i = 1; i < m; i++) {
-			num += e[3 * i + a] * e[3 * (i - 1) + a];
-			den += e[3 * (i - 1) + a] * e[3 * (i - 1) + a];
-		}
-		rho = den > 0 ? fmax(-0.97, fmin(0.97, num / den)) : 0;
-		alpha += 4 * rho * rho / ((1 - rho) * (1 - rho) * (1 + rho) * (1 + rho)) / 3;
+	int best = 0;
+	double best_aic;
+	memset(phi, 0, sizeof(double) * (AR_MAX + 1) * (AR_MAX + 1));
+	v[0] = g[0];
+	best_aic = (double)n * log(g[0]);
+	for (int m = 1; m <= pmax; m++) {
+		double acc = g[m], k, aic;
+		for (int j = 1; j < m; j++)
+			acc -= phi[m - 1][j] * g[m - j];
+		k = acc / v[m - 1];
+		if (!(fabs(k) < 1)) /* numerically singular: stop at m - 1 */
+			return best;
+		phi[m][m] = k;
+		for (int j = 1; j < m; j++)
+			phi[m][j] = phi[m - 1][j] - k * phi[m - 1][m - j];
+		v[m] = v[m - 1] * (1 - k * k);
+		aic = (double)n * log(v[m]) + 2 * m;
+		if (aic < best_aic)
+			best_aic = aic, best = m;
 	}
-	double bw = ceil(1.1447 * cbrt(alpha * (double)m));
-	if (bw < 1)
-		bw = 1;
-	if (bw > (double)m / 3)
-		bw = floor((double)m / 3);
-	return (int)bw;
+	return best;
 }
 
-/* Scales A so that its largest singular value is at most 0.97, as Andrews &
- * Monahan (1992) do to keep the recolouring (I - A)⁻¹ bounded. */
-static void limit_var1(double A[9])
+wl_status wl_measure_curvature_se(const double *x, const double *y, const double *t, size_t n,
+				  const wl_geofit *f, double *se, int *order_out, wl_err *err)
 {
-	double At[9], AtA[9], ev[3], vec[9];
-	wl_mat_transpose(A, At, 3, 3);
-	wl_mat_mul(At, A, AtA, 3, 3, 3);
-	wl_sym_eig(AtA, 3, ev, vec);
-	if (ev[2] > 0.97 * 0.97) {
-		double s = 0.97 / sqrt(ev[2]);
-		for (int i = 0; i < 9; i++)
-			A[i] *= s;
-	}
-}
-
-wl_status wl_measure_curvature_se(const double *x, const double *y, size_t n, const wl_geofit *f, double *se,
-				  int *bw_out, wl_err *err)
-{
-	double H[9] = {0}, Hi[9], S01[9] = {0}, S00[9] = {0}, S00i[9], A[9], B[9], IA[9], Om[9] = {0}, T[9],
-	       Om2[9], C[9], p[3];
-	double *h = NULL, *e = NULL;
+	double H[NP_MAX * NP_MAX], Hi[NP_MAX * NP_MAX], Om[NP_MAX * NP_MAX] = {0}, T[NP_MAX * NP_MAX],
+	       C[NP_MAX * NP_MAX], p[NP_MAX], g[NP_MAX], acov[AR_MAX + 1] = {0}, v[AR_MAX + 1];
+	double phi[AR_MAX + 1][AR_MAX + 1];
+	double *r = NULL, *Z = NULL;
+	problem pb = {x, y, t, n, f->ref_x_m, f->ref_y_m, 2 * PI * f->sway_freq_hz, 3};
 	wl_status st = WL_OK;
-	int M;
-	if (n < 8)
-		return wl_err_set(err, WL_EINVAL, "curvature uncertainty: %zu points: give at least 8", n);
-	h = malloc(3 * n * sizeof *h);
-	e = malloc(3 * n * sizeof *e);
-	if (!h || !e) {
+	int np, order, pmax;
+	if (f->sway_freq_hz > 0) {
+		if (!t)
+			return wl_err_set(err, WL_EINVAL, "curvature uncertainty: a fit with sway needs the times");
+		pb.np = 5;
+	}
+	np = pb.np;
+	if (n < 20)
+		return wl_err_set(err, WL_EINVAL, "curvature uncertainty: %zu points: give at least 20", n);
+	r = malloc(n * sizeof *r);
+	Z = malloc((size_t)np * n * sizeof *Z);
+	if (!r || !Z) {
 		st = wl_err_set(err, WL_ENOMEM, "curvature uncertainty: out of memory for %zu points", n);
 		goto out;
 	}
 	packed(f, p);
-	for (size_t i = 0; i < n; i++) {
-		double J[3], r = resid(p, x[i] - f->ref_x_m, y[i] - f->ref_y_m, J);
-		for (int a = 0; a < 3; a++) {
-			h[3 * i + a] = J[a] * r;
-			for (int b = 0; b < 3; b++)
-				H[3 * a + b] += J[a] * J[b];
-		}
-	}
-	if (!wl_invert(H, Hi, 3)) {
+	normal_eq(&pb, p, H, g);
+	if (!wl_invert(H, Hi, np)) {
 		st = wl_err_set(err, WL_EINVAL, "curvature uncertainty: the fit is singular (too few distinct points)");
 		goto out;
 	}
-	/* VAR(1) prewhitening of the scores */
-	for (size_t i = 1; i < n; i++)
-		for (int a = 0; a < 3; a++)
-			for (int b = 0; b < 3; b++) {
-				S01[3 * a + b] += h[3 * i + a] * h[3 * (i - 1) + b];
-				S00[3 * a + b] += h[3 * (i - 1) + a] * h[3 * (i - 1) + b];
-			}
-	if (wl_invert(S00, S00i, 3)) {
-		wl_mat_mul(S01, S00i, A, 3, 3, 3);
-		limit_var1(A);
-	} else {
-		memset(A, 0, sizeof A);
+	for (size_t i = 0; i < n; i++)
+		r[i] = presid(&pb, p, i, Z + (size_t)np * i); /* Z holds J for now */
+	/* an autoregressive model of the residual series (Yule-Walker, order by AIC) */
+	pmax = (int)(n / 10 < AR_MAX ? n / 10 : AR_MAX);
+	for (int k = 0; k <= pmax; k++) {
+		for (size_t i = (size_t)k; i < n; i++)
+			acov[k] += r[i] * r[i - k];
+		acov[k] /= (double)n;
 	}
-	for (size_t i = 1; i < n; i++)
-		for (int a = 0; a < 3; a++) {
-			double v = h[3 * i + a];
-			for (int b = 0; b < 3; b++)
-				v -= A[3 * a + b] * h[3 * (i - 1) + b];
-			e[3 * (i - 1) + a] = v;
+	if (!(acov[0] > 0)) {
+		*se = 0;
+		order = 0;
+		goto done;
+	}
+	order = levinson_aic(acov, pmax, n, phi, v);
+	/* Γ = W⁻¹ D W⁻ᵀ, W the innovations filter of the AR model (row i uses the
+	 * order-min(i, p) predictor, D its innovation variances): then
+	 * Jᵀ Γ J = Zᵀ D Z with Wᵀ Z = J, solved by back substitution */
+	for (size_t ii = n; ii-- > 0;) {
+		double *zi = Z + (size_t)np * ii;
+		for (int j = 1; j <= order && ii + (size_t)j < n; j++) {
+			size_t k = ii + (size_t)j;
+			int ord = k < (size_t)order ? (int)k : order;
+			if (j > ord)
+				continue;
+			for (int a = 0; a < np; a++)
+				zi[a] += phi[ord][j] * Z[(size_t)np * k + a];
 		}
-	/* Bartlett-kernel long-run covariance of the whitened scores */
-	M = andrews_bandwidth(e, n - 1);
-	for (int k = 0; k <= M; k++) {
-		double w = k == 0 ? 1 : 1 - (double)k / (M + 1);
-		for (size_t i = (size_t)k; i < n - 1; i++)
-			for (int a = 0; a < 3; a++)
-				for (int b = 0; b < 3; b++) {
-					double g = e[3 * i + a] * e[3 * (i - k) + b];
-					Om[3 * a + b] += w * g;
-					if (k > 0)
-						Om[3 * b + a] += w * g;
-				}
 	}
-	/* recolour: (I - A)⁻¹ Ω (I - A)⁻ᵀ, then the sandwich H⁻¹ Ω H⁻¹ */
-	for (int i = 0; i < 9; i++)
-		IA[i] = (i % 4 == 0 ? 1 : 0) - A[i];
-	if (!wl_invert(IA, B, 3)) {
-		st = wl_err_set(err, WL_EINVAL, "curvature uncertainty: prewhitening failed");
-		goto out;
+	for (size_t i = 0; i < n; i++) {
+		double d = v[i < (size_t)order ? i : (size_t)order];
+		for (int a = 0; a < np; a++)
+			for (int b = 0; b < np; b++)
+				Om[np * a + b] += d * Z[(size_t)np * i + a] * Z[(size_t)np * i + b];
 	}
-	wl_mat_mul(B, Om, T, 3, 3, 3);
-	wl_mat_transpose(B, IA, 3, 3);
-	wl_mat_mul(T, IA, Om2, 3, 3, 3);
-	wl_mat_mul(Hi, Om2, T, 3, 3, 3);
-	wl_mat_mul(T, Hi, C, 3, 3, 3);
-	*se = sqrt(fmax(C[0], 0) * (double)n / (double)(n - 3));
-	if (bw_out)
-		*bw_out = M;
+	wl_mat_mul(Hi, Om, T, np, np, np);
+	wl_mat_mul(T, Hi, C, np, np, np);
+	*se = sqrt(fmax(C[0], 0) * (double)n / (double)(n - (size_t)np));
+done:
+	if (order_out)
+		*order_out = order;
 out:
-	free(h);
-	free(e);
+	free(r);
+	free(Z);
 	return st;
 }

@@ -57,25 +57,40 @@ typedef struct {
 	double kappa_per_m, d_m, phi_rad;
 	double ref_x_m, ref_y_m;
 	double cx_m, cy_m, r_m; /* NaN / INFINITY when kappa_per_m == 0 */
-	double rms_m;           /* sqrt(sum of squared distances / n) */
+	double rms_m;           /* sqrt(sum of squared distances to the circle / n) */
 	int iterations;
+	/* only from wl_measure_fit_geometric_sway, else 0: the lateral offset
+	 * (left positive) a·cos(2π f t) + b·sin(2π f t) fitted with the circle */
+	double sway_freq_hz, sway_a_m, sway_b_m;
 } wl_geofit;
 
 wl_status wl_measure_fit_geometric(const double *x_m, const double *y_m, size_t n, wl_geofit *out, wl_err *err);
 
+/* The same circle fitted jointly with a sinusoidal lateral sway of known
+ * frequency (t_s absolute times, a0/b0 start values of its coefficients):
+ * the mean path of a body that sways as it goes.  Over a segment that does
+ * not hold a whole number of sway periods, the sway left in the residuals
+ * would pull the circle; fitting it removes that pull and leaves residuals
+ * the uncertainty estimate can treat as noise. */
+wl_status wl_measure_fit_geometric_sway(const double *x_m, const double *y_m, const double *t_s, size_t n,
+					double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err);
+
 /* Signed distance of a point from the fitted circle (or line), positive to
- * the left of the direction of travel. */
+ * the left of the direction of travel (the fitted sway is not subtracted). */
 double wl_measure_geofit_offset(const wl_geofit *f, double x_m, double y_m);
 
-/* Heteroscedasticity-and-autocorrelation-consistent standard error of
- * kappa_per_m: the sandwich (JᵀJ)⁻¹ Ω (JᵀJ)⁻¹ of the fit's Jacobian with Ω
- * estimated from the time-ordered scores J_i·r_i after VAR(1) prewhitening
- * (Andrews & Monahan 1992, Econometrica 60:953) with a Bartlett kernel
- * (Newey & West 1987, Econometrica 55:703) whose bandwidth follows Andrews'
- * (1991, Econometrica 59:817) AR(1) plug-in rule.  The points must be in time
- * order.  *bandwidth_out (may be NULL) receives the lag window used. */
-wl_status wl_measure_curvature_se(const double *x_m, const double *y_m, size_t n, const wl_geofit *f,
-				  double *se_per_m, int *bandwidth_out, wl_err *err);
+/* Standard error of kappa_per_m that holds for autocorrelated residuals:
+ * the sandwich (JᵀJ)⁻¹ (Jᵀ Γ J) (JᵀJ)⁻¹ of the fit's Jacobian J, with Γ the
+ * covariance of an autoregressive model of the time-ordered residuals
+ * (Yule-Walker by the Levinson-Durbin recursion, order up to 12 chosen by
+ * Akaike's criterion; Akaike 1969, Berk 1974 for the spectral estimate).
+ * Jᵀ Γ J is computed exactly through the model's innovations filter.  The
+ * points must be in time order (and evenly spaced in time, as the model's
+ * lags are rows); t_s is needed only for a fit with sway.  *ar_order_out (may
+ * be NULL) receives the order used; 0 means white residuals, where the
+ * result is the classical σ²(JᵀJ)⁻¹. */
+wl_status wl_measure_curvature_se(const double *x_m, const double *y_m, const double *t_s, size_t n,
+				  const wl_geofit *f, double *se_per_m, int *ar_order_out, wl_err *err);
 
 /* Total angle in radians swept about (cx, cy) by the path in index order,
  * signed (counter-clockwise positive). */
@@ -135,7 +150,7 @@ typedef struct {
 	double centre_x_m, centre_y_m; /* NaN when straight */
 	double arc_deg, fit_rms_m;
 	double radius_taubin_m, radius_kasa_m; /* unsigned, for comparison */
-	int hac_bandwidth;
+	int ar_order;         /* order of the residual model behind the interval */
 	/* oscillation */
 	double yaw_osc_freq_hz, yaw_osc_amp_deg, yaw_osc_r2;
 	double sway_osc_freq_hz, sway_amp_m;

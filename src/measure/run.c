@@ -28,22 +28,26 @@ static double wrap_pi(double a)
 
 /* ---- oscillation ---------------------------------------------------------- */
 
-/* Residual sum of squares of the least-squares fit c + a cos(wt) + b sin(wt). */
-static double sine_rss(const double *t, const double *v, size_t n, double f, double t0, double coef[3])
+/* Residual sum of squares of the least-squares fit c + a cos(wt) + b sin(wt);
+ * cs is scratch for 2n values. */
+static double sine_rss(const double *t, const double *v, size_t n, double f, double t0, double *cs, double coef[3])
 {
 	double A[9] = {0}, b[3] = {0}, rss = 0, w = 2 * PI * f;
 	for (size_t i = 0; i < n; i++) {
 		double c = cos(w * (t[i] - t0)), s = sin(w * (t[i] - t0)), r[3] = {1, c, s};
+		cs[2 * i] = c;
+		cs[2 * i + 1] = s;
 		for (int j = 0; j < 3; j++) {
 			b[j] += r[j] * v[i];
-			for (int k = 0; k < 3; k++)
+			for (int k = j; k < 3; k++)
 				A[3 * j + k] += r[j] * r[k];
 		}
 	}
+	A[3] = A[1], A[6] = A[2], A[7] = A[5];
 	if (!wl_solve(A, b, 3))
 		return INFINITY;
 	for (size_t i = 0; i < n; i++) {
-		double e = v[i] - b[0] - b[1] * cos(w * (t[i] - t0)) - b[2] * sin(w * (t[i] - t0));
+		double e = v[i] - b[0] - b[1] * cs[2 * i] - b[2] * cs[2 * i + 1];
 		rss += e * e;
 	}
 	if (coef)
@@ -51,36 +55,66 @@ static double sine_rss(const double *t, const double *v, size_t n, double f, dou
 	return rss;
 }
 
-/* Frequency of the highest Hann-windowed periodogram ordinate of the evenly
- * resampled series, on a grid four times finer than 1/T. */
-static double periodogram_peak(const double *t, const double *v, size_t n, double f_lo, double f_hi,
-			       double *g)
+/* In-place iterative radix-2 FFT of n (a power of two) complex values. */
+static void fft(double *re, double *im, size_t n)
+{
+	for (size_t i = 1, j = 0; i < n; i++) {
+		size_t bit = n >> 1;
+		for (; j & bit; bit >>= 1)
+			j ^= bit;
+		j ^= bit;
+		if (i < j) {
+			double t = re[i];
+			re[i] = re[j], re[j] = t;
+			t = im[i], im[i] = im[j], im[j] = t;
+		}
+	}
+	for (size_t len = 2; len <= n; len <<= 1) {
+		double ang = -2 * PI / (double)len, wr = cos(ang), wi = sin(ang);
+		for (size_t i = 0; i < n; i += len) {
+			double cr = 1, ci = 0;
+			for (size_t k = 0; k < len / 2; k++) {
+				size_t a = i + k, b = i + k + len / 2;
+				double xr = re[b] * cr - im[b] * ci, xi = re[b] * ci + im[b] * cr, nr;
+				re[b] = re[a] - xr, im[b] = im[a] - xi;
+				re[a] += xr, im[a] += xi;
+				nr = cr * wr - ci * wi;
+				ci = cr * wi + ci * wr;
+				cr = nr;
+			}
+		}
+	}
+}
+
+/* Frequency of the highest Hann-windowed periodogram ordinate in [f_lo, f_hi]
+ * of the series resampled on an even grid of n points, zero-padded to a power
+ * of two of at least 2n (bins at most 1/(2T) apart; the window's main lobe
+ * is 4/T wide, so the grid maximum lies in the peak's lobe).  g is scratch
+ * for nfft_max doubles (real and imaginary halves). */
+static double periodogram_peak(const double *t, const double *v, size_t n, double f_lo, double f_hi, double *g,
+			       size_t nfft)
 {
 	double T = t[n - 1] - t[0], dt = T / (double)(n - 1), mean = 0, best = -1, fbest = NAN;
+	double *re = g, *im = g + nfft;
 	size_t j = 0;
 	for (size_t k = 0; k < n; k++) { /* linear interpolation onto the even grid */
 		double tk = t[0] + dt * (double)k;
 		while (j + 1 < n - 1 && t[j + 1] < tk)
 			j++;
 		double u = (tk - t[j]) / (t[j + 1] - t[j]);
-		g[k] = v[j] + fmin(fmax(u, 0), 1) * (v[j + 1] - v[j]);
-		mean += g[k];
+		re[k] = v[j] + fmin(fmax(u, 0), 1) * (v[j + 1] - v[j]);
+		mean += re[k];
 	}
 	mean /= (double)n;
-	for (size_t k = 0; k < n; k++)
-		g[k] = (g[k] - mean) * 0.5 * (1 - cos(2 * PI * (double)k / (double)(n - 1)));
-	for (double f = f_lo; f <= f_hi; f += 0.25 / T) {
-		/* the phasor e^{-iωk·dt} by rotation, to avoid a sin/cos per sample */
-		double cr = cos(2 * PI * f * dt), ci = -sin(2 * PI * f * dt), zr = 1, zi = 0, re = 0, im = 0;
-		for (size_t k = 0; k < n; k++) {
-			double nr = zr * cr - zi * ci;
-			re += g[k] * zr;
-			im += g[k] * zi;
-			zi = zr * ci + zi * cr;
-			zr = nr;
-		}
-		if (re * re + im * im > best) {
-			best = re * re + im * im;
+	for (size_t k = 0; k < nfft; k++) {
+		re[k] = k < n ? (re[k] - mean) * 0.5 * (1 - cos(2 * PI * (double)k / (double)(n - 1))) : 0;
+		im[k] = 0;
+	}
+	fft(re, im, nfft);
+	for (size_t k = 1; k <= nfft / 2; k++) {
+		double f = (double)k / ((double)nfft * dt), p = re[k] * re[k] + im[k] * im[k];
+		if (f >= f_lo && f <= f_hi && p > best) {
+			best = p;
 			fbest = f;
 		}
 	}
@@ -91,12 +125,14 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 				 wl_osc *out, wl_err *err)
 {
 	double *t = NULL, *v = NULL, *g = NULL, T, f0, lo, hi, coef[3], tss = 0, mean = 0, rss;
-	size_t n = 0;
+	size_t n = 0, nfft = 16;
 	wl_status st = WL_OK;
 	out->freq_hz = out->amp = out->phase_rad = out->r2 = NAN;
 	t = malloc((n_in + 1) * sizeof *t);
 	v = malloc((n_in + 1) * sizeof *v);
-	g = malloc((n_in + 1) * sizeof *g);
+	while (nfft < 2 * n_in)
+		nfft <<= 1;
+	g = malloc(2 * nfft * sizeof *g);
 	if (!t || !v || !g) {
 		st = wl_err_set(err, WL_ENOMEM, "oscillation: out of memory for %zu samples", n_in);
 		goto out;
@@ -115,7 +151,7 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 		st = wl_err_set(err, WL_EINVAL, "oscillation: empty frequency band [%g, %g] Hz", f_lo, f_hi);
 		goto out;
 	}
-	f0 = periodogram_peak(t, v, n, f_lo, f_hi, g);
+	f0 = periodogram_peak(t, v, n, f_lo, f_hi, g, nfft);
 	if (!isfinite(f0)) {
 		st = wl_err_set(err, WL_EINVAL, "oscillation: no periodogram peak in [%g, %g] Hz", f_lo, f_hi);
 		goto out;
@@ -126,21 +162,21 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 	{
 		const double r = 0.6180339887498949;
 		double a = lo, b = hi, c = b - r * (b - a), d = a + r * (b - a);
-		double fc = sine_rss(t, v, n, c, t[0], NULL), fd = sine_rss(t, v, n, d, t[0], NULL);
-		for (int it = 0; it < 60 && b - a > 1e-9 * (1 + f0); it++) {
+		double fc = sine_rss(t, v, n, c, t[0], g, NULL), fd = sine_rss(t, v, n, d, t[0], g, NULL);
+		for (int it = 0; it < 60 && b - a > 1e-6 * f0; it++) {
 			if (fc < fd) {
 				b = d, d = c, fd = fc;
 				c = b - r * (b - a);
-				fc = sine_rss(t, v, n, c, t[0], NULL);
+				fc = sine_rss(t, v, n, c, t[0], g, NULL);
 			} else {
 				a = c, c = d, fc = fd;
 				d = a + r * (b - a);
-				fd = sine_rss(t, v, n, d, t[0], NULL);
+				fd = sine_rss(t, v, n, d, t[0], g, NULL);
 			}
 		}
 		f0 = 0.5 * (a + b);
 	}
-	rss = sine_rss(t, v, n, f0, t[0], coef);
+	rss = sine_rss(t, v, n, f0, t[0], g, coef);
 	for (size_t i = 0; i < n; i++)
 		mean += v[i];
 	mean /= (double)n;
@@ -292,12 +328,35 @@ static void path_measures(const wl_measure_input *in, const double *x, const dou
 	}
 }
 
+/* Band searched for oscillations. */
+static void osc_band(const wl_measure_opts *opt, const wl_measure_result *r, double *lo, double *hi)
+{
+	*lo = isfinite(opt->osc_fmin_hz) ? opt->osc_fmin_hz : fmax(3 / r->duration_s, 0.05);
+	*hi = opt->osc_fmax_hz;
+	if (!isfinite(*hi))
+		*hi = 0.8 * 0.5 * (double)(r->n_used - 1) / r->duration_s;
+}
+
+/* A clear sway oscillation to fit with the circle: at least 10 cycles,
+ * explaining at least 20% of the offsets' variance, so that red noise near
+ * zero frequency is never taken for one.  Returns 0 when there is none. */
+static int find_sway(const double *t, const double *x, const double *y, size_t m, const wl_geofit *gf,
+		     double f_lo, double f_hi, double *scratch, wl_osc *o)
+{
+	for (size_t i = 0; i < m; i++)
+		scratch[i] = wl_measure_geofit_offset(gf, x[i], y[i]);
+	detrend_quadratic(t, scratch, m);
+	return wl_measure_oscillation(t, scratch, m, fmax(f_lo, 10 / (t[m - 1] - t[0])), f_hi, o, NULL) == WL_OK &&
+	       o->r2 >= 0.2;
+}
+
 /* The circle, its uncertainty and the straight rule. */
-static void circle_measures(const double *x, const double *y, size_t m, const wl_measure_opts *opt,
-			    wl_measure_result *r, wl_geofit *gf)
+static void circle_measures(const double *t, const double *x, const double *y, size_t m,
+			    const wl_measure_opts *opt, wl_measure_result *r, wl_geofit *gf, double *scratch)
 {
 	wl_circle c;
-	double se;
+	wl_osc o;
+	double se, f_lo, f_hi;
 	if (wl_measure_fit_taubin(x, y, m, &c, NULL) == WL_OK)
 		r->radius_taubin_m = c.r_m;
 	if (wl_measure_fit_kasa(x, y, m, &c, NULL) == WL_OK)
@@ -306,16 +365,24 @@ static void circle_measures(const double *x, const double *y, size_t m, const wl
 		gf->kappa_per_m = NAN;
 		return;
 	}
+	osc_band(opt, r, &f_lo, &f_hi);
+	if (find_sway(t, x, y, m, gf, f_lo, f_hi, scratch, &o)) {
+		/* amp·sin(ωt + φ) = amp·sin φ·cos ωt + amp·cos φ·sin ωt */
+		wl_geofit g2;
+		if (wl_measure_fit_geometric_sway(x, y, t, m, o.freq_hz, o.amp * sin(o.phase_rad),
+						  o.amp * cos(o.phase_rad), &g2, NULL) == WL_OK)
+			*gf = g2;
+	}
 	r->curvature_per_m = gf->kappa_per_m;
 	r->fit_rms_m = gf->rms_m;
 	r->arc_deg = gf->kappa_per_m != 0
 			     ? fabs(wl_measure_swept_angle(x, y, m, gf->cx_m, gf->cy_m)) * DEG
 			     : 0;
-	if (wl_measure_curvature_se(x, y, m, gf, &se, &r->hac_bandwidth, NULL) == WL_OK) {
+	if (wl_measure_curvature_se(x, y, t, m, gf, &se, &r->ar_order, NULL) == WL_OK) {
+		double q = 1.959964;
 		r->curvature_se_per_m = se;
-		/* normal quantile: the scores' effective sample is large (see docs) */
-		r->curvature_ci95_per_m[0] = gf->kappa_per_m - 1.959964 * se;
-		r->curvature_ci95_per_m[1] = gf->kappa_per_m + 1.959964 * se;
+		r->curvature_ci95_per_m[0] = gf->kappa_per_m - q * se;
+		r->curvature_ci95_per_m[1] = gf->kappa_per_m + q * se;
 	}
 	r->straight = !(r->arc_deg >= opt->min_arc_deg) || !(r->curvature_ci95_per_m[0] > 0 ||
 							     r->curvature_ci95_per_m[1] < 0);
@@ -373,10 +440,7 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 	unwrap(yaw, in->n);
 	detrend_quadratic(in->t_s, yaw, in->n);
 	detrend_quadratic(in->t_s, sway, in->n);
-	f_lo = isfinite(opt->osc_fmin_hz) ? opt->osc_fmin_hz : fmax(3 / r->duration_s, 0.05);
-	f_hi = opt->osc_fmax_hz;
-	if (!isfinite(f_hi))
-		f_hi = 0.8 * 0.5 * (double)(r->n_used - 1) / r->duration_s;
+	osc_band(opt, r, &f_lo, &f_hi);
 	if (wl_measure_oscillation(in->t_s, yaw, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
 		r->yaw_osc_freq_hz = o.freq_hz;
 		r->yaw_osc_amp_deg = o.amp * DEG;
@@ -391,7 +455,7 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
 			 wl_err *err)
 {
-	double *x = NULL, *y = NULL, *hd = NULL, *sway = NULL, *yaw = NULL;
+	double *x = NULL, *y = NULL, *tc = NULL, *hd = NULL, *sway = NULL, *yaw = NULL;
 	size_t m = 0;
 	wl_geofit gf;
 	wl_status st = WL_OK;
@@ -405,10 +469,11 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 					  in->t_s[i], i, in->t_s[i - 1]);
 	x = malloc(in->n * sizeof *x);
 	y = malloc(in->n * sizeof *y);
+	tc = malloc(in->n * sizeof *tc);
 	hd = malloc(in->n * sizeof *hd);
 	sway = malloc(in->n * sizeof *sway);
 	yaw = malloc(in->n * sizeof *yaw);
-	if (!x || !y || !hd || !sway || !yaw) {
+	if (!x || !y || !tc || !hd || !sway || !yaw) {
 		st = wl_err_set(err, WL_ENOMEM, "out of memory for a run of %zu rows", in->n);
 		goto out;
 	}
@@ -416,6 +481,7 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 		if (in->measured && in->measured[i])
 			r->n_measured++;
 		if (isfinite(in->x_m[i]) && isfinite(in->y_m[i])) {
+			tc[m] = in->t_s[i];
 			x[m] = in->x_m[i];
 			y[m++] = in->y_m[i];
 		}
@@ -429,12 +495,13 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 	r->duration_s = in->t_s[in->n - 1] - in->t_s[0];
 	r->tracked_fraction = (double)r->n_measured / (double)in->n;
 	path_measures(in, x, y, m, r, hd);
-	circle_measures(x, y, m, opt, r, &gf);
+	circle_measures(tc, x, y, m, opt, r, &gf, sway);
 	if (isfinite(gf.kappa_per_m))
 		oscillation_measures(in, opt, &gf, r, sway, yaw);
 out:
 	free(x);
 	free(y);
+	free(tc);
 	free(hd);
 	free(sway);
 	free(yaw);
