@@ -116,6 +116,8 @@ typedef struct {
 	double v_mps, T_s, fps;
 	double amp_rad, f_hz;
 	double noise_m, ar; /* marginal SD and AR(1) coefficient (0: white) */
+	int ma;             /* > 1: the noise is instead white noise of SD noise_m
+			     * averaged over ma frames, as a smoother leaves it */
 	double heading_noise_rad;
 } synth_cfg;
 
@@ -130,7 +132,7 @@ typedef struct {
 static void synth_make(const synth_cfg *c, rng *r, synth_run *o)
 {
 	double w = 2 * PI * c->f_hz, th0 = 2 * PI * rng_unif(r), ps = 2 * PI * rng_unif(r);
-	double sway_amp = c->v_mps * c->amp_rad / w, ex = 0, ey = 0, k = sqrt(1 - c->ar * c->ar);
+	double sway_amp = c->v_mps * c->amp_rad / w, ex = 0, ey = 0, k = sqrt(1 - c->ar * c->ar), hist[128];
 	o->n = (size_t)(c->T_s * c->fps) + 1;
 	assert_true(o->n <= SYN_MAX);
 	ex = c->noise_m * rng_gauss(r);
@@ -151,6 +153,17 @@ static void synth_make(const synth_cfg *c, rng *r, synth_run *o)
 			tang = th0;
 			px = 0.2 + c->v_mps * t * cos(tang) - s * sin(tang);
 			py = 0.3 + c->v_mps * t * sin(tang) + s * cos(tang);
+		}
+		if (c->ma > 1) { /* running mean of the last ma white draws */
+			double nx = c->noise_m * rng_gauss(r), ny = c->noise_m * rng_gauss(r);
+			if (i == 0)
+				for (int j = 0; j < c->ma; j++)
+					hist[2 * j] = c->noise_m * rng_gauss(r), hist[2 * j + 1] = c->noise_m * rng_gauss(r);
+			hist[2 * (i % (size_t)c->ma)] = nx;
+			hist[2 * (i % (size_t)c->ma) + 1] = ny;
+			ex = ey = 0;
+			for (int j = 0; j < c->ma; j++)
+				ex += hist[2 * j] / c->ma, ey += hist[2 * j + 1] / c->ma;
 		}
 		o->t[i] = t;
 		o->x[i] = px + ex;
@@ -173,6 +186,7 @@ static void synth_default(synth_cfg *c, double R, int dir)
 	c->f_hz = 1.2;
 	c->noise_m = 0.002;
 	c->ar = 0;
+	c->ma = 0;
 	c->heading_noise_rad = 1 * PI / 180;
 }
 
@@ -186,6 +200,17 @@ static void run_synth(const synth_run *s, wl_measure_result *res)
 	assert_int_equal(wl_measure_run(&in, &o, res, &err), WL_OK);
 }
 
+static void set_noise(synth_cfg *c, int kind)
+{
+	c->ar = kind == 1 ? 0.9 : 0;
+	if (kind == 2) { /* 6 mm white noise averaged over 9 frames: 2 mm, smooth */
+		c->ma = 9;
+		c->noise_m = 0.006;
+	}
+}
+
+static const char *const noise_name[3] = {"white", "ar1  ", "ma9  "};
+
 static const double radii[5] = {0.2, 0.5, 1, 2, 5};
 
 /* Radius, sign, oscillation frequency and amplitude and sway on one draw
@@ -194,7 +219,7 @@ static void test_synth_arcs(void **state)
 {
 	static synth_run s;
 	(void)state;
-	for (int noise = 0; noise < 2; noise++)
+	for (int noise = 0; noise < 3; noise++)
 		for (int i = 0; i < 5; i++)
 			for (int dir = -1; dir <= 1; dir += 2) {
 				synth_cfg c;
@@ -202,13 +227,13 @@ static void test_synth_arcs(void **state)
 				rng g = {(uint64_t)(1000 + 10 * i + dir + 100 * noise)};
 				double tol = radii[i] >= 5 ? 0.05 : 0.02, truth_sway;
 				synth_default(&c, radii[i], dir);
-				c.ar = noise ? 0.9 : 0;
+				set_noise(&c, noise);
 				truth_sway = c.v_mps * c.amp_rad / (2 * PI * c.f_hz);
 				synth_make(&c, &g, &s);
 				run_synth(&s, &r);
 				printf("%s R %4.1f dir %+d: radius %+.5f (err %+.3f%%) arc %7.1f deg ci [%.5f, %.5f] "
 				       "ar %d yaw %.4f Hz %.3f deg sway %.4f Hz %.5f m (%+.1f%%)\n",
-				       noise ? "ar1  " : "white", radii[i], dir, r.radius_m,
+				       noise_name[noise], radii[i], dir, r.radius_m,
 				       100 * (fabs(r.radius_m) / radii[i] - 1), r.arc_deg, r.curvature_ci95_per_m[0],
 				       r.curvature_ci95_per_m[1], r.ar_order, r.yaw_osc_freq_hz, r.yaw_osc_amp_deg,
 				       r.sway_osc_freq_hz, r.sway_amp_m, 100 * (r.sway_amp_m / truth_sway - 1));
@@ -219,7 +244,10 @@ static void test_synth_arcs(void **state)
 				assert_true(fabs(r.yaw_osc_freq_hz - 1.2) < 0.02);
 				assert_true(fabs(r.yaw_osc_amp_deg / 20 - 1) < 0.10);
 				assert_true(fabs(r.sway_osc_freq_hz - 1.2) < 0.02);
-				assert_true(fabs(r.sway_amp_m / truth_sway - 1) < 0.10);
+				/* smoothed noise has ~6x the white noise's power at 1.2 Hz
+				 * (a 0.3 s running mean barely damps it), so the sway
+				 * amplitude's spread is ~5%: 15% there, 10% otherwise */
+				assert_true(fabs(r.sway_amp_m / truth_sway - 1) < (noise == 2 ? 0.15 : 0.10));
 				assert_true(fabs(r.radius_body_diameters - radii[i] / 0.1) < tol * radii[i] / 0.1);
 				assert_true(fabs(r.mean_speed_mps - 0.1) < 1e-9);
 				assert_true(fabs(r.duration_s - 30) < 1e-9);
@@ -232,10 +260,14 @@ static void test_synth_arcs(void **state)
 /* Calibration of the 95% curvature interval: over 100 seeded draws per case
  * the interval of the whole run pipeline must cover the true curvature at
  * least 90 times, and the reported standard error must match the observed
- * spread of the estimates (within 0.7-1.4: 100 draws fix the ratio to about
- * ±7%).  To keep the run time to seconds each radius is run in one
- * direction (alternating); both directions are covered by test_synth_arcs. */
-static int coverage(double R, int dir, double ar, int draws, double *mean_halfwidth, double *se_ratio)
+ * spread of the estimates: within 0.75-1.6 (100 draws fix the ratio to about
+ * ±7%, and for smoothed noise the residual model's long-run variance varies
+ * by a factor 2 between draws; over 300 draws the ratios were 0.89-1.05 for
+ * white and AR(1) noise and 1.02-1.17 for smoothed noise).  Noise: white,
+ * AR(1) with coefficient 0.9, and smoothed (a 9-frame running mean).  To keep
+ * the run time to seconds each radius is run in one direction
+ * (alternating); both directions are covered by test_synth_arcs. */
+static int coverage(double R, int dir, int kind, int draws, double *mean_halfwidth, double *se_ratio)
 {
 	static synth_run s;
 	int hits = 0;
@@ -247,7 +279,7 @@ static int coverage(double R, int dir, double ar, int draws, double *mean_halfwi
 		double se, err;
 		rng g = {(uint64_t)(77 + 1000 * k)};
 		synth_default(&c, R, dir);
-		c.ar = ar;
+		set_noise(&c, kind);
 		synth_make(&c, &g, &s);
 		run_synth(&s, &r);
 		se = r.curvature_se_per_m;
@@ -266,16 +298,16 @@ static int coverage(double R, int dir, double ar, int draws, double *mean_halfwi
 static void test_interval_coverage(void **state)
 {
 	(void)state;
-	for (int noise = 0; noise < 2; noise++)
+	for (int noise = 0; noise < 3; noise++)
 		for (int i = 0; i < 5; i++) {
 			double hw, ratio;
 			int dir = i % 2 ? -1 : 1;
-			int hits = coverage(radii[i], dir, noise ? 0.9 : 0, 100, &hw, &ratio);
+			int hits = coverage(radii[i], dir, noise, 100, &hw, &ratio);
 			printf("coverage %s R %.1f dir %+d: %d/100 (mean half-width %.5f /m = %.3f%% of curvature; "
 			       "reported/observed error %.2f)\n",
-			       noise ? "ar1  " : "white", radii[i], dir, hits, hw, 100 * hw * radii[i], ratio);
+			       noise_name[noise], radii[i], dir, hits, hw, 100 * hw * radii[i], ratio);
 			assert_true(hits >= 90);
-			assert_true(ratio > 0.7 && ratio < 1.4);
+			assert_true(ratio > 0.75 && ratio < 1.6);
 		}
 }
 
