@@ -552,7 +552,8 @@ int cmd_measure(int argc, char **argv)
 	}
 	qsort(c.runs, c.nruns, sizeof *c.runs, run_cmp);
 	mark_headlines(&c);
-	if (write_json(&c, out, commanded, &err) != WL_OK || (csv && write_csv(&c, csv, commanded, &err) != WL_OK)) {
+	/* the table first, so that SUMMARY.json exists only when both were written */
+	if ((csv && write_csv(&c, csv, commanded, &err) != WL_OK) || write_json(&c, out, commanded, &err) != WL_OK) {
 		rc = cli_fail("measure", &err);
 		goto done;
 	}

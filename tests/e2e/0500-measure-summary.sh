@@ -136,4 +136,17 @@ set +e
 "$WAKELINE" measure "$T/CLEAN.csv" 2> /dev/null; rc=$?
 set -e
 [ $rc -eq 2 ] || fail "no -o: exit $rc"
+"$WAKELINE" measure --help | grep -q "^usage: wakeline measure CLEAN.csv -o SUMMARY.json"
+set +e
+"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/y.json" --body-diameter-m -1 2> /dev/null; rc=$?
+set -e
+[ $rc -eq 2 ] || fail "negative body diameter: exit $rc"
+# an output that cannot be written: exit 1, the path named, no SUMMARY.json left behind
+set +e
+"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/y.json" --csv "$T/no/such/dir/runs.csv" 2> "$T/err4"; rc=$?
+set -e
+[ $rc -eq 1 ] || fail "unwritable csv: exit $rc"
+grep -q "no/such/dir/runs.csv" "$T/err4" || fail "unwritable message: $(cat "$T/err4")"
+[ ! -e "$T/y.json" ] || fail "SUMMARY.json written although --csv failed"
+[ -z "$(ls -A "$T" | grep '\.tmp-' || true)" ] || fail "temporary file left behind"
 echo ok
