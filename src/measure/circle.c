@@ -185,6 +185,7 @@ double wl_measure_swept_angle(const double *x, const double *y, size_t n, double
 
 typedef struct {
 	const double *x, *y, *t; /* t: NULL without a sway term */
+	double *cs;              /* cos, sin of ω t_i (2n values) with a sway term */
 	size_t n;
 	double rx, ry, w; /* reference point, sway angular frequency */
 	int np;           /* 3 or 5 */
@@ -193,9 +194,9 @@ typedef struct {
 /* Distance of point (X, Y), relative to the reference point, from the circle
  * p = (kappa, d, phi), positive to the right of travel, and its gradient
  * (Karimäki 1991, eq. for the distance; derivatives worked out here). */
-static double resid(const double p[3], double X, double Y, double J[3])
+static double resid(const double p[3], double s, double c, double X, double Y, double J[3])
 {
-	double k = p[0], d = p[1], s = sin(p[2]), c = cos(p[2]);
+	double k = p[0], d = p[1];
 	double pn = -X * s + Y * c, pu = X * c + Y * s, rr = X * X + Y * Y;
 	double P = 0.5 * k * (rr + d * d) - (1 + k * d) * pn + d;
 	double S = sqrt(fmax(1 + 2 * k * P, 0)), q = 1 + S, e = 2 * P / q;
@@ -212,11 +213,11 @@ static double resid(const double p[3], double X, double Y, double J[3])
 
 /* Residual of point i under the full model: the distance to the right of the
  * circle plus the modelled left offset. */
-static double presid(const problem *pb, const double *p, size_t i, double *J)
+static double presid(const problem *pb, const double *p, double sphi, double cphi, size_t i, double *J)
 {
-	double e = resid(p, pb->x[i] - pb->rx, pb->y[i] - pb->ry, J);
+	double e = resid(p, sphi, cphi, pb->x[i] - pb->rx, pb->y[i] - pb->ry, J);
 	if (pb->np == 5) {
-		double c = cos(pb->w * pb->t[i]), s = sin(pb->w * pb->t[i]);
+		double c = pb->cs[2 * i], s = pb->cs[2 * i + 1];
 		e += p[3] * c + p[4] * s;
 		if (J)
 			J[3] = c, J[4] = s;
@@ -226,9 +227,9 @@ static double presid(const problem *pb, const double *p, size_t i, double *J)
 
 static double cost(const problem *pb, const double *p)
 {
-	double c = 0;
+	double c = 0, sp = sin(p[2]), cp = cos(p[2]);
 	for (size_t i = 0; i < pb->n; i++) {
-		double e = presid(pb, p, i, NULL);
+		double e = presid(pb, p, sp, cp, i, NULL);
 		c += e * e;
 	}
 	return c;
@@ -288,10 +289,11 @@ static void start_values(const double *x, const double *y, size_t n, double rx, 
 static void normal_eq(const problem *pb, const double *p, double *H, double *g)
 {
 	int np = pb->np;
+	double sp = sin(p[2]), cp = cos(p[2]);
 	memset(H, 0, sizeof(double) * np * np);
 	memset(g, 0, sizeof(double) * np);
 	for (size_t i = 0; i < pb->n; i++) {
-		double J[NP_MAX], e = presid(pb, p, i, J);
+		double J[NP_MAX], e = presid(pb, p, sp, cp, i, J);
 		for (int r = 0; r < np; r++) {
 			g[r] += J[r] * e;
 			for (int s = 0; s < np; s++)
@@ -365,7 +367,7 @@ static void packed(const wl_geofit *f, double *p)
  * turns "left" around, so the sway coefficients change sign. */
 static void geofit_finish(const double *x, const double *y, size_t n, wl_geofit *f)
 {
-	problem pb = {x, y, NULL, n, f->ref_x_m, f->ref_y_m, 0, 3};
+	problem pb = {x, y, NULL, NULL, n, f->ref_x_m, f->ref_y_m, 0, 3};
 	double nx, ny, p[NP_MAX];
 	for (int pass = 0; pass < 2; pass++) {
 		int flip = 0;
@@ -394,7 +396,7 @@ static void geofit_finish(const double *x, const double *y, size_t n, wl_geofit 
 wl_status wl_measure_fit_geometric(const double *x, const double *y, size_t n, wl_geofit *out, wl_err *err)
 {
 	double p[NP_MAX] = {0};
-	problem pb = {x, y, NULL, n, 0, 0, 0, 3};
+	problem pb = {x, y, NULL, NULL, n, 0, 0, 0, 3};
 	wl_status st = check_points(x, y, n, "geometric", err);
 	if (st)
 		return st;
@@ -412,18 +414,31 @@ wl_status wl_measure_fit_geometric(const double *x, const double *y, size_t n, w
 	return WL_OK;
 }
 
+/* cos, sin of ω t_i for the sway term; freed by the caller with free(). */
+static double *sway_table(const double *t, size_t n, double w)
+{
+	double *cs = malloc(2 * n * sizeof *cs);
+	for (size_t i = 0; cs && i < n; i++) {
+		cs[2 * i] = cos(w * t[i]);
+		cs[2 * i + 1] = sin(w * t[i]);
+	}
+	return cs;
+}
+
 wl_status wl_measure_fit_geometric_sway(const double *x, const double *y, const double *t, size_t n,
 					double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err)
 {
 	double p[NP_MAX];
 	wl_geofit first;
-	problem pb = {x, y, t, n, 0, 0, 2 * PI * freq_hz, 5};
+	problem pb = {x, y, t, NULL, n, 0, 0, 2 * PI * freq_hz, 5};
 	wl_status st = wl_measure_fit_geometric(x, y, n, &first, err);
 	if (st)
 		return st;
 	if (!(freq_hz > 0) || !isfinite(freq_hz) || n < 6)
 		return wl_err_set(err, WL_EINVAL, "geometric circle fit with sway: frequency %g Hz or %zu points", freq_hz,
 				  n);
+	if (!(pb.cs = sway_table(t, n, pb.w)))
+		return wl_err_set(err, WL_ENOMEM, "geometric circle fit with sway: out of memory for %zu points", n);
 	*out = first;
 	out->sway_freq_hz = freq_hz;
 	out->sway_a_m = a0_m;
@@ -432,6 +447,7 @@ wl_status wl_measure_fit_geometric_sway(const double *x, const double *y, const 
 	pb.ry = first.ref_y_m;
 	packed(out, p);
 	out->iterations += lm_refine(&pb, p);
+	free(pb.cs);
 	for (int i = 0; i < 5; i++)
 		if (!isfinite(p[i]))
 			return wl_err_set(err, WL_EINVAL, "geometric circle fit with sway: did not converge");
@@ -444,7 +460,7 @@ double wl_measure_geofit_offset(const wl_geofit *f, double x, double y)
 {
 	double p[NP_MAX];
 	packed(f, p);
-	return -resid(p, x - f->ref_x_m, y - f->ref_y_m, NULL);
+	return -resid(p, sin(p[2]), cos(p[2]), x - f->ref_x_m, y - f->ref_y_m, NULL);
 }
 
 /* ---- autocorrelation-consistent standard error ---------------------------- */
@@ -486,7 +502,7 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 	       C[NP_MAX * NP_MAX], p[NP_MAX], g[NP_MAX], acov[AR_MAX + 1] = {0}, v[AR_MAX + 1];
 	double phi[AR_MAX + 1][AR_MAX + 1];
 	double *r = NULL, *Z = NULL;
-	problem pb = {x, y, t, n, f->ref_x_m, f->ref_y_m, 2 * PI * f->sway_freq_hz, 3};
+	problem pb = {x, y, t, NULL, n, f->ref_x_m, f->ref_y_m, 2 * PI * f->sway_freq_hz, 3};
 	wl_status st = WL_OK;
 	int np, order, pmax;
 	if (f->sway_freq_hz > 0) {
@@ -499,7 +515,9 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 		return wl_err_set(err, WL_EINVAL, "curvature uncertainty: %zu points: give at least 20", n);
 	r = malloc(n * sizeof *r);
 	Z = malloc((size_t)np * n * sizeof *Z);
-	if (!r || !Z) {
+	if (np == 5)
+		pb.cs = sway_table(t, n, pb.w);
+	if (!r || !Z || (np == 5 && !pb.cs)) {
 		st = wl_err_set(err, WL_ENOMEM, "curvature uncertainty: out of memory for %zu points", n);
 		goto out;
 	}
@@ -510,7 +528,7 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 		goto out;
 	}
 	for (size_t i = 0; i < n; i++)
-		r[i] = presid(&pb, p, i, Z + (size_t)np * i); /* Z holds J for now */
+		r[i] = presid(&pb, p, sin(p[2]), cos(p[2]), i, Z + (size_t)np * i); /* Z holds J for now */
 	/* an autoregressive model of the residual series (Yule-Walker, order by AIC) */
 	pmax = (int)(n / 10 < AR_MAX ? n / 10 : AR_MAX);
 	for (int k = 0; k <= pmax; k++) {
@@ -553,5 +571,6 @@ done:
 out:
 	free(r);
 	free(Z);
+	free(pb.cs);
 	return st;
 }

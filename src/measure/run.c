@@ -30,13 +30,36 @@ static double wrap_pi(double a)
 
 /* Residual sum of squares of the least-squares fit c + a cos(wt) + b sin(wt);
  * cs is scratch for 2n values. */
+/* cs[2i], cs[2i+1] = cos, sin of w·(t_i − t0).  Successive phasors are
+ * rotated by the step's e^{iwΔt}; for steps within 1e-3 rad of the first
+ * one the rotation is that step's times a second-order correction (error
+ * below 2e-10 rad a step), and the phasor is recomputed exactly every 128
+ * samples, so that evenly sampled series cost no trigonometry. */
+static void phasors(const double *t, size_t n, double w, double t0, double *cs)
+{
+	double dt0 = n > 1 ? t[1] - t[0] : 0, rc = cos(w * dt0), rs = sin(w * dt0);
+	for (size_t i = 0; i < n; i++) {
+		double e;
+		if (i % 128 == 0 || fabs(e = w * (t[i] - t[i - 1] - dt0)) > 1e-3) {
+			cs[2 * i] = cos(w * (t[i] - t0));
+			cs[2 * i + 1] = sin(w * (t[i] - t0));
+			continue;
+		}
+		{
+			double ec = 1 - 0.5 * e * e, es = e, qc = rc * ec - rs * es, qs = rs * ec + rc * es;
+			double pc = cs[2 * i - 2], ps = cs[2 * i - 1];
+			cs[2 * i] = pc * qc - ps * qs;
+			cs[2 * i + 1] = ps * qc + pc * qs;
+		}
+	}
+}
+
 static double sine_rss(const double *t, const double *v, size_t n, double f, double t0, double *cs, double coef[3])
 {
 	double A[9] = {0}, b[3] = {0}, rss = 0, w = 2 * PI * f;
+	phasors(t, n, w, t0, cs);
 	for (size_t i = 0; i < n; i++) {
-		double c = cos(w * (t[i] - t0)), s = sin(w * (t[i] - t0)), r[3] = {1, c, s};
-		cs[2 * i] = c;
-		cs[2 * i + 1] = s;
+		double c = cs[2 * i], s = cs[2 * i + 1], r[3] = {1, c, s};
 		for (int j = 0; j < 3; j++) {
 			b[j] += r[j] * v[i];
 			for (int k = j; k < 3; k++)
@@ -163,7 +186,7 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 		const double r = 0.6180339887498949;
 		double a = lo, b = hi, c = b - r * (b - a), d = a + r * (b - a);
 		double fc = sine_rss(t, v, n, c, t[0], g, NULL), fd = sine_rss(t, v, n, d, t[0], g, NULL);
-		for (int it = 0; it < 60 && b - a > 1e-6 * f0; it++) {
+		for (int it = 0; it < 60 && b - a > 1e-5 * f0; it++) {
 			if (fc < fd) {
 				b = d, d = c, fd = fc;
 				c = b - r * (b - a);
