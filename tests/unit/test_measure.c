@@ -435,6 +435,32 @@ static void test_errors(void **state)
 	assert_non_null(strstr(err.msg, "not after"));
 }
 
+/* The oscillation estimator on an exact sine sampled unevenly (frame times
+ * jittered by ±10 ms) with a slow trend removed first: frequency, amplitude
+ * and phase come back; a band without the peak gives another frequency. */
+static void test_oscillation_exact_sine(void **state)
+{
+	static double t[1200], v[1200];
+	rng g = {31};
+	wl_osc o;
+	(void)state;
+	for (int i = 0; i < 1200; i++) {
+		t[i] = i / 40.0 + (i ? 0.01 * (2 * rng_unif(&g) - 1) : 0);
+		v[i] = 0.3 + 0.05 * sin(2 * PI * 0.73 * t[i] + 1.1);
+	}
+	assert_int_equal(wl_measure_oscillation(t, v, 1200, 0.1, 16, &o, NULL), WL_OK);
+	printf("exact sine 0.73 Hz, 0.05, phase 1.1: %.6f Hz, %.6f, %.4f, r2 %.6f\n", o.freq_hz, o.amp, o.phase_rad,
+	       o.r2);
+	assert_true(fabs(o.freq_hz - 0.73) < 1e-4);
+	assert_true(fabs(o.amp - 0.05) < 1e-4);
+	assert_true(fabs(o.phase_rad - 1.1) < 1e-2);
+	assert_true(o.r2 > 0.9999);
+	assert_int_equal(wl_measure_oscillation(t, v, 1200, 2, 16, &o, NULL), WL_OK);
+	assert_true(o.freq_hz >= 2 && o.amp < 0.005);
+	assert_int_equal(wl_measure_oscillation(t, v, 10, 0.1, 16, &o, NULL), WL_EINVAL);
+	assert_int_equal(wl_measure_oscillation(t, v, 1200, 3, 2, &o, NULL), WL_EINVAL);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -445,6 +471,7 @@ int main(void)
 		cmocka_unit_test(test_short_arc_kasa_bias),
 		cmocka_unit_test(test_uneven_times_and_gaps),
 		cmocka_unit_test(test_errors),
+		cmocka_unit_test(test_oscillation_exact_sine),
 		cmocka_unit_test(test_interval_coverage),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
