@@ -179,7 +179,7 @@ static int cmp_name(const void *a, const void *b)
 }
 
 /* One clip folder: its rows (one per run, or one for a failure). */
-static void read_clip(prows *p, const char *out_dir, const char *name, const wl_report_scene *scene)
+static void read_clip(prows *p, const char *out_dir, const char *name)
 {
 	char path[PATH_MAX], folder[PATH_MAX], msg[PATH_MAX + 300];
 	cJSON *cj = NULL, *sj = NULL;
@@ -211,8 +211,14 @@ static void read_clip(prows *p, const char *out_dir, const char *name, const wl_
 		snprintf(path, sizeof path, "%s/%s/path_m.png", out_dir, folder);
 		if (stat(path, &st) != 0) {
 			/* the table can do without the picture: a broken image shows the gap */
+			wl_report_scene_buf *sb = calloc(1, sizeof *sb);
+			const char *cal = wl_json_string_or(cj, "cal", "");
+			if (sb && cal[0])
+				wl_report_scene_load(cal, sb, NULL);
 			snprintf(path, sizeof path, "%s/%s", out_dir, folder);
-			wl_report_clip_plots(path, scene, &err);
+			wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
+			wl_report_scene_release(sb);
+			free(sb);
 		}
 		cJSON_ArrayForEach(run, runs) {
 			prow *r = prow_new(p, clip, folder, "ok", NULL);
@@ -390,7 +396,7 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	closedir(d);
 	qsort(names, nn, sizeof *names, cmp_cstr);
 	for (i = 0; i < nn && !p.oom; i++)
-		read_clip(&p, out_dir, names[i], NULL);
+		read_clip(&p, out_dir, names[i]);
 	snprintf(path, sizeof path, "%s/batch.json", out_dir);
 	if (wl_json_load(path, &bj, NULL) == WL_OK) {
 		const cJSON *m, *miss = cJSON_GetObjectItemCaseSensitive(bj, "missing");

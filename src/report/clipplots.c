@@ -440,3 +440,46 @@ out:
 	free(cs);
 	return s;
 }
+
+wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl_err *err)
+{
+	cJSON *root = NULL;
+	const cJSON *a, *p;
+	size_t nout = 0, nmark = 0;
+	wl_status s;
+	memset(sb, 0, sizeof *sb);
+	if ((s = wl_json_load(cal_path, &root, err)))
+		return s;
+	a = cJSON_GetObjectItemCaseSensitive(root, "tank_outline_m");
+	cJSON_ArrayForEach(p, a) {
+		const cJSON *x = cJSON_GetArrayItem(p, 0), *y = cJSON_GetArrayItem(p, 1);
+		if (nout < 64 && cJSON_IsNumber(x) && cJSON_IsNumber(y)) {
+			sb->outline[nout][0] = x->valuedouble;
+			sb->outline[nout++][1] = y->valuedouble;
+		}
+	}
+	a = cJSON_GetObjectItemCaseSensitive(root, "points");
+	cJSON_ArrayForEach(p, a) {
+		double x = wl_json_number_or(p, "x_m", NAN), y = wl_json_number_or(p, "y_m", NAN);
+		if (nmark < 256 && isfinite(x) && isfinite(y)) {
+			sb->markers[nmark][0] = x;
+			sb->markers[nmark][1] = y;
+			sb->ids[nmark++] = wl_json_string_or(p, "id", NULL);
+		}
+	}
+	sb->json = root;
+	sb->scene.n_outline = nout;
+	sb->scene.outline_m = (const double (*)[2])sb->outline;
+	sb->scene.n_markers = nmark;
+	sb->scene.markers_m = (const double (*)[2])sb->markers;
+	sb->scene.marker_ids = sb->ids;
+	return WL_OK;
+}
+
+void wl_report_scene_release(wl_report_scene_buf *sb)
+{
+	if (!sb)
+		return;
+	cJSON_Delete(sb->json);
+	sb->json = NULL;
+}

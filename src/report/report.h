@@ -162,6 +162,21 @@ typedef struct {
 	double body_diameter_m;       /* 0 if unknown */
 } wl_report_scene;
 
+/* A scene read from CAL.json (keys "tank_outline_m": [[x, y], ...] and
+ * "points": [{"id", "x_m", "y_m"}, ...]), with the storage it points into.
+ * wl_report_scene_load fills sb->scene; a missing or unreadable file gives an
+ * empty scene (the plots do without) and returns the error for the caller
+ * to show or ignore.  wl_report_scene_release frees what load kept. */
+typedef struct {
+	wl_report_scene scene;
+	double outline[64][2], markers[256][2];
+	const char *ids[256];
+	void *json; /* the parsed file the id strings live in */
+} wl_report_scene_buf;
+
+wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl_err *err);
+void wl_report_scene_release(wl_report_scene_buf *sb);
+
 /* Reads `clip_dir`/clean.csv and `clip_dir`/summary.json (the formats in
  * DEVELOPERS.md) and writes path_m.svg, path_m.png, heading.svg and
  * heading.png into clip_dir.  Memory stays bounded: long tracks are thinned

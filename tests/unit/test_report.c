@@ -368,6 +368,29 @@ static void test_clip_plots(void **state)
 	assert_non_null(strstr(err.msg, "x_m"));
 }
 
+static void test_scene_load(void **state)
+{
+	wl_report_scene_buf sb;
+	char path[400];
+	wl_err err;
+	(void)state;
+	snprintf(path, sizeof path, "%s/cal.json", tmpdir);
+	write_text(path, "{\"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
+			 " \"points\": [{\"id\": \"M1\", \"x_m\": 0.1, \"y_m\": 0.2}, {\"id\": \"M2\", \"x_m\": 2.3,"
+			 " \"y_m\": 1.3}, {\"id\": \"bad\"}]}\n");
+	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
+	assert_int_equal(sb.scene.n_outline, 4);
+	assert_true(sb.scene.outline_m[2][0] == 2.4 && sb.scene.outline_m[2][1] == 1.4);
+	assert_int_equal(sb.scene.n_markers, 2);
+	assert_string_equal(sb.scene.marker_ids[1], "M2");
+		wl_report_scene_release(&sb);
+	snprintf(path, sizeof path, "%s/nope.json", tmpdir);
+	assert_int_not_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
+	assert_int_equal(sb.scene.n_outline, 0);
+	assert_non_null(strstr(err.msg, "nope.json"));
+	wl_report_scene_release(&sb);
+}
+
 /* ---- sweep and html ---- */
 
 static char *xs(const char *s)
@@ -473,6 +496,7 @@ int main(void)
 		cmocka_unit_test(test_plot_files),
 		cmocka_unit_test(test_layout_equal_aspect_and_symlog),
 		cmocka_unit_test(test_clip_plots),
+		cmocka_unit_test(test_scene_load),
 		cmocka_unit_test(test_sweep_and_html),
 	};
 	int rc = cmocka_run_group_tests(tests, setup_dir, teardown_dir);
