@@ -1,5 +1,5 @@
 #!/bin/bash
-# 0100-synth-clip: `wakeline synth` writes an H.264 clip whose frame times,
+# 0900-synth-clip: `wakeline synth` writes an H.264 clip whose frame times,
 # size, frame count and rotation, as read back by Debian's ffprobe (FFmpeg
 # 5.1, the reference), are those of the truth table; constant and jittered
 # (variable) frame rates; bad scenes fail cleanly and write nothing.
