@@ -69,6 +69,13 @@ check_clip vfr 60 "90"
 awk -F, 'NF != 7 || (NR > 1 && $1 !~ /^[0-9]+\.[0-9][0-9][0-9][0-9][0-9][0-9]$/) { exit 1 }' vfr.truth.csv ||
 	fail "vfr: truth numbers not in '.' decimals under LC_ALL=de_DE.UTF-8"
 
+# our own decoder (wakeline probe) reads the same times and rotation
+"$WAKELINE" probe -q --frames vfr.frames.csv vfr.mp4 > vfr.probe.txt
+grep -q "rotation *90 deg counter-clockwise" vfr.probe.txt || fail "probe: rotation: $(grep rotation vfr.probe.txt)"
+paste -d, <(tail -n +2 vfr.frames.csv | cut -d, -f2) vfr.truth_t | awk -F, '
+	{ d = $1 - $2; if (d < 0) d = -d; if (d > m) m = d; n++ } END { exit (n == 60 && m < 1e-6) ? 0 : 1 }' ||
+	fail "probe: frame times differ from the truth"
+
 # rotation 270 is reported as -90 (the phone-portrait case), and our display
 # matrix equals the one ffmpeg writes for -metadata rotate=270 (REFERENCES.md)
 write_scene r270 25 0 0 270
