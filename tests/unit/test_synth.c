@@ -448,6 +448,91 @@ static void test_noise(void **state)
 	free(c);
 }
 
+/* Motion blur averages the sub-frame renders: a blurred frame equals the
+ * mean of unblurred frames at the sub-frame times (to rounding). */
+static void test_motion_blur(void **state)
+{
+	static const char base[] =
+		"{ \"tank\": { \"size_m\": [1.2, 0.8] },"
+		"  \"camera\": { \"width_px\": 320, \"height_px\": 240, \"hfov_deg\": 60, \"position_m\": [0.6, 0.4, 1.2] },"
+		"  \"effects\": { \"supersample\": 2, \"blur_samples\": %d, \"exposure_s\": 0.1 },"
+		"  \"robots\": [ { \"marker\": { \"type\": \"tag\", \"tag_id\": 1 },"
+		"     \"path\": { \"start_m\": [0.5, 0.4], \"speed_mps\": 0.5 } } ] }";
+	char text[1024];
+	wl_synth_scene sb, s1;
+	wl_synth_renderer *rb = NULL, *r1 = NULL;
+	wl_err err = { 0 };
+	size_t n = (size_t)320 * 240 * 3;
+	uint8_t *blur = malloc(n), *one = malloc(n);
+	double *mean = calloc(n, sizeof *mean), t = 0.2, worst = 0;
+	long changed = 0;
+	(void)state;
+	snprintf(text, sizeof text, base, 4);
+	load(text, &sb);
+	snprintf(text, sizeof text, base, 1);
+	load(text, &s1);
+	assert_int_equal(wl_synth_renderer_create(&sb, 2, &rb, &err), WL_OK);
+	assert_int_equal(wl_synth_renderer_create(&s1, 2, &r1, &err), WL_OK);
+	render_rgb(rb, &sb, t, 0, blur);
+	for (int j = 0; j < 4; j++) {
+		render_rgb(r1, &s1, t + 0.1 * ((j + 0.5) / 4 - 0.5), 0, one);
+		for (size_t i = 0; i < n; i++)
+			mean[i] += one[i] / 4.0;
+	}
+	render_rgb(r1, &s1, t, 0, one);
+	for (size_t i = 0; i < n; i++) {
+		worst = fmax(worst, fabs(blur[i] - mean[i]));
+		changed += blur[i] != one[i];
+	}
+	assert_true(worst <= 1.0);  /* one level of rounding per render */
+	assert_true(changed > 300); /* 5 cm of motion in the exposure: a visible smear */
+	wl_synth_renderer_destroy(rb);
+	wl_synth_renderer_destroy(r1);
+	free(blur);
+	free(one);
+	free(mean);
+}
+
+/* Glare spots drift at glare_speed_pxps. */
+static void test_glare_drift(void **state)
+{
+	static const char text[] =
+		"{ \"seed\": 5, \"tank\": { \"size_m\": [4, 4], \"floor_rgb\": [100, 100, 100] },"
+		"  \"camera\": { \"width_px\": 640, \"height_px\": 480, \"hfov_deg\": 40, \"position_m\": [2, 2, 2] },"
+		"  \"effects\": { \"glare_count\": 1, \"glare_radius_px\": 20, \"glare_gain\": 100, \"glare_speed_pxps\": 30 } }";
+	wl_synth_scene sc;
+	wl_synth_renderer *r = NULL;
+	wl_err err = { 0 };
+	size_t n = (size_t)640 * 480 * 3;
+	uint8_t *a = malloc(n);
+	double cu[2], cv[2], peak = 0;
+	(void)state;
+	load(text, &sc);
+	assert_int_equal(wl_synth_renderer_create(&sc, 2, &r, &err), WL_OK);
+	for (int f = 0; f < 2; f++) {
+		double sw = 0, su = 0, sv = 0;
+		render_rgb(r, &sc, f * 1.0, f, a);
+		for (int v = 0; v < 480; v++)
+			for (int u = 0; u < 640; u++) {
+				double e = a[((size_t)v * 640 + u) * 3] - 100.0;
+				peak = fmax(peak, e);
+				sw += e;
+				su += e * u;
+				sv += e * v;
+			}
+		assert_true(sw > 0);
+		cu[f] = su / sw;
+		cv[f] = sv / sw;
+	}
+	printf("glare: peak %.1f, centroids (%.1f, %.1f) -> (%.1f, %.1f)\n", peak, cu[0], cv[0], cu[1], cv[1]);
+	assert_true(peak >= 95 && peak <= 100);
+	/* 1 s at 30 px/s (the spot is whole inside the image in both frames for
+	 * this seed; a clipped spot would bias the centroid) */
+	assert_float_equal(hypot(cu[1] - cu[0], cv[1] - cv[0]), 30.0, 0.5);
+	wl_synth_renderer_destroy(r);
+	free(a);
+}
+
 /* The whole chain: render, encode (B-frames, jittered times), decode with
  * Debian's ffmpeg (the reference decoder), detect: every frame comes back
  * in order and the tag centre is within 0.5 px of the projected truth. */
@@ -527,6 +612,8 @@ int main(void)
 		cmocka_unit_test(test_caps_and_occlusion),
 		cmocka_unit_test(test_noise),
 		cmocka_unit_test(test_clip_decoded_by_ffmpeg),
+		cmocka_unit_test(test_motion_blur),
+		cmocka_unit_test(test_glare_drift),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
