@@ -25,7 +25,7 @@ int main(int argc, char **argv)
 {
 	wl_synth_scene sc;
 	wl_synth_renderer *r = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	long n = argc > 2 ? atol(argv[2]) : 100;
 	if (argc < 2 || wl_synth_load(argv[1], &sc, &err)) {
 		fprintf(stderr, "usage: bench_synth SCENE.json [frames]\n%s\n", err.msg);
@@ -42,7 +42,8 @@ int main(int argc, char **argv)
 	for (long k = 0; k < n; k++)
 		wl_synth_render_frame(r, k % wl_synth_frame_count(&sc), rgb, 3 * w, &err);
 	double t2 = now_s(), c2 = cpu_s();
-	printf("%dx%d ss=%d noise=%g: background %.2f s wall (%.2f s cpu); frames %.1f/s wall (%.1f/s per cpu-s) without encoding\n",
+	printf("%dx%d ss=%d noise=%g: background %.2f s wall (%.2f s cpu); frames %.1f/s wall (%.1f/s per "
+	       "cpu-s) without encoding\n",
 	       w, h, sc.supersample, sc.noise_sigma, t1 - t0, c1 - c0, n / (t2 - t1), n / (c2 - c1));
 	wl_synth_renderer_destroy(r);
 	free(rgb);

@@ -66,12 +66,18 @@ static void fill(uint8_t *rgb, int w, int h, int k)
 /* Variable frame times with B-frames: ffprobe's pts_time = the times given. */
 static void test_vfr_times_and_rotation(void **state)
 {
-	static const double t[] = { 0, 0.040, 0.080, 0.125, 0.141, 0.300, 0.301, 0.402, 0.999, 1.0005 };
+	static const double t[] = {0, 0.040, 0.080, 0.125, 0.141, 0.300, 0.301, 0.402, 0.999, 1.0005};
 	const int n = (int)(sizeof t / sizeof t[0]), w = 160, h = 120;
-	wl_vwriter_opts o = { .width_px = w, .height_px = h, .time_base_den = 10000, .nominal_fps = 25,
-			      .rotation_deg = 90, .crf = 23, .b_frames = 3, .threads = 1 };
+	wl_vwriter_opts o = {.width_px = w,
+	                     .height_px = h,
+	                     .time_base_den = 10000,
+	                     .nominal_fps = 25,
+	                     .rotation_deg = 90,
+	                     .crf = 23,
+	                     .b_frames = 3,
+	                     .threads = 1};
 	wl_vwriter *vw = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	uint8_t *rgb = malloc((size_t)w * h * 3);
 	char path[300], cmd[700], line[128];
 	FILE *fp;
@@ -86,7 +92,9 @@ static void test_vfr_times_and_rotation(void **state)
 	assert_int_equal(access(path, F_OK), -1); /* not there before close */
 	assert_int_equal(wl_vwriter_close(vw, &err), WL_OK);
 	snprintf(cmd, sizeof cmd,
-		 "ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 '%s'", path);
+	         "ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "
+	         "'%s'",
+	         path);
 	fp = popen(cmd, "r");
 	assert_non_null(fp);
 	while (fgets(line, sizeof line, fp)) {
@@ -98,8 +106,9 @@ static void test_vfr_times_and_rotation(void **state)
 	assert_int_equal(i, n);
 	/* REFERENCES.md: the display matrix of `rotate=90` reads back as 90 */
 	snprintf(cmd, sizeof cmd,
-		 "ffprobe -v error -select_streams v:0 -show_entries stream_side_data=rotation -of default=nw=1:nk=1 '%s'",
-		 path);
+	         "ffprobe -v error -select_streams v:0 -show_entries stream_side_data=rotation -of "
+	         "default=nw=1:nk=1 '%s'",
+	         path);
 	fp = popen(cmd, "r");
 	assert_non_null(fp);
 	assert_non_null(fgets(line, sizeof line, fp));
@@ -112,10 +121,10 @@ static void test_vfr_times_and_rotation(void **state)
 
 static void test_errors_leave_nothing(void **state)
 {
-	wl_vwriter_opts o = { .width_px = 64, .height_px = 48, .time_base_den = 1000, .nominal_fps = 30 };
+	wl_vwriter_opts o = {.width_px = 64, .height_px = 48, .time_base_den = 1000, .nominal_fps = 30};
 	wl_vwriter *vw = NULL;
-	wl_err err = { 0 };
-	uint8_t rgb[64 * 48 * 3] = { 0 };
+	wl_err err = {0};
+	uint8_t rgb[64 * 48 * 3] = {0};
 	char path[300];
 	(void)state;
 	snprintf(path, sizeof path, "%s/bad.mp4", dir);
@@ -144,8 +153,8 @@ static void test_errors_leave_nothing(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_vfr_times_and_rotation),
-		cmocka_unit_test(test_errors_leave_nothing),
+	        cmocka_unit_test(test_vfr_times_and_rotation),
+	        cmocka_unit_test(test_errors_leave_nothing),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
 }
