@@ -107,6 +107,12 @@ grep -q "syntax.json:2:" syntax.err || fail "syntax: message lacks file:line: $(
 [ "$(ls -A | grep -v '\.json$' | grep -v '\.err$' | wc -l)" = 0 ] || fail "bad scenes left files: $(ls -A)"
 cd ..
 
+# an output folder that does not exist: exit 1, the path named
+set +e
+"$WAKELINE" synth -q cfr.json -o no-such-dir/x.mp4 2> nodir.err; rc=$?
+set -e
+[ $rc = 1 ] && grep -q "no-such-dir/x" nodir.err || fail "missing folder: exit $rc: $(cat nodir.err)"
+
 # usage
 "$WAKELINE" synth --help | grep -q "usage: wakeline synth" || fail "--help"
 set +e
