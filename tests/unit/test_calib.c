@@ -535,8 +535,10 @@ static void test_tag_pixel_convention(void **state)
 		assert_int_equal(seen, 0);
 		wl_calib_tags_destroy(t2);
 	}
-	assert_int_equal(wl_calib_tags_create("tag99x", &t, &err) == WL_OK, 0);
 	wl_calib_tags_destroy(t);
+	assert_int_equal(wl_calib_tags_create("tag99x", &t, &err), WL_EINVAL);
+	assert_null(t);
+	assert_non_null(strstr(err.msg, "tag36h11"));
 	image_u8_destroy(tag);
 	tag36h11_destroy(fam);
 }
