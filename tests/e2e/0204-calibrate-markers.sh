@@ -10,17 +10,17 @@ set -euo pipefail
 rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP/tags"; cd "$WL_TEST_TMP"
 layout="$WL_SOURCE_DIR/calib/example-layout.csv"
 for i in 0 1 2 3 4 5 6 7; do
-  "$WAKELINE" markers --ids $i --size-mm 100 --dpi 254 -o tags/tag$i.png > /dev/null
+  "$WAKELINE" markers --ids $i --size-mm 100 --dpi 127 -o tags/tag$i.png > /dev/null
 done
-# the sheet is at scale: at 254 dpi (10 px/mm) the black square is 1000 px
+# the sheet is at scale: at 127 dpi (5 px/mm) the black square is 500 px
 /usr/bin/python3 - <<'PY'
 import cv2, numpy as np
 im = cv2.imread("tags/tag3.png", cv2.IMREAD_GRAYSCALE)
 n, lab, st, _ = cv2.connectedComponentsWithStats((im < 128).astype(np.uint8), connectivity=4)
 k = 1 + int(np.argmax(st[1:, cv2.CC_STAT_AREA]))
 w, h = st[k, cv2.CC_STAT_WIDTH], st[k, cv2.CC_STAT_HEIGHT]
-print("black square %d x %d px at 10 px/mm" % (w, h))
-assert abs(w - 1000) <= 1 and abs(h - 1000) <= 1, (w, h)
+print("black square %d x %d px at 5 px/mm" % (w, h))
+assert abs(w - 500) <= 1 and abs(h - 500) <= 1, (w, h)
 PY
 /usr/bin/python3 "$WL_SOURCE_DIR/tests/e2e/lib/calib_scene.py" tags "$layout" scene.png --tagdir tags --tilt 20
 
