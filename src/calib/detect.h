@@ -22,6 +22,8 @@ typedef struct {
 	double p[4][2]; /* corners in the detector's order (see wl_calib_marker_corners) */
 	double margin;  /* median decision margin */
 	int frames;     /* frames the marker was seen in */
+	double move_px; /* largest distance of a frame's centre from the median: the
+			 * camera or the marker moved (stabilisation, a bumped tripod) */
 } wl_tag_obs;
 
 /* family: "tag36h11", "tag25h9", "tag16h5" or "tagStandard41h12". */

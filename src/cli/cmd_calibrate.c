@@ -154,6 +154,7 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 	return read_clip(op, tags, w, h, rotation_deg, frames, err);
 }
 
+#define MOVE_WARN_PX 1.5 /* a marker's centre wandering more than this over the frames (our choice) */
 #define MIN_MARGIN 40.0 /* median decision margin below this: a weak detection (our choice) */
 
 /* Detected markers -> correspondences: centre, and the corners when the
@@ -174,6 +175,10 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 			continue;
 		}
 		(*n_seen)++;
+		if (o.move_px > MOVE_WARN_PX)
+			printf("  warning: marker %ld moves by up to %.1f px between frames: turn image "
+			       "stabilisation off and fix the camera\n",
+			       m->id, o.move_px);
 		if (o.margin < MIN_MARGIN)
 			printf("  warning: marker %ld is weakly detected (decision margin %.0f, below %.0f): "
 			       "more light, less glare, or a larger print\n",
