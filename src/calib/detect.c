@@ -188,7 +188,8 @@ int wl_calib_tags_get(const wl_calib_tags *t, long id, wl_tag_obs *out)
 		out->frames = tr->seen;
 		out->move_px = 0;
 		for (int j = 0; j < tr->n; j++)
-			out->move_px = fmax(out->move_px, hypot(tr->obs[j][0] - med[0], tr->obs[j][1] - med[1]));
+			out->move_px =
+			        fmax(out->move_px, hypot(tr->obs[j][0] - med[0], tr->obs[j][1] - med[1]));
 		return 1;
 	}
 	return 0;

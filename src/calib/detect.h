@@ -23,7 +23,7 @@ typedef struct {
 	double margin;  /* median decision margin */
 	int frames;     /* frames the marker was seen in */
 	double move_px; /* largest distance of a frame's centre from the median: the
-			 * camera or the marker moved (stabilisation, a bumped tripod) */
+	                 * camera or the marker moved (stabilisation, a bumped tripod) */
 } wl_tag_obs;
 
 /* family: "tag36h11", "tag25h9", "tag16h5" or "tagStandard41h12". */

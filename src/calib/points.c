@@ -68,7 +68,7 @@ static wl_status points_row(const wl_csv_row *row, void *ctx, wl_err *err)
 
 wl_status wl_calib_read_points(const char *path, wl_calib_point *pts, int max, int *n, wl_err *err)
 {
-	static reader r;
+	reader r;
 	wl_status st;
 	memset(&r, 0, sizeof r);
 	r.pts = pts;
@@ -135,7 +135,7 @@ static wl_status layout_row(const wl_csv_row *row, void *ctx, wl_err *err)
 
 wl_status wl_calib_read_layout(const char *path, wl_calib_marker *marks, int max, int *n, wl_err *err)
 {
-	static reader r;
+	reader r;
 	wl_status st;
 	memset(&r, 0, sizeof r);
 	r.marks = marks;

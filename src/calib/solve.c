@@ -10,6 +10,7 @@
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "core/linalg.h"
@@ -402,10 +403,9 @@ static wl_status initial_camera(wl_calib *cal, work *w, const wl_calib_opts *o, 
 	return solve_3d(cal, w, o, flags, err);
 }
 
-wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *o, wl_calib *cal,
-                         wl_calib_report *rep, wl_err *err)
+static wl_status solve(work *wk, const wl_calib_point *pts, int n, const wl_calib_opts *o, wl_calib *cal,
+                       wl_calib_report *rep, wl_err *err)
 {
-	static work w; /* large; a calibration is solved by one thread at a time */
 	double rms;
 	unsigned flags = 0;
 	int direct_h = 0;
@@ -428,9 +428,9 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 		        "the lens was calibrated at %dx%d but the image is %dx%d: calibrate the lens "
 		        "at this resolution",
 		        o->lens->width_px, o->lens->height_px, o->width_px, o->height_px);
-	if ((st = load_work(pts, n, o, &w, err)))
+	if ((st = load_work(pts, n, o, wk, err)))
 		return st;
-	if ((st = initial_camera(cal, &w, o, rep, &flags, &direct_h, err)))
+	if ((st = initial_camera(cal, wk, o, rep, &flags, &direct_h, err)))
 		return st;
 	cal->cam.width_px = o->width_px;
 	cal->cam.height_px = o->height_px;
@@ -440,8 +440,8 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 		flags |= WL_POSE_WATER;
 	}
 	if (flags & WL_POSE_FOCAL) /* settle the pose with f fixed, then free f */
-		wl_pose_refine(&cal->cam, w.xyz, w.uv, w.used, n, flags & ~(unsigned)WL_POSE_FOCAL);
-	rms = wl_pose_refine(&cal->cam, w.xyz, w.uv, w.used, n, flags);
+		wl_pose_refine(&cal->cam, wk->xyz, wk->uv, wk->used, n, flags & ~(unsigned)WL_POSE_FOCAL);
+	rms = wl_pose_refine(&cal->cam, wk->xyz, wk->uv, wk->used, n, flags);
 	if (rms < 0)
 		return wl_err_set(err, WL_ECALIB,
 		                  "the pose refinement put a point behind the camera: check the points");
@@ -455,18 +455,33 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 	cal->rotation_deg = o->rotation_deg;
 	cal->n_points = n;
 	memcpy(cal->points, pts, sizeof *pts * (size_t)n);
-	finish_residuals(cal, &w, rep);
+	finish_residuals(cal, wk, rep);
 	rep->height_m = wl_calib_camera_height_m(cal);
 	rep->tilt_deg = wl_calib_camera_tilt_deg(cal);
 	if (rep->outlier >= 0)
 		warn(rep, "point '%s' is %.1f px off the fit of the others: left out; check it",
 		     pts[rep->outlier].id, rep->outlier_residual_px);
 	for (int i = 0; i < n; i++)
-		if (w.used[i] && cal->points[i].residual_px > RESIDUAL_WARN_PX)
+		if (wk->used[i] && cal->points[i].residual_px > RESIDUAL_WARN_PX)
 			warn(rep, "point '%s' has a residual of %.2f px (above %.0f px): check it", pts[i].id,
 			     cal->points[i].residual_px, RESIDUAL_WARN_PX);
 	if (rep->n_used == 4)
 		warn(rep,
 		     "exactly 4 points: the fit is exact and has no residual to judge it by; add points");
 	return WL_OK;
+}
+
+wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *o, wl_calib *cal,
+                         wl_calib_report *rep, wl_err *err)
+{
+	work *wk = malloc(sizeof *wk); /* ~30 kB of scratch */
+	wl_status st;
+	if (!wk) {
+		wl_calib_init(cal);
+		memset(rep, 0, sizeof *rep);
+		return wl_err_set(err, WL_ENOMEM, "out of memory for the calibration");
+	}
+	st = solve(wk, pts, n, o, cal, rep, err);
+	free(wk);
+	return st;
 }

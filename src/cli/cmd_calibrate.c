@@ -155,7 +155,7 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 }
 
 #define MOVE_WARN_PX 1.5 /* a marker's centre wandering more than this over the frames (our choice) */
-#define MIN_MARGIN 40.0 /* median decision margin below this: a weak detection (our choice) */
+#define MIN_MARGIN 40.0  /* median decision margin below this: a weak detection (our choice) */
 
 /* Detected markers -> correspondences: centre, and the corners when the
  * layout gives the marker's size. */
