@@ -783,7 +783,7 @@ static double find_period(const work *w, size_t a, size_t b, double rmean)
 		return NAN;
 	rms = sqrt(rms / nrm);
 	srm = sqrt(srm / nrm);
-	if (rms < 3 * srm || rms < 1e-3)
+	if (rms < srm || rms < 1e-3)
 		return NAN;
 	hyst = 0.5 * rms;
 	iv = malloc((b - a + 1) * sizeof *iv);
@@ -810,40 +810,104 @@ static double find_period(const work *w, size_t a, size_t b, double rmean)
 	return per;
 }
 
+/* 1.4826 MAD of v[a..b] about ref (the normal consistency factor). */
+static double mad_of(const double *v, size_t a, size_t b, double ref)
+{
+	double *d, s;
+	size_t m = 0;
+	if (b < a)
+		return 0;
+	if (!(d = malloc((b - a + 1) * sizeof *d)))
+		return 0;
+	for (size_t i = a; i <= b; i++)
+		if (isfinite(v[i]))
+			d[m++] = fabs(v[i] - ref);
+	s = m ? 1.4826 * median(d, m) : 0;
+	free(d);
+	return s;
+}
+
+/* Integral of the piecewise-linear v from t[a] to time x (a <= k < n),
+ * with the running prefix integral I; *k is a search hint. */
+static double integ_at(const double *t, const double *v, const double *I, size_t n, double x, size_t *k)
+{
+	double f;
+	while (*k + 1 < n - 1 && t[*k + 1] <= x)
+		(*k)++;
+	while (*k > 0 && t[*k] > x)
+		(*k)--;
+	f = x - t[*k];
+	if (*k + 1 >= n)
+		return I[*k];
+	return I[*k] + f * (v[*k] + 0.5 * f * (v[*k + 1] - v[*k]) / (t[*k + 1] - t[*k]));
+}
+
+/* Centred window means of v over [t - W/2, t + W/2] for samples a..b whose
+ * window lies inside [t[a], t[b]]; others get NaN. */
+static void window_means(const work *w, const double *v, size_t a, size_t b, double W, double *I, double *m)
+{
+	size_t k0 = 0, k1 = 0, n = b - a + 1;
+	I[0] = 0;
+	for (size_t i = 1; i < n; i++)
+		I[i] = I[i - 1] + 0.5 * (v[a + i] + v[a + i - 1]) * (w->t[a + i] - w->t[a + i - 1]);
+	for (size_t i = 0; i < n; i++) {
+		double t = w->t[a + i];
+		m[a + i] = NAN;
+		if (t - W / 2 < w->t[a] || t + W / 2 > w->t[b])
+			continue;
+		m[a + i] = (integ_at(w->t + a, v + a, I, n, t + W / 2, &k1) -
+			    integ_at(w->t + a, v + a, I, n, t - W / 2, &k0)) / W;
+	}
+}
+
+/* Settling: the first time from which the speed and the yaw rate, averaged
+ * over centred windows of W (one heading-oscillation period, or more when one
+ * period's mean is too noisy for the tolerance), stay within a tolerance of
+ * their steady values for W.  Steady values are means over the second half
+ * of the motion.  A centred window keeps the detected time unbiased for a
+ * smooth approach (an exponential with time constant tau is late by about
+ * W^2 / (24 tau)). */
 static void settle(const work *w, const wl_clean_params *p, wl_clean_robot *rb, const double *spd, size_t on,
 		   size_t end)
 {
-	size_t mid = on + (end - on) / 2, j = on, run = (size_t)-1;
-	double W, tolv, tolr;
-	unsigned char *ok;
+	size_t mid = on + (end - on) / 2, run = (size_t)-1, n = end - on + 1;
+	double P, W = 0, tolv = 0, tolr = INFINITY, *mv, *mr, *I;
+	int mult;
+	rb->trim_s = w->t[on];
+	rb->trim_reason = "not-settled";
 	rb->speed_ref_mps = twmean(w, spd, mid, end);
 	rb->yaw_ref_radps = isfinite(w->r[mid]) ? twmean(w, w->r, mid, end) : NAN;
 	rb->period_s = find_period(w, on, end, twmean(w, w->r, on, end));
-	W = isfinite(rb->period_s) ? rb->period_s : p->default_window_s;
-	rb->window_s = W;
-	tolv = fmax(p->settle_tol * rb->speed_ref_mps, 0.001);
-	tolr = isfinite(rb->yaw_ref_radps) ? fmax(p->settle_tol * fabs(rb->yaw_ref_radps), p->settle_yaw_tol_radps)
-					   : INFINITY;
-	rb->trim_s = w->t[on];
-	rb->trim_reason = "not-settled";
-	ok = calloc(end + 1, 1);
-	if (!ok)
-		return;
-	for (size_t i = on; i <= end; i++) {
-		double mv, mr;
-		if (j < i)
-			j = i;
-		while (j < end && w->t[j] - w->t[i] < W)
-			j++;
-		if (w->t[j] - w->t[i] < W * 0.999)
-			break; /* the window runs past the end */
-		mv = twmean(w, spd, i, j);
-		mr = isfinite(w->r[i]) ? twmean(w, w->r, i, j) : 0;
-		ok[i] = fabs(mv - rb->speed_ref_mps) <= tolv && (!isfinite(tolr) || fabs(mr - rb->yaw_ref_radps) <= tolr);
+	P = isfinite(rb->period_s) ? rb->period_s : p->default_window_s;
+	mv = malloc((end + 1) * sizeof *mv);
+	mr = malloc((end + 1) * sizeof *mr);
+	I = malloc(n * sizeof *I);
+	if (!mv || !mr || !I)
+		goto out;
+	for (mult = 1; mult <= 4; mult++) {
+		double scat_v, scat_r;
+		W = mult * P;
+		window_means(w, spd, on, end, W, I, mv);
+		if (isfinite(rb->yaw_ref_radps))
+			window_means(w, w->r, on, end, W, I, mr);
+		/* scatter of the window means over the second half (1.4826 MAD) */
+		scat_v = mad_of(mv, mid, end, rb->speed_ref_mps);
+		scat_r = isfinite(rb->yaw_ref_radps) ? mad_of(mr, mid, end, rb->yaw_ref_radps) : 0;
+		tolv = fmax(p->settle_tol * rb->speed_ref_mps, 3 * scat_v);
+		if (isfinite(rb->yaw_ref_radps))
+			tolr = fmax(fmax(p->settle_tol * fabs(rb->yaw_ref_radps), p->settle_yaw_tol_radps), 3 * scat_r);
+		if (3 * scat_v <= p->settle_tol * rb->speed_ref_mps)
+			break;
 	}
-	/* settled: steady for every window start over one more window */
+	if (mult > 4)
+		mult = 4;
+	rb->window_s = W;
+	rb->settle_tol_mps = tolv;
+	rb->settle_tol_radps = tolr;
 	for (size_t i = on; i <= end; i++) {
-		if (!ok[i]) {
+		int ok = isfinite(mv[i]) && fabs(mv[i] - rb->speed_ref_mps) <= tolv &&
+			 (!isfinite(rb->yaw_ref_radps) || (isfinite(mr[i]) && fabs(mr[i] - rb->yaw_ref_radps) <= tolr));
+		if (!ok) {
 			run = (size_t)-1;
 			continue;
 		}
@@ -855,7 +919,10 @@ static void settle(const work *w, const wl_clean_params *p, wl_clean_robot *rb, 
 			break;
 		}
 	}
-	free(ok);
+out:
+	free(mv);
+	free(mr);
+	free(I);
 }
 
 static void cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *rb)
@@ -864,7 +931,7 @@ static void cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *r
 	double margin = p->wall_margin_m >= 0 ? p->wall_margin_m : 0.5 * p->body_diameter_m;
 	size_t on, end, from, seg = 0, m = 0;
 	rb->onset_s = rb->wall_s = rb->period_s = rb->window_s = NAN;
-	rb->speed_ref_mps = rb->yaw_ref_radps = rb->wall_dist_m = NAN;
+	rb->speed_ref_mps = rb->yaw_ref_radps = rb->wall_dist_m = rb->settle_tol_mps = rb->settle_tol_radps = NAN;
 	rb->trim_s = w->n ? w->t[0] : NAN;
 	rb->trim_reason = "none";
 	rb->end_reason = p->n_outline ? "end-of-track" : "no-outline";

@@ -158,6 +158,8 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	num(o, "settle_window_s", rb->window_s);
 	num(o, "steady_speed_mps", rb->speed_ref_mps);
 	num(o, "steady_yaw_rate_radps", rb->yaw_ref_radps);
+	num(o, "settle_tol_mps", rb->settle_tol_mps);
+	num(o, "settle_tol_radps", rb->settle_tol_radps);
 	t = cJSON_AddObjectToObject(o, "trim");
 	num(t, "t_s", rb->trim_s);
 	cJSON_AddStringToObject(t, "reason", rb->trim_reason ? rb->trim_reason : "");
