@@ -76,6 +76,25 @@ $PY "$E" "$T/outl_sg.csv" "$T/outl.truth.csv" "$T/outl.raw.csv" --settle "$(sett
 	--check "outliers_missed<=0" --check "outlier_max_pos_err_mm<=5" --check "pos_rmse_ratio>=1.5" \
 	--check "trim_err_s<=0.5"
 
+echo "== heading through +-pi (path direction from 2.6 rad up past pi) with a 180-degree flip at frame 200"
+run pi --seed 12 --psi0 2.6 --flip-frame 200
+$PY "$E" "$T/pi.csv" "$T/pi.truth.csv" "$T/pi.raw.csv" --settle "$(settle pi)" \
+	--check "rmse_heading_deg<=1.5" --check "outliers_missed<=0" --check "outlier_max_heading_err_deg<=6"
+awk -F, 'NR > 1 && ($6 > 3.1 || $6 < -3.1)' "$T/pi.csv" | grep -q . || fail "the track did not pass +-pi"
+awk -F, 'NR > 1 && ($6 > 3.14159266 || $6 <= -3.14159265)' "$T/pi.csv" | grep -q . && fail "heading not wrapped to (-pi, pi]"
+
+echo "== constant-acceleration model on the first run"
+"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/ca.csv" --model ca
+$PY "$E" "$T/ca.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" \
+	--check "pos_rmse_ratio>=2" --check "speed_mean_rel_err<=0.02" --check "trim_err_s<=0.5"
+
+echo "== --trim 3 and --trim none"
+"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/t3.csv" --trim 3
+awk -F, 'NR > 1 && $11 >= 0 { print $1; exit }' "$T/t3.csv" | grep -qx "3.000000" || fail "--trim 3: first analysed row"
+awk -F, 'NR > 1 && $1 < 3 && $13 != "start"' "$T/t3.csv" | grep -q . && fail "--trim 3: rows before 3 s not cut"
+"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/tn.csv" --trim none
+awk -F, 'NR > 1 && $11 < 0' "$T/tn.csv" | grep -q . && fail "--trim none: rows cut"
+
 echo "== auto trim on other runs (slower speed-up, straight path, faster robot at 1 Hz)"
 run tau --seed 4 --tau 0.8
 $PY "$E" "$T/tau.csv" "$T/tau.truth.csv" "$T/tau.raw.csv" --settle "$(settle tau)" --check "trim_err_s<=0.5"
