@@ -946,6 +946,20 @@ static void cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *r
 	/* 5 sigma of one velocity component: a still robot's speed (Rayleigh)
 	 * exceeds it with probability exp(-12.5) */
 	rb->speed_threshold_mps = fmax(p->min_speed_mps, 5 * rb->speed_sigma_mps);
+	{
+		double span = 0;
+		for (size_t q = 0; q < w->npieces; q++)
+			span += w->t[w->pstart[q + 1] - 1] - w->t[w->pstart[q]];
+		if (span < p->min_segment_s) {
+			/* too little to tell moving from still: left out like a short piece */
+			rb->trim_reason = rb->end_reason = "too-short";
+			for (size_t i = 0; i < w->n; i++) {
+				w->cut[i] = WL_CUT_GAP;
+				w->seg[i] = -1;
+			}
+			goto out;
+		}
+	}
 	on = find_onset(w, spd, rb->speed_threshold_mps);
 	if (on == (size_t)-1) {
 		rb->still = 1;

@@ -224,11 +224,13 @@ typedef struct {
 	double t_first_s, t_last_s;
 	double onset_s;           /* first sustained motion, NaN if still */
 	double trim_s;            /* rows before this are cut 'start' */
-	const char *trim_reason;  /* "settled", "not-settled", "fixed", "none", "still" */
+	const char *trim_reason;  /* "settled", "not-settled", "fixed", "none", "still", "too-short",
+				     "no-detections" */
 	double speed_ref_mps, yaw_ref_radps; /* steady values (mean over the second half) */
 	double settle_tol_mps, settle_tol_radps; /* tolerances used */
 	double wall_s;            /* rows from here are cut 'wall'; NaN none */
-	const char *end_reason;   /* "wall", "end-of-track", "no-outline", "still" */
+	const char *end_reason;   /* "wall", "end-of-track", "no-outline", "still", "too-short",
+				     "no-detections" */
 	double wall_dist_m;       /* distance to the outline at wall_s */
 } wl_clean_robot;
 

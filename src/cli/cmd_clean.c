@@ -109,6 +109,15 @@ static char *default_sidecar(const char *csv)
 
 static void summary(const wl_clean_robot *rb)
 {
+	if (rb->rows_out == 0 && rb->measured == 0) {
+		printf("robot %ld: no detections in %zu rows; not analysed\n", rb->id, rb->rows_in);
+		return;
+	}
+	if (rb->trim_reason && strcmp(rb->trim_reason, "too-short") == 0) {
+		printf("robot %ld: too short (%zu rows, %.3f s): not analysed\n", rb->id, rb->rows_in,
+		       rb->t_last_s - rb->t_first_s);
+		return;
+	}
 	if (rb->still) {
 		printf("robot %ld: %s: %zu rows, never moved faster than %.4f m/s; not analysed\n", rb->id,
 		       rb->trim_reason, rb->rows_in, isfinite(rb->speed_threshold_mps) ? rb->speed_threshold_mps : 0.0);

@@ -47,4 +47,11 @@ echo '{"tank_outline_m": [[0,0],[1,0]]}' > "$T/cal.json"
 rc=0; "$WAKELINE" clean "$T/ok.csv" -o "$T/o.csv" --cal "$T/cal.json" 2> "$T/err.txt" || rc=$?
 [ "$rc" -eq 1 ] && grep -q "tank_outline_m" "$T/err.txt" || fail "bad outline accepted"
 [ ! -e "$T/o.csv" ] || fail "output written with a bad outline"
+# edge cases that are not errors: a robot with one detection (too short to
+# tell), a robot with only lost rows (nothing to write for it)
+{ echo "$H"; good 0.0 0; echo "0.0,0,2,,,,,,lost,,,"; echo "0.1,1,2,,,,,,lost,,,"; } > "$T/edge.csv"
+"$WAKELINE" clean "$T/edge.csv" -o "$T/edge_out.csv" > "$T/edge.txt"
+grep -q "robot 1: too short" "$T/edge.txt" && grep -q "robot 2: no detections in 2 rows" "$T/edge.txt" || fail "edge summary"
+[ "$(tail -n +2 "$T/edge_out.csv")" = "0.000000,0,1,0.000000,0.200000,0.300000,0.000000,0.000000,0.000000,0.000000,-1,measured,gap" ] \
+	|| fail "edge output: $(cat "$T/edge_out.csv")"
 echo "0402-clean-errors: ok"

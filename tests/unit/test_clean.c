@@ -101,22 +101,27 @@ static void test_sg_published_tables(void **state)
 static void test_sg_scipy(void **state)
 {
 	static const int cases[][3] = { { 5, 2, 0 }, { 7, 3, 1 }, { 11, 2, 0 }, { 11, 4, 2 }, { 21, 3, 1 }, { 15, 5, 3 } };
+	char args[256] = "ref_sg.py", *out, *p;
+	size_t len = strlen(args);
 	(void)state;
+	for (size_t k = 0; k < sizeof cases / sizeof cases[0]; k++)
+		len += (size_t)snprintf(args + len, sizeof args - len, " %d %d %d", cases[k][0], cases[k][1], cases[k][2]);
+	out = run_python(args);
+	assert_non_null(out);
+	p = out;
 	for (size_t k = 0; k < sizeof cases / sizeof cases[0]; k++) {
-		char args[128], *out, *p;
 		double w[WL_SG_MAX_WINDOW];
 		int win = cases[k][0], ord = cases[k][1], der = cases[k][2];
-		snprintf(args, sizeof args, "ref_sg.py %d %d %d", win, ord, der);
-		out = run_python(args);
-		assert_non_null(out);
 		assert_true(wl_sg_coeffs(win, ord, der, w));
-		p = out;
 		for (int i = 0; i < win; i++) {
-			double v = strtod(p, &p);
+			char *end;
+			double v = strtod(p, &end);
+			assert_true(end != p);
+			p = end;
 			assert_float_equal(w[i], v, 1e-10);
 		}
-		free(out);
 	}
+	free(out);
 }
 
 /* Uneven spacing: the weights reproduce any polynomial of the fit's order
