@@ -47,6 +47,14 @@ echo '{"tank_outline_m": [[0,0],[1,0]]}' > "$T/cal.json"
 rc=0; "$WAKELINE" clean "$T/ok.csv" -o "$T/o.csv" --cal "$T/cal.json" 2> "$T/err.txt" || rc=$?
 [ "$rc" -eq 1 ] && grep -q "tank_outline_m" "$T/err.txt" || fail "bad outline accepted"
 [ ! -e "$T/o.csv" ] || fail "output written with a bad outline"
+# an output that cannot be written: neither file appears (both are opened
+# before either is committed)
+rc=0; "$WAKELINE" clean "$T/ok.csv" -o "$T/o.csv" -j "$T/no/such/dir/o.json" 2> "$T/err.txt" || rc=$?
+[ "$rc" -eq 1 ] && grep -q "o.json" "$T/err.txt" || fail "unwritable sidecar: exit $rc"
+[ ! -e "$T/o.csv" ] || fail "CLEAN.csv written although the sidecar could not be"
+rc=0; "$WAKELINE" clean "$T/ok.csv" -o "$T/no/such/dir/o.csv" 2> "$T/err.txt" || rc=$?
+[ "$rc" -eq 1 ] || fail "unwritable output: exit $rc"
+
 # edge cases that are not errors: a robot with one detection (too short to
 # tell), a robot with only lost rows (nothing to write for it)
 { echo "$H"; good 0.0 0; echo "0.0,0,2,,,,,,lost,,,"; echo "0.1,1,2,,,,,,lost,,,"; } > "$T/edge.csv"
