@@ -557,24 +557,18 @@ static wl_status smooth_rts(work *w, const wl_clean_params *p, wl_clean_robot *r
 				"with --sigma-pos-m and --q-pos", rb->id);
 		goto out;
 	}
-	/* a detection rejected in either group is an outlier as a whole: rerun
-	 * both groups with the union of the masks when they differ */
-	{
-		int differ = 0;
-		for (size_t i = 0; i < n; i++) {
-			w->why[i] = (unsigned char)(w->mpos[i] | w->mh[i] << 1);
-			differ |= w->mpos[i] != w->mh[i];
-		}
-		for (size_t i = 0; i < n; i++)
-			w->mpos[i] = w->mh[i] = w->why[i] != 0;
-		if (differ) {
-			group_forward(w, &gp, w->mpos, 0, NULL);
-			group_forward(w, &gh, w->mh, 0, NULL);
-			if (!group_backward(w, &gp) || !group_backward(w, &gh)) {
-				st = wl_err_set(err, WL_EINVAL, "robot %ld: the smoother became singular", rb->id);
-				goto out;
-			}
-		}
+	/* a detection rejected in either group is an outlier as a whole: both
+	 * groups are run once more with the union of the masks (this also
+	 * applies rejections added by the last residual check) */
+	for (size_t i = 0; i < n; i++) {
+		w->why[i] = (unsigned char)(w->mpos[i] | w->mh[i] << 1);
+		w->mpos[i] = w->mh[i] = w->why[i] != 0;
+	}
+	group_forward(w, &gp, w->mpos, 0, NULL);
+	group_forward(w, &gh, w->mh, 0, NULL);
+	if (!group_backward(w, &gp) || !group_backward(w, &gh)) {
+		st = wl_err_set(err, WL_EINVAL, "robot %ld: the smoother became singular", rb->id);
+		goto out;
 	}
 	for (size_t i = 0; i < n; i++) {
 		w->x[i] = sx[i].xs[0];
