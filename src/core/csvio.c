@@ -27,8 +27,6 @@ static void on_field(void *s, size_t len, void *data)
 	char *copy;
 	if (r->st)
 		return;
-	if (!r->row_line)
-		r->row_line = r->line;
 	if (r->nfields >= WL_CSV_MAX_FIELDS) {
 		r->st = wl_err_set(r->err, WL_ELIMIT, "%s:%ld: more than %d cells in a row: is this the right file?",
 				   r->path, r->row_line, WL_CSV_MAX_FIELDS);
@@ -69,6 +67,10 @@ static const char BOM[] = "\xEF\xBB\xBF";
 
 static wl_status feed(reader *r, struct csv_parser *p, const char *buf, size_t n)
 {
+	/* pstate 0 is libcsv's "row not begun": a row that starts in this
+	 * chunk starts on this line, even if a quoted cell runs on */
+	if (p->pstate == 0 && r->nfields == 0)
+		r->row_line = r->line;
 	if (r->line == 1 && n >= 3 && memcmp(buf, BOM, 3) == 0) {
 		buf += 3;
 		n -= 3;
