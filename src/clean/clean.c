@@ -449,14 +449,14 @@ static int group_backward(const work *w, group *g)
 	return 1;
 }
 
-/* Maximum likelihood of log10 q: a grid of half decades, then golden-section
+/* Maximum likelihood of log10 q: a grid of whole decades, then golden-section
  * search in the best cell. */
 static double ml_q(const work *w, group *g, double gate)
 {
 	double q0 = g->cfg.r / (w->dt_med * w->dt_med * w->dt_med), lo = log10(q0) - 10, hi = log10(q0) + 2;
 	double best = lo, bestll = -INFINITY, a, b, c, d, fc, fd;
 	const double gr = 0.6180339887498949;
-	for (double e = lo; e <= hi + 1e-9; e += 0.5) {
+	for (double e = lo; e <= hi + 1e-9; e += 1.0) {
 		double ll;
 		g->cfg.q = pow(10, e);
 		ll = group_forward(w, g, NULL, gate, NULL);
@@ -465,13 +465,13 @@ static double ml_q(const work *w, group *g, double gate)
 			best = e;
 		}
 	}
-	a = best - 0.5, b = best + 0.5;
+	a = best - 1.0, b = best + 1.0;
 	c = b - gr * (b - a), d = a + gr * (b - a);
 	g->cfg.q = pow(10, c);
 	fc = group_forward(w, g, NULL, gate, NULL);
 	g->cfg.q = pow(10, d);
 	fd = group_forward(w, g, NULL, gate, NULL);
-	for (int it = 0; it < 30; it++) {
+	for (int it = 0; it < 24; it++) {
 		if (fc > fd) {
 			b = d, d = c, fd = fc;
 			c = b - gr * (b - a);
