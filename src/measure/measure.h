@@ -1,0 +1,165 @@
+/*
+ * measure.h: stage 5 of the pipeline (clean -> measure -> report).  Pure
+ * functions over one cleaned track segment: circle fits, the curvature and
+ * its uncertainty, path measures and the yaw / sway oscillation.  No I/O:
+ * src/cli/cmd_measure.c reads CLEAN.csv and writes SUMMARY.json.
+ *
+ * Units are SI and in the names (x_m, t_s, heading_rad); angles that reach
+ * the user are in degrees and say so (arc_deg).  Signs follow the tank frame
+ * (right-handed x, y seen from above): positive curvature and turning
+ * radius for counter-clockwise travel.
+ *
+ * Ownership: nothing here allocates anything the caller must free; every
+ * function that needs scratch memory frees it before returning.  Inputs are
+ * borrowed for the duration of the call.
+ *
+ * Errors: WL_EINVAL for too few usable points or non-finite input,
+ * WL_ENOMEM when scratch memory cannot be had.  A fit that is numerically
+ * impossible (all points collinear for the algebraic fits) is WL_EINVAL with
+ * a message saying so.  Methods and citations: docs/measure.md.
+ */
+#ifndef WL_MEASURE_H
+#define WL_MEASURE_H
+
+#include <stddef.h>
+
+#include "core/err.h"
+
+/* ---- circle fits ------------------------------------------------------ */
+
+typedef struct {
+	double cx_m, cy_m; /* centre */
+	double r_m;        /* radius, > 0 */
+} wl_circle;
+
+/* Algebraic fits over n >= 3 points (NaN points are not allowed here).
+ * Kasa (1976): least squares of x²+y²+Dx+Ey+F.  Pratt (1987) and Taubin
+ * (1991): the gradient-weighted algebraic fits, solved by Newton's method
+ * on their characteristic polynomials as formulated by Chernov (2010,
+ * "Circular and linear regression", §5).  WL_EINVAL when the points are
+ * collinear to working precision (no finite circle). */
+wl_status wl_measure_fit_kasa(const double *x_m, const double *y_m, size_t n, wl_circle *out, wl_err *err);
+wl_status wl_measure_fit_pratt(const double *x_m, const double *y_m, size_t n, wl_circle *out, wl_err *err);
+wl_status wl_measure_fit_taubin(const double *x_m, const double *y_m, size_t n, wl_circle *out, wl_err *err);
+
+/* The geometric (orthogonal-distance) fit, minimising the sum of squared
+ * distances from the points to the circle.  It is parametrised by signed
+ * curvature, so that a straight line (curvature 0) is an ordinary point of
+ * the parameter space (Karimäki 1991, Nucl. Instr. Meth. A305:187):
+ *   kappa_per_m  signed curvature; > 0 when the points, in index order, go
+ *                counter-clockwise about the centre
+ *   d_m, phi_rad the circle passes at signed distance d_m from the reference
+ *                point (ref_x_m, ref_y_m), travelling in direction phi_rad
+ *                there; the centre lies at ref + (d + 1/kappa)·(-sin phi, cos phi)
+ * Started from the Taubin fit (or from the total-least-squares line when
+ * Taubin finds none) and refined by Levenberg-Marquardt (Marquardt 1963). */
+typedef struct {
+	double kappa_per_m, d_m, phi_rad;
+	double ref_x_m, ref_y_m;
+	double cx_m, cy_m, r_m; /* NaN / INFINITY when kappa_per_m == 0 */
+	double rms_m;           /* sqrt(sum of squared distances to the circle / n) */
+	int iterations;
+	/* only from wl_measure_fit_geometric_sway, else 0: the lateral offset
+	 * (left positive) a·cos(2π f t) + b·sin(2π f t) fitted with the circle */
+	double sway_freq_hz, sway_a_m, sway_b_m;
+} wl_geofit;
+
+wl_status wl_measure_fit_geometric(const double *x_m, const double *y_m, size_t n, wl_geofit *out, wl_err *err);
+
+/* The same circle fitted jointly with a sinusoidal lateral sway of known
+ * frequency (t_s absolute times, a0/b0 start values of its coefficients):
+ * the mean path of a body that sways as it goes.  Over a segment that does
+ * not hold a whole number of sway periods, the sway left in the residuals
+ * would pull the circle; fitting it removes that pull and leaves residuals
+ * the uncertainty estimate can treat as noise. */
+wl_status wl_measure_fit_geometric_sway(const double *x_m, const double *y_m, const double *t_s, size_t n,
+					double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err);
+
+/* Signed distance of a point from the fitted circle (or line), positive to
+ * the left of the direction of travel (the fitted sway is not subtracted). */
+double wl_measure_geofit_offset(const wl_geofit *f, double x_m, double y_m);
+
+/* Standard error of kappa_per_m that holds for autocorrelated residuals:
+ * the sandwich (JᵀJ)⁻¹ (Jᵀ Γ J) (JᵀJ)⁻¹ of the fit's Jacobian J, with Γ the
+ * covariance of an autoregressive model of the time-ordered residuals
+ * (Yule-Walker by the Levinson-Durbin recursion, order up to 12 chosen by
+ * Akaike's criterion; Akaike 1969, Berk 1974 for the spectral estimate).
+ * Jᵀ Γ J is computed exactly through the model's innovations filter.  The
+ * points must be in time order (and evenly spaced in time, as the model's
+ * lags are rows); t_s is needed only for a fit with sway.  *ar_order_out (may
+ * be NULL) receives the order used; 0 means white residuals, where the
+ * result is the classical σ²(JᵀJ)⁻¹. */
+wl_status wl_measure_curvature_se(const double *x_m, const double *y_m, const double *t_s, size_t n,
+				  const wl_geofit *f, double *se_per_m, int *ar_order_out, wl_err *err);
+
+/* Total angle in radians swept about (cx, cy) by the path in index order,
+ * signed (counter-clockwise positive). */
+double wl_measure_swept_angle(const double *x_m, const double *y_m, size_t n, double cx_m, double cy_m);
+
+/* ---- oscillation ------------------------------------------------------- */
+
+typedef struct {
+	double freq_hz;   /* NaN when no oscillation could be estimated */
+	double amp;       /* sine amplitude, in the unit of the input */
+	double phase_rad; /* v ≈ mean + amp·sin(2π f t + phase) */
+	double r2;        /* fraction of the variance the sine explains */
+} wl_osc;
+
+/* Dominant sinusoid of v(t) (t in time order, uneven steps allowed, NaN
+ * samples skipped): a Hann-windowed periodogram of v resampled on an even
+ * grid locates the peak in [fmin_hz, fmax_hz]; a least-squares sine fit on
+ * the original samples then refines the frequency (golden-section search of
+ * the residual sum of squares within half a bin) and gives amplitude and
+ * phase.  v should already be detrended.  WL_EINVAL when fewer than 16
+ * usable samples or the band is empty. */
+wl_status wl_measure_oscillation(const double *t_s, const double *v, size_t n, double fmin_hz, double fmax_hz,
+				 wl_osc *out, wl_err *err);
+
+/* ---- one run ------------------------------------------------------------ */
+
+/* One segment of one robot, rows in time order.  heading_rad, speed_mps and
+ * yaw_rate_radps may be NULL or hold NaN where unknown; x_m/y_m NaN rows
+ * are left out of the fits.  measured[i] != 0 for rows the tracker saw. */
+typedef struct {
+	size_t n;
+	const double *t_s, *x_m, *y_m, *heading_rad, *speed_mps, *yaw_rate_radps;
+	const unsigned char *measured;
+} wl_measure_input;
+
+typedef struct {
+	double min_arc_deg;       /* straight below this arc; default 5 */
+	double body_diameter_m;   /* NaN: radius_body_diameters not computed */
+	double osc_fmin_hz;       /* NaN: 3 cycles per segment, at least 0.05 Hz */
+	double osc_fmax_hz;       /* NaN: 0.8 × the Nyquist frequency */
+} wl_measure_opts;
+
+void wl_measure_opts_init(wl_measure_opts *o);
+
+/* Every value is NaN when it could not be computed (too few points, no
+ * heading column...); the CLI writes those as null. */
+typedef struct {
+	size_t n_rows, n_measured, n_used; /* n_used: rows with a position */
+	double t_start_s, duration_s, tracked_fraction;
+	double path_length_m, net_displacement_m, straightness;
+	double mean_speed_mps, speed_sd_mps, mean_yaw_rate_degps, heading_drift_degps;
+	/* circle */
+	double curvature_per_m, curvature_se_per_m, curvature_ci95_per_m[2];
+	int straight;                  /* 1: radius_m is NaN */
+	double radius_m;               /* signed, NaN when straight */
+	double radius_body_diameters;  /* |radius| / body diameter, NaN when straight */
+	double centre_x_m, centre_y_m; /* NaN when straight */
+	double arc_deg, fit_rms_m;
+	double radius_taubin_m, radius_kasa_m; /* unsigned, for comparison */
+	int ar_order;         /* order of the residual model behind the interval */
+	/* oscillation */
+	double yaw_osc_freq_hz, yaw_osc_amp_deg, yaw_osc_r2;
+	double sway_osc_freq_hz, sway_amp_m;
+} wl_measure_result;
+
+/* Computes every measure of one run.  Fails (WL_EINVAL) only when fewer than
+ * 5 rows have a position or times are not increasing; weaker data gives NaN
+ * fields instead. */
+wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *out,
+			 wl_err *err);
+
+#endif
