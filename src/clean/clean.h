@@ -250,7 +250,8 @@ void wl_clean_result_release(wl_clean_result *res);
  * outside the polygon. */
 double wl_clean_outline_dist(const wl_clean_params *p, double x, double y);
 
-/* Loads "tank_outline_m" ([[x, y], ...], at least 3 points) from CAL.json
+/* Loads "tank_outline_m" ([[x, y], ...], at least 3 points; absent or empty:
+ * no outline, p->n_outline = 0) from CAL.json
  * into p; *sha_hex gets the file's SHA-256. */
 wl_status wl_clean_load_outline(const char *cal_path, wl_clean_params *p, char sha_hex[65], wl_err *err);
 

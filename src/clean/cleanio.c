@@ -29,8 +29,8 @@ wl_status wl_clean_load_outline(const char *cal_path, wl_clean_params *p, char s
 	if ((st = wl_sha256_file(cal_path, sha_hex, &bytes, err)))
 		goto out;
 	a = cJSON_GetObjectItemCaseSensitive(root, "tank_outline_m");
-	if (!a)
-		goto out; /* no outline: no wall cut (the CLI says so) */
+	if (!a || (cJSON_IsArray(a) && cJSON_GetArraySize(a) == 0))
+		goto out; /* no outline (calibrate writes an empty array): no wall cut, the CLI says so */
 	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) < 3 || cJSON_GetArraySize(a) > WL_CLEAN_MAX_OUTLINE) {
 		st = wl_err_set(err, WL_EFORMAT,
 				"%s: key 'tank_outline_m' must be an array of 3 to %d [x, y] pairs in metres",

@@ -248,7 +248,7 @@ int cmd_clean(int argc, char **argv)
 		src.cal_path = cal;
 		src.cal_sha256 = cal_sha;
 		if (!p.n_outline)
-			cli_warn("clean", "%s has no 'tank_outline_m': no wall cut", cal);
+			cli_warn("clean", "%s has no tank outline ('tank_outline_m' absent or empty): no wall cut", cal);
 	} else if (have_tank) {
 		src.tank_rect = 1;
 	} else if (!quiet) {

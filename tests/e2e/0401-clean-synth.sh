@@ -152,6 +152,15 @@ t = np.array([float(r["t_s"]) for r in csv.DictReader(open(sys.argv[1]))])
 assert np.allclose(np.diff(t), 0.02, atol=2e-6), "not evenly spaced"
 PYEOF
 
+echo "== the measure stage reads CLEAN.csv: radius and speed of the first run"
+"$WAKELINE" measure "$T/cfr.csv" -o "$T/cfr.summary.json" > /dev/null
+$PY - "$T/cfr.summary.json" <<'PYEOF'
+import json, sys
+r = [x for x in json.load(open(sys.argv[1]))["runs"] if x["headline"]][0]
+print("measure on CLEAN.csv: radius %.4f m (truth 0.6), mean speed %.4f m/s (truth 0.1)" % (r["radius_m"], r["mean_speed_mps"]))
+assert abs(r["radius_m"] / 0.6 - 1) < 0.01 and abs(r["mean_speed_mps"] / 0.1 - 1) < 0.01
+PYEOF
+
 echo "== checksum"
 want=$(sha256sum "$T/cfr.raw.csv" | cut -d' ' -f1)
 grep -q "\"sha256\":[[:space:]]*\"$want\"" "$T/cfr.json" || fail "sidecar sha256 differs from sha256sum"
