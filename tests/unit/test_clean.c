@@ -351,7 +351,7 @@ static void test_outline_dist(void **state)
 
 /* ------------------------------------------------------ whole stage */
 
-/* A robot on a straight line at 0.1 m/s from t = 1 s (rest before), 30 fps,
+/* A robot on a straight line speeding up to 0.1 m/s from t = 1 s (rest before), 30 fps,
  * 2 mm and 2 degrees of noise, with outliers every 20th frame (10 cm) and
  * one heading flipped by 180 degrees: all outliers flagged, the smoothed
  * pose in their place, the position error well under the noise. */
@@ -371,7 +371,8 @@ static void test_stage_synthetic(void **state)
 	rng_state = 7;
 	len += (size_t)snprintf(text + len, sizeof text - len, HDR);
 	for (int i = 0; i < N; i++) {
-		double t = i / 30.0, s = t > 1 ? 0.1 * (t - 1) : 0, h = 0.5;
+		/* speed 0.1 (1 - exp(-(t - 1) / 0.3)) m/s from t = 1 s, integrated */
+		double t = i / 30.0, s = t > 1 ? 0.1 * ((t - 1) - 0.3 * (1 - exp(-(t - 1) / 0.3))) : 0, h = 0.5;
 		double x = 0.2 + s * cos(h), y = 0.3 + s * sin(h), mx, my, mh;
 		tx[i] = x, ty[i] = y;
 		mx = x + 0.002 * nrand(), my = y + 0.002 * nrand(), mh = h + 0.035 * nrand();
