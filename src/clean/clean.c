@@ -1173,12 +1173,16 @@ static wl_status clean_robot(const wl_raw_track *tr, const wl_clean_params *p, w
 	} else {
 		double sx = mad_sigma(&w, w.zx, 0), sy = mad_sigma(&w, w.zy, 0);
 		s = isfinite(sx) && isfinite(sy) ? sqrt(0.5 * (sx * sx + sy * sy)) : 0.002;
+		if (!isfinite(sx) || !isfinite(sy))
+			rb->sigma_estimated = 2;
 		rb->sigma_pos_m = fmax(s, 1e-5);
 	}
 	if (p->sigma_heading_rad > 0) {
 		rb->sigma_heading_rad = p->sigma_heading_rad;
 	} else {
 		s = mad_sigma(&w, w.zh, 1);
+		if (!isfinite(s))
+			rb->sigma_estimated = 2;
 		rb->sigma_heading_rad = fmax(isfinite(s) ? s : 0.035, 1e-4);
 	}
 	st = p->smoother == WL_CLEAN_SG ? smooth_sg(&w, p, rb, err) : smooth_rts(&w, p, rb, err);

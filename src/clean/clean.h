@@ -217,7 +217,8 @@ typedef struct {
 	wl_clean_segment *segments;
 	int still;
 	double sigma_pos_m, sigma_heading_rad, q_pos, q_heading; /* used */
-	int sigma_estimated, q_estimated;
+	int sigma_estimated;      /* 0 given, 1 estimated, 2 default (too few detections) */
+	int q_estimated;
 	double speed_threshold_mps, speed_sigma_mps;
 	double period_s;          /* heading oscillation period, NaN if none found */
 	double window_s;          /* settling window used */

@@ -144,7 +144,9 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	n = cJSON_AddObjectToObject(o, "noise");
 	num(n, "sigma_pos_m", rb->sigma_pos_m);
 	num(n, "sigma_heading_rad", rb->sigma_heading_rad);
-	cJSON_AddStringToObject(n, "sigma_source", rb->sigma_estimated ? "estimated (MAD of neighbour-line residuals)" : "given");
+	cJSON_AddStringToObject(n, "sigma_source", rb->sigma_estimated == 2 ? "default (too few detections to estimate)"
+						   : rb->sigma_estimated ? "estimated (MAD of neighbour-line residuals)"
+									 : "given");
 	num(n, "q_pos_m2ps3", rb->q_pos);
 	num(n, "q_heading_rad2ps3", rb->q_heading);
 	cJSON_AddStringToObject(n, "q_source", isfinite(rb->q_pos) ? (rb->q_estimated ? "maximum likelihood" : "given")

@@ -5,7 +5,8 @@
  * C. T. Striebel, "Maximum likelihood estimates of linear dynamic systems",
  * AIAA J. 3(8):1445-1450 (1965).  Process noise: continuous white noise on
  * the highest derivative, integrated over dt (Bar-Shalom, Li & Kirubarajan,
- * Estimation with Applications to Tracking and Navigation, 2001, sec. 6.2).
+ * Estimation with Applications to Tracking and Navigation, 2001, ch. 6;
+ * chapter cited from memory).
  *
  * Matrices are 3x3 row-major with stride 3; a dim-2 model uses the top-left
  * 2x2 block.  The covariance update uses the Joseph form, which stays
