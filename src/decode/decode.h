@@ -41,13 +41,16 @@ typedef struct {
 	double duration_s;       /* container's estimate; the decoded count is the truth */
 	int64_t frames_hint;     /* container's frame count, 0 if unknown */
 	double fps_hint;         /* average frame rate from the container, 0 if unknown */
+	double first_pts_s;      /* container time of the first frame (t_s = 0); NaN until it is decoded */
 } wl_video_info;
 
 typedef struct {
-	int64_t index;         /* 0-based, in presentation order */
+	int64_t index;         /* 0-based, in presentation order; -1 after wl_decoder_seek (unknown) */
 	double t_s;            /* seconds since the first frame's presentation time */
 	int width_px, height_px; /* coded size */
-	const uint8_t *luma;   /* 8-bit, full range as in the stream after conversion */
+	const uint8_t *luma;   /* 8-bit, in the stream's range: 16..235 for limited-range ("tv")
+				* sources, 0..255 for full-range (yuvj, "pc") ones; see info.full_range.
+				* Points into the decoded frame for 8-bit YUV; converted otherwise. */
 	int luma_stride;       /* bytes per row (rows are padded) */
 	const uint8_t *rgb;    /* packed RGB24 when WL_DECODE_RGB, else NULL */
 	int rgb_stride;
@@ -73,6 +76,14 @@ const wl_video_info *wl_decoder_info(const wl_decoder *dec);
  * A clip with no decodable frame at all gives WL_EDECODE on the first call. */
 wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err);
 
+/* Positions the decoder at the key frame at or before t_s (seconds since
+ * the first frame, as in wl_frame.t_s): the next wl_decoder_next calls return
+ * frames from there on, with their true t_s and index -1.  The caller decodes
+ * forward to the wanted time.  Decodes the first frame first if none has
+ * been (the time origin).  Invalidates the last frame handed out.
+ * WL_EDECODE if the container cannot seek. */
+wl_status wl_decoder_seek(wl_decoder *dec, double t_s, wl_err *err);
+
 /* Frames decoded so far and damage counted so far; wl_decoder_damage gives
  * up to WL_DAMAGE_KEEP of the first reports. */
 #define WL_DAMAGE_KEEP 64
@@ -82,9 +93,18 @@ const wl_damage *wl_decoder_damage(const wl_decoder *dec, int *n);
 
 void wl_decoder_destroy(wl_decoder *dec);
 
+/* A display-matrix angle (degrees counter-clockwise, any value, as from
+ * av_display_rotation_get) rounded to a multiple of 90 and put in
+ * {0, 90, 180, 270}: -90 gives 270.  NaN gives 0. */
+int wl_orient_from_degrees(double deg_ccw);
+
 /* Coded <-> displayed pixel mapping for a rotation of rot_deg
  * (counter-clockwise, multiple of 90) of a coded image w×h.  Points use the
- * pixel-centre convention of camera.h; they round-trip exactly. */
+ * pixel-centre convention of camera.h (centre of the top-left pixel at 0,0),
+ * so pixel centres map onto pixel centres.  The maps are mutual inverses;
+ * the round trip is exact for whole and dyadic sub-pixel coordinates
+ * (k / 2^m, as any sub-pixel value of bounded precision) and within one
+ * ulp of the image size otherwise. */
 void wl_orient_to_displayed(int rot_deg, int w, int h, double u, double v, double *ud, double *vd);
 void wl_orient_to_coded(int rot_deg, int w, int h, double ud, double vd, double *u, double *v);
 /* Displayed size of a coded w×h image. */

@@ -1,0 +1,668 @@
+/*
+ * decode.c: the streaming decoder (stage 1).  Demuxes with libavformat,
+ * decodes with libavcodec (frame threads), and hands out 8-bit luma planes:
+ * straight from the decoded frame when the stream is 8-bit planar YUV or
+ * gray, through libswscale otherwise (10-bit, RGB sources).  Packed RGB24 is
+ * made only when WL_DECODE_RGB is asked for.  See decode.h for the contract.
+ */
+#include "decode/decode.h"
+
+#include "core/csvio.h"
+
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include <libavcodec/avcodec.h>
+#include <libavformat/avformat.h>
+#include <libavutil/display.h>
+#include <libavutil/imgutils.h>
+#include <libavutil/opt.h>
+#include <libavutil/pixdesc.h>
+#include <libswscale/swscale.h>
+
+/* After this many receive errors in a row the stream is given up (a decoder
+ * that keeps failing would otherwise spin). */
+#define MAX_ERRORS_IN_A_ROW 1000
+
+/* A swscale conversion and its output frame, remade when the input changes. */
+struct conv {
+	struct SwsContext *sws;
+	AVFrame *out;
+	int w, h, src_fmt, src_full, cs;
+};
+
+struct wl_decoder {
+	AVFormatContext *fmt;
+	AVCodecContext *cc;
+	AVStream *st;
+	int sidx;
+	unsigned flags;
+	AVPacket *pkt;
+	AVFrame *frame;
+	int pkt_pending; /* pkt holds a packet the decoder refused with EAGAIN */
+	int draining;    /* the NULL packet was sent */
+	int finished;    /* the decoder returned AVERROR_EOF */
+	int after_seek;  /* frame indices are unknown since a seek */
+	int end_checked; /* check_end has run */
+
+	wl_video_info info;
+	wl_frame out;
+	double tb_s;       /* stream time base in seconds */
+	double guess_dt_s; /* frame interval used when a frame has no timestamp */
+
+	int have_origin;         /* origin_ts is set */
+	int64_t origin_ts;       /* best-effort timestamp of the first timed frame */
+	double origin_offset_s;  /* t_s given to that frame (non-zero only if untimed frames came first) */
+	int have_last;
+	double last_t_s;
+
+	int64_t nframes;
+	int64_t ndamage;
+	wl_damage damage[WL_DAMAGE_KEEP];
+	int errors_in_a_row;
+
+	struct conv *luma_conv, *rgb_conv;
+};
+
+/* ---- orientation ------------------------------------------------------ */
+
+int wl_orient_from_degrees(double deg_ccw)
+{
+	long q;
+	if (!isfinite(deg_ccw))
+		return 0;
+	q = lround(deg_ccw / 90.0) % 4;
+	if (q < 0)
+		q += 4;
+	return (int)(q * 90);
+}
+
+/*
+ * A coded w×h image shown turned by rot counter-clockwise.  Pixel centres
+ * are at whole coordinates (camera.h), so the last column is at w-1:
+ *   90 CCW:  ud = v,           vd = (w-1) - u   (top-right corner goes to top-left)
+ *   180:     ud = (w-1) - u,   vd = (h-1) - v
+ *   270 CCW: ud = (h-1) - v,   vd = u           (top-left corner goes to top-right)
+ */
+void wl_orient_to_displayed(int rot_deg, int w, int h, double u, double v, double *ud, double *vd)
+{
+	double wm = w - 1, hm = h - 1;
+	switch (wl_orient_from_degrees(rot_deg)) {
+	case 90:
+		*ud = v;
+		*vd = wm - u;
+		break;
+	case 180:
+		*ud = wm - u;
+		*vd = hm - v;
+		break;
+	case 270:
+		*ud = hm - v;
+		*vd = u;
+		break;
+	default:
+		*ud = u;
+		*vd = v;
+	}
+}
+
+void wl_orient_to_coded(int rot_deg, int w, int h, double ud, double vd, double *u, double *v)
+{
+	double wm = w - 1, hm = h - 1;
+	switch (wl_orient_from_degrees(rot_deg)) {
+	case 90:
+		*u = wm - vd;
+		*v = ud;
+		break;
+	case 180:
+		*u = wm - ud;
+		*v = hm - vd;
+		break;
+	case 270:
+		*u = vd;
+		*v = hm - ud;
+		break;
+	default:
+		*u = ud;
+		*v = vd;
+	}
+}
+
+void wl_orient_displayed_size(int rot_deg, int w, int h, int *wd, int *hd)
+{
+	int r = wl_orient_from_degrees(rot_deg);
+	*wd = (r == 90 || r == 270) ? h : w;
+	*hd = (r == 90 || r == 270) ? w : h;
+}
+
+/* ---- errors and damage ------------------------------------------------- */
+
+static wl_status av_fail(wl_err *err, const char *path, const char *what, int averr, const char *todo)
+{
+	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
+	av_strerror(averr, buf, sizeof buf);
+	return wl_err_set(err, WL_EDECODE, "%s: %s: %s: %s", path, what, buf, todo);
+}
+
+static void add_damage(wl_decoder *dec, int64_t index, double t_s, const char *what, int averr)
+{
+	wl_damage *d;
+	dec->ndamage++;
+	if (dec->ndamage > WL_DAMAGE_KEEP)
+		return;
+	d = &dec->damage[dec->ndamage - 1];
+	d->frame_index = index;
+	d->t_s = t_s;
+	if (averr) {
+		char buf[AV_ERROR_MAX_STRING_SIZE] = "";
+		av_strerror(averr, buf, sizeof buf);
+		snprintf(d->what, sizeof d->what, "%s: %s", what, buf);
+	} else {
+		snprintf(d->what, sizeof d->what, "%s", what);
+	}
+}
+
+/* Time of a stream timestamp relative to the first frame, NaN if unknown. */
+static double ts_to_t(const wl_decoder *dec, int64_t ts)
+{
+	if (ts == AV_NOPTS_VALUE || !dec->have_origin)
+		return NAN;
+	return (double)(ts - dec->origin_ts) * dec->tb_s + dec->origin_offset_s;
+}
+
+/* Index of the next frame to come out, -1 when unknown (after a seek). */
+static int64_t next_index(const wl_decoder *dec)
+{
+	return dec->after_seek ? -1 : dec->nframes;
+}
+
+/* ---- opening ------------------------------------------------------------ */
+
+static void fill_info(wl_decoder *dec, const char *path)
+{
+	wl_video_info *in = &dec->info;
+	const AVCodecParameters *par = dec->st->codecpar;
+	const AVPixFmtDescriptor *desc = av_pix_fmt_desc_get((enum AVPixelFormat)par->format);
+	const uint8_t *sd;
+	size_t sd_size = 0;
+	AVRational fr;
+
+	snprintf(in->path, sizeof in->path, "%s", path);
+	snprintf(in->codec, sizeof in->codec, "%s", avcodec_get_name(par->codec_id));
+	snprintf(in->pix_fmt, sizeof in->pix_fmt, "%s", desc ? desc->name : "unknown");
+	in->width_px = par->width;
+	in->height_px = par->height;
+	in->bit_depth = desc ? desc->comp[0].depth : 0;
+	in->full_range = par->color_range == AVCOL_RANGE_JPEG ||
+			 (desc && strncmp(desc->name, "yuvj", 4) == 0) ||
+			 (desc && (desc->flags & AV_PIX_FMT_FLAG_RGB));
+
+	sd = av_stream_get_side_data(dec->st, AV_PKT_DATA_DISPLAYMATRIX, &sd_size);
+	in->rotation_deg = (sd && sd_size >= 9 * sizeof(int32_t))
+				   ? wl_orient_from_degrees(av_display_rotation_get((const int32_t *)sd))
+				   : 0;
+
+	if (dec->st->duration != AV_NOPTS_VALUE && dec->st->duration > 0)
+		in->duration_s = (double)dec->st->duration * dec->tb_s;
+	else if (dec->fmt->duration != AV_NOPTS_VALUE && dec->fmt->duration > 0)
+		in->duration_s = (double)dec->fmt->duration / AV_TIME_BASE;
+	in->frames_hint = dec->st->nb_frames > 0 ? dec->st->nb_frames : 0;
+	fr = dec->st->avg_frame_rate;
+	in->fps_hint = (fr.num > 0 && fr.den > 0) ? av_q2d(fr) : 0;
+	in->first_pts_s = NAN;
+
+	fr = av_guess_frame_rate(dec->fmt, dec->st, NULL);
+	dec->guess_dt_s = (fr.num > 0 && fr.den > 0) ? 1.0 / av_q2d(fr) : 1.0 / 25.0;
+}
+
+static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
+{
+	struct stat sb;
+	int ret;
+
+	if (stat(path, &sb) != 0)
+		return wl_err_set(err, WL_EIO, "%s: cannot open video: %s: check the path", path, strerror(errno));
+	if (S_ISDIR(sb.st_mode))
+		return wl_err_set(err, WL_EIO, "%s: is a directory, not a video file: give the clip's path", path);
+	if (S_ISREG(sb.st_mode) && sb.st_size == 0)
+		return wl_err_set(err, WL_EFORMAT, "%s: the file is empty: copy the clip again from the camera",
+				  path);
+	ret = avformat_open_input(&dec->fmt, path, NULL, NULL);
+	if (ret < 0)
+		return av_fail(err, path, "cannot read as video", ret,
+			       "check that it is a video file (MP4, MOV, MKV...) and not truncated");
+	ret = avformat_find_stream_info(dec->fmt, NULL);
+	if (ret < 0)
+		return av_fail(err, path, "cannot read the stream headers", ret,
+			       "the file may be damaged; try re-exporting it");
+	return WL_OK;
+}
+
+static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_err *err)
+{
+	const AVCodec *codec = NULL;
+	int ret = av_find_best_stream(dec->fmt, AVMEDIA_TYPE_VIDEO, -1, -1, &codec, 0);
+
+	if (ret == AVERROR_STREAM_NOT_FOUND || (ret >= 0 && (dec->fmt->streams[ret]->disposition &
+							    AV_DISPOSITION_ATTACHED_PIC)))
+		return wl_err_set(err, WL_EFORMAT, "%s: has no video stream: give a video clip, not %s", path,
+				  ret >= 0 ? "a still picture" : "an audio or data file");
+	if (ret < 0 || !codec)
+		return av_fail(err, path, "no decoder for the video stream", ret < 0 ? ret : AVERROR_DECODER_NOT_FOUND,
+			       "convert the clip to H.264 (e.g. with ffmpeg -c:v libx264)");
+	dec->sidx = ret;
+	dec->st = dec->fmt->streams[ret];
+	dec->tb_s = av_q2d(dec->st->time_base);
+	dec->cc = avcodec_alloc_context3(codec);
+	if (!dec->cc)
+		return wl_err_set(err, WL_ENOMEM, "%s: out of memory opening the decoder", path);
+	ret = avcodec_parameters_to_context(dec->cc, dec->st->codecpar);
+	if (ret < 0)
+		return av_fail(err, path, "cannot set up the decoder", ret, "the stream headers may be damaged");
+	dec->cc->pkt_timebase = dec->st->time_base;
+	dec->cc->thread_type = FF_THREAD_FRAME;
+	dec->cc->thread_count = threads > 0 ? threads : 0;
+	ret = avcodec_open2(dec->cc, codec, NULL);
+	if (ret < 0)
+		return av_fail(err, path, "cannot open the decoder", ret, "the stream headers may be damaged");
+	return WL_OK;
+}
+
+wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_decoder **out, wl_err *err)
+{
+	wl_decoder *dec;
+	wl_status st;
+
+	*out = NULL;
+	/* FFmpeg logs to stderr by default; the library must not print.  The
+	 * level is process-wide, which is acceptable for this program. */
+	av_log_set_level(AV_LOG_QUIET);
+	dec = calloc(1, sizeof *dec);
+	if (!dec)
+		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
+	dec->flags = flags;
+	st = open_input(dec, path, err);
+	if (st == WL_OK)
+		st = open_codec(dec, path, threads, err);
+	if (st == WL_OK) {
+		dec->pkt = av_packet_alloc();
+		dec->frame = av_frame_alloc();
+		if (!dec->pkt || !dec->frame)
+			st = wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
+	}
+	if (st != WL_OK) {
+		wl_decoder_destroy(dec);
+		return st;
+	}
+	fill_info(dec, path);
+	*out = dec;
+	return WL_OK;
+}
+
+const wl_video_info *wl_decoder_info(const wl_decoder *dec)
+{
+	return &dec->info;
+}
+
+/* ---- planes ------------------------------------------------------------- */
+
+/* True when data[0] already is the 8-bit luma plane (8-bit planar or
+ * semi-planar YUV, gray). */
+static int luma_is_direct(enum AVPixelFormat f)
+{
+	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get(f);
+	if (!d || (d->flags & (AV_PIX_FMT_FLAG_RGB | AV_PIX_FMT_FLAG_PAL | AV_PIX_FMT_FLAG_BITSTREAM |
+			       AV_PIX_FMT_FLAG_HWACCEL | AV_PIX_FMT_FLAG_FLOAT | AV_PIX_FMT_FLAG_BAYER)))
+		return 0;
+	return d->comp[0].plane == 0 && d->comp[0].step == 1 && d->comp[0].depth == 8 && d->comp[0].shift == 0 &&
+	       d->comp[0].offset == 0;
+}
+
+static int frame_full_range(const AVFrame *f)
+{
+	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get((enum AVPixelFormat)f->format);
+	return f->color_range == AVCOL_RANGE_JPEG || (d && strncmp(d->name, "yuvj", 4) == 0) ||
+	       (d && (d->flags & AV_PIX_FMT_FLAG_RGB));
+}
+
+static void conv_free(struct conv *c)
+{
+	if (!c)
+		return;
+	sws_freeContext(c->sws);
+	av_frame_free(&c->out);
+	free(c);
+}
+
+/* The 8-bit YUV format with the same chroma layout, so that swscale does not
+ * resample chroma we do not use. */
+static enum AVPixelFormat yuv8_like(enum AVPixelFormat f)
+{
+	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get(f);
+	if (d && d->log2_chroma_w == 0 && d->log2_chroma_h == 0)
+		return AV_PIX_FMT_YUV444P;
+	if (d && d->log2_chroma_w == 1 && d->log2_chroma_h == 0)
+		return AV_PIX_FMT_YUV422P;
+	return AV_PIX_FMT_YUV420P;
+}
+
+/*
+ * Sets up a conversion of frames like f to dst_fmt.  The ranges are given as
+ * options before sws_init_context: FFmpeg 5.1's sws_setColorspaceDetails does
+ * not redo the range conversion for sources deeper than 8 bits, and swscale
+ * takes GRAY8 as full range, so a limited 10-bit clip would come out
+ * stretched.  The luma of a YUV source therefore goes through an 8-bit YUV
+ * format in the source's own range; RGB output is full range, with the
+ * source's matrix (BT.601 when the stream does not say, as swscale and the
+ * ffmpeg CLI assume).
+ */
+static int conv_setup(struct conv *c, const AVFrame *f, enum AVPixelFormat dst_fmt, int full, int cs)
+{
+	int rgb_dst = dst_fmt == AV_PIX_FMT_RGB24;
+	sws_freeContext(c->sws);
+	av_frame_free(&c->out);
+	c->sws = sws_alloc_context();
+	c->out = av_frame_alloc();
+	if (!c->sws || !c->out)
+		return 0;
+	av_opt_set_int(c->sws, "srcw", f->width, 0);
+	av_opt_set_int(c->sws, "srch", f->height, 0);
+	av_opt_set_int(c->sws, "src_format", f->format, 0);
+	av_opt_set_int(c->sws, "dstw", f->width, 0);
+	av_opt_set_int(c->sws, "dsth", f->height, 0);
+	av_opt_set_int(c->sws, "dst_format", dst_fmt, 0);
+	av_opt_set_int(c->sws, "sws_flags", SWS_BILINEAR | SWS_ACCURATE_RND, 0);
+	av_opt_set_int(c->sws, "src_range", full, 0);
+	av_opt_set_int(c->sws, "dst_range", rgb_dst ? 1 : full, 0);
+	if (sws_init_context(c->sws, NULL, NULL) < 0)
+		return 0;
+	/* The matrix (and the same ranges again); refused harmlessly for RGB sources. */
+	sws_setColorspaceDetails(c->sws, sws_getCoefficients(cs), full, sws_getCoefficients(SWS_CS_DEFAULT),
+				 rgb_dst ? 1 : full, 0, 1 << 16, 1 << 16);
+	c->out->format = dst_fmt;
+	c->out->width = f->width;
+	c->out->height = f->height;
+	if (av_frame_get_buffer(c->out, 64) < 0)
+		return 0;
+	c->w = f->width;
+	c->h = f->height;
+	c->src_fmt = f->format;
+	c->src_full = full;
+	c->cs = cs;
+	return 1;
+}
+
+/* Converts the current frame for luma (rgb = 0) or RGB24 (rgb = 1). */
+static wl_status convert(wl_decoder *dec, struct conv **cp, int rgb, wl_err *err)
+{
+	const AVFrame *f = dec->frame;
+	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get((enum AVPixelFormat)f->format);
+	int full = frame_full_range(f);
+	int cs = (f->colorspace >= 0 && f->colorspace <= 10) ? (int)f->colorspace : SWS_CS_DEFAULT;
+	enum AVPixelFormat dst = rgb ? AV_PIX_FMT_RGB24
+				     : (d && (d->flags & AV_PIX_FMT_FLAG_RGB)) ? AV_PIX_FMT_GRAY8
+									      : yuv8_like((enum AVPixelFormat)f->format);
+	struct conv *c = *cp;
+
+	if (!c) {
+		c = *cp = calloc(1, sizeof *c);
+		if (!c)
+			return wl_err_set(err, WL_ENOMEM, "%s: out of memory converting a frame", dec->info.path);
+	}
+	if (!c->sws || c->w != f->width || c->h != f->height || c->src_fmt != f->format || c->src_full != full ||
+	    c->cs != cs) {
+		if (!conv_setup(c, f, dst, full, cs)) {
+			c->w = 0; /* set up again next time */
+			return wl_err_set(err, WL_EDECODE,
+					  "%s: frame %lld: cannot convert pixel format '%s' to 8 bits: re-encode the "
+					  "clip as yuv420p",
+					  dec->info.path, (long long)dec->nframes,
+					  av_get_pix_fmt_name((enum AVPixelFormat)f->format));
+		}
+	}
+	sws_scale(c->sws, (const uint8_t *const *)f->data, f->linesize, 0, f->height, c->out->data,
+		  c->out->linesize);
+	return WL_OK;
+}
+
+static wl_status make_planes(wl_decoder *dec, wl_err *err)
+{
+	const AVFrame *f = dec->frame;
+	wl_status st = WL_OK;
+
+	if (luma_is_direct((enum AVPixelFormat)f->format)) {
+		dec->out.luma = f->data[0];
+		dec->out.luma_stride = f->linesize[0];
+	} else {
+		st = convert(dec, &dec->luma_conv, 0, err);
+		if (st == WL_OK) {
+			dec->out.luma = dec->luma_conv->out->data[0];
+			dec->out.luma_stride = dec->luma_conv->out->linesize[0];
+		}
+	}
+	dec->out.rgb = NULL;
+	dec->out.rgb_stride = 0;
+	if (st == WL_OK && (dec->flags & WL_DECODE_RGB)) {
+		st = convert(dec, &dec->rgb_conv, 1, err);
+		if (st == WL_OK) {
+			dec->out.rgb = dec->rgb_conv->out->data[0];
+			dec->out.rgb_stride = dec->rgb_conv->out->linesize[0];
+		}
+	}
+	return st;
+}
+
+/* ---- the decoding loop -------------------------------------------------- */
+
+/* Times the frame just received and fills dec->out. */
+static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
+{
+	const AVFrame *f = dec->frame;
+	int64_t ts = f->best_effort_timestamp;
+	wl_frame *o = &dec->out;
+	wl_status st;
+
+	o->time_guessed = 0;
+	if (ts != AV_NOPTS_VALUE && !dec->have_origin) {
+		dec->have_origin = 1;
+		dec->origin_ts = ts;
+		dec->origin_offset_s = dec->have_last ? dec->last_t_s + dec->guess_dt_s : 0.0;
+		dec->info.first_pts_s = (double)ts * dec->tb_s - dec->origin_offset_s;
+	}
+	if (ts != AV_NOPTS_VALUE) {
+		o->t_s = ts_to_t(dec, ts);
+	} else {
+		/* No timestamp: continue from the last frame at the nominal rate, and say so. */
+		o->t_s = dec->have_last ? dec->last_t_s + dec->guess_dt_s : 0.0;
+		o->time_guessed = 1;
+	}
+	o->index = next_index(dec);
+	o->width_px = f->width;
+	o->height_px = f->height;
+	o->corrupt = (f->flags & AV_FRAME_FLAG_CORRUPT) || f->decode_error_flags;
+	if (o->corrupt)
+		add_damage(dec, o->index, o->t_s, "frame decoded with errors (concealed)", 0);
+	dec->last_t_s = o->t_s;
+	dec->have_last = 1;
+	dec->nframes++;
+	st = make_planes(dec, err);
+	if (st != WL_OK)
+		return st;
+	*frame = o;
+	return WL_OK;
+}
+
+/* Feeds the decoder one packet of our stream, or the NULL packet at the end. */
+static void feed(wl_decoder *dec)
+{
+	int ret;
+
+	if (!dec->pkt_pending) {
+		ret = av_read_frame(dec->fmt, dec->pkt);
+		if (ret < 0) {
+			if (ret != AVERROR_EOF)
+				add_damage(dec, next_index(dec), dec->have_last ? dec->last_t_s : NAN,
+					   "read error, stream ends here", ret);
+			avcodec_send_packet(dec->cc, NULL);
+			dec->draining = 1;
+			return;
+		}
+		if (dec->pkt->stream_index != dec->sidx) {
+			av_packet_unref(dec->pkt);
+			return;
+		}
+		if (dec->pkt->flags & AV_PKT_FLAG_CORRUPT)
+			add_damage(dec, next_index(dec), ts_to_t(dec, dec->pkt->pts), "packet is corrupt or cut short",
+				   0);
+	}
+	ret = avcodec_send_packet(dec->cc, dec->pkt);
+	if (ret == AVERROR(EAGAIN)) {
+		dec->pkt_pending = 1; /* keep it: the decoder wants frames taken out first */
+		return;
+	}
+	if (ret < 0)
+		add_damage(dec, next_index(dec), ts_to_t(dec, dec->pkt->pts), "packet rejected by the decoder", ret);
+	dec->pkt_pending = 0;
+	av_packet_unref(dec->pkt);
+}
+
+/*
+ * A clip cut short (a copy that stopped, a full card) often ends without a
+ * read error: the demuxer just meets the end of the file.  The container's
+ * own frame count and stream duration then say more than was decoded.  Two
+ * frames of slack allow for edit lists that drop a frame or two.
+ */
+static void check_end(wl_decoder *dec)
+{
+	const wl_video_info *in = &dec->info;
+	double dur = NAN, dt, span;
+	char what[96];
+
+	if (dec->end_checked || dec->after_seek || dec->nframes == 0)
+		return;
+	dec->end_checked = 1;
+	if (in->frames_hint > 0 && dec->nframes + 2 < in->frames_hint) {
+		snprintf(what, sizeof what, "stream ends early: %lld of the %lld frames listed (file cut short?)",
+			 (long long)dec->nframes, (long long)in->frames_hint);
+		add_damage(dec, dec->nframes, dec->last_t_s, what, 0);
+		return;
+	}
+	if (dec->st->duration != AV_NOPTS_VALUE && dec->st->duration > 0)
+		dur = (double)dec->st->duration * dec->tb_s;
+	else if (dec->fmt->nb_streams == 1 && dec->fmt->duration != AV_NOPTS_VALUE && dec->fmt->duration > 0)
+		dur = (double)dec->fmt->duration / AV_TIME_BASE; /* only one stream: it is the video's */
+	dt = dec->nframes > 1 ? dec->last_t_s / (double)(dec->nframes - 1) : dec->guess_dt_s;
+	span = dec->last_t_s + dt;
+	if (isfinite(dur) && span + 2 * dt + 0.5 < dur) {
+		char b1[WL_NUMBUF], b2[WL_NUMBUF];
+		snprintf(what, sizeof what, "stream ends early: at %s s of the %s s announced (file cut short?)",
+			 wl_fmt_fixed(b1, span, 3), wl_fmt_fixed(b2, dur, 3));
+		add_damage(dec, dec->nframes, dec->last_t_s, what, 0);
+	}
+}
+
+wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
+{
+	*frame = NULL;
+	av_frame_unref(dec->frame);
+	while (!dec->finished) {
+		int ret = avcodec_receive_frame(dec->cc, dec->frame);
+		if (ret == 0) {
+			dec->errors_in_a_row = 0;
+			return emit(dec, frame, err);
+		}
+		if (ret == AVERROR_EOF) {
+			dec->finished = 1;
+			check_end(dec);
+		} else if (ret != AVERROR(EAGAIN)) {
+			add_damage(dec, next_index(dec), NAN, "frame could not be decoded", ret);
+			if (++dec->errors_in_a_row > MAX_ERRORS_IN_A_ROW) {
+				add_damage(dec, next_index(dec), NAN, "too many errors in a row, decoding stopped", 0);
+				dec->finished = 1;
+			}
+		} else if (dec->draining) {
+			dec->finished = 1; /* EAGAIN after the NULL packet: nothing more will come */
+		} else {
+			feed(dec);
+		}
+	}
+	if (dec->nframes == 0)
+		return wl_err_set(err, WL_EDECODE,
+				  "%s: no frame could be decoded (%lld errors): the clip is damaged or not a "
+				  "video; try playing or re-exporting it",
+				  dec->info.path, (long long)dec->ndamage);
+	return WL_OK;
+}
+
+wl_status wl_decoder_seek(wl_decoder *dec, double t_s, wl_err *err)
+{
+	const wl_frame *f;
+	int64_t target;
+	wl_status st;
+	int ret;
+
+	if (!isfinite(t_s))
+		return wl_err_set(err, WL_EINVAL, "%s: cannot seek to a time that is not a number", dec->info.path);
+	if (!dec->have_origin) {
+		/* The time origin is the first frame: decode it first. */
+		if (dec->nframes == 0) {
+			st = wl_decoder_next(dec, &f, err);
+			if (st != WL_OK)
+				return st;
+		}
+		if (!dec->have_origin)
+			return wl_err_set(err, WL_EDECODE, "%s: cannot seek: the first frame has no timestamp",
+					  dec->info.path);
+	}
+	target = dec->origin_ts + (int64_t)llround((t_s - dec->origin_offset_s) / dec->tb_s);
+	if (t_s <= 0)
+		target = dec->origin_ts;
+	ret = av_seek_frame(dec->fmt, dec->sidx, target, AVSEEK_FLAG_BACKWARD);
+	if (ret < 0)
+		ret = avformat_seek_file(dec->fmt, dec->sidx, INT64_MIN, target, target, 0);
+	if (ret < 0)
+		return av_fail(err, dec->info.path, "cannot seek", ret, "decode from the start instead");
+	avcodec_flush_buffers(dec->cc);
+	av_frame_unref(dec->frame);
+	av_packet_unref(dec->pkt);
+	dec->pkt_pending = 0;
+	dec->draining = 0;
+	dec->finished = 0;
+	dec->errors_in_a_row = 0;
+	dec->after_seek = 1;
+	dec->end_checked = 1;
+	return WL_OK;
+}
+
+int64_t wl_decoder_frames(const wl_decoder *dec)
+{
+	return dec->nframes;
+}
+
+int64_t wl_decoder_damage_count(const wl_decoder *dec)
+{
+	return dec->ndamage;
+}
+
+const wl_damage *wl_decoder_damage(const wl_decoder *dec, int *n)
+{
+	*n = dec->ndamage < WL_DAMAGE_KEEP ? (int)dec->ndamage : WL_DAMAGE_KEEP;
+	return dec->damage;
+}
+
+void wl_decoder_destroy(wl_decoder *dec)
+{
+	if (!dec)
+		return;
+	conv_free(dec->luma_conv);
+	conv_free(dec->rgb_conv);
+	av_frame_free(&dec->frame);
+	av_packet_free(&dec->pkt);
+	avcodec_free_context(&dec->cc);
+	avformat_close_input(&dec->fmt);
+	free(dec);
+}

@@ -1,0 +1,69 @@
+#!/usr/bin/env bash
+# still: seeks to the key frame before the time and decodes forward to the
+# nearest frame.  The frame written is compared with the ffmpeg CLI's frame
+# of that index (select=eq(n,k), Debian ffmpeg 5.1), and must be closer to it
+# than to its neighbours (testsrc2 changes from frame to frame).
+source "$WL_SOURCE_DIR/tests/e2e/lib/decode.bash"
+ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 100 -c:v libx264 -pix_fmt yuv420p -g 10 -bf 3 gop.mp4
+ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 50 \
+	-vf "settb=1/1000,setpts='if(lt(N,25),N*40,1000+(N-25)*100)'" -fps_mode vfr -enc_time_base 1/1000 \
+	-c:v libx264 -pix_fmt yuv420p -bf 3 -g 10 -video_track_timescale 1000 vfr.mp4
+
+# Every frame of each clip as ffmpeg decodes it: ref-CLIP-0001.png is frame 0.
+for c in gop.mp4 vfr.mp4; do ff -i $c -fps_mode passthrough "ref-$c-%04d.png"; done
+
+# still_is CLIP AT N T: `still --at AT` writes frame N, at time T.  The
+# pixel comparisons are made at the end (checks.txt), in one python run.
+still_is() {
+	local clip=$1 at=$2 n=$3 t=$4 out="$1-$2.png"
+	"$WAKELINE" still "$clip" --at "$at" -o "$out" > "$out.txt" 2> "$out.err" || fail "still $clip --at $at"
+	grep -q "t_s $t " "$out.txt" || fail "$clip --at $at: $(cat "$out.txt"), want t_s $t"
+	echo "$clip $at $n" >> checks.txt
+}
+: > checks.txt
+
+# 25 fps, key frames every 10 frames, B-frames
+still_is gop.mp4 0 0 0.000000
+still_is gop.mp4 0.5 12 0.480000 # 0.48 and 0.52 tie: the earlier frame
+still_is gop.mp4 1.465 37 1.480000
+still_is gop.mp4 3.01 75 3.000000
+still_is gop.mp4 2.79 70 2.800000 # a key frame
+still_is gop.mp4 2.77 69 2.760000 # the frame before a key frame
+still_is gop.mp4 3.96 99 3.960000
+# past the end: the last frame, with a warning
+"$WAKELINE" still gop.mp4 --at 10 -o end.png > end.txt 2> end.err || fail "still --at 10"
+grep -q 't_s 3.960000' end.txt || fail "past the end: $(cat end.txt)"
+grep -q 'past the last frame' end.err || fail "no warning past the end"
+# variable frame rate (REFERENCES.md recipe): frame N at N*40 ms for N < 25, then 1 s + (N-25)*100 ms
+still_is vfr.mp4 1.03 25 1.000000
+still_is vfr.mp4 2.0 35 2.000000
+still_is vfr.mp4 3.36 49 3.400000
+
+$PY - <<'PYEOF' || fail "a still is not the frame wanted"
+import os, sys, cv2, numpy as np
+bad = 0
+for line in open("checks.txt"):
+    clip, at, n = line.split(); n = int(n)
+    got = cv2.imread("%s-%s.png" % (clip, at)).astype(float)
+    d = {}
+    for k in (n - 1, n, n + 1):
+        ref = "ref-%s-%04d.png" % (clip, k + 1)
+        if k >= 0 and os.path.exists(ref):
+            d[k] = np.abs(got - cv2.imread(ref).astype(float)).mean()
+    print("%s --at %s: frame %d; mean diff to frames %s" % (clip, at, n,
+          ", ".join("%d: %.3f" % kv for kv in sorted(d.items()))))
+    # 2 levels: the task's bound for codec/conversion differences (we convert
+    # bilinear, ffmpeg bicubic); a neighbouring frame of testsrc2 differs more.
+    if not (d[n] < 2 and all(d[n] < v for k, v in d.items() if k != n)):
+        print("  ^ wrong frame"); bad += 1
+sys.exit(bad)
+PYEOF
+
+# usage errors
+set +e
+"$WAKELINE" still gop.mp4 -o x.png 2> /dev/null; [ $? -eq 2 ] || fail "missing --at is not a usage error"
+"$WAKELINE" still gop.mp4 --at -1 -o x.png 2> /dev/null; [ $? -eq 2 ] || fail "--at -1 is not a usage error"
+"$WAKELINE" still gop.mp4 --at 1 2> /dev/null; [ $? -eq 2 ] || fail "missing -o is not a usage error"
+"$WAKELINE" still --help > help.txt; [ $? -eq 0 ] && grep -q -- '--at SECONDS' help.txt || fail "--help"
+set -e
+echo "0103-still-seek: ok"

@@ -1,0 +1,62 @@
+# lib/decode.bash: helpers shared by the probe/still end-to-end tests
+# (sourced, not a test itself).  Clips are made with the ffmpeg CLI from its
+# testsrc2 pattern; references come from Debian's ffmpeg/ffprobe 5.1 and
+# python3-opencv/numpy.
+set -euo pipefail
+: "${WAKELINE:?}" "${WL_TEST_TMP:?}"
+PY=/usr/bin/python3
+rm -rf "$WL_TEST_TMP"
+mkdir -p "$WL_TEST_TMP"
+cd "$WL_TEST_TMP"
+
+fail() { echo "FAIL: $*" >&2; exit 1; }
+
+# ff ARGS...: the ffmpeg CLI, quiet.
+ff() { ffmpeg -v error -nostdin -y "$@"; }
+
+# ffprobe_times CLIP: presentation time of every frame (REFERENCES.md, "Video timestamps").
+ffprobe_times() {
+	ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$1"
+}
+
+# check_times CLIP: `wakeline probe --frames` agrees with ffprobe on the
+# number of frames and on every frame's time (ffprobe's minus its first) to
+# within 1 ms.  Prints the largest difference.
+check_times() {
+	local clip=$1
+	"$WAKELINE" probe -q --frames "$clip.frames.csv" "$clip" > "$clip.probe.txt" ||
+		fail "probe $clip exited $?"
+	ffprobe_times "$clip" > "$clip.ffprobe.txt"
+	$PY - "$clip" <<'PYEOF' || fail "times of $clip differ from ffprobe"
+import csv, sys
+clip = sys.argv[1]
+ref = [float(x) for x in open(clip + ".ffprobe.txt") if x.strip() and x.strip() != "N/A"]
+rows = list(csv.DictReader(open(clip + ".frames.csv")))
+got = [float(r["t_s"]) for r in rows]
+if len(ref) != len(got):
+    sys.exit("%s: %d frames decoded, ffprobe lists %d" % (clip, len(got), len(ref)))
+worst = max(abs((r - ref[0]) - g) for r, g in zip(ref, got))
+idx = [int(r["frame"]) for r in rows]
+if idx != list(range(len(idx))):
+    sys.exit("%s: frame indices are not 0..n-1" % clip)
+print("%s: %d frames, largest |t - t_ffprobe| = %.3g s" % (clip, len(got), worst))
+if worst > 1e-3:
+    sys.exit(1)
+PYEOF
+}
+
+# mad A.png B.png: mean absolute difference of two same-sized images in
+# 8-bit levels (read with python3-opencv); fails if the sizes differ.
+mad() {
+	$PY - "$1" "$2" <<'PYEOF'
+import sys, cv2, numpy as np
+a = cv2.imread(sys.argv[1], cv2.IMREAD_UNCHANGED)
+b = cv2.imread(sys.argv[2], cv2.IMREAD_UNCHANGED)
+if a is None or b is None or a.shape != b.shape:
+    sys.exit("images differ in size: %s vs %s" % (None if a is None else a.shape, None if b is None else b.shape))
+print("%.4f" % np.abs(a.astype(float) - b.astype(float)).mean())
+PYEOF
+}
+
+# lt X Y: X < Y as numbers.
+lt() { $PY -c "import sys; sys.exit(0 if float('$1') < float('$2') else 1)"; }
