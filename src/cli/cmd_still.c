@@ -131,16 +131,28 @@ static wl_status run(const char *clip, double at_s, const char *out_png, int cod
 	int overshot = 0, rot, wd, hd;
 	char b1[WL_NUMBUF], b2[WL_NUMBUF];
 
-	st = wl_decoder_open(clip, luma ? 0 : WL_DECODE_RGB, threads, &dec, err);
-	if (st == WL_OK)
-		st = wl_decoder_seek(dec, at_s, err);
+	unsigned flags = luma ? 0 : WL_DECODE_RGB;
+	int seekable = 1;
+
+	st = wl_decoder_open(clip, flags, threads, &dec, err);
+	if (st == WL_OK && wl_decoder_seek(dec, at_s, err) != WL_OK) {
+		/* No timestamps or no index (a raw stream): decode from the start. */
+		wl_decoder_destroy(dec);
+		dec = NULL;
+		seekable = 0;
+		st = wl_decoder_open(clip, flags, threads, &dec, err);
+	}
 	if (st == WL_OK)
 		st = find(dec, at_s, luma, &s, &overshot, err);
-	if (st == WL_OK && (overshot || !s.have)) {
-		/* The container put us after the time: start from the beginning. */
-		st = wl_decoder_seek(dec, 0, err);
+	/* The container put us after the time: seek further back (1 s, 4 s,
+	 * 16 s ... before it), in the end to the start. */
+	for (double back = 1.0; st == WL_OK && seekable && (overshot || !s.have); back *= 4) {
+		double t = at_s - back > 0 ? at_s - back : 0;
+		st = wl_decoder_seek(dec, t, err);
 		if (st == WL_OK)
 			st = find(dec, at_s, luma, &s, &overshot, err);
+		if (t == 0)
+			break;
 	}
 	if (st == WL_OK && !s.have)
 		st = wl_err_set(err, WL_EDECODE, "%s: no frame decoded near %s s: the clip may be damaged", clip,

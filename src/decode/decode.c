@@ -534,12 +534,14 @@ static void feed(wl_decoder *dec)
  * A clip cut short (a copy that stopped, a full card) often ends without a
  * read error: the demuxer just meets the end of the file.  The container's
  * own frame count and stream duration then say more than was decoded.  Two
- * frames of slack allow for edit lists that drop a frame or two.
+ * frames of slack allow for edit lists that drop a frame or two; the
+ * duration test allows 0.5 s more, and uses the file's duration only when
+ * the video is its only stream (audio may run longer).
  */
 static void check_end(wl_decoder *dec)
 {
 	const wl_video_info *in = &dec->info;
-	double dur = NAN, dt, span;
+	double dur = NAN, dt, span, end;
 	char what[96];
 
 	if (dec->end_checked || dec->after_seek || dec->nframes == 0)
@@ -557,7 +559,10 @@ static void check_end(wl_decoder *dec)
 		dur = (double)dec->fmt->duration / AV_TIME_BASE; /* only one stream: it is the video's */
 	dt = dec->nframes > 1 ? dec->last_t_s / (double)(dec->nframes - 1) : dec->guess_dt_s;
 	span = dec->last_t_s + dt;
-	if (isfinite(dur) && span + 2 * dt + 0.5 < dur) {
+	/* Containers differ on whether the duration counts from zero or from the
+	 * first timestamp (Matroska gives the end time): short on both counts. */
+	end = in->first_pts_s + span;
+	if (isfinite(dur) && span + 2 * dt + 0.5 < dur && (!isfinite(end) || end + 2 * dt + 0.5 < dur)) {
 		char b1[WL_NUMBUF], b2[WL_NUMBUF];
 		snprintf(what, sizeof what, "stream ends early: at %s s of the %s s announced (file cut short?)",
 			 wl_fmt_fixed(b1, span, 3), wl_fmt_fixed(b2, dur, 3));

@@ -7,6 +7,7 @@
 
 #include <libavcodec/avcodec.h>
 #include <libavutil/frame.h>
+#include <libavutil/log.h>
 
 #include "core/afile.h"
 #include "decode/decode.h"
@@ -78,6 +79,7 @@ wl_status wl_png_write(const char *path, const uint8_t *data, int width, int hei
 	AVPacket *pkt;
 	wl_status st;
 
+	av_log_set_level(AV_LOG_QUIET); /* the library never prints (process-wide, as in decode.c) */
 	if (width <= 0 || height <= 0 || (channels != 1 && channels != 3) || stride < width * channels)
 		return wl_err_set(err, WL_EINVAL, "%s: cannot write a %dx%d image with %d channels, stride %d", path,
 				  width, height, channels, stride);

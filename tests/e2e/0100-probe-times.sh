@@ -45,4 +45,17 @@ first_ts=$(ffprobe_times clip.ts | sed -n 1p)
 import json, sys
 j = json.load(sys.stdin)
 sys.exit(0 if abs(j['first_pts_s'] - float('$first_ts')) < 1e-6 and j['frames'] == 50 else 'clip.ts: %s' % j)"
+# A raw H.264 stream has no timestamps (ffprobe prints N/A): the times are
+# extrapolated at the stream's nominal rate and every frame says so.
+ff "${src[@]}" -c:v libx264 -pix_fmt yuv420p -bf 2 raw.h264
+[ "$(ffprobe_times raw.h264 | sort -u)" = "N/A" ] || fail "raw.h264 has timestamps after all"
+"$WAKELINE" probe -q --frames raw.csv raw.h264 > raw.txt || fail "probe raw.h264"
+grep -q '^timestamps     50 frames had none' raw.txt || fail "raw.h264: guessed times not reported"
+$PY - <<'PYEOF' || fail "raw.h264 guessed times"
+import csv, sys
+rows = list(csv.DictReader(open("raw.csv")))
+ok = len(rows) == 50 and all(r["time_guessed"] == "1" and abs(float(r["t_s"]) - 0.04 * i) < 1e-6
+                             for i, r in enumerate(rows))
+sys.exit(0 if ok else "raw.h264: %d rows, first %s" % (len(rows), rows[:2]))
+PYEOF
 echo "0100-probe-times: ok"

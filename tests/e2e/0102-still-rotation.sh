@@ -31,26 +31,18 @@ for c in base rot90 rot180 rot270; do
 	# ffmpeg converts with its default bicubic chroma scaling, we with bilinear:
 	# allow 2 levels of mean difference (the task's bound), a wrong turn gives tens.
 	for n in 0 37; do
-		d=$(mad $c-$n.png ref-$c-$n.png) || fail "$c frame $n: $d"
-		echo "$c frame $n: mean |still - ffmpeg auto-rotated| = $d levels"
-		lt "$d" 2 || fail "$c frame $n differs from ffmpeg's displayed frame by $d levels"
+		want_mad $c-$n.png ref-$c-$n.png lt 2 "$c frame $n vs ffmpeg auto-rotated"
 	done
 	# Coded pixels: with ffmpeg told not to rotate and to convert as we do
 	# (bilinear), the pixels are identical.
 	"$WAKELINE" still $c.mp4 --at 0 --coded -o coded-$c-0.png > /dev/null
 	ff -noautorotate -i $c.mp4 -frames:v 1 -sws_flags bilinear+accurate_rnd ref-coded-$c-0.png
-	d=$(mad coded-$c-0.png ref-coded-$c-0.png)
-	lt "$d" 0.01 || fail "$c coded frame 0 differs from ffmpeg -noautorotate (bilinear) by $d levels"
+	want_mad coded-$c-0.png ref-coded-$c-0.png lt 0.01 "$c --coded frame 0 vs ffmpeg -noautorotate bilinear"
 done
 # The two quarter turns are told apart (a sign error would swap them).
-d=$(mad rot90-0.png ref-rot270-0.png)
-echo "rot90 still vs ffmpeg's rot270 frame: $d levels (must be large)"
-lt 20 "$d" || fail "the 90 and 270 turns look alike ($d levels)"
-
+want_mad rot90-0.png ref-rot270-0.png gt 20 "rot90 still vs ffmpeg's rot270 frame"
 # --coded keeps the coded orientation: the 180 turn must differ a lot.
-"$WAKELINE" still rot180.mp4 --at 0 --coded -o coded180.png > /dev/null
-d=$(mad coded180.png ref-rot180-0.png)
-lt 20 "$d" || fail "--coded 180 frame matches the displayed one ($d levels): rotation not undone?"
-d=$(mad coded180.png base-0.png)
-lt "$d" 0.01 || fail "--coded 180 frame differs from the unrotated clip's frame by $d levels"
+want_mad coded-rot180-0.png ref-rot180-0.png gt 20 "rot180 --coded vs displayed"
+want_mad coded-rot180-0.png base-0.png lt 0.01 "rot180 --coded vs the unrotated clip"
+run_mad_checks
 echo "0102-still-rotation: ok"

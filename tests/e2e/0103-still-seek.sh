@@ -10,7 +10,9 @@ ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 50 \
 	-c:v libx264 -pix_fmt yuv420p -bf 3 -g 10 -video_track_timescale 1000 vfr.mp4
 
 # Every frame of each clip as ffmpeg decodes it: ref-CLIP-0001.png is frame 0.
-for c in gop.mp4 vfr.mp4; do ff -i $c -fps_mode passthrough "ref-$c-%04d.png"; done
+# a raw H.264 stream: no container timestamps, no index (still decodes from the start)
+ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 50 -c:v libx264 -pix_fmt yuv420p -g 10 -bf 3 raw.h264
+for c in gop.mp4 vfr.mp4 raw.h264; do ff -i $c -fps_mode passthrough "ref-$c-%04d.png"; done
 
 # still_is CLIP AT N T: `still --at AT` writes frame N, at time T.  The
 # pixel comparisons are made at the end (checks.txt), in one python run.
@@ -38,6 +40,9 @@ grep -q 'past the last frame' end.err || fail "no warning past the end"
 still_is vfr.mp4 1.03 25 1.000000
 still_is vfr.mp4 2.0 35 2.000000
 still_is vfr.mp4 3.36 49 3.400000
+# raw stream: times extrapolated at the stream's 25 fps
+still_is raw.h264 1.465 37 1.480000
+still_is raw.h264 0 0 0.000000
 
 $PY - <<'PYEOF' || fail "a still is not the frame wanted"
 import os, sys, cv2, numpy as np

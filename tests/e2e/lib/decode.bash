@@ -60,3 +60,27 @@ PYEOF
 
 # lt X Y: X < Y as numbers.
 lt() { $PY -c "import sys; sys.exit(0 if float('$1') < float('$2') else 1)"; }
+
+# want_mad A.png B.png lt|gt LIMIT LABEL: queues the check "mean absolute
+# difference of A and B is below (lt) / above (gt) LIMIT levels";
+# run_mad_checks runs all queued checks in one python (python3-opencv) and
+# fails if any does not hold.  Sizes must match for every check.
+: > mad-checks.txt
+want_mad() { printf '%s\t%s\t%s\t%s\t%s\n' "$@" >> mad-checks.txt; }
+run_mad_checks() {
+	$PY - <<'PYEOF' || fail "pixel comparisons"
+import sys, cv2, numpy as np
+bad = 0
+for line in open("mad-checks.txt"):
+    a, b, op, lim, label = line.rstrip("\n").split("\t")
+    x = cv2.imread(a, cv2.IMREAD_UNCHANGED); y = cv2.imread(b, cv2.IMREAD_UNCHANGED)
+    if x is None or y is None or x.shape != y.shape:
+        print("FAIL %s: sizes differ (%s vs %s)" % (label, None if x is None else x.shape, None if y is None else y.shape))
+        bad += 1; continue
+    d = np.abs(x.astype(float) - y.astype(float)).mean()
+    ok = d < float(lim) if op == "lt" else d > float(lim)
+    print("%s %s: mean |diff| = %.4f levels (want %s %s)" % ("ok  " if ok else "FAIL", label, d, "<" if op == "lt" else ">", lim))
+    bad += not ok
+sys.exit(bad)
+PYEOF
+}

@@ -1,0 +1,446 @@
+/* cmd_calibrate.c: `wakeline calibrate`: floor markers or hand-picked points -> CAL.json. */
+#define _POSIX_C_SOURCE 200809L
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+
+#include "calib/calib.h"
+#include "calib/detect.h"
+#include "calib/lens.h"
+#include "cli/cli.h"
+#include "cv/cv.h"
+#include "decode/decode.h"
+
+const char cmd_calibrate_summary[] = "floor markers or picked points -> camera model (CAL.json)";
+
+static const char usage_text[] =
+	"usage: wakeline calibrate SOURCE (--layout LAYOUT.csv | --points POINTS.csv) -o CAL.json [options]\n"
+	"\n"
+	"Finds the camera over the tank: the floor homography, the focal length, the\n"
+	"camera's position and tilt, and (with --water-depth-m) refraction at the\n"
+	"water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
+	"setting as the runs.\n"
+	"\n"
+	"  --layout FILE        floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\n"
+	"                       markers are found in SOURCE (AprilTag)\n"
+	"  --points FILE        hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]\n"
+	"  -o, --output FILE    CAL.json to write (not written on error)\n"
+	"  --lens FILE          LENS.json from 'wakeline lens' (intrinsics and distortion)\n"
+	"  --hfov-deg A         horizontal field of view, when neither the lens nor the view\n"
+	"                       gives the focal length\n"
+	"  --plane-height-m H   height of the robots' marker plane above the floor (default 0)\n"
+	"  --water-depth-m D    the floor markers lie under D metres of still water\n"
+	"  --water-index N      refractive index of the water (default 1.333)\n"
+	"  --family NAME        tag family (default tag36h11)\n"
+	"  --at T               clip: start at T seconds (default 0)\n"
+	"  --span S             clip: use S seconds of frames (default 2)\n"
+	"  --tank \"x,y;x,y;...\" tank outline in metres (default: the markers' bounding rectangle)\n"
+	"  -q, --quiet          no progress line\n"
+	"  -h, --help           this text\n"
+	"\n"
+	"Intrinsics come from --lens, else from the markers when the view is oblique\n"
+	"enough, else from --hfov-deg.  The quality report goes to standard output.\n"
+	"Exit status: 0 ok, 1 failure, 2 usage error.\n";
+
+typedef struct {
+	const char *source, *layout, *points, *out, *lens, *family, *tank;
+	double hfov_deg, plane_m, water_m, water_index, at_s, span_s;
+	int quiet;
+} options;
+
+typedef struct {
+	int n_outline;
+	double outline[WL_CALIB_MAX_OUTLINE][2];
+} outline_t;
+
+static int parse_tank(const char *s, outline_t *o)
+{
+	const char *p = s;
+	o->n_outline = 0;
+	while (*p) {
+		char *end;
+		double x, y;
+		if (o->n_outline >= WL_CALIB_MAX_OUTLINE)
+			return 0;
+		x = strtod(p, &end);
+		if (end == p || *end != ',')
+			return 0;
+		p = end + 1;
+		y = strtod(p, &end);
+		if (end == p || !isfinite(x) || !isfinite(y))
+			return 0;
+		o->outline[o->n_outline][0] = x;
+		o->outline[o->n_outline][1] = y;
+		o->n_outline++;
+		p = end;
+		if (*p == ';')
+			p++;
+		else if (*p)
+			return 0;
+	}
+	return o->n_outline >= 3;
+}
+
+static int is_image(const char *path)
+{
+	const char *dot = strrchr(path, '.');
+	return dot && (!strcasecmp(dot, ".png") || !strcasecmp(dot, ".jpg") || !strcasecmp(dot, ".jpeg") ||
+		       !strcasecmp(dot, ".bmp") || !strcasecmp(dot, ".tif") || !strcasecmp(dot, ".tiff"));
+}
+
+#define CLIP_FRAMES 20 /* frames of the span handed to the detector (spread evenly) */
+
+/* Frames from --at over --span seconds of a clip; corrupt frames skipped. */
+static wl_status read_clip(const options *op, wl_calib_tags *tags, int *w, int *h, int *rotation_deg,
+			   int *frames, wl_err *err)
+{
+	wl_decoder *dec = NULL;
+	const wl_frame *fr;
+	const wl_video_info *info;
+	double next_t = op->at_s, step;
+	wl_status st = wl_decoder_open(op->source, 0, 0, &dec, err);
+	if (st)
+		return st;
+	info = wl_decoder_info(dec);
+	*w = info->width_px;
+	*h = info->height_px;
+	*rotation_deg = info->rotation_deg;
+	step = op->span_s / CLIP_FRAMES;
+	if (op->at_s > 0 && (st = wl_decoder_seek(dec, op->at_s, err)))
+		goto out;
+	while (!(st = wl_decoder_next(dec, &fr, err)) && fr) {
+		int seen;
+		if (fr->t_s > op->at_s + op->span_s)
+			break;
+		if (fr->t_s + 1e-9 < next_t || fr->corrupt)
+			continue;
+		next_t = fr->t_s + step;
+		(*frames)++;
+		if (tags && (st = wl_calib_tags_add(tags, fr->luma, fr->width_px, fr->height_px, fr->luma_stride, &seen,
+						    err)))
+			break;
+		if (!tags)
+			break;
+	}
+	if (!st && *frames == 0)
+		st = wl_err_set(err, WL_EDECODE, "'%s': no frames between %.2f s and %.2f s: check --at and --span",
+				op->source, op->at_s, op->at_s + op->span_s);
+out:
+	wl_decoder_destroy(dec);
+	return st;
+}
+
+/* Frames of SOURCE handed to the tag detector (when tags != NULL); gives
+ * the image size and orientation. */
+static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int *h, int *rotation_deg,
+			     int *frames, wl_err *err)
+{
+	*rotation_deg = 0;
+	*frames = 0;
+	if (is_image(op->source)) {
+		uint8_t *px = NULL;
+		int seen;
+		wl_status st = wl_cv_imread(op->source, 1, &px, w, h, err);
+		if (!st && tags)
+			st = wl_calib_tags_add(tags, px, *w, *h, *w, &seen, err);
+		free(px);
+		*frames = 1;
+		return st;
+	}
+	return read_clip(op, tags, w, h, rotation_deg, frames, err);
+}
+
+#define MIN_MARGIN 40.0 /* median decision margin below this: a weak detection (our choice) */
+
+/* Detected markers -> correspondences: centre, and the corners when the
+ * layout gives the marker's size. */
+static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *marks, int n_marks,
+			     wl_calib_point *pts, int max, int *n_seen)
+{
+	int n = 0;
+	*n_seen = 0;
+	for (int i = 0; i < n_marks; i++) {
+		wl_tag_obs o;
+		const wl_calib_marker *m = &marks[i];
+		if (!wl_calib_tags_get(tags, m->id, &o)) {
+			printf("  warning: marker %ld (layout line %ld) was not found: check that it is in view, "
+			       "lit and flat\n",
+			       m->id, m->line);
+			continue;
+		}
+		(*n_seen)++;
+		if (o.margin < MIN_MARGIN)
+			printf("  warning: marker %ld is weakly detected (decision margin %.0f, below %.0f): "
+			       "more light, less glare, or a larger print\n",
+			       m->id, o.margin, MIN_MARGIN);
+		if (n >= max)
+			break;
+		memset(&pts[n], 0, sizeof pts[n]);
+		snprintf(pts[n].id, sizeof pts[n].id, "%ld", m->id);
+		pts[n].u_px = o.c[0];
+		pts[n].v_px = o.c[1];
+		pts[n].x_m = m->x_m;
+		pts[n].y_m = m->y_m;
+		pts[n].z_m = m->z_m;
+		n++;
+		if (m->size_m > 0) {
+			double xy[4][2];
+			wl_calib_marker_corners(m, xy);
+			for (int k = 0; k < 4 && n < max; k++, n++) {
+				memset(&pts[n], 0, sizeof pts[n]);
+				snprintf(pts[n].id, sizeof pts[n].id, "%ld.c%d", m->id, k);
+				pts[n].u_px = o.p[k][0];
+				pts[n].v_px = o.p[k][1];
+				pts[n].x_m = xy[k][0];
+				pts[n].y_m = xy[k][1];
+				pts[n].z_m = m->z_m;
+			}
+		}
+	}
+	return n;
+}
+
+static void bounding_outline(const wl_calib_point *pts, int n, const wl_calib_marker *marks, int n_marks,
+			     outline_t *o)
+{
+	double x0 = INFINITY, y0 = INFINITY, x1 = -INFINITY, y1 = -INFINITY;
+	for (int i = 0; i < n; i++) {
+		x0 = fmin(x0, pts[i].x_m);
+		x1 = fmax(x1, pts[i].x_m);
+		y0 = fmin(y0, pts[i].y_m);
+		y1 = fmax(y1, pts[i].y_m);
+	}
+	for (int i = 0; i < n_marks; i++) {
+		double r = marks[i].size_m * 0.7072; /* half diagonal */
+		x0 = fmin(x0, marks[i].x_m - r);
+		x1 = fmax(x1, marks[i].x_m + r);
+		y0 = fmin(y0, marks[i].y_m - r);
+		y1 = fmax(y1, marks[i].y_m + r);
+	}
+	double v[4][2] = { { x0, y0 }, { x1, y0 }, { x1, y1 }, { x0, y1 } };
+	memcpy(o->outline, v, sizeof v);
+	o->n_outline = 4;
+}
+
+/* Warns when the outline reaches far beyond the points (extrapolation). */
+static void check_outline(const wl_calib *cal)
+{
+	double x0 = INFINITY, y0 = INFINITY, x1 = -INFINITY, y1 = -INFINITY, size, worst = 0;
+	for (int i = 0; i < cal->n_points; i++) {
+		if (!cal->points[i].used)
+			continue;
+		x0 = fmin(x0, cal->points[i].x_m);
+		x1 = fmax(x1, cal->points[i].x_m);
+		y0 = fmin(y0, cal->points[i].y_m);
+		y1 = fmax(y1, cal->points[i].y_m);
+	}
+	size = fmax(x1 - x0, y1 - y0);
+	for (int i = 0; i < cal->n_outline; i++) {
+		double dx = fmax(0, fmax(x0 - cal->outline_m[i][0], cal->outline_m[i][0] - x1));
+		double dy = fmax(0, fmax(y0 - cal->outline_m[i][1], cal->outline_m[i][1] - y1));
+		worst = fmax(worst, hypot(dx, dy));
+	}
+	if (worst > 0.25 * size)
+		printf("  warning: the tank outline reaches %.2f m beyond the markers: positions out there are "
+		       "extrapolated; put markers near the tank's corners\n",
+		       worst);
+	/* the outline must be counter-clockwise */
+}
+
+static void make_ccw(wl_calib *cal)
+{
+	double a = 0;
+	int n = cal->n_outline;
+	for (int i = 0; i < n; i++) {
+		const double *p = cal->outline_m[i], *q = cal->outline_m[(i + 1) % n];
+		a += p[0] * q[1] - q[0] * p[1];
+	}
+	if (a < 0)
+		for (int i = 0; i < n / 2; i++) {
+			double t[2] = { cal->outline_m[i][0], cal->outline_m[i][1] };
+			cal->outline_m[i][0] = cal->outline_m[n - 1 - i][0];
+			cal->outline_m[i][1] = cal->outline_m[n - 1 - i][1];
+			cal->outline_m[n - 1 - i][0] = t[0];
+			cal->outline_m[n - 1 - i][1] = t[1];
+		}
+}
+
+static void print_report(const options *op, const wl_calib *cal, const wl_calib_report *rep,
+			 const wl_lens *lens)
+{
+	double C[3];
+	const wl_calib_point *w = rep->worst >= 0 ? &cal->points[rep->worst] : NULL;
+	wl_camera_position(&cal->cam, C);
+	printf("  points: %d used of %d%s\n", rep->n_used, cal->n_points,
+	       rep->outlier >= 0 ? " (one left out as an outlier)" : "");
+	if (!strcmp(cal->intrinsics_source, "lens"))
+		printf("  intrinsics: from %s (lens RMS %.3f px)\n", op->lens, lens->rms_px);
+	else if (!strcmp(cal->intrinsics_source, "homography"))
+		printf("  intrinsics: the view is oblique enough: focal length from the homography "
+		       "(Zhang 2000), refined to %.1f px\n",
+		       cal->cam.K[0]);
+	else if (!strcmp(cal->intrinsics_source, "hfov"))
+		printf("  intrinsics: from --hfov-deg %g (the view is too close to nadir to give the focal "
+		       "length)\n",
+		       op->hfov_deg);
+	else
+		printf("  intrinsics: from the points at several heights (projection DLT), f %.1f px\n",
+		       cal->cam.K[0]);
+	if (rep->focal_determined && strcmp(cal->intrinsics_source, "homography"))
+		printf("  (the homography alone gives f %.1f px)\n", rep->focal_from_h_px);
+	printf("  camera: %.3f m above the floor, tilted %.1f deg from nadir, over (%.3f, %.3f) m\n", C[2],
+	       rep->tilt_deg, C[0], C[1]);
+	if (cal->cam.water_depth_m > 0)
+		printf("  water: floor under %.3f m, index %.4f (refraction by Snell's law)\n", cal->cam.water_depth_m,
+		       cal->cam.water_index);
+	printf("  RMS %.3f px, %.2f mm", cal->rms_px, cal->rms_mm);
+	if (w)
+		printf("; worst point '%s' %.3f px (%.2f mm)", w->id, w->residual_px, w->residual_mm);
+	printf("\n  plane height %.3f m\n", cal->plane_height_m);
+	for (int i = 0; i < rep->n_warn; i++)
+		printf("  warning: %s\n", rep->warn[i]);
+	check_outline(cal);
+}
+
+static int parse_args(int argc, char **argv, options *op)
+{
+	static const struct option opts[] = {
+		{ "layout", required_argument, NULL, 'L' },
+		{ "points", required_argument, NULL, 'P' },
+		{ "output", required_argument, NULL, 'o' },
+		{ "lens", required_argument, NULL, 'l' },
+		{ "hfov-deg", required_argument, NULL, 'f' },
+		{ "plane-height-m", required_argument, NULL, 'z' },
+		{ "water-depth-m", required_argument, NULL, 'd' },
+		{ "water-index", required_argument, NULL, 'n' },
+		{ "family", required_argument, NULL, 'F' },
+		{ "at", required_argument, NULL, 'a' },
+		{ "span", required_argument, NULL, 's' },
+		{ "tank", required_argument, NULL, 't' },
+		{ "quiet", no_argument, NULL, 'q' },
+		{ "help", no_argument, NULL, 'h' },
+		{ NULL, 0, NULL, 0 },
+	};
+	int c;
+	memset(op, 0, sizeof *op);
+	op->family = "tag36h11";
+	op->water_index = 1.333;
+	op->span_s = 2;
+	optind = 1;
+	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
+		double *num = NULL;
+		const char *name = NULL;
+		switch (c) {
+		case 'L': op->layout = optarg; break;
+		case 'P': op->points = optarg; break;
+		case 'o': op->out = optarg; break;
+		case 'l': op->lens = optarg; break;
+		case 'F': op->family = optarg; break;
+		case 't': op->tank = optarg; break;
+		case 'q': op->quiet = 1; break;
+		case 'f': num = &op->hfov_deg; name = "--hfov-deg"; break;
+		case 'z': num = &op->plane_m; name = "--plane-height-m"; break;
+		case 'd': num = &op->water_m; name = "--water-depth-m"; break;
+		case 'n': num = &op->water_index; name = "--water-index"; break;
+		case 'a': num = &op->at_s; name = "--at"; break;
+		case 's': num = &op->span_s; name = "--span"; break;
+		case 'h':
+			fputs(usage_text, stdout);
+			return -1;
+		default:
+			return cli_usage_error("calibrate", "unknown option");
+		}
+		if (num && !cli_parse_double(optarg, num))
+			return cli_usage_error("calibrate", "%s '%s' is not a number", name, optarg);
+	}
+	if (optind != argc - 1)
+		return cli_usage_error("calibrate", "give one SOURCE (a photo or a clip)");
+	op->source = argv[optind];
+	if (!op->out)
+		return cli_usage_error("calibrate", "-o CAL.json is required");
+	if (!!op->layout == !!op->points)
+		return cli_usage_error("calibrate", "give exactly one of --layout and --points");
+	if (op->hfov_deg < 0 || op->hfov_deg >= 179)
+		return cli_usage_error("calibrate", "--hfov-deg must lie between 0 and 179");
+	if (op->water_m < 0 || op->water_index < 1 || op->water_index > 3)
+		return cli_usage_error("calibrate", "--water-depth-m must be >= 0 and --water-index in [1, 3]");
+	if (op->span_s <= 0 || op->at_s < 0)
+		return cli_usage_error("calibrate", "--at must be >= 0 and --span > 0");
+	return 0;
+}
+
+int cmd_calibrate(int argc, char **argv)
+{
+	options op;
+	static wl_calib cal;
+	static wl_calib_point pts[WL_CALIB_MAX_POINTS];
+	static wl_calib_marker marks[WL_CALIB_MAX_POINTS];
+	static wl_lens lens;
+	wl_calib_report rep;
+	wl_calib_opts co;
+	wl_calib_tags *tags = NULL;
+	outline_t outline = { 0 };
+	wl_err err = { 0 };
+	int n = 0, n_marks = 0, w = 0, h = 0, rot = 0, frames = 0, status = WL_EXIT_FAIL, r;
+	if ((r = parse_args(argc, argv, &op)) != 0)
+		return r < 0 ? cli_finish("calibrate", WL_EXIT_OK) : r;
+	if (op.tank && !parse_tank(op.tank, &outline))
+		return cli_usage_error("calibrate",
+				       "--tank '%s': give 3 to %d corners as \"x,y;x,y;...\" in metres", op.tank,
+				       WL_CALIB_MAX_OUTLINE);
+	if (op.lens && wl_lens_load(op.lens, &lens, &err))
+		goto out;
+	if (op.points && wl_calib_read_points(op.points, pts, WL_CALIB_MAX_POINTS, &n, &err))
+		goto out;
+	if (op.layout && (wl_calib_read_layout(op.layout, marks, WL_CALIB_MAX_POINTS, &n_marks, &err) ||
+			  wl_calib_tags_create(op.family, &tags, &err)))
+		goto out;
+	if (read_source(&op, tags, &w, &h, &rot, &frames, &err))
+		goto out;
+	printf("calibrate: %s -> %s\n", op.source, op.out);
+	if (tags) {
+		int seen;
+		n = markers_to_points(tags, marks, n_marks, pts, WL_CALIB_MAX_POINTS, &seen);
+		printf("  markers: %d of %d found in %d frame%s\n", seen, n_marks, frames, frames == 1 ? "" : "s");
+		if (seen < 4) {
+			wl_err_set(&err, WL_ECALIB,
+				   "%s: only %d of the %d layout markers were found in '%s' (at least 4 are needed): "
+				   "check the --family, the lighting and that the markers are in view",
+				   op.layout, seen, n_marks, op.source);
+			goto out;
+		}
+	}
+	memset(&co, 0, sizeof co);
+	co.width_px = w;
+	co.height_px = h;
+	co.lens = op.lens ? &lens.cam : NULL;
+	co.hfov_deg = op.hfov_deg;
+	co.water_depth_m = op.water_m;
+	co.water_index = op.water_index;
+	co.plane_height_m = op.plane_m;
+	co.rotation_deg = rot;
+	if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
+		for (int i = 0; i < rep.n_warn; i++)
+			cli_warn("calibrate", "%s", rep.warn[i]);
+		wl_err_prefix(&err, "%s", op.points ? op.points : op.source);
+		goto out;
+	}
+	if (!outline.n_outline)
+		bounding_outline(pts, n, marks, n_marks, &outline);
+	cal.n_outline = outline.n_outline;
+	memcpy(cal.outline_m, outline.outline, sizeof outline.outline);
+	make_ccw(&cal);
+	snprintf(cal.source, sizeof cal.source, "%s", op.source);
+	print_report(&op, &cal, &rep, &lens);
+	if (wl_calib_save(op.out, &cal, &err))
+		goto out;
+	status = WL_EXIT_OK;
+out:
+	if (status != WL_EXIT_OK)
+		cli_fail("calibrate", &err);
+	wl_calib_tags_destroy(tags);
+	return cli_finish("calibrate", status);
+}

@@ -1,0 +1,731 @@
+/*
+ * scene.c: the renderer's scene file (JSON, see docs/synth.md): parsing with
+ * errors that name the file and the key path, defaults, the camera built
+ * with wl_camera_look_at, the path model, frame times, and saving the scene
+ * actually used.
+ */
+#include "synth/synth.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "core/afile.h"
+#include "core/jsonio.h"
+#include "synth/synth_priv.h"
+
+#define DEG (M_PI / 180.0)
+
+/* Where we are in the file, for messages: "scene.json: robots[0].path". */
+typedef struct {
+	const char *name;
+	char where[160];
+	wl_err *err;
+} pctx;
+
+static wl_status bad(const pctx *p, const char *key, const char *what)
+{
+	return wl_err_set(p->err, WL_EFORMAT, "%s: %s%skey '%s' %s", p->name, p->where, p->where[0] ? ": " : "", key,
+			  what);
+}
+
+/* Every key of obj must be in allowed (NULL-terminated). */
+static wl_status check_keys(const pctx *p, const cJSON *obj, const char *const *allowed)
+{
+	const cJSON *c;
+	if (!cJSON_IsObject(obj))
+		return wl_err_set(p->err, WL_EFORMAT, "%s: %s: must be an object", p->name, p->where[0] ? p->where : "top level");
+	for (c = obj->child; c; c = c->next) {
+		int ok = 0;
+		for (const char *const *a = allowed; *a && !ok; a++)
+			ok = strcmp(c->string, *a) == 0;
+		if (!ok)
+			return bad(p, c->string, "is not known: check the spelling (docs/synth.md lists the keys)");
+	}
+	return WL_OK;
+}
+
+/* A number, with a default when absent (required: no default) and a range. */
+static wl_status num(const pctx *p, const cJSON *obj, const char *key, int required, double def, double lo,
+		     double hi, double *out)
+{
+	const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, key);
+	char buf[160];
+	if (!v) {
+		if (required)
+			return bad(p, key, "is missing");
+		*out = def;
+		return WL_OK;
+	}
+	if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
+		return bad(p, key, "must be a number");
+	if (v->valuedouble < lo || v->valuedouble > hi) {
+		snprintf(buf, sizeof buf, "is %g: must be in [%g, %g]", v->valuedouble, lo, hi);
+		return bad(p, key, buf);
+	}
+	*out = v->valuedouble;
+	return WL_OK;
+}
+
+static wl_status inum(const pctx *p, const cJSON *obj, const char *key, int required, int def, int lo, int hi,
+		      int *out)
+{
+	double d;
+	wl_status st = num(p, obj, key, required, def, lo, hi, &d);
+	if (st)
+		return st;
+	if (d != floor(d))
+		return bad(p, key, "must be a whole number");
+	*out = (int)d;
+	return WL_OK;
+}
+
+/* An array of n numbers; absent -> def (NULL def: required). */
+static wl_status vec(const pctx *p, const cJSON *obj, const char *key, int n, const double *def, double lo,
+		     double hi, double *out)
+{
+	const cJSON *a = cJSON_GetObjectItemCaseSensitive(obj, key), *v;
+	int i = 0;
+	char buf[96];
+	if (!a) {
+		if (!def)
+			return bad(p, key, "is missing");
+		memcpy(out, def, (size_t)n * sizeof *out);
+		return WL_OK;
+	}
+	snprintf(buf, sizeof buf, "must be an array of %d numbers in [%g, %g]", n, lo, hi);
+	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) != n)
+		return bad(p, key, buf);
+	cJSON_ArrayForEach(v, a)
+	{
+		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble) || v->valuedouble < lo || v->valuedouble > hi)
+			return bad(p, key, buf);
+		out[i++] = v->valuedouble;
+	}
+	return WL_OK;
+}
+
+static wl_status rgb(const pctx *p, const cJSON *obj, const char *key, const uint8_t def[3], uint8_t out[3])
+{
+	double d[3] = { def[0], def[1], def[2] }, v[3];
+	wl_status st = vec(p, obj, key, 3, d, 0, 255, v);
+	for (int i = 0; !st && i < 3; i++)
+		out[i] = (uint8_t)lround(v[i]);
+	return st;
+}
+
+static const cJSON *child(const cJSON *obj, const char *key)
+{
+	return cJSON_GetObjectItemCaseSensitive(obj, key);
+}
+
+static void enter(pctx *p, const char *fmt, int idx)
+{
+	snprintf(p->where, sizeof p->where, fmt, idx);
+}
+
+#define TRY(x)                                                                                                 \
+	do {                                                                                                   \
+		if ((st = (x)))                                                                                \
+			return st;                                                                             \
+	} while (0)
+
+static wl_status parse_tank(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "size_m", "wall_m", "floor_rgb", "wall_rgb", "surround_rgb", NULL };
+	static const uint8_t floor_d[3] = { 178, 190, 196 }, wall_d[3] = { 60, 70, 80 }, sur_d[3] = { 105, 100, 95 };
+	const cJSON *t = child(root, "tank");
+	double sz[2];
+	wl_status st;
+	enter(p, "tank", 0);
+	if (!t)
+		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'tank' is missing: give at least \"tank\": {\"size_m\": [L, W]}",
+				  p->name);
+	TRY(check_keys(p, t, keys));
+	TRY(vec(p, t, "size_m", 2, NULL, 0.01, 1000, sz));
+	sc->tank_length_m = sz[0];
+	sc->tank_width_m = sz[1];
+	TRY(num(p, t, "wall_m", 0, 0.03, 0, 10, &sc->wall_m));
+	TRY(rgb(p, t, "floor_rgb", floor_d, sc->floor_rgb));
+	TRY(rgb(p, t, "wall_rgb", wall_d, sc->wall_rgb));
+	TRY(rgb(p, t, "surround_rgb", sur_d, sc->surround_rgb));
+	return WL_OK;
+}
+
+static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "id", "center_m", "size_m", "yaw_deg", NULL };
+	const cJSON *a = child(root, "markers"), *m;
+	wl_status st;
+	int i = 0;
+	sc->n_markers = 0;
+	if (!a)
+		return WL_OK;
+	if (!cJSON_IsArray(a))
+		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'markers' must be an array of objects", p->name);
+	if (cJSON_GetArraySize(a) > WL_SYNTH_MAX_MARKERS)
+		return wl_err_set(p->err, WL_ELIMIT, "%s: key 'markers': more than %d markers", p->name,
+				  WL_SYNTH_MAX_MARKERS);
+	cJSON_ArrayForEach(m, a)
+	{
+		wl_synth_marker *k = &sc->markers[i];
+		double c[2], yaw;
+		enter(p, "markers[%d]", i);
+		TRY(check_keys(p, m, keys));
+		TRY(inum(p, m, "id", 1, 0, 0, 586, &k->id)); /* tag36h11 has 587 codes */
+		TRY(vec(p, m, "center_m", 2, NULL, -1000, 1000, c));
+		TRY(num(p, m, "size_m", 0, 0.12, 0.001, 100, &k->size_m));
+		TRY(num(p, m, "yaw_deg", 0, 0, -3600, 3600, &yaw));
+		k->x_m = c[0];
+		k->y_m = c[1];
+		k->yaw_rad = yaw * DEG;
+		i++;
+	}
+	sc->n_markers = i;
+	return WL_OK;
+}
+
+/* Builds sc->cam from the camera keys: intrinsics, then the look-at pose. */
+static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "width_px", "height_px", "hfov_deg", "focal_px", "principal_px", "k1",
+					    "k2", "p1", "p2", "k3", "position_m", "tilt_deg", "tilt_dir_deg",
+					    "yaw_deg", NULL };
+	const cJSON *c = child(root, "camera");
+	int w, h;
+	double f, hfov, pp[2], dpp[2], pos_d[3], deg, eye[3], tgt[3];
+	wl_status st;
+	enter(p, "camera", 0);
+	if (!c)
+		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'camera' is missing", p->name);
+	TRY(check_keys(p, c, keys));
+	TRY(inum(p, c, "width_px", 0, 1280, 16, WL_SYNTH_MAX_SIZE_PX, &w));
+	TRY(inum(p, c, "height_px", 0, 720, 16, WL_SYNTH_MAX_SIZE_PX, &h));
+	if (w % 2 || h % 2)
+		return bad(p, w % 2 ? "width_px" : "height_px", "must be even (H.264 4:2:0)");
+	if (child(c, "focal_px") && child(c, "hfov_deg"))
+		return bad(p, "focal_px", "and 'hfov_deg' are both given: give one");
+	if (child(c, "focal_px")) {
+		TRY(num(p, c, "focal_px", 1, 0, 1, 1e6, &f));
+		hfov = 2 * atan(0.5 * w / f);
+	} else {
+		TRY(num(p, c, "hfov_deg", 0, 75, 1, 170, &deg));
+		hfov = deg * DEG;
+		f = 0.5 * w / tan(0.5 * hfov);
+	}
+	sc->hfov_rad = hfov;
+	dpp[0] = 0.5 * (w - 1); /* pixel centres at integers: the image centre */
+	dpp[1] = 0.5 * (h - 1);
+	TRY(vec(p, c, "principal_px", 2, dpp, -1e5, 1e5, pp));
+	wl_camera_init(&sc->cam, w, h, f, f, pp[0], pp[1]);
+	TRY(num(p, c, "k1", 0, 0, -10, 10, &sc->cam.dist[0]));
+	TRY(num(p, c, "k2", 0, 0, -10, 10, &sc->cam.dist[1]));
+	TRY(num(p, c, "p1", 0, 0, -1, 1, &sc->cam.dist[2]));
+	TRY(num(p, c, "p2", 0, 0, -1, 1, &sc->cam.dist[3]));
+	TRY(num(p, c, "k3", 0, 0, -10, 10, &sc->cam.dist[4]));
+	pos_d[0] = 0.5 * sc->tank_length_m;
+	pos_d[1] = 0.5 * sc->tank_width_m;
+	pos_d[2] = 2.0;
+	TRY(vec(p, c, "position_m", 3, pos_d, -1000, 1000, sc->cam_pos_m));
+	TRY(num(p, c, "tilt_deg", 0, 0, 0, 80, &deg));
+	sc->tilt_rad = deg * DEG;
+	TRY(num(p, c, "tilt_dir_deg", 0, 90, -360, 360, &deg));
+	sc->tilt_dir_rad = deg * DEG;
+	TRY(num(p, c, "yaw_deg", 0, 0, -360, 360, &deg));
+	sc->yaw_rad = deg * DEG;
+	if (sc->cam_pos_m[2] <= 0.05)
+		return bad(p, "position_m", "puts the camera at or below the floor: its z must be above 0.05 m");
+	memcpy(eye, sc->cam_pos_m, sizeof eye);
+	/* the optical axis leans tilt away from straight down, toward the
+	 * floor direction tilt_dir (CCW from +x) */
+	tgt[0] = eye[0] + sin(sc->tilt_rad) * cos(sc->tilt_dir_rad);
+	tgt[1] = eye[1] + sin(sc->tilt_rad) * sin(sc->tilt_dir_rad);
+	tgt[2] = eye[2] - cos(sc->tilt_rad);
+	wl_camera_look_at(&sc->cam, eye, tgt, sc->yaw_rad);
+	if (sc->water_depth_m > 0 && sc->cam_pos_m[2] <= sc->water_depth_m)
+		return bad(p, "position_m", "puts the camera under the water surface: raise it above water_depth_m");
+	sc->cam.water_depth_m = sc->water_depth_m;
+	sc->cam.water_index = sc->water_index;
+	return WL_OK;
+}
+
+static wl_status parse_timing(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "fps", "duration_s", "jitter", "time_base_den", NULL };
+	const cJSON *t = child(root, "timing");
+	static const cJSON empty;
+	wl_status st;
+	enter(p, "timing", 0);
+	if (!t)
+		t = &empty;
+	else
+		TRY(check_keys(p, t, keys));
+	TRY(num(p, t, "fps", 0, 30, 0.1, 1000, &sc->fps));
+	TRY(num(p, t, "duration_s", 0, 10, 0.001, 24 * 3600, &sc->duration_s));
+	TRY(num(p, t, "jitter", 0, 0, 0, 0.9, &sc->jitter));
+	TRY(inum(p, t, "time_base_den", 0, 90000, 1, 1000000, &sc->time_base_den));
+	if (wl_synth_frame_count(sc) > WL_SYNTH_MAX_FRAMES)
+		return bad(p, "duration_s", "gives more than 1000000 frames: shorten the clip");
+	/* the smallest interval must be at least one tick of the time base */
+	if ((1 - sc->jitter) / sc->fps * sc->time_base_den < 2)
+		return bad(p, "time_base_den", "is too coarse for this frame rate and jitter: raise it (90000)");
+	return WL_OK;
+}
+
+static wl_status parse_encoding(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "crf", "bit_rate_bps", "b_frames", "rotation_deg", NULL };
+	const cJSON *e = child(root, "encoding");
+	static const cJSON empty;
+	wl_status st;
+	enter(p, "encoding", 0);
+	if (!e)
+		e = &empty;
+	else
+		TRY(check_keys(p, e, keys));
+	TRY(inum(p, e, "crf", 0, 18, 1, 51, &sc->crf));
+	TRY(inum(p, e, "bit_rate_bps", 0, 0, 0, 1000000000, &sc->bit_rate_bps));
+	TRY(inum(p, e, "b_frames", 0, 0, 0, 16, &sc->b_frames));
+	TRY(inum(p, e, "rotation_deg", 0, 0, 0, 270, &sc->rotation_deg));
+	if (sc->rotation_deg % 90)
+		return bad(p, "rotation_deg", "must be 0, 90, 180 or 270");
+	return WL_OK;
+}
+
+static wl_status parse_effects(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "supersample", "noise_sigma", "blur_samples", "exposure_s",
+					    "glare_count", "glare_radius_px", "glare_gain", "glare_speed_pxps", NULL };
+	const cJSON *e = child(root, "effects");
+	static const cJSON empty;
+	wl_status st;
+	enter(p, "effects", 0);
+	if (!e)
+		e = &empty;
+	else
+		TRY(check_keys(p, e, keys));
+	TRY(inum(p, e, "supersample", 0, 3, 1, 8, &sc->supersample));
+	TRY(num(p, e, "noise_sigma", 0, 0, 0, 100, &sc->noise_sigma));
+	TRY(inum(p, e, "blur_samples", 0, 1, 1, 32, &sc->blur_samples));
+	TRY(num(p, e, "exposure_s", 0, 0, 0, 1, &sc->exposure_s));
+	TRY(inum(p, e, "glare_count", 0, 0, 0, 16, &sc->n_glare));
+	TRY(num(p, e, "glare_radius_px", 0, 40, 1, 2000, &sc->glare_radius_px));
+	TRY(num(p, e, "glare_gain", 0, 120, 0, 255, &sc->glare_gain));
+	TRY(num(p, e, "glare_speed_pxps", 0, 30, 0, 10000, &sc->glare_speed_pxps));
+	return WL_OK;
+}
+
+static wl_status parse_marker_kind(pctx *p, const cJSON *m, wl_synth_robot *r)
+{
+	static const char *const keys[] = { "type", "tag_id", "size_m", "offset_deg", "front_rgb", "back_rgb",
+					    "rgb", "cap_diameter_m", "offset_m", NULL };
+	static const uint8_t red[3] = { 220, 40, 40 }, blue[3] = { 40, 80, 220 };
+	const char *type;
+	double deg;
+	wl_status st;
+	size_t n = strlen(p->where);
+	snprintf(p->where + n, sizeof p->where - n, ".marker");
+	if (!m)
+		return bad(p, "type", "is missing (the robot's 'marker' object is missing)");
+	TRY(check_keys(p, m, keys));
+	if (!cJSON_IsString(child(m, "type")))
+		return bad(p, "type", "must be \"tag\", \"caps\" or \"cap\"");
+	type = child(m, "type")->valuestring;
+	if (strcmp(type, "tag") == 0) {
+		r->kind = WL_SYNTH_TAG;
+		TRY(inum(p, m, "tag_id", 1, 0, 0, 586, &r->tag_id));
+		TRY(num(p, m, "size_m", 0, 0.6 * r->diameter_m, 0.001, 100, &r->tag_size_m));
+		TRY(num(p, m, "offset_deg", 0, 0, -360, 360, &deg));
+		r->tag_offset_rad = deg * DEG;
+		if (r->tag_size_m * 10.0 / 8.0 > 1.5 * r->diameter_m)
+			return bad(p, "size_m", "makes the tag card (10/8 of size_m with its white border) wider than 1.5 disc diameters");
+	} else if (strcmp(type, "caps") == 0 || strcmp(type, "cap") == 0) {
+		int two = strcmp(type, "caps") == 0;
+		r->kind = two ? WL_SYNTH_CAPS : WL_SYNTH_CAP;
+		TRY(rgb(p, m, two ? "front_rgb" : "rgb", red, r->front_rgb));
+		TRY(rgb(p, m, "back_rgb", blue, r->back_rgb));
+		TRY(num(p, m, "cap_diameter_m", 0, 0.3 * r->diameter_m, 0.001, 100, &r->cap_diameter_m));
+		TRY(num(p, m, "offset_m", 0, two ? 0.25 * r->diameter_m : 0, 0, 100, &r->cap_offset_m));
+	} else {
+		return bad(p, "type", "must be \"tag\", \"caps\" or \"cap\"");
+	}
+	p->where[n] = 0;
+	return WL_OK;
+}
+
+static wl_status parse_path(pctx *p, const cJSON *q, wl_synth_robot *r, const wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "start_m", "heading_deg", "speed_mps", "curvature_1pm", "rest_s",
+					    "accel_s", "yaw_osc_deg", "yaw_osc_hz", "yaw_osc_phase_deg",
+					    "pivot_ahead_m", NULL };
+	wl_synth_path *w = &r->path;
+	double s[2], deg, ds[2] = { 0.5 * sc->tank_length_m, 0.5 * sc->tank_width_m };
+	wl_status st;
+	size_t n = strlen(p->where);
+	static const cJSON empty;
+	snprintf(p->where + n, sizeof p->where - n, ".path");
+	if (!q)
+		q = &empty;
+	else
+		TRY(check_keys(p, q, keys));
+	TRY(vec(p, q, "start_m", 2, ds, -1000, 1000, s));
+	w->x0_m = s[0];
+	w->y0_m = s[1];
+	TRY(num(p, q, "heading_deg", 0, 0, -3600, 3600, &deg));
+	w->heading0_rad = deg * DEG;
+	TRY(num(p, q, "speed_mps", 0, 0.1, 0, 100, &w->speed_mps));
+	TRY(num(p, q, "curvature_1pm", 0, 0, -1000, 1000, &w->curvature_1pm));
+	TRY(num(p, q, "rest_s", 0, 0, 0, 1e6, &w->rest_s));
+	TRY(num(p, q, "accel_s", 0, 0, 0, 1e6, &w->accel_s));
+	TRY(num(p, q, "yaw_osc_deg", 0, 0, 0, 90, &deg));
+	w->osc_amp_rad = deg * DEG;
+	TRY(num(p, q, "yaw_osc_hz", 0, 1, 0, 1000, &w->osc_freq_hz));
+	TRY(num(p, q, "yaw_osc_phase_deg", 0, 0, -360, 360, &deg));
+	w->osc_phase_rad = deg * DEG;
+	TRY(num(p, q, "pivot_ahead_m", 0, 0, -10, 10, &w->pivot_ahead_m));
+	p->where[n] = 0;
+	return WL_OK;
+}
+
+static wl_status parse_occlusions(pctx *p, const cJSON *a, wl_synth_robot *r)
+{
+	const cJSON *it;
+	int i = 0;
+	if (!a)
+		return WL_OK;
+	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) > WL_SYNTH_MAX_OCCL)
+		return bad(p, "occlusions", "must be an array of at most 16 [t0_s, t1_s] pairs");
+	cJSON_ArrayForEach(it, a)
+	{
+		const cJSON *x0 = cJSON_GetArrayItem(it, 0), *x1 = cJSON_GetArrayItem(it, 1);
+		if (!cJSON_IsArray(it) || cJSON_GetArraySize(it) != 2 || !cJSON_IsNumber(x0) || !cJSON_IsNumber(x1) ||
+		    !(x0->valuedouble <= x1->valuedouble))
+			return bad(p, "occlusions", "items must be [t0_s, t1_s] with t0_s <= t1_s");
+		r->occl_t0_s[i] = x0->valuedouble;
+		r->occl_t1_s[i] = x1->valuedouble;
+		i++;
+	}
+	r->n_occl = i;
+	return WL_OK;
+}
+
+static wl_status parse_robots(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "id", "diameter_m", "height_m", "disc_rgb", "marker", "path",
+					    "occlusions", NULL };
+	static const uint8_t disc_d[3] = { 235, 200, 40 };
+	const cJSON *a = child(root, "robots"), *o;
+	wl_status st;
+	int i = 0;
+	sc->n_robots = 0;
+	if (!a)
+		return WL_OK;
+	if (!cJSON_IsArray(a))
+		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'robots' must be an array of objects", p->name);
+	if (cJSON_GetArraySize(a) > WL_SYNTH_MAX_ROBOTS)
+		return wl_err_set(p->err, WL_ELIMIT, "%s: key 'robots': more than %d robots", p->name,
+				  WL_SYNTH_MAX_ROBOTS);
+	cJSON_ArrayForEach(o, a)
+	{
+		wl_synth_robot *r = &sc->robots[i];
+		enter(p, "robots[%d]", i);
+		TRY(check_keys(p, o, keys));
+		TRY(inum(p, o, "id", 0, i, 0, 1000000, &r->id));
+		TRY(num(p, o, "diameter_m", 0, 0.12, 0.005, 100, &r->diameter_m));
+		TRY(num(p, o, "height_m", 0, 0.05, 0, 100, &r->height_m));
+		TRY(rgb(p, o, "disc_rgb", disc_d, r->disc_rgb));
+		if (r->height_m >= sc->cam_pos_m[2] - 0.05)
+			return bad(p, "height_m", "puts the marker plane at or above the camera");
+		TRY(parse_marker_kind(p, child(o, "marker"), r));
+		TRY(parse_path(p, child(o, "path"), r, sc));
+		TRY(parse_occlusions(p, child(o, "occlusions"), r));
+		i++;
+	}
+	sc->n_robots = i;
+	return WL_OK;
+}
+
+static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = { "description", "seed", "tank", "water_depth_m", "water_index",
+					    "markers", "camera", "timing", "encoding", "effects", "robots",
+					    "camera_model", NULL }; /* camera_model: written by us, ignored on input */
+	double seed;
+	wl_status st;
+	p->where[0] = 0;
+	TRY(check_keys(p, root, keys));
+	snprintf(sc->description, sizeof sc->description, "%s", wl_json_string_or(root, "description", ""));
+	TRY(num(p, root, "seed", 0, 1, 0, 9007199254740992.0, &seed));
+	sc->seed = (uint64_t)seed;
+	TRY(num(p, root, "water_depth_m", 0, 0, 0, 100, &sc->water_depth_m));
+	TRY(num(p, root, "water_index", 0, WL_WATER_INDEX, 1, 3, &sc->water_index));
+	TRY(parse_tank(p, root, sc));
+	TRY(parse_markers(p, root, sc));
+	TRY(parse_camera(p, root, sc));
+	TRY(parse_timing(p, root, sc));
+	TRY(parse_encoding(p, root, sc));
+	TRY(parse_effects(p, root, sc));
+	TRY(parse_robots(p, root, sc));
+	return WL_OK;
+}
+
+wl_status wl_synth_parse(const char *name, const char *text, size_t len, wl_synth_scene *sc, wl_err *err)
+{
+	cJSON *root = NULL;
+	pctx p = { name, "", err };
+	wl_status st = wl_json_parse(name, text, len, &root, err);
+	if (st)
+		return st;
+	memset(sc, 0, sizeof *sc);
+	st = parse_root(&p, root, sc);
+	cJSON_Delete(root);
+	return st;
+}
+
+wl_status wl_synth_load(const char *path, wl_synth_scene *sc, wl_err *err)
+{
+	char *text = NULL;
+	size_t len = 0;
+	wl_status st = wl_read_file(path, WL_JSON_MAX_BYTES, &text, &len, err);
+	if (st)
+		return st;
+	st = wl_synth_parse(path, text, len, sc, err);
+	free(text);
+	return st;
+}
+
+/* ---- time and motion ---- */
+
+long wl_synth_frame_count(const wl_synth_scene *sc)
+{
+	/* frames at nominal times k/fps for k/fps < duration */
+	double n = ceil(sc->duration_s * sc->fps - 1e-9);
+	return n < 1 ? 1 : (long)n;
+}
+
+int64_t wl_synth_frame_pts(const wl_synth_scene *sc, long k)
+{
+	/* Jitter moves each frame off its nominal slot by up to jitter/2 of an
+	 * interval, uniformly; frame 0 stays at 0.  Consecutive times then
+	 * differ by between (1 - jitter) and (1 + jitter) intervals: strictly
+	 * increasing, and random access needs no history. */
+	double off = 0;
+	if (k > 0 && sc->jitter > 0) {
+		uint64_t h = synth_mix64(sc->seed ^ synth_mix64(0x6a09e667f3bcc909ull + (uint64_t)k));
+		off = (synth_unit(h) - 0.5) * sc->jitter;
+	}
+	return llround((k + off) / sc->fps * sc->time_base_den);
+}
+
+double wl_synth_frame_time(const wl_synth_scene *sc, long k)
+{
+	return (double)wl_synth_frame_pts(sc, k) / sc->time_base_den;
+}
+
+/* Distance travelled along the path and the path speed at time t:
+ * at rest until rest_s, then a linear speed ramp over accel_s to the cruise
+ * speed (constant acceleration), then constant speed. */
+static void path_s(const wl_synth_path *w, double t, double *s, double *v)
+{
+	double tau = t - w->rest_s, V = w->speed_mps, A = w->accel_s;
+	if (tau <= 0) {
+		*s = 0;
+		*v = 0;
+	} else if (tau < A) {
+		*s = 0.5 * V * tau * tau / A;
+		*v = V * tau / A;
+	} else {
+		*s = 0.5 * V * A + V * (tau - A);
+		*v = V;
+	}
+}
+
+static double wrap_pi(double a)
+{
+	a = fmod(a, 2 * M_PI);
+	if (a <= -M_PI)
+		a += 2 * M_PI;
+	else if (a > M_PI)
+		a -= 2 * M_PI;
+	return a;
+}
+
+void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *o)
+{
+	const wl_synth_robot *r = &sc->robots[ri];
+	const wl_synth_path *w = &r->path;
+	double s, v, psi, px, py, k = w->curvature_1pm, h, g;
+	path_s(w, t, &s, &v);
+	/* the path point: a straight line or a circular arc (constant curvature) */
+	psi = w->heading0_rad + k * s;
+	if (fabs(k) < 1e-12) {
+		px = w->x0_m + s * cos(w->heading0_rad);
+		py = w->y0_m + s * sin(w->heading0_rad);
+	} else {
+		px = w->x0_m + (sin(psi) - sin(w->heading0_rad)) / k;
+		py = w->y0_m - (cos(psi) - cos(w->heading0_rad)) / k;
+	}
+	/* body yaw oscillation about the path tangent, scaled by v / cruise so
+	 * that a robot at rest does not wag; the phase runs from the start of
+	 * motion */
+	g = w->speed_mps > 0 ? v / w->speed_mps : 0;
+	h = psi;
+	if (w->osc_amp_rad > 0 && t > w->rest_s)
+		h += g * w->osc_amp_rad * sin(2 * M_PI * w->osc_freq_hz * (t - w->rest_s) + w->osc_phase_rad);
+	/* the body turns about a pivot pivot_ahead_m ahead of the marker; the
+	 * pivot follows the path, so the marker sways sideways by about
+	 * -pivot * (h - psi) */
+	o->x_m = px - w->pivot_ahead_m * cos(h);
+	o->y_m = py - w->pivot_ahead_m * sin(h);
+	o->heading_rad = wrap_pi(h);
+	o->speed_mps = v;
+	o->visible = 1;
+	for (int i = 0; i < r->n_occl; i++)
+		if (t >= r->occl_t0_s[i] && t <= r->occl_t1_s[i])
+			o->visible = 0;
+}
+
+/* ---- saving ---- */
+
+static void add_rgb(cJSON *o, const char *key, const uint8_t c[3])
+{
+	double d[3] = { c[0], c[1], c[2] };
+	wl_json_add_numbers(o, key, d, 3);
+}
+
+static cJSON *scene_json(const wl_synth_scene *sc)
+{
+	cJSON *root = cJSON_CreateObject(), *o, *a, *m;
+	double d[9];
+	cJSON_AddStringToObject(root, "description", sc->description);
+	cJSON_AddNumberToObject(root, "seed", (double)sc->seed);
+	cJSON_AddNumberToObject(root, "water_depth_m", sc->water_depth_m);
+	cJSON_AddNumberToObject(root, "water_index", sc->water_index);
+	o = cJSON_AddObjectToObject(root, "tank");
+	d[0] = sc->tank_length_m;
+	d[1] = sc->tank_width_m;
+	wl_json_add_numbers(o, "size_m", d, 2);
+	cJSON_AddNumberToObject(o, "wall_m", sc->wall_m);
+	add_rgb(o, "floor_rgb", sc->floor_rgb);
+	add_rgb(o, "wall_rgb", sc->wall_rgb);
+	add_rgb(o, "surround_rgb", sc->surround_rgb);
+	a = cJSON_AddArrayToObject(root, "markers");
+	for (int i = 0; i < sc->n_markers; i++) {
+		const wl_synth_marker *k = &sc->markers[i];
+		m = cJSON_CreateObject();
+		cJSON_AddNumberToObject(m, "id", k->id);
+		d[0] = k->x_m;
+		d[1] = k->y_m;
+		wl_json_add_numbers(m, "center_m", d, 2);
+		cJSON_AddNumberToObject(m, "size_m", k->size_m);
+		cJSON_AddNumberToObject(m, "yaw_deg", k->yaw_rad / DEG);
+		cJSON_AddItemToArray(a, m);
+	}
+	o = cJSON_AddObjectToObject(root, "camera");
+	cJSON_AddNumberToObject(o, "width_px", sc->cam.width_px);
+	cJSON_AddNumberToObject(o, "height_px", sc->cam.height_px);
+	cJSON_AddNumberToObject(o, "focal_px", sc->cam.K[0]);
+	d[0] = sc->cam.K[2];
+	d[1] = sc->cam.K[5];
+	wl_json_add_numbers(o, "principal_px", d, 2);
+	cJSON_AddNumberToObject(o, "k1", sc->cam.dist[0]);
+	cJSON_AddNumberToObject(o, "k2", sc->cam.dist[1]);
+	cJSON_AddNumberToObject(o, "p1", sc->cam.dist[2]);
+	cJSON_AddNumberToObject(o, "p2", sc->cam.dist[3]);
+	cJSON_AddNumberToObject(o, "k3", sc->cam.dist[4]);
+	wl_json_add_numbers(o, "position_m", sc->cam_pos_m, 3);
+	cJSON_AddNumberToObject(o, "tilt_deg", sc->tilt_rad / DEG);
+	cJSON_AddNumberToObject(o, "tilt_dir_deg", sc->tilt_dir_rad / DEG);
+	cJSON_AddNumberToObject(o, "yaw_deg", sc->yaw_rad / DEG);
+	o = cJSON_AddObjectToObject(root, "timing");
+	cJSON_AddNumberToObject(o, "fps", sc->fps);
+	cJSON_AddNumberToObject(o, "duration_s", sc->duration_s);
+	cJSON_AddNumberToObject(o, "jitter", sc->jitter);
+	cJSON_AddNumberToObject(o, "time_base_den", sc->time_base_den);
+	o = cJSON_AddObjectToObject(root, "encoding");
+	cJSON_AddNumberToObject(o, "crf", sc->crf);
+	cJSON_AddNumberToObject(o, "bit_rate_bps", sc->bit_rate_bps);
+	cJSON_AddNumberToObject(o, "b_frames", sc->b_frames);
+	cJSON_AddNumberToObject(o, "rotation_deg", sc->rotation_deg);
+	o = cJSON_AddObjectToObject(root, "effects");
+	cJSON_AddNumberToObject(o, "supersample", sc->supersample);
+	cJSON_AddNumberToObject(o, "noise_sigma", sc->noise_sigma);
+	cJSON_AddNumberToObject(o, "blur_samples", sc->blur_samples);
+	cJSON_AddNumberToObject(o, "exposure_s", sc->exposure_s);
+	cJSON_AddNumberToObject(o, "glare_count", sc->n_glare);
+	cJSON_AddNumberToObject(o, "glare_radius_px", sc->glare_radius_px);
+	cJSON_AddNumberToObject(o, "glare_gain", sc->glare_gain);
+	cJSON_AddNumberToObject(o, "glare_speed_pxps", sc->glare_speed_pxps);
+	a = cJSON_AddArrayToObject(root, "robots");
+	for (int i = 0; i < sc->n_robots; i++) {
+		const wl_synth_robot *r = &sc->robots[i];
+		const wl_synth_path *w = &r->path;
+		cJSON *mk, *pa, *oc;
+		m = cJSON_CreateObject();
+		cJSON_AddNumberToObject(m, "id", r->id);
+		cJSON_AddNumberToObject(m, "diameter_m", r->diameter_m);
+		cJSON_AddNumberToObject(m, "height_m", r->height_m);
+		add_rgb(m, "disc_rgb", r->disc_rgb);
+		mk = cJSON_AddObjectToObject(m, "marker");
+		if (r->kind == WL_SYNTH_TAG) {
+			cJSON_AddStringToObject(mk, "type", "tag");
+			cJSON_AddNumberToObject(mk, "tag_id", r->tag_id);
+			cJSON_AddNumberToObject(mk, "size_m", r->tag_size_m);
+			cJSON_AddNumberToObject(mk, "offset_deg", r->tag_offset_rad / DEG);
+		} else {
+			cJSON_AddStringToObject(mk, "type", r->kind == WL_SYNTH_CAPS ? "caps" : "cap");
+			add_rgb(mk, r->kind == WL_SYNTH_CAPS ? "front_rgb" : "rgb", r->front_rgb);
+			if (r->kind == WL_SYNTH_CAPS)
+				add_rgb(mk, "back_rgb", r->back_rgb);
+			cJSON_AddNumberToObject(mk, "cap_diameter_m", r->cap_diameter_m);
+			cJSON_AddNumberToObject(mk, "offset_m", r->cap_offset_m);
+		}
+		pa = cJSON_AddObjectToObject(m, "path");
+		d[0] = w->x0_m;
+		d[1] = w->y0_m;
+		wl_json_add_numbers(pa, "start_m", d, 2);
+		cJSON_AddNumberToObject(pa, "heading_deg", w->heading0_rad / DEG);
+		cJSON_AddNumberToObject(pa, "speed_mps", w->speed_mps);
+		cJSON_AddNumberToObject(pa, "curvature_1pm", w->curvature_1pm);
+		cJSON_AddNumberToObject(pa, "rest_s", w->rest_s);
+		cJSON_AddNumberToObject(pa, "accel_s", w->accel_s);
+		cJSON_AddNumberToObject(pa, "yaw_osc_deg", w->osc_amp_rad / DEG);
+		cJSON_AddNumberToObject(pa, "yaw_osc_hz", w->osc_freq_hz);
+		cJSON_AddNumberToObject(pa, "yaw_osc_phase_deg", w->osc_phase_rad / DEG);
+		cJSON_AddNumberToObject(pa, "pivot_ahead_m", w->pivot_ahead_m);
+		oc = cJSON_AddArrayToObject(m, "occlusions");
+		for (int j = 0; j < r->n_occl; j++) {
+			d[0] = r->occl_t0_s[j];
+			d[1] = r->occl_t1_s[j];
+			cJSON *pr = cJSON_CreateArray();
+			cJSON_AddItemToArray(pr, cJSON_CreateNumber(d[0]));
+			cJSON_AddItemToArray(pr, cJSON_CreateNumber(d[1]));
+			cJSON_AddItemToArray(oc, pr);
+		}
+		cJSON_AddItemToArray(a, m);
+	}
+	/* the model actually rendered with (derived, not read back) */
+	o = cJSON_AddObjectToObject(root, "camera_model");
+	wl_json_add_numbers(o, "K", sc->cam.K, 9);
+	wl_json_add_numbers(o, "dist", sc->cam.dist, 5);
+	wl_json_add_numbers(o, "R", sc->cam.R, 9);
+	wl_json_add_numbers(o, "t_m", sc->cam.t, 3);
+	wl_camera_position(&sc->cam, d);
+	wl_json_add_numbers(o, "position_m", d, 3);
+	cJSON_AddNumberToObject(o, "hfov_deg", sc->hfov_rad / DEG);
+	cJSON_AddNumberToObject(o, "frames", (double)wl_synth_frame_count(sc));
+	cJSON_AddStringToObject(o, "pixels", "coded");
+	return root;
+}
+
+wl_status wl_synth_save_scene(const char *path, const wl_synth_scene *sc, wl_err *err)
+{
+	cJSON *root = scene_json(sc);
+	wl_status st;
+	if (!root)
+		return wl_err_set(err, WL_ENOMEM, "out of memory writing '%s'", path);
+	st = wl_json_save(path, root, err);
+	cJSON_Delete(root);
+	return st;
+}

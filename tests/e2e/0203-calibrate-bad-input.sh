@@ -1,0 +1,41 @@
+#!/usr/bin/env bash
+# calibrate refuses bad layouts and points files with an error naming the
+# file and the row, exits 1 and writes no CAL.json.
+set -euo pipefail
+: "${WAKELINE:?}" "${WL_SOURCE_DIR:?}" "${WL_TEST_TMP:?}"
+rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
+/usr/bin/python3 -c "import cv2, numpy as np; cv2.imwrite('blank.png', np.full((480, 640), 128, np.uint8))"
+
+expect_fail() { # name, expected text, args...
+  local name=$1 want=$2; shift 2
+  set +e; "$WAKELINE" calibrate blank.png "$@" -o "$name.json" > "$name.out" 2> "$name.err"; local rc=$?; set -e
+  cat "$name.err"
+  [ "$rc" -eq 1 ] || { echo "$name: exit $rc, wanted 1"; exit 1; }
+  grep -qF -- "$want" "$name.err" || { echo "$name: message lacks '$want'"; exit 1; }
+  [ ! -e "$name.json" ] || { echo "$name: CAL.json was written"; exit 1; }
+}
+
+printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n1,0,1\n' > dup.csv
+expect_fail dup "dup.csv:5: marker_id 1 appears again (first on line 3)" --layout dup.csv
+printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,abc\n3,0,1\n' > nonnum.csv
+expect_fail nonnum "nonnum.csv:4: column 'y_m': 'abc' is not a number" --layout nonnum.csv
+printf 'marker_id,x_m,y_m\nx3,0,0\n1,1,0\n2,1,1\n3,0,1\n' > badid.csv
+expect_fail badid "badid.csv:2: column 'marker_id': 'x3' is not a whole number" --layout badid.csv
+printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n' > three.csv
+expect_fail three "three.csv: 3 markers listed, calibration needs at least 4" --layout three.csv
+printf 'marker_id,x_m\n0,0\n' > nocol.csv
+expect_fail nocol "nocol.csv:1: the header has no column 'y_m'" --layout nocol.csv
+printf 'u_px,v_px,x_m,y_m\n10,10,0,0\n600,12,1,0\n610,400,1,1\n5,4o0,0,1\n' > pts.csv
+expect_fail pts "pts.csv:5: column 'v_px': '4o0' is not a number" --points pts.csv
+printf 'u_px,v_px,x_m,y_m\n10,10,0,0\n300,10,0.5,0\n600,10,1,0\n610,400,1,1\n' > coll.csv
+expect_fail coll "points 'line 2', 'line 3' and 'line 4' lie on one line" --points coll.csv --hfov-deg 60
+printf 'u_px,v_px,x_m,y_m\n10,10,0,0\n600,10,1,0\n610,400,1,1\n' > few.csv
+expect_fail few "few.csv: 3 points, calibration needs at least 4" --points few.csv
+# markers listed but not in the (blank) image
+printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n3,0,1\n' > ok.csv
+expect_fail missing "only 0 of the 4 layout markers were found" --layout ok.csv
+grep -q "marker 2 (layout line 4) was not found" missing.out
+# usage errors exit 2
+set +e; "$WAKELINE" calibrate blank.png -o x.json 2>/dev/null; rc=$?; set -e
+[ "$rc" -eq 2 ]
+echo "0203-calibrate-bad-input: ok"
