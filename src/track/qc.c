@@ -204,11 +204,30 @@ static void draw_outline(wl_qc *qc, cairo_t *cr)
 	cairo_stroke(cr);
 }
 
+/* digits as seven line segments: no font (and no font library state) needed */
+static void draw_number(cairo_t *cr, double x, double y, double hgt, int value)
+{
+	static const unsigned char seg[10] = {0x3f, 0x06, 0x5b, 0x4f, 0x66, 0x6d, 0x7d, 0x07, 0x7f, 0x6f};
+	/* segments a..g as (x0, y0, x1, y1) in a 1 x 2 cell, y down */
+	static const double sd[7][4] = {{0, 0, 1, 0}, {1, 0, 1, 1}, {1, 1, 1, 2}, {0, 2, 1, 2},
+					{0, 1, 0, 2}, {0, 0, 0, 1}, {0, 1, 1, 1}};
+	char buf[16];
+	double s = hgt / 2.0;
+	int n = snprintf(buf, sizeof buf, "%d", value < 0 ? 0 : value);
+	for (int i = 0; i < n; i++) {
+		unsigned m = seg[buf[i] - '0'];
+		double ox = x + i * 1.6 * s;
+		for (int k = 0; k < 7; k++)
+			if (m & (1u << k)) {
+				cairo_move_to(cr, ox + sd[k][0] * s, y + sd[k][1] * s);
+				cairo_line_to(cr, ox + sd[k][2] * s, y + sd[k][3] * s);
+			}
+	}
+	cairo_stroke(cr);
+}
+
 static void draw_poses(wl_qc *qc, cairo_t *cr, const wl_tracker *tr, const wl_track_obs *obs, int n)
 {
-	char label[32];
-	cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
-	cairo_set_font_size(cr, 18.0);
 	for (int i = 0; i < n; i++) {
 		const wl_track_obs *o = &obs[i];
 		double r, g, b, rad, u2, v2, x2, y2;
@@ -236,9 +255,7 @@ static void draw_poses(wl_qc *qc, cairo_t *cr, const wl_tracker *tr, const wl_tr
 				}
 			}
 		}
-		snprintf(label, sizeof label, "%d", o->id);
-		cairo_move_to(cr, o->u_px + rad + 4, o->v_px - rad);
-		cairo_show_text(cr, label);
+		draw_number(cr, o->u_px + rad + 4, o->v_px - rad - 16, 16.0, o->id);
 	}
 	(void)tr;
 }

@@ -3,8 +3,8 @@
  * per-frame robot poses on the robot's marker plane (RAW.csv).
  *
  * Two detection back ends sit behind one per-frame loop:
- *   tag     AprilTags (tag36h11 by default); tag id = robot id; heading from
- *           the tag's x axis (from its left edge to its right edge as printed).
+ *   tag     AprilTags (tag36h11 by default); tag id = robot id; heading is
+ *           the direction of the tag's printed "up" (bottom edge -> top edge).
  *   colour  one or two coloured caps per robot, thresholded in HSV (OpenCV's
  *           8-bit ranges: hue 0-179, saturation and value 0-255; lo > hi on
  *           hue wraps through red); heading from back cap to front cap, or

@@ -11,9 +11,10 @@
  * Poses: the tag's four refined corners are mapped through the camera model
  * (lens distortion removed on the points) onto the robot's marker plane;
  * the centre is where the diagonals cross on that plane (the projective
- * centre of the square), the heading is the direction of the tag's x axis
- * (the midpoint of its left edge to the midpoint of its right edge) in the
- * tank frame, plus the robot's mounting offset.
+ * centre of the square), the heading is the direction of the tag's "up"
+ * as printed (from the midpoint of its bottom edge to the midpoint of its
+ * top edge: the tag is mounted top toward the robot's front) in the tank
+ * frame, plus the robot's mounting offset.
  */
 #include "track/track.h"
 
@@ -252,8 +253,9 @@ static int tag_pose(const wl_tracker *tr, const robot *r, const wl_tagdet_hit *h
 	if (fabs(den) < 1e-15)
 		return 0;
 	s = ((P[1][0] - P[0][0]) * d2y - (P[1][1] - P[0][1]) * d2x) / den;
-	ax = 0.5 * (P[1][0] + P[2][0] - P[0][0] - P[3][0]);
-	ay = 0.5 * (P[1][1] + P[2][1] - P[0][1] - P[3][1]);
+	/* p0, p1 are the bottom corners, p2, p3 the top ones (tag y down) */
+	ax = 0.5 * (P[2][0] + P[3][0] - P[0][0] - P[1][0]);
+	ay = 0.5 * (P[2][1] + P[3][1] - P[0][1] - P[1][1]);
 	o->id = r->spec.id;
 	o->ok = 1;
 	o->u_px = h->c[0];

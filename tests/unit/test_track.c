@@ -17,7 +17,10 @@
 
 #include <cmocka.h>
 
+#include "calib/calib.h"
 #include "core/afile.h"
+#include "core/camera.h"
+#include "decode/decode.h"
 #include "track/track.h"
 
 #define PI 3.14159265358979323846
@@ -383,6 +386,368 @@ static void test_raw_writer(void **state)
 	assert_int_equal(access(path, F_OK), -1);
 }
 
+
+/* ---- the tracker on rendered sequences ---- */
+
+typedef struct {
+	int id, visible;
+	double x, y, h; /* tank metres on the marker plane, heading */
+} scene_robot;
+
+typedef struct {
+	wl_camera cam;   /* the camera whose pixels the calibration uses */
+	int rot;         /* 0: cam is in coded pixels; else displayed, clip turned by rot */
+	int w, h;        /* coded size */
+	double z;        /* marker plane */
+} scene;
+
+static unsigned char tag_cells[32][100];
+
+static int coded_to_plane(const scene *sc, double u, double v, double *x, double *y)
+{
+	if (sc->rot)
+		wl_orient_to_displayed(sc->rot, sc->w, sc->h, u, v, &u, &v);
+	return wl_camera_pixel_to_plane(&sc->cam, u, v, sc->z, x, y);
+}
+
+static void plane_to_coded(const scene *sc, double x, double y, double *u, double *v)
+{
+	double X[3] = {x, y, sc->z};
+	wl_camera_project(&sc->cam, X, u, v);
+	if (sc->rot)
+		wl_orient_to_coded(sc->rot, sc->w, sc->h, *u, *v, u, v);
+}
+
+/* 3x3-supersampled tags of side 0.05 m on white discs (0.074 m, just
+ * wider than the tag's diagonal), on a grey floor */
+#define BODY_DIAMETER_M 0.074
+static void render(const scene *sc, uint8_t *img, const scene_robot *rb, int n)
+{
+	const double side = 0.05, cell = side / 8.0, body = BODY_DIAMETER_M / 2;
+	memset(img, 90, (size_t)sc->w * sc->h);
+	for (int k = 0; k < n; k++) {
+		double u0 = 1e9, v0 = 1e9, u1 = -1e9, v1 = -1e9, c = cos(rb[k].h), s = sin(rb[k].h);
+		unsigned char *cells = tag_cells[rb[k].id];
+		if (!rb[k].visible)
+			continue;
+		for (int q = 0; q < 4; q++) {
+			double u, v;
+			plane_to_coded(sc, rb[k].x + (q & 1 ? body : -body), rb[k].y + (q & 2 ? body : -body), &u, &v);
+			u0 = fmin(u0, u); v0 = fmin(v0, v); u1 = fmax(u1, u); v1 = fmax(v1, v);
+		}
+		for (int y = (int)fmax(0, floor(v0) - 1); y <= (int)fmin(sc->h - 1, ceil(v1) + 1); y++)
+			for (int x = (int)fmax(0, floor(u0) - 1); x <= (int)fmin(sc->w - 1, ceil(u1) + 1); x++) {
+				int acc = 0;
+				for (int j = 0; j < 3; j++)
+					for (int i = 0; i < 3; i++) {
+						double X, Y, dx, dy, tx, ty;
+						int col, row, val = 90;
+						coded_to_plane(sc, x - 1.0 / 3 + i / 3.0, y - 1.0 / 3 + j / 3.0, &X, &Y);
+						dx = X - rb[k].x;
+						dy = Y - rb[k].y;
+						/* the tag's up along the heading, its right 90 degrees clockwise */
+						tx = s * dx - c * dy;
+						ty = c * dx + s * dy;
+						col = (int)floor(tx / cell + 5);
+						row = (int)floor(-ty / cell + 5);
+						if (col >= 0 && col < 10 && row >= 0 && row < 10)
+							val = cells[row * 10 + col] ? 225 : 25;
+						else if (hypot(dx, dy) < body)
+							val = 225;
+						else
+							val = img[(size_t)y * sc->w + x] == 90 ? 90 : img[(size_t)y * sc->w + x];
+						acc += val;
+					}
+				img[(size_t)y * sc->w + x] = (uint8_t)(acc / 9);
+			}
+	}
+}
+
+static void make_scene(scene *sc, int rot)
+{
+	double eye[3] = {0.7, 0.4, 2.0}, target[3] = {0.7, 0.4, 0.0};
+	int wd = 960, hd = 540; /* displayed size */
+	if (rot == 90 || rot == 270) {
+		sc->w = hd;
+		sc->h = wd;
+	} else {
+		sc->w = wd;
+		sc->h = hd;
+	}
+	wl_camera_init(&sc->cam, wd, hd, 1100, 1100, (wd - 1) / 2.0, (hd - 1) / 2.0);
+	sc->cam.dist[0] = -0.04; /* some barrel distortion, removed on the points */
+	wl_camera_look_at(&sc->cam, eye, target, 0.0);
+	sc->rot = rot;
+	sc->z = 0.25;
+	if (!rot) {
+		sc->cam.width_px = sc->w;
+		sc->cam.height_px = sc->h;
+	}
+}
+
+static void make_cal(const scene *sc, wl_calib *cal)
+{
+	wl_calib_init(cal);
+	cal->cam = sc->cam;
+	cal->displayed = sc->rot != 0;
+	cal->rotation_deg = sc->rot;
+	cal->plane_height_m = sc->z;
+}
+
+typedef void (*motion_fn)(int frame, scene_robot *rb, int *n);
+
+typedef struct {
+	int frames, n_ok[2];
+	double se_pos[2], se_head[2];
+	int lost_at[400][2];  /* 1 when lost, per frame and robot slot */
+	double x[400][2], y[400][2], hd[400][2];
+	int ids[2];
+} run_result;
+
+static void run_sequence(const scene *sc, wl_track_opts *o, motion_fn mf, int frames, run_result *res)
+{
+	wl_calib cal;
+	wl_tracker *tr = NULL;
+	uint8_t *img = malloc((size_t)sc->w * sc->h);
+	wl_err e;
+	assert_non_null(img);
+	for (int id = 0; id < 32; id++)
+		assert_int_equal(wl_tagdet_render_cells("tag36h11", id, tag_cells[id], 100), 10);
+	make_cal(sc, &cal);
+	memset(res, 0, sizeof *res);
+	assert_int_equal(wl_tracker_create(o, &cal, "test.json", sc->w, sc->h, sc->rot, &tr, &e), WL_OK);
+	for (int f = 0; f < frames; f++) {
+		scene_robot rb[2];
+		int n = 0, no;
+		const wl_track_obs *obs;
+		wl_track_image im = {.width_px = sc->w, .height_px = sc->h, .luma = img, .luma_stride = sc->w,
+				     .t_s = f / 30.0, .index = f};
+		mf(f, rb, &n);
+		render(sc, img, rb, n);
+		assert_int_equal(wl_tracker_frame(tr, &im, &obs, &no, &e), WL_OK);
+		for (int k = 0; k < n; k++) {
+			const wl_track_obs *ob = NULL;
+			double dh;
+			res->ids[k] = rb[k].id;
+			for (int i = 0; i < no; i++)
+				if (obs[i].id == rb[k].id)
+					ob = &obs[i];
+			res->lost_at[f][k] = !ob || !ob->ok;
+			if (!ob || !ob->ok)
+				continue;
+			res->x[f][k] = ob->x_m;
+			res->y[f][k] = ob->y_m;
+			res->hd[f][k] = ob->heading_rad;
+			res->n_ok[k]++;
+			res->se_pos[k] += pow(ob->x_m - rb[k].x, 2) + pow(ob->y_m - rb[k].y, 2);
+			dh = atan2(sin(ob->heading_rad - rb[k].h), cos(ob->heading_rad - rb[k].h));
+			res->se_head[k] += dh * dh;
+		}
+	}
+	res->frames = frames;
+	wl_tracker_destroy(tr);
+	free(img);
+}
+
+static void circle_ccw(int f, scene_robot *rb, int *n)
+{
+	double a = 2 * PI * f / 60.0; /* one turn in 2 s */
+	rb[0] = (scene_robot){3, 1, 0.7 + 0.3 * cos(a), 0.4 + 0.2 * sin(a), 0};
+	rb[0].h = atan2(0.2 * cos(a), -0.3 * sin(a)); /* along the path */
+	*n = 1;
+}
+
+static void check_ccw(int rot)
+{
+	scene sc;
+	wl_track_opts o;
+	run_result *r = malloc(sizeof *r);
+	double area = 0, turn = 0;
+	assert_non_null(r);
+	make_scene(&sc, rot);
+	wl_track_opts_init(&o);
+	run_sequence(&sc, &o, circle_ccw, 60, r);
+	printf("# rot %d: %d/60 ok, position RMSE %.3f mm, heading RMSE %.3f deg\n", rot, r->n_ok[0],
+	       1000 * sqrt(r->se_pos[0] / r->n_ok[0]), sqrt(r->se_head[0] / r->n_ok[0]) * 180 / PI);
+	assert_int_equal(r->n_ok[0], 60);
+	assert_true(1000 * sqrt(r->se_pos[0] / 60) < 1.0);      /* mm */
+	assert_true(sqrt(r->se_head[0] / 60) * 180 / PI < 0.5); /* degrees */
+	/* counter-clockwise in the tank: positive signed area (shoelace) and
+	 * heading increasing by one turn */
+	for (int f = 0; f < 60; f++) {
+		int g = (f + 1) % 60;
+		area += r->x[f][0] * r->y[g][0] - r->x[g][0] * r->y[f][0];
+		if (f < 59)
+			turn += atan2(sin(r->hd[f + 1][0] - r->hd[f][0]), cos(r->hd[f + 1][0] - r->hd[f][0]));
+	}
+	assert_true(area / 2 > 0.9 * PI * 0.3 * 0.2);
+	assert_true(turn > 0.9 * 2 * PI * 59 / 60 && turn < 1.1 * 2 * PI);
+	free(r);
+}
+
+static void test_tracker_ccw(void **state)
+{
+	(void)state;
+	check_ccw(0);
+}
+
+static void test_tracker_rotation_metadata(void **state)
+{
+	/* the same tank scene seen through a clip stored turned (coded pixels
+	 * differ, the calibration is in displayed pixels): same tank poses */
+	(void)state;
+	check_ccw(90);
+	check_ccw(180);
+	check_ccw(270);
+}
+
+static void pass_close(int f, scene_robot *rb, int *n)
+{
+	/* two robots on parallel lines 0.075 m apart (centre to centre, about
+	 * one 0.074 m body diameter: the bodies all but touch) passing each
+	 * other in opposite directions at 0.6 m/s */
+	double s = (f - 30) * 0.02;
+	rb[0] = (scene_robot){3, 1, 0.7 + s, 0.4 + 0.0375, 0};
+	rb[1] = (scene_robot){7, 1, 0.7 - s, 0.4 - 0.0375, PI};
+	*n = 2;
+}
+
+static void test_tracker_close_pass(void **state)
+{
+	scene sc;
+	wl_track_opts o;
+	run_result *r = malloc(sizeof *r);
+	(void)state;
+	assert_non_null(r);
+	make_scene(&sc, 0);
+	wl_track_opts_init(&o);
+	run_sequence(&sc, &o, pass_close, 61, r);
+	for (int k = 0; k < 2; k++) {
+		assert_int_equal(r->n_ok[k], 61);
+		/* each id stays on its own robot: an id swap would give ~70 mm */
+		assert_true(1000 * sqrt(r->se_pos[k] / 61) < 1.0);
+	}
+	free(r);
+}
+
+static void hidden_second(int f, scene_robot *rb, int *n)
+{
+	double a = 2 * PI * f / 90.0;
+	rb[0] = (scene_robot){5, f < 30 || f >= 60, 0.7 + 0.3 * cos(a), 0.4 + 0.2 * sin(a), 0};
+	rb[0].h = atan2(0.2 * cos(a), -0.3 * sin(a));
+	*n = 1;
+}
+
+static void test_tracker_occlusion(void **state)
+{
+	scene sc;
+	wl_track_opts o;
+	run_result *r = malloc(sizeof *r);
+	int back = -1;
+	(void)state;
+	assert_non_null(r);
+	make_scene(&sc, 0);
+	wl_track_opts_init(&o);
+	run_sequence(&sc, &o, hidden_second, 90, r);
+	for (int f = 0; f < 30; f++)
+		assert_false(r->lost_at[f][0]);
+	for (int f = 30; f < 60; f++)
+		assert_true(r->lost_at[f][0]); /* hidden for 1 s: lost, never invented */
+	for (int f = 60; f < 90 && back < 0; f++)
+		if (!r->lost_at[f][0])
+			back = f;
+	printf("# hidden frames 30-59, found again at frame %d\n", back);
+	assert_true(back >= 60 && back <= 62); /* within 3 frames of reappearing */
+	for (int f = back; f < 90; f++)
+		assert_false(r->lost_at[f][0]);
+	free(r);
+}
+
+static void at_edge(int f, scene_robot *rb, int *n)
+{
+	/* robot 9 slides out over the left frame edge; robot 4 is never shown */
+	scene sc;
+	double u, v;
+	make_scene(&sc, 0);
+	rb[0] = (scene_robot){9, 1, 0.0, 0.4, 0.3};
+	/* place it so that its centre moves from 40 px to -20 px */
+	for (double x = -0.5; x < 1.0; x += 0.0005) {
+		plane_to_coded(&sc, x, 0.4, &u, &v);
+		if (u >= 40 - 2 * f) {
+			rb[0].x = x;
+			break;
+		}
+	}
+	*n = 1;
+}
+
+static void test_tracker_edge_and_unseen(void **state)
+{
+	scene sc;
+	wl_track_opts o;
+	wl_calib cal;
+	wl_tracker *tr = NULL;
+	uint8_t *img;
+	int last_ok = -1;
+	(void)state;
+	make_scene(&sc, 0);
+	make_cal(&sc, &cal);
+	wl_track_opts_init(&o);
+	assert_int_equal(wl_track_parse_ids("4,9", &o, NULL), WL_OK);
+	img = malloc((size_t)sc.w * sc.h);
+	assert_non_null(img);
+	for (int id = 0; id < 32; id++)
+		wl_tagdet_render_cells("tag36h11", id, tag_cells[id], 100);
+	assert_int_equal(wl_tracker_create(&o, &cal, "t.json", sc.w, sc.h, 0, &tr, NULL), WL_OK);
+	for (int f = 0; f < 30; f++) {
+		scene_robot rb[1];
+		int n, no;
+		const wl_track_obs *obs;
+		wl_track_image im = {.width_px = sc.w, .height_px = sc.h, .luma = img, .luma_stride = sc.w,
+				     .t_s = f / 30.0, .index = f};
+		at_edge(f, rb, &n);
+		render(&sc, img, rb, n);
+		assert_int_equal(wl_tracker_frame(tr, &im, &obs, &no, NULL), WL_OK);
+		/* both listed robots on every frame, in id order; 4 is never seen */
+		assert_int_equal(no, 2);
+		assert_int_equal(obs[0].id, 4);
+		assert_false(obs[0].ok);
+		assert_true(isnan(obs[0].x_m));
+		assert_int_equal(obs[1].id, 9);
+		if (obs[1].ok) {
+			last_ok = f;
+			/* accepted only while the whole tag is inside the frame */
+			assert_true(obs[1].u_px - 0.5 * obs[1].size_px > 2.0);
+		}
+	}
+	assert_true(last_ok >= 0 && last_ok < 29);
+	assert_true(wl_tracker_stats(tr)->rejected_edge > 0);
+	wl_tracker_destroy(tr);
+	free(img);
+}
+
+static void test_tracker_calibration_mismatch(void **state)
+{
+	scene sc;
+	wl_track_opts o;
+	wl_calib cal;
+	wl_tracker *tr = NULL;
+	wl_err e;
+	(void)state;
+	make_scene(&sc, 90);
+	make_cal(&sc, &cal);
+	wl_track_opts_init(&o);
+	/* displayed calibration of a clip turned 90 degrees, used on one turned 270 */
+	assert_int_equal(wl_tracker_create(&o, &cal, "cal.json", sc.w, sc.h, 270, &tr, &e), WL_ECALIB);
+	assert_null(tr);
+	assert_non_null(strstr(e.msg, "cal.json"));
+	/* a calibration of another image size */
+	make_scene(&sc, 0);
+	make_cal(&sc, &cal);
+	assert_int_equal(wl_tracker_create(&o, &cal, "cal.json", 1920, 1080, 0, &tr, &e), WL_ECALIB);
+	assert_non_null(strstr(e.msg, "1920"));
+}
+
 static int setup_dir(void **state)
 {
 	(void)state;
@@ -409,6 +774,12 @@ int main(void)
 		cmocka_unit_test(test_hsv_stats),
 		cmocka_unit_test(test_ids_and_robots),
 		cmocka_unit_test(test_raw_writer),
+		cmocka_unit_test(test_tracker_ccw),
+		cmocka_unit_test(test_tracker_rotation_metadata),
+		cmocka_unit_test(test_tracker_close_pass),
+		cmocka_unit_test(test_tracker_occlusion),
+		cmocka_unit_test(test_tracker_edge_and_unseen),
+		cmocka_unit_test(test_tracker_calibration_mismatch),
 	};
 	return cmocka_run_group_tests(tests, setup_dir, teardown_dir);
 }
