@@ -21,7 +21,7 @@ void wl_track_opts_init(wl_track_opts *o)
 	o->plane_height_m = NAN;
 	o->rescan_s = 2.0;
 	o->quad_decimate = 2.0f;
-	o->window_decimate = 1.0f;
+	o->window_decimate = 0.0f; /* auto: by tag size */
 	o->quad_sigma = 0.0f;
 	o->decode_sharpening = 0.25;
 	o->max_hamming = 0;

@@ -4,6 +4,11 @@
  * calling thread tracks them and streams RAW.csv; decoding and tracking
  * overlap.  Memory is flat: queue_frames buffers, one first-frame copy for
  * the trail picture, and trails of bounded length.
+ *
+ * In tag mode, once every robot is tracked, the decoder thread copies only
+ * the region the tracker asks for (its windows, grown by the motion over
+ * the queue's length: wl_tracker_roi); whole frames again when a full-frame
+ * search may be needed.
  */
 #define _POSIX_C_SOURCE 200809L
 #include "track/track.h"
@@ -22,6 +27,7 @@ typedef struct {
 	double t_s;
 	int64_t index;
 	int corrupt;
+	int roi[4]; /* the part copied; roi[2] == 0: all */
 } slot;
 
 typedef struct {
@@ -35,12 +41,13 @@ typedef struct {
 	wl_decoder *dec;
 	int want_rgb;
 	int64_t damaged;
+	int roi[4]; /* what to copy next (set by the tracking thread) */
 } queue;
 
-static void copy_plane(uint8_t *dst, const uint8_t *src, int stride, int row_bytes, int h)
+static void copy_plane(uint8_t *dst, int dst_stride, const uint8_t *src, int stride, int row_bytes, int h)
 {
 	for (int y = 0; y < h; y++)
-		memcpy(dst + (size_t)y * row_bytes, src + (size_t)y * stride, (size_t)row_bytes);
+		memcpy(dst + (size_t)y * dst_stride, src + (size_t)y * stride, (size_t)row_bytes);
 }
 
 static void *decode_main(void *arg)
@@ -59,6 +66,7 @@ static void *decode_main(void *arg)
 			break;
 		}
 		s = &q->slots[(q->head + q->count) % q->n];
+		memcpy(s->roi, q->roi, sizeof s->roi);
 		pthread_mutex_unlock(&q->m);
 		wl_err_clear(&e);
 		st = wl_decoder_next(q->dec, &f, &e);
@@ -75,9 +83,16 @@ static void *decode_main(void *arg)
 			pthread_mutex_unlock(&q->m);
 			break;
 		}
-		copy_plane(s->luma, f->luma, f->luma_stride, s->w, s->h);
+		if (s->roi[2] > 0) {
+			/* the region only, at its place in the buffer (stride w) */
+			int x0 = s->roi[0], y0 = s->roi[1];
+			copy_plane(s->luma + (size_t)y0 * s->w + x0, s->w, f->luma + (size_t)y0 * f->luma_stride + x0,
+				   f->luma_stride, s->roi[2], s->roi[3]);
+		} else {
+			copy_plane(s->luma, s->w, f->luma, f->luma_stride, s->w, s->h);
+		}
 		if (q->want_rgb)
-			copy_plane(s->rgb, f->rgb, f->rgb_stride, 3 * s->w, s->h);
+			copy_plane(s->rgb, 3 * s->w, f->rgb, f->rgb_stride, 3 * s->w, s->h);
 		s->t_s = f->t_s;
 		s->index = f->index;
 		s->corrupt = f->corrupt;
@@ -157,6 +172,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	queue q;
 	pthread_t th;
 	int started = 0, want_rgb, nq;
+	double lookahead_s;
 	const wl_video_info *info;
 	wl_status st;
 	memset(sum, 0, sizeof *sum);
@@ -182,6 +198,8 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	q.dec = dec;
 	q.want_rgb = want_rgb;
+	/* frames already queued (or being decoded) when a new region is set */
+	lookahead_s = (nq + 2) / (info->fps_hint > 0 ? info->fps_hint : 30.0);
 	if (pthread_create(&th, NULL, decode_main, &q) != 0) {
 		st = wl_err_set(err, WL_ENOMEM, "cannot start the decoder thread");
 		goto out;
@@ -202,6 +220,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		img.rgb_stride = 3 * s->w;
 		img.t_s = s->t_s;
 		img.index = s->index;
+		memcpy(img.roi, s->roi, sizeof img.roi);
 		if ((st = wl_tracker_frame(tr, &img, &obs, &n, err)) != WL_OK)
 			goto out;
 		wl_raw_put(raw, s->t_s, s->index, obs, n);
@@ -213,6 +232,14 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 			sum->ok_rows += obs[i].ok;
 		if (n > sum->n_robots)
 			sum->n_robots = n;
+		if (!want_rgb) {
+			int roi[4];
+			if (wl_tracker_roi(tr, lookahead_s, roi))
+				roi[2] = roi[3] = 0;
+			pthread_mutex_lock(&q.m);
+			memcpy(q.roi, roi, sizeof roi);
+			pthread_mutex_unlock(&q.m);
+		}
 		queue_pop(&q);
 		if (ro->progress)
 			ro->progress(ro->progress_ctx, sum->frames, img.t_s, info->duration_s);

@@ -61,7 +61,7 @@ typedef struct {
 	double rescan_s;           /* full-frame search period (new robots) */
 	/* AprilTag settings */
 	float quad_decimate;       /* full-frame searches (default 2) */
-	float window_decimate;     /* window searches (default 1: small tags) */
+	float window_decimate;     /* window searches; 0 (default): 2 for tags of >= 32 px, else 1 */
 	float quad_sigma;          /* Gaussian blur before segmentation, px */
 	double decode_sharpening;  /* AprilTag's default 0.25 */
 	int max_hamming;           /* corrected bits accepted (0 or 1) */
@@ -117,6 +117,9 @@ typedef struct {
 	int rgb_stride;
 	double t_s;
 	int64_t index;
+	/* the part of the frame that holds this frame's pixels (x, y, w, h);
+	 * w == 0: all of it.  See wl_tracker_roi. */
+	int roi[4];
 } wl_track_image;
 
 typedef struct {
@@ -137,6 +140,14 @@ wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, cons
  * robot order; the array belongs to the tracker. */
 wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_track_obs **obs, int *n,
 			   wl_err *err);
+
+/* The region that frames lookahead_s seconds ahead must hold for the
+ * searches the tracker expects to make (the union of the robots' windows,
+ * grown by their motion over lookahead_s), so that a producer may copy only
+ * that.  Returns 1 (and the whole frame) when a full-frame search may be
+ * needed by then: at the start, when a robot is lost or not yet found, or
+ * when a rescan falls due. */
+int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4]);
 
 const wl_track_stats *wl_tracker_stats(const wl_tracker *tr);
 void wl_tracker_destroy(wl_tracker *tr);

@@ -181,19 +181,29 @@ static double plane_of(const wl_tracker *tr, const robot *r)
 	return isnan(r->spec.plane_height_m) ? tr->plane_default_m : r->spec.plane_height_m;
 }
 
-/* the window to search for r this frame, clamped to the frame */
-static void window_of(const wl_tracker *tr, const robot *r, double t, int win[4])
+/* the window to search for r at time t, grown by `extra` pixels and
+ * clamped to the frame and to the region `roi` (NULL or w == 0: all) */
+static void window_at(const wl_tracker *tr, const robot *r, double t, double extra, const int *roi, int win[4])
 {
 	double dt = t - r->t_last, dtf = t - tr->t_prev;
 	double pu = r->u + r->vu * dt, pv = r->v + r->vv * dt;
 	double speed = sqrt(r->vu * r->vu + r->vv * r->vv) * (dtf > 0 ? dtf : 0.04);
-	double half = 0.9 * r->size_px + 2.0 * speed + 0.75 * r->size_px * r->misses + 12.0;
+	/* 0.9 side: a tag turned 45 degrees with its white border, plus the
+	 * prediction's error (twice a frame's motion and 8 px) */
+	double half = 0.9 * r->size_px + 2.0 * speed + 0.75 * r->size_px * r->misses + 8.0 + extra;
 	int x0 = (int)floor(pu - half), y0 = (int)floor(pv - half);
 	int x1 = (int)ceil(pu + half), y1 = (int)ceil(pv + half);
-	if (x0 < 0) x0 = 0;
-	if (y0 < 0) y0 = 0;
-	if (x1 > tr->w) x1 = tr->w;
-	if (y1 > tr->h) y1 = tr->h;
+	int rx0 = 0, ry0 = 0, rx1 = tr->w, ry1 = tr->h;
+	if (roi && roi[2] > 0) {
+		rx0 = roi[0];
+		ry0 = roi[1];
+		rx1 = roi[0] + roi[2];
+		ry1 = roi[1] + roi[3];
+	}
+	if (x0 < rx0) x0 = rx0;
+	if (y0 < ry0) y0 = ry0;
+	if (x1 > rx1) x1 = rx1;
+	if (y1 > ry1) y1 = ry1;
 	win[0] = x0;
 	win[1] = y0;
 	win[2] = x1 > x0 ? x1 - x0 : 0;
@@ -219,6 +229,15 @@ static void found(wl_tracker *tr, robot *r, double t, double u, double v, double
 }
 
 /* ---- tag back end ---- */
+
+/* decimation inside a window: 2 halves the cost and still finds tags of
+ * 19 px and more (test_track measures it); 32 px leaves a margin for blur */
+static float window_decimate(const wl_tracker *tr, const robot *r)
+{
+	if (tr->o.window_decimate >= 1.0f)
+		return tr->o.window_decimate;
+	return r->size_px >= 32.0 ? 2.0f : 1.0f;
+}
 
 static int hit_ok(wl_tracker *tr, const wl_tagdet_hit *h)
 {
@@ -296,13 +315,13 @@ static void detect_tags(wl_tracker *tr, const wl_track_image *img, int full)
 		tr->st.full_scans++;
 		take_hits(tr, nh, img->t_s);
 	}
-	wl_tagdet_set(tr->det, tr->o.window_decimate, tr->o.quad_sigma, tr->o.decode_sharpening);
 	for (int i = 0; i < tr->n; i++) {
 		robot *r = &tr->r[i];
 		int win[4];
 		if (r->found || !r->seen || r->misses >= tr->o.lost_after)
 			continue;
-		window_of(tr, r, img->t_s, win);
+		window_at(tr, r, img->t_s, 0.0, img->roi, win);
+		wl_tagdet_set(tr->det, window_decimate(tr, r), tr->o.quad_sigma, tr->o.decode_sharpening);
 		nh = wl_tagdet_detect(tr->det, img->luma, img->luma_stride, win[0], win[1], win[2], win[3], tr->hits,
 				      MAX_HITS);
 		tr->st.window_scans++;
@@ -346,7 +365,7 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 	double fx, fy, bx, by, u, v, size;
 	if (!full) {
 		double dt = img->t_s - r->t_last;
-		window_of(tr, r, img->t_s, win);
+		window_at(tr, r, img->t_s, 0.0, img->roi, win);
 		pu = r->u + r->vu * dt;
 		pv = r->v + r->vv * dt;
 		tr->st.window_scans++;
@@ -445,6 +464,40 @@ static int need_full(const wl_tracker *tr, double t)
 	return 0;
 }
 
+int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4])
+{
+	int x0 = tr->w, y0 = tr->h, x1 = 0, y1 = 0;
+	roi[0] = roi[1] = 0;
+	roi[2] = tr->w;
+	roi[3] = tr->h;
+	if (tr->o.mode != WL_TRACK_TAG || !tr->any_frame || tr->n == 0)
+		return 1;
+	/* a full-frame search may fall due before then */
+	for (double dt = 0; dt <= lookahead_s + 1e-9; dt += lookahead_s > 0 ? lookahead_s / 4 : 1)
+		if (need_full(tr, tr->t_prev + dt))
+			return 1;
+	for (int i = 0; i < tr->n; i++) {
+		const robot *r = &tr->r[i];
+		double speed = sqrt(r->vu * r->vu + r->vv * r->vv);
+		int win[4];
+		if (!r->seen || r->misses >= tr->o.lost_after)
+			return 1;
+		/* the window it would get then, with room for one more miss */
+		window_at(tr, r, tr->t_prev + lookahead_s, speed * lookahead_s + 0.75 * r->size_px, NULL, win);
+		if (win[0] < x0) x0 = win[0];
+		if (win[1] < y0) y0 = win[1];
+		if (win[0] + win[2] > x1) x1 = win[0] + win[2];
+		if (win[1] + win[3] > y1) y1 = win[1] + win[3];
+	}
+	if (x1 <= x0 || y1 <= y0)
+		return 1;
+	roi[0] = x0;
+	roi[1] = y0;
+	roi[2] = x1 - x0;
+	roi[3] = y1 - y0;
+	return 0;
+}
+
 wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_track_obs **obs, int *n,
 			   wl_err *err)
 {
@@ -454,7 +507,9 @@ wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_t
 				  (long long)img->index, img->width_px, img->height_px, tr->w, tr->h);
 	if (tr->o.mode == WL_TRACK_COLOUR && !img->rgb)
 		return wl_err_set(err, WL_EINVAL, "frame %lld: colour mode needs RGB frames", (long long)img->index);
-	full = need_full(tr, img->t_s);
+	/* a frame holding only part of the picture cannot be searched whole:
+	 * the search waits for a full frame (the producer was asked for one) */
+	full = img->roi[2] == 0 && need_full(tr, img->t_s);
 	for (int i = 0; i < tr->n; i++)
 		tr->r[i].found = 0;
 	if (tr->o.mode == WL_TRACK_TAG)

@@ -22,5 +22,6 @@ make_cal clip.scene.json cal.json 0.25
 n_truth=$(($(wc -l < clip.truth.csv) - 1))
 n_raw=$(($(wc -l < raw.csv) - 1))
 [ "$n_truth" -eq "$n_raw" ] || fail "raw.csv has $n_raw rows, the clip $n_truth frames"
-compare raw.csv clip.truth.csv --pos-mm 2 --ok 0.99 --hidden 2:1.5:2.5 --found-within 3
+# (frames between reappearing and being found count as not ok: hence 0.97)
+compare raw.csv clip.truth.csv --pos-mm 2 --ok 0.97 --hidden 2:1.5:2.5 --found-within 3
 echo "ok"
