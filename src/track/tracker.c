@@ -478,12 +478,12 @@ int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4])
 			return 1;
 	for (int i = 0; i < tr->n; i++) {
 		const robot *r = &tr->r[i];
-		double speed = sqrt(r->vu * r->vu + r->vv * r->vv);
 		int win[4];
 		if (!r->seen || r->misses >= tr->o.lost_after)
 			return 1;
-		/* the window it would get then, with room for one more miss */
-		window_at(tr, r, tr->t_prev + lookahead_s, speed * lookahead_s + 0.75 * r->size_px, NULL, win);
+		/* the window it would get then (its motion term covers the frames
+		 * in between), with room for one more miss */
+		window_at(tr, r, tr->t_prev + lookahead_s, 0.75 * r->size_px, NULL, win);
 		if (win[0] < x0) x0 = win[0];
 		if (win[1] < y0) y0 = win[1];
 		if (win[0] + win[2] > x1) x1 = win[0] + win[2];
@@ -509,7 +509,7 @@ wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_t
 		return wl_err_set(err, WL_EINVAL, "frame %lld: colour mode needs RGB frames", (long long)img->index);
 	/* a frame holding only part of the picture cannot be searched whole:
 	 * the search waits for a full frame (the producer was asked for one) */
-	full = img->roi[2] == 0 && need_full(tr, img->t_s);
+	full = (img->roi[2] == 0 || (img->roi[2] >= tr->w && img->roi[3] >= tr->h)) && need_full(tr, img->t_s);
 	for (int i = 0; i < tr->n; i++)
 		tr->r[i].found = 0;
 	if (tr->o.mode == WL_TRACK_TAG)

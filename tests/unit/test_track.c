@@ -726,6 +726,73 @@ static void test_tracker_edge_and_unseen(void **state)
 	free(img);
 }
 
+
+static void test_tracker_roi(void **state)
+{
+	/* frames holding only the region wl_tracker_roi asked for (the rest
+	 * stale: a decoy tag of the same id outside it): every frame tracked,
+	 * no full-frame search after the first, the decoy never seen */
+	scene sc;
+	wl_track_opts o;
+	wl_calib cal;
+	wl_tracker *tr = NULL;
+	uint8_t *img, *stale;
+	int roi[4] = {0, 0, 0, 0}, partial = 0;
+	double se = 0, area = 0;
+	(void)state;
+	make_scene(&sc, 0);
+	make_cal(&sc, &cal);
+	wl_track_opts_init(&o);
+	assert_int_equal(wl_track_parse_ids("3", &o, NULL), WL_OK);
+	img = malloc((size_t)sc.w * sc.h);
+	stale = malloc((size_t)sc.w * sc.h);
+	assert_true(img && stale);
+	for (int id = 0; id < 32; id++)
+		wl_tagdet_render_cells("tag36h11", id, tag_cells[id], 100);
+	{
+		scene_robot decoy = {3, 1, 0.2, 0.75, 1.0};
+		render(&sc, stale, &decoy, 1);
+	}
+	assert_int_equal(wl_tracker_create(&o, &cal, "t.json", sc.w, sc.h, 0, &tr, NULL), WL_OK);
+	assert_int_equal(wl_tracker_roi(tr, 0.1, roi), 1); /* nothing known yet: whole frames */
+	assert_true(roi[2] == sc.w && roi[3] == sc.h);
+	for (int f = 0; f < 60; f++) {
+		scene_robot rb[1];
+		int n, no;
+		const wl_track_obs *obs;
+		wl_track_image im = {.width_px = sc.w, .height_px = sc.h, .luma = img, .luma_stride = sc.w,
+				     .t_s = f / 30.0, .index = f};
+		circle_ccw(f, rb, &n);
+		render(&sc, img, rb, n);
+		if (roi[2] > 0) {
+			/* outside the region: the stale picture with the decoy */
+			for (int y = 0; y < sc.h; y++)
+				for (int x = 0; x < sc.w; x++)
+					if (x < roi[0] || x >= roi[0] + roi[2] || y < roi[1] || y >= roi[1] + roi[3])
+						img[(size_t)y * sc.w + x] = stale[(size_t)y * sc.w + x];
+			memcpy(im.roi, roi, sizeof roi);
+			partial++;
+		}
+		assert_int_equal(wl_tracker_frame(tr, &im, &obs, &no, NULL), WL_OK);
+		assert_int_equal(no, 1);
+		assert_true(obs[0].ok);
+		se += pow(obs[0].x_m - rb[0].x, 2) + pow(obs[0].y_m - rb[0].y, 2);
+		/* the next frames come 4 frames late at most */
+		if (wl_tracker_roi(tr, 5 / 30.0, roi))
+			roi[2] = roi[3] = 0;
+		else
+			area += (double)roi[2] * roi[3] / ((double)sc.w * sc.h);
+	}
+	printf("# region copied: %.1f %% of the frame on average (robot at 0.8 m/s)\n", 100 * area / partial);
+	assert_true(partial >= 55);
+	assert_true(area / partial < 0.5);
+	assert_int_equal(wl_tracker_stats(tr)->full_scans, 1);
+	assert_true(1000 * sqrt(se / 60) < 1.0);
+	wl_tracker_destroy(tr);
+	free(img);
+	free(stale);
+}
+
 static void test_tracker_calibration_mismatch(void **state)
 {
 	scene sc;
@@ -779,6 +846,7 @@ int main(void)
 		cmocka_unit_test(test_tracker_close_pass),
 		cmocka_unit_test(test_tracker_occlusion),
 		cmocka_unit_test(test_tracker_edge_and_unseen),
+		cmocka_unit_test(test_tracker_roi),
 		cmocka_unit_test(test_tracker_calibration_mismatch),
 	};
 	return cmocka_run_group_tests(tests, setup_dir, teardown_dir);
