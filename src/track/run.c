@@ -267,6 +267,10 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		snprintf(sum->warning, sizeof sum->warning,
 			 "%lld frames were flagged as damaged by the decoder; their poses may be off",
 			 (long long)q.damaged);
+	else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8)
+		snprintf(sum->warning, sizeof sum->warning,
+			 "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
+			 ro->clip, info->bit_depth);
 out:
 	if (started) {
 		queue_stop(&q);
