@@ -40,9 +40,8 @@ size_t wl_ticks_linear(double lo, double hi, size_t max_ticks, double *out, size
 		out[0] = lo;
 		return 1;
 	}
-	/* max_ticks ticks leave max_ticks - 1 gaps; grow the step until the
-	 * count fits (the 1-2-5 rounding may leave one too many) */
-	step = nice_step(span / (double)(max_ticks - 1));
+	/* the densest 1-2-5 step whose ticks fit: start below and grow */
+	step = nice_step(span / (double)(2 * max_ticks));
 	for (;;) {
 		k0 = (long)ceil(lo / step - 1e-9);
 		k1 = (long)floor(hi / step + 1e-9);
