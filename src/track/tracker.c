@@ -19,6 +19,7 @@
 #include "track/track.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -94,13 +95,25 @@ static robot *add_robot(wl_tracker *tr, const wl_robot_spec *spec)
 	return r;
 }
 
+/* A tag the calibration used as a floor marker is part of the tank, not a
+ * robot: it is never added unless the user lists it (--ids, ROBOTS.csv). */
+static int is_floor_marker(const wl_tracker *tr, int id)
+{
+	char name[16];
+	snprintf(name, sizeof name, "%d", id);
+	for (int i = 0; i < tr->cal.n_points; i++)
+		if (strcmp(tr->cal.points[i].id, name) == 0)
+			return 1;
+	return 0;
+}
+
 static robot *robot_by_id(wl_tracker *tr, int id, int create)
 {
 	wl_robot_spec spec;
 	for (int i = 0; i < tr->n; i++)
 		if (tr->r[i].spec.id == id)
 			return &tr->r[i];
-	if (!create || tr->o.restrict_ids)
+	if (!create || tr->o.restrict_ids || is_floor_marker(tr, id))
 		return NULL;
 	memset(&spec, 0, sizeof spec);
 	spec.id = id;
