@@ -9,16 +9,16 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
 	wl_err err;
-	wl_raw *raw = NULL;
+	wl_clean_raw *raw = NULL;
 	wl_clean_params p;
 	wl_clean_result res;
 	if (size > 20000)
 		return 0;
-	if (wl_raw_read_mem("RAW.csv", (const char *)data, size, &raw, &err) != WL_OK)
+	if (wl_clean_raw_read_mem("RAW.csv", (const char *)data, size, &raw, &err) != WL_OK)
 		return 0;
 	wl_clean_params_init(&p);
 	(void)wl_clean_run(raw, &p, &res, &err);
 	wl_clean_result_release(&res);
-	wl_raw_destroy(raw);
+	wl_clean_raw_destroy(raw);
 	return 0;
 }
