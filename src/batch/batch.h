@@ -47,7 +47,7 @@ typedef struct {
 typedef struct {
 	char *path;
 	size_t ncols;
-	char **cols;               /* every column, `clip` included */
+	char **cols;                /* every column, `clip` included */
 	int c_clip, c_cal, c_plane; /* column indices, -1 when absent */
 	size_t nrows;
 	wl_manifest_row *rows;
@@ -91,12 +91,12 @@ char *wl_batch_clip_name(const char *rel, char *buf, size_t cap);
 typedef void (*wl_batch_progress_fn)(void *pctx, long frames_done, long frames_total);
 
 typedef struct {
-	const char *clip_path;    /* the video file (clip folder + rel) */
-	const char *clip_rel;     /* relative to the clip folder */
-	const char *out_dir;      /* the clip's output folder; exists */
-	const char *cal_path;     /* the manifest's `cal` or the batch's */
-	double plane_height_m;    /* the manifest's plane_height_m, NaN when not given */
-	size_t nparams;           /* manifest columns other than clip */
+	const char *clip_path; /* the video file (clip folder + rel) */
+	const char *clip_rel;  /* relative to the clip folder */
+	const char *out_dir;   /* the clip's output folder; exists */
+	const char *cal_path;  /* the manifest's `cal` or the batch's */
+	double plane_height_m; /* the manifest's plane_height_m, NaN when not given */
+	size_t nparams;        /* manifest columns other than clip */
 	const char *const *param_names;
 	const char *const *param_values;
 	wl_batch_progress_fn progress;
@@ -119,26 +119,26 @@ typedef enum {
 
 typedef struct {
 	wl_batch_ev_kind kind;
-	const char *clip;     /* relative path, or NULL */
-	const char *msg;      /* for FAIL and WARN */
-	size_t finished;      /* clips done, skipped or failed so far */
-	size_t total;         /* clips of this run */
+	const char *clip; /* relative path, or NULL */
+	const char *msg;  /* for FAIL and WARN */
+	size_t finished;  /* clips done, skipped or failed so far */
+	size_t total;     /* clips of this run */
 	size_t failed;
 	size_t running;
-	double fps;           /* frames per second over all workers since start */
-	double eta_s;         /* estimated time left, NaN when unknown */
+	double fps;   /* frames per second over all workers since start */
+	double eta_s; /* estimated time left, NaN when unknown */
 } wl_batch_event;
 
 typedef void (*wl_batch_event_fn)(const wl_batch_event *ev, void *ctx);
 
 typedef struct {
-	const char *clip_dir;      /* DIR: where the clips are */
-	const char *out_dir;       /* OUT: created when missing */
-	const char *cal_path;      /* the default CAL.json (may be NULL if every row has `cal`) */
-	const char *manifest_path; /* NULL: no manifest */
-	int jobs;                  /* parallel workers; <= 0: number of cores */
-	int force;                 /* 1: redo complete clips */
-	const char *settings;      /* text naming every setting that changes outputs (hashed) */
+	const char *clip_dir;       /* DIR: where the clips are */
+	const char *out_dir;        /* OUT: created when missing */
+	const char *cal_path;       /* the default CAL.json (may be NULL if every row has `cal`) */
+	const char *manifest_path;  /* NULL: no manifest */
+	int jobs;                   /* parallel workers; <= 0: number of cores */
+	int force;                  /* 1: redo complete clips */
+	const char *settings;       /* text naming every setting that changes outputs (hashed) */
 	const char *const *outputs; /* NULL-terminated file names each clip folder must hold */
 	wl_batch_clip_fn fn;
 	void *fn_ctx;
@@ -149,9 +149,9 @@ typedef struct {
 } wl_batch_opts;
 
 typedef struct {
-	size_t clips;    /* clips of this run (after sharding) */
-	size_t done;     /* processed well now */
-	size_t skipped;  /* complete from before */
+	size_t clips;   /* clips of this run (after sharding) */
+	size_t done;    /* processed well now */
+	size_t skipped; /* complete from before */
 	size_t failed;
 	size_t missing;  /* manifest rows whose clip does not exist */
 	size_t unlisted; /* clips without a manifest row (processed) */
@@ -173,16 +173,16 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
  * Clip folders without path_m.png get their plots drawn from clean.csv and
  * summary.json.  res may be NULL. */
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
-			 wl_err *err);
+                         wl_err *err);
 
 /* Settings hash of the resume rule (FNV-1a, 64 bits, as 16 hex digits):
  * over `settings`, the CAL.json's bytes and the plane height. */
 wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
-				 char out[17], wl_err *err);
+                                 char out[17], wl_err *err);
 
 /* Writes clip.json into a clip folder (atomically): for commands that
  * process one clip outside a batch so that merge can pick it up. */
 wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char *settings_hash, int ok,
-			const char *error, double elapsed_s, wl_err *err);
+                        const char *error, double elapsed_s, wl_err *err);
 
 #endif

@@ -73,20 +73,23 @@ static wl_status on_header(const wl_csv_row *row, wl_manifest *m, wl_err *err)
 			return wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", row->path);
 		m->ncols++;
 		if (!m->cols[i][0])
-			return wl_err_set(err, WL_EFORMAT, "%s:%ld: column %zu has no name: name every column",
-					  row->path, row->line, i + 1);
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s:%ld: column %zu has no name: name every column", row->path,
+			                  row->line, i + 1);
 		for (j = 0; j < i; j++)
 			if (strcmp(m->cols[j], m->cols[i]) == 0)
-				return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s' appears twice: rename one",
-						  row->path, row->line, m->cols[i]);
+				return wl_err_set(err, WL_EFORMAT,
+				                  "%s:%ld: column '%s' appears twice: rename one", row->path,
+				                  row->line, m->cols[i]);
 	}
 	m->c_clip = wl_csv_col(row, "clip");
 	m->c_cal = wl_csv_col(row, "cal");
 	m->c_plane = wl_csv_col(row, "plane_height_m");
 	if (m->c_clip < 0)
-		return wl_err_set(err, WL_EFORMAT,
-				  "%s:%ld: no 'clip' column: the first line must name the columns, one of them 'clip'",
-				  row->path, row->line);
+		return wl_err_set(
+		        err, WL_EFORMAT,
+		        "%s:%ld: no 'clip' column: the first line must name the columns, one of them 'clip'",
+		        row->path, row->line);
 	return WL_OK;
 }
 
@@ -102,22 +105,25 @@ static wl_status on_mrow(const wl_csv_row *row, void *ctx, wl_err *err)
 	if (row->index == 0)
 		return on_header(row, m, err);
 	if (row->nfields != m->ncols)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: row has %zu cells but the header has %zu: fix the row",
-				  row->path, row->line, row->nfields, m->ncols);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: row has %zu cells but the header has %zu: fix the row", row->path,
+		                  row->line, row->nfields, m->ncols);
 	{
 		char *clip = trimdup(strip_dot(row->fields[m->c_clip]));
 		if (!clip)
 			return wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", row->path);
 		if (!clip[0]) {
 			free(clip);
-			return wl_err_set(err, WL_EFORMAT, "%s:%ld: empty 'clip' cell: name the clip file", row->path,
-					  row->line);
+			return wl_err_set(err, WL_EFORMAT, "%s:%ld: empty 'clip' cell: name the clip file",
+			                  row->path, row->line);
 		}
 		prev = wl_manifest_find(m, clip);
 		if (prev) {
 			long pl = prev->line;
-			wl_err_set(err, WL_EFORMAT, "%s:%ld: clip '%s' is listed again (first on line %ld): keep one row per clip",
-				   row->path, row->line, clip, pl);
+			wl_err_set(err, WL_EFORMAT,
+			           "%s:%ld: clip '%s' is listed again (first on line %ld): keep one row per "
+			           "clip",
+			           row->path, row->line, clip, pl);
 			free(clip);
 			return WL_EFORMAT;
 		}
@@ -162,8 +168,10 @@ wl_status wl_manifest_load(const char *path, wl_manifest *m, wl_err *err)
 		return wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", path);
 	s = wl_csv_read(path, on_mrow, &c, err);
 	if (!s && m->ncols == 0)
-		s = wl_err_set(err, WL_EFORMAT, "%s:1: empty manifest: the first line must name the columns, one of them 'clip'",
-			       path);
+		s = wl_err_set(
+		        err, WL_EFORMAT,
+		        "%s:1: empty manifest: the first line must name the columns, one of them 'clip'",
+		        path);
 	if (s)
 		wl_manifest_release(m);
 	return s;
@@ -239,7 +247,8 @@ static wl_status walk(dctx *c, const char *root, const char *rel, int depth, wl_
 		return WL_OK;
 	d = opendir(dir);
 	if (!d)
-		return wl_err_set(err, WL_EIO, "cannot read the folder '%s': %s: check the path", dir, strerror(errno));
+		return wl_err_set(err, WL_EIO, "cannot read the folder '%s': %s: check the path", dir,
+		                  strerror(errno));
 	while (!s && (e = readdir(d))) {
 		struct stat st;
 		if (e->d_name[0] == '.')

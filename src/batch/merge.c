@@ -25,11 +25,31 @@
 
 /* The measure stage's keys in the order the table shows them. */
 static const char *const KNOWN[] = {
-	"id", "segment", "headline", "radius_m", "curvature_per_m", "curvature_ci95_per_m_lo",
-	"curvature_ci95_per_m_hi", "straight", "fit_rms_m", "arc_deg", "radius_body_diameters", "path_length_m",
-	"net_displacement_m", "straightness", "mean_speed_mps", "speed_sd_mps", "mean_yaw_rate_degps",
-	"heading_drift_degps", "yaw_osc_freq_hz", "yaw_osc_amp_deg", "sway_amp_m", "trim_start_s", "duration_s",
-	"tracked_fraction", NULL,
+        "id",
+        "segment",
+        "headline",
+        "radius_m",
+        "curvature_per_m",
+        "curvature_ci95_per_m_lo",
+        "curvature_ci95_per_m_hi",
+        "straight",
+        "fit_rms_m",
+        "arc_deg",
+        "radius_body_diameters",
+        "path_length_m",
+        "net_displacement_m",
+        "straightness",
+        "mean_speed_mps",
+        "speed_sd_mps",
+        "mean_yaw_rate_degps",
+        "heading_drift_degps",
+        "yaw_osc_freq_hz",
+        "yaw_osc_amp_deg",
+        "sway_amp_m",
+        "trim_start_s",
+        "duration_s",
+        "tracked_fraction",
+        NULL,
 };
 
 typedef struct {
@@ -148,7 +168,8 @@ static int add_run_values(kvlist *l, const cJSON *run)
 {
 	const cJSON *v;
 	char buf[1024], key[300];
-	cJSON_ArrayForEach(v, run) {
+	cJSON_ArrayForEach(v, run)
+	{
 		if (!v->string)
 			continue;
 		if (cJSON_IsArray(v)) {
@@ -220,19 +241,22 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 			wl_report_scene_release(sb);
 			free(sb);
 		}
-		cJSON_ArrayForEach(run, runs) {
+		cJSON_ArrayForEach(run, runs)
+		{
 			prow *r = prow_new(p, clip, folder, "ok", NULL);
 			if (!r || !add_run_values(&r->meas, run))
 				p->oom = 1;
 		}
 	} else if (strcmp(status, "ok") == 0) {
-		prow_new(p, clip, folder, "failed", cJSON_IsArray(runs) ? "no runs: nothing was tracked long enough to measure" : msg);
+		prow_new(p, clip, folder, "failed",
+		         cJSON_IsArray(runs) ? "no runs: nothing was tracked long enough to measure" : msg);
 	} else {
 		prow_new(p, clip, folder, "failed", msg[0] ? msg : wl_json_string_or(cj, "error", "failed"));
 	}
 	for (first = p->r + before; first < p->r + p->n; first++)
 		cJSON_ArrayForEach(v, params) if (v->string && cJSON_IsString(v) &&
-						  !kv_add(&first->params, v->string, v->valuestring)) p->oom = 1;
+		                                  !kv_add(&first->params, v->string, v->valuestring)) p->oom =
+		        1;
 	cJSON_Delete(cj);
 	cJSON_Delete(sj);
 }
@@ -254,18 +278,18 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 	t->cols = calloc(cap, sizeof *t->cols);
 	if (!t->cols)
 		goto oom;
-#define ADDCOL(name)                                                                  \
-	do {                                                                          \
-		if (t->ncols == cap) {                                                \
-			char **nc = realloc(t->cols, 2 * cap * sizeof *nc);           \
-			if (!nc)                                                      \
-				goto oom;                                             \
-			t->cols = nc;                                                 \
-			cap *= 2;                                                     \
-		}                                                                     \
-		if (!(t->cols[t->ncols] = strdup(name)))                              \
-			goto oom;                                                     \
-		t->ncols++;                                                           \
+#define ADDCOL(name)                                                                                         \
+	do {                                                                                                 \
+		if (t->ncols == cap) {                                                                       \
+			char **nc = realloc(t->cols, 2 * cap * sizeof *nc);                                  \
+			if (!nc)                                                                             \
+				goto oom;                                                                    \
+			t->cols = nc;                                                                        \
+			cap *= 2;                                                                            \
+		}                                                                                            \
+		if (!(t->cols[t->ncols] = strdup(name)))                                                     \
+			goto oom;                                                                            \
+		t->ncols++;                                                                                  \
 	} while (0)
 	for (i = 0; i < p->n; i++)
 		for (j = 0; j < p->r[i].params.n; j++)
@@ -307,7 +331,8 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 		if (!r->clip || !r->folder || !r->status || !r->error || !r->cells)
 			goto oom;
 		for (j = 0; j < t->ncols; j++) {
-			const char *v = j < t->nparams ? kv_get(&p->r[i].params, t->cols[j]) : kv_get(&p->r[i].meas, t->cols[j]);
+			const char *v = j < t->nparams ? kv_get(&p->r[i].params, t->cols[j])
+			                               : kv_get(&p->r[i].meas, t->cols[j]);
 			if (!(r->cells[j] = strdup(v ? v : "")))
 				goto oom;
 		}
@@ -355,7 +380,7 @@ static int cmp_cstr(const void *a, const void *b)
 }
 
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
-			 wl_err *err)
+                         wl_err *err)
 {
 	char path[PATH_MAX];
 	prows p;
@@ -378,7 +403,8 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	snprintf(path, sizeof path, "%s/clips", out_dir);
 	d = opendir(path);
 	if (!d)
-		return wl_err_set(err, WL_EIO, "'%s' has no clips folder: is it the -o folder of a batch?", out_dir);
+		return wl_err_set(err, WL_EIO, "'%s' has no clips folder: is it the -o folder of a batch?",
+		                  out_dir);
 	while ((e = readdir(d))) {
 		char **nn2;
 		if (e->d_name[0] == '.')
@@ -400,12 +426,15 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	snprintf(path, sizeof path, "%s/batch.json", out_dir);
 	if (wl_json_load(path, &bj, NULL) == WL_OK) {
 		const cJSON *m, *miss = cJSON_GetObjectItemCaseSensitive(bj, "missing");
-		cJSON_ArrayForEach(m, miss) {
-			if (!prow_new(&p, wl_json_string_or(m, "clip", "?"), "", "missing", wl_json_string_or(m, "error", "")))
+		cJSON_ArrayForEach(m, miss)
+		{
+			if (!prow_new(&p, wl_json_string_or(m, "clip", "?"), "", "missing",
+			              wl_json_string_or(m, "error", "")))
 				break;
 		}
 		{
-			const char *x = wl_json_string_or(bj, "x_col", ""), *g = wl_json_string_or(bj, "group_col", "");
+			const char *x = wl_json_string_or(bj, "x_col", ""),
+			           *g = wl_json_string_or(bj, "group_col", "");
 			so.x_col = x[0] ? x : NULL;
 			so.group_col = g[0] ? g : NULL;
 			so.body_diameter_m = wl_json_number_or(bj, "body_diameter_m", 0);

@@ -56,7 +56,7 @@ static unsigned long long fnv(unsigned long long h, const void *p, size_t n)
 }
 
 wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
-				 char out[17], wl_err *err)
+                                 char out[17], wl_err *err)
 {
 	unsigned long long h = 1469598103934665603ULL;
 	char num[WL_NUMBUF];
@@ -96,7 +96,7 @@ static void mtime_text(const struct stat *st, char *buf, size_t cap)
 }
 
 wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char *settings_hash, int ok,
-			const char *error, double elapsed_s, wl_err *err)
+                        const char *error, double elapsed_s, wl_err *err)
 {
 	char path[PATH_MAX], buf[64];
 	struct stat st;
@@ -130,7 +130,7 @@ wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char
 /* Complete: clip.json says ok for this very input and these settings, and
  * every output exists and is no older than the input. */
 static int is_complete(const char *out_dir, const wl_batch_job *job, const char *hash,
-		       const char *const *outputs, int *params_differ)
+                       const char *const *outputs, int *params_differ)
 {
 	char path[PATH_MAX], mt[64];
 	cJSON *root = NULL;
@@ -160,7 +160,8 @@ static int is_complete(const char *out_dir, const wl_batch_job *job, const char 
 		*params_differ = 1;
 	} else {
 		for (i = 0; i < job->nparams; i++)
-			if (strcmp(wl_json_string_or(params, job->param_names[i], "\x01"), job->param_values[i]) != 0)
+			if (strcmp(wl_json_string_or(params, job->param_names[i], "\x01"),
+			           job->param_values[i]) != 0)
 				*params_differ = 1;
 	}
 out:
@@ -194,7 +195,7 @@ static void journal(int fd, const char *event, const char *clip, const char *has
 		return;
 	utc_now(ts, sizeof ts);
 	n = snprintf(line, sizeof line, "%s\t%s\t%s\t%s\t%s\n", ts, event, clip ? clip : "", hash ? hash : "",
-		     msg ? msg : "");
+	             msg ? msg : "");
 	if (n >= (int)sizeof line) {
 		n = (int)sizeof line;
 		line[n - 1] = '\n';
@@ -262,8 +263,10 @@ static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char 
 	ev.running = r->running;
 	ev.fps = el > 0 ? (double)frames / el : 0;
 	rate = el > 0.5 ? units / el : 0;
-	ev.eta_s = rate > 0 ? ((double)(r->njobs - r->finished) - (units - (double)(r->res->done + r->res->failed))) / rate
-			    : NAN;
+	ev.eta_s = rate > 0 ? ((double)(r->njobs - r->finished) -
+	                       (units - (double)(r->res->done + r->res->failed))) /
+	                              rate
+	                    : NAN;
 	if (ev.eta_s < 0)
 		ev.eta_s = 0;
 	r->o->on_event(&ev, r->o->ev_ctx);
@@ -402,8 +405,9 @@ static void finish_job(runner *r, clipjob *j)
 	ok = WIFEXITED(ws) && WEXITSTATUS(ws) == 0;
 	msg[0] = '\0';
 	if (WIFSIGNALED(ws))
-		snprintf(msg, sizeof msg, "%s: the worker was killed by signal %d (%s): a bug; please report it with the clip",
-			 j->rel, WTERMSIG(ws), strsignal(WTERMSIG(ws)));
+		snprintf(msg, sizeof msg,
+		         "%s: the worker was killed by signal %d (%s): a bug; please report it with the clip",
+		         j->rel, WTERMSIG(ws), strsignal(WTERMSIG(ws)));
 	else if (!ok)
 		snprintf(msg, sizeof msg, "%s", j->msg[0] ? j->msg : "the clip failed without a message");
 	for (i = 0; ok && r->o->outputs && r->o->outputs[i]; i++) {
@@ -411,8 +415,9 @@ static void finish_job(runner *r, clipjob *j)
 		struct stat st;
 		snprintf(path, sizeof path, "%s/%s", j->out_dir, r->o->outputs[i]);
 		if (stat(path, &st) != 0) {
-			snprintf(msg, sizeof msg, "%s: the clip's processing wrote no '%s': a bug; please report it",
-				 j->rel, r->o->outputs[i]);
+			snprintf(msg, sizeof msg,
+			         "%s: the clip's processing wrote no '%s': a bug; please report it", j->rel,
+			         r->o->outputs[i]);
 			ok = 0;
 		}
 	}
@@ -507,7 +512,8 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	j->fd = -1;
 	snprintf(j->rel, sizeof j->rel, "%s", rel);
 	snprintf(j->clip_path, sizeof j->clip_path, "%s/%s", o->clip_dir, rel);
-	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir, wl_batch_clip_name(rel, name, sizeof name));
+	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir,
+	         wl_batch_clip_name(rel, name, sizeof name));
 	snprintf(j->cal, sizeof j->cal, "%s", o->cal_path ? o->cal_path : "");
 	if (m) {
 		j->names = calloc(m->ncols ? m->ncols : 1, sizeof *j->names);
@@ -536,7 +542,7 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	wl_err_clear(&herr);
 	if (!j->cal[0])
 		snprintf(j->hash_err, sizeof j->hash_err,
-			 "%s: no calibration: give --cal, or a 'cal' cell in the manifest row", rel);
+		         "%s: no calibration: give --cal, or a 'cal' cell in the manifest row", rel);
 	else if (wl_batch_settings_hash(o->settings, j->cal, plane, j->hash, &herr) != WL_OK)
 		snprintf(j->hash_err, sizeof j->hash_err, "%s: %s", rel, herr.msg);
 	return wl_mkdirs(j->out_dir, err);
@@ -564,8 +570,9 @@ static wl_status write_batch_json(const wl_batch_opts *o, const wl_manifest *m, 
 		e = cJSON_CreateObject();
 		if (!e)
 			break;
-		snprintf(msg, sizeof msg, "%s:%ld: clip '%s' is not under '%s': check the name in the manifest", m->path,
-			 m->rows[i].line, m->rows[i].clip, o->clip_dir);
+		snprintf(msg, sizeof msg,
+		         "%s:%ld: clip '%s' is not under '%s': check the name in the manifest", m->path,
+		         m->rows[i].line, m->rows[i].clip, o->clip_dir);
 		cJSON_AddStringToObject(e, "clip", m->rows[i].clip);
 		cJSON_AddStringToObject(e, "error", msg);
 		cJSON_AddItemToArray(miss, e);
@@ -582,13 +589,14 @@ static wl_status take_lock(const wl_batch_opts *o, int *fd, wl_err *err)
 	snprintf(path, sizeof path, "%s/.lock-%d", o->out_dir, o->shard_count > 1 ? o->shard_index : 0);
 	*fd = open(path, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
 	if (*fd < 0)
-		return wl_err_set(err, WL_EIO, "cannot create '%s': %s: check that the folder is writable", path,
-				  strerror(errno));
+		return wl_err_set(err, WL_EIO, "cannot create '%s': %s: check that the folder is writable",
+		                  path, strerror(errno));
 	if (flock(*fd, LOCK_EX | LOCK_NB) != 0) {
 		close(*fd);
 		*fd = -1;
-		return wl_err_set(err, WL_EINVAL, "another batch is writing into '%s': wait for it to end or use another -o",
-				  o->out_dir);
+		return wl_err_set(err, WL_EINVAL,
+		                  "another batch is writing into '%s': wait for it to end or use another -o",
+		                  o->out_dir);
 	}
 	return WL_OK;
 }
@@ -651,8 +659,8 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 			continue;
 		if (have_m && !row) {
 			res->unlisted++;
-			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells", cl.rel[i],
-			     o->manifest_path);
+			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
+			     cl.rel[i], o->manifest_path);
 		}
 		if ((s = prepare_job(&r, have_m ? &m : NULL, cl.rel[i], &r.jobs[r.njobs], err)))
 			goto out;

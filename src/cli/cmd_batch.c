@@ -15,39 +15,40 @@
 #include "core/csvio.h"
 #include "wl_version.h"
 
-const char cmd_batch_summary[] = "process every clip of a folder (resumable), then summary.csv and report.html";
+const char cmd_batch_summary[] =
+        "process every clip of a folder (resumable), then summary.csv and report.html";
 
 static const char USAGE[] =
-	"usage: wakeline batch DIR --cal CAL.json -o OUTDIR [options]\n"
-	"\n"
-	"Finds the video clips under DIR (mp4 mov m4v avi mkv webm, any case, in\n"
-	"sub-folders too; names starting with '.' are left out), runs each through\n"
-	"track, clean and measure with its plots in OUTDIR/clips/<name>/, then writes\n"
-	"OUTDIR/summary.csv, the sweep plots and OUTDIR/report.html.  Run it again\n"
-	"after an interruption: clips that are complete for the same input, the same\n"
-	"calibration and the same settings are skipped, the rest are done.\n"
-	"\n"
-	"  --cal CAL.json        the calibration (a manifest's `cal` cell overrides it)\n"
-	"  --manifest FILE.csv   one row per clip: a `clip` column (path relative to DIR)\n"
-	"                        and any parameter columns; optional `cal` and\n"
-	"                        `plane_height_m` override per clip\n"
-	"  --robots ROBOTS.csv   the robots (ids, plane heights, colours): see `wakeline track --help`\n"
-	"  -o, --out OUTDIR      where everything goes (created)\n"
-	"  -j, --jobs N          clips processed at once (default: the number of cores)\n"
-	"  --force               redo clips that are complete\n"
-	"  --x COLUMN            manifest column on the sweep plots' x axis\n"
-	"  --group COLUMN        manifest column that groups the sweep points\n"
-	"  --body-m D            body diameter (m): the wall cut, radius_body_diameters\n"
-	"                        and the sweep plots' shaded band\n"
-	"  --shard K/N           process only clips K, K+N, K+2N... (0 <= K < N) of the\n"
-	"                        sorted list, for job arrays; run `wakeline merge OUTDIR`\n"
-	"                        when all shards are done\n"
-	"  -q, --quiet           no progress line\n"
-	"  -h, --help            this text\n"
-	"\n"
-	"Exit status: 0 every clip done, 1 a clip failed, a manifest row names a\n"
-	"missing clip, or an error, 2 usage error.  Failed clips are listed in\n"
-	"summary.csv and report.html with their messages; the others are not affected.\n";
+        "usage: wakeline batch DIR --cal CAL.json -o OUTDIR [options]\n"
+        "\n"
+        "Finds the video clips under DIR (mp4 mov m4v avi mkv webm, any case, in\n"
+        "sub-folders too; names starting with '.' are left out), runs each through\n"
+        "track, clean and measure with its plots in OUTDIR/clips/<name>/, then writes\n"
+        "OUTDIR/summary.csv, the sweep plots and OUTDIR/report.html.  Run it again\n"
+        "after an interruption: clips that are complete for the same input, the same\n"
+        "calibration and the same settings are skipped, the rest are done.\n"
+        "\n"
+        "  --cal CAL.json        the calibration (a manifest's `cal` cell overrides it)\n"
+        "  --manifest FILE.csv   one row per clip: a `clip` column (path relative to DIR)\n"
+        "                        and any parameter columns; optional `cal` and\n"
+        "                        `plane_height_m` override per clip\n"
+        "  --robots ROBOTS.csv   the robots (ids, plane heights, colours): see `wakeline track --help`\n"
+        "  -o, --out OUTDIR      where everything goes (created)\n"
+        "  -j, --jobs N          clips processed at once (default: the number of cores)\n"
+        "  --force               redo clips that are complete\n"
+        "  --x COLUMN            manifest column on the sweep plots' x axis\n"
+        "  --group COLUMN        manifest column that groups the sweep points\n"
+        "  --body-m D            body diameter (m): the wall cut, radius_body_diameters\n"
+        "                        and the sweep plots' shaded band\n"
+        "  --shard K/N           process only clips K, K+N, K+2N... (0 <= K < N) of the\n"
+        "                        sorted list, for job arrays; run `wakeline merge OUTDIR`\n"
+        "                        when all shards are done\n"
+        "  -q, --quiet           no progress line\n"
+        "  -h, --help            this text\n"
+        "\n"
+        "Exit status: 0 every clip done, 1 a clip failed, a manifest row names a\n"
+        "missing clip, or an error, 2 usage error.  Failed clips are listed in\n"
+        "summary.csv and report.html with their messages; the others are not affected.\n";
 
 typedef struct {
 	cli_progress prog;
@@ -55,8 +56,9 @@ typedef struct {
 } ui;
 
 /* What every clip folder holds when its clip is done. */
-static const char *const OUTPUTS[] = {"raw.csv", "clean.csv", "clean.json", "summary.json", "path_m.svg",
-				      "path_m.png", "heading.svg", "heading.png", "process.log", NULL};
+static const char *const OUTPUTS[] = {"raw.csv",     "clean.csv",  "clean.json",  "summary.json",
+                                      "path_m.svg",  "path_m.png", "heading.svg", "heading.png",
+                                      "process.log", NULL};
 
 typedef struct {
 	const char *robots, *body;
@@ -97,7 +99,8 @@ static wl_status batch_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	wl_status s;
 
 	if (!job->cal_path)
-		return wl_err_set(err, WL_EINVAL, "%s: no calibration: give --cal or a 'cal' cell", job->clip_rel);
+		return wl_err_set(err, WL_EINVAL, "%s: no calibration: give --cal or a 'cal' cell",
+		                  job->clip_rel);
 	snprintf(log, sizeof log, "%s/process.log", job->out_dir);
 	if ((s = wl_afile_open(log, &af, err)))
 		return s;
@@ -106,7 +109,8 @@ static wl_status batch_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	dup2(fileno(wl_afile_fp(af)), STDOUT_FILENO);
 	dup2(fileno(wl_afile_fp(af)), STDERR_FILENO);
 	args[n++] = "process", args[n++] = job->clip_path, args[n++] = "--cal", args[n++] = job->cal_path;
-	args[n++] = "-o", args[n++] = job->out_dir, args[n++] = "-q", args[n++] = "--threads", args[n++] = po->threads;
+	args[n++] = "-o", args[n++] = job->out_dir, args[n++] = "-q", args[n++] = "--threads",
+	args[n++] = po->threads;
 	if (isfinite(job->plane_height_m))
 		args[n++] = "--plane-height-m", args[n++] = wl_fmt_g(plane, job->plane_height_m, 17);
 	if (po->robots)
@@ -172,8 +176,9 @@ static void on_event(const wl_batch_event *ev, void *ctx)
 		return;
 	}
 	fmt_time(eta, sizeof eta, ev->eta_s);
-	cli_progress_update(&u->prog, "[%zu/%zu done, %zu failed, %zu running] %s  %.0f fps  %s left", ev->finished,
-			    ev->total, ev->failed, ev->running, ev->clip ? ev->clip : "", ev->fps, eta);
+	cli_progress_update(&u->prog, "[%zu/%zu done, %zu failed, %zu running] %s  %.0f fps  %s left",
+	                    ev->finished, ev->total, ev->failed, ev->running, ev->clip ? ev->clip : "",
+	                    ev->fps, eta);
 }
 
 static int parse_shard(const char *s, int *k, int *n)
@@ -185,19 +190,19 @@ static int parse_shard(const char *s, int *k, int *n)
 int cmd_batch(int argc, char **argv)
 {
 	static const struct option opts[] = {
-		{"cal", required_argument, NULL, 'c'},
-		{"manifest", required_argument, NULL, 'm'},
-		{"robots", required_argument, NULL, 'r'},
-		{"out", required_argument, NULL, 'o'},
-		{"jobs", required_argument, NULL, 'j'},
-		{"force", no_argument, NULL, 'f'},
-		{"x", required_argument, NULL, 'x'},
-		{"group", required_argument, NULL, 'g'},
-		{"body-m", required_argument, NULL, 'b'},
-		{"shard", required_argument, NULL, 's'},
-		{"quiet", no_argument, NULL, 'q'},
-		{"help", no_argument, NULL, 'h'},
-		{NULL, 0, NULL, 0},
+	        {"cal", required_argument, NULL, 'c'},
+	        {"manifest", required_argument, NULL, 'm'},
+	        {"robots", required_argument, NULL, 'r'},
+	        {"out", required_argument, NULL, 'o'},
+	        {"jobs", required_argument, NULL, 'j'},
+	        {"force", no_argument, NULL, 'f'},
+	        {"x", required_argument, NULL, 'x'},
+	        {"group", required_argument, NULL, 'g'},
+	        {"body-m", required_argument, NULL, 'b'},
+	        {"shard", required_argument, NULL, 's'},
+	        {"quiet", no_argument, NULL, 'q'},
+	        {"help", no_argument, NULL, 'h'},
+	        {NULL, 0, NULL, 0},
 	};
 	wl_batch_opts o;
 	proc_opts po;
@@ -213,27 +218,48 @@ int cmd_batch(int argc, char **argv)
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:j:qh", opts, NULL)) != -1) {
 		switch (c) {
-		case 'c': o.cal_path = optarg; break;
-		case 'm': o.manifest_path = optarg; break;
-		case 'r': po.robots = optarg; break;
-		case 'o': o.out_dir = optarg; break;
+		case 'c':
+			o.cal_path = optarg;
+			break;
+		case 'm':
+			o.manifest_path = optarg;
+			break;
+		case 'r':
+			po.robots = optarg;
+			break;
+		case 'o':
+			o.out_dir = optarg;
+			break;
 		case 'j':
 			if (!cli_parse_int(optarg, &o.jobs) || o.jobs < 1 || o.jobs > 256)
-				return cli_usage_error("batch", "-j wants a number of clips from 1 to 256, not '%s'", optarg);
+				return cli_usage_error("batch",
+				                       "-j wants a number of clips from 1 to 256, not '%s'",
+				                       optarg);
 			break;
-		case 'f': o.force = 1; break;
-		case 'x': o.sweep.x_col = optarg; break;
-		case 'g': o.sweep.group_col = optarg; break;
+		case 'f':
+			o.force = 1;
+			break;
+		case 'x':
+			o.sweep.x_col = optarg;
+			break;
+		case 'g':
+			o.sweep.group_col = optarg;
+			break;
 		case 'b':
-			if (!cli_parse_double(optarg, &o.sweep.body_diameter_m) || !(o.sweep.body_diameter_m > 0))
-				return cli_usage_error("batch", "--body-m wants a length in metres > 0, not '%s'", optarg);
+			if (!cli_parse_double(optarg, &o.sweep.body_diameter_m) ||
+			    !(o.sweep.body_diameter_m > 0))
+				return cli_usage_error(
+				        "batch", "--body-m wants a length in metres > 0, not '%s'", optarg);
 			po.body = optarg;
 			break;
 		case 's':
 			if (!parse_shard(optarg, &o.shard_index, &o.shard_count))
-				return cli_usage_error("batch", "--shard wants K/N with 0 <= K < N, not '%s'", optarg);
+				return cli_usage_error("batch", "--shard wants K/N with 0 <= K < N, not '%s'",
+				                       optarg);
 			break;
-		case 'q': u.quiet = 1; break;
+		case 'q':
+			u.quiet = 1;
+			break;
 		case 'h':
 			fputs(USAGE, stdout);
 			return cli_finish("batch", WL_EXIT_OK);
@@ -246,7 +272,8 @@ int cmd_batch(int argc, char **argv)
 	if (!o.out_dir)
 		return cli_usage_error("batch", "-o OUTDIR is required");
 	if (!o.cal_path && !o.manifest_path)
-		return cli_usage_error("batch", "--cal CAL.json is required (or a manifest with a `cal` column)");
+		return cli_usage_error("batch",
+		                       "--cal CAL.json is required (or a manifest with a `cal` column)");
 	o.clip_dir = argv[optind];
 	wl_err_clear(&err);
 	{
@@ -257,7 +284,7 @@ int cmd_batch(int argc, char **argv)
 		if (po.robots && wl_batch_settings_hash(NULL, po.robots, NAN, rh, &err) != WL_OK)
 			return cli_fail("batch", &err);
 		snprintf(settings, sizeof settings, "wakeline %s process; robots %s; body %s", WL_VERSION, rh,
-			 po.body ? po.body : "");
+		         po.body ? po.body : "");
 		snprintf(po.threads, sizeof po.threads, "%ld", cores > jobs ? cores / jobs : 1L);
 	}
 	o.settings = settings;
@@ -272,13 +299,15 @@ int cmd_batch(int argc, char **argv)
 	wl_report_release_caches();
 	if (c != WL_OK)
 		return cli_fail("batch", &err);
-	printf("batch: %zu clips: %zu done, %zu already complete, %zu failed; %zu manifest rows name missing clips; "
+	printf("batch: %zu clips: %zu done, %zu already complete, %zu failed; %zu manifest rows name missing "
+	       "clips; "
 	       "%zu without a manifest row\n",
 	       res.clips, res.done, res.skipped, res.failed, res.missing, res.unlisted);
 	if (o.shard_count > 1)
-		printf("batch: shard %d/%d finished; run `wakeline merge %s` when every shard is done\n", o.shard_index,
-		       o.shard_count, o.out_dir);
+		printf("batch: shard %d/%d finished; run `wakeline merge %s` when every shard is done\n",
+		       o.shard_index, o.shard_count, o.out_dir);
 	else
-		printf("batch: %zu runs; see %s/summary.csv and %s/report.html\n", res.runs, o.out_dir, o.out_dir);
+		printf("batch: %zu runs; see %s/summary.csv and %s/report.html\n", res.runs, o.out_dir,
+		       o.out_dir);
 	return cli_finish("batch", res.failed || res.missing ? WL_EXIT_FAIL : WL_EXIT_OK);
 }

@@ -18,25 +18,25 @@
 const char cmd_process_summary[] = "track, clean and measure one clip, with its plots";
 
 static const char USAGE[] =
-	"usage: wakeline process CLIP --cal CAL.json -o OUTDIR [options]\n"
-	"\n"
-	"Runs one clip through the pipeline and writes into OUTDIR (created):\n"
-	"  raw.csv       the tracker's poses (wakeline track)\n"
-	"  clean.csv     smoothed, trimmed and segmented (wakeline clean, with the\n"
-	"  clean.json    tank outline from CAL.json for the wall cut)\n"
-	"  summary.json  the measures of every run (wakeline measure)\n"
-	"  path_m.svg/.png, heading.svg/.png   the plots (docs/report.md)\n"
-	"\n"
-	"  --cal CAL.json          calibration (required)\n"
-	"  -o, --out OUTDIR        output folder (required)\n"
-	"  --robots ROBOTS.csv     robots for the tracker (see `wakeline track --help`)\n"
-	"  --plane-height-m Z      marker plane height above the floor (default: CAL.json's)\n"
-	"  --body-diameter-m D     robot size for the wall cut and radius_body_diameters\n"
-	"  --threads N             decoder threads (default: all cores)\n"
-	"  -q, --quiet             only errors\n"
-	"  -h, --help              this text\n"
-	"\n"
-	"Exit status: 0 ok, 1 failure (the failing stage says why), 2 usage error.\n";
+        "usage: wakeline process CLIP --cal CAL.json -o OUTDIR [options]\n"
+        "\n"
+        "Runs one clip through the pipeline and writes into OUTDIR (created):\n"
+        "  raw.csv       the tracker's poses (wakeline track)\n"
+        "  clean.csv     smoothed, trimmed and segmented (wakeline clean, with the\n"
+        "  clean.json    tank outline from CAL.json for the wall cut)\n"
+        "  summary.json  the measures of every run (wakeline measure)\n"
+        "  path_m.svg/.png, heading.svg/.png   the plots (docs/report.md)\n"
+        "\n"
+        "  --cal CAL.json          calibration (required)\n"
+        "  -o, --out OUTDIR        output folder (required)\n"
+        "  --robots ROBOTS.csv     robots for the tracker (see `wakeline track --help`)\n"
+        "  --plane-height-m Z      marker plane height above the floor (default: CAL.json's)\n"
+        "  --body-diameter-m D     robot size for the wall cut and radius_body_diameters\n"
+        "  --threads N             decoder threads (default: all cores)\n"
+        "  -q, --quiet             only errors\n"
+        "  -h, --help              this text\n"
+        "\n"
+        "Exit status: 0 ok, 1 failure (the failing stage says why), 2 usage error.\n";
 
 /* Runs a command of this program with a NULL-terminated argument list.
  * The strings stay alive after the call on purpose: glibc's getopt keeps a
@@ -59,17 +59,18 @@ static int run_cmd(int (*cmd)(int, char **), const char *const *args)
 int cmd_process(int argc, char **argv)
 {
 	static const struct option opts[] = {
-		{"cal", required_argument, NULL, 'c'},
-		{"out", required_argument, NULL, 'o'},
-		{"robots", required_argument, NULL, 'r'},
-		{"plane-height-m", required_argument, NULL, 'z'},
-		{"body-diameter-m", required_argument, NULL, 'b'},
-		{"threads", required_argument, NULL, 't'},
-		{"quiet", no_argument, NULL, 'q'},
-		{"help", no_argument, NULL, 'h'},
-		{NULL, 0, NULL, 0},
+	        {"cal", required_argument, NULL, 'c'},
+	        {"out", required_argument, NULL, 'o'},
+	        {"robots", required_argument, NULL, 'r'},
+	        {"plane-height-m", required_argument, NULL, 'z'},
+	        {"body-diameter-m", required_argument, NULL, 'b'},
+	        {"threads", required_argument, NULL, 't'},
+	        {"quiet", no_argument, NULL, 'q'},
+	        {"help", no_argument, NULL, 'h'},
+	        {NULL, 0, NULL, 0},
 	};
-	const char *cal = NULL, *out = NULL, *robots = NULL, *plane = NULL, *body = NULL, *threads = NULL, *clip;
+	const char *cal = NULL, *out = NULL, *robots = NULL, *plane = NULL, *body = NULL, *threads = NULL,
+	           *clip;
 	char raw[4200], clean[4200], side[4200], sum[4200];
 	const char *args[40];
 	int quiet = 0, c, n, rc;
@@ -80,25 +81,36 @@ int cmd_process(int argc, char **argv)
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
 		switch (c) {
-		case 'c': cal = optarg; break;
-		case 'o': out = optarg; break;
-		case 'r': robots = optarg; break;
+		case 'c':
+			cal = optarg;
+			break;
+		case 'o':
+			out = optarg;
+			break;
+		case 'r':
+			robots = optarg;
+			break;
 		case 'z':
 			if (!cli_parse_double(optarg, &dummy))
-				return cli_usage_error("process", "--plane-height-m wants metres, not '%s'", optarg);
+				return cli_usage_error("process", "--plane-height-m wants metres, not '%s'",
+				                       optarg);
 			plane = optarg;
 			break;
 		case 'b':
 			if (!cli_parse_double(optarg, &dummy) || !(dummy > 0))
-				return cli_usage_error("process", "--body-diameter-m wants metres > 0, not '%s'", optarg);
+				return cli_usage_error(
+				        "process", "--body-diameter-m wants metres > 0, not '%s'", optarg);
 			body = optarg;
 			break;
 		case 't':
 			if (!cli_parse_int(optarg, &n) || n < 0)
-				return cli_usage_error("process", "--threads wants a whole number, not '%s'", optarg);
+				return cli_usage_error("process", "--threads wants a whole number, not '%s'",
+				                       optarg);
 			threads = optarg;
 			break;
-		case 'q': quiet = 1; break;
+		case 'q':
+			quiet = 1;
+			break;
 		case 'h':
 			fputs(USAGE, stdout);
 			return cli_finish("process", WL_EXIT_OK);
@@ -120,7 +132,8 @@ int cmd_process(int argc, char **argv)
 	snprintf(sum, sizeof sum, "%s/summary.json", out);
 
 	n = 0;
-	args[n++] = "track", args[n++] = clip, args[n++] = "--cal", args[n++] = cal, args[n++] = "-o", args[n++] = raw;
+	args[n++] = "track", args[n++] = clip, args[n++] = "--cal", args[n++] = cal, args[n++] = "-o",
+	args[n++] = raw;
 	if (robots)
 		args[n++] = "--robots", args[n++] = robots;
 	if (plane)
@@ -169,6 +182,7 @@ int cmd_process(int argc, char **argv)
 	if (rc != WL_OK)
 		return cli_fail("process", &err);
 	if (!quiet)
-		printf("process: %s: raw.csv, clean.csv, clean.json, summary.json and plots in %s\n", clip, out);
+		printf("process: %s: raw.csv, clean.csv, clean.json, summary.json and plots in %s\n", clip,
+		       out);
 	return cli_finish("process", WL_EXIT_OK);
 }

@@ -61,8 +61,8 @@ static track *find_track(reader *r, const char *id, int create, wl_err *err, lon
 	if (!create)
 		return NULL;
 	if (r->ntr == MAX_IDS) {
-		wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d robot ids: plot a clip with fewer robots", r->path,
-			   line, MAX_IDS);
+		wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d robot ids: plot a clip with fewer robots",
+		           r->path, line, MAX_IDS);
 		return NULL;
 	}
 	memset(&r->tr[r->ntr], 0, sizeof r->tr[0]);
@@ -123,7 +123,8 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		return WL_OK;
 	}
 	if ((size_t)r->c_id >= row->nfields)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: row has no 'id' cell: check the file", row->path, row->line);
+		return wl_err_set(err, WL_EFORMAT, "%s:%ld: row has no 'id' cell: check the file", row->path,
+		                  row->line);
 	tr = find_track(r, row->fields[r->c_id], r->pass == 0, err, row->line);
 	if (!tr)
 		return r->pass == 0 ? err->code : WL_OK;
@@ -209,18 +210,20 @@ static wl_status read_circles(const char *path, circle *c, size_t cap, size_t *n
 	runs = cJSON_GetObjectItemCaseSensitive(root, "runs");
 	if (!cJSON_IsArray(runs)) {
 		cJSON_Delete(root);
-		return wl_err_set(err, WL_EFORMAT, "%s: no \"runs\" array: is this a summary.json of the measure stage?",
-				  path);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: no \"runs\" array: is this a summary.json of the measure stage?",
+		                  path);
 	}
-	cJSON_ArrayForEach(run, runs) {
+	cJSON_ArrayForEach(run, runs)
+	{
 		double cx = num_or_nan(run, "centre_x_m"), cy = num_or_nan(run, "centre_y_m");
 		double r = num_or_nan(run, "radius_m");
 		if (!isfinite(cx))
 			cx = num_or_nan(run, "center_x_m");
 		if (!isfinite(cy))
 			cy = num_or_nan(run, "center_y_m");
-		if (cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(run, "straight")) || !isfinite(cx) || !isfinite(cy) ||
-		    !isfinite(r) || *n == cap)
+		if (cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(run, "straight")) || !isfinite(cx) ||
+		    !isfinite(cy) || !isfinite(r) || *n == cap)
 			continue;
 		id_text(cJSON_GetObjectItemCaseSensitive(run, "id"), c[*n].id, sizeof c[*n].id);
 		c[*n].cx = cx;
@@ -235,7 +238,7 @@ static wl_status read_circles(const char *path, circle *c, size_t cap, size_t *n
 static const wl_style GREY = {{0.55, 0.55, 0.55}, 1, 0.8, 0, WL_MARK_NONE, 0, 0};
 
 static wl_status path_plot(const char *dir, const reader *r, const circle *cs, size_t nc,
-			   const wl_report_scene *sc, wl_err *err)
+                           const wl_report_scene *sc, wl_err *err)
 {
 	wl_plot *p = wl_plot_create();
 	wl_status s = WL_OK;
@@ -270,9 +273,10 @@ static wl_status path_plot(const char *dir, const reader *r, const circle *cs, s
 		wl_style st = {{0.35, 0.35, 0.35}, 1, 1, 0, WL_MARK_SQUARE, 7, 1};
 		for (i = 0; i < sc->n_markers && !s; i++) {
 			s = wl_plot_add_scatter(p, &sc->markers_m[i][0], &sc->markers_m[i][1], 1, &st,
-						i == 0 ? "floor markers" : NULL, err);
+			                        i == 0 ? "floor markers" : NULL, err);
 			if (!s && sc->marker_ids && sc->marker_ids[i])
-				s = wl_plot_add_text(p, sc->markers_m[i][0], sc->markers_m[i][1], sc->marker_ids[i], &st, err);
+				s = wl_plot_add_text(p, sc->markers_m[i][0], sc->markers_m[i][1],
+				                     sc->marker_ids[i], &st, err);
 		}
 		if (s)
 			goto out;
@@ -289,7 +293,8 @@ static wl_status path_plot(const char *dir, const reader *r, const circle *cs, s
 			goto out;
 		}
 		/* the whole track thin and grey, the analysed rows coloured by time */
-		if ((s = wl_plot_add_line(p, t->x, t->y, t->n, &GREY, i == 0 ? "left out of segments" : NULL, err)))
+		if ((s = wl_plot_add_line(p, t->x, t->y, t->n, &GREY, i == 0 ? "left out of segments" : NULL,
+		                          err)))
 			goto out;
 		for (j = 0; j < t->n; j++) {
 			int in = t->seg[j] >= 0 && isfinite(t->x[j]) && isfinite(t->y[j]);
@@ -301,13 +306,17 @@ static wl_status path_plot(const char *dir, const reader *r, const circle *cs, s
 				last = j;
 			}
 		}
-		if ((s = wl_plot_add_cline(p, tmp, tmp + t->n + 1, t->t, t->n, r->tmin, r->tmax, 2.2, "time (s)", err)))
+		if ((s = wl_plot_add_cline(p, tmp, tmp + t->n + 1, t->t, t->n, r->tmin, r->tmax, 2.2,
+		                           "time (s)", err)))
 			goto out;
 		if (first < t->n) {
-			if ((s = wl_plot_add_scatter(p, &t->x[first], &t->y[first], 1, &start, legend_done ? NULL : "start", err)) ||
-			    (s = wl_plot_add_scatter(p, &t->x[last], &t->y[last], 1, &end, legend_done ? NULL : "end", err)))
+			if ((s = wl_plot_add_scatter(p, &t->x[first], &t->y[first], 1, &start,
+			                             legend_done ? NULL : "start", err)) ||
+			    (s = wl_plot_add_scatter(p, &t->x[last], &t->y[last], 1, &end,
+			                             legend_done ? NULL : "end", err)))
 				goto out;
-			if (r->ntr > 1 && (s = wl_plot_add_text(p, t->x[first], t->y[first], t->id, &start, err)))
+			if (r->ntr > 1 &&
+			    (s = wl_plot_add_text(p, t->x[first], t->y[first], t->id, &start, err)))
 				goto out;
 			legend_done = 1;
 		}
@@ -321,7 +330,8 @@ static wl_status path_plot(const char *dir, const reader *r, const circle *cs, s
 			cy[j] = cs[i].cy + cs[i].r * sin(2 * M_PI * (double)j / 180.0);
 		}
 		if ((s = wl_plot_add_line(p, cx, cy, 181, &cst, i == 0 ? "fitted circle" : NULL, err)) ||
-		    (s = wl_plot_add_scatter(p, &cs[i].cx, &cs[i].cy, 1, &mst, i == 0 ? "circle centre" : NULL, err)))
+		    (s = wl_plot_add_scatter(p, &cs[i].cx, &cs[i].cy, 1, &mst,
+		                             i == 0 ? "circle centre" : NULL, err)))
 			goto out;
 	}
 	snprintf(path, sizeof path, "%s/path_m.svg", dir);
@@ -361,7 +371,7 @@ static wl_status heading_plot(const char *dir, const reader *r, wl_err *err)
 			for (j = 0; j < t->nspans + (size_t)t->in_span; j++) {
 				double t1 = j < t->nspans ? t->spans[j].t1 : t->last_t;
 				if ((s = wl_plot_add_band(p[k], 1, t->spans[j].t0, t1, &band,
-							  first ? "left out (trimmed)" : NULL, err)))
+				                          first ? "left out (trimmed)" : NULL, err)))
 					goto out;
 				first = 0;
 			}
@@ -411,7 +421,8 @@ wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scen
 	if ((s = wl_csv_read(path, on_row, r, err)))
 		goto out;
 	if (r->ntr == 0) {
-		s = wl_err_set(err, WL_EFORMAT, "%s: no rows: nothing was tracked, so there is nothing to plot", path);
+		s = wl_err_set(err, WL_EFORMAT,
+		               "%s: no rows: nothing was tracked, so there is nothing to plot", path);
 		goto out;
 	}
 	for (i = 0; i < r->ntr; i++) {
@@ -451,7 +462,8 @@ wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl
 	if ((s = wl_json_load(cal_path, &root, err)))
 		return s;
 	a = cJSON_GetObjectItemCaseSensitive(root, "tank_outline_m");
-	cJSON_ArrayForEach(p, a) {
+	cJSON_ArrayForEach(p, a)
+	{
 		const cJSON *x = cJSON_GetArrayItem(p, 0), *y = cJSON_GetArrayItem(p, 1);
 		if (nout < 64 && cJSON_IsNumber(x) && cJSON_IsNumber(y)) {
 			sb->outline[nout][0] = x->valuedouble;
@@ -459,7 +471,8 @@ wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl
 		}
 	}
 	a = cJSON_GetObjectItemCaseSensitive(root, "points");
-	cJSON_ArrayForEach(p, a) {
+	cJSON_ArrayForEach(p, a)
+	{
 		double x = wl_json_number_or(p, "x_m", NAN), y = wl_json_number_or(p, "y_m", NAN);
 		if (nmark < 256 && isfinite(x) && isfinite(y)) {
 			sb->markers[nmark][0] = x;
@@ -469,9 +482,9 @@ wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl
 	}
 	sb->json = root;
 	sb->scene.n_outline = nout;
-	sb->scene.outline_m = (const double (*)[2])sb->outline;
+	sb->scene.outline_m = (const double(*)[2])sb->outline;
 	sb->scene.n_markers = nmark;
-	sb->scene.markers_m = (const double (*)[2])sb->markers;
+	sb->scene.markers_m = (const double(*)[2])sb->markers;
 	sb->scene.marker_ids = sb->ids;
 	return WL_OK;
 }

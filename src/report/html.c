@@ -57,12 +57,23 @@ static void esc(FILE *fp, const char *s)
 {
 	for (; s && *s; s++) {
 		switch (*s) {
-		case '&': fputs("&amp;", fp); break;
-		case '<': fputs("&lt;", fp); break;
-		case '>': fputs("&gt;", fp); break;
-		case '"': fputs("&quot;", fp); break;
-		case '\'': fputs("&#39;", fp); break;
-		default: fputc(*s, fp);
+		case '&':
+			fputs("&amp;", fp);
+			break;
+		case '<':
+			fputs("&lt;", fp);
+			break;
+		case '>':
+			fputs("&gt;", fp);
+			break;
+		case '"':
+			fputs("&quot;", fp);
+			break;
+		case '\'':
+			fputs("&#39;", fp);
+			break;
+		default:
+			fputc(*s, fp);
 		}
 	}
 }
@@ -72,46 +83,49 @@ static void url(FILE *fp, const char *s)
 {
 	for (; s && *s; s++) {
 		unsigned char c = (unsigned char)*s;
-		if ((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || strchr("-_.~/", c))
+		if ((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') ||
+		    strchr("-_.~/", c))
 			fputc(c, fp);
 		else
 			fprintf(fp, "%%%02X", c);
 	}
 }
 
-static const char CSS[] =
-	"body{font-family:sans-serif;margin:1.5em;color:#222}"
-	"h1{font-size:1.4em}h2{font-size:1.15em;margin-top:1.6em}"
-	".sweep img{max-width:48%;margin-right:1%;border:1px solid #ddd}"
-	"table{border-collapse:collapse;font-size:0.85em}"
-	"th,td{border:1px solid #ccc;padding:2px 6px;text-align:right;white-space:nowrap}"
-	"td.t,th.t{text-align:left}th{background:#eee;cursor:pointer;position:sticky;top:0}"
-	"th.asc::after{content:' \\25B2'}th.desc::after{content:' \\25BC'}"
-	"img.thumb{width:120px;height:auto;display:block}"
-	".fail td{text-align:left}.msg{white-space:pre-wrap}";
+static const char CSS[] = "body{font-family:sans-serif;margin:1.5em;color:#222}"
+                          "h1{font-size:1.4em}h2{font-size:1.15em;margin-top:1.6em}"
+                          ".sweep img{max-width:48%;margin-right:1%;border:1px solid #ddd}"
+                          "table{border-collapse:collapse;font-size:0.85em}"
+                          "th,td{border:1px solid #ccc;padding:2px 6px;text-align:right;white-space:nowrap}"
+                          "td.t,th.t{text-align:left}th{background:#eee;cursor:pointer;position:sticky;top:0}"
+                          "th.asc::after{content:' \\25B2'}th.desc::after{content:' \\25BC'}"
+                          "img.thumb{width:120px;height:auto;display:block}"
+                          ".fail td{text-align:left}.msg{white-space:pre-wrap}";
 
 /* Sorting: numbers as numbers, empty cells last, text otherwise.  The load
  * handler records how many images loaded, for checks by a headless browser. */
 static const char JS[] =
-	"(function(){\n"
-	"function key(td){var s=td.getAttribute('data-v');if(s===null)s=td.textContent;return s;}\n"
-	"function cmp(a,b){if(a===''&&b==='')return 0;if(a==='')return 1;if(b==='')return -1;\n"
-	" var x=Number(a),y=Number(b);if(!isNaN(x)&&!isNaN(y))return x-y;return a<b?-1:a>b?1:0;}\n"
-	"var t=document.getElementById('runs');if(t){var hs=t.tHead.rows[0].cells;\n"
-	" for(var i=0;i<hs.length;i++)(function(i){var h=hs[i];if(h.className.indexOf('nosort')>=0)return;\n"
-	"  h.addEventListener('click',function(){var dir=h.classList.contains('asc')?-1:1;\n"
-	"   for(var j=0;j<hs.length;j++)hs[j].classList.remove('asc','desc');h.classList.add(dir>0?'asc':'desc');\n"
-	"   var b=t.tBodies[0],rs=Array.prototype.slice.call(b.rows);\n"
-	"   rs.sort(function(p,q){var c=cmp(key(p.cells[i]),key(q.cells[i]));return c===0?0:(c<0?-dir:dir);});\n"
-	"   rs.forEach(function(r){b.appendChild(r);});});})(i);\n"
-	/* report.html#sort=COLUMN (or #sort=COLUMN,desc) opens the table sorted */
-	" var m=/^#sort=([^,]+)(,desc)?$/.exec(decodeURIComponent(location.hash));\n"
-	" if(m)for(var i2=0;i2<hs.length;i2++)if(hs[i2].textContent===m[1]){hs[i2].click();if(m[2])hs[i2].click();}}\n"
-	"window.addEventListener('load',function(){var im=document.images,ok=0;\n"
-	" for(var k=0;k<im.length;k++)if(im[k].complete&&im[k].naturalWidth>0)ok++;\n"
-	" document.body.setAttribute('data-images-total',String(im.length));\n"
-	" document.body.setAttribute('data-images-loaded',String(ok));});\n"
-	"})();\n";
+        "(function(){\n"
+        "function key(td){var s=td.getAttribute('data-v');if(s===null)s=td.textContent;return s;}\n"
+        "function cmp(a,b){if(a===''&&b==='')return 0;if(a==='')return 1;if(b==='')return -1;\n"
+        " var x=Number(a),y=Number(b);if(!isNaN(x)&&!isNaN(y))return x-y;return a<b?-1:a>b?1:0;}\n"
+        "var t=document.getElementById('runs');if(t){var hs=t.tHead.rows[0].cells;\n"
+        " for(var i=0;i<hs.length;i++)(function(i){var h=hs[i];if(h.className.indexOf('nosort')>=0)return;\n"
+        "  h.addEventListener('click',function(){var dir=h.classList.contains('asc')?-1:1;\n"
+        "   for(var "
+        "j=0;j<hs.length;j++)hs[j].classList.remove('asc','desc');h.classList.add(dir>0?'asc':'desc');\n"
+        "   var b=t.tBodies[0],rs=Array.prototype.slice.call(b.rows);\n"
+        "   rs.sort(function(p,q){var c=cmp(key(p.cells[i]),key(q.cells[i]));return "
+        "c===0?0:(c<0?-dir:dir);});\n"
+        "   rs.forEach(function(r){b.appendChild(r);});});})(i);\n"
+        /* report.html#sort=COLUMN (or #sort=COLUMN,desc) opens the table sorted */
+        " var m=/^#sort=([^,]+)(,desc)?$/.exec(decodeURIComponent(location.hash));\n"
+        " if(m)for(var "
+        "i2=0;i2<hs.length;i2++)if(hs[i2].textContent===m[1]){hs[i2].click();if(m[2])hs[i2].click();}}\n"
+        "window.addEventListener('load',function(){var im=document.images,ok=0;\n"
+        " for(var k=0;k<im.length;k++)if(im[k].complete&&im[k].naturalWidth>0)ok++;\n"
+        " document.body.setAttribute('data-images-total',String(im.length));\n"
+        " document.body.setAttribute('data-images-loaded',String(ok));});\n"
+        "})();\n";
 
 static int is_text_col(const wl_report_runs *t, size_t c)
 {
@@ -126,7 +140,7 @@ static int is_text_col(const wl_report_runs *t, size_t c)
 }
 
 wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *title, int with_sweep,
-			 wl_err *err)
+                         wl_err *err)
 {
 	char path[4200];
 	wl_afile *af = NULL;
@@ -162,7 +176,8 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 		      "<img src=\"sweep_curvature.svg\" alt=\"curvature against the sweep column\">"
 		      "<img src=\"sweep_radius.svg\" alt=\"signed radius against the sweep column\"></div>\n",
 		      fp);
-	fputs("<h2>Runs</h2>\n<p>Click a column heading to sort (or open the page as report.html#sort=COLUMN).</p>\n<table id=\"runs\">\n<thead><tr>"
+	fputs("<h2>Runs</h2>\n<p>Click a column heading to sort (or open the page as "
+	      "report.html#sort=COLUMN).</p>\n<table id=\"runs\">\n<thead><tr>"
 	      "<th class=\"nosort t\">path</th><th class=\"t\">clip</th>",
 	      fp);
 	for (j = 0; j < t->ncols; j++) {
@@ -196,7 +211,8 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 	if (!nfail) {
 		fputs("<p id=\"nofailures\">None.</p>\n", fp);
 	} else {
-		fputs("<table id=\"failures\" class=\"fail\">\n<thead><tr><th>clip</th><th>status</th><th>message</th>"
+		fputs("<table id=\"failures\" "
+		      "class=\"fail\">\n<thead><tr><th>clip</th><th>status</th><th>message</th>"
 		      "</tr></thead>\n<tbody>\n",
 		      fp);
 		for (i = 0; i < t->nrows; i++) {

@@ -96,18 +96,36 @@ static void copy_str(char *dst, size_t cap, const char *s)
 	snprintf(dst, cap, "%s", s ? s : "");
 }
 
-void wl_plot_title(wl_plot *p, const char *t) { copy_str(p->title, sizeof p->title, t); }
-void wl_plot_xlabel(wl_plot *p, const char *l) { copy_str(p->ax.label, sizeof p->ax.label, l); }
-void wl_plot_ylabel(wl_plot *p, const char *l) { copy_str(p->ay.label, sizeof p->ay.label, l); }
-void wl_plot_equal_aspect(wl_plot *p, int on) { p->equal = on; }
+void wl_plot_title(wl_plot *p, const char *t)
+{
+	copy_str(p->title, sizeof p->title, t);
+}
+void wl_plot_xlabel(wl_plot *p, const char *l)
+{
+	copy_str(p->ax.label, sizeof p->ax.label, l);
+}
+void wl_plot_ylabel(wl_plot *p, const char *l)
+{
+	copy_str(p->ay.label, sizeof p->ay.label, l);
+}
+void wl_plot_equal_aspect(wl_plot *p, int on)
+{
+	p->equal = on;
+}
 
 static void set_scale(axis *a, wl_scale s, double c)
 {
 	a->scale = s;
 	a->c = c > 0 ? c : 1.0;
 }
-void wl_plot_xscale(wl_plot *p, wl_scale s, double c) { set_scale(&p->ax, s, c); }
-void wl_plot_yscale(wl_plot *p, wl_scale s, double c) { set_scale(&p->ay, s, c); }
+void wl_plot_xscale(wl_plot *p, wl_scale s, double c)
+{
+	set_scale(&p->ax, s, c);
+}
+void wl_plot_yscale(wl_plot *p, wl_scale s, double c)
+{
+	set_scale(&p->ay, s, c);
+}
 
 static void set_lim(axis *a, double lo, double hi)
 {
@@ -115,8 +133,14 @@ static void set_lim(axis *a, double lo, double hi)
 	a->lo = lo;
 	a->hi = hi;
 }
-void wl_plot_xlim(wl_plot *p, double lo, double hi) { set_lim(&p->ax, lo, hi); }
-void wl_plot_ylim(wl_plot *p, double lo, double hi) { set_lim(&p->ay, lo, hi); }
+void wl_plot_xlim(wl_plot *p, double lo, double hi)
+{
+	set_lim(&p->ax, lo, hi);
+}
+void wl_plot_ylim(wl_plot *p, double lo, double hi)
+{
+	set_lim(&p->ay, lo, hi);
+}
 
 wl_status wl_plot_xcategories(wl_plot *p, const char *const *names, size_t n, wl_err *err)
 {
@@ -191,7 +215,7 @@ static item *new_item(wl_plot *p, it_kind k, const wl_style *st, const char *leg
 }
 
 static wl_status add_arrays(wl_plot *p, it_kind k, const double *x, const double *y, const double *lo,
-			    const double *hi, size_t n, const wl_style *st, const char *legend, wl_err *err)
+                            const double *hi, size_t n, const wl_style *st, const char *legend, wl_err *err)
 {
 	int fail = 0;
 	item *it = new_item(p, k, st, legend, err);
@@ -211,13 +235,13 @@ static wl_status add_arrays(wl_plot *p, it_kind k, const double *x, const double
 }
 
 wl_status wl_plot_add_line(wl_plot *p, const double *x, const double *y, size_t n, const wl_style *st,
-			   const char *legend, wl_err *err)
+                           const char *legend, wl_err *err)
 {
 	return add_arrays(p, IT_LINE, x, y, NULL, NULL, n, st, legend, err);
 }
 
 wl_status wl_plot_add_scatter(wl_plot *p, const double *x, const double *y, size_t n, const wl_style *st,
-			      const char *legend, wl_err *err)
+                              const char *legend, wl_err *err)
 {
 	wl_style s = st ? *st : (wl_style){0};
 	if (s.mark == WL_MARK_NONE)
@@ -226,7 +250,8 @@ wl_status wl_plot_add_scatter(wl_plot *p, const double *x, const double *y, size
 }
 
 wl_status wl_plot_add_errorbars(wl_plot *p, const double *x, const double *y, const double *lo,
-				const double *hi, size_t n, const wl_style *st, const char *legend, wl_err *err)
+                                const double *hi, size_t n, const wl_style *st, const char *legend,
+                                wl_err *err)
 {
 	wl_style s = st ? *st : (wl_style){0};
 	if (s.mark == WL_MARK_NONE)
@@ -235,13 +260,13 @@ wl_status wl_plot_add_errorbars(wl_plot *p, const double *x, const double *y, co
 }
 
 wl_status wl_plot_add_polygon(wl_plot *p, const double *x, const double *y, size_t n, const wl_style *st,
-			      const char *legend, wl_err *err)
+                              const char *legend, wl_err *err)
 {
 	return add_arrays(p, IT_POLY, x, y, NULL, NULL, n, st, legend, err);
 }
 
-wl_status wl_plot_add_band(wl_plot *p, int vertical, double a, double b, const wl_style *st, const char *legend,
-			   wl_err *err)
+wl_status wl_plot_add_band(wl_plot *p, int vertical, double a, double b, const wl_style *st,
+                           const char *legend, wl_err *err)
 {
 	item *it = new_item(p, IT_BAND, st, legend, err);
 	if (!it)
@@ -254,7 +279,7 @@ wl_status wl_plot_add_band(wl_plot *p, int vertical, double a, double b, const w
 }
 
 wl_status wl_plot_add_cline(wl_plot *p, const double *x, const double *y, const double *c, size_t n,
-			    double cmin, double cmax, double width_pt, const char *cbar_label, wl_err *err)
+                            double cmin, double cmax, double width_pt, const char *cbar_label, wl_err *err)
 {
 	wl_style st = {{0, 0, 0}, 1, width_pt, 0, WL_MARK_NONE, 0, 0};
 	wl_status s = add_arrays(p, IT_CLINE, x, y, c, NULL, n, &st, NULL, err);
@@ -409,7 +434,7 @@ static void make_frame(const wl_plot *p, double ox, double oy, double w, double 
 }
 
 void wl_plot_layout(const wl_plot *p, double width_pt, double height_pt, double xlim[2], double ylim[2],
-		    double *xticks, size_t *nx, double *yticks, size_t *ny)
+                    double *xticks, size_t *nx, double *yticks, size_t *ny)
 {
 	frame f;
 	make_frame(p, 0, 0, width_pt, height_pt, &f);
@@ -615,7 +640,8 @@ static void draw_item(cairo_t *cr, const wl_plot *p, const frame *f, const item 
 				cairo_set_line_width(cr, it->st.width_pt);
 			}
 			if (isfinite(it->y[j]))
-				draw_mark(cr, it->st.mark, x, py(p, f, it->y[j]), it->st.mark_pt, it->st.fill || it->kind == IT_ERR);
+				draw_mark(cr, it->st.mark, x, py(p, f, it->y[j]), it->st.mark_pt,
+				          it->st.fill || it->kind == IT_ERR);
 		}
 		break;
 	case IT_TEXT:
@@ -714,7 +740,8 @@ static void draw_legend(cairo_t *cr, const wl_plot *p, const frame *f)
 			cairo_fill(cr);
 		} else if (it->kind == IT_SCATTER || it->kind == IT_ERR) {
 			cairo_set_dash(cr, NULL, 0, 0);
-			draw_mark(cr, it->st.mark, x + 12, cy, fmin(it->st.mark_pt, 8), it->st.fill || it->kind == IT_ERR);
+			draw_mark(cr, it->st.mark, x + 12, cy, fmin(it->st.mark_pt, 8),
+			          it->st.fill || it->kind == IT_ERR);
 		} else {
 			cairo_move_to(cr, x + 4, cy);
 			cairo_line_to(cr, x + 20, cy);
@@ -789,7 +816,7 @@ static int ends_with(const char *s, const char *suf)
 }
 
 wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double height_pt, const char *path,
-		       wl_err *err)
+                       wl_err *err)
 {
 	int svg = ends_with(path, ".svg"), png = ends_with(path, ".png");
 	wl_afile *af = NULL;
@@ -800,7 +827,8 @@ wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double
 	size_t i;
 
 	if (!svg && !png)
-		return wl_err_set(err, WL_EINVAL, "cannot tell the image format of '%s': name it .svg or .png", path);
+		return wl_err_set(err, WL_EINVAL,
+		                  "cannot tell the image format of '%s': name it .svg or .png", path);
 	if (n == 0 || !(width_pt > 0) || !(height_pt > 0))
 		return wl_err_set(err, WL_EINVAL, "nothing to draw into '%s'", path);
 	st = wl_afile_open(path, &af, err);
@@ -809,12 +837,14 @@ wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double
 	if (svg)
 		sf = cairo_svg_surface_create_for_stream(write_fp, wl_afile_fp(af), width_pt, height_pt);
 	else
-		sf = cairo_image_surface_create(CAIRO_FORMAT_RGB24, (int)ceil(width_pt), (int)ceil(height_pt));
+		sf = cairo_image_surface_create(CAIRO_FORMAT_RGB24, (int)ceil(width_pt),
+		                                (int)ceil(height_pt));
 	cr = cairo_create(sf);
 	cairo_set_source_rgb(cr, 1, 1, 1);
 	cairo_paint(cr);
 	for (i = 0; i < n; i++)
-		draw_panel(cr, panels[i], 0, height_pt * (double)i / (double)n, width_pt, height_pt / (double)n);
+		draw_panel(cr, panels[i], 0, height_pt * (double)i / (double)n, width_pt,
+		           height_pt / (double)n);
 	cs = cairo_status(cr);
 	cairo_destroy(cr);
 	if (cs == CAIRO_STATUS_SUCCESS && png)
@@ -826,7 +856,8 @@ wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double
 	if (cs != CAIRO_STATUS_SUCCESS) {
 		wl_afile_abort(af);
 		return wl_err_set(err, cs == CAIRO_STATUS_NO_MEMORY ? WL_ENOMEM : WL_EIO,
-				  "cannot draw '%s': %s: check free disk space", path, cairo_status_to_string(cs));
+		                  "cannot draw '%s': %s: check free disk space", path,
+		                  cairo_status_to_string(cs));
 	}
 	return wl_afile_commit(af, err);
 }

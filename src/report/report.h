@@ -82,12 +82,12 @@ typedef enum {
 
 typedef struct {
 	double rgb[3];
-	double alpha;     /* 0 is taken as 1 (opaque) */
-	double width_pt;  /* line width; 0 means 1.5 */
-	int dashed;       /* 1: dashed line */
-	wl_mark mark;     /* marker drawn at every point (scatter, error bars) */
-	double mark_pt;   /* marker size; 0 means 6 */
-	int fill;         /* markers and polygons: 1 filled, 0 outlined */
+	double alpha;    /* 0 is taken as 1 (opaque) */
+	double width_pt; /* line width; 0 means 1.5 */
+	int dashed;      /* 1: dashed line */
+	wl_mark mark;    /* marker drawn at every point (scatter, error bars) */
+	double mark_pt;  /* marker size; 0 means 6 */
+	int fill;        /* markers and polygons: 1 filled, 0 outlined */
 } wl_style;
 
 /* A plot of one panel.  Returns NULL when out of memory. */
@@ -112,24 +112,25 @@ wl_status wl_plot_xcategories(wl_plot *p, const char *const *names, size_t n, wl
 /* Items, drawn in the order added.  `legend` may be NULL (no entry).
  * Points with a NaN coordinate are skipped (and break lines). */
 wl_status wl_plot_add_line(wl_plot *p, const double *x, const double *y, size_t n, const wl_style *st,
-			   const char *legend, wl_err *err);
+                           const char *legend, wl_err *err);
 wl_status wl_plot_add_scatter(wl_plot *p, const double *x, const double *y, size_t n, const wl_style *st,
-			      const char *legend, wl_err *err);
+                              const char *legend, wl_err *err);
 /* Vertical error bars from lo[i] to hi[i] at x[i], with a marker at y[i]. */
 wl_status wl_plot_add_errorbars(wl_plot *p, const double *x, const double *y, const double *lo,
-				const double *hi, size_t n, const wl_style *st, const char *legend, wl_err *err);
+                                const double *hi, size_t n, const wl_style *st, const char *legend,
+                                wl_err *err);
 /* A closed polygon (filled when st->fill). */
 wl_status wl_plot_add_polygon(wl_plot *p, const double *x, const double *y, size_t n, const wl_style *st,
-			      const char *legend, wl_err *err);
+                              const char *legend, wl_err *err);
 /* A shaded span across the whole plot: vertical = 1 shades x in [a, b]
  * (full height), 0 shades y in [a, b] (full width).  a or b may be
  * -INFINITY / INFINITY (to the edge).  Finite ends count for the limits. */
 wl_status wl_plot_add_band(wl_plot *p, int vertical, double a, double b, const wl_style *st,
-			   const char *legend, wl_err *err);
+                           const char *legend, wl_err *err);
 /* A line coloured point by point by c[i] through viridis, c mapped from
  * [cmin, cmax]; adds a colour bar titled cbar_label on the right. */
 wl_status wl_plot_add_cline(wl_plot *p, const double *x, const double *y, const double *c, size_t n,
-			    double cmin, double cmax, double width_pt, const char *cbar_label, wl_err *err);
+                            double cmin, double cmax, double width_pt, const char *cbar_label, wl_err *err);
 /* A text at a data position (left-aligned, small). */
 wl_status wl_plot_add_text(wl_plot *p, double x, double y, const char *text, const wl_style *st, wl_err *err);
 
@@ -137,13 +138,13 @@ wl_status wl_plot_add_text(wl_plot *p, double x, double y, const char *text, con
  * for a panel of width_pt x height_pt; for tests and callers that align
  * panels.  Returns the number of ticks on each axis through nx, ny. */
 void wl_plot_layout(const wl_plot *p, double width_pt, double height_pt, double xlim[2], double ylim[2],
-		    double *xticks, size_t *nx, double *yticks, size_t *ny);
+                    double *xticks, size_t *nx, double *yticks, size_t *ny);
 
 /* Draws panels stacked top to bottom into one figure of width_pt x height_pt
  * and writes it atomically to path: SVG when path ends in ".svg", PNG when
  * it ends in ".png" (one pixel per point), else WL_EINVAL. */
 wl_status wl_plot_save(wl_plot *const *panels, size_t n, double width_pt, double height_pt, const char *path,
-		       wl_err *err);
+                       wl_err *err);
 
 /* Frees cairo's process-wide caches (fonts).  Call once before a program
  * that drew plots exits, after all drawing, so that leak checkers see only
@@ -154,12 +155,12 @@ void wl_report_release_caches(void);
 
 /* What the path plot draws besides the track.  Any field may be empty. */
 typedef struct {
-	size_t n_outline;             /* tank outline polygon, floor metres */
+	size_t n_outline; /* tank outline polygon, floor metres */
 	const double (*outline_m)[2];
-	size_t n_markers;             /* floor markers: centre and id */
+	size_t n_markers; /* floor markers: centre and id */
 	const double (*markers_m)[2];
 	const char *const *marker_ids; /* labels (CAL.json's point ids), may be NULL */
-	double body_diameter_m;       /* 0 if unknown */
+	double body_diameter_m;        /* 0 if unknown */
 } wl_report_scene;
 
 /* A scene read from CAL.json (keys "tank_outline_m": [[x, y], ...] and
@@ -191,17 +192,17 @@ wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scen
 /* One row of summary.csv: a run (or a clip that failed / is missing, with
  * empty measures).  All strings are owned by the table. */
 typedef struct {
-	char *clip;      /* clip path relative to the batch folder */
-	char *folder;    /* its output folder relative to the report's folder */
-	char *status;    /* "ok", "failed", "missing" */
-	char *error;     /* message for failed / missing, else "" */
-	char **cells;    /* ncols cells, "" where empty */
+	char *clip;   /* clip path relative to the batch folder */
+	char *folder; /* its output folder relative to the report's folder */
+	char *status; /* "ok", "failed", "missing" */
+	char *error;  /* message for failed / missing, else "" */
+	char **cells; /* ncols cells, "" where empty */
 } wl_report_row;
 
 typedef struct {
-	size_t ncols;        /* parameter columns then measure columns */
-	char **cols;         /* column names */
-	size_t nparams;      /* the first nparams columns are manifest parameters */
+	size_t ncols;   /* parameter columns then measure columns */
+	char **cols;    /* column names */
+	size_t nparams; /* the first nparams columns are manifest parameters */
 	size_t nrows;
 	wl_report_row *rows;
 	size_t cap;
@@ -214,22 +215,22 @@ int wl_report_runs_col(const wl_report_runs *t, const char *name);
 
 /* Options of the sweep plots. */
 typedef struct {
-	const char *x_col;       /* manifest column on the x axis (NULL: no sweep plot) */
-	const char *group_col;   /* manifest column that groups the points (NULL: one group) */
-	double body_diameter_m;  /* 0: taken from the runs (|radius_m| / radius_body_diameters) */
+	const char *x_col;      /* manifest column on the x axis (NULL: no sweep plot) */
+	const char *group_col;  /* manifest column that groups the points (NULL: one group) */
+	double body_diameter_m; /* 0: taken from the runs (|radius_m| / radius_body_diameters) */
 } wl_report_sweep_opts;
 
 /* Writes sweep_curvature.svg/.png and sweep_radius.svg/.png into dir from
  * the headline runs of t.  Does nothing (WL_OK, *written = 0) when no x column
  * is set or no run has a numeric curvature. */
 wl_status wl_report_sweep_plots(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
-				int *written, wl_err *err);
+                                int *written, wl_err *err);
 
 /* Writes dir/report.html: the sweep plots (when `with_sweep`), a table of
  * all runs sortable by any column, each run's thumbnail (folder/path_m.png)
  * and a link to its folder, and the failures with their messages.  The page
  * loads nothing from the network; images are referenced relatively. */
 wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *title, int with_sweep,
-			 wl_err *err);
+                         wl_err *err);
 
 #endif

@@ -87,19 +87,25 @@ typedef struct {
 
 static wl_status collect(const wl_report_runs *t, const wl_report_sweep_opts *o, sweep *sw, wl_err *err)
 {
-	int cx = wl_report_runs_col(t, o->x_col), cg = o->group_col ? wl_report_runs_col(t, o->group_col) : -1;
-	int ck = wl_report_runs_col(t, "curvature_per_m"), clo = wl_report_runs_col(t, "curvature_ci95_per_m_lo");
+	int cx = wl_report_runs_col(t, o->x_col),
+	    cg = o->group_col ? wl_report_runs_col(t, o->group_col) : -1;
+	int ck = wl_report_runs_col(t, "curvature_per_m"),
+	    clo = wl_report_runs_col(t, "curvature_ci95_per_m_lo");
 	int chi = wl_report_runs_col(t, "curvature_ci95_per_m_hi"), cr = wl_report_runs_col(t, "radius_m");
 	int crb = wl_report_runs_col(t, "radius_body_diameters"), ch = wl_report_runs_col(t, "headline");
 	int cs = wl_report_runs_col(t, "straight");
 	size_t i, numeric = 1;
 
 	if (cx < 0)
-		return wl_err_set(err, WL_EINVAL, "no column '%s' in the manifest for the sweep's x axis: use one of the manifest's columns",
-				  o->x_col);
+		return wl_err_set(err, WL_EINVAL,
+		                  "no column '%s' in the manifest for the sweep's x axis: use one of the "
+		                  "manifest's columns",
+		                  o->x_col);
 	if (o->group_col && cg < 0)
-		return wl_err_set(err, WL_EINVAL, "no column '%s' in the manifest to group by: use one of the manifest's columns",
-				  o->group_col);
+		return wl_err_set(
+		        err, WL_EINVAL,
+		        "no column '%s' in the manifest to group by: use one of the manifest's columns",
+		        o->group_col);
 	sw->p = calloc(t->nrows ? t->nrows : 1, sizeof *sw->p);
 	if (!sw->p)
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the sweep plot");
@@ -223,7 +229,7 @@ static wl_status save_both(wl_plot *p, const char *dir, const char *base, wl_err
 }
 
 wl_status wl_report_sweep_plots(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
-				int *written, wl_err *err)
+                                int *written, wl_err *err)
 {
 	sweep sw;
 	wl_plot *pk = NULL, *pr = NULL;
@@ -280,7 +286,8 @@ wl_status wl_report_sweep_plots(const wl_report_runs *t, const wl_report_sweep_o
 	if ((s = save_both(pk, dir, "sweep_curvature", err)))
 		goto out;
 	/* signed radius, symmetric log */
-	snprintf(title, sizeof title, "signed radius against %s (%zu straight not shown)", o->x_col, sw.nstraight);
+	snprintf(title, sizeof title, "signed radius against %s (%zu straight not shown)", o->x_col,
+	         sw.nstraight);
 	wl_plot_title(pr, title);
 	wl_plot_xlabel(pr, o->x_col);
 	wl_plot_ylabel(pr, "radius (m), symmetric log");

@@ -124,7 +124,8 @@ static void test_manifest(void **state)
 	char path[400];
 	const wl_manifest_row *r;
 	(void)state;
-	mkfile("m/ok.csv", "clip,gain,cal,plane_height_m\n./a.mp4,0.5,cal2.json,0.02\n# a comment\nsub/b.mp4,1,,\n");
+	mkfile("m/ok.csv",
+	       "clip,gain,cal,plane_height_m\n./a.mp4,0.5,cal2.json,0.02\n# a comment\nsub/b.mp4,1,,\n");
 	snprintf(path, sizeof path, "%s/m/ok.csv", root);
 	assert_int_equal(wl_manifest_load(path, &m, &err), WL_OK);
 	assert_int_equal(m.nrows, 2);
@@ -204,8 +205,10 @@ static wl_status fake_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 		return s;
 	if (strncmp(content, "FAIL", 4) == 0) {
 		free(content);
-		return wl_err_set(err, WL_EDECODE, "%s: frame 12: invalid data found when processing input: re-encode the clip",
-				  job->clip_path);
+		return wl_err_set(
+		        err, WL_EDECODE,
+		        "%s: frame 12: invalid data found when processing input: re-encode the clip",
+		        job->clip_path);
 	}
 	if (strncmp(content, "CRASH", 5) == 0)
 		abort();
@@ -216,33 +219,40 @@ static wl_status fake_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 			job->progress(job->progress_ctx, (long)(i + 1) * 100, 500);
 	}
 	free(content);
-	if ((s = put(job->out_dir, "raw.csv", "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n", err)) ||
+	if ((s = put(job->out_dir, "raw.csv",
+	             "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n",
+	             err)) ||
 	    (s = put(job->out_dir, "clean.json", "{}\n", err)))
 		return s;
 	snprintf(path, sizeof path, "%s/clean.csv", job->out_dir);
 	fp = fopen(path, "w");
 	if (!fp)
 		return wl_err_set(err, WL_EIO, "cannot write '%s'", path);
-	fprintf(fp, "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,status,cut\n");
+	fprintf(fp, "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,status,"
+	            "cut\n");
 	for (i = 0; i < 60; i++) {
 		double a = 0.1 * (double)i;
-		fprintf(fp, "%.3f,%zu,1,%.4f,%.4f,%.4f,0.1,0.5,0,0,0,measured,\n", a, i, 0.5 * cos(a), 0.5 * sin(a),
-			a + 1.5707963);
+		fprintf(fp, "%.3f,%zu,1,%.4f,%.4f,%.4f,0.1,0.5,0,0,0,measured,\n", a, i, 0.5 * cos(a),
+		        0.5 * sin(a), a + 1.5707963);
 	}
 	fclose(fp);
 	snprintf(buf, sizeof buf,
-		 "{\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_per_m\":%s,"
-		 "\"curvature_ci95_per_m\":[1.9,2.1],\"straight\":false,\"centre_x_m\":0,\"centre_y_m\":0}]}\n",
-		 job->nparams && job->param_values[0][0] ? job->param_values[0] : "2");
+	         "{\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_per_m\":%"
+	         "s,"
+	         "\"curvature_ci95_per_m\":[1.9,2.1],\"straight\":false,\"centre_x_m\":0,\"centre_y_m\":0}]}"
+	         "\n",
+	         job->nparams && job->param_values[0][0] ? job->param_values[0] : "2");
 	if ((s = put(job->out_dir, "summary.json", buf, err)))
 		return s;
 	return wl_report_clip_plots(job->out_dir, NULL, err);
 }
 
-static const char *const OUTPUTS[] = {"raw.csv", "clean.csv", "clean.json", "summary.json", "path_m.svg",
-				      "path_m.png", "heading.svg", "heading.png", NULL};
+static const char *const OUTPUTS[] = {"raw.csv",      "clean.csv",   "clean.json",
+                                      "summary.json", "path_m.svg",  "path_m.png",
+                                      "heading.svg",  "heading.png", NULL};
 
-static void opts_for(wl_batch_opts *o, const char *clips, const char *out, const char *cal, const char *manifest)
+static void opts_for(wl_batch_opts *o, const char *clips, const char *out, const char *cal,
+                     const char *manifest)
 {
 	memset(o, 0, sizeof *o);
 	o->clip_dir = clips;
@@ -543,10 +553,10 @@ static void test_kill_and_resume(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_discovery_order),
-		cmocka_unit_test(test_manifest),
-		cmocka_unit_test(test_run_resume_and_failures),
-		cmocka_unit_test(test_kill_and_resume),
+	        cmocka_unit_test(test_discovery_order),
+	        cmocka_unit_test(test_manifest),
+	        cmocka_unit_test(test_run_resume_and_failures),
+	        cmocka_unit_test(test_kill_and_resume),
 	};
 	int rc = cmocka_run_group_tests(tests, setup, teardown);
 	wl_report_release_caches();

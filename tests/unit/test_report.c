@@ -119,7 +119,8 @@ static void test_symlog_transform(void **state)
 	(void)state;
 	for (i = 0; i < 5; i++) {
 		assert_true(fabs(wl_symlog(x[i], 0.5) - ref[i]) < 1e-7);
-		assert_true(fabs(wl_symlog_inv(wl_symlog(x[i], 0.5), 0.5) - x[i]) < 1e-12 * fmax(1, fabs(x[i])));
+		assert_true(fabs(wl_symlog_inv(wl_symlog(x[i], 0.5), 0.5) - x[i]) <
+		            1e-12 * fmax(1, fabs(x[i])));
 	}
 	assert_true(wl_symlog(0, 0.5) == 0);
 	/* monotone across the threshold */
@@ -153,9 +154,11 @@ static void test_symlog_ticks(void **state)
 static void test_viridis(void **state)
 {
 	const double t[5] = {0, 0.37, 0.5, 0.8, 1.0};
-	const double ref[5][3] = {{0.267004, 0.004874, 0.329415}, {0.175841, 0.441290, 0.557685},
-				  {0.127568, 0.566949, 0.550556}, {0.477504, 0.821444, 0.318195},
-				  {0.993248, 0.906157, 0.143936}};
+	const double ref[5][3] = {{0.267004, 0.004874, 0.329415},
+	                          {0.175841, 0.441290, 0.557685},
+	                          {0.127568, 0.566949, 0.550556},
+	                          {0.477504, 0.821444, 0.318195},
+	                          {0.993248, 0.906157, 0.143936}};
 	double rgb[3];
 	int i, k;
 	(void)state;
@@ -299,7 +302,8 @@ static void test_layout_equal_aspect_and_symlog(void **state)
 		wl_plot_layout(p, 640, 440, xl, yl, xt, &nx, yt, &ny);
 		assert_true(yl[0] < -40 && yl[1] > 300);
 		for (i = 0; i < ny; i++)
-			assert_true(yt[i] == 0 || fabs(log10(fabs(yt[i]) / 0.1) - round(log10(fabs(yt[i]) / 0.1))) < 1e-9);
+			assert_true(yt[i] == 0 ||
+			            fabs(log10(fabs(yt[i]) / 0.1) - round(log10(fabs(yt[i]) / 0.1))) < 1e-9);
 	}
 	wl_plot_destroy(p);
 }
@@ -324,24 +328,25 @@ static void make_clip_folder(const char *dir, int nrows)
 	snprintf(path, sizeof path, "%s/clean.csv", dir);
 	fp = fopen(path, "w");
 	assert_non_null(fp);
-	fprintf(fp, "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,status,cut\n");
+	fprintf(fp, "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,status,"
+	            "cut\n");
 	for (i = 0; i < nrows; i++) {
 		double t = i / 30.0, a = 0.3 * t, h = atan2(cos(a), -sin(a));
 		fprintf(fp, "%.4f,%d,7,%.5f,%.5f,%.5f,0.12,0.3,0,0,%d,measured,%s\n", t, i, 1 + 0.4 * cos(a),
-			0.5 + 0.4 * sin(a), h, t < 2 ? -1 : 0, t < 2 ? "start" : "");
+		        0.5 + 0.4 * sin(a), h, t < 2 ? -1 : 0, t < 2 ? "start" : "");
 	}
 	fclose(fp);
 	snprintf(path, sizeof path, "%s/summary.json", dir);
 	write_text(path, "{\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
-			 "\"curvature_per_m\":2.5,\"curvature_ci95_per_m\":[2.4,2.6],\"straight\":false,"
-			 "\"centre_x_m\":1,\"centre_y_m\":0.5}]}\n");
+	                 "\"curvature_per_m\":2.5,\"curvature_ci95_per_m\":[2.4,2.6],\"straight\":false,"
+	                 "\"centre_x_m\":1,\"centre_y_m\":0.5}]}\n");
 }
 
 static void test_clip_plots(void **state)
 {
 	double outline[4][2] = {{0, 0}, {2, 0}, {2, 1.2}, {0, 1.2}}, markers[2][2] = {{0.1, 0.1}, {1.9, 1.1}};
 	const char *ids[2] = {"A0", "A1"};
-	wl_report_scene sc = {4, (const double (*)[2])outline, 2, (const double (*)[2])markers, ids, 0.1};
+	wl_report_scene sc = {4, (const double(*)[2])outline, 2, (const double(*)[2])markers, ids, 0.1};
 	char path[400];
 	wl_err err;
 	(void)state;
@@ -375,15 +380,17 @@ static void test_scene_load(void **state)
 	wl_err err;
 	(void)state;
 	snprintf(path, sizeof path, "%s/cal.json", tmpdir);
-	write_text(path, "{\"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
-			 " \"points\": [{\"id\": \"M1\", \"x_m\": 0.1, \"y_m\": 0.2}, {\"id\": \"M2\", \"x_m\": 2.3,"
-			 " \"y_m\": 1.3}, {\"id\": \"bad\"}]}\n");
+	write_text(
+	        path,
+	        "{\"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
+	        " \"points\": [{\"id\": \"M1\", \"x_m\": 0.1, \"y_m\": 0.2}, {\"id\": \"M2\", \"x_m\": 2.3,"
+	        " \"y_m\": 1.3}, {\"id\": \"bad\"}]}\n");
 	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
 	assert_int_equal(sb.scene.n_outline, 4);
 	assert_true(sb.scene.outline_m[2][0] == 2.4 && sb.scene.outline_m[2][1] == 1.4);
 	assert_int_equal(sb.scene.n_markers, 2);
 	assert_string_equal(sb.scene.marker_ids[1], "M2");
-		wl_report_scene_release(&sb);
+	wl_report_scene_release(&sb);
 	snprintf(path, sizeof path, "%s/nope.json", tmpdir);
 	assert_int_not_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
 	assert_int_equal(sb.scene.n_outline, 0);
@@ -402,8 +409,15 @@ static char *xs(const char *s)
 
 static void make_runs(wl_report_runs *t, size_t n)
 {
-	const char *cols[] = {"gain", "shape", "headline", "radius_m", "curvature_per_m", "curvature_ci95_per_m_lo",
-			      "curvature_ci95_per_m_hi", "straight", "radius_body_diameters"};
+	const char *cols[] = {"gain",
+	                      "shape",
+	                      "headline",
+	                      "radius_m",
+	                      "curvature_per_m",
+	                      "curvature_ci95_per_m_lo",
+	                      "curvature_ci95_per_m_hi",
+	                      "straight",
+	                      "radius_body_diameters"};
 	size_t i, j;
 	wl_report_runs_init(t);
 	t->ncols = 9;
@@ -487,17 +501,17 @@ static void test_sweep_and_html(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_ticks_linear_examples),
-		cmocka_unit_test(test_ticks_linear_properties),
-		cmocka_unit_test(test_symlog_transform),
-		cmocka_unit_test(test_symlog_ticks),
-		cmocka_unit_test(test_viridis),
-		cmocka_unit_test(test_tick_labels_locale),
-		cmocka_unit_test(test_plot_files),
-		cmocka_unit_test(test_layout_equal_aspect_and_symlog),
-		cmocka_unit_test(test_clip_plots),
-		cmocka_unit_test(test_scene_load),
-		cmocka_unit_test(test_sweep_and_html),
+	        cmocka_unit_test(test_ticks_linear_examples),
+	        cmocka_unit_test(test_ticks_linear_properties),
+	        cmocka_unit_test(test_symlog_transform),
+	        cmocka_unit_test(test_symlog_ticks),
+	        cmocka_unit_test(test_viridis),
+	        cmocka_unit_test(test_tick_labels_locale),
+	        cmocka_unit_test(test_plot_files),
+	        cmocka_unit_test(test_layout_equal_aspect_and_symlog),
+	        cmocka_unit_test(test_clip_plots),
+	        cmocka_unit_test(test_scene_load),
+	        cmocka_unit_test(test_sweep_and_html),
 	};
 	int rc = cmocka_run_group_tests(tests, setup_dir, teardown_dir);
 	wl_report_release_caches();
