@@ -474,6 +474,11 @@ wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl
 	cJSON_ArrayForEach(p, a)
 	{
 		double x = wl_json_number_or(p, "x_m", NAN), y = wl_json_number_or(p, "y_m", NAN);
+		const char *id = wl_json_string_or(p, "id", NULL);
+		/* a marker's corners ("7.c0".."7.c3") would only clutter the map:
+		 * the plot shows marker centres with their ids */
+		if (id && strchr(id, '.'))
+			continue;
 		if (nmark < 256 && isfinite(x) && isfinite(y)) {
 			sb->markers[nmark][0] = x;
 			sb->markers[nmark][1] = y;

@@ -704,6 +704,42 @@ static void draw_axes(cairo_t *cr, const wl_plot *p, const frame *f)
 	cairo_select_font_face(cr, FONT, CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
 }
 
+/* Data points of the plot inside the box (x, y, w, h), in page points. */
+static size_t points_under(const wl_plot *p, const frame *f, double x, double y, double w, double h)
+{
+	size_t hits = 0;
+	for (size_t i = 0; i < p->n; i++) {
+		const item *it = &p->items[i];
+		if (it->kind != IT_LINE && it->kind != IT_SCATTER && it->kind != IT_ERR && it->kind != IT_CLINE)
+			continue;
+		for (size_t k = 0; k < it->n; k++) {
+			double u = px(p, f, it->x[k]), v = py(p, f, it->y[k]);
+			if (u >= x && u <= x + w && v >= y && v <= y + h)
+				hits++;
+		}
+	}
+	return hits;
+}
+
+/* The legend goes in the corner of the plot area that hides the fewest data
+ * points (top right first, on a tie). */
+static void legend_corner(const wl_plot *p, const frame *f, double w, double h, double *x, double *y)
+{
+	double xs[2] = { f->x0 + f->w - w - 4, f->x0 + 4 }, ys[2] = { f->y0 + 4, f->y0 + f->h - h - 4 };
+	size_t best = (size_t)-1;
+	*x = xs[0];
+	*y = ys[0];
+	for (int j = 0; j < 2; j++)
+		for (int i = 0; i < 2; i++) {
+			size_t hits = points_under(p, f, xs[i], ys[j], w, h);
+			if (hits < best) {
+				best = hits;
+				*x = xs[i];
+				*y = ys[j];
+			}
+		}
+}
+
 static void draw_legend(cairo_t *cr, const wl_plot *p, const frame *f)
 {
 	size_t i, n = 0;
@@ -719,8 +755,7 @@ static void draw_legend(cairo_t *cr, const wl_plot *p, const frame *f)
 	}
 	if (!n)
 		return;
-	x = f->x0 + f->w - wmax - 34;
-	y = f->y0 + 4;
+	legend_corner(p, f, wmax + 30, row * (double)n + 6, &x, &y);
 	cairo_set_source_rgba(cr, 1, 1, 1, 0.85);
 	cairo_rectangle(cr, x, y, wmax + 30, row * (double)n + 6);
 	cairo_fill_preserve(cr);
