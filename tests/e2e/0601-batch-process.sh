@@ -1,12 +1,15 @@
 #!/usr/bin/env bash
 # batch on real clips: an invented scene (one tagged robot circling
 # counter-clockwise on r = 0.4 m, curvature 2.5 /m, in a 2.4 m tank) rendered
-# by `wakeline synth`, copied under three names with a manifest, plus a file
-# that is not a video and a manifest row naming a missing clip.  Checks: the
-# two good clips give curvature 2.5 /m within 1 % (the renderer's path) and
-# a counter-clockwise (positive) radius, the bad clip is listed failed with
-# the decoder's message, the exit status is 1; a rerun skips the done clips;
-# `process` on one clip gives the same summary.json runs as the batch.
+# by `wakeline synth`, copied under five names, plus a file that is not a
+# video: six clips, one of them without a manifest row, and a manifest row
+# naming a missing clip.  Checks: the five good clips give curvature 2.5 /m
+# within 1 % (the renderer's path) and a counter-clockwise (positive)
+# radius, the one without a row has empty parameter cells and a warning, the
+# bad clip is listed failed with the decoder's message, the exit status is 1;
+# a rerun skips the done clips; a batch killed with SIGKILL in the middle
+# finishes on the rerun without redoing completed clips, and every file
+# parses; `process` on one clip gives the same summary.json runs as the batch.
 set -euo pipefail
 : "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
 PY=/usr/bin/python3
@@ -30,8 +33,10 @@ $PY "$CAL_PY" clip.scene.json cal.json 0.25 || fail "cannot build cal.json"
 mkdir -p clips/day2
 cp clip.mp4 clips/g1.mp4
 cp clip.mp4 clips/day2/g2.MOV
+for n in 3 4 5; do cp clip.mp4 clips/g$n.mp4; done
 echo "this is not a video" > clips/broken.mp4
-printf 'clip,gain,fin\ng1.mp4,0.5,round\nday2/g2.MOV,1.0,swept\nbroken.mp4,2,round\ngone.mp4,3,round\n' > manifest.csv
+# g5.mp4 has no row
+printf 'clip,gain,fin\ng1.mp4,0.5,round\nday2/g2.MOV,1.0,swept\nbroken.mp4,2,round\ngone.mp4,3,round\ng3.mp4,1.5,round\ng4.mp4,2.0,swept\n' > manifest.csv
 
 # usage and manifest errors stop before anything runs
 set +e
@@ -47,14 +52,17 @@ grep -q "dup.csv:3: clip 'g1.mp4' is listed again (first on line 2)" dup.err || 
 rc=$?
 set -e
 [ "$rc" -eq 1 ] || fail "batch with a bad clip exited $rc, wants 1: $(cat batch1.err)"
-grep -q "3 clips: 2 done, 0 already complete, 1 failed; 1 manifest rows name missing" batch1.txt ||
+grep -q "6 clips: 5 done, 0 already complete, 1 failed; 1 manifest rows name missing clips; 1 without a manifest row" batch1.txt ||
 	fail "batch said: $(cat batch1.txt)"
+grep -q "g5.mp4" batch1.err || fail "no warning for the clip without a manifest row: $(cat batch1.err)"
 
 $PY - <<'PYEOF' || fail "summary.csv"
 import csv
 rows = {r["clip"]: r for r in csv.DictReader(open("out/summary.csv"))}
-assert set(rows) == {"g1.mp4", "day2/g2.MOV", "broken.mp4", "gone.mp4"}, rows.keys()
-for c in ("g1.mp4", "day2/g2.MOV"):
+good = ("g1.mp4", "day2/g2.MOV", "g3.mp4", "g4.mp4", "g5.mp4")
+assert set(rows) == set(good) | {"broken.mp4", "gone.mp4"}, rows.keys()
+assert rows["g5.mp4"]["gain"] == "" and rows["g5.mp4"]["fin"] == "", rows["g5.mp4"]
+for c in good:
     r = rows[c]
     assert r["status"] == "ok" and r["headline"] == "true", r
     k = float(r["curvature_per_m"])
@@ -77,8 +85,47 @@ done
 set +e
 "$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o out -j 2 --x gain --group fin > batch2.txt 2> batch2.err
 set -e
-grep -q "3 clips: 0 done, 2 already complete, 1 failed" batch2.txt || fail "rerun said: $(cat batch2.txt)"
-[ "$(grep -c $'\tskip\t' out/journal.log)" -eq 2 ] || fail "journal has not 2 skip lines"
+grep -q "6 clips: 0 done, 5 already complete, 1 failed" batch2.txt || fail "rerun said: $(cat batch2.txt)"
+[ "$(grep -c $'\tskip\t' out/journal.log)" -eq 5 ] || fail "journal has not 5 skip lines"
+
+# SIGKILL in the middle: one worker at a time, killed once two clips are done
+rm -f clips/broken.mp4
+"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o killed -j 1 -q > /dev/null 2>&1 &
+bpid=$!
+for _ in $(seq 1 600); do
+	[ "$(ls killed/clips/*/clip.json 2>/dev/null | wc -l)" -ge 2 ] && break
+	sleep 0.1
+done
+kill -9 "$bpid" 2>/dev/null || fail "the batch ended before it could be killed"
+wait "$bpid" 2>/dev/null || true
+done_before=$(ls killed/clips/*/clip.json | wc -l)
+[ "$done_before" -ge 2 ] && [ "$done_before" -lt 5 ] || fail "$done_before clips done at the kill, wants 2..4"
+set +e
+"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o killed -j 2 > batch3.txt 2> batch3.err
+set -e
+grep -q "5 clips: $((5 - done_before)) done, $done_before already complete, 0 failed" batch3.txt ||
+	fail "rerun after SIGKILL said: $(cat batch3.txt)"
+$PY - <<'PYEOF' || fail "a file in killed/ does not parse"
+import csv, glob, json, os, xml.etree.ElementTree as ET
+n = 0
+for f in glob.glob("killed/**/*", recursive=True):
+    if os.path.isdir(f):
+        continue
+    assert ".tmp-" not in os.path.basename(f), "temporary file left: " + f
+    if f.endswith(".json"):
+        json.load(open(f))
+    elif f.endswith(".csv"):
+        rows = list(csv.reader(open(f)))
+        assert rows and all(len(r) == len(rows[0]) for r in rows), f
+    elif f.endswith(".svg"):
+        ET.parse(f)
+    elif f.endswith(".png"):
+        assert open(f, "rb").read(8) == b"\x89PNG\r\n\x1a\n", f
+    n += 1
+rows = list(csv.DictReader(open("killed/summary.csv")))
+assert len(rows) == 7 and sum(r["status"] == "ok" for r in rows) == 5, [(r["clip"], r["status"]) for r in rows]
+print("after SIGKILL and rerun: %d files parse, 5 clips ok" % n)
+PYEOF
 
 # process alone gives the same runs
 "$WAKELINE" process clips/g1.mp4 --cal cal.json -o single -q || fail "process exited $?"
