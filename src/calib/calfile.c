@@ -62,14 +62,15 @@ int wl_calib_pixel_to_plane(const wl_calib *cal, double u, double v, double z_m,
 }
 
 wl_status wl_calib_check_clip(const wl_calib *cal, const char *cal_path, int width_px, int height_px,
-			      int displayed, wl_err *err)
+                              int displayed, wl_err *err)
 {
 	const char *want = cal->displayed ? "displayed" : "coded", *have = displayed ? "displayed" : "coded";
 	if (cal->cam.width_px != width_px || cal->cam.height_px != height_px || cal->displayed != displayed)
-		return wl_err_set(err, WL_ECALIB,
-				  "%s: calibrated for %dx%d %s pixels but the clip gives %dx%d %s pixels: "
-				  "calibrate this camera setting (wakeline calibrate) or use the matching clip",
-				  cal_path, cal->cam.width_px, cal->cam.height_px, want, width_px, height_px, have);
+		return wl_err_set(
+		        err, WL_ECALIB,
+		        "%s: calibrated for %dx%d %s pixels but the clip gives %dx%d %s pixels: "
+		        "calibrate this camera setting (wakeline calibrate) or use the matching clip",
+		        cal_path, cal->cam.width_px, cal->cam.height_px, want, width_px, height_px, have);
 	return WL_OK;
 }
 
@@ -127,7 +128,7 @@ static cJSON *build_json(const wl_calib *cal)
 {
 	cJSON *root = cJSON_CreateObject(), *o;
 	const wl_camera *c = &cal->cam;
-	double pos[3], rvec[3], size[2] = { c->width_px, c->height_px };
+	double pos[3], rvec[3], size[2] = {c->width_px, c->height_px};
 	char when[32];
 	if (!root)
 		return NULL;
@@ -153,7 +154,8 @@ static cJSON *build_json(const wl_calib *cal)
 	if (o) {
 		cJSON_AddNumberToObject(o, "depth_m", c->water_depth_m);
 		cJSON_AddNumberToObject(o, "index", c->water_index);
-		cJSON_AddStringToObject(o, "model", c->water_depth_m > 0 ? "flat surface, Snell's law" : "none");
+		cJSON_AddStringToObject(o, "model",
+		                        c->water_depth_m > 0 ? "flat surface, Snell's law" : "none");
 	}
 	if (isfinite(cal->rms_px))
 		cJSON_AddNumberToObject(root, "rms_px", cal->rms_px);
@@ -209,19 +211,22 @@ static wl_status get_mat3(const cJSON *obj, const char *key, const char *name, d
 	if (cJSON_IsArray(a) && cJSON_GetArraySize(a) == 9)
 		return wl_json_numbers(obj, key, name, m, 9, err);
 	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) != 3)
-		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' must be a 3x3 matrix (three rows of three numbers)",
-				  name, key);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key '%s' must be a 3x3 matrix (three rows of three numbers)", name,
+		                  key);
 	cJSON_ArrayForEach(row, a)
 	{
 		int c = 0;
 		const cJSON *v;
 		if (!cJSON_IsArray(row) || cJSON_GetArraySize(row) != 3)
-			return wl_err_set(err, WL_EFORMAT, "%s: key '%s': row %d must hold three numbers", name, key, r);
+			return wl_err_set(err, WL_EFORMAT, "%s: key '%s': row %d must hold three numbers",
+			                  name, key, r);
 		cJSON_ArrayForEach(v, row)
 		{
 			if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
-				return wl_err_set(err, WL_EFORMAT, "%s: key '%s': row %d, column %d is not a number", name,
-						  key, r, c);
+				return wl_err_set(err, WL_EFORMAT,
+				                  "%s: key '%s': row %d, column %d is not a number", name,
+				                  key, r, c);
 			m[3 * r + c++] = v->valuedouble;
 		}
 		r++;
@@ -230,13 +235,14 @@ static wl_status get_mat3(const cJSON *obj, const char *key, const char *name, d
 }
 
 static wl_status copy_string(const cJSON *obj, const char *key, const char *name, char *dst, size_t cap,
-			     int required, wl_err *err)
+                             int required, wl_err *err)
 {
 	const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, key);
 	if (!v && !required)
 		return WL_OK;
 	if (!cJSON_IsString(v))
-		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' %s", name, key, v ? "must be a string" : "is missing");
+		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' %s", name, key,
+		                  v ? "must be a string" : "is missing");
 	snprintf(dst, cap, "%s", v->valuestring);
 	return WL_OK;
 }
@@ -255,7 +261,7 @@ static wl_status load_points(const cJSON *root, const char *name, wl_calib *cal,
 		char key[48];
 		if (i >= WL_CALIB_MAX_POINTS)
 			return wl_err_set(err, WL_ELIMIT, "%s: key 'points': more than %d points", name,
-					  WL_CALIB_MAX_POINTS);
+			                  WL_CALIB_MAX_POINTS);
 		p = &cal->points[i];
 		snprintf(key, sizeof key, "points[%d]", i);
 		if (!cJSON_IsObject(o))
@@ -270,8 +276,8 @@ static wl_status load_points(const cJSON *root, const char *name, wl_calib *cal,
 		p->residual_mm = wl_json_number_or(o, "residual_mm", NAN);
 		p->used = !cJSON_IsFalse(cJSON_GetObjectItemCaseSensitive(o, "used"));
 		if (!isfinite(p->u_px) || !isfinite(p->v_px) || !isfinite(p->x_m) || !isfinite(p->y_m))
-			return wl_err_set(err, WL_EFORMAT, "%s: key '%s': u_px, v_px, x_m and y_m must be numbers", name,
-					  key);
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s: key '%s': u_px, v_px, x_m and y_m must be numbers", name, key);
 		i++;
 	}
 	cal->n_points = i;
@@ -285,15 +291,17 @@ static wl_status load_outline(const cJSON *root, const char *name, wl_calib *cal
 	if (!a)
 		return wl_err_set(err, WL_EFORMAT, "%s: key 'tank_outline_m' is missing", name);
 	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) < 3 || cJSON_GetArraySize(a) > WL_CALIB_MAX_OUTLINE)
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'tank_outline_m' must be an array of 3 to %d [x, y] points",
-				  name, WL_CALIB_MAX_OUTLINE);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'tank_outline_m' must be an array of 3 to %d [x, y] points", name,
+		                  WL_CALIB_MAX_OUTLINE);
 	cJSON_ArrayForEach(pt, a)
 	{
 		const cJSON *x = cJSON_GetArrayItem(pt, 0), *y = cJSON_GetArrayItem(pt, 1);
-		if (!cJSON_IsArray(pt) || cJSON_GetArraySize(pt) != 2 || !cJSON_IsNumber(x) || !cJSON_IsNumber(y) ||
-		    !isfinite(x->valuedouble) || !isfinite(y->valuedouble))
-			return wl_err_set(err, WL_EFORMAT, "%s: key 'tank_outline_m': item %d must be [x, y] in metres",
-					  name, i);
+		if (!cJSON_IsArray(pt) || cJSON_GetArraySize(pt) != 2 || !cJSON_IsNumber(x) ||
+		    !cJSON_IsNumber(y) || !isfinite(x->valuedouble) || !isfinite(y->valuedouble))
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s: key 'tank_outline_m': item %d must be [x, y] in metres", name,
+			                  i);
 		cal->outline_m[i][0] = x->valuedouble;
 		cal->outline_m[i][1] = y->valuedouble;
 		i++;
@@ -308,28 +316,30 @@ static wl_status check_model(const wl_calib *cal, const double pos[3], const cha
 	double RRt[9], Rt[9], C[3], dev = 0;
 	if (!(c->K[0] > 0) || !(c->K[4] > 0) || c->K[3] != 0 || c->K[6] != 0 || c->K[7] != 0 || c->K[8] != 1)
 		return wl_err_set(err, WL_EFORMAT,
-				  "%s: key 'camera_matrix' must be [[fx, s, cx], [0, fy, cy], [0, 0, 1]] with fx, fy > 0",
-				  name);
+		                  "%s: key 'camera_matrix' must be [[fx, s, cx], [0, fy, cy], [0, 0, 1]] "
+		                  "with fx, fy > 0",
+		                  name);
 	wl_mat_transpose(c->R, Rt, 3, 3);
 	wl_mul3(c->R, Rt, RRt);
 	for (int i = 0; i < 9; i++)
 		dev = fmax(dev, fabs(RRt[i] - (i % 4 == 0)));
 	if (dev > 1e-6 || wl_det3(c->R) < 0)
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'camera_rotation' is not a rotation matrix: recalibrate",
-				  name);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'camera_rotation' is not a rotation matrix: recalibrate", name);
 	wl_camera_position(c, C);
 	if (fabs(C[0] - pos[0]) + fabs(C[1] - pos[1]) + fabs(C[2] - pos[2]) > 1e-3)
 		return wl_err_set(err, WL_EFORMAT,
-				  "%s: key 'camera_position_m' disagrees with 'camera_rotation' and "
-				  "'camera_translation_m': the file was edited by hand; recalibrate",
-				  name);
+		                  "%s: key 'camera_position_m' disagrees with 'camera_rotation' and "
+		                  "'camera_translation_m': the file was edited by hand; recalibrate",
+		                  name);
 	if (!(C[2] > 0))
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'camera_position_m': the camera is not above the floor",
-				  name);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'camera_position_m': the camera is not above the floor", name);
 	if (fabs(wl_det3(cal->H_px_to_m)) < 1e-300)
 		return wl_err_set(err, WL_EFORMAT, "%s: key 'homography_px_to_m' is singular", name);
 	if (c->water_depth_m < 0 || (c->water_depth_m > 0 && !(c->water_index >= 1 && c->water_index < 3)))
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'water': depth_m must be >= 0 and index in [1, 3)", name);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'water': depth_m must be >= 0 and index in [1, 3)", name);
 	if (c->water_depth_m >= C[2])
 		return wl_err_set(err, WL_EFORMAT, "%s: key 'water': depth_m is above the camera", name);
 	return WL_OK;
@@ -342,23 +352,25 @@ static wl_status parse(const cJSON *root, const char *name, wl_calib *cal, wl_er
 	const cJSON *water, *prov;
 	wl_status st;
 	if (!cJSON_IsObject(root))
-		return wl_err_set(err, WL_EFORMAT, "%s: not a calibration file (expected a JSON object)", name);
+		return wl_err_set(err, WL_EFORMAT, "%s: not a calibration file (expected a JSON object)",
+		                  name);
 	fmt = wl_json_string_or(root, "format", NULL);
 	if (fmt && strcmp(fmt, CAL_FORMAT) != 0)
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'format' is '%s', not '%s': is this a CAL.json?", name, fmt,
-				  CAL_FORMAT);
+		return wl_err_set(err, WL_EFORMAT, "%s: key 'format' is '%s', not '%s': is this a CAL.json?",
+		                  name, fmt, CAL_FORMAT);
 	if ((st = wl_json_numbers(root, "image_size_px", name, size, 2, err)))
 		return st;
 	if (!(size[0] >= 1 && size[1] >= 1 && size[0] == floor(size[0]) && size[1] == floor(size[1]) &&
 	      size[0] < 1e6 && size[1] < 1e6))
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'image_size_px' must be two positive whole numbers", name);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'image_size_px' must be two positive whole numbers", name);
 	cal->cam.width_px = (int)size[0];
 	cal->cam.height_px = (int)size[1];
 	if ((st = wl_json_string(root, "pixels", name, &pix, err)))
 		return st;
 	if (strcmp(pix, "coded") && strcmp(pix, "displayed"))
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'pixels' must be \"coded\" or \"displayed\", not '%s'", name,
-				  pix);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'pixels' must be \"coded\" or \"displayed\", not '%s'", name, pix);
 	cal->displayed = strcmp(pix, "displayed") == 0;
 	v = wl_json_number_or(root, "rotation_deg", 0);
 	cal->rotation_deg = (int)v;
@@ -375,23 +387,25 @@ static wl_status parse(const cJSON *root, const char *name, wl_calib *cal, wl_er
 	water = cJSON_GetObjectItemCaseSensitive(root, "water");
 	if (!cJSON_IsObject(water))
 		return wl_err_set(err, WL_EFORMAT, "%s: key 'water' %s", name,
-				  water ? "must be an object {depth_m, index}" : "is missing");
+		                  water ? "must be an object {depth_m, index}" : "is missing");
 	cal->cam.water_depth_m = wl_json_number_or(water, "depth_m", NAN);
 	if (!isfinite(cal->cam.water_depth_m))
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'water.depth_m' is missing or not a number (0: no water)",
-				  name);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'water.depth_m' is missing or not a number (0: no water)", name);
 	cal->cam.water_index = wl_json_number_or(water, "index", WL_WATER_INDEX);
 	cal->rms_px = wl_json_number_or(root, "rms_px", NAN);
 	cal->rms_mm = wl_json_number_or(root, "rms_mm", NAN);
 	if ((st = copy_string(root, "intrinsics_source", name, cal->intrinsics_source,
-			      sizeof cal->intrinsics_source, 1, err)) ||
+	                      sizeof cal->intrinsics_source, 1, err)) ||
 	    (st = load_outline(root, name, cal, err)) || (st = load_points(root, name, cal, err)))
 		return st;
 	prov = cJSON_GetObjectItemCaseSensitive(root, "provenance");
 	if (cJSON_IsObject(prov)) {
 		snprintf(cal->source, sizeof cal->source, "%s", wl_json_string_or(prov, "source", ""));
-		snprintf(cal->created_utc, sizeof cal->created_utc, "%s", wl_json_string_or(prov, "created_utc", ""));
-		snprintf(cal->tool_version, sizeof cal->tool_version, "%s", wl_json_string_or(prov, "version", ""));
+		snprintf(cal->created_utc, sizeof cal->created_utc, "%s",
+		         wl_json_string_or(prov, "created_utc", ""));
+		snprintf(cal->tool_version, sizeof cal->tool_version, "%s",
+		         wl_json_string_or(prov, "version", ""));
 	}
 	return check_model(cal, pos, name, err);
 }

@@ -33,21 +33,21 @@ typedef struct {
 } wl_calib_point;
 
 typedef struct {
-	wl_camera cam;             /* intrinsics, distortion, pose, water layer */
-	int displayed;             /* 1: pixels are displayed (rotation applied), 0: coded */
-	int rotation_deg;          /* the clip's display rotation when calibrated */
-	double H_px_to_m[9];       /* floor-plane homography, pixels -> metres (row-major) */
-	double plane_height_m;     /* default height of the tracked marker plane above the floor */
-	double rms_px, rms_mm;     /* reprojection quality */
-	int n_outline;             /* tank outline polygon in floor metres, counter-clockwise */
+	wl_camera cam;         /* intrinsics, distortion, pose, water layer */
+	int displayed;         /* 1: pixels are displayed (rotation applied), 0: coded */
+	int rotation_deg;      /* the clip's display rotation when calibrated */
+	double H_px_to_m[9];   /* floor-plane homography, pixels -> metres (row-major) */
+	double plane_height_m; /* default height of the tracked marker plane above the floor */
+	double rms_px, rms_mm; /* reprojection quality */
+	int n_outline;         /* tank outline polygon in floor metres, counter-clockwise */
 	double outline_m[WL_CALIB_MAX_OUTLINE][2];
 	char intrinsics_source[32]; /* "lens", "homography", "hfov", "points3d" */
-	char source[1024];         /* the calibrated clip or image */
+	char source[1024];          /* the calibrated clip or image */
 	/* added by the calibration stage: */
-	int n_points;              /* correspondences and their residuals */
+	int n_points; /* correspondences and their residuals */
 	wl_calib_point points[WL_CALIB_MAX_POINTS];
-	char created_utc[32];      /* "2026-12-02T03:04:05Z"; filled by save when empty */
-	char tool_version[64];     /* the wakeline version that wrote the file (on load) */
+	char created_utc[32];  /* "2026-12-02T03:04:05Z"; filled by save when empty */
+	char tool_version[64]; /* the wakeline version that wrote the file (on load) */
 } wl_calib;
 
 void wl_calib_init(wl_calib *cal);
@@ -67,7 +67,7 @@ int wl_calib_pixel_to_plane(const wl_calib *cal, double u, double v, double z_m,
 /* Refuses a calibration for a clip of another size or orientation, with a
  * message that names both. */
 wl_status wl_calib_check_clip(const wl_calib *cal, const char *cal_path, int width_px, int height_px,
-			      int displayed, wl_err *err);
+                              int displayed, wl_err *err);
 
 /* Camera height above the floor (m) and tilt of the optical axis from
  * nadir (degrees) of a calibration's camera. */
@@ -77,14 +77,14 @@ double wl_calib_camera_tilt_deg(const wl_calib *cal);
 /* ---- solving: correspondences -> wl_calib -------------------------- */
 
 typedef struct {
-	int width_px, height_px;   /* the image the pixels belong to */
-	const wl_camera *lens;     /* known intrinsics + distortion (LENS.json), or NULL */
-	double hfov_deg;           /* > 0: horizontal field of view to fall back on */
-	double water_depth_m;      /* > 0: the floor lies under this much water */
-	double water_index;        /* refractive index (WL_WATER_INDEX) */
-	double plane_height_m;     /* default tracked plane height to record */
+	int width_px, height_px; /* the image the pixels belong to */
+	const wl_camera *lens;   /* known intrinsics + distortion (LENS.json), or NULL */
+	double hfov_deg;         /* > 0: horizontal field of view to fall back on */
+	double water_depth_m;    /* > 0: the floor lies under this much water */
+	double water_index;      /* refractive index (WL_WATER_INDEX) */
+	double plane_height_m;   /* default tracked plane height to record */
 	int displayed, rotation_deg;
-	double outlier_px;         /* leave-one-out threshold (default 3 px when 0) */
+	double outlier_px; /* leave-one-out threshold (default 3 px when 0) */
 } wl_calib_opts;
 
 #define WL_CALIB_MAX_WARN 16
@@ -110,7 +110,7 @@ typedef struct {
  * when opts->water_depth_m > 0), and residuals.  Points with z_m != 0 are
  * used as 3-D points.  cal is initialised here; warnings go to rep. */
 wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *opts, wl_calib *cal,
-			 wl_calib_report *rep, wl_err *err);
+                         wl_calib_report *rep, wl_err *err);
 
 /* ---- input tables and markers --------------------------------------- */
 
@@ -188,7 +188,7 @@ enum {
  * are skipped (used may be NULL).  Returns the RMS in pixels, or a negative
  * value when a point falls behind the camera. */
 double wl_pose_refine(wl_camera *cam, const double *xyz, const double *uv, const int *used, int n,
-		      unsigned flags);
+                      unsigned flags);
 
 /* Rotation matrix <-> Rodrigues vector. */
 void wl_rodrigues(const double r[3], double R[9]);

@@ -24,8 +24,8 @@
 
 typedef struct {
 	long id;
-	int n;         /* observations kept */
-	int seen;      /* frames seen (also beyond the kept ones) */
+	int n;                              /* observations kept */
+	int seen;                           /* frames seen (also beyond the kept ones) */
 	double obs[WL_TAGS_MAX_FRAMES][11]; /* c(2), p(8), margin */
 } tag_track;
 
@@ -42,25 +42,28 @@ static const struct {
 	apriltag_family_t *(*create)(void);
 	void (*destroy)(apriltag_family_t *);
 } families[] = {
-	{ "tag36h11", tag36h11_create, tag36h11_destroy },
-	{ "tag25h9", tag25h9_create, tag25h9_destroy },
-	{ "tag16h5", tag16h5_create, tag16h5_destroy },
-	{ "tagStandard41h12", tagStandard41h12_create, tagStandard41h12_destroy },
+        {"tag36h11", tag36h11_create, tag36h11_destroy},
+        {"tag25h9", tag25h9_create, tag25h9_destroy},
+        {"tag16h5", tag16h5_create, tag16h5_destroy},
+        {"tagStandard41h12", tagStandard41h12_create, tagStandard41h12_destroy},
 };
 
 wl_status wl_tag_family(const char *name, apriltag_family_t **fam, void (**destroy)(apriltag_family_t *),
-			wl_err *err)
+                        wl_err *err)
 {
 	for (size_t i = 0; i < sizeof families / sizeof families[0]; i++)
 		if (strcmp(name, families[i].name) == 0) {
 			*fam = families[i].create();
 			*destroy = families[i].destroy;
 			if (!*fam)
-				return wl_err_set(err, WL_ENOMEM, "out of memory creating tag family '%s'", name);
+				return wl_err_set(err, WL_ENOMEM, "out of memory creating tag family '%s'",
+				                  name);
 			return WL_OK;
 		}
-	return wl_err_set(err, WL_EINVAL, "tag family '%s' is not known: use tag36h11, tag25h9, tag16h5 or "
-			  "tagStandard41h12", name);
+	return wl_err_set(err, WL_EINVAL,
+	                  "tag family '%s' is not known: use tag36h11, tag25h9, tag16h5 or "
+	                  "tagStandard41h12",
+	                  name);
 }
 
 wl_status wl_calib_tags_create(const char *family, wl_calib_tags **out, wl_err *err)
@@ -114,14 +117,14 @@ static tag_track *track_of(wl_calib_tags *t, long id)
 }
 
 wl_status wl_calib_tags_add(wl_calib_tags *t, const uint8_t *luma, int width_px, int height_px, int stride,
-			    int *n_seen, wl_err *err)
+                            int *n_seen, wl_err *err)
 {
-	image_u8_t im = { width_px, height_px, stride, (uint8_t *)luma };
+	image_u8_t im = {width_px, height_px, stride, (uint8_t *)luma};
 	zarray_t *dets;
 	*n_seen = 0;
 	if (width_px < 8 || height_px < 8 || stride < width_px)
-		return wl_err_set(err, WL_EINVAL, "tag detection: bad image %dx%d (stride %d)", width_px, height_px,
-				  stride);
+		return wl_err_set(err, WL_EINVAL, "tag detection: bad image %dx%d (stride %d)", width_px,
+		                  height_px, stride);
 	dets = apriltag_detector_detect(t->td, &im);
 	if (!dets)
 		return wl_err_set(err, WL_ENOMEM, "tag detection failed (out of memory)");
@@ -183,6 +186,10 @@ int wl_calib_tags_get(const wl_calib_tags *t, long id, wl_tag_obs *out)
 		}
 		out->margin = med[10];
 		out->frames = tr->seen;
+		out->move_px = 0;
+		for (int j = 0; j < tr->n; j++)
+			out->move_px =
+			        fmax(out->move_px, hypot(tr->obs[j][0] - med[0], tr->obs[j][1] - med[1]));
 		return 1;
 	}
 	return 0;

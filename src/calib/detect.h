@@ -22,6 +22,8 @@ typedef struct {
 	double p[4][2]; /* corners in the detector's order (see wl_calib_marker_corners) */
 	double margin;  /* median decision margin */
 	int frames;     /* frames the marker was seen in */
+	double move_px; /* largest distance of a frame's centre from the median: the
+	                 * camera or the marker moved (stabilisation, a bumped tripod) */
 } wl_tag_obs;
 
 /* family: "tag36h11", "tag25h9", "tag16h5" or "tagStandard41h12". */
@@ -30,7 +32,7 @@ void wl_calib_tags_destroy(wl_calib_tags *t);
 
 /* Detects tags in one 8-bit luma image; *n_seen: clean detections. */
 wl_status wl_calib_tags_add(wl_calib_tags *t, const uint8_t *luma, int width_px, int height_px, int stride,
-			    int *n_seen, wl_err *err);
+                            int *n_seen, wl_err *err);
 
 /* The median observation of marker id; 0 when it was never seen. */
 int wl_calib_tags_get(const wl_calib_tags *t, long id, wl_tag_obs *out);
@@ -40,7 +42,7 @@ int wl_calib_tags_ids(const wl_calib_tags *t, long *ids, int max);
 
 /* A tag family by name; *destroy frees it.  For the marker sheet too. */
 struct apriltag_family;
-wl_status wl_tag_family(const char *name, struct apriltag_family **fam, void (**destroy)(struct apriltag_family *),
-			wl_err *err);
+wl_status wl_tag_family(const char *name, struct apriltag_family **fam,
+                        void (**destroy)(struct apriltag_family *), wl_err *err);
 
 #endif

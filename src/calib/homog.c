@@ -80,7 +80,8 @@ int wl_points_collinear_triple(const double *pts, int n, int ijk[3])
 			for (int k = j + 1; k < n; k++) {
 				const double *a = pts + 2 * i, *b = pts + 2 * j, *c = pts + 2 * k;
 				/* the height over the longest side */
-				double h = fmin(line_dist(a, b, c), fmin(line_dist(b, c, a), line_dist(c, a, b)));
+				double h = fmin(line_dist(a, b, c),
+				                fmin(line_dist(b, c, a), line_dist(c, a, b)));
 				if (h <= tol) {
 					ijk[0] = i;
 					ijk[1] = j;
@@ -96,17 +97,18 @@ wl_status wl_homography_check_points(const double *pts, int n, const char *what,
 	int ijk[3], a = 0, b = 0, c = -1, d = -1;
 	double best = -1, tol;
 	if (n < 4)
-		return wl_err_set(err, WL_ECALIB, "%s: %d point%s, a homography needs at least 4: add points", what, n,
-				  n == 1 ? "" : "s");
+		return wl_err_set(err, WL_ECALIB, "%s: %d point%s, a homography needs at least 4: add points",
+		                  what, n, n == 1 ? "" : "s");
 	tol = 0.01 * spread(pts, n);
 	if (!(tol > 0))
 		return wl_err_set(err, WL_ECALIB, "%s: all points coincide: check the coordinates", what);
 	if (n == 4) {
 		if (wl_points_collinear_triple(pts, n, ijk))
-			return wl_err_set(err, WL_ECALIB,
-					  "%s: points %d, %d and %d are collinear, so four points do not fix a "
-					  "homography: move one or add points",
-					  what, ijk[0] + 1, ijk[1] + 1, ijk[2] + 1);
+			return wl_err_set(
+			        err, WL_ECALIB,
+			        "%s: points %d, %d and %d are collinear, so four points do not fix a "
+			        "homography: move one or add points",
+			        what, ijk[0] + 1, ijk[1] + 1, ijk[2] + 1);
 		return WL_OK;
 	}
 	/* greedy search for four points in general position: the farthest
@@ -130,13 +132,13 @@ wl_status wl_homography_check_points(const double *pts, int n, const char *what,
 		}
 	}
 	if (best <= tol)
-		return wl_err_set(err, WL_ECALIB, "%s: all %d points lie on one line: spread them over the floor", what,
-				  n);
+		return wl_err_set(err, WL_ECALIB,
+		                  "%s: all %d points lie on one line: spread them over the floor", what, n);
 	best = -1;
 	for (int i = 0; i < n; i++) {
 		double h = fmin(line_dist(pts + 2 * a, pts + 2 * b, pts + 2 * i),
-				fmin(line_dist(pts + 2 * a, pts + 2 * c, pts + 2 * i),
-				     line_dist(pts + 2 * b, pts + 2 * c, pts + 2 * i)));
+		                fmin(line_dist(pts + 2 * a, pts + 2 * c, pts + 2 * i),
+		                     line_dist(pts + 2 * b, pts + 2 * c, pts + 2 * i)));
 		if (h > best) {
 			best = h;
 			d = i;
@@ -144,9 +146,9 @@ wl_status wl_homography_check_points(const double *pts, int n, const char *what,
 	}
 	if (best <= tol)
 		return wl_err_set(err, WL_ECALIB,
-				  "%s: the points lie on two lines at most (no four in general position): "
-				  "add points off those lines",
-				  what);
+		                  "%s: the points lie on two lines at most (no four in general position): "
+		                  "add points off those lines",
+		                  what);
 	(void)d;
 	return WL_OK;
 }
@@ -164,8 +166,8 @@ wl_status wl_homography_dlt(const double *src, const double *dst, int n, double 
 		double x, y, u, v, r[2][9];
 		apply_T(Ts, src[2 * i], src[2 * i + 1], &x, &y);
 		apply_T(Td, dst[2 * i], dst[2 * i + 1], &u, &v);
-		double r0[9] = { -x, -y, -1, 0, 0, 0, u * x, u * y, u };
-		double r1[9] = { 0, 0, 0, -x, -y, -1, v * x, v * y, v };
+		double r0[9] = {-x, -y, -1, 0, 0, 0, u * x, u * y, u};
+		double r1[9] = {0, 0, 0, -x, -y, -1, v * x, v * y, v};
 		memcpy(r[0], r0, sizeof r0);
 		memcpy(r[1], r1, sizeof r1);
 		for (int k = 0; k < 2; k++)
@@ -192,7 +194,8 @@ wl_status wl_homography_dlt(const double *src, const double *dst, int n, double 
 		for (int k = 0; k < 9; k++)
 			Hn2[k] = Hn[k];
 		if (fabs(wl_det3(Hn2)) < 1e-10)
-			return wl_err_set(err, WL_ECALIB, "homography: the result is singular: the points are degenerate");
+			return wl_err_set(err, WL_ECALIB,
+			                  "homography: the result is singular: the points are degenerate");
 	}
 	return WL_OK;
 }
@@ -217,14 +220,14 @@ static void lm_h(double h[9], const double *s, const double *d, int n)
 {
 	double lambda = 1e-3, c = cost_h(h, s, d, n);
 	for (int it = 0; it < 100 && c > 0; it++) {
-		double JtJ[64] = { 0 }, Jtr[8] = { 0 };
+		double JtJ[64] = {0}, Jtr[8] = {0};
 		for (int i = 0; i < n; i++) {
 			double x = s[2 * i], y = s[2 * i + 1], u, v;
 			double w = h[6] * x + h[7] * y + h[8];
 			if (!wl_homography_apply(h, x, y, &u, &v))
 				return;
-			double ju[8] = { x / w, y / w, 1 / w, 0, 0, 0, -u * x / w, -u * y / w };
-			double jv[8] = { 0, 0, 0, x / w, y / w, 1 / w, -v * x / w, -v * y / w };
+			double ju[8] = {x / w, y / w, 1 / w, 0, 0, 0, -u * x / w, -u * y / w};
+			double jv[8] = {0, 0, 0, x / w, y / w, 1 / w, -v * x / w, -v * y / w};
 			double ru = d[2 * i] - u, rv = d[2 * i + 1] - v;
 			for (int a = 0; a < 8; a++) {
 				Jtr[a] += ju[a] * ru + jv[a] * rv;
@@ -266,7 +269,8 @@ static void lm_h(double h[9], const double *s, const double *d, int n)
 
 double wl_homography_refine(const double *src, const double *dst, int n, double H[9])
 {
-	double Ts[9], Td[9], Tsi[9], Tdi[9], tmp[9], Hn[9], s[2 * WL_CALIB_MAX_POINTS], d[2 * WL_CALIB_MAX_POINTS];
+	double Ts[9], Td[9], Tsi[9], Tdi[9], tmp[9], Hn[9], s[2 * WL_CALIB_MAX_POINTS],
+	        d[2 * WL_CALIB_MAX_POINTS];
 	if (n < 4 || n > WL_CALIB_MAX_POINTS || !normaliser(src, n, Ts) || !normaliser(dst, n, Td) ||
 	    !wl_inv3(Ts, Tsi) || !wl_inv3(Td, Tdi))
 		return sqrt(cost_h(H, src, dst, n) / (n > 0 ? n : 1));
@@ -298,7 +302,7 @@ void wl_rodrigues(const double r[3], double R[9])
 	double k[3], c, s, v;
 	if (th < 1e-15) {
 		/* first order: R = I + [r]x */
-		double Rm[9] = { 1, -r[2], r[1], r[2], 1, -r[0], -r[1], r[0], 1 };
+		double Rm[9] = {1, -r[2], r[1], r[2], 1, -r[0], -r[1], r[0], 1};
 		memcpy(R, Rm, sizeof Rm);
 		return;
 	}
@@ -322,7 +326,7 @@ void wl_rodrigues(const double r[3], double R[9])
 void wl_rodrigues_inv(const double R[9], double r[3])
 {
 	double c = (R[0] + R[4] + R[8] - 1) / 2, th, s;
-	double w[3] = { R[7] - R[5], R[2] - R[6], R[3] - R[1] };
+	double w[3] = {R[7] - R[5], R[2] - R[6], R[3] - R[1]};
 	if (c > 1)
 		c = 1;
 	if (c < -1)

@@ -27,15 +27,17 @@ struct wl_lens_collector {
 };
 
 wl_status wl_lens_collector_create(int cols, int rows, double square_mm, int half_win,
-				   wl_lens_collector **out, wl_err *err)
+                                   wl_lens_collector **out, wl_err *err)
 {
 	wl_lens_collector *lc;
 	*out = NULL;
-	if (cols < 3 || rows < 3 || cols > 64 || rows > 64 || !(square_mm > 0) || half_win < 1 || half_win > 50)
-		return wl_err_set(err, WL_EINVAL,
-				  "board %dx%d, square %g mm, window %d: need 3 to 64 inner corners each way, a "
-				  "positive square size and a window of 1 to 50",
-				  cols, rows, square_mm, half_win);
+	if (cols < 3 || rows < 3 || cols > 64 || rows > 64 || !(square_mm > 0) || half_win < 1 ||
+	    half_win > 50)
+		return wl_err_set(
+		        err, WL_EINVAL,
+		        "board %dx%d, square %g mm, window %d: need 3 to 64 inner corners each way, a "
+		        "positive square size and a window of 1 to 50",
+		        cols, rows, square_mm, half_win);
 	lc = calloc(1, sizeof *lc);
 	if (lc)
 		lc->corners = malloc(sizeof(double) * 2 * (size_t)(cols * rows) * WL_LENS_MAX_VIEWS);
@@ -75,7 +77,7 @@ static int too_alike(const wl_lens_collector *lc, const double *c)
 }
 
 wl_status wl_lens_collector_add(wl_lens_collector *lc, const uint8_t *gray, int width_px, int height_px,
-				int stride, int *kept, wl_err *err)
+                                int stride, int *kept, wl_err *err)
 {
 	int n = lc->cols * lc->rows, found = 0;
 	double *slot;
@@ -85,16 +87,17 @@ wl_status wl_lens_collector_add(wl_lens_collector *lc, const uint8_t *gray, int 
 		lc->width_px = width_px;
 		lc->height_px = height_px;
 	} else if (width_px != lc->width_px || height_px != lc->height_px) {
-		return wl_err_set(err, WL_EINVAL, "frame of %dx%d among frames of %dx%d: use one camera setting",
-				  width_px, height_px, lc->width_px, lc->height_px);
+		return wl_err_set(err, WL_EINVAL,
+		                  "frame of %dx%d among frames of %dx%d: use one camera setting", width_px,
+		                  height_px, lc->width_px, lc->height_px);
 	}
 	if (lc->n_views >= WL_LENS_MAX_VIEWS) {
 		lc->alike++;
 		return WL_OK;
 	}
 	slot = lc->corners + 2 * (size_t)n * (size_t)lc->n_views;
-	if ((st = wl_cv_find_chessboard(gray, width_px, height_px, stride, lc->cols, lc->rows, lc->half_win, slot,
-					&found, err)))
+	if ((st = wl_cv_find_chessboard(gray, width_px, height_px, stride, lc->cols, lc->rows, lc->half_win,
+	                                slot, &found, err)))
 		return st;
 	if (!found) {
 		lc->no_board++;
@@ -119,7 +122,7 @@ static int cmp_double(const void *a, const void *b)
 
 static double coverage(const wl_lens_collector *lc)
 {
-	int cells[100] = { 0 }, n = lc->cols * lc->rows, hit = 0;
+	int cells[100] = {0}, n = lc->cols * lc->rows, hit = 0;
 	for (int v = 0; v < lc->n_views; v++)
 		for (int i = 0; i < n; i++) {
 			const double *c = lc->corners + 2 * ((size_t)n * (size_t)v + (size_t)i);
@@ -148,8 +151,9 @@ wl_status wl_lens_collector_finish(wl_lens_collector *lc, wl_lens *lens, wl_err 
 				continue;
 			}
 			if (k != v) {
-				memmove(lc->corners + 2 * (size_t)n * (size_t)k, lc->corners + 2 * (size_t)n * (size_t)v,
-					sizeof(double) * 2 * (size_t)n);
+				memmove(lc->corners + 2 * (size_t)n * (size_t)k,
+				        lc->corners + 2 * (size_t)n * (size_t)v,
+				        sizeof(double) * 2 * (size_t)n);
 				lc->sharp[k] = lc->sharp[v];
 			}
 			k++;
@@ -164,10 +168,11 @@ wl_status wl_lens_collector_finish(wl_lens_collector *lc, wl_lens *lens, wl_err 
 	lens->board_rows = lc->rows;
 	lens->square_mm = lc->square_mm;
 	if (k < 3)
-		return wl_err_set(err, WL_ECALIB,
-				  "%d usable view%s of the %dx%d board (%d without the board, %d too alike, %d "
-				  "blurred): at least 3 are needed, 10-20 from different angles are better",
-				  k, k == 1 ? "" : "s", lc->cols, lc->rows, lc->no_board, lc->alike, blurred);
+		return wl_err_set(
+		        err, WL_ECALIB,
+		        "%d usable view%s of the %dx%d board (%d without the board, %d too alike, %d "
+		        "blurred): at least 3 are needed, 10-20 from different angles are better",
+		        k, k == 1 ? "" : "s", lc->cols, lc->rows, lc->no_board, lc->alike, blurred);
 	obj = malloc(sizeof(double) * 3 * (size_t)n);
 	if (!obj)
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the board");
@@ -178,7 +183,8 @@ wl_status wl_lens_collector_finish(wl_lens_collector *lc, wl_lens *lens, wl_err 
 			o[1] = r * lc->square_mm / 1000;
 			o[2] = 0;
 		}
-	st = wl_cv_calibrate(obj, n, lc->corners, k, lc->width_px, lc->height_px, 0, K, dist, &rms, NULL, err);
+	st = wl_cv_calibrate(obj, n, lc->corners, k, lc->width_px, lc->height_px, 0, K, dist, &rms, NULL,
+	                     err);
 	free(obj);
 	if (st)
 		return st;
@@ -201,7 +207,7 @@ static cJSON *mat3(const double m[9])
 wl_status wl_lens_save(const char *path, const wl_lens *lens, wl_err *err)
 {
 	cJSON *root = cJSON_CreateObject(), *o;
-	double size[2] = { lens->cam.width_px, lens->cam.height_px };
+	double size[2] = {lens->cam.width_px, lens->cam.height_px};
 	wl_status st;
 	if (!root)
 		return wl_err_set(err, WL_ENOMEM, "out of memory building '%s'", path);
@@ -250,12 +256,13 @@ wl_status wl_lens_load(const char *path, wl_lens *lens, wl_err *err)
 	if ((st = wl_json_numbers(root, "image_size_px", path, size, 2, err)))
 		goto out;
 	if (!(size[0] >= 1 && size[1] >= 1 && size[0] < 1e6 && size[1] < 1e6)) {
-		st = wl_err_set(err, WL_EFORMAT, "%s: key 'image_size_px' must be two positive whole numbers", path);
+		st = wl_err_set(err, WL_EFORMAT, "%s: key 'image_size_px' must be two positive whole numbers",
+		                path);
 		goto out;
 	}
 	if (!cJSON_IsArray(K) || cJSON_GetArraySize(K) != 3) {
 		st = wl_err_set(err, WL_EFORMAT, "%s: key 'camera_matrix' %s", path,
-				K ? "must be three rows of three numbers" : "is missing");
+		                K ? "must be three rows of three numbers" : "is missing");
 		goto out;
 	}
 	for (int r = 0; r < 3; r++) {
@@ -264,16 +271,18 @@ wl_status wl_lens_load(const char *path, wl_lens *lens, wl_err *err)
 			const cJSON *v = cJSON_GetArrayItem(row, c);
 			if (!cJSON_IsArray(row) || cJSON_GetArraySize(row) != 3 || !cJSON_IsNumber(v) ||
 			    !isfinite(v->valuedouble)) {
-				st = wl_err_set(err, WL_EFORMAT, "%s: key 'camera_matrix': row %d must hold three numbers",
-						path, r);
+				st = wl_err_set(err, WL_EFORMAT,
+				                "%s: key 'camera_matrix': row %d must hold three numbers",
+				                path, r);
 				goto out;
 			}
 			m[3 * r + c] = v->valuedouble;
 		}
 	}
 	if (!(m[0] > 0) || !(m[4] > 0) || m[3] != 0 || m[6] != 0 || m[7] != 0 || m[8] != 1) {
-		st = wl_err_set(err, WL_EFORMAT, "%s: key 'camera_matrix' must be [[fx, s, cx], [0, fy, cy], [0, 0, 1]]",
-				path);
+		st = wl_err_set(err, WL_EFORMAT,
+		                "%s: key 'camera_matrix' must be [[fx, s, cx], [0, fy, cy], [0, 0, 1]]",
+		                path);
 		goto out;
 	}
 	wl_camera_init(&lens->cam, (int)size[0], (int)size[1], m[0], m[4], m[2], m[5]);

@@ -18,12 +18,12 @@
 #define WL_LENS_MAX_VIEWS 200
 
 typedef struct {
-	wl_camera cam;        /* K and distortion; identity pose */
-	double rms_px;        /* RMS reprojection error of the board corners */
+	wl_camera cam; /* K and distortion; identity pose */
+	double rms_px; /* RMS reprojection error of the board corners */
 	int board_cols, board_rows;
 	double square_mm;
 	int views_used, views_no_board, views_alike, views_blurred;
-	double coverage;      /* fraction of a 10×10 grid of image cells that corners fell in */
+	double coverage; /* fraction of a 10×10 grid of image cells that corners fell in */
 	char source[1024];
 } wl_lens;
 
@@ -33,13 +33,13 @@ typedef struct wl_lens_collector wl_lens_collector;
  * winSize (half the search window: 5 searches 11×11 pixels), as in
  * OpenCV's own calibration test, which passes (5, 5). */
 wl_status wl_lens_collector_create(int cols, int rows, double square_mm, int half_win,
-				   wl_lens_collector **out, wl_err *err);
+                                   wl_lens_collector **out, wl_err *err);
 void wl_lens_collector_destroy(wl_lens_collector *lc);
 
 /* Offers one 8-bit gray frame.  All frames must have the same size.
  * *kept is set to 1 when the view was kept. */
 wl_status wl_lens_collector_add(wl_lens_collector *lc, const uint8_t *gray, int width_px, int height_px,
-				int stride, int *kept, wl_err *err);
+                                int stride, int *kept, wl_err *err);
 
 /* Drops blurred views (Laplacian variance below a quarter of the median
  * of the kept views), then calibrates.  WL_ECALIB with fewer than 3 views. */

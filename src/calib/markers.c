@@ -69,7 +69,8 @@ static void draw_scale_bar(cairo_t *cr, double x, double y)
 	}
 	cairo_stroke(cr);
 	cairo_set_font_size(cr, 3.5);
-	snprintf(txt, sizeof txt, "%.0f mm: check this bar with a ruler; print at 100%% (no fit to page)", BAR_MM);
+	snprintf(txt, sizeof txt, "%.0f mm: check this bar with a ruler; print at 100%% (no fit to page)",
+	         BAR_MM);
 	cairo_move_to(cr, x, y + 5);
 	cairo_show_text(cr, txt);
 }
@@ -119,8 +120,8 @@ wl_status wl_markers_render(const char *path, const wl_markers_opts *o, wl_err *
 		return st;
 	for (int i = 0; i < o->n_ids; i++)
 		if (o->ids[i] < 0 || o->ids[i] >= (long)fam->ncodes) {
-			st = wl_err_set(err, WL_EINVAL, "id %ld: family %s has ids 0 to %u", o->ids[i], o->family,
-					fam->ncodes - 1);
+			st = wl_err_set(err, WL_EINVAL, "id %ld: family %s has ids 0 to %u", o->ids[i],
+			                o->family, fam->ncodes - 1);
 			goto out;
 		}
 	cell = o->size_mm / fam->width_at_border;
@@ -130,10 +131,11 @@ wl_status wl_markers_render(const char *path, const wl_markers_opts *o, wl_err *
 	cols = (int)floor((pw - 2 * MARGIN_MM + GAP_MM) / cw);
 	rows_per_page = (int)floor((ph - 2 * MARGIN_MM - FOOT_MM + GAP_MM) / chh);
 	if (cols < 1 || rows_per_page < 1) {
-		st = wl_err_set(err, WL_EINVAL,
-				"a %.0f mm tag (%.0f mm with its white border) does not fit on a %.0fx%.0f mm page "
-				"with margins: choose a smaller --size-mm",
-				o->size_mm, tag_mm, pw, ph);
+		st = wl_err_set(
+		        err, WL_EINVAL,
+		        "a %.0f mm tag (%.0f mm with its white border) does not fit on a %.0fx%.0f mm page "
+		        "with margins: choose a smaller --size-mm",
+		        o->size_mm, tag_mm, pw, ph);
 		goto out;
 	}
 	rows = (o->n_ids + cols - 1) / cols;
@@ -151,10 +153,11 @@ wl_status wl_markers_render(const char *path, const wl_markers_opts *o, wl_err *
 		surf = cairo_svg_surface_create_for_stream(write_fp, wl_afile_fp(af), pw, sheet_h);
 		cairo_svg_surface_set_document_unit(surf, CAIRO_SVG_UNIT_MM); /* user unit = 1 mm */
 	} else if (fmt == FMT_PDF) {
-		surf = cairo_pdf_surface_create_for_stream(write_fp, wl_afile_fp(af), pw * 72 / 25.4, ph * 72 / 25.4);
+		surf = cairo_pdf_surface_create_for_stream(write_fp, wl_afile_fp(af), pw * 72 / 25.4,
+		                                           ph * 72 / 25.4);
 	} else {
 		surf = cairo_image_surface_create(CAIRO_FORMAT_RGB24, (int)lround(pw / 25.4 * dpi),
-						  (int)lround(sheet_h / 25.4 * dpi));
+		                                  (int)lround(sheet_h / 25.4 * dpi));
 	}
 	cr = cairo_create(surf);
 	if (fmt == FMT_PDF)
@@ -169,7 +172,8 @@ wl_status wl_markers_render(const char *path, const wl_markers_opts *o, wl_err *
 				image_u8_t *im = apriltag_to_image(fam, (int)o->ids[k]);
 				double x = MARGIN_MM + c * cw, y = MARGIN_MM + r * chh;
 				if (!im) {
-					st = wl_err_set(err, WL_ENOMEM, "out of memory drawing tag %ld", o->ids[k]);
+					st = wl_err_set(err, WL_ENOMEM, "out of memory drawing tag %ld",
+					                o->ids[k]);
 					goto out;
 				}
 				draw_tag(cr, im, x, y + LABEL_MM, cell);
@@ -181,14 +185,15 @@ wl_status wl_markers_render(const char *path, const wl_markers_opts *o, wl_err *
 	}
 	cairo_destroy(cr);
 	cr = NULL;
-	if (fmt == FMT_PNG && cairo_surface_write_to_png_stream(surf, write_fp, wl_afile_fp(af)) != CAIRO_STATUS_SUCCESS) {
+	if (fmt == FMT_PNG &&
+	    cairo_surface_write_to_png_stream(surf, write_fp, wl_afile_fp(af)) != CAIRO_STATUS_SUCCESS) {
 		st = wl_err_set(err, WL_EIO, "cannot write '%s'", path);
 		goto out;
 	}
 	cairo_surface_finish(surf);
 	if (cairo_surface_status(surf) != CAIRO_STATUS_SUCCESS) {
 		st = wl_err_set(err, WL_EIO, "cannot write '%s': %s", path,
-				cairo_status_to_string(cairo_surface_status(surf)));
+		                cairo_status_to_string(cairo_surface_status(surf)));
 		goto out;
 	}
 	cairo_surface_destroy(surf);

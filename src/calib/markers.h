@@ -17,8 +17,8 @@ typedef struct {
 	const char *family; /* "tag36h11" ... */
 	const long *ids;
 	int n_ids;
-	double size_mm;     /* black square side */
-	double dpi;         /* PNG only (default 300) */
+	double size_mm;              /* black square side */
+	double dpi;                  /* PNG only (default 300) */
 	double page_w_mm, page_h_mm; /* page (A4 portrait by default when 0) */
 } wl_markers_opts;
 

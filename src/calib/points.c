@@ -21,7 +21,7 @@ typedef struct {
 } reader;
 
 static wl_status opt_double(const wl_csv_row *row, int col, const char *name, double fallback, double *out,
-			    wl_err *err)
+                            wl_err *err)
 {
 	if (wl_csv_empty(row, col)) {
 		*out = fallback;
@@ -32,7 +32,7 @@ static wl_status opt_double(const wl_csv_row *row, int col, const char *name, do
 
 static wl_status points_row(const wl_csv_row *row, void *ctx, wl_err *err)
 {
-	static const char *const req[] = { "u_px", "v_px", "x_m", "y_m", NULL };
+	static const char *const req[] = {"u_px", "v_px", "x_m", "y_m", NULL};
 	reader *r = ctx;
 	wl_calib_point *p;
 	wl_status st;
@@ -46,7 +46,8 @@ static wl_status points_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		return WL_OK;
 	}
 	if (r->n >= r->max)
-		return wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d points", row->path, row->line, r->max);
+		return wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d points", row->path, row->line,
+		                  r->max);
 	p = &r->pts[r->n];
 	memset(p, 0, sizeof *p);
 	if ((st = wl_csv_get_double(row, r->col[0], "u_px", &p->u_px, err)) ||
@@ -67,7 +68,7 @@ static wl_status points_row(const wl_csv_row *row, void *ctx, wl_err *err)
 
 wl_status wl_calib_read_points(const char *path, wl_calib_point *pts, int max, int *n, wl_err *err)
 {
-	static reader r;
+	reader r;
 	wl_status st;
 	memset(&r, 0, sizeof r);
 	r.pts = pts;
@@ -76,15 +77,15 @@ wl_status wl_calib_read_points(const char *path, wl_calib_point *pts, int max, i
 	if ((st = wl_csv_read(path, points_row, &r, err)))
 		return st;
 	if (r.n < 4)
-		return wl_err_set(err, WL_ECALIB, "%s: %d point%s, calibration needs at least 4: add points", path, r.n,
-				  r.n == 1 ? "" : "s");
+		return wl_err_set(err, WL_ECALIB, "%s: %d point%s, calibration needs at least 4: add points",
+		                  path, r.n, r.n == 1 ? "" : "s");
 	*n = r.n;
 	return WL_OK;
 }
 
 static wl_status layout_row(const wl_csv_row *row, void *ctx, wl_err *err)
 {
-	static const char *const req[] = { "marker_id", "x_m", "y_m", NULL };
+	static const char *const req[] = {"marker_id", "x_m", "y_m", NULL};
 	reader *r = ctx;
 	wl_calib_marker *m;
 	wl_status st;
@@ -101,19 +102,21 @@ static wl_status layout_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		return WL_OK;
 	}
 	if (r->n >= r->max)
-		return wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d markers", row->path, row->line, r->max);
+		return wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d markers", row->path, row->line,
+		                  r->max);
 	m = &r->marks[r->n];
 	memset(m, 0, sizeof *m);
 	if ((st = wl_csv_get_long(row, r->col[0], "marker_id", &id, err)))
 		return st;
 	if (id < 0 || id > 100000)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: marker_id %ld is out of range (0 to 100000)", row->path,
-				  row->line, id);
+		return wl_err_set(err, WL_EFORMAT, "%s:%ld: marker_id %ld is out of range (0 to 100000)",
+		                  row->path, row->line, id);
 	for (int i = 0; i < r->n; i++)
 		if (r->marks[i].id == id)
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: marker_id %ld appears again (first on line %ld): list each marker once",
-					  row->path, row->line, id, r->lines[i]);
+			                  "%s:%ld: marker_id %ld appears again (first on line %ld): list "
+			                  "each marker once",
+			                  row->path, row->line, id, r->lines[i]);
 	m->id = id;
 	m->line = row->line;
 	if ((st = wl_csv_get_double(row, r->col[1], "x_m", &m->x_m, err)) ||
@@ -123,8 +126,8 @@ static wl_status layout_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	    (st = opt_double(row, r->col[5], "yaw_rad", 0, &m->yaw_rad, err)))
 		return st;
 	if (m->size_m < 0)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column 'size_m': %g is negative", row->path, row->line,
-				  m->size_m);
+		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column 'size_m': %g is negative", row->path,
+		                  row->line, m->size_m);
 	r->lines[r->n] = row->line;
 	r->n++;
 	return WL_OK;
@@ -132,7 +135,7 @@ static wl_status layout_row(const wl_csv_row *row, void *ctx, wl_err *err)
 
 wl_status wl_calib_read_layout(const char *path, wl_calib_marker *marks, int max, int *n, wl_err *err)
 {
-	static reader r;
+	reader r;
 	wl_status st;
 	memset(&r, 0, sizeof r);
 	r.marks = marks;
@@ -141,8 +144,9 @@ wl_status wl_calib_read_layout(const char *path, wl_calib_marker *marks, int max
 	if ((st = wl_csv_read(path, layout_row, &r, err)))
 		return st;
 	if (r.n < 4)
-		return wl_err_set(err, WL_ECALIB, "%s: %d marker%s listed, calibration needs at least 4: add rows", path,
-				  r.n, r.n == 1 ? "" : "s");
+		return wl_err_set(err, WL_ECALIB,
+		                  "%s: %d marker%s listed, calibration needs at least 4: add rows", path, r.n,
+		                  r.n == 1 ? "" : "s");
 	*n = r.n;
 	return WL_OK;
 }
@@ -151,7 +155,7 @@ void wl_calib_marker_corners(const wl_calib_marker *m, double xy[4][2])
 {
 	/* corner k at (∓s/2, ∓s/2) in the marker frame, turned by yaw; order
 	 * as in WL_CALIB_CORNER_ORDER (calib.h) */
-	static const double sx[4] = { -1, 1, 1, -1 }, sy[4] = { -1, -1, 1, 1 };
+	static const double sx[4] = {-1, 1, 1, -1}, sy[4] = {-1, -1, 1, 1};
 	double c = cos(m->yaw_rad), s = sin(m->yaw_rad), h = m->size_m / 2;
 	for (int k = 0; k < 4; k++) {
 		double x = sx[k] * h, y = sy[k] * h;

@@ -31,7 +31,7 @@ static void cross3(const double a[3], const double b[3], double o[3])
 /* R = Q (QᵀQ)^(-1/2): the rotation nearest to Q in the Frobenius norm. */
 static int polar(const double Q[9], double R[9])
 {
-	double S[9], ev[3], V[9], D[9] = { 0 }, tmp[9], Vt[9], Sih[9], Qt[9];
+	double S[9], ev[3], V[9], D[9] = {0}, tmp[9], Vt[9], Sih[9], Qt[9];
 	wl_mat_transpose(Q, Qt, 3, 3);
 	wl_mul3(Qt, Q, S);
 	wl_sym_eig(S, 3, ev, V);
@@ -107,7 +107,7 @@ wl_status wl_pose_from_homography(const double H[9], wl_camera *cam, wl_err *err
 		m3[i] = M[3 * i + 2];
 	}
 	lam = 2 / (sqrt(m1[0] * m1[0] + m1[1] * m1[1] + m1[2] * m1[2]) +
-		   sqrt(m2[0] * m2[0] + m2[1] * m2[1] + m2[2] * m2[2]));
+	           sqrt(m2[0] * m2[0] + m2[1] * m2[1] + m2[2] * m2[2]));
 	if (!isfinite(lam) || lam <= 0)
 		return wl_err_set(err, WL_ECALIB, "the homography is degenerate");
 	for (int i = 0; i < 3; i++) {
@@ -128,8 +128,8 @@ wl_status wl_pose_from_homography(const double H[9], wl_camera *cam, wl_err *err
 	wl_camera_position(cam, C);
 	if (!(C[2] > 0))
 		return wl_err_set(err, WL_ECALIB,
-				  "the camera comes out below the floor: the layout looks mirrored "
-				  "(x and y must form a right-handed frame seen from above)");
+		                  "the camera comes out below the floor: the layout looks mirrored "
+		                  "(x and y must form a right-handed frame seen from above)");
 	return WL_OK;
 }
 
@@ -137,12 +137,14 @@ wl_status wl_pose_from_homography(const double H[9], wl_camera *cam, wl_err *err
 
 static int normaliser3(const double *p, int n, double T[16])
 {
-	double c[3] = { 0 }, d = 0, s;
+	double c[3] = {0}, d = 0, s;
 	for (int i = 0; i < n; i++)
 		for (int k = 0; k < 3; k++)
 			c[k] += p[3 * i + k] / n;
 	for (int i = 0; i < n; i++)
-		d += sqrt(pow(p[3 * i] - c[0], 2) + pow(p[3 * i + 1] - c[1], 2) + pow(p[3 * i + 2] - c[2], 2)) / n;
+		d += sqrt(pow(p[3 * i] - c[0], 2) + pow(p[3 * i + 1] - c[1], 2) +
+		          pow(p[3 * i + 2] - c[2], 2)) /
+		     n;
 	if (!(d > 0))
 		return 0;
 	s = sqrt(3.0) / d;
@@ -158,8 +160,8 @@ static int normaliser3(const double *p, int n, double T[16])
 wl_status wl_pose_from_points3d(const double *xyz, const double *uv, int n, wl_camera *cam, wl_err *err)
 {
 	double T3[16], T2[9], T2i[9], ata[144], ev[12], V[144], Pn[12], tmp[12], P[12], zmin = INFINITY,
-										       zmax = -INFINITY;
-	double S[9] = { 0 }, cen[3] = { 0 }, sev[3], sV[9], span = 0;
+	                                                                                zmax = -INFINITY;
+	double S[9] = {0}, cen[3] = {0}, sev[3], sV[9], span = 0;
 	double uv2[2 * WL_CALIB_MAX_POINTS];
 	if (n < 6)
 		return wl_err_set(err, WL_ECALIB, "3-D points: %d given, the projection needs at least 6", n);
@@ -178,7 +180,8 @@ wl_status wl_pose_from_points3d(const double *xyz, const double *uv, int n, wl_c
 	wl_sym_eig(S, 3, sev, sV);
 	span = sqrt(fmax(sev[2], 0));
 	if (!(sqrt(fmax(sev[0], 0)) > 0.01 * span))
-		return wl_err_set(err, WL_ECALIB, "3-D points: they lie on one plane: use the homography instead");
+		return wl_err_set(err, WL_ECALIB,
+		                  "3-D points: they lie on one plane: use the homography instead");
 	memcpy(uv2, uv, sizeof(double) * 2 * (size_t)n);
 	if (!normaliser3(xyz, n, T3))
 		return wl_err_set(err, WL_ECALIB, "3-D points coincide");
@@ -194,7 +197,7 @@ wl_status wl_pose_from_points3d(const double *xyz, const double *uv, int n, wl_c
 		if (!(d > 0))
 			return wl_err_set(err, WL_ECALIB, "3-D points: the pixels coincide");
 		s = sqrt(2.0) / d;
-		double T[9] = { s, 0, -s * cx, 0, s, -s * cy, 0, 0, 1 };
+		double T[9] = {s, 0, -s * cx, 0, s, -s * cy, 0, 0, 1};
 		memcpy(T2, T, sizeof T);
 	}
 	memset(ata, 0, sizeof ata);
@@ -302,7 +305,7 @@ static int residuals(const pose_problem *pp, const double *p, double *r)
 		if (pp->used && !pp->used[i])
 			continue;
 		ok = (pp->flags & WL_POSE_WATER) ? wl_camera_project_water(&cam, pp->xyz + 3 * i, &u, &v)
-						  : wl_camera_project(&cam, pp->xyz + 3 * i, &u, &v);
+		                                 : wl_camera_project(&cam, pp->xyz + 3 * i, &u, &v);
 		if (!ok)
 			return 0;
 		r[k++] = u - pp->uv[2 * i];
@@ -320,11 +323,11 @@ static double sumsq(const double *r, int m)
 }
 
 double wl_pose_refine(wl_camera *cam, const double *xyz, const double *uv, const int *used, int n,
-		      unsigned flags)
+                      unsigned flags)
 {
 	enum { MAXP = 7 };
 	static const int max_m = 2 * WL_CALIB_MAX_POINTS;
-	pose_problem pp = { *cam, xyz, uv, used, n, flags };
+	pose_problem pp = {*cam, xyz, uv, used, n, flags};
 	double p[MAXP], r[2 * WL_CALIB_MAX_POINTS], rp[2 * WL_CALIB_MAX_POINTS], rm[2 * WL_CALIB_MAX_POINTS];
 	double J[MAXP][2 * WL_CALIB_MAX_POINTS], lambda = 1e-3, c;
 	int np = (flags & WL_POSE_FOCAL) ? 7 : 6, m = 0;
@@ -342,7 +345,7 @@ double wl_pose_refine(wl_camera *cam, const double *xyz, const double *uv, const
 		return -1;
 	c = sumsq(r, m);
 	for (int it = 0; it < 200; it++) {
-		double JtJ[MAXP * MAXP] = { 0 }, Jtr[MAXP] = { 0 };
+		double JtJ[MAXP * MAXP] = {0}, Jtr[MAXP] = {0};
 		int improved = 0;
 		for (int a = 0; a < np; a++) {
 			double q[MAXP], h = a < 3 ? 1e-6 : a < 6 ? 1e-6 * fmax(1, fabs(p[a])) : 1e-4 * p[6];

@@ -10,6 +10,7 @@
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "core/linalg.h"
@@ -90,7 +91,8 @@ static void find_outlier(work *w, const wl_calib_opts *o, double H[9], wl_calib_
 		for (int i = 0; i < w->n; i++)
 			if (w->used[i] && h_resid(Hall, w, i) > thr) {
 				warn(rep,
-				     "residuals up to %.1f px but with %d points the wrong one cannot be told: "
+				     "residuals up to %.1f px but with %d points the wrong one cannot be "
+				     "told: "
 				     "add points",
 				     h_resid(Hall, w, i), n_used);
 				break;
@@ -124,8 +126,10 @@ static void find_outlier(work *w, const wl_calib_opts *o, double H[9], wl_calib_
 				 * a line, one shifted along it) */
 				if (who2 >= 0 && second < 3 * fmax(best, 0.2)) {
 					warn(rep,
-					     "one point is about %.0f px off, but the points cannot tell whether it is "
-					     "'%s' or '%s' (or another on the same line): check them, or add points "
+					     "one point is about %.0f px off, but the points cannot tell "
+					     "whether it is "
+					     "'%s' or '%s' (or another on the same line): check them, or add "
+					     "points "
 					     "off their lines",
 					     r, w->id[who], w->id[who2]);
 					return;
@@ -215,7 +219,7 @@ static int floor_h_from_camera(const wl_camera *c, double Hpm[9])
 }
 
 static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opts *o, const double H[9],
-				wl_calib_report *rep, unsigned *flags, wl_err *err)
+                                wl_calib_report *rep, unsigned *flags, wl_err *err)
 {
 	double cx = (o->width_px - 1) / 2.0, cy = (o->height_px - 1) / 2.0, f = 0;
 	int ok = wl_focal_from_homography(H, cx, cy, &f);
@@ -244,13 +248,13 @@ static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opt
 		return WL_OK;
 	}
 	return wl_err_set(err, WL_ECALIB,
-			  "the markers do not determine the focal length (the view is too close to nadir, "
-			  "or the points are too few or too noisy): give the lens with --lens LENS.json (see "
-			  "'wakeline lens') or the horizontal field of view with --hfov-deg");
+	                  "the markers do not determine the focal length (the view is too close to nadir, "
+	                  "or the points are too few or too noisy): give the lens with --lens LENS.json (see "
+	                  "'wakeline lens') or the horizontal field of view with --hfov-deg");
 }
 
 static wl_status solve_planar(wl_calib *cal, work *w, double z0, const wl_calib_opts *o, wl_calib_report *rep,
-			      unsigned *flags, wl_err *err)
+                              unsigned *flags, wl_err *err)
 {
 	double H[9], rms;
 	wl_status st;
@@ -261,10 +265,11 @@ static wl_status solve_planar(wl_calib *cal, work *w, double z0, const wl_calib_
 			if (w->used[i])
 				idx[m++] = i;
 		if (k == 4 && wl_points_collinear_triple(xy, k, ijk))
-			return wl_err_set(err, WL_ECALIB,
-					  "points '%s', '%s' and '%s' lie on one line, so four points do not fix a "
-					  "homography: move one or add points",
-					  w->id[idx[ijk[0]]], w->id[idx[ijk[1]]], w->id[idx[ijk[2]]]);
+			return wl_err_set(
+			        err, WL_ECALIB,
+			        "points '%s', '%s' and '%s' lie on one line, so four points do not fix a "
+			        "homography: move one or add points",
+			        w->id[idx[ijk[0]]], w->id[idx[ijk[1]]], w->id[idx[ijk[2]]]);
 		if ((st = wl_homography_check_points(xy, k, "tank positions", err)) ||
 		    (st = wl_homography_check_points(uv, k, "pixel positions", err)))
 			return st;
@@ -333,7 +338,8 @@ static wl_status load_work(const wl_calib_point *pts, int n, const wl_calib_opts
 		w->uvi[2 * i] = p->u_px;
 		w->uvi[2 * i + 1] = p->v_px;
 		if (o->lens) {
-			double xd = (p->u_px - lens.K[2]) / lens.K[0], yd = (p->v_px - lens.K[5]) / lens.K[4], x, y;
+			double xd = (p->u_px - lens.K[2]) / lens.K[0], yd = (p->v_px - lens.K[5]) / lens.K[4],
+			       x, y;
 			wl_camera_undistort(&lens, xd, yd, &x, &y);
 			w->uvi[2 * i] = lens.K[0] * x + lens.K[2];
 			w->uvi[2 * i + 1] = lens.K[4] * y + lens.K[5];
@@ -364,7 +370,7 @@ static int height_group(const work *w, double *z0)
  * one height, or from the DLT of the projection when that fails and the
  * points span several heights. */
 static wl_status initial_camera(wl_calib *cal, work *w, const wl_calib_opts *o, wl_calib_report *rep,
-				unsigned *flags, int *direct_h, wl_err *err)
+                                unsigned *flags, int *direct_h, wl_err *err)
 {
 	int saved[WL_CALIB_MAX_POINTS], group, planar;
 	double z0 = 0;
@@ -385,10 +391,11 @@ static wl_status initial_camera(wl_calib *cal, work *w, const wl_calib_opts *o, 
 			return st;
 	}
 	if (w->n < 6)
-		return wl_err_set(err, WL_ECALIB,
-				  "%d points, but only %d at one height: give at least 4 points at one height "
-				  "or 6 spread over several",
-				  w->n, group);
+		return wl_err_set(
+		        err, WL_ECALIB,
+		        "%d points, but only %d at one height: give at least 4 points at one height "
+		        "or 6 spread over several",
+		        w->n, group);
 	*flags = 0;
 	memset(rep, 0, sizeof *rep);
 	rep->outlier = rep->worst = -1;
@@ -396,10 +403,9 @@ static wl_status initial_camera(wl_calib *cal, work *w, const wl_calib_opts *o, 
 	return solve_3d(cal, w, o, flags, err);
 }
 
-wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *o, wl_calib *cal,
-			 wl_calib_report *rep, wl_err *err)
+static wl_status solve(work *wk, const wl_calib_point *pts, int n, const wl_calib_opts *o, wl_calib *cal,
+                       wl_calib_report *rep, wl_err *err)
 {
-	static work w; /* large; a calibration is solved by one thread at a time */
 	double rms;
 	unsigned flags = 0;
 	int direct_h = 0;
@@ -408,20 +414,23 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 	memset(rep, 0, sizeof *rep);
 	rep->outlier = rep->worst = -1;
 	if (n < 4)
-		return wl_err_set(err, WL_ECALIB, "%d usable point%s, calibration needs at least 4: add markers or points",
-				  n, n == 1 ? "" : "s");
+		return wl_err_set(err, WL_ECALIB,
+		                  "%d usable point%s, calibration needs at least 4: add markers or points", n,
+		                  n == 1 ? "" : "s");
 	if (n > WL_CALIB_MAX_POINTS)
-		return wl_err_set(err, WL_ELIMIT, "%d points, at most %d are supported", n, WL_CALIB_MAX_POINTS);
+		return wl_err_set(err, WL_ELIMIT, "%d points, at most %d are supported", n,
+		                  WL_CALIB_MAX_POINTS);
 	if (o->width_px < 1 || o->height_px < 1)
 		return wl_err_set(err, WL_EINVAL, "the image size is not known");
 	if (o->lens && (o->lens->width_px != o->width_px || o->lens->height_px != o->height_px))
-		return wl_err_set(err, WL_ECALIB,
-				  "the lens was calibrated at %dx%d but the image is %dx%d: calibrate the lens "
-				  "at this resolution",
-				  o->lens->width_px, o->lens->height_px, o->width_px, o->height_px);
-	if ((st = load_work(pts, n, o, &w, err)))
+		return wl_err_set(
+		        err, WL_ECALIB,
+		        "the lens was calibrated at %dx%d but the image is %dx%d: calibrate the lens "
+		        "at this resolution",
+		        o->lens->width_px, o->lens->height_px, o->width_px, o->height_px);
+	if ((st = load_work(pts, n, o, wk, err)))
 		return st;
-	if ((st = initial_camera(cal, &w, o, rep, &flags, &direct_h, err)))
+	if ((st = initial_camera(cal, wk, o, rep, &flags, &direct_h, err)))
 		return st;
 	cal->cam.width_px = o->width_px;
 	cal->cam.height_px = o->height_px;
@@ -431,13 +440,14 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 		flags |= WL_POSE_WATER;
 	}
 	if (flags & WL_POSE_FOCAL) /* settle the pose with f fixed, then free f */
-		wl_pose_refine(&cal->cam, w.xyz, w.uv, w.used, n, flags & ~(unsigned)WL_POSE_FOCAL);
-	rms = wl_pose_refine(&cal->cam, w.xyz, w.uv, w.used, n, flags);
+		wl_pose_refine(&cal->cam, wk->xyz, wk->uv, wk->used, n, flags & ~(unsigned)WL_POSE_FOCAL);
+	rms = wl_pose_refine(&cal->cam, wk->xyz, wk->uv, wk->used, n, flags);
 	if (rms < 0)
-		return wl_err_set(err, WL_ECALIB, "the pose refinement put a point behind the camera: check the points");
+		return wl_err_set(err, WL_ECALIB,
+		                  "the pose refinement put a point behind the camera: check the points");
 	if (wl_calib_camera_height_m(cal) <= cal->cam.water_depth_m)
 		return wl_err_set(err, WL_ECALIB, "the camera comes out below the %s: check the points",
-				  cal->cam.water_depth_m > 0 ? "water surface" : "floor");
+		                  cal->cam.water_depth_m > 0 ? "water surface" : "floor");
 	if (!direct_h)
 		floor_h_from_camera(&cal->cam, cal->H_px_to_m);
 	cal->plane_height_m = o->plane_height_m;
@@ -445,17 +455,33 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 	cal->rotation_deg = o->rotation_deg;
 	cal->n_points = n;
 	memcpy(cal->points, pts, sizeof *pts * (size_t)n);
-	finish_residuals(cal, &w, rep);
+	finish_residuals(cal, wk, rep);
 	rep->height_m = wl_calib_camera_height_m(cal);
 	rep->tilt_deg = wl_calib_camera_tilt_deg(cal);
 	if (rep->outlier >= 0)
-		warn(rep, "point '%s' is %.1f px off the fit of the others: left out; check it", pts[rep->outlier].id,
-		     rep->outlier_residual_px);
+		warn(rep, "point '%s' is %.1f px off the fit of the others: left out; check it",
+		     pts[rep->outlier].id, rep->outlier_residual_px);
 	for (int i = 0; i < n; i++)
-		if (w.used[i] && cal->points[i].residual_px > RESIDUAL_WARN_PX)
+		if (wk->used[i] && cal->points[i].residual_px > RESIDUAL_WARN_PX)
 			warn(rep, "point '%s' has a residual of %.2f px (above %.0f px): check it", pts[i].id,
 			     cal->points[i].residual_px, RESIDUAL_WARN_PX);
 	if (rep->n_used == 4)
-		warn(rep, "exactly 4 points: the fit is exact and has no residual to judge it by; add points");
+		warn(rep,
+		     "exactly 4 points: the fit is exact and has no residual to judge it by; add points");
 	return WL_OK;
+}
+
+wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *o, wl_calib *cal,
+                         wl_calib_report *rep, wl_err *err)
+{
+	work *wk = malloc(sizeof *wk); /* ~30 kB of scratch */
+	wl_status st;
+	if (!wk) {
+		wl_calib_init(cal);
+		memset(rep, 0, sizeof *rep);
+		return wl_err_set(err, WL_ENOMEM, "out of memory for the calibration");
+	}
+	st = solve(wk, pts, n, o, cal, rep, err);
+	free(wk);
+	return st;
 }

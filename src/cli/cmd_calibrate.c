@@ -17,33 +17,33 @@
 const char cmd_calibrate_summary[] = "floor markers or picked points -> camera model (CAL.json)";
 
 static const char usage_text[] =
-	"usage: wakeline calibrate SOURCE (--layout LAYOUT.csv | --points POINTS.csv) -o CAL.json [options]\n"
-	"\n"
-	"Finds the camera over the tank: the floor homography, the focal length, the\n"
-	"camera's position and tilt, and (with --water-depth-m) refraction at the\n"
-	"water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
-	"setting as the runs.\n"
-	"\n"
-	"  --layout FILE        floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\n"
-	"                       markers are found in SOURCE (AprilTag)\n"
-	"  --points FILE        hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]\n"
-	"  -o, --output FILE    CAL.json to write (not written on error)\n"
-	"  --lens FILE          LENS.json from 'wakeline lens' (intrinsics and distortion)\n"
-	"  --hfov-deg A         horizontal field of view, when neither the lens nor the view\n"
-	"                       gives the focal length\n"
-	"  --plane-height-m H   height of the robots' marker plane above the floor (default 0)\n"
-	"  --water-depth-m D    the floor markers lie under D metres of still water\n"
-	"  --water-index N      refractive index of the water (default 1.333)\n"
-	"  --family NAME        tag family (default tag36h11)\n"
-	"  --at T               clip: start at T seconds (default 0)\n"
-	"  --span S             clip: use S seconds of frames (default 2)\n"
-	"  --tank \"x,y;x,y;...\" tank outline in metres (default: the markers' bounding rectangle)\n"
-	"  -q, --quiet          no progress line\n"
-	"  -h, --help           this text\n"
-	"\n"
-	"Intrinsics come from --lens, else from the markers when the view is oblique\n"
-	"enough, else from --hfov-deg.  The quality report goes to standard output.\n"
-	"Exit status: 0 ok, 1 failure, 2 usage error.\n";
+        "usage: wakeline calibrate SOURCE (--layout LAYOUT.csv | --points POINTS.csv) -o CAL.json [options]\n"
+        "\n"
+        "Finds the camera over the tank: the floor homography, the focal length, the\n"
+        "camera's position and tilt, and (with --water-depth-m) refraction at the\n"
+        "water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
+        "setting as the runs.\n"
+        "\n"
+        "  --layout FILE        floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\n"
+        "                       markers are found in SOURCE (AprilTag)\n"
+        "  --points FILE        hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]\n"
+        "  -o, --output FILE    CAL.json to write (not written on error)\n"
+        "  --lens FILE          LENS.json from 'wakeline lens' (intrinsics and distortion)\n"
+        "  --hfov-deg A         horizontal field of view, when neither the lens nor the view\n"
+        "                       gives the focal length\n"
+        "  --plane-height-m H   height of the robots' marker plane above the floor (default 0)\n"
+        "  --water-depth-m D    the floor markers lie under D metres of still water\n"
+        "  --water-index N      refractive index of the water (default 1.333)\n"
+        "  --family NAME        tag family (default tag36h11)\n"
+        "  --at T               clip: start at T seconds (default 0)\n"
+        "  --span S             clip: use S seconds of frames (default 2)\n"
+        "  --tank \"x,y;x,y;...\" tank outline in metres (default: the markers' bounding rectangle)\n"
+        "  -q, --quiet          no progress line\n"
+        "  -h, --help           this text\n"
+        "\n"
+        "Intrinsics come from --lens, else from the markers when the view is oblique\n"
+        "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
+        "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	const char *source, *layout, *points, *out, *lens, *family, *tank;
@@ -88,14 +88,14 @@ static int is_image(const char *path)
 {
 	const char *dot = strrchr(path, '.');
 	return dot && (!strcasecmp(dot, ".png") || !strcasecmp(dot, ".jpg") || !strcasecmp(dot, ".jpeg") ||
-		       !strcasecmp(dot, ".bmp") || !strcasecmp(dot, ".tif") || !strcasecmp(dot, ".tiff"));
+	               !strcasecmp(dot, ".bmp") || !strcasecmp(dot, ".tif") || !strcasecmp(dot, ".tiff"));
 }
 
 #define CLIP_FRAMES 20 /* frames of the span handed to the detector (spread evenly) */
 
 /* Frames from --at over --span seconds of a clip; corrupt frames skipped. */
 static wl_status read_clip(const options *op, wl_calib_tags *tags, int *w, int *h, int *rotation_deg,
-			   int *frames, wl_err *err)
+                           int *frames, wl_err *err)
 {
 	wl_decoder *dec = NULL;
 	const wl_frame *fr;
@@ -119,15 +119,16 @@ static wl_status read_clip(const options *op, wl_calib_tags *tags, int *w, int *
 			continue;
 		next_t = fr->t_s + step;
 		(*frames)++;
-		if (tags && (st = wl_calib_tags_add(tags, fr->luma, fr->width_px, fr->height_px, fr->luma_stride, &seen,
-						    err)))
+		if (tags && (st = wl_calib_tags_add(tags, fr->luma, fr->width_px, fr->height_px,
+		                                    fr->luma_stride, &seen, err)))
 			break;
 		if (!tags)
 			break;
 	}
 	if (!st && *frames == 0)
-		st = wl_err_set(err, WL_EDECODE, "'%s': no frames between %.2f s and %.2f s: check --at and --span",
-				op->source, op->at_s, op->at_s + op->span_s);
+		st = wl_err_set(err, WL_EDECODE,
+		                "'%s': no frames between %.2f s and %.2f s: check --at and --span",
+		                op->source, op->at_s, op->at_s + op->span_s);
 out:
 	wl_decoder_destroy(dec);
 	return st;
@@ -136,7 +137,7 @@ out:
 /* Frames of SOURCE handed to the tag detector (when tags != NULL); gives
  * the image size and orientation. */
 static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int *h, int *rotation_deg,
-			     int *frames, wl_err *err)
+                             int *frames, wl_err *err)
 {
 	*rotation_deg = 0;
 	*frames = 0;
@@ -153,12 +154,13 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 	return read_clip(op, tags, w, h, rotation_deg, frames, err);
 }
 
-#define MIN_MARGIN 40.0 /* median decision margin below this: a weak detection (our choice) */
+#define MOVE_WARN_PX 1.5 /* a marker's centre wandering more than this over the frames (our choice) */
+#define MIN_MARGIN 40.0  /* median decision margin below this: a weak detection (our choice) */
 
 /* Detected markers -> correspondences: centre, and the corners when the
  * layout gives the marker's size. */
 static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *marks, int n_marks,
-			     wl_calib_point *pts, int max, int *n_seen)
+                             wl_calib_point *pts, int max, int *n_seen)
 {
 	int n = 0;
 	*n_seen = 0;
@@ -166,12 +168,17 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 		wl_tag_obs o;
 		const wl_calib_marker *m = &marks[i];
 		if (!wl_calib_tags_get(tags, m->id, &o)) {
-			printf("  warning: marker %ld (layout line %ld) was not found: check that it is in view, "
+			printf("  warning: marker %ld (layout line %ld) was not found: check that it is in "
+			       "view, "
 			       "lit and flat\n",
 			       m->id, m->line);
 			continue;
 		}
 		(*n_seen)++;
+		if (o.move_px > MOVE_WARN_PX)
+			printf("  warning: marker %ld moves by up to %.1f px between frames: turn image "
+			       "stabilisation off and fix the camera\n",
+			       m->id, o.move_px);
 		if (o.margin < MIN_MARGIN)
 			printf("  warning: marker %ld is weakly detected (decision margin %.0f, below %.0f): "
 			       "more light, less glare, or a larger print\n",
@@ -204,7 +211,7 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 }
 
 static void bounding_outline(const wl_calib_point *pts, int n, const wl_calib_marker *marks, int n_marks,
-			     outline_t *o)
+                             outline_t *o)
 {
 	double x0 = INFINITY, y0 = INFINITY, x1 = -INFINITY, y1 = -INFINITY;
 	for (int i = 0; i < n; i++) {
@@ -220,7 +227,7 @@ static void bounding_outline(const wl_calib_point *pts, int n, const wl_calib_ma
 		y0 = fmin(y0, marks[i].y_m - r);
 		y1 = fmax(y1, marks[i].y_m + r);
 	}
-	double v[4][2] = { { x0, y0 }, { x1, y0 }, { x1, y1 }, { x0, y1 } };
+	double v[4][2] = {{x0, y0}, {x1, y0}, {x1, y1}, {x0, y1}};
 	memcpy(o->outline, v, sizeof v);
 	o->n_outline = 4;
 }
@@ -244,7 +251,8 @@ static void check_outline(const wl_calib *cal)
 		worst = fmax(worst, hypot(dx, dy));
 	}
 	if (worst > 0.25 * size)
-		printf("  warning: the tank outline reaches %.2f m beyond the markers: positions out there are "
+		printf("  warning: the tank outline reaches %.2f m beyond the markers: positions out there "
+		       "are "
 		       "extrapolated; put markers near the tank's corners\n",
 		       worst);
 	/* the outline must be counter-clockwise */
@@ -260,7 +268,7 @@ static void make_ccw(wl_calib *cal)
 	}
 	if (a < 0)
 		for (int i = 0; i < n / 2; i++) {
-			double t[2] = { cal->outline_m[i][0], cal->outline_m[i][1] };
+			double t[2] = {cal->outline_m[i][0], cal->outline_m[i][1]};
 			cal->outline_m[i][0] = cal->outline_m[n - 1 - i][0];
 			cal->outline_m[i][1] = cal->outline_m[n - 1 - i][1];
 			cal->outline_m[n - 1 - i][0] = t[0];
@@ -269,7 +277,7 @@ static void make_ccw(wl_calib *cal)
 }
 
 static void print_report(const options *op, const wl_calib *cal, const wl_calib_report *rep,
-			 const wl_lens *lens)
+                         const wl_lens *lens)
 {
 	double C[3];
 	const wl_calib_point *w = rep->worst >= 0 ? &cal->points[rep->worst] : NULL;
@@ -294,8 +302,8 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 	printf("  camera: %.3f m above the floor, tilted %.1f deg from nadir, over (%.3f, %.3f) m\n", C[2],
 	       rep->tilt_deg, C[0], C[1]);
 	if (cal->cam.water_depth_m > 0)
-		printf("  water: floor under %.3f m, index %.4f (refraction by Snell's law)\n", cal->cam.water_depth_m,
-		       cal->cam.water_index);
+		printf("  water: floor under %.3f m, index %.4f (refraction by Snell's law)\n",
+		       cal->cam.water_depth_m, cal->cam.water_index);
 	printf("  RMS %.3f px, %.2f mm", cal->rms_px, cal->rms_mm);
 	if (w)
 		printf("; worst point '%s' %.3f px (%.2f mm)", w->id, w->residual_px, w->residual_mm);
@@ -308,21 +316,21 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 static int parse_args(int argc, char **argv, options *op)
 {
 	static const struct option opts[] = {
-		{ "layout", required_argument, NULL, 'L' },
-		{ "points", required_argument, NULL, 'P' },
-		{ "output", required_argument, NULL, 'o' },
-		{ "lens", required_argument, NULL, 'l' },
-		{ "hfov-deg", required_argument, NULL, 'f' },
-		{ "plane-height-m", required_argument, NULL, 'z' },
-		{ "water-depth-m", required_argument, NULL, 'd' },
-		{ "water-index", required_argument, NULL, 'n' },
-		{ "family", required_argument, NULL, 'F' },
-		{ "at", required_argument, NULL, 'a' },
-		{ "span", required_argument, NULL, 's' },
-		{ "tank", required_argument, NULL, 't' },
-		{ "quiet", no_argument, NULL, 'q' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
+	        {"layout", required_argument, NULL, 'L'},
+	        {"points", required_argument, NULL, 'P'},
+	        {"output", required_argument, NULL, 'o'},
+	        {"lens", required_argument, NULL, 'l'},
+	        {"hfov-deg", required_argument, NULL, 'f'},
+	        {"plane-height-m", required_argument, NULL, 'z'},
+	        {"water-depth-m", required_argument, NULL, 'd'},
+	        {"water-index", required_argument, NULL, 'n'},
+	        {"family", required_argument, NULL, 'F'},
+	        {"at", required_argument, NULL, 'a'},
+	        {"span", required_argument, NULL, 's'},
+	        {"tank", required_argument, NULL, 't'},
+	        {"quiet", no_argument, NULL, 'q'},
+	        {"help", no_argument, NULL, 'h'},
+	        {NULL, 0, NULL, 0},
 	};
 	int c;
 	memset(op, 0, sizeof *op);
@@ -334,19 +342,51 @@ static int parse_args(int argc, char **argv, options *op)
 		double *num = NULL;
 		const char *name = NULL;
 		switch (c) {
-		case 'L': op->layout = optarg; break;
-		case 'P': op->points = optarg; break;
-		case 'o': op->out = optarg; break;
-		case 'l': op->lens = optarg; break;
-		case 'F': op->family = optarg; break;
-		case 't': op->tank = optarg; break;
-		case 'q': op->quiet = 1; break;
-		case 'f': num = &op->hfov_deg; name = "--hfov-deg"; break;
-		case 'z': num = &op->plane_m; name = "--plane-height-m"; break;
-		case 'd': num = &op->water_m; name = "--water-depth-m"; break;
-		case 'n': num = &op->water_index; name = "--water-index"; break;
-		case 'a': num = &op->at_s; name = "--at"; break;
-		case 's': num = &op->span_s; name = "--span"; break;
+		case 'L':
+			op->layout = optarg;
+			break;
+		case 'P':
+			op->points = optarg;
+			break;
+		case 'o':
+			op->out = optarg;
+			break;
+		case 'l':
+			op->lens = optarg;
+			break;
+		case 'F':
+			op->family = optarg;
+			break;
+		case 't':
+			op->tank = optarg;
+			break;
+		case 'q':
+			op->quiet = 1;
+			break;
+		case 'f':
+			num = &op->hfov_deg;
+			name = "--hfov-deg";
+			break;
+		case 'z':
+			num = &op->plane_m;
+			name = "--plane-height-m";
+			break;
+		case 'd':
+			num = &op->water_m;
+			name = "--water-depth-m";
+			break;
+		case 'n':
+			num = &op->water_index;
+			name = "--water-index";
+			break;
+		case 'a':
+			num = &op->at_s;
+			name = "--at";
+			break;
+		case 's':
+			num = &op->span_s;
+			name = "--span";
+			break;
 		case 'h':
 			fputs(usage_text, stdout);
 			return -1;
@@ -366,7 +406,8 @@ static int parse_args(int argc, char **argv, options *op)
 	if (op->hfov_deg < 0 || op->hfov_deg >= 179)
 		return cli_usage_error("calibrate", "--hfov-deg must lie between 0 and 179");
 	if (op->water_m < 0 || op->water_index < 1 || op->water_index > 3)
-		return cli_usage_error("calibrate", "--water-depth-m must be >= 0 and --water-index in [1, 3]");
+		return cli_usage_error("calibrate",
+		                       "--water-depth-m must be >= 0 and --water-index in [1, 3]");
 	if (op->span_s <= 0 || op->at_s < 0)
 		return cli_usage_error("calibrate", "--at must be >= 0 and --span > 0");
 	return 0;
@@ -382,21 +423,21 @@ int cmd_calibrate(int argc, char **argv)
 	wl_calib_report rep;
 	wl_calib_opts co;
 	wl_calib_tags *tags = NULL;
-	outline_t outline = { 0 };
-	wl_err err = { 0 };
+	outline_t outline = {0};
+	wl_err err = {0};
 	int n = 0, n_marks = 0, w = 0, h = 0, rot = 0, frames = 0, status = WL_EXIT_FAIL, r;
 	if ((r = parse_args(argc, argv, &op)) != 0)
 		return r < 0 ? cli_finish("calibrate", WL_EXIT_OK) : r;
 	if (op.tank && !parse_tank(op.tank, &outline))
 		return cli_usage_error("calibrate",
-				       "--tank '%s': give 3 to %d corners as \"x,y;x,y;...\" in metres", op.tank,
-				       WL_CALIB_MAX_OUTLINE);
+		                       "--tank '%s': give 3 to %d corners as \"x,y;x,y;...\" in metres",
+		                       op.tank, WL_CALIB_MAX_OUTLINE);
 	if (op.lens && wl_lens_load(op.lens, &lens, &err))
 		goto out;
 	if (op.points && wl_calib_read_points(op.points, pts, WL_CALIB_MAX_POINTS, &n, &err))
 		goto out;
 	if (op.layout && (wl_calib_read_layout(op.layout, marks, WL_CALIB_MAX_POINTS, &n_marks, &err) ||
-			  wl_calib_tags_create(op.family, &tags, &err)))
+	                  wl_calib_tags_create(op.family, &tags, &err)))
 		goto out;
 	if (read_source(&op, tags, &w, &h, &rot, &frames, &err))
 		goto out;
@@ -404,12 +445,14 @@ int cmd_calibrate(int argc, char **argv)
 	if (tags) {
 		int seen;
 		n = markers_to_points(tags, marks, n_marks, pts, WL_CALIB_MAX_POINTS, &seen);
-		printf("  markers: %d of %d found in %d frame%s\n", seen, n_marks, frames, frames == 1 ? "" : "s");
+		printf("  markers: %d of %d found in %d frame%s\n", seen, n_marks, frames,
+		       frames == 1 ? "" : "s");
 		if (seen < 4) {
 			wl_err_set(&err, WL_ECALIB,
-				   "%s: only %d of the %d layout markers were found in '%s' (at least 4 are needed): "
-				   "check the --family, the lighting and that the markers are in view",
-				   op.layout, seen, n_marks, op.source);
+			           "%s: only %d of the %d layout markers were found in '%s' (at least 4 are "
+			           "needed): "
+			           "check the --family, the lighting and that the markers are in view",
+			           op.layout, seen, n_marks, op.source);
 			goto out;
 		}
 	}

@@ -16,23 +16,23 @@
 const char cmd_lens_summary[] = "lens intrinsics from photos of a chessboard -> LENS.json";
 
 static const char usage_text[] =
-	"usage: wakeline lens SOURCE --board COLSxROWS --square-mm S -o LENS.json [options]\n"
-	"\n"
-	"Finds the camera's focal length, principal point and lens distortion from\n"
-	"photos of a flat printed chessboard taken with the same camera setting as\n"
-	"the tank videos.  SOURCE is a folder of PNG/JPEG photos, one photo, or a clip\n"
-	"(one frame every --every-s seconds is offered; move the board slowly).\n"
-	"\n"
-	"  --board COLSxROWS   inner corners of the board (a 10x7-square board is 9x6)\n"
-	"  --square-mm S       side of one square in millimetres\n"
-	"  -o, --output FILE   LENS.json to write\n"
-	"  --subpix-win N      corner refinement window: N is half the side (default 5: 11x11 px)\n"
-	"  --every-s T         clip: seconds between frames offered (default 0.5)\n"
-	"  -q, --quiet         no progress line\n"
-	"  -h, --help          this text\n"
-	"\n"
-	"Frames without the whole board, frames too alike to one already kept and\n"
-	"blurred frames are skipped and counted.  Exit status: 0 ok, 1 failure, 2 usage.\n";
+        "usage: wakeline lens SOURCE --board COLSxROWS --square-mm S -o LENS.json [options]\n"
+        "\n"
+        "Finds the camera's focal length, principal point and lens distortion from\n"
+        "photos of a flat printed chessboard taken with the same camera setting as\n"
+        "the tank videos.  SOURCE is a folder of PNG/JPEG photos, one photo, or a clip\n"
+        "(one frame every --every-s seconds is offered; move the board slowly).\n"
+        "\n"
+        "  --board COLSxROWS   inner corners of the board (a 10x7-square board is 9x6)\n"
+        "  --square-mm S       side of one square in millimetres\n"
+        "  -o, --output FILE   LENS.json to write\n"
+        "  --subpix-win N      corner refinement window: N is half the side (default 5: 11x11 px)\n"
+        "  --every-s T         clip: seconds between frames offered (default 0.5)\n"
+        "  -q, --quiet         no progress line\n"
+        "  -h, --help          this text\n"
+        "\n"
+        "Frames without the whole board, frames too alike to one already kept and\n"
+        "blurred frames are skipped and counted.  Exit status: 0 ok, 1 failure, 2 usage.\n";
 
 static int is_image_name(const char *name)
 {
@@ -97,7 +97,7 @@ static wl_status list_images(const char *src, char ***out, int *n, wl_err *err)
 
 /* Offers one frame every every_s seconds of a clip. */
 static wl_status lens_from_clip(const char *src, double every_s, wl_lens_collector *lc, int *offered,
-				cli_progress *prog, wl_err *err)
+                                cli_progress *prog, wl_err *err)
 {
 	wl_decoder *dec = NULL;
 	const wl_frame *fr;
@@ -112,7 +112,8 @@ static wl_status lens_from_clip(const char *src, double every_s, wl_lens_collect
 			continue;
 		next_t = fr->t_s + every_s;
 		(*offered)++;
-		if ((st = wl_lens_collector_add(lc, fr->luma, fr->width_px, fr->height_px, fr->luma_stride, &kept, err))) {
+		if ((st = wl_lens_collector_add(lc, fr->luma, fr->width_px, fr->height_px, fr->luma_stride,
+		                                &kept, err))) {
 			wl_err_prefix(err, "%s: frame at %.3f s", src, fr->t_s);
 			break;
 		}
@@ -132,11 +133,10 @@ static void free_list(char **v, int n)
 int cmd_lens(int argc, char **argv)
 {
 	static const struct option opts[] = {
-		{ "board", required_argument, NULL, 'b' },    { "square-mm", required_argument, NULL, 's' },
-		{ "output", required_argument, NULL, 'o' },   { "subpix-win", required_argument, NULL, 'w' },
-		{ "quiet", no_argument, NULL, 'q' },          { "help", no_argument, NULL, 'h' },
-		{ "every-s", required_argument, NULL, 'e' },
-		{ NULL, 0, NULL, 0 },
+	        {"board", required_argument, NULL, 'b'},   {"square-mm", required_argument, NULL, 's'},
+	        {"output", required_argument, NULL, 'o'},  {"subpix-win", required_argument, NULL, 'w'},
+	        {"quiet", no_argument, NULL, 'q'},         {"help", no_argument, NULL, 'h'},
+	        {"every-s", required_argument, NULL, 'e'}, {NULL, 0, NULL, 0},
 	};
 	const char *out_path = NULL, *src;
 	int cols = 0, rows = 0, win = 5, quiet = 0, c, n_files = 0, status = WL_EXIT_FAIL;
@@ -145,34 +145,38 @@ int cmd_lens(int argc, char **argv)
 	char **files = NULL;
 	wl_lens_collector *lc = NULL;
 	static wl_lens lens;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	cli_progress prog;
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
 		switch (c) {
 		case 'b':
 			if (sscanf(optarg, "%dx%d", &cols, &rows) != 2 || cols < 3 || rows < 3)
-				return cli_usage_error("lens", "--board '%s': give inner corners as COLSxROWS, e.g. 9x6",
-						       optarg);
+				return cli_usage_error(
+				        "lens", "--board '%s': give inner corners as COLSxROWS, e.g. 9x6",
+				        optarg);
 			break;
 		case 's':
 			if (!cli_parse_double(optarg, &square_mm) || !(square_mm > 0))
-				return cli_usage_error("lens", "--square-mm '%s' is not a positive number", optarg);
+				return cli_usage_error("lens", "--square-mm '%s' is not a positive number",
+				                       optarg);
 			break;
 		case 'o':
 			out_path = optarg;
 			break;
 		case 'w':
 			if (!cli_parse_int(optarg, &win) || win < 1 || win > 50)
-				return cli_usage_error("lens", "--subpix-win '%s': give a whole number from 1 to 50",
-						       optarg);
+				return cli_usage_error("lens",
+				                       "--subpix-win '%s': give a whole number from 1 to 50",
+				                       optarg);
 			break;
 		case 'q':
 			quiet = 1;
 			break;
 		case 'e':
 			if (!cli_parse_double(optarg, &every_s) || !(every_s > 0))
-				return cli_usage_error("lens", "--every-s '%s' is not a positive number", optarg);
+				return cli_usage_error("lens", "--every-s '%s' is not a positive number",
+				                       optarg);
 			break;
 		case 'h':
 			fputs(usage_text, stdout);
@@ -216,21 +220,25 @@ int cmd_lens(int argc, char **argv)
 	if (wl_lens_save(out_path, &lens, &err))
 		goto out;
 	printf("lens: %s -> %s\n", src, out_path);
-	printf("  views used %d of %d (no board %d, too alike %d, blurred %d); coverage %.0f%% of the image\n",
-	       lens.views_used, n_files < 0 ? -n_files : n_files, lens.views_no_board, lens.views_alike, lens.views_blurred,
-	       100 * lens.coverage);
+	printf("  views used %d of %d (no board %d, too alike %d, blurred %d); coverage %.0f%% of the "
+	       "image\n",
+	       lens.views_used, n_files < 0 ? -n_files : n_files, lens.views_no_board, lens.views_alike,
+	       lens.views_blurred, 100 * lens.coverage);
 	printf("  RMS reprojection error %.4f px\n", lens.rms_px);
-	printf("  fx %.3f  fy %.3f  cx %.3f  cy %.3f  (image %dx%d)\n", lens.cam.K[0], lens.cam.K[4], lens.cam.K[2],
-	       lens.cam.K[5], lens.cam.width_px, lens.cam.height_px);
+	printf("  fx %.3f  fy %.3f  cx %.3f  cy %.3f  (image %dx%d)\n", lens.cam.K[0], lens.cam.K[4],
+	       lens.cam.K[2], lens.cam.K[5], lens.cam.width_px, lens.cam.height_px);
 	printf("  distortion k1 %.6f k2 %.6f p1 %.6f p2 %.6f k3 %.6f\n", lens.cam.dist[0], lens.cam.dist[1],
 	       lens.cam.dist[2], lens.cam.dist[3], lens.cam.dist[4]);
 	if (lens.coverage < 0.5)
-		cli_warn("lens", "the board covered only %.0f%% of the image: add photos with the board near the "
-			 "edges and corners", 100 * lens.coverage);
+		cli_warn("lens",
+		         "the board covered only %.0f%% of the image: add photos with the board near the "
+		         "edges and corners",
+		         100 * lens.coverage);
 	if (lens.rms_px > 1)
 		cli_warn("lens", "RMS %.2f px is high: check the --board size, focus and blur", lens.rms_px);
 	if (lens.views_used < 10)
-		cli_warn("lens", "only %d views: 10-20 from different angles give steadier results", lens.views_used);
+		cli_warn("lens", "only %d views: 10-20 from different angles give steadier results",
+		         lens.views_used);
 	status = WL_EXIT_OK;
 out:
 	if (status != WL_EXIT_OK)

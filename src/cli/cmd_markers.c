@@ -1,4 +1,5 @@
 /* cmd_markers.c: `wakeline markers`: a printable sheet of floor markers at exact scale. */
+#include <cairo.h>
 #include <getopt.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -10,23 +11,27 @@
 const char cmd_markers_summary[] = "printable sheet of floor markers (SVG, PDF or PNG)";
 
 static const char usage_text[] =
-	"usage: wakeline markers --ids LIST --size-mm S -o SHEET.(svg|pdf|png) [options]\n"
-	"\n"
-	"Draws AprilTag markers at exact scale for the tank floor, each with its id,\n"
-	"and a 100 mm scale bar to check the print with a ruler.\n"
-	"\n"
-	"  --ids LIST        ids, e.g. 0-3 or 0,2,5-7\n"
-	"  --size-mm S       side of each tag's black square in millimetres\n"
-	"  -o, --output FILE the sheet; the format follows the extension\n"
-	"  --family NAME     tag family (default tag36h11)\n"
-	"  --dpi N           PNG resolution (default 300)\n"
-	"  --page NAME       a4 (default), a3 or letter, portrait\n"
-	"  -h, --help        this text\n"
-	"\n"
-	"Print at 100 % (no 'fit to page'), then measure the scale bar and a tag; give\n"
-	"the measured size as size_m in the layout.  Exit status: 0 ok, 1 failure, 2 usage.\n";
+        "usage: wakeline markers --ids LIST --size-mm S -o SHEET.(svg|pdf|png) [options]\n"
+        "\n"
+        "Draws AprilTag markers at exact scale for the tank floor, each with its id,\n"
+        "and a 100 mm scale bar to check the print with a ruler.\n"
+        "\n"
+        "  --ids LIST        ids, e.g. 0-3 or 0,2,5-7\n"
+        "  --size-mm S       side of each tag's black square in millimetres\n"
+        "  -o, --output FILE the sheet; the format follows the extension\n"
+        "  --family NAME     tag family (default tag36h11)\n"
+        "  --dpi N           PNG resolution (default 300)\n"
+        "  --page NAME       a4 (default), a3 or letter, portrait\n"
+        "  -h, --help        this text\n"
+        "\n"
+        "Print at 100 % (no 'fit to page'), then measure the scale bar and a tag; give\n"
+        "the measured size as size_m in the layout.  Exit status: 0 ok, 1 failure, 2 usage.\n";
 
 #define MAX_IDS 1000
+
+/* fontconfig comes in with cairo's text; its FcFini is looked up weakly so
+ * that wakeline need not link fontconfig itself (NULL when absent) */
+extern void FcFini(void) __attribute__((weak));
 
 static int parse_ids(const char *s, long *ids, int *n)
 {
@@ -61,30 +66,36 @@ static int parse_ids(const char *s, long *ids, int *n)
 int cmd_markers(int argc, char **argv)
 {
 	static const struct option opts[] = {
-		{ "ids", required_argument, NULL, 'i' },    { "size-mm", required_argument, NULL, 's' },
-		{ "output", required_argument, NULL, 'o' }, { "family", required_argument, NULL, 'f' },
-		{ "dpi", required_argument, NULL, 'd' },    { "page", required_argument, NULL, 'p' },
-		{ "help", no_argument, NULL, 'h' },         { NULL, 0, NULL, 0 },
+	        {"ids", required_argument, NULL, 'i'},    {"size-mm", required_argument, NULL, 's'},
+	        {"output", required_argument, NULL, 'o'}, {"family", required_argument, NULL, 'f'},
+	        {"dpi", required_argument, NULL, 'd'},    {"page", required_argument, NULL, 'p'},
+	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
 	};
 	static long ids[MAX_IDS];
-	wl_markers_opts mo = { "tag36h11", ids, 0, 0, 300, 210, 297 };
+	wl_markers_opts mo = {"tag36h11", ids, 0, 0, 300, 210, 297};
 	const char *out = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	int c;
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:h", opts, NULL)) != -1) {
 		switch (c) {
 		case 'i':
 			if (!parse_ids(optarg, ids, &mo.n_ids))
-				return cli_usage_error("markers", "--ids '%s': give ids like 0-3 or 0,2,5-7 (at most %d)",
-						       optarg, MAX_IDS);
+				return cli_usage_error(
+				        "markers", "--ids '%s': give ids like 0-3 or 0,2,5-7 (at most %d)",
+				        optarg, MAX_IDS);
 			break;
 		case 's':
 			if (!cli_parse_double(optarg, &mo.size_mm) || !(mo.size_mm > 0))
-				return cli_usage_error("markers", "--size-mm '%s' is not a positive number", optarg);
+				return cli_usage_error("markers", "--size-mm '%s' is not a positive number",
+				                       optarg);
 			break;
-		case 'o': out = optarg; break;
-		case 'f': mo.family = optarg; break;
+		case 'o':
+			out = optarg;
+			break;
+		case 'f':
+			mo.family = optarg;
+			break;
 		case 'd':
 			if (!cli_parse_double(optarg, &mo.dpi) || mo.dpi < 30 || mo.dpi > 2400)
 				return cli_usage_error("markers", "--dpi '%s': give 30 to 2400", optarg);
@@ -100,7 +111,8 @@ int cmd_markers(int argc, char **argv)
 				mo.page_w_mm = 215.9;
 				mo.page_h_mm = 279.4;
 			} else {
-				return cli_usage_error("markers", "--page '%s': use a4, a3 or letter", optarg);
+				return cli_usage_error("markers", "--page '%s': use a4, a3 or letter",
+				                       optarg);
 			}
 			break;
 		case 'h':
@@ -114,9 +126,15 @@ int cmd_markers(int argc, char **argv)
 		return cli_usage_error("markers", "unexpected argument '%s'", argv[optind]);
 	if (!mo.n_ids || !(mo.size_mm > 0) || !out)
 		return cli_usage_error("markers", "--ids, --size-mm and -o are required");
-	if (wl_markers_render(out, &mo, &err))
-		return cli_finish("markers", cli_fail("markers", &err));
-	printf("markers: %d %s tag%s of %.1f mm -> %s\n", mo.n_ids, mo.family, mo.n_ids == 1 ? "" : "s", mo.size_mm,
-	       out);
+	c = wl_markers_render(out, &mo, &err) ? cli_fail("markers", &err) : WL_EXIT_OK;
+	/* drop cairo's font caches (fontconfig patterns) so that leak checkers
+	 * see a clean exit; safe here, no cairo object is left */
+	cairo_debug_reset_static_data();
+	if (FcFini)
+		FcFini();
+	if (c != WL_EXIT_OK)
+		return cli_finish("markers", c);
+	printf("markers: %d %s tag%s of %.1f mm -> %s\n", mo.n_ids, mo.family, mo.n_ids == 1 ? "" : "s",
+	       mo.size_mm, out);
 	return cli_finish("markers", WL_EXIT_OK);
 }

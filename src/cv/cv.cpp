@@ -15,7 +15,8 @@
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
 
-namespace {
+namespace
+{
 
 wl_status fail(wl_err *err, wl_status code, const char *what, const char *detail)
 {
@@ -29,17 +30,19 @@ cv::Mat wrap(const uint8_t *gray, int w, int h, int stride)
 
 } // namespace
 
-extern "C" wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixels, int *width_px, int *height_px,
-				  wl_err *err)
+extern "C" wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixels, int *width_px,
+                                  int *height_px, wl_err *err)
 {
 	*pixels = nullptr;
 	try {
 		if (channels != 1 && channels != 3)
 			return wl_err_set(err, WL_EINVAL, "imread: channels must be 1 or 3");
-		cv::Mat m = cv::imread(path, (channels == 1 ? cv::IMREAD_GRAYSCALE : cv::IMREAD_COLOR) | cv::IMREAD_IGNORE_ORIENTATION);
+		cv::Mat m = cv::imread(path, (channels == 1 ? cv::IMREAD_GRAYSCALE : cv::IMREAD_COLOR) |
+		                                     cv::IMREAD_IGNORE_ORIENTATION);
 		if (m.empty())
-			return wl_err_set(err, WL_EIO, "cannot read image '%s': missing, unreadable or not an image",
-					  path);
+			return wl_err_set(err, WL_EIO,
+			                  "cannot read image '%s': missing, unreadable or not an image",
+			                  path);
 		if (channels == 3)
 			cv::cvtColor(m, m, cv::COLOR_BGR2RGB);
 		size_t row = static_cast<size_t>(m.cols) * static_cast<size_t>(channels);
@@ -59,19 +62,21 @@ extern "C" wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixe
 	}
 }
 
-extern "C" wl_status wl_cv_find_chessboard(const uint8_t *gray, int width_px, int height_px, int stride, int cols,
-					   int rows, int half_win, double *corners, int *found, wl_err *err)
+extern "C" wl_status wl_cv_find_chessboard(const uint8_t *gray, int width_px, int height_px, int stride,
+                                           int cols, int rows, int half_win, double *corners, int *found,
+                                           wl_err *err)
 {
 	*found = 0;
 	try {
 		cv::Mat img = wrap(gray, width_px, height_px, stride);
 		std::vector<cv::Point2f> pts;
 		bool ok = cv::findChessboardCorners(img, cv::Size(cols, rows), pts,
-						    cv::CALIB_CB_ADAPTIVE_THRESH | cv::CALIB_CB_NORMALIZE_IMAGE);
+		                                    cv::CALIB_CB_ADAPTIVE_THRESH |
+		                                            cv::CALIB_CB_NORMALIZE_IMAGE);
 		if (!ok || pts.size() != static_cast<size_t>(cols * rows))
 			return WL_OK;
 		cv::cornerSubPix(img, pts, cv::Size(half_win, half_win), cv::Size(-1, -1),
-				 cv::TermCriteria(cv::TermCriteria::EPS + cv::TermCriteria::COUNT, 30, 0.1));
+		                 cv::TermCriteria(cv::TermCriteria::EPS + cv::TermCriteria::COUNT, 30, 0.1));
 		for (size_t i = 0; i < pts.size(); i++) {
 			corners[2 * i] = pts[i].x;
 			corners[2 * i + 1] = pts[i].y;
@@ -85,8 +90,8 @@ extern "C" wl_status wl_cv_find_chessboard(const uint8_t *gray, int width_px, in
 	}
 }
 
-extern "C" wl_status wl_cv_sharpness(const uint8_t *gray, int width_px, int height_px, int stride, double *out,
-				     wl_err *err)
+extern "C" wl_status wl_cv_sharpness(const uint8_t *gray, int width_px, int height_px, int stride,
+                                     double *out, wl_err *err)
 {
 	try {
 		cv::Mat lap;
@@ -103,23 +108,26 @@ extern "C" wl_status wl_cv_sharpness(const uint8_t *gray, int width_px, int heig
 }
 
 extern "C" wl_status wl_cv_calibrate(const double *object, int n_per_view, const double *image, int n_views,
-				     int width_px, int height_px, int flags, double K[9], double dist[5], double *rms_px,
-				     double *per_view_rms, wl_err *err)
+                                     int width_px, int height_px, int flags, double K[9], double dist[5],
+                                     double *rms_px, double *per_view_rms, wl_err *err)
 {
 	try {
 		std::vector<std::vector<cv::Point3f>> obj(static_cast<size_t>(n_views));
 		std::vector<std::vector<cv::Point2f>> img(static_cast<size_t>(n_views));
 		for (int v = 0; v < n_views; v++)
 			for (int i = 0; i < n_per_view; i++) {
-				const double *o = object + 3 * i, *p = image + 2 * (static_cast<size_t>(v) * n_per_view + i);
-				obj[static_cast<size_t>(v)].emplace_back(static_cast<float>(o[0]), static_cast<float>(o[1]),
-									 static_cast<float>(o[2]));
-				img[static_cast<size_t>(v)].emplace_back(static_cast<float>(p[0]), static_cast<float>(p[1]));
+				const double *o = object + 3 * i,
+				             *p = image + 2 * (static_cast<size_t>(v) * n_per_view + i);
+				obj[static_cast<size_t>(v)].emplace_back(static_cast<float>(o[0]),
+				                                         static_cast<float>(o[1]),
+				                                         static_cast<float>(o[2]));
+				img[static_cast<size_t>(v)].emplace_back(static_cast<float>(p[0]),
+				                                         static_cast<float>(p[1]));
 			}
 		cv::Mat Km, Dm, sd_in, sd_ex, pv;
 		std::vector<cv::Mat> rv, tv;
-		double rms = cv::calibrateCamera(obj, img, cv::Size(width_px, height_px), Km, Dm, rv, tv, sd_in, sd_ex,
-						 pv, flags);
+		double rms = cv::calibrateCamera(obj, img, cv::Size(width_px, height_px), Km, Dm, rv, tv,
+		                                 sd_in, sd_ex, pv, flags);
 		Km.convertTo(Km, CV_64F);
 		Dm.convertTo(Dm, CV_64F);
 		for (int r = 0; r < 3; r++)

@@ -24,7 +24,7 @@ extern "C" {
  * pixels are coded pixels).  *pixels (stride = width·channels) is freed with
  * free().  WL_EIO when the file cannot be read or is not an image. */
 wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixels, int *width_px, int *height_px,
-		       wl_err *err);
+                       wl_err *err);
 
 /* Finds the inner corners of a cols×rows chessboard (cv::findChessboardCorners
  * with adaptive threshold and normalisation) and refines them with
@@ -32,12 +32,12 @@ wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixels, int *wi
  * (30 iterations, 0.1 px).  corners receives cols·rows (u, v) pairs, row by
  * row.  *found is 0 when the board is not seen (not an error). */
 wl_status wl_cv_find_chessboard(const uint8_t *gray, int width_px, int height_px, int stride, int cols,
-				int rows, int half_win, double *corners, int *found, wl_err *err);
+                                int rows, int half_win, double *corners, int *found, wl_err *err);
 
 /* Variance of the Laplacian of a gray image: a focus/blur measure (common
  * practice: low values mean a blurred frame). */
 wl_status wl_cv_sharpness(const uint8_t *gray, int width_px, int height_px, int stride, double *out,
-			  wl_err *err);
+                          wl_err *err);
 
 /* cv::calibrateCamera over n_views views of the same n_per_view points:
  * object (n_per_view×3, metres or any unit), image (n_views·n_per_view×2).
@@ -45,8 +45,8 @@ wl_status wl_cv_sharpness(const uint8_t *gray, int width_px, int height_px, int 
  * Gives K (row-major 3×3), dist[5], the RMS reprojection error (pixels)
  * and, if per_view_rms is not NULL, each view's RMS. */
 wl_status wl_cv_calibrate(const double *object, int n_per_view, const double *image, int n_views,
-			  int width_px, int height_px, int flags, double K[9], double dist[5], double *rms_px,
-			  double *per_view_rms, wl_err *err);
+                          int width_px, int height_px, int flags, double K[9], double dist[5], double *rms_px,
+                          double *per_view_rms, wl_err *err);
 
 #ifdef __cplusplus
 }

@@ -67,4 +67,10 @@ K = json.load(open(sys.argv[1]))["camera_matrix"]
 for got, ref in ((K[0][0], 532.80992), (K[1][1], 532.93346), (K[0][2], 342.49522), (K[1][2], 233.88793)):
     assert abs(got - ref) < 1.0, (got, ref)
 PY
+
+# the wrong board size finds no board: a clear error, no file
+set +e; "$WAKELINE" lens "$WL_SOURCE_DIR/tests/data/opencv-left" --board 8x5 --square-mm 25 -q -o "$WL_TEST_TMP/bad.json" 2> "$WL_TEST_TMP/bad.err"; rc=$?; set -e
+cat "$WL_TEST_TMP/bad.err"
+[ "$rc" -eq 1 ] && grep -q "0 usable views of the 8x5 board (13 without the board" "$WL_TEST_TMP/bad.err"
+test ! -e "$WL_TEST_TMP/bad.json"
 echo "0201-lens-opencv-photos: ok"

@@ -35,6 +35,14 @@ expect_fail few "few.csv: 3 points, calibration needs at least 4" --points few.c
 printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n3,0,1\n' > ok.csv
 expect_fail missing "only 0 of the 4 layout markers were found" --layout ok.csv
 grep -q "marker 2 (layout line 4) was not found" missing.out
+# an output that cannot be written: the error names it
+printf 'u_px,v_px,x_m,y_m\n100,100,0,1\n500,120,1,1\n450,400,1,0\n80,350,0,0\n' > four.csv
+set +e; "$WAKELINE" calibrate blank.png --points four.csv --hfov-deg 60 -o no/such/dir/CAL.json 2> out.err; rc=$?; set -e
+cat out.err
+[ "$rc" -eq 1 ] && grep -q "no/such/dir/CAL.json" out.err
+# a mirrored layout (y measured the other way): the camera would be under the floor
+printf 'u_px,v_px,x_m,y_m\n100,100,0,0\n500,120,1,0\n450,400,1,1\n80,350,0,1\n' > mirrored.csv
+expect_fail mirrored "the layout looks mirrored" --points mirrored.csv --hfov-deg 60
 # usage errors exit 2
 set +e; "$WAKELINE" calibrate blank.png -o x.json 2>/dev/null; rc=$?; set -e
 [ "$rc" -eq 2 ]

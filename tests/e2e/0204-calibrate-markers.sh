@@ -10,17 +10,17 @@ set -euo pipefail
 rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP/tags"; cd "$WL_TEST_TMP"
 layout="$WL_SOURCE_DIR/calib/example-layout.csv"
 for i in 0 1 2 3 4 5 6 7; do
-  "$WAKELINE" markers --ids $i --size-mm 100 --dpi 254 -o tags/tag$i.png > /dev/null
+  "$WAKELINE" markers --ids $i --size-mm 100 --dpi 127 -o tags/tag$i.png > /dev/null
 done
-# the sheet is at scale: at 254 dpi (10 px/mm) the black square is 1000 px
+# the sheet is at scale: at 127 dpi (5 px/mm) the black square is 500 px
 /usr/bin/python3 - <<'PY'
 import cv2, numpy as np
 im = cv2.imread("tags/tag3.png", cv2.IMREAD_GRAYSCALE)
 n, lab, st, _ = cv2.connectedComponentsWithStats((im < 128).astype(np.uint8), connectivity=4)
 k = 1 + int(np.argmax(st[1:, cv2.CC_STAT_AREA]))
 w, h = st[k, cv2.CC_STAT_WIDTH], st[k, cv2.CC_STAT_HEIGHT]
-print("black square %d x %d px at 10 px/mm" % (w, h))
-assert abs(w - 1000) <= 1 and abs(h - 1000) <= 1, (w, h)
+print("black square %d x %d px at 5 px/mm" % (w, h))
+assert abs(w - 500) <= 1 and abs(h - 500) <= 1, (w, h)
 PY
 /usr/bin/python3 "$WL_SOURCE_DIR/tests/e2e/lib/calib_scene.py" tags "$layout" scene.png --tagdir tags --tilt 20
 
@@ -44,4 +44,15 @@ ffmpeg -v error -y -loop 1 -i scene.png -t 1 -r 10 -pix_fmt yuv420p -c:v libx264
 "$WAKELINE" calibrate clip.mp4 --layout "$layout" --span 1 -o clip.json > clip.txt
 check clip.json clip.txt
 grep -q "in 10 frames" clip.txt
+
+# a camera that moves (stabilisation, a bumped tripod): half the clip shifted by 4 px
+/usr/bin/python3 -c "
+import cv2, numpy as np
+im = cv2.imread('scene.png', cv2.IMREAD_GRAYSCALE)
+cv2.imwrite('shifted.png', np.roll(im, 4, axis=1))"
+ffmpeg -v error -y -loop 1 -t 0.5 -r 10 -i scene.png -loop 1 -t 0.5 -r 10 -i shifted.png \
+  -filter_complex "[0:v][1:v]concat=n=2:v=1[v]" -map "[v]" -pix_fmt yuv420p -c:v libx264 -crf 12 moving.mp4
+"$WAKELINE" calibrate moving.mp4 --layout "$layout" --span 1 -o moving.json > moving.txt
+grep "moves by up to" moving.txt | head -2
+grep -q "warning: marker [0-9]* moves by up to [2-5]\.[0-9] px between frames" moving.txt
 echo "0204-calibrate-markers: ok"

@@ -8,7 +8,7 @@ camera model and points are projected with Debian's python3-opencv
                  [--grid NXxNY] [--bad INDEX:DU] [--f PX]
   calib_scene.py camera [--tilt DEG]       prints height and tilt
   calib_scene.py tags LAYOUT.csv SCENE.png --tagdir DIR [--tilt DEG]
-      renders DIR/tag<ID>.png (from `wakeline markers`, 10 px/mm) onto the
+      renders DIR/tag<ID>.png (from `wakeline markers`, any resolution) onto the
       floor at the layout's positions, sizes and yaws, seen by the camera
 """
 import argparse, sys

@@ -1,0 +1,266 @@
+/*
+ * track.h: the tracker, the third stage of the pipeline: decoded frames ->
+ * per-frame robot poses on the robot's marker plane (RAW.csv).
+ *
+ * Two detection back ends sit behind one per-frame loop:
+ *   tag     AprilTags (tag36h11 by default); tag id = robot id; heading is
+ *           the direction of the tag's printed "up" (bottom edge -> top edge).
+ *   colour  one or two coloured caps per robot, thresholded in HSV (OpenCV's
+ *           8-bit ranges: hue 0-179, saturation and value 0-255; lo > hi on
+ *           hue wraps through red); heading from back cap to front cap, or
+ *           from the direction of motion with a single cap.
+ * After a full-frame find, each robot is searched in a window around its
+ * predicted position (constant velocity in pixels); the whole frame is
+ * searched again when a robot is lost and every rescan_s seconds.
+ *
+ * Pixels: detections are converted once, at the AprilTag boundary, from
+ * AprilTag's convention (centre of pixel 0 at 0.5) to ours (at 0).  u_px,
+ * v_px in the output are CODED pixels; when the calibration is in displayed
+ * pixels, points are mapped with wl_orient_to_displayed before the camera
+ * model, so rotation metadata does not change tank positions.
+ *
+ * Ownership: every _create has a _destroy (NULL ok).  Arrays handed out by
+ * wl_tracker_frame are owned by the tracker and valid until the next call.
+ * Errors: WL_EINVAL (bad options), WL_EIO/WL_EFORMAT (files), WL_EDECODE,
+ * WL_ECALIB (calibration does not fit the clip), WL_ENOMEM.
+ */
+#ifndef WL_TRACK_H
+#define WL_TRACK_H
+
+#include <stdint.h>
+
+#include "calib/calib.h"
+#include "core/err.h"
+
+#define WL_TRACK_MAX_ROBOTS 64
+
+typedef enum { WL_TRACK_TAG = 0, WL_TRACK_COLOUR = 1 } wl_track_mode;
+
+/* An HSV box in OpenCV's 8-bit ranges; hue wraps when lo[0] > hi[0]. */
+typedef struct {
+	int set;
+	int lo[3], hi[3];
+} wl_hsv_range;
+
+/* What is known of one robot (from --ids or ROBOTS.csv). */
+typedef struct {
+	int id;
+	double plane_height_m;     /* NaN: the run's default plane */
+	double heading_offset_rad; /* added to the measured heading (mounting) */
+	double body_diameter_m;    /* NaN if unknown; sizes the colour search */
+	wl_hsv_range front, back;  /* colour mode; back unset: one cap */
+} wl_robot_spec;
+
+typedef struct {
+	wl_track_mode mode;
+	char family[32];           /* AprilTag family name, e.g. "tag36h11" */
+	int n_robots;              /* known robots; with restrict_ids only these */
+	wl_robot_spec robots[WL_TRACK_MAX_ROBOTS];
+	int restrict_ids;          /* 1: ignore ids not in robots[] */
+	double plane_height_m;     /* NaN: the calibration's plane_height_m */
+	double rescan_s;           /* full-frame search period (new robots) */
+	/* AprilTag settings */
+	float quad_decimate;       /* full-frame searches (default 2) */
+	float window_decimate;     /* window searches; 0 (default): 2 for tags of >= 32 px, else 1 */
+	float quad_sigma;          /* Gaussian blur before segmentation, px */
+	double decode_sharpening;  /* AprilTag's default 0.25 */
+	int max_hamming;           /* corrected bits accepted (0 or 1) */
+	double min_margin;         /* minimum decision margin (hamming 0) */
+	double min_margin_h1;      /* minimum decision margin for hamming 1 */
+	int edge_px;               /* reject tags with a corner this close to the frame edge */
+	/* colour settings */
+	int min_blob_px, max_blob_px; /* accepted blob areas, px */
+	double min_fill;           /* blob area / bounding-box area, a shape test */
+	/* search */
+	int lost_after;            /* misses before a robot is lost (full-frame search) */
+	double motion_min_m;       /* single cap: displacement needed for a heading */
+} wl_track_opts;
+
+void wl_track_opts_init(wl_track_opts *o);
+
+/* Finds robot id in o->robots, or adds it with defaults (NULL when full). */
+wl_robot_spec *wl_track_robot(wl_track_opts *o, int id);
+
+/* Parses "3,7,12" into robots (restrict_ids set).  WL_EINVAL names the item. */
+wl_status wl_track_parse_ids(const char *s, wl_track_opts *o, wl_err *err);
+
+/* Parses "h,s,v" (hue 0-179, s and v 0-255). */
+int wl_track_parse_hsv(const char *s, int out[3]);
+
+/* Loads ROBOTS.csv: id (required), plane_height_m, heading_offset_rad,
+ * body_diameter_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
+ * (optional columns; empty cells keep defaults).  Sets restrict_ids. */
+wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err);
+
+/* ---- one frame's detection result ---- */
+
+typedef enum { WL_HS_NONE = 0, WL_HS_TAG, WL_HS_CAPS, WL_HS_MOTION } wl_heading_source;
+const char *wl_heading_source_name(wl_heading_source s);
+
+typedef struct {
+	int id;
+	int ok;                    /* 0: lost this frame (pose fields NaN) */
+	double u_px, v_px;         /* coded pixels, our centre convention */
+	double x_m, y_m;           /* tank frame, on the robot's marker plane */
+	double heading_rad;        /* (-pi, pi], NaN when unknown */
+	double margin;             /* tag decision margin, or blob area in px */
+	double size_px;            /* tag side, or blob diameter, in px */
+	wl_heading_source heading_source;
+} wl_track_obs;
+
+/* A frame as the tracker sees it (borrowed). */
+typedef struct {
+	int width_px, height_px;   /* coded */
+	const uint8_t *luma;
+	int luma_stride;
+	const uint8_t *rgb;        /* packed RGB24, colour mode only */
+	int rgb_stride;
+	double t_s;
+	int64_t index;
+	/* the part of the frame that holds this frame's pixels (x, y, w, h);
+	 * w == 0: all of it.  See wl_tracker_roi. */
+	int roi[4];
+} wl_track_image;
+
+typedef struct {
+	int64_t frames, full_scans, window_scans;
+	int64_t rejected_edge, rejected_quality;
+} wl_track_stats;
+
+typedef struct wl_tracker wl_tracker;
+
+/* Creates a tracker for coded frames width×height shown turned by
+ * rotation_deg.  The options and calibration are copied (cal's outline is
+ * not needed).  Checks that the calibration fits the clip. */
+wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, const char *cal_path,
+			    int width_px, int height_px, int rotation_deg, wl_tracker **out, wl_err *err);
+
+/* Tracks one frame.  *obs receives one entry per robot listed so far (known
+ * robots from the start, found ones from their first sighting on), in
+ * robot order; the array belongs to the tracker. */
+wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_track_obs **obs, int *n,
+			   wl_err *err);
+
+/* The region that frames lookahead_s seconds ahead must hold for the
+ * searches the tracker expects to make (the union of the robots' windows,
+ * grown by their motion over lookahead_s), so that a producer may copy only
+ * that.  Returns 1 (and the whole frame) when a full-frame search may be
+ * needed by then: at the start, when a robot is lost or not yet found, or
+ * when a rescan falls due. */
+int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4]);
+
+const wl_track_stats *wl_tracker_stats(const wl_tracker *tr);
+void wl_tracker_destroy(wl_tracker *tr);
+
+/* Maps a coded pixel to the plane z_m through the calibration (orientation
+ * handled).  Returns 0 outside the model. */
+int wl_tracker_pixel_to_plane(const wl_tracker *tr, double u, double v, double z_m, double *x_m, double *y_m);
+
+/* ---- lower level: the AprilTag back end (one per thread) ---- */
+
+typedef struct {
+	int id, hamming;
+	double margin;
+	double c[2];               /* centre, our pixel convention, full-image coords */
+	double p[4][2];            /* corners in AprilTag's order (tag coords (-1,1),(1,1),(1,-1),(-1,-1)) */
+} wl_tagdet_hit;
+
+typedef struct wl_tagdet wl_tagdet;
+
+/* Creates a detector for a family ("tag36h11", "tag25h9", "tag16h5",
+ * "tagStandard41h12", "tagCircle21h7"); WL_EINVAL names unknown ones. */
+wl_status wl_tagdet_create(const char *family, int bits_corrected, wl_tagdet **out, wl_err *err);
+/* Settings for the next detections. */
+void wl_tagdet_set(wl_tagdet *d, float decimate, float sigma, double sharpening);
+/* Detects in the window (x0,y0,w,h) of an 8-bit image (no copy: a view with
+ * the stride).  Fills up to max hits, returns the count (detections found
+ * beyond max are dropped); -1 on allocation failure. */
+int wl_tagdet_detect(wl_tagdet *d, const uint8_t *img, int stride, int x0, int y0, int w, int h,
+		     wl_tagdet_hit *hits, int max);
+void wl_tagdet_destroy(wl_tagdet *d);
+
+/* Bits of code word `id` of a family, for drawing test tags: fills
+ * cells[total_width*total_width] with 0 (black) / 1 (white) and returns
+ * total_width, or 0 for an unknown family or id. */
+int wl_tagdet_render_cells(const char *family, int id, unsigned char *cells, int max_cells);
+
+/* ---- lower level: the colour back end ---- */
+
+/* OpenCV's 8-bit RGB -> HSV (H 0-179, S, V 0-255). */
+void wl_rgb_to_hsv(int r, int g, int b, int *h, int *s, int *v);
+int wl_hsv_in(const wl_hsv_range *r, int h, int s, int v);
+
+typedef struct {
+	double area_px;            /* pixel count */
+	double cu, cv;             /* centroid, our pixel convention */
+	double fill;               /* area / bounding-box area */
+	int bx0, by0, bx1, by1;    /* bounding box, inclusive */
+} wl_blob;
+
+typedef struct wl_blobber wl_blobber;
+wl_status wl_blobber_create(wl_blobber **out, wl_err *err);
+/* Thresholds window (x0,y0,w,h) of a packed RGB image with range r and
+ * labels 8-connected components; keeps blobs of min_px..max_px pixels (up
+ * to max).  Returns the count, -1 on allocation failure. */
+int wl_blobber_find(wl_blobber *b, const uint8_t *rgb, int stride, int x0, int y0, int w, int h,
+		    const wl_hsv_range *r, int min_px, int max_px, wl_blob *out, int max);
+void wl_blobber_destroy(wl_blobber *b);
+
+/* HSV statistics of a region (for `wakeline colours`). */
+typedef struct {
+	long n;
+	double mean[3];            /* hue mean is circular (0-179 scale) */
+	int p5[3], p50[3], p95[3]; /* percentiles; hue's taken around the circular mean */
+} wl_hsv_stats;
+void wl_hsv_region_stats(const uint8_t *rgb, int stride, int x0, int y0, int w, int h, const uint8_t *mask,
+			 wl_hsv_stats *st);
+
+/* ---- RAW.csv ---- */
+
+typedef struct wl_raw_writer wl_raw_writer;
+/* Opens RAW.csv atomically and writes the header. */
+wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err);
+void wl_raw_put(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n);
+/* Commits (renames into place) and frees; abort removes the temp and frees. */
+wl_status wl_raw_commit(wl_raw_writer *w, wl_err *err);
+void wl_raw_abort(wl_raw_writer *w);
+
+/* ---- quality-control pictures: the trail PNG and the overlay clip ---- */
+
+typedef struct wl_qc wl_qc;
+/* trail_png and/or overlay_mp4 (NULL: not wanted).  Sizes are coded. */
+wl_status wl_qc_create(const char *trail_png, const char *overlay_mp4, const wl_calib *cal, int width_px,
+		       int height_px, int rotation_deg, double fps_hint, wl_qc **out, wl_err *err);
+/* Adds a frame's poses (and draws the overlay frame; needs img->rgb then). */
+wl_status wl_qc_frame(wl_qc *qc, const wl_tracker *tr, const wl_track_image *img, const wl_track_obs *obs,
+		      int n, wl_err *err);
+/* Writes the trail PNG and closes the overlay (both atomic). */
+wl_status wl_qc_finish(wl_qc *qc, wl_err *err);
+void wl_qc_destroy(wl_qc *qc);
+
+/* ---- the whole run: decoder thread -> bounded queue -> tracking thread ---- */
+
+typedef struct {
+	const char *clip;
+	const char *raw_path;
+	const char *trail_png;     /* NULL: none */
+	const char *overlay_mp4;   /* NULL: none */
+	int decode_threads;        /* 0: all cores */
+	int queue_frames;          /* buffers in the pool (>= 2) */
+	/* called from the tracking thread after each frame (may be NULL) */
+	void (*progress)(void *ctx, int64_t frames, double t_s, double duration_s);
+	void *progress_ctx;
+} wl_track_run_opts;
+
+typedef struct {
+	int64_t frames, rows, ok_rows;
+	int n_robots;
+	int64_t damaged;           /* frames the decoder flagged */
+	wl_track_stats stats;
+	char warning[256];         /* empty, or one line for the user */
+} wl_track_summary;
+
+wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
+		       const char *cal_path, wl_track_summary *sum, wl_err *err);
+
+#endif
