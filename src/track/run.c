@@ -19,6 +19,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/csvio.h"
 #include "decode/decode.h"
 
 typedef struct {
@@ -263,7 +264,18 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
-	if (q.damaged > 0)
+	if (wl_decoder_damage_count(dec) > 0) {
+		/* packets lost, a cut file: not only frames flagged corrupt */
+		int nd = 0;
+		const wl_damage *d = wl_decoder_damage(dec, &nd);
+		char tb[WL_NUMBUF];
+		snprintf(sum->warning, sizeof sum->warning,
+			 "%s: damaged clip: %lld problems, the first at frame %lld, %s s: %s (%lld frames flagged); "
+			 "see wakeline probe",
+			 ro->clip, (long long)wl_decoder_damage_count(dec), nd ? (long long)d[0].frame_index : -1LL,
+			 nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
+			 (long long)q.damaged);
+	} else if (q.damaged > 0)
 		snprintf(sum->warning, sizeof sum->warning,
 			 "%lld frames were flagged as damaged by the decoder; their poses may be off",
 			 (long long)q.damaged);
