@@ -264,7 +264,12 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
-	if (wl_decoder_damage_count(dec) > 0) {
+	if (sum->stats.over_limit > 0) {
+		snprintf(sum->warning, sizeof sum->warning,
+			 "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were left out; "
+			 "list the robots with --ids or --robots",
+			 ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit, sum->stats.first_over_limit_id);
+	} else if (wl_decoder_damage_count(dec) > 0) {
 		/* packets lost, a cut file: not only frames flagged corrupt */
 		int nd = 0;
 		const wl_damage *d = wl_decoder_damage(dec, &nd);

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # One short end-to-end run under valgrind memcheck: probe (a whole clip and
 # one cut in half, the damage path), still, calibrate (points; and a layout
-# that fails), measure, synth --image.  Each must report no invalid access
+# that fails), track (tags, on the whole clip and on the damaged one),
+# clean (its RAW.csv), measure, synth --image.  Each must report no invalid access
 # and no definite or indirect leak (--error-exitcode=99).  No suppressions are
 # needed.  Debian's libhwy dies of SIGILL under valgrind 3.19 (RDTSCP in a
 # constructor); tests/valgrind/hwy-timer-shim.c, preloaded, replaces that one
@@ -51,6 +52,12 @@ vg 1 probe-damaged probe --threads 1 -q --json fasthalf.mp4
 vg 0 still still --threads 1 clip.mp4 --at 1.0 -o still.png
 vg 0 calibrate calibrate blank.png --points pts.csv -o CAL.json
 vg 1 calibrate-bad calibrate blank.png --layout dup-layout.csv -o BAD.json
+$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" clip.scene.json trackcal.json 0.25
+vg 0 track track --threads 1 -q clip.mp4 --cal trackcal.json -o RAW.csv
+vg 0 track-damaged track --threads 1 -q fasthalf.mp4 --cal trackcal.json -o RAWhalf.csv
+grep -q 'damaged clip' track-damaged.err || fail "track: damage not reported: $(cat track-damaged.err)"
+vg 0 clean clean RAW.csv -o CLEANED.csv
+[ "$(grep -c ',ok,' RAW.csv)" -ge 200 ] && [ -s CLEANED.csv ] || fail "track/clean outputs"
 vg 0 measure measure CLEAN.csv -o SUMMARY.json --csv runs.csv -q
 vg 0 synth-image synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" --image f.png --frame 3
 [ -s CAL.json ] && [ -s SUMMARY.json ] && [ -s still.png ] && [ ! -e BAD.json ] || fail "outputs"
