@@ -275,9 +275,10 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		const wl_damage *d = wl_decoder_damage(dec, &nd);
 		char tb[WL_NUMBUF];
 		snprintf(sum->warning, sizeof sum->warning,
-			 "%s: damaged clip: %lld problems, the first at frame %lld, %s s: %s (%lld frames flagged); "
+			 "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld frames flagged); "
 			 "see wakeline probe",
-			 ro->clip, (long long)wl_decoder_damage_count(dec), nd ? (long long)d[0].frame_index : -1LL,
+			 ro->clip, (long long)wl_decoder_damage_count(dec), wl_decoder_damage_count(dec) > 1 ? "s" : "",
+			 nd ? (long long)d[0].frame_index : -1LL,
 			 nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
 			 (long long)q.damaged);
 	} else if (q.damaged > 0)

@@ -192,7 +192,7 @@ frames_in() { cut -d, -f2 "$1" | tail -n +2 | sort -u | wc -l; }
 for f in fast-cut50 fast-cut90 frag-cut50 flip; do
 	run track-$f "$WAKELINE" track $f.mp4 --threads 1 --cal cal.json -o $f.raw.csv -q
 	[ $rc -eq 0 ] || fail "track $f.mp4: exit $rc: $(cat track-$f.err)"
-	grep -Eq "warning: $f.mp4: damaged clip: [0-9]+ problems, the first at frame -?[0-9]+, [0-9.?]+ s: " track-$f.err ||
+	grep -Eq "warning: $f.mp4: damaged clip: [0-9]+ problems?, the first at frame -?[0-9]+, [0-9.?]+ s: " track-$f.err ||
 		fail "track $f.mp4: damage not reported: $(cat track-$f.err)"
 	want=$(sed -n 's/^frames *\([0-9]*\) decoded.*/\1/p' $f.out)
 	got=$(frames_in $f.raw.csv)
