@@ -252,7 +252,7 @@ static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
 
 /* Splits the track into pieces at gaps longer than max_gap_s and copies the
  * kept samples into w. */
-static wl_status build_pieces(const wl_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb, work *w,
+static wl_status build_pieces(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb, work *w,
 			      wl_err *err)
 {
 	size_t ndet = 0, npieces = 0, n = 0, prev = (size_t)-1, first = 0, k = 0;
@@ -311,7 +311,7 @@ static wl_status build_pieces(const wl_raw_track *tr, const wl_clean_params *p, 
 	for (size_t q = 0; q < npieces; q++) {
 		w->pstart[q] = n;
 		for (size_t i = pf[q]; i <= pl[q]; i++, n++) {
-			const wl_raw_sample *s = &tr->s[i];
+			const wl_clean_raw_sample *s = &tr->s[i];
 			w->src[n] = i;
 			w->piece[n] = (int)q;
 			w->t[n] = s->t_s;
@@ -1067,7 +1067,7 @@ static int rows_reserve(wl_clean_result *res, size_t *cap, size_t more)
 	return 1;
 }
 
-static void fill_row(wl_clean_row *o, const work *w, const wl_raw_track *tr, size_t i)
+static void fill_row(wl_clean_row *o, const work *w, const wl_clean_raw_track *tr, size_t i)
 {
 	memset(o, 0, sizeof *o);
 	o->t_s = w->t[i];
@@ -1098,7 +1098,7 @@ static void hermite(double p0, double v0, double p1, double v1, double T, double
 	     T;
 }
 
-static wl_status emit_rows(const work *w, const wl_raw_track *tr, const wl_clean_params *p, wl_clean_result *res,
+static wl_status emit_rows(const work *w, const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_result *res,
 			   size_t *cap, wl_clean_robot *rb, wl_err *err)
 {
 	if (p->rate_hz <= 0) {
@@ -1145,7 +1145,7 @@ static wl_status emit_rows(const work *w, const wl_raw_track *tr, const wl_clean
 
 /* ---------------------------------------------------------------- driver */
 
-static wl_status clean_robot(const wl_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
+static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
 			     wl_clean_result *res, size_t *cap, wl_err *err)
 {
 	work w = { 0 };
@@ -1215,7 +1215,7 @@ static int cmp_row(const void *a, const void *b)
 	return (x->id > y->id) - (x->id < y->id);
 }
 
-wl_status wl_clean_run(const wl_raw *raw, const wl_clean_params *p, wl_clean_result *out, wl_err *err)
+wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, wl_clean_result *out, wl_err *err)
 {
 	wl_status st;
 	size_t cap = 0;

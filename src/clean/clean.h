@@ -6,7 +6,7 @@
  * and the CLEAN.json sidecar (formats in DEVELOPERS.md and docs/clean.md).
  *
  * Pieces, in reading order:
- *   wl_raw_*      RAW.csv reader with validation (raw.c)
+ *   wl_clean_raw_* RAW.csv reader with validation (raw.c)
  *   wl_sha256_*   a small SHA-256 for the input checksum (sha256.c)
  *   wl_kin_*      kinematic Kalman filter + Rauch-Tung-Striebel smoother for
  *                 one axis, constant velocity or constant acceleration (kin.c)
@@ -17,7 +17,7 @@
  * Units: seconds, metres, radians (SI, unit in the name).  Headings are
  * counter-clockwise from +x; written wrapped to (-pi, pi], smoothed unwrapped.
  *
- * Ownership: wl_raw_read returns an object freed by wl_raw_destroy;
+ * Ownership: wl_clean_raw_read returns an object freed by wl_clean_raw_destroy;
  * wl_clean_run fills a wl_clean_result released by wl_clean_result_release.
  * Errors: every fallible function returns wl_status and fills err with
  * "file:line: what is wrong: what to do".  Nothing here prints or exits.
@@ -43,33 +43,33 @@ typedef struct {
 	unsigned char has_pos;        /* status ok with x_m, y_m */
 	unsigned char has_heading;    /* status ok with heading_rad */
 	long line;                    /* line in RAW.csv, for messages */
-} wl_raw_sample;
+} wl_clean_raw_sample;
 
 typedef struct {
 	long id;
 	size_t n, cap;
-	wl_raw_sample *s; /* in time order (validated strictly increasing) */
-} wl_raw_track;
+	wl_clean_raw_sample *s; /* in time order (validated strictly increasing) */
+} wl_clean_raw_track;
 
 typedef struct {
 	char *path;              /* as given (owned) */
 	size_t ntracks;
-	wl_raw_track *tracks;    /* in order of first appearance */
+	wl_clean_raw_track *tracks;    /* in order of first appearance */
 	size_t nrows;
 	uint64_t bytes;          /* size of the file */
 	char sha256_hex[65];     /* SHA-256 of the file's bytes */
-} wl_raw;
+} wl_clean_raw;
 
-#define WL_RAW_MAX_ROBOTS 4096
+#define WL_CLEAN_MAX_ROBOTS 4096
 
 /* Reads and validates RAW.csv (required columns t_s, frame, id, x_m, y_m,
  * heading_rad, status; numbers in number cells; per id frames and times
  * strictly increasing, so no duplicate (frame, id)).  Errors name the file
- * and line.  *out is freed with wl_raw_destroy. */
-wl_status wl_raw_read(const char *path, wl_raw **out, wl_err *err);
+ * and line.  *out is freed with wl_clean_raw_destroy. */
+wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
 /* Same over a buffer (name is used in messages; checksum of the buffer). */
-wl_status wl_raw_read_mem(const char *name, const char *data, size_t len, wl_raw **out, wl_err *err);
-void wl_raw_destroy(wl_raw *raw);
+wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out, wl_err *err);
+void wl_clean_raw_destroy(wl_clean_raw *raw);
 
 /* ---------------------------------------------------------------- SHA-256 */
 
@@ -238,13 +238,13 @@ typedef struct {
 typedef struct {
 	wl_clean_row *rows; /* sorted by (t, id) / (frame, id) */
 	size_t nrows;
-	wl_clean_robot *robots; /* same order as wl_raw's tracks */
+	wl_clean_robot *robots; /* same order as wl_clean_raw's tracks */
 	size_t nrobots;
 } wl_clean_result;
 
 /* Runs the stage on every robot.  *out is released with
  * wl_clean_result_release (also after a failure). */
-wl_status wl_clean_run(const wl_raw *raw, const wl_clean_params *p, wl_clean_result *out, wl_err *err);
+wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, wl_clean_result *out, wl_err *err);
 void wl_clean_result_release(wl_clean_result *res);
 
 /* Distance (m) from (x, y) to the outline polygon's boundary, negative
@@ -265,7 +265,7 @@ typedef struct {
 
 /* Writes CLEAN.csv and the sidecar, both atomically; neither is replaced
  * unless both were written.  (cleanio.c) */
-wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_raw *raw,
+wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_clean_raw *raw,
 			 const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res,
 			 wl_err *err);
 

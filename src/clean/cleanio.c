@@ -189,7 +189,7 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	return o;
 }
 
-static char *sidecar_text(const wl_raw *raw, const wl_clean_params *p, const wl_clean_source *src,
+static char *sidecar_text(const wl_clean_raw *raw, const wl_clean_params *p, const wl_clean_source *src,
 			  const wl_clean_result *res)
 {
 	cJSON *root = cJSON_CreateObject(), *o, *a;
@@ -223,7 +223,7 @@ static char *sidecar_text(const wl_raw *raw, const wl_clean_params *p, const wl_
 	return text;
 }
 
-wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_raw *raw,
+wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_clean_raw *raw,
 			 const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res,
 			 wl_err *err)
 {

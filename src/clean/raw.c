@@ -16,20 +16,20 @@ enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_STATUS, C_N };
 static const char *const REQUIRED[] = { "t_s", "frame", "id", "x_m", "y_m", "heading_rad", "status", NULL };
 
 typedef struct {
-	wl_raw *raw;
+	wl_clean_raw *raw;
 	int col[C_N];
 	int have_header;
 } rctx;
 
-static wl_raw_track *find_track(wl_raw *raw, long id, const wl_csv_row *row, wl_err *err)
+static wl_clean_raw_track *find_track(wl_clean_raw *raw, long id, const wl_csv_row *row, wl_err *err)
 {
-	wl_raw_track *t;
+	wl_clean_raw_track *t;
 	for (size_t i = raw->ntracks; i-- > 0;)
 		if (raw->tracks[i].id == id)
 			return &raw->tracks[i];
-	if (raw->ntracks >= WL_RAW_MAX_ROBOTS) {
+	if (raw->ntracks >= WL_CLEAN_MAX_ROBOTS) {
 		wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d robot ids: is 'id' the robot column?", row->path,
-			   row->line, WL_RAW_MAX_ROBOTS);
+			   row->line, WL_CLEAN_MAX_ROBOTS);
 		return NULL;
 	}
 	t = realloc(raw->tracks, (raw->ntracks + 1) * sizeof *t);
@@ -57,7 +57,7 @@ static int word_is(const char *cell, const char *w)
 	return *cell == '\0';
 }
 
-static wl_status parse_row(rctx *c, const wl_csv_row *row, wl_raw_sample *s, long *id, wl_err *err)
+static wl_status parse_row(rctx *c, const wl_csv_row *row, wl_clean_raw_sample *s, long *id, wl_err *err)
 {
 	const char *status;
 	wl_status st;
@@ -92,8 +92,8 @@ static wl_status parse_row(rctx *c, const wl_csv_row *row, wl_raw_sample *s, lon
 static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 {
 	rctx *c = ctx;
-	wl_raw_sample s;
-	wl_raw_track *tr;
+	wl_clean_raw_sample s;
+	wl_clean_raw_track *tr;
 	long id;
 	wl_status st;
 	if (!c->have_header) {
@@ -109,7 +109,7 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	if (!(tr = find_track(c->raw, id, row, err)))
 		return err ? err->code : WL_ENOMEM;
 	if (tr->n > 0) {
-		const wl_raw_sample *p = &tr->s[tr->n - 1];
+		const wl_clean_raw_sample *p = &tr->s[tr->n - 1];
 		if (s.frame == p->frame)
 			return wl_err_set(err, WL_EFORMAT,
 					  "%s:%ld: frame %ld of robot %ld appears twice (also on line %ld): "
@@ -125,7 +125,7 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	}
 	if (tr->n == tr->cap) {
 		size_t cap = tr->cap ? 2 * tr->cap : 256;
-		wl_raw_sample *ns = realloc(tr->s, cap * sizeof *ns);
+		wl_clean_raw_sample *ns = realloc(tr->s, cap * sizeof *ns);
 		if (!ns)
 			return wl_err_set(err, WL_ENOMEM, "%s:%ld: out of memory", row->path, row->line);
 		tr->s = ns;
@@ -136,23 +136,23 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	return WL_OK;
 }
 
-static wl_status finish(rctx *c, wl_status st, const char *name, wl_raw **out, wl_err *err)
+static wl_status finish(rctx *c, wl_status st, const char *name, wl_clean_raw **out, wl_err *err)
 {
 	if (!st && !c->have_header)
 		st = wl_err_set(err, WL_EFORMAT, "%s: the file is empty: expected a RAW.csv header", name);
 	if (!st && c->raw->nrows == 0)
 		st = wl_err_set(err, WL_EFORMAT, "%s: no data rows after the header", name);
 	if (st) {
-		wl_raw_destroy(c->raw);
+		wl_clean_raw_destroy(c->raw);
 		return st;
 	}
 	*out = c->raw;
 	return WL_OK;
 }
 
-static wl_raw *raw_new(const char *name)
+static wl_clean_raw *raw_new(const char *name)
 {
-	wl_raw *raw = calloc(1, sizeof *raw);
+	wl_clean_raw *raw = calloc(1, sizeof *raw);
 	if (raw && !(raw->path = strdup(name))) {
 		free(raw);
 		raw = NULL;
@@ -160,7 +160,7 @@ static wl_raw *raw_new(const char *name)
 	return raw;
 }
 
-wl_status wl_raw_read(const char *path, wl_raw **out, wl_err *err)
+wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err)
 {
 	rctx c = { 0 };
 	wl_status st;
@@ -173,7 +173,7 @@ wl_status wl_raw_read(const char *path, wl_raw **out, wl_err *err)
 	return finish(&c, st, path, out, err);
 }
 
-wl_status wl_raw_read_mem(const char *name, const char *data, size_t len, wl_raw **out, wl_err *err)
+wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out, wl_err *err)
 {
 	rctx c = { 0 };
 	wl_status st;
@@ -189,7 +189,7 @@ wl_status wl_raw_read_mem(const char *name, const char *data, size_t len, wl_raw
 	return finish(&c, st, name, out, err);
 }
 
-void wl_raw_destroy(wl_raw *raw)
+void wl_clean_raw_destroy(wl_clean_raw *raw)
 {
 	if (!raw)
 		return;

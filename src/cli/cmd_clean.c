@@ -149,7 +149,7 @@ int cmd_clean(int argc, char **argv)
 	wl_clean_params p;
 	wl_clean_source src = { 0 };
 	wl_clean_result res = { 0 };
-	wl_raw *raw = NULL;
+	wl_clean_raw *raw = NULL;
 	wl_err err = { 0 };
 	const char *out = NULL, *side = NULL, *cal = NULL;
 	char *side_alloc = NULL, cal_sha[65] = "";
@@ -254,7 +254,7 @@ int cmd_clean(int argc, char **argv)
 	} else if (!quiet) {
 		printf("note: no tank outline given (--cal or --tank): no wall cut\n");
 	}
-	if (wl_raw_read(argv[optind], &raw, &err) || wl_clean_run(raw, &p, &res, &err) ||
+	if (wl_clean_raw_read(argv[optind], &raw, &err) || wl_clean_run(raw, &p, &res, &err) ||
 	    wl_clean_write(out, side, raw, &p, &src, &res, &err)) {
 		rc = cli_fail("clean", &err);
 		goto done;
@@ -264,7 +264,7 @@ int cmd_clean(int argc, char **argv)
 			summary(&res.robots[k]);
 done:
 	wl_clean_result_release(&res);
-	wl_raw_destroy(raw);
+	wl_clean_raw_destroy(raw);
 	free(side_alloc);
 	return cli_finish("clean", rc);
 }

@@ -1,4 +1,5 @@
-/* cmd_colours.c: `wakeline colours CLIP --at S --px U,V | --box X,Y,W,H`: HSV statistics to pick cap ranges. */
+/* cmd_colours.c: `wakeline colours CLIP --at S --px U,V | --box X,Y,W,H`: HSV statistics to pick cap ranges.
+ */
 #define _POSIX_C_SOURCE 200809L
 #include <getopt.h>
 #include <math.h>
@@ -13,21 +14,21 @@
 const char cmd_colours_summary[] = "HSV statistics of a spot in a frame, to pick colour-cap ranges";
 
 static const char usage[] =
-	"usage: wakeline colours CLIP --at SECONDS (--px U,V [--radius R] | --box X,Y,W,H) [--displayed]\n"
-	"\n"
-	"Prints the HSV statistics (OpenCV's 8-bit scale: hue 0-179, saturation and\n"
-	"value 0-255) of a disc or a box in the frame at SECONDS, and a range to put\n"
-	"in ROBOTS.csv (front_hsv_lo / front_hsv_hi ...).\n"
-	"\n"
-	"  --at SECONDS     the frame shown at this time (decoded from the start)\n"
-	"  --px U,V         centre of a disc, pixels (centre of the top-left pixel at 0,0)\n"
-	"  --radius R       its radius in pixels (default 5)\n"
-	"  --box X,Y,W,H    a box instead: top-left pixel and size\n"
-	"  --displayed      the pixels are displayed ones (clip turned by its rotation\n"
-	"                   metadata); default: coded pixels as stored\n"
-	"  -h, --help       this text\n"
-	"\n"
-	"Exit status: 0 ok, 1 failure, 2 usage error.\n";
+        "usage: wakeline colours CLIP --at SECONDS (--px U,V [--radius R] | --box X,Y,W,H) [--displayed]\n"
+        "\n"
+        "Prints the HSV statistics (OpenCV's 8-bit scale: hue 0-179, saturation and\n"
+        "value 0-255) of a disc or a box in the frame at SECONDS, and a range to put\n"
+        "in ROBOTS.csv (front_hsv_lo / front_hsv_hi ...).\n"
+        "\n"
+        "  --at SECONDS     the frame shown at this time (decoded from the start)\n"
+        "  --px U,V         centre of a disc, pixels (centre of the top-left pixel at 0,0)\n"
+        "  --radius R       its radius in pixels (default 5)\n"
+        "  --box X,Y,W,H    a box instead: top-left pixel and size\n"
+        "  --displayed      the pixels are displayed ones (clip turned by its rotation\n"
+        "                   metadata); default: coded pixels as stored\n"
+        "  -h, --help       this text\n"
+        "\n"
+        "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 static int parse_nums(const char *s, double *v, int n)
 {
@@ -51,12 +52,12 @@ int cmd_colours(int argc, char **argv)
 {
 	enum { O_AT = 256, O_PX, O_RADIUS, O_BOX, O_DISP };
 	static const struct option lo[] = {{"at", required_argument, NULL, O_AT},
-					   {"px", required_argument, NULL, O_PX},
-					   {"radius", required_argument, NULL, O_RADIUS},
-					   {"box", required_argument, NULL, O_BOX},
-					   {"displayed", no_argument, NULL, O_DISP},
-					   {"help", no_argument, NULL, 'h'},
-					   {NULL, 0, NULL, 0}};
+	                                   {"px", required_argument, NULL, O_PX},
+	                                   {"radius", required_argument, NULL, O_RADIUS},
+	                                   {"box", required_argument, NULL, O_BOX},
+	                                   {"displayed", no_argument, NULL, O_DISP},
+	                                   {"help", no_argument, NULL, 'h'},
+	                                   {NULL, 0, NULL, 0}};
 	double at = NAN, px[2], box[4], radius = 5.0;
 	int have_px = 0, have_box = 0, displayed = 0, c, rc = WL_EXIT_FAIL;
 	wl_decoder *dec = NULL;
@@ -80,16 +81,23 @@ int cmd_colours(int argc, char **argv)
 			break;
 		case O_RADIUS:
 			if (!cli_parse_double(optarg, &radius) || radius < 0.5 || radius > 1000)
-				return cli_usage_error("colours", "--radius '%s': give 0.5 to 1000 pixels", optarg);
+				return cli_usage_error("colours", "--radius '%s': give 0.5 to 1000 pixels",
+				                       optarg);
 			break;
 		case O_BOX:
 			if (!parse_nums(optarg, box, 4) || box[2] < 1 || box[3] < 1)
-				return cli_usage_error("colours", "--box '%s': give X,Y,W,H with W, H >= 1", optarg);
+				return cli_usage_error("colours", "--box '%s': give X,Y,W,H with W, H >= 1",
+				                       optarg);
 			have_box = 1;
 			break;
-		case O_DISP: displayed = 1; break;
-		case 'h': fputs(usage, stdout); return WL_EXIT_OK;
-		default: return cli_usage_error("colours", "unknown option");
+		case O_DISP:
+			displayed = 1;
+			break;
+		case 'h':
+			fputs(usage, stdout);
+			return WL_EXIT_OK;
+		default:
+			return cli_usage_error("colours", "unknown option");
 		}
 	}
 	if (optind != argc - 1)
@@ -115,18 +123,21 @@ int cmd_colours(int argc, char **argv)
 			break;
 	}
 	if (!f || f->t_s < at - 1.0) {
-		wl_err_set(&err, WL_EINVAL, "%s: the clip ends at %.3f s, before --at %.3f s: give an earlier time",
-			   argv[optind], f ? f->t_s : 0.0, at);
+		wl_err_set(&err, WL_EINVAL,
+		           "%s: the clip ends at %.3f s, before --at %.3f s: give an earlier time",
+		           argv[optind], f ? f->t_s : 0.0, at);
 		goto fail;
 	}
 	if (displayed) {
 		if (have_px)
-			wl_orient_to_coded(info->rotation_deg, f->width_px, f->height_px, px[0], px[1], &px[0], &px[1]);
+			wl_orient_to_coded(info->rotation_deg, f->width_px, f->height_px, px[0], px[1],
+			                   &px[0], &px[1]);
 		else {
 			double a[2], b[2];
-			wl_orient_to_coded(info->rotation_deg, f->width_px, f->height_px, box[0], box[1], &a[0], &a[1]);
+			wl_orient_to_coded(info->rotation_deg, f->width_px, f->height_px, box[0], box[1],
+			                   &a[0], &a[1]);
 			wl_orient_to_coded(info->rotation_deg, f->width_px, f->height_px, box[0] + box[2] - 1,
-					   box[1] + box[3] - 1, &b[0], &b[1]);
+			                   box[1] + box[3] - 1, &b[0], &b[1]);
 			box[0] = fmin(a[0], b[0]);
 			box[1] = fmin(a[1], b[1]);
 			box[2] = fabs(a[0] - b[0]) + 1;
@@ -161,12 +172,13 @@ int cmd_colours(int argc, char **argv)
 	}
 	wl_hsv_region_stats(f->rgb, f->rgb_stride, x0, y0, w, h, mask, &st);
 	if (st.n == 0) {
-		wl_err_set(&err, WL_EINVAL, "%s: no pixels in the region at %.3f s: check --px/--box against the %dx%d frame",
-			   argv[optind], f->t_s, f->width_px, f->height_px);
+		wl_err_set(&err, WL_EINVAL,
+		           "%s: no pixels in the region at %.3f s: check --px/--box against the %dx%d frame",
+		           argv[optind], f->t_s, f->width_px, f->height_px);
 		goto fail;
 	}
-	printf("frame %lld at %.3f s, %ld pixels (coded x %d..%d, y %d..%d)\n", (long long)f->index, f->t_s, st.n, x0,
-	       x1, y0, y1);
+	printf("frame %lld at %.3f s, %ld pixels (coded x %d..%d, y %d..%d)\n", (long long)f->index, f->t_s,
+	       st.n, x0, x1, y0, y1);
 	printf("channel,mean,p5,p50,p95\n");
 	printf("hue,%.1f,%d,%d,%d\n", st.mean[0], st.p5[0], st.p50[0], st.p95[0]);
 	printf("saturation,%.1f,%d,%d,%d\n", st.mean[1], st.p5[1], st.p50[1], st.p95[1]);

@@ -12,39 +12,53 @@
 const char cmd_track_summary[] = "track robots (AprilTags or colour caps) in a clip -> RAW.csv";
 
 static const char usage[] =
-	"usage: wakeline track CLIP --cal CAL.json -o RAW.csv [options]\n"
-	"\n"
-	"Finds each robot in every frame and writes its pose on the robot's marker\n"
-	"plane in tank metres (RAW.csv, one row per frame per robot).\n"
-	"\n"
-	"  --cal CAL.json          calibration of this camera setting (required)\n"
-	"  -o, --output RAW.csv    output table (required; written atomically)\n"
-	"  --mode tag|colour       AprilTags (default) or coloured caps\n"
-	"  --family NAME           tag family: tag36h11 (default), tag25h9, tag16h5,\n"
-	"                          tagStandard41h12, tagCircle21h7\n"
-	"  --ids 3,7               track only these tag ids (listed from the first frame)\n"
-	"  --robots ROBOTS.csv     per robot: id,plane_height_m,heading_offset_rad,\n"
-	"                          body_diameter_m,front_hsv_lo,front_hsv_hi,back_hsv_lo,\n"
-	"                          back_hsv_hi (hsv as \"h,s,v\", hue 0-179)\n"
-	"  --plane-height-m Z      marker plane height above the floor (default: CAL.json's)\n"
-	"  --rescan-s S            full-frame search for new robots every S s (default 2)\n"
-	"  --decimate F            AprilTag quad_decimate for full-frame searches (default 2)\n"
-	"  --window-decimate F     quad_decimate inside search windows (default 1)\n"
-	"  --quad-sigma S          blur before segmentation, px (default 0; 0.8 for noisy clips)\n"
-	"  --sharpening F          AprilTag decode_sharpening (default 0.25)\n"
-	"  --max-hamming N         corrected bits accepted: 0 (default) or 1\n"
-	"  --min-margin M          minimum decision margin (default 20; 60 with 1 bit corrected)\n"
-	"  --trail TRAIL.png       the first frame with each robot's path\n"
-	"  --overlay QC.mp4        the clip with poses, ids, trails and tank outline\n"
-	"  --threads N             decoder threads (default: all cores)\n"
-	"  -q, --quiet             no progress line\n"
-	"  -h, --help              this text\n"
-	"\n"
-	"Exit status: 0 ok, 1 failure, 2 usage error.  See docs/track.md.\n";
+        "usage: wakeline track CLIP --cal CAL.json -o RAW.csv [options]\n"
+        "\n"
+        "Finds each robot in every frame and writes its pose on the robot's marker\n"
+        "plane in tank metres (RAW.csv, one row per frame per robot).\n"
+        "\n"
+        "  --cal CAL.json          calibration of this camera setting (required)\n"
+        "  -o, --output RAW.csv    output table (required; written atomically)\n"
+        "  --mode tag|colour       AprilTags (default) or coloured caps\n"
+        "  --family NAME           tag family: tag36h11 (default), tag25h9, tag16h5,\n"
+        "                          tagStandard41h12, tagCircle21h7\n"
+        "  --ids 3,7               track only these tag ids (listed from the first frame)\n"
+        "  --robots ROBOTS.csv     per robot: id,plane_height_m,heading_offset_rad,\n"
+        "                          body_diameter_m,front_hsv_lo,front_hsv_hi,back_hsv_lo,\n"
+        "                          back_hsv_hi (hsv as \"h,s,v\", hue 0-179)\n"
+        "  --plane-height-m Z      marker plane height above the floor (default: CAL.json's)\n"
+        "  --rescan-s S            full-frame search for new robots every S s (default 2)\n"
+        "  --decimate F            AprilTag quad_decimate for full-frame searches (default 2)\n"
+        "  --window-decimate F     quad_decimate inside windows (default: 2 for tags >= 32 px, else 1)\n"
+        "  --quad-sigma S          blur before segmentation, px (default 0; 0.8 for noisy clips)\n"
+        "  --sharpening F          AprilTag decode_sharpening (default 0.25)\n"
+        "  --max-hamming N         corrected bits accepted: 0 (default) or 1\n"
+        "  --min-margin M          minimum decision margin (default 20; 60 with 1 bit corrected)\n"
+        "  --trail TRAIL.png       the first frame with each robot's path\n"
+        "  --overlay QC.mp4        the clip with poses, ids, trails and tank outline\n"
+        "  --threads N             decoder threads (default: all cores)\n"
+        "  -q, --quiet             no progress line\n"
+        "  -h, --help              this text\n"
+        "\n"
+        "Exit status: 0 ok, 1 failure, 2 usage error.  See docs/track.md.\n";
 
 enum {
-	O_CAL = 256, O_MODE, O_FAMILY, O_IDS, O_ROBOTS, O_PLANE, O_RESCAN, O_DEC, O_WDEC, O_SIGMA, O_SHARP,
-	O_HAM, O_MARGIN, O_TRAIL, O_OVERLAY, O_THREADS
+	O_CAL = 256,
+	O_MODE,
+	O_FAMILY,
+	O_IDS,
+	O_ROBOTS,
+	O_PLANE,
+	O_RESCAN,
+	O_DEC,
+	O_WDEC,
+	O_SIGMA,
+	O_SHARP,
+	O_HAM,
+	O_MARGIN,
+	O_TRAIL,
+	O_OVERLAY,
+	O_THREADS
 };
 
 typedef struct {
@@ -68,18 +82,26 @@ static int parse_float_opt(const char *name, const char *arg, double lo, double 
 
 int cmd_track(int argc, char **argv)
 {
-	static const struct option lo[] = {
-		{"cal", required_argument, NULL, O_CAL},         {"output", required_argument, NULL, 'o'},
-		{"mode", required_argument, NULL, O_MODE},       {"family", required_argument, NULL, O_FAMILY},
-		{"ids", required_argument, NULL, O_IDS},         {"robots", required_argument, NULL, O_ROBOTS},
-		{"plane-height-m", required_argument, NULL, O_PLANE},
-		{"rescan-s", required_argument, NULL, O_RESCAN}, {"decimate", required_argument, NULL, O_DEC},
-		{"window-decimate", required_argument, NULL, O_WDEC},
-		{"quad-sigma", required_argument, NULL, O_SIGMA}, {"sharpening", required_argument, NULL, O_SHARP},
-		{"max-hamming", required_argument, NULL, O_HAM}, {"min-margin", required_argument, NULL, O_MARGIN},
-		{"trail", required_argument, NULL, O_TRAIL},     {"overlay", required_argument, NULL, O_OVERLAY},
-		{"threads", required_argument, NULL, O_THREADS}, {"quiet", no_argument, NULL, 'q'},
-		{"help", no_argument, NULL, 'h'},                {NULL, 0, NULL, 0}};
+	static const struct option lo[] = {{"cal", required_argument, NULL, O_CAL},
+	                                   {"output", required_argument, NULL, 'o'},
+	                                   {"mode", required_argument, NULL, O_MODE},
+	                                   {"family", required_argument, NULL, O_FAMILY},
+	                                   {"ids", required_argument, NULL, O_IDS},
+	                                   {"robots", required_argument, NULL, O_ROBOTS},
+	                                   {"plane-height-m", required_argument, NULL, O_PLANE},
+	                                   {"rescan-s", required_argument, NULL, O_RESCAN},
+	                                   {"decimate", required_argument, NULL, O_DEC},
+	                                   {"window-decimate", required_argument, NULL, O_WDEC},
+	                                   {"quad-sigma", required_argument, NULL, O_SIGMA},
+	                                   {"sharpening", required_argument, NULL, O_SHARP},
+	                                   {"max-hamming", required_argument, NULL, O_HAM},
+	                                   {"min-margin", required_argument, NULL, O_MARGIN},
+	                                   {"trail", required_argument, NULL, O_TRAIL},
+	                                   {"overlay", required_argument, NULL, O_OVERLAY},
+	                                   {"threads", required_argument, NULL, O_THREADS},
+	                                   {"quiet", no_argument, NULL, 'q'},
+	                                   {"help", no_argument, NULL, 'h'},
+	                                   {NULL, 0, NULL, 0}};
 	wl_track_opts o;
 	wl_track_run_opts ro;
 	wl_track_summary sum;
@@ -94,8 +116,12 @@ int cmd_track(int argc, char **argv)
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:qh", lo, NULL)) != -1) {
 		switch (c) {
-		case O_CAL: cal_path = optarg; break;
-		case 'o': ro.raw_path = optarg; break;
+		case O_CAL:
+			cal_path = optarg;
+			break;
+		case 'o':
+			ro.raw_path = optarg;
+			break;
 		case O_MODE:
 			if (strcmp(optarg, "tag") == 0)
 				o.mode = WL_TRACK_TAG;
@@ -109,8 +135,12 @@ int cmd_track(int argc, char **argv)
 				return cli_usage_error("track", "--family '%s': unknown family", optarg);
 			snprintf(o.family, sizeof o.family, "%s", optarg);
 			break;
-		case O_IDS: ids = optarg; break;
-		case O_ROBOTS: robots = optarg; break;
+		case O_IDS:
+			ids = optarg;
+			break;
+		case O_ROBOTS:
+			robots = optarg;
+			break;
 		case O_PLANE:
 			if (parse_float_opt("--plane-height-m", optarg, -10, 10, &o.plane_height_m))
 				return WL_EXIT_USAGE;
@@ -147,15 +177,26 @@ int cmd_track(int argc, char **argv)
 				return WL_EXIT_USAGE;
 			margin_set = 1;
 			break;
-		case O_TRAIL: ro.trail_png = optarg; break;
-		case O_OVERLAY: ro.overlay_mp4 = optarg; break;
-		case O_THREADS:
-			if (!cli_parse_int(optarg, &ro.decode_threads) || ro.decode_threads < 0 || ro.decode_threads > 64)
-				return cli_usage_error("track", "--threads '%s': give 0 (all cores) to 64", optarg);
+		case O_TRAIL:
+			ro.trail_png = optarg;
 			break;
-		case 'q': quiet = 1; break;
-		case 'h': fputs(usage, stdout); return WL_EXIT_OK;
-		default: return cli_usage_error("track", "unknown option");
+		case O_OVERLAY:
+			ro.overlay_mp4 = optarg;
+			break;
+		case O_THREADS:
+			if (!cli_parse_int(optarg, &ro.decode_threads) || ro.decode_threads < 0 ||
+			    ro.decode_threads > 64)
+				return cli_usage_error("track", "--threads '%s': give 0 (all cores) to 64",
+				                       optarg);
+			break;
+		case 'q':
+			quiet = 1;
+			break;
+		case 'h':
+			fputs(usage, stdout);
+			return WL_EXIT_OK;
+		default:
+			return cli_usage_error("track", "unknown option");
 		}
 	}
 	if (optind != argc - 1)
@@ -165,7 +206,8 @@ int cmd_track(int argc, char **argv)
 	if (!ro.raw_path)
 		return cli_usage_error("track", "give the output: -o RAW.csv");
 	if (ids && robots)
-		return cli_usage_error("track", "give --ids or --robots, not both (ROBOTS.csv lists the ids)");
+		return cli_usage_error("track",
+		                       "give --ids or --robots, not both (ROBOTS.csv lists the ids)");
 	if (margin_set)
 		o.min_margin_h1 = o.min_margin > o.min_margin_h1 ? o.min_margin : o.min_margin_h1;
 	ro.clip = argv[optind];
@@ -181,8 +223,9 @@ int cmd_track(int argc, char **argv)
 		return cli_fail("track", &err);
 	}
 	if (!isnan(o.plane_height_m) && cal.cam.water_depth_m > 0 && o.plane_height_m < cal.cam.water_depth_m)
-		cli_warn("track", "plane %.3f m lies under the water surface (%.3f m): positions are refracted",
-			 o.plane_height_m, cal.cam.water_depth_m);
+		cli_warn("track",
+		         "plane %.3f m lies under the water surface (%.3f m): positions are refracted",
+		         o.plane_height_m, cal.cam.water_depth_m);
 	cli_progress_init(&pc.p, quiet);
 	ro.progress = on_progress;
 	ro.progress_ctx = &pc;
@@ -194,10 +237,11 @@ int cmd_track(int argc, char **argv)
 	if (sum.warning[0])
 		cli_warn("track", "%s", sum.warning);
 	if (!quiet)
-		printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%), %lld full-frame and %lld window "
+		printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%), %lld full-frame and %lld "
+		       "window "
 		       "searches\n",
-		       ro.raw_path, (long long)sum.frames, sum.n_robots, (long long)sum.ok_rows, (long long)sum.rows,
-		       sum.rows ? 100.0 * sum.ok_rows / sum.rows : 0.0, (long long)sum.stats.full_scans,
-		       (long long)sum.stats.window_scans);
+		       ro.raw_path, (long long)sum.frames, sum.n_robots, (long long)sum.ok_rows,
+		       (long long)sum.rows, sum.rows ? 100.0 * sum.ok_rows / sum.rows : 0.0,
+		       (long long)sum.stats.full_scans, (long long)sum.stats.window_scans);
 	return cli_finish("track", WL_EXIT_OK);
 }

@@ -142,7 +142,7 @@ static void unite(int *parent, int a, int b)
 }
 
 int wl_blobber_find(wl_blobber *b, const uint8_t *rgb, int stride, int x0, int y0, int w, int h,
-		    const wl_hsv_range *r, int min_px, int max_px, wl_blob *out, int max)
+                    const wl_hsv_range *r, int min_px, int max_px, wl_blob *out, int max)
 {
 	int nl = 1, n = 0;
 	if (w <= 0 || h <= 0)
@@ -164,7 +164,7 @@ int wl_blobber_find(wl_blobber *b, const uint8_t *rgb, int stride, int x0, int y
 			}
 			/* neighbours already visited: W, NW, N, NE */
 			int nb[4] = {x > 0 ? lab[x - 1] : 0, up && x > 0 ? up[x - 1] : 0, up ? up[x] : 0,
-				     up && x + 1 < w ? up[x + 1] : 0};
+			             up && x + 1 < w ? up[x + 1] : 0};
 			for (int k = 0; k < 4; k++) {
 				if (!nb[k])
 					continue;
@@ -198,10 +198,14 @@ int wl_blobber_find(wl_blobber *b, const uint8_t *rgb, int stride, int x0, int y
 			b->m0[l] += 1;
 			b->mu[l] += x;
 			b->mv[l] += y;
-			if (x < b->bb[4 * l]) b->bb[4 * l] = x;
-			if (y < b->bb[4 * l + 1]) b->bb[4 * l + 1] = y;
-			if (x > b->bb[4 * l + 2]) b->bb[4 * l + 2] = x;
-			if (y > b->bb[4 * l + 3]) b->bb[4 * l + 3] = y;
+			if (x < b->bb[4 * l])
+				b->bb[4 * l] = x;
+			if (y < b->bb[4 * l + 1])
+				b->bb[4 * l + 1] = y;
+			if (x > b->bb[4 * l + 2])
+				b->bb[4 * l + 2] = x;
+			if (y > b->bb[4 * l + 3])
+				b->bb[4 * l + 3] = y;
 		}
 	}
 	for (int l = 1; l < nl && n < max; l++) {
@@ -237,7 +241,7 @@ static int pct(const int *sorted, long n, double p)
 }
 
 void wl_hsv_region_stats(const uint8_t *rgb, int stride, int x0, int y0, int w, int h, const uint8_t *mask,
-			 wl_hsv_stats *st)
+                         wl_hsv_stats *st)
 {
 	long n = 0, cap = (long)w * h;
 	int *ch[3];

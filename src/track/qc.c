@@ -30,8 +30,8 @@ struct wl_qc {
 	wl_calib cal;
 	int w, h, rot;
 	double fps;
-	cairo_surface_t *first;  /* the first frame, for the trail picture */
-	cairo_surface_t *frame;  /* the overlay's drawing surface */
+	cairo_surface_t *first; /* the first frame, for the trail picture */
+	cairo_surface_t *frame; /* the overlay's drawing surface */
 	wl_vwriter *vw;
 	uint8_t *rgb_out;
 	int n;
@@ -50,7 +50,7 @@ static char *dup_or_null(const char *s)
 }
 
 wl_status wl_qc_create(const char *trail_png, const char *overlay_mp4, const wl_calib *cal, int width_px,
-		       int height_px, int rotation_deg, double fps_hint, wl_qc **out, wl_err *err)
+                       int height_px, int rotation_deg, double fps_hint, wl_qc **out, wl_err *err)
 {
 	wl_qc *qc = calloc(1, sizeof *qc);
 	*out = NULL;
@@ -116,8 +116,8 @@ static void fill_surface(cairo_surface_t *s, const wl_track_image *img)
 
 static void colour_of(int i, double *r, double *g, double *b)
 {
-	static const double pal[8][3] = {{1, 0.2, 0.2}, {0.2, 0.8, 1}, {1, 0.85, 0}, {0.3, 1, 0.3},
-					 {1, 0.4, 1},   {1, 0.6, 0.2}, {0.6, 0.6, 1}, {1, 1, 1}};
+	static const double pal[8][3] = {{1, 0.2, 0.2}, {0.2, 0.8, 1}, {1, 0.85, 0},  {0.3, 1, 0.3},
+	                                 {1, 0.4, 1},   {1, 0.6, 0.2}, {0.6, 0.6, 1}, {1, 1, 1}};
 	*r = pal[i % 8][0];
 	*g = pal[i % 8][1];
 	*b = pal[i % 8][2];
@@ -210,7 +210,7 @@ static void draw_number(cairo_t *cr, double x, double y, double hgt, int value)
 	static const unsigned char seg[10] = {0x3f, 0x06, 0x5b, 0x4f, 0x66, 0x6d, 0x7d, 0x07, 0x7f, 0x6f};
 	/* segments a..g as (x0, y0, x1, y1) in a 1 x 2 cell, y down */
 	static const double sd[7][4] = {{0, 0, 1, 0}, {1, 0, 1, 1}, {1, 1, 1, 2}, {0, 2, 1, 2},
-					{0, 1, 0, 2}, {0, 0, 0, 1}, {0, 1, 1, 1}};
+	                                {0, 1, 0, 2}, {0, 0, 0, 1}, {0, 1, 1, 1}};
 	char buf[16];
 	double s = hgt / 2.0;
 	int n = snprintf(buf, sizeof buf, "%d", value < 0 ? 0 : value);
@@ -250,7 +250,8 @@ static void draw_poses(wl_qc *qc, cairo_t *cr, const wl_tracker *tr, const wl_tr
 				double du = u2 - o->u_px, dv = v2 - o->v_px, l = hypot(du, dv);
 				if (l > 0) {
 					cairo_move_to(cr, o->u_px + 0.5, o->v_px + 0.5);
-					cairo_line_to(cr, o->u_px + 0.5 + 2 * rad * du / l, o->v_px + 0.5 + 2 * rad * dv / l);
+					cairo_line_to(cr, o->u_px + 0.5 + 2 * rad * du / l,
+					              o->v_px + 0.5 + 2 * rad * dv / l);
 					cairo_stroke(cr);
 				}
 			}
@@ -261,7 +262,7 @@ static void draw_poses(wl_qc *qc, cairo_t *cr, const wl_tracker *tr, const wl_tr
 }
 
 wl_status wl_qc_frame(wl_qc *qc, const wl_tracker *tr, const wl_track_image *img, const wl_track_obs *obs,
-		      int n, wl_err *err)
+                      int n, wl_err *err)
 {
 	wl_status st;
 	if (qc->trail_png && !qc->first) {
@@ -342,7 +343,8 @@ static wl_status write_trail(wl_qc *qc, wl_err *err)
 	cairo_destroy(cr);
 	if ((st = wl_afile_open(qc->trail_png, &af, err)) != WL_OK)
 		return st;
-	if (cairo_surface_write_to_png_stream(qc->first, png_write, wl_afile_fp(af)) != CAIRO_STATUS_SUCCESS) {
+	if (cairo_surface_write_to_png_stream(qc->first, png_write, wl_afile_fp(af)) !=
+	    CAIRO_STATUS_SUCCESS) {
 		wl_afile_abort(af);
 		return wl_err_set(err, WL_EIO, "%s: cannot write the PNG: check the disk", qc->trail_png);
 	}

@@ -18,8 +18,9 @@ struct wl_raw_writer {
 
 wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err)
 {
-	static const char *const hdr[] = {"t_s", "frame", "id", "u_px", "v_px", "x_m", "y_m", "heading_rad",
-					  "status", "margin", "size_px", "heading_source", NULL};
+	static const char *const hdr[] = {
+	        "t_s",         "frame",  "id",     "u_px",    "v_px",           "x_m", "y_m",
+	        "heading_rad", "status", "margin", "size_px", "heading_source", NULL};
 	wl_raw_writer *w = calloc(1, sizeof *w);
 	wl_status st;
 	*out = NULL;
@@ -51,7 +52,8 @@ void wl_raw_put(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs 
 			wl_csvw_str(&w->w, "ok");
 			wl_csvw_num(&w->w, o->margin, 2);
 			wl_csvw_num(&w->w, o->size_px, 2);
-			wl_csvw_str(&w->w, isnan(o->heading_rad) ? "" : wl_heading_source_name(o->heading_source));
+			wl_csvw_str(&w->w,
+			            isnan(o->heading_rad) ? "" : wl_heading_source_name(o->heading_source));
 		} else {
 			for (int k = 0; k < 5; k++)
 				wl_csvw_empty(&w->w);

@@ -61,7 +61,8 @@ wl_status wl_track_parse_ids(const char *s, wl_track_opts *o, wl_err *err)
 	for (tok = strtok_r(buf, ",", &save); tok; tok = strtok_r(NULL, ",", &save)) {
 		long id;
 		if (!wl_parse_long(tok, &id) || id < 0 || id > 1000000)
-			return wl_err_set(err, WL_EINVAL, "--ids: '%s' is not a tag id: give whole numbers like 3,7", tok);
+			return wl_err_set(err, WL_EINVAL,
+			                  "--ids: '%s' is not a tag id: give whole numbers like 3,7", tok);
 		if (!wl_track_robot(o, (int)id))
 			return wl_err_set(err, WL_ELIMIT, "--ids: more than %d robots", WL_TRACK_MAX_ROBOTS);
 	}
@@ -115,20 +116,22 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 	if ((st = wl_csv_get_long(row, c->c_id, "id", &id, err)) != WL_OK)
 		return st;
 	if (id < 0)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: id %ld is negative: give the tag id or a number >= 0",
-				  row->path, row->line, id);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: id %ld is negative: give the tag id or a number >= 0", row->path,
+		                  row->line, id);
 	for (int i = 0; i < c->o->n_robots; i++)
 		if (c->o->robots[i].id == id)
-			return wl_err_set(err, WL_EFORMAT, "%s:%ld: id %ld is listed twice: one row per robot",
-					  row->path, row->line, id);
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s:%ld: id %ld is listed twice: one row per robot", row->path,
+			                  row->line, id);
 	if (!(r = wl_track_robot(c->o, (int)id)))
 		return wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d robots", row->path, row->line,
-				  WL_TRACK_MAX_ROBOTS);
+		                  WL_TRACK_MAX_ROBOTS);
 	if (!wl_csv_empty(row, c->c_plane) &&
 	    (st = wl_csv_get_double(row, c->c_plane, "plane_height_m", &r->plane_height_m, err)) != WL_OK)
 		return st;
-	if (!wl_csv_empty(row, c->c_off) &&
-	    (st = wl_csv_get_double(row, c->c_off, "heading_offset_rad", &r->heading_offset_rad, err)) != WL_OK)
+	if (!wl_csv_empty(row, c->c_off) && (st = wl_csv_get_double(row, c->c_off, "heading_offset_rad",
+	                                                            &r->heading_offset_rad, err)) != WL_OK)
 		return st;
 	if (!wl_csv_empty(row, c->c_diam) &&
 	    (st = wl_csv_get_double(row, c->c_diam, "body_diameter_m", &r->body_diameter_m, err)) != WL_OK)
@@ -140,20 +143,22 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 			continue;
 		if (!wl_track_parse_hsv(row->fields[c->c_hsv[k]], dst))
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: column '%s': '%s' is not h,s,v: give hue 0-179, saturation and value 0-255",
-					  row->path, row->line, hsv_cols[k], row->fields[c->c_hsv[k]]);
+			                  "%s:%ld: column '%s': '%s' is not h,s,v: give hue 0-179, "
+			                  "saturation and value 0-255",
+			                  row->path, row->line, hsv_cols[k], row->fields[c->c_hsv[k]]);
 		hr->set |= (k % 2) ? 2 : 1;
 	}
 	for (int k = 0; k < 2; k++) {
 		wl_hsv_range *hr = k == 0 ? &r->front : &r->back;
 		if (hr->set && hr->set != 3)
 			return wl_err_set(err, WL_EFORMAT, "%s:%ld: %s cap has only one of lo/hi: give both",
-					  row->path, row->line, k == 0 ? "front" : "back");
+			                  row->path, row->line, k == 0 ? "front" : "back");
 		hr->set = hr->set == 3;
 	}
 	if (r->back.set && !r->front.set)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: back cap without a front cap: give front_hsv_lo/hi",
-				  row->path, row->line);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: back cap without a front cap: give front_hsv_lo/hi", row->path,
+		                  row->line);
 	return WL_OK;
 }
 
@@ -172,9 +177,13 @@ wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err)
 const char *wl_heading_source_name(wl_heading_source s)
 {
 	switch (s) {
-	case WL_HS_TAG: return "tag";
-	case WL_HS_CAPS: return "caps";
-	case WL_HS_MOTION: return "motion";
-	default: return "";
+	case WL_HS_TAG:
+		return "tag";
+	case WL_HS_CAPS:
+		return "caps";
+	case WL_HS_MOTION:
+		return "motion";
+	default:
+		return "";
 	}
 }

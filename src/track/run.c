@@ -71,9 +71,11 @@ static void *decode_main(void *arg)
 		pthread_mutex_unlock(&q->m);
 		wl_err_clear(&e);
 		st = wl_decoder_next(q->dec, &f, &e);
-		if (st == WL_OK && f && (f->width_px != s->w || f->height_px != s->h || (q->want_rgb && !f->rgb))) {
-			st = wl_err_set(&e, WL_EDECODE, "frame %lld: size %dx%d differs from the clip's %dx%d",
-					(long long)f->index, f->width_px, f->height_px, s->w, s->h);
+		if (st == WL_OK && f &&
+		    (f->width_px != s->w || f->height_px != s->h || (q->want_rgb && !f->rgb))) {
+			st = wl_err_set(&e, WL_EDECODE,
+			                "frame %lld: size %dx%d differs from the clip's %dx%d",
+			                (long long)f->index, f->width_px, f->height_px, s->w, s->h);
 		}
 		if (st != WL_OK || !f) {
 			pthread_mutex_lock(&q->m);
@@ -87,8 +89,9 @@ static void *decode_main(void *arg)
 		if (s->roi[2] > 0) {
 			/* the region only, at its place in the buffer (stride w) */
 			int x0 = s->roi[0], y0 = s->roi[1];
-			copy_plane(s->luma + (size_t)y0 * s->w + x0, s->w, f->luma + (size_t)y0 * f->luma_stride + x0,
-				   f->luma_stride, s->roi[2], s->roi[3]);
+			copy_plane(s->luma + (size_t)y0 * s->w + x0, s->w,
+			           f->luma + (size_t)y0 * f->luma_stride + x0, f->luma_stride, s->roi[2],
+			           s->roi[3]);
 		} else {
 			copy_plane(s->luma, s->w, f->luma, f->luma_stride, s->w, s->h);
 		}
@@ -158,13 +161,14 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 		s->luma = malloc((size_t)w * h);
 		s->rgb = rgb ? malloc((size_t)w * h * 3) : NULL;
 		if (!s->luma || (rgb && !s->rgb))
-			return wl_err_set(err, WL_ENOMEM, "out of memory for the frame queue (%d frames of %dx%d)", n, w, h);
+			return wl_err_set(err, WL_ENOMEM,
+			                  "out of memory for the frame queue (%d frames of %dx%d)", n, w, h);
 	}
 	return WL_OK;
 }
 
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
-		       const char *cal_path, wl_track_summary *sum, wl_err *err)
+                       const char *cal_path, wl_track_summary *sum, wl_err *err)
 {
 	wl_decoder *dec = NULL;
 	wl_tracker *tr = NULL;
@@ -181,15 +185,16 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	pthread_mutex_init(&q.m, NULL);
 	pthread_cond_init(&q.cv, NULL);
 	want_rgb = opts->mode == WL_TRACK_COLOUR || ro->overlay_mp4;
-	if ((st = wl_decoder_open(ro->clip, want_rgb ? WL_DECODE_RGB : 0, ro->decode_threads, &dec, err)) != WL_OK)
+	if ((st = wl_decoder_open(ro->clip, want_rgb ? WL_DECODE_RGB : 0, ro->decode_threads, &dec, err)) !=
+	    WL_OK)
 		goto out;
 	info = wl_decoder_info(dec);
-	if ((st = wl_tracker_create(opts, cal, cal_path, info->width_px, info->height_px, info->rotation_deg, &tr,
-				    err)) != WL_OK)
+	if ((st = wl_tracker_create(opts, cal, cal_path, info->width_px, info->height_px, info->rotation_deg,
+	                            &tr, err)) != WL_OK)
 		goto out;
 	if (ro->trail_png || ro->overlay_mp4) {
 		if ((st = wl_qc_create(ro->trail_png, ro->overlay_mp4, cal, info->width_px, info->height_px,
-				       info->rotation_deg, info->fps_hint, &qc, err)) != WL_OK)
+		                       info->rotation_deg, info->fps_hint, &qc, err)) != WL_OK)
 			goto out;
 	}
 	if ((st = wl_raw_open(ro->raw_path, &raw, err)) != WL_OK)
@@ -252,7 +257,8 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	}
 	if (sum->frames == 0) {
-		st = wl_err_set(err, WL_EDECODE, "%s: no frames decoded: check the clip with ffprobe", ro->clip);
+		st = wl_err_set(err, WL_EDECODE, "%s: no frames decoded: check the clip with ffprobe",
+		                ro->clip);
 		goto out;
 	}
 	if (qc && (st = wl_qc_finish(qc, err)) != WL_OK)
@@ -283,12 +289,12 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 			 (long long)q.damaged);
 	} else if (q.damaged > 0)
 		snprintf(sum->warning, sizeof sum->warning,
-			 "%lld frames were flagged as damaged by the decoder; their poses may be off",
-			 (long long)q.damaged);
+		         "%lld frames were flagged as damaged by the decoder; their poses may be off",
+		         (long long)q.damaged);
 	else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8)
 		snprintf(sum->warning, sizeof sum->warning,
-			 "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
-			 ro->clip, info->bit_depth);
+		         "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
+		         ro->clip, info->bit_depth);
 out:
 	if (started) {
 		queue_stop(&q);

@@ -32,11 +32,11 @@ typedef struct {
 } family_entry;
 
 static const family_entry families[] = {
-	{"tag36h11", tag36h11_create, tag36h11_destroy},
-	{"tag25h9", tag25h9_create, tag25h9_destroy},
-	{"tag16h5", tag16h5_create, tag16h5_destroy},
-	{"tagStandard41h12", tagStandard41h12_create, tagStandard41h12_destroy},
-	{"tagCircle21h7", tagCircle21h7_create, tagCircle21h7_destroy},
+        {"tag36h11", tag36h11_create, tag36h11_destroy},
+        {"tag25h9", tag25h9_create, tag25h9_destroy},
+        {"tag16h5", tag16h5_create, tag16h5_destroy},
+        {"tagStandard41h12", tagStandard41h12_create, tagStandard41h12_destroy},
+        {"tagCircle21h7", tagCircle21h7_create, tagCircle21h7_destroy},
 };
 
 static const family_entry *find_family(const char *name)
@@ -54,8 +54,9 @@ wl_status wl_tagdet_create(const char *family, int bits_corrected, wl_tagdet **o
 	*out = NULL;
 	if (!fe)
 		return wl_err_set(err, WL_EINVAL,
-				  "unknown tag family '%s': use tag36h11, tag25h9, tag16h5, tagStandard41h12 or tagCircle21h7",
-				  family);
+		                  "unknown tag family '%s': use tag36h11, tag25h9, tag16h5, tagStandard41h12 "
+		                  "or tagCircle21h7",
+		                  family);
 	d = calloc(1, sizeof *d);
 	if (!d)
 		return wl_err_set(err, WL_ENOMEM, "out of memory creating the tag detector");
@@ -67,7 +68,10 @@ wl_status wl_tagdet_create(const char *family, int bits_corrected, wl_tagdet **o
 		return wl_err_set(err, WL_ENOMEM, "out of memory creating the tag detector");
 	}
 	/* 0 or 1 corrected bits keeps the decode table small (Debian 3.3) */
-	apriltag_detector_add_family_bits(d->td, d->fam, bits_corrected < 0 ? 0 : bits_corrected > 2 ? 2 : bits_corrected);
+	apriltag_detector_add_family_bits(d->td, d->fam,
+	                                  bits_corrected < 0   ? 0
+	                                  : bits_corrected > 2 ? 2
+	                                                       : bits_corrected);
 	d->td->nthreads = 1;
 	d->td->refine_edges = 1;
 	wl_tagdet_set(d, 2.0f, 0.0f, 0.25);
@@ -83,12 +87,14 @@ void wl_tagdet_set(wl_tagdet *d, float decimate, float sigma, double sharpening)
 }
 
 int wl_tagdet_detect(wl_tagdet *d, const uint8_t *img, int stride, int x0, int y0, int w, int h,
-		     wl_tagdet_hit *hits, int max)
+                     wl_tagdet_hit *hits, int max)
 {
 	/* the view shares the caller's rows: buf points at the window's first
 	 * pixel, the stride stays the frame's; AprilTag only reads it */
-	image_u8_t view = {.width = w, .height = h, .stride = stride,
-			   .buf = (uint8_t *)(uintptr_t)(img + (size_t)y0 * stride + x0)};
+	image_u8_t view = {.width = w,
+	                   .height = h,
+	                   .stride = stride,
+	                   .buf = (uint8_t *)(uintptr_t)(img + (size_t)y0 * stride + x0)};
 	zarray_t *dets;
 	int n = 0;
 	if (w < 8 || h < 8)

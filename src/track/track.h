@@ -53,27 +53,27 @@ typedef struct {
 
 typedef struct {
 	wl_track_mode mode;
-	char family[32];           /* AprilTag family name, e.g. "tag36h11" */
-	int n_robots;              /* known robots; with restrict_ids only these */
+	char family[32]; /* AprilTag family name, e.g. "tag36h11" */
+	int n_robots;    /* known robots; with restrict_ids only these */
 	wl_robot_spec robots[WL_TRACK_MAX_ROBOTS];
-	int restrict_ids;          /* 1: ignore ids not in robots[] */
-	double plane_height_m;     /* NaN: the calibration's plane_height_m */
-	double rescan_s;           /* full-frame search period (new robots) */
+	int restrict_ids;      /* 1: ignore ids not in robots[] */
+	double plane_height_m; /* NaN: the calibration's plane_height_m */
+	double rescan_s;       /* full-frame search period (new robots) */
 	/* AprilTag settings */
-	float quad_decimate;       /* full-frame searches (default 2) */
-	float window_decimate;     /* window searches; 0 (default): 2 for tags of >= 32 px, else 1 */
-	float quad_sigma;          /* Gaussian blur before segmentation, px */
-	double decode_sharpening;  /* AprilTag's default 0.25 */
-	int max_hamming;           /* corrected bits accepted (0 or 1) */
-	double min_margin;         /* minimum decision margin (hamming 0) */
-	double min_margin_h1;      /* minimum decision margin for hamming 1 */
-	int edge_px;               /* reject tags with a corner this close to the frame edge */
+	float quad_decimate;      /* full-frame searches (default 2) */
+	float window_decimate;    /* window searches; 0 (default): 2 for tags of >= 32 px, else 1 */
+	float quad_sigma;         /* Gaussian blur before segmentation, px */
+	double decode_sharpening; /* AprilTag's default 0.25 */
+	int max_hamming;          /* corrected bits accepted (0 or 1) */
+	double min_margin;        /* minimum decision margin (hamming 0) */
+	double min_margin_h1;     /* minimum decision margin for hamming 1 */
+	int edge_px;              /* reject tags with a corner this close to the frame edge */
 	/* colour settings */
 	int min_blob_px, max_blob_px; /* accepted blob areas, px */
-	double min_fill;           /* blob area / bounding-box area, a shape test */
+	double min_fill;              /* blob area / bounding-box area, a shape test */
 	/* search */
-	int lost_after;            /* misses before a robot is lost (full-frame search) */
-	double motion_min_m;       /* single cap: displacement needed for a heading */
+	int lost_after;      /* misses before a robot is lost (full-frame search) */
+	double motion_min_m; /* single cap: displacement needed for a heading */
 } wl_track_opts;
 
 void wl_track_opts_init(wl_track_opts *o);
@@ -99,21 +99,21 @@ const char *wl_heading_source_name(wl_heading_source s);
 
 typedef struct {
 	int id;
-	int ok;                    /* 0: lost this frame (pose fields NaN) */
-	double u_px, v_px;         /* coded pixels, our centre convention */
-	double x_m, y_m;           /* tank frame, on the robot's marker plane */
-	double heading_rad;        /* (-pi, pi], NaN when unknown */
-	double margin;             /* tag decision margin, or blob area in px */
-	double size_px;            /* tag side, or blob diameter, in px */
+	int ok;             /* 0: lost this frame (pose fields NaN) */
+	double u_px, v_px;  /* coded pixels, our centre convention */
+	double x_m, y_m;    /* tank frame, on the robot's marker plane */
+	double heading_rad; /* (-pi, pi], NaN when unknown */
+	double margin;      /* tag decision margin, or blob area in px */
+	double size_px;     /* tag side, or blob diameter, in px */
 	wl_heading_source heading_source;
 } wl_track_obs;
 
 /* A frame as the tracker sees it (borrowed). */
 typedef struct {
-	int width_px, height_px;   /* coded */
+	int width_px, height_px; /* coded */
 	const uint8_t *luma;
 	int luma_stride;
-	const uint8_t *rgb;        /* packed RGB24, colour mode only */
+	const uint8_t *rgb; /* packed RGB24, colour mode only */
 	int rgb_stride;
 	double t_s;
 	int64_t index;
@@ -137,13 +137,13 @@ typedef struct wl_tracker wl_tracker;
  * rotation_deg.  The options and calibration are copied (cal's outline is
  * not needed).  Checks that the calibration fits the clip. */
 wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, const char *cal_path,
-			    int width_px, int height_px, int rotation_deg, wl_tracker **out, wl_err *err);
+                            int width_px, int height_px, int rotation_deg, wl_tracker **out, wl_err *err);
 
 /* Tracks one frame.  *obs receives one entry per robot listed so far (known
  * robots from the start, found ones from their first sighting on), in
  * robot order; the array belongs to the tracker. */
 wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_track_obs **obs, int *n,
-			   wl_err *err);
+                           wl_err *err);
 
 /* The region that frames lookahead_s seconds ahead must hold for the
  * searches the tracker expects to make (the union of the robots' windows,
@@ -165,8 +165,8 @@ int wl_tracker_pixel_to_plane(const wl_tracker *tr, double u, double v, double z
 typedef struct {
 	int id, hamming;
 	double margin;
-	double c[2];               /* centre, our pixel convention, full-image coords */
-	double p[4][2];            /* corners in AprilTag's order (tag coords (-1,1),(1,1),(1,-1),(-1,-1)) */
+	double c[2];    /* centre, our pixel convention, full-image coords */
+	double p[4][2]; /* corners in AprilTag's order (tag coords (-1,1),(1,1),(1,-1),(-1,-1)) */
 } wl_tagdet_hit;
 
 typedef struct wl_tagdet wl_tagdet;
@@ -180,7 +180,7 @@ void wl_tagdet_set(wl_tagdet *d, float decimate, float sigma, double sharpening)
  * the stride).  Fills up to max hits, returns the count (detections found
  * beyond max are dropped); -1 on allocation failure. */
 int wl_tagdet_detect(wl_tagdet *d, const uint8_t *img, int stride, int x0, int y0, int w, int h,
-		     wl_tagdet_hit *hits, int max);
+                     wl_tagdet_hit *hits, int max);
 void wl_tagdet_destroy(wl_tagdet *d);
 
 /* Bits of code word `id` of a family, for drawing test tags: fills
@@ -195,10 +195,10 @@ void wl_rgb_to_hsv(int r, int g, int b, int *h, int *s, int *v);
 int wl_hsv_in(const wl_hsv_range *r, int h, int s, int v);
 
 typedef struct {
-	double area_px;            /* pixel count */
-	double cu, cv;             /* centroid, our pixel convention */
-	double fill;               /* area / bounding-box area */
-	int bx0, by0, bx1, by1;    /* bounding box, inclusive */
+	double area_px;         /* pixel count */
+	double cu, cv;          /* centroid, our pixel convention */
+	double fill;            /* area / bounding-box area */
+	int bx0, by0, bx1, by1; /* bounding box, inclusive */
 } wl_blob;
 
 typedef struct wl_blobber wl_blobber;
@@ -207,7 +207,7 @@ wl_status wl_blobber_create(wl_blobber **out, wl_err *err);
  * labels 8-connected components; keeps blobs of min_px..max_px pixels (up
  * to max).  Returns the count, -1 on allocation failure. */
 int wl_blobber_find(wl_blobber *b, const uint8_t *rgb, int stride, int x0, int y0, int w, int h,
-		    const wl_hsv_range *r, int min_px, int max_px, wl_blob *out, int max);
+                    const wl_hsv_range *r, int min_px, int max_px, wl_blob *out, int max);
 void wl_blobber_destroy(wl_blobber *b);
 
 /* HSV statistics of a region (for `wakeline colours`). */
@@ -217,7 +217,7 @@ typedef struct {
 	int p5[3], p50[3], p95[3]; /* percentiles; hue's taken around the circular mean */
 } wl_hsv_stats;
 void wl_hsv_region_stats(const uint8_t *rgb, int stride, int x0, int y0, int w, int h, const uint8_t *mask,
-			 wl_hsv_stats *st);
+                         wl_hsv_stats *st);
 
 /* ---- RAW.csv ---- */
 
@@ -234,10 +234,10 @@ void wl_raw_abort(wl_raw_writer *w);
 typedef struct wl_qc wl_qc;
 /* trail_png and/or overlay_mp4 (NULL: not wanted).  Sizes are coded. */
 wl_status wl_qc_create(const char *trail_png, const char *overlay_mp4, const wl_calib *cal, int width_px,
-		       int height_px, int rotation_deg, double fps_hint, wl_qc **out, wl_err *err);
+                       int height_px, int rotation_deg, double fps_hint, wl_qc **out, wl_err *err);
 /* Adds a frame's poses (and draws the overlay frame; needs img->rgb then). */
 wl_status wl_qc_frame(wl_qc *qc, const wl_tracker *tr, const wl_track_image *img, const wl_track_obs *obs,
-		      int n, wl_err *err);
+                      int n, wl_err *err);
 /* Writes the trail PNG and closes the overlay (both atomic). */
 wl_status wl_qc_finish(wl_qc *qc, wl_err *err);
 void wl_qc_destroy(wl_qc *qc);
@@ -247,10 +247,10 @@ void wl_qc_destroy(wl_qc *qc);
 typedef struct {
 	const char *clip;
 	const char *raw_path;
-	const char *trail_png;     /* NULL: none */
-	const char *overlay_mp4;   /* NULL: none */
-	int decode_threads;        /* 0: all cores */
-	int queue_frames;          /* buffers in the pool (>= 2) */
+	const char *trail_png;   /* NULL: none */
+	const char *overlay_mp4; /* NULL: none */
+	int decode_threads;      /* 0: all cores */
+	int queue_frames;        /* buffers in the pool (>= 2) */
 	/* called from the tracking thread after each frame (may be NULL) */
 	void (*progress)(void *ctx, int64_t frames, double t_s, double duration_s);
 	void *progress_ctx;
@@ -259,12 +259,12 @@ typedef struct {
 typedef struct {
 	int64_t frames, rows, ok_rows;
 	int n_robots;
-	int64_t damaged;           /* frames the decoder flagged */
+	int64_t damaged; /* frames the decoder flagged */
 	wl_track_stats stats;
-	char warning[256];         /* empty, or one line for the user */
+	char warning[256]; /* empty, or one line for the user */
 } wl_track_summary;
 
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
-		       const char *cal_path, wl_track_summary *sum, wl_err *err);
+                       const char *cal_path, wl_track_summary *sum, wl_err *err);
 
 #endif

@@ -19,6 +19,7 @@
 #include "track/track.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -34,18 +35,18 @@
 
 typedef struct {
 	wl_robot_spec spec;
-	int listed;          /* appears in the output from now on */
-	int seen;            /* found at least once */
-	int found;           /* found in the current frame */
-	int misses;          /* consecutive frames not found */
-	double u, v;         /* last pixel position (coded) */
-	double vu, vv;       /* pixel velocity, px/s */
-	double t_last;       /* time last found */
-	double size_px;      /* tag side or cap span, px */
-	double ax, ay;       /* single cap: where the last motion heading was taken */
+	int listed;     /* appears in the output from now on */
+	int seen;       /* found at least once */
+	int found;      /* found in the current frame */
+	int misses;     /* consecutive frames not found */
+	double u, v;    /* last pixel position (coded) */
+	double vu, vv;  /* pixel velocity, px/s */
+	double t_last;  /* time last found */
+	double size_px; /* tag side or cap span, px */
+	double ax, ay;  /* single cap: where the last motion heading was taken */
 	double motion_heading;
 	int has_motion;
-	wl_track_obs cur;    /* this frame's observation while found */
+	wl_track_obs cur; /* this frame's observation while found */
 } robot;
 
 struct wl_tracker {
@@ -94,13 +95,25 @@ static robot *add_robot(wl_tracker *tr, const wl_robot_spec *spec)
 	return r;
 }
 
+/* A tag the calibration used as a floor marker is part of the tank, not a
+ * robot: it is never added unless the user lists it (--ids, ROBOTS.csv). */
+static int is_floor_marker(const wl_tracker *tr, int id)
+{
+	char name[16];
+	snprintf(name, sizeof name, "%d", id);
+	for (int i = 0; i < tr->cal.n_points; i++)
+		if (strcmp(tr->cal.points[i].id, name) == 0)
+			return 1;
+	return 0;
+}
+
 static robot *robot_by_id(wl_tracker *tr, int id, int create)
 {
 	wl_robot_spec spec;
 	for (int i = 0; i < tr->n; i++)
 		if (tr->r[i].spec.id == id)
 			return &tr->r[i];
-	if (!create || tr->o.restrict_ids)
+	if (!create || tr->o.restrict_ids || is_floor_marker(tr, id))
 		return NULL;
 	memset(&spec, 0, sizeof spec);
 	spec.id = id;
@@ -115,7 +128,7 @@ static robot *robot_by_id(wl_tracker *tr, int id, int create)
 }
 
 wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, const char *cal_path,
-			    int width_px, int height_px, int rotation_deg, wl_tracker **out, wl_err *err)
+                            int width_px, int height_px, int rotation_deg, wl_tracker **out, wl_err *err)
 {
 	wl_tracker *tr;
 	wl_status st;
@@ -125,22 +138,25 @@ wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, cons
 		wl_orient_displayed_size(rotation_deg, width_px, height_px, &cw, &ch);
 		if (cal->rotation_deg != rotation_deg)
 			return wl_err_set(err, WL_ECALIB,
-					  "%s: calibrated in displayed pixels of a clip turned by %d degrees, but this clip "
-					  "is turned by %d degrees: calibrate this clip's orientation",
-					  cal_path, cal->rotation_deg, rotation_deg);
+			                  "%s: calibrated in displayed pixels of a clip turned by %d "
+			                  "degrees, but this clip "
+			                  "is turned by %d degrees: calibrate this clip's orientation",
+			                  cal_path, cal->rotation_deg, rotation_deg);
 	}
 	if ((st = wl_calib_check_clip(cal, cal_path, cw, ch, cal->displayed, err)) != WL_OK)
 		return st;
 	if (opts->mode == WL_TRACK_COLOUR) {
 		if (opts->n_robots == 0)
-			return wl_err_set(err, WL_EINVAL,
-					  "colour mode needs each robot's colours: give --robots ROBOTS.csv with "
-					  "front_hsv_lo,front_hsv_hi (and back_hsv_lo,back_hsv_hi)");
+			return wl_err_set(
+			        err, WL_EINVAL,
+			        "colour mode needs each robot's colours: give --robots ROBOTS.csv with "
+			        "front_hsv_lo,front_hsv_hi (and back_hsv_lo,back_hsv_hi)");
 		for (int i = 0; i < opts->n_robots; i++)
 			if (!opts->robots[i].front.set)
-				return wl_err_set(err, WL_EINVAL,
-						  "robot %d has no front_hsv_lo/front_hsv_hi: colour mode needs them",
-						  opts->robots[i].id);
+				return wl_err_set(
+				        err, WL_EINVAL,
+				        "robot %d has no front_hsv_lo/front_hsv_hi: colour mode needs them",
+				        opts->robots[i].id);
 	}
 	if (!(tr = calloc(1, sizeof *tr)))
 		return wl_err_set(err, WL_ENOMEM, "out of memory creating the tracker");
@@ -188,7 +204,8 @@ static double plane_of(const wl_tracker *tr, const robot *r)
 
 /* the window to search for r at time t, grown by `extra` pixels and
  * clamped to the frame and to the region `roi` (NULL or w == 0: all) */
-static void window_at(const wl_tracker *tr, const robot *r, double t, double extra, const int *roi, int win[4])
+static void window_at(const wl_tracker *tr, const robot *r, double t, double extra, const int *roi,
+                      int win[4])
 {
 	double dt = t - r->t_last, dtf = t - tr->t_prev;
 	double pu = r->u + r->vu * dt, pv = r->v + r->vv * dt;
@@ -205,10 +222,14 @@ static void window_at(const wl_tracker *tr, const robot *r, double t, double ext
 		rx1 = roi[0] + roi[2];
 		ry1 = roi[1] + roi[3];
 	}
-	if (x0 < rx0) x0 = rx0;
-	if (y0 < ry0) y0 = ry0;
-	if (x1 > rx1) x1 = rx1;
-	if (y1 > ry1) y1 = ry1;
+	if (x0 < rx0)
+		x0 = rx0;
+	if (y0 < ry0)
+		y0 = ry0;
+	if (x1 > rx1)
+		x1 = rx1;
+	if (y1 > ry1)
+		y1 = ry1;
 	win[0] = x0;
 	win[1] = y0;
 	win[2] = x1 > x0 ? x1 - x0 : 0;
@@ -253,7 +274,8 @@ static int hit_ok(wl_tracker *tr, const wl_tagdet_hit *h)
 		return 0;
 	}
 	for (int k = 0; k < 4; k++)
-		if (h->p[k][0] < e || h->p[k][1] < e || h->p[k][0] > tr->w - 1 - e || h->p[k][1] > tr->h - 1 - e) {
+		if (h->p[k][0] < e || h->p[k][1] < e || h->p[k][0] > tr->w - 1 - e ||
+		    h->p[k][1] > tr->h - 1 - e) {
 			tr->st.rejected_edge++;
 			return 0;
 		}
@@ -316,7 +338,8 @@ static void detect_tags(wl_tracker *tr, const wl_track_image *img, int full)
 	int nh;
 	if (full) {
 		wl_tagdet_set(tr->det, tr->o.quad_decimate, tr->o.quad_sigma, tr->o.decode_sharpening);
-		nh = wl_tagdet_detect(tr->det, img->luma, img->luma_stride, 0, 0, tr->w, tr->h, tr->hits, MAX_HITS);
+		nh = wl_tagdet_detect(tr->det, img->luma, img->luma_stride, 0, 0, tr->w, tr->h, tr->hits,
+		                      MAX_HITS);
 		tr->st.full_scans++;
 		take_hits(tr, nh, img->t_s);
 	}
@@ -327,8 +350,8 @@ static void detect_tags(wl_tracker *tr, const wl_track_image *img, int full)
 			continue;
 		window_at(tr, r, img->t_s, 0.0, img->roi, win);
 		wl_tagdet_set(tr->det, window_decimate(tr, r), tr->o.quad_sigma, tr->o.decode_sharpening);
-		nh = wl_tagdet_detect(tr->det, img->luma, img->luma_stride, win[0], win[1], win[2], win[3], tr->hits,
-				      MAX_HITS);
+		nh = wl_tagdet_detect(tr->det, img->luma, img->luma_stride, win[0], win[1], win[2], win[3],
+		                      tr->hits, MAX_HITS);
 		tr->st.window_scans++;
 		take_hits(tr, nh, img->t_s);
 	}
@@ -338,10 +361,10 @@ static void detect_tags(wl_tracker *tr, const wl_track_image *img, int full)
 
 /* the blob of range hr nearest to (pu, pv) (or the largest when pu < 0) */
 static int best_blob(wl_tracker *tr, const wl_track_image *img, const int win[4], const wl_hsv_range *hr,
-		     double pu, double pv, wl_blob *out)
+                     double pu, double pv, wl_blob *out)
 {
 	int nb = wl_blobber_find(tr->blob, img->rgb, img->rgb_stride, win[0], win[1], win[2], win[3], hr,
-				 tr->o.min_blob_px, tr->o.max_blob_px, tr->blobs, MAX_BLOBS);
+	                         tr->o.min_blob_px, tr->o.max_blob_px, tr->blobs, MAX_BLOBS);
 	double best = -1;
 	int bi = -1;
 	for (int i = 0; i < nb; i++) {
@@ -389,7 +412,8 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 		if (!wl_tracker_pixel_to_plane(tr, fb.cu, fb.cv, z, &fx, &fy) ||
 		    !wl_tracker_pixel_to_plane(tr, bb.cu, bb.cv, z, &bx, &by))
 			return;
-		if (!isnan(r->spec.body_diameter_m) && hypot(fx - bx, fy - by) > 1.5 * r->spec.body_diameter_m)
+		if (!isnan(r->spec.body_diameter_m) &&
+		    hypot(fx - bx, fy - by) > 1.5 * r->spec.body_diameter_m)
 			return; /* caps of two different things */
 		o.x_m = 0.5 * (fx + bx);
 		o.y_m = 0.5 * (fy + by);
@@ -415,7 +439,9 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 			r->ax = o.x_m;
 			r->ay = o.y_m;
 		}
-		o.heading_rad = isnan(r->motion_heading) ? NAN : wrap_pi(r->motion_heading + r->spec.heading_offset_rad);
+		o.heading_rad = isnan(r->motion_heading)
+		                        ? NAN
+		                        : wrap_pi(r->motion_heading + r->spec.heading_offset_rad);
 		o.heading_source = WL_HS_MOTION;
 	}
 	o.u_px = u;
@@ -489,10 +515,14 @@ int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4])
 		/* the window it would get then (its motion term covers the frames
 		 * in between), with room for one more miss */
 		window_at(tr, r, tr->t_prev + lookahead_s, 0.75 * r->size_px, NULL, win);
-		if (win[0] < x0) x0 = win[0];
-		if (win[1] < y0) y0 = win[1];
-		if (win[0] + win[2] > x1) x1 = win[0] + win[2];
-		if (win[1] + win[3] > y1) y1 = win[1] + win[3];
+		if (win[0] < x0)
+			x0 = win[0];
+		if (win[1] < y0)
+			y0 = win[1];
+		if (win[0] + win[2] > x1)
+			x1 = win[0] + win[2];
+		if (win[1] + win[3] > y1)
+			y1 = win[1] + win[3];
 	}
 	if (x1 <= x0 || y1 <= y0)
 		return 1;
@@ -504,17 +534,19 @@ int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4])
 }
 
 wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_track_obs **obs, int *n,
-			   wl_err *err)
+                           wl_err *err)
 {
 	int full, k = 0;
 	if (img->width_px != tr->w || img->height_px != tr->h)
 		return wl_err_set(err, WL_EDECODE, "frame %lld: size %dx%d differs from the clip's %dx%d",
-				  (long long)img->index, img->width_px, img->height_px, tr->w, tr->h);
+		                  (long long)img->index, img->width_px, img->height_px, tr->w, tr->h);
 	if (tr->o.mode == WL_TRACK_COLOUR && !img->rgb)
-		return wl_err_set(err, WL_EINVAL, "frame %lld: colour mode needs RGB frames", (long long)img->index);
+		return wl_err_set(err, WL_EINVAL, "frame %lld: colour mode needs RGB frames",
+		                  (long long)img->index);
 	/* a frame holding only part of the picture cannot be searched whole:
 	 * the search waits for a full frame (the producer was asked for one) */
-	full = (img->roi[2] == 0 || (img->roi[2] >= tr->w && img->roi[3] >= tr->h)) && need_full(tr, img->t_s);
+	full = (img->roi[2] == 0 || (img->roi[2] >= tr->w && img->roi[3] >= tr->h)) &&
+	       need_full(tr, img->t_s);
 	for (int i = 0; i < tr->n; i++)
 		tr->r[i].found = 0;
 	if (tr->o.mode == WL_TRACK_TAG)

@@ -291,9 +291,9 @@ static void test_sha256_fips(void **state)
 
 static void expect_raw_error(const char *text, const char *needle)
 {
-	wl_raw *raw = (wl_raw *)1;
+	wl_clean_raw *raw = (wl_clean_raw *)1;
 	wl_err err = { 0 };
-	assert_int_not_equal(wl_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
+	assert_int_not_equal(wl_clean_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
 	assert_null(raw);
 	if (!strstr(err.msg, needle))
 		fail_msg("error '%s' lacks '%s'", err.msg, needle);
@@ -319,17 +319,17 @@ static void test_raw_ok(void **state)
 {
 	const char *text = HDR ROW("0.0", "0") "0.0,0,2,10,10,0.5,0.6,,ok,50,30,caps\n"
 			       "0.04,1,1,,,,,,lost,,,\n" ROW("0.08", "2");
-	wl_raw *raw = NULL;
+	wl_clean_raw *raw = NULL;
 	wl_err err = { 0 };
 	(void)state;
-	assert_int_equal(wl_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
+	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
 	assert_int_equal(raw->ntracks, 2);
 	assert_int_equal(raw->tracks[0].n, 3);
 	assert_false(raw->tracks[0].s[1].has_pos);
 	assert_true(raw->tracks[1].s[0].has_pos);
 	assert_false(raw->tracks[1].s[0].has_heading);
 	assert_int_equal(raw->tracks[0].s[2].line, 5);
-	wl_raw_destroy(raw);
+	wl_clean_raw_destroy(raw);
 }
 
 /* ----------------------------------------------------------- outline */
@@ -361,7 +361,7 @@ static void test_stage_synthetic(void **state)
 	static char text[N * 120 + 200];
 	double tx[N], ty[N];
 	size_t len = 0;
-	wl_raw *raw = NULL;
+	wl_clean_raw *raw = NULL;
 	wl_err err = { 0 };
 	wl_clean_params p;
 	wl_clean_result res;
@@ -384,7 +384,7 @@ static void test_stage_synthetic(void **state)
 		len += (size_t)snprintf(text + len, sizeof text - len, "%.6f,%d,3,0,0,%.6f,%.6f,%.6f,ok,50,30,tag\n", t,
 					i, mx, my, mh);
 	}
-	assert_int_equal(wl_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
+	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
 	wl_clean_params_init(&p);
 	p.trim = WL_TRIM_NONE;
 	assert_int_equal(wl_clean_run(raw, &p, &res, &err), WL_OK);
@@ -406,7 +406,7 @@ static void test_stage_synthetic(void **state)
 	assert_true(res.robots[0].onset_s > 0.9 && res.robots[0].onset_s < 1.5);
 	assert_false(res.robots[0].still);
 	wl_clean_result_release(&res);
-	wl_raw_destroy(raw);
+	wl_clean_raw_destroy(raw);
 }
 
 int main(void)

@@ -31,7 +31,7 @@
  * pixel convention (centre of pixel 0 at 0), black-border side `side_px`,
  * turned by theta (image axes, v down), 4x4 supersampled. */
 static void draw_tag(uint8_t *img, int w, int h, int stride, int id, double cu, double cv, double side_px,
-		     double theta)
+                     double theta)
 {
 	unsigned char cells[256];
 	int tw = wl_tagdet_render_cells("tag36h11", id, cells, sizeof cells);
@@ -44,7 +44,8 @@ static void draw_tag(uint8_t *img, int w, int h, int stride, int id, double cu, 
 				continue;
 			for (int j = 0; j < 4; j++)
 				for (int i = 0; i < 4; i++) {
-					double px = x - 0.5 + (i + 0.5) / 4.0 - cu, py = y - 0.5 + (j + 0.5) / 4.0 - cv;
+					double px = x - 0.5 + (i + 0.5) / 4.0 - cu,
+					       py = y - 0.5 + (j + 0.5) / 4.0 - cv;
 					double tx = c * px + s * py, ty = -s * px + c * py;
 					double col = tx / cell + tw / 2.0, row = ty / cell + tw / 2.0;
 					int v = 1;
@@ -186,7 +187,8 @@ static void test_tag_families(void **state)
 	assert_int_equal(wl_tagdet_create("tag25h9", 0, &d, NULL), WL_OK);
 	wl_tagdet_destroy(d);
 	wl_tagdet_destroy(NULL);
-	assert_int_equal(wl_tagdet_render_cells("tag36h11", 587, cells, sizeof cells), 0); /* 587 codes: 0..586 */
+	assert_int_equal(wl_tagdet_render_cells("tag36h11", 587, cells, sizeof cells),
+	                 0); /* 587 codes: 0..586 */
 	assert_int_equal(wl_tagdet_render_cells("tag36h11", 586, cells, sizeof cells), 10);
 }
 
@@ -195,12 +197,12 @@ static void test_tag_families(void **state)
 static void test_hsv_matches_opencv(void **state)
 {
 	/* reference: python3-opencv 4.6, cv2.cvtColor(px, cv2.COLOR_RGB2HSV) on these uint8 pixels */
-	static const int rgb[][3] = {{255, 0, 0},   {0, 255, 0},   {0, 0, 255},    {255, 255, 0},
-				     {200, 30, 40}, {250, 10, 200}, {10, 20, 30},   {128, 128, 128},
-				     {255, 128, 0}, {30, 200, 180}, {0, 0, 0},      {90, 60, 200}};
+	static const int rgb[][3] = {{255, 0, 0},   {0, 255, 0},    {0, 0, 255},  {255, 255, 0},
+	                             {200, 30, 40}, {250, 10, 200}, {10, 20, 30}, {128, 128, 128},
+	                             {255, 128, 0}, {30, 200, 180}, {0, 0, 0},    {90, 60, 200}};
 	static const int hsv[][3] = {{0, 255, 255},   {60, 255, 255},  {120, 255, 255}, {30, 255, 255},
-				     {178, 217, 200}, {156, 245, 250}, {105, 170, 30},  {0, 0, 128},
-				     {15, 255, 255},  {86, 217, 200},  {0, 0, 0},       {126, 178, 200}};
+	                             {178, 217, 200}, {156, 245, 250}, {105, 170, 30},  {0, 0, 128},
+	                             {15, 255, 255},  {86, 217, 200},  {0, 0, 0},       {126, 178, 200}};
 	(void)state;
 	for (size_t i = 0; i < sizeof rgb / sizeof rgb[0]; i++) {
 		int h, s, v;
@@ -287,8 +289,11 @@ static void test_hsv_stats(void **state)
 		double hd = hue2 * 2.0, f = fmod(hd / 60.0, 1.0);
 		int sector = (int)(hd / 60.0) % 6;
 		uint8_t r = 255, g = 0, b = 0;
-		if (sector == 0) g = (uint8_t)lrint(255 * f);
-		else { b = (uint8_t)lrint(255 * (1 - f)); }
+		if (sector == 0)
+			g = (uint8_t)lrint(255 * f);
+		else {
+			b = (uint8_t)lrint(255 * (1 - f));
+		}
 		rgb[3 * i] = r;
 		rgb[3 * i + 1] = g;
 		rgb[3 * i + 2] = b;
@@ -329,9 +334,10 @@ static void test_ids_and_robots(void **state)
 	assert_non_null(strstr(e.msg, "'x'"));
 
 	snprintf(path, sizeof path, "%s/robots.csv", tmpdir);
-	write_text(path, "id,plane_height_m,heading_offset_rad,body_diameter_m,front_hsv_lo,front_hsv_hi,back_hsv_lo,back_hsv_hi\n"
-			 "1,0.25,0.1,0.12,\"170,100,80\",\"8,255,255\",\"100,100,80\",\"125,255,255\"\n"
-			 "2,,,,\"40,100,80\",\"80,255,255\",,\n");
+	write_text(path, "id,plane_height_m,heading_offset_rad,body_diameter_m,front_hsv_lo,front_hsv_hi,"
+	                 "back_hsv_lo,back_hsv_hi\n"
+	                 "1,0.25,0.1,0.12,\"170,100,80\",\"8,255,255\",\"100,100,80\",\"125,255,255\"\n"
+	                 "2,,,,\"40,100,80\",\"80,255,255\",,\n");
 	wl_track_opts_init(&o);
 	assert_int_equal(wl_track_load_robots(path, &o, &e), WL_OK);
 	assert_int_equal(o.n_robots, 2);
@@ -343,7 +349,8 @@ static void test_ids_and_robots(void **state)
 	assert_true(isnan(o.robots[1].plane_height_m));
 	assert_true(o.robots[1].front.set && !o.robots[1].back.set);
 
-	write_text(path, "id,front_hsv_lo,front_hsv_hi\n1,\"170,100,80\",\"8,255,255\"\n2,\"200,0,0\",\"8,255,255\"\n");
+	write_text(path, "id,front_hsv_lo,front_hsv_hi\n1,\"170,100,80\",\"8,255,255\"\n2,\"200,0,0\",\"8,"
+	                 "255,255\"\n");
 	wl_track_opts_init(&o);
 	assert_int_equal(wl_track_load_robots(path, &o, &e), WL_EFORMAT);
 	assert_non_null(strstr(e.msg, "robots.csv:3:"));
@@ -366,18 +373,26 @@ static void test_raw_writer(void **state)
 	setlocale(LC_NUMERIC, "de_DE.UTF-8");
 	snprintf(path, sizeof path, "%s/raw.csv", tmpdir);
 	memset(obs, 0, sizeof obs);
-	obs[0] = (wl_track_obs){.id = 3, .ok = 1, .u_px = 10.25, .v_px = 20.5, .x_m = 0.125, .y_m = -0.5,
-				.heading_rad = 1.5, .margin = 80.0, .size_px = 41.5, .heading_source = WL_HS_TAG};
+	obs[0] = (wl_track_obs){.id = 3,
+	                        .ok = 1,
+	                        .u_px = 10.25,
+	                        .v_px = 20.5,
+	                        .x_m = 0.125,
+	                        .y_m = -0.5,
+	                        .heading_rad = 1.5,
+	                        .margin = 80.0,
+	                        .size_px = 41.5,
+	                        .heading_source = WL_HS_TAG};
 	obs[1] = (wl_track_obs){.id = 7, .ok = 0};
 	assert_int_equal(wl_raw_open(path, &w, NULL), WL_OK);
 	wl_raw_put(w, 0.033367, 1, obs, 2);
 	assert_int_equal(wl_raw_commit(w, NULL), WL_OK);
 	setlocale(LC_NUMERIC, "C");
 	assert_int_equal(wl_read_file(path, 1 << 20, &text, &len, NULL), WL_OK);
-	assert_string_equal(text,
-			    "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n"
-			    "0.033367,1,3,10.250,20.500,0.125000,-0.500000,1.500000,ok,80.00,41.50,tag\n"
-			    "0.033367,1,7,,,,,,lost,,,\n");
+	assert_string_equal(
+	        text, "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n"
+	              "0.033367,1,3,10.250,20.500,0.125000,-0.500000,1.500000,ok,80.00,41.50,tag\n"
+	              "0.033367,1,7,,,,,,lost,,,\n");
 	free(text);
 	/* abort leaves no file */
 	unlink(path);
@@ -385,7 +400,6 @@ static void test_raw_writer(void **state)
 	wl_raw_abort(w);
 	assert_int_equal(access(path, F_OK), -1);
 }
-
 
 /* ---- the tracker on rendered sequences ---- */
 
@@ -395,10 +409,10 @@ typedef struct {
 } scene_robot;
 
 typedef struct {
-	wl_camera cam;   /* the camera whose pixels the calibration uses */
-	int rot;         /* 0: cam is in coded pixels; else displayed, clip turned by rot */
-	int w, h;        /* coded size */
-	double z;        /* marker plane */
+	wl_camera cam; /* the camera whose pixels the calibration uses */
+	int rot;       /* 0: cam is in coded pixels; else displayed, clip turned by rot */
+	int w, h;      /* coded size */
+	double z;      /* marker plane */
 } scene;
 
 static unsigned char tag_cells[32][100];
@@ -432,20 +446,27 @@ static void render(const scene *sc, uint8_t *img, const scene_robot *rb, int n)
 			continue;
 		for (int q = 0; q < 4; q++) {
 			double u, v;
-			plane_to_coded(sc, rb[k].x + (q & 1 ? body : -body), rb[k].y + (q & 2 ? body : -body), &u, &v);
-			u0 = fmin(u0, u); v0 = fmin(v0, v); u1 = fmax(u1, u); v1 = fmax(v1, v);
+			plane_to_coded(sc, rb[k].x + (q & 1 ? body : -body), rb[k].y + (q & 2 ? body : -body),
+			               &u, &v);
+			u0 = fmin(u0, u);
+			v0 = fmin(v0, v);
+			u1 = fmax(u1, u);
+			v1 = fmax(v1, v);
 		}
 		for (int y = (int)fmax(0, floor(v0) - 1); y <= (int)fmin(sc->h - 1, ceil(v1) + 1); y++)
-			for (int x = (int)fmax(0, floor(u0) - 1); x <= (int)fmin(sc->w - 1, ceil(u1) + 1); x++) {
+			for (int x = (int)fmax(0, floor(u0) - 1); x <= (int)fmin(sc->w - 1, ceil(u1) + 1);
+			     x++) {
 				int acc = 0;
 				for (int j = 0; j < 3; j++)
 					for (int i = 0; i < 3; i++) {
 						double X, Y, dx, dy, tx, ty;
 						int col, row, val = 90;
-						coded_to_plane(sc, x - 1.0 / 3 + i / 3.0, y - 1.0 / 3 + j / 3.0, &X, &Y);
+						coded_to_plane(sc, x - 1.0 / 3 + i / 3.0,
+						               y - 1.0 / 3 + j / 3.0, &X, &Y);
 						dx = X - rb[k].x;
 						dy = Y - rb[k].y;
-						/* the tag's up along the heading, its right 90 degrees clockwise */
+						/* the tag's up along the heading, its right 90 degrees
+						 * clockwise */
 						tx = s * dx - c * dy;
 						ty = c * dx + s * dy;
 						col = (int)floor(tx / cell + 5);
@@ -455,7 +476,9 @@ static void render(const scene *sc, uint8_t *img, const scene_robot *rb, int n)
 						else if (hypot(dx, dy) < body)
 							val = 225;
 						else
-							val = img[(size_t)y * sc->w + x] == 90 ? 90 : img[(size_t)y * sc->w + x];
+							val = img[(size_t)y * sc->w + x] == 90
+							              ? 90
+							              : img[(size_t)y * sc->w + x];
 						acc += val;
 					}
 				img[(size_t)y * sc->w + x] = (uint8_t)(acc / 9);
@@ -499,7 +522,7 @@ typedef void (*motion_fn)(int frame, scene_robot *rb, int *n);
 typedef struct {
 	int frames, n_ok[2];
 	double se_pos[2], se_head[2];
-	int lost_at[400][2];  /* 1 when lost, per frame and robot slot */
+	int lost_at[400][2]; /* 1 when lost, per frame and robot slot */
 	double x[400][2], y[400][2], hd[400][2];
 	int ids[2];
 } run_result;
@@ -520,8 +543,12 @@ static void run_sequence(const scene *sc, wl_track_opts *o, motion_fn mf, int fr
 		scene_robot rb[2];
 		int n = 0, no;
 		const wl_track_obs *obs;
-		wl_track_image im = {.width_px = sc->w, .height_px = sc->h, .luma = img, .luma_stride = sc->w,
-				     .t_s = f / 30.0, .index = f};
+		wl_track_image im = {.width_px = sc->w,
+		                     .height_px = sc->h,
+		                     .luma = img,
+		                     .luma_stride = sc->w,
+		                     .t_s = f / 30.0,
+		                     .index = f};
 		mf(f, rb, &n);
 		render(sc, img, rb, n);
 		assert_int_equal(wl_tracker_frame(tr, &im, &obs, &no, &e), WL_OK);
@@ -703,8 +730,12 @@ static void test_tracker_edge_and_unseen(void **state)
 		scene_robot rb[1];
 		int n, no;
 		const wl_track_obs *obs;
-		wl_track_image im = {.width_px = sc.w, .height_px = sc.h, .luma = img, .luma_stride = sc.w,
-				     .t_s = f / 30.0, .index = f};
+		wl_track_image im = {.width_px = sc.w,
+		                     .height_px = sc.h,
+		                     .luma = img,
+		                     .luma_stride = sc.w,
+		                     .t_s = f / 30.0,
+		                     .index = f};
 		at_edge(f, rb, &n);
 		render(&sc, img, rb, n);
 		assert_int_equal(wl_tracker_frame(tr, &im, &obs, &no, NULL), WL_OK);
@@ -725,7 +756,6 @@ static void test_tracker_edge_and_unseen(void **state)
 	wl_tracker_destroy(tr);
 	free(img);
 }
-
 
 static void test_tracker_roi(void **state)
 {
@@ -760,15 +790,20 @@ static void test_tracker_roi(void **state)
 		scene_robot rb[1];
 		int n, no;
 		const wl_track_obs *obs;
-		wl_track_image im = {.width_px = sc.w, .height_px = sc.h, .luma = img, .luma_stride = sc.w,
-				     .t_s = f / 30.0, .index = f};
+		wl_track_image im = {.width_px = sc.w,
+		                     .height_px = sc.h,
+		                     .luma = img,
+		                     .luma_stride = sc.w,
+		                     .t_s = f / 30.0,
+		                     .index = f};
 		circle_ccw(f, rb, &n);
 		render(&sc, img, rb, n);
 		if (roi[2] > 0) {
 			/* outside the region: the stale picture with the decoy */
 			for (int y = 0; y < sc.h; y++)
 				for (int x = 0; x < sc.w; x++)
-					if (x < roi[0] || x >= roi[0] + roi[2] || y < roi[1] || y >= roi[1] + roi[3])
+					if (x < roi[0] || x >= roi[0] + roi[2] || y < roi[1] ||
+					    y >= roi[1] + roi[3])
 						img[(size_t)y * sc.w + x] = stale[(size_t)y * sc.w + x];
 			memcpy(im.roi, roi, sizeof roi);
 			partial++;
@@ -831,23 +866,23 @@ static int teardown_dir(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_tag_centre_convention),
-		cmocka_unit_test(test_tag_window_and_rotation),
-		cmocka_unit_test(test_tag_small_sizes),
-		cmocka_unit_test(test_tag_families),
-		cmocka_unit_test(test_hsv_matches_opencv),
-		cmocka_unit_test(test_hsv_wrap),
-		cmocka_unit_test(test_blob_centroid),
-		cmocka_unit_test(test_hsv_stats),
-		cmocka_unit_test(test_ids_and_robots),
-		cmocka_unit_test(test_raw_writer),
-		cmocka_unit_test(test_tracker_ccw),
-		cmocka_unit_test(test_tracker_rotation_metadata),
-		cmocka_unit_test(test_tracker_close_pass),
-		cmocka_unit_test(test_tracker_occlusion),
-		cmocka_unit_test(test_tracker_edge_and_unseen),
-		cmocka_unit_test(test_tracker_roi),
-		cmocka_unit_test(test_tracker_calibration_mismatch),
+	        cmocka_unit_test(test_tag_centre_convention),
+	        cmocka_unit_test(test_tag_window_and_rotation),
+	        cmocka_unit_test(test_tag_small_sizes),
+	        cmocka_unit_test(test_tag_families),
+	        cmocka_unit_test(test_hsv_matches_opencv),
+	        cmocka_unit_test(test_hsv_wrap),
+	        cmocka_unit_test(test_blob_centroid),
+	        cmocka_unit_test(test_hsv_stats),
+	        cmocka_unit_test(test_ids_and_robots),
+	        cmocka_unit_test(test_raw_writer),
+	        cmocka_unit_test(test_tracker_ccw),
+	        cmocka_unit_test(test_tracker_rotation_metadata),
+	        cmocka_unit_test(test_tracker_close_pass),
+	        cmocka_unit_test(test_tracker_occlusion),
+	        cmocka_unit_test(test_tracker_edge_and_unseen),
+	        cmocka_unit_test(test_tracker_roi),
+	        cmocka_unit_test(test_tracker_calibration_mismatch),
 	};
 	return cmocka_run_group_tests(tests, setup_dir, teardown_dir);
 }

@@ -1,0 +1,188 @@
+/*
+ * batch.h: the sixth stage's running side: the manifest of a sweep, clip
+ * discovery under a folder, a resumable job runner that processes clips in
+ * forked worker processes, and the merge that rebuilds summary.csv and
+ * report.html from the clip folders alone.
+ *
+ * Pipeline position: last library stage (uses report; the CLI gives it the
+ * per-clip function that runs track, clean and measure).
+ *
+ * Output folder layout (OUT = the batch's -o):
+ *   OUT/clips/<name>/        one folder per clip: the clip function's files
+ *                            and clip.json (the done marker, written last)
+ *   OUT/journal.log          append-only history, one line per event
+ *                            (journal-<k>.log for shard k)
+ *   OUT/batch.json           the batch's settings and the manifest rows that
+ *                            named missing clips (read by merge)
+ *   OUT/summary.csv          one row per run, failed or missing clip
+ *   OUT/report.html, OUT/sweep_*.svg/.png
+ * <name> is the clip's path relative to the clip folder with '/' written as
+ * "__" and the extension's '.' as '_' (sub/a.mp4 -> sub__a_mp4).
+ *
+ * Ownership: *_init/_release pairs for embedded structs; strings inside are
+ * owned by the struct.  Jobs and events hand out borrowed pointers valid for
+ * the call only.
+ *
+ * Errors: set-up problems (unreadable manifest, folder not writable, another
+ * batch holding the lock) return an error; a failing clip does not: it is
+ * counted in wl_batch_result and listed in summary.csv with its message.
+ */
+#ifndef WL_BATCH_H
+#define WL_BATCH_H
+
+#include <stddef.h>
+
+#include "core/err.h"
+#include "report/report.h"
+
+/* ---- manifest ------------------------------------------------------------ */
+
+typedef struct {
+	char *clip;    /* relative to the clip folder, "./" removed */
+	long line;     /* line of the manifest, for messages */
+	char **values; /* one per manifest column ("" when empty) */
+	int found;     /* set by wl_batch_run when the clip exists */
+} wl_manifest_row;
+
+typedef struct {
+	char *path;
+	size_t ncols;
+	char **cols;                /* every column, `clip` included */
+	int c_clip, c_cal, c_plane; /* column indices, -1 when absent */
+	size_t nrows;
+	wl_manifest_row *rows;
+} wl_manifest;
+
+void wl_manifest_init(wl_manifest *m);
+void wl_manifest_release(wl_manifest *m);
+/* Reads a manifest CSV: a header with a `clip` column (required) and any
+ * other columns; optional `cal` (a CAL.json path, relative to the manifest's
+ * folder unless absolute) and `plane_height_m` (metres) override the batch's
+ * per clip.  Errors name file and line: a missing `clip` column, a repeated
+ * column name, a row with another number of cells than the header, an empty
+ * clip cell, a clip listed twice, a plane_height_m that is not a number. */
+wl_status wl_manifest_load(const char *path, wl_manifest *m, wl_err *err);
+/* The row naming clip (relative path), or NULL. */
+const wl_manifest_row *wl_manifest_find(const wl_manifest *m, const char *clip);
+
+/* ---- discovery ----------------------------------------------------------- */
+
+typedef struct {
+	size_t n;
+	char **rel; /* paths relative to the searched folder, sorted bytewise */
+} wl_cliplist;
+
+void wl_cliplist_release(wl_cliplist *l);
+/* 1 when the name ends in a video extension (mp4 mov m4v avi mkv webm, any
+ * case). */
+int wl_batch_is_video(const char *name);
+/* Finds the video files under dir (recursively, at most 16 levels; names
+ * starting with '.' and the folder `skip_dir` are left out; NULL skips none).
+ * The order is bytewise by relative path, so it is the same on every run. */
+wl_status wl_batch_discover(const char *dir, const char *skip_dir, wl_cliplist *out, wl_err *err);
+/* The clip folder name of a relative clip path (see the layout above);
+ * buf holds cap bytes. */
+char *wl_batch_clip_name(const char *rel, char *buf, size_t cap);
+
+/* ---- jobs ---------------------------------------------------------------- */
+
+/* Called by a clip function now and then: frames done so far and the
+ * expected total (-1 when unknown). */
+typedef void (*wl_batch_progress_fn)(void *pctx, long frames_done, long frames_total);
+
+typedef struct {
+	const char *clip_path; /* the video file (clip folder + rel) */
+	const char *clip_rel;  /* relative to the clip folder */
+	const char *out_dir;   /* the clip's output folder; exists */
+	const char *cal_path;  /* the manifest's `cal` or the batch's */
+	double plane_height_m; /* the manifest's plane_height_m, NaN when not given */
+	size_t nparams;        /* manifest columns other than clip */
+	const char *const *param_names;
+	const char *const *param_values;
+	wl_batch_progress_fn progress;
+	void *progress_ctx;
+} wl_batch_job;
+
+/* The per-clip work.  Runs in a forked worker process (so a crash or a leak
+ * stays in that clip); must write every file of wl_batch_opts.outputs into
+ * job->out_dir, atomically.  Returns WL_OK or an error with a message. */
+typedef wl_status (*wl_batch_clip_fn)(const wl_batch_job *job, void *ctx, wl_err *err);
+
+typedef enum {
+	WL_BATCH_EV_START,    /* a clip was handed to a worker */
+	WL_BATCH_EV_PROGRESS, /* frames were reported (at most ~5 times a second) */
+	WL_BATCH_EV_DONE,     /* a clip finished well */
+	WL_BATCH_EV_SKIP,     /* a clip was complete already */
+	WL_BATCH_EV_FAIL,     /* a clip failed: msg says why */
+	WL_BATCH_EV_WARN      /* something the user should know: msg */
+} wl_batch_ev_kind;
+
+typedef struct {
+	wl_batch_ev_kind kind;
+	const char *clip; /* relative path, or NULL */
+	const char *msg;  /* for FAIL and WARN */
+	size_t finished;  /* clips done, skipped or failed so far */
+	size_t total;     /* clips of this run */
+	size_t failed;
+	size_t running;
+	double fps;   /* frames per second over all workers since start */
+	double eta_s; /* estimated time left, NaN when unknown */
+} wl_batch_event;
+
+typedef void (*wl_batch_event_fn)(const wl_batch_event *ev, void *ctx);
+
+typedef struct {
+	const char *clip_dir;       /* DIR: where the clips are */
+	const char *out_dir;        /* OUT: created when missing */
+	const char *cal_path;       /* the default CAL.json (may be NULL if every row has `cal`) */
+	const char *manifest_path;  /* NULL: no manifest */
+	int jobs;                   /* parallel workers; <= 0: number of cores */
+	int force;                  /* 1: redo complete clips */
+	const char *settings;       /* text naming every setting that changes outputs (hashed) */
+	const char *const *outputs; /* NULL-terminated file names each clip folder must hold */
+	wl_batch_clip_fn fn;
+	void *fn_ctx;
+	wl_batch_event_fn on_event; /* may be NULL */
+	void *ev_ctx;
+	int shard_index, shard_count; /* process clips i with i % count == index; count <= 1: all */
+	wl_report_sweep_opts sweep;   /* for the report */
+} wl_batch_opts;
+
+typedef struct {
+	size_t clips;   /* clips of this run (after sharding) */
+	size_t done;    /* processed well now */
+	size_t skipped; /* complete from before */
+	size_t failed;
+	size_t missing;  /* manifest rows whose clip does not exist */
+	size_t unlisted; /* clips without a manifest row (processed) */
+	size_t runs;     /* rows of summary.csv with status ok */
+} wl_batch_result;
+
+/* Runs the batch: discovers clips, reads the manifest, skips complete clips,
+ * runs the rest in up to o->jobs workers, records each in clip.json and the
+ * journal, then (unless sharded) rebuilds summary.csv and report.html with
+ * wl_batch_merge.  Interrupting it at any point leaves no half-written file;
+ * running it again finishes the rest.  Returns WL_OK when the batch ran, even
+ * if clips failed (see res). */
+wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err);
+
+/* Rebuilds OUT/summary.csv, the sweep plots and OUT/report.html from
+ * OUT/clips/<name>/clip.json and summary.json (and OUT/batch.json for the
+ * manifest's missing clips and the batch's sweep options; fields set in
+ * `sweep` (may be NULL) replace those).
+ * Clip folders without path_m.png get their plots drawn from clean.csv and
+ * summary.json.  res may be NULL. */
+wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
+                         wl_err *err);
+
+/* Settings hash of the resume rule (FNV-1a, 64 bits, as 16 hex digits):
+ * over `settings`, the CAL.json's bytes and the plane height. */
+wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
+                                 char out[17], wl_err *err);
+
+/* Writes clip.json into a clip folder (atomically): for commands that
+ * process one clip outside a batch so that merge can pick it up. */
+wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char *settings_hash, int ok,
+                        const char *error, double elapsed_s, wl_err *err);
+
+#endif

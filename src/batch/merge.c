@@ -1,0 +1,481 @@
+/*
+ * merge.c: rebuilds OUT/summary.csv, the sweep plots and OUT/report.html
+ * from the clip folders alone (clip.json + summary.json), so that clips
+ * processed by separate jobs (a cluster job array, shards, reruns) come
+ * together in one table (see batch.h).
+ *
+ * summary.csv: clip, folder, status, error, the manifest's columns, then one
+ * column per key of summary.json's runs: id, segment, headline and the
+ * measures in a fixed order first, any other keys after them sorted by name;
+ * a [lo, hi] pair becomes <key>_lo and <key>_hi.
+ */
+#define _POSIX_C_SOURCE 200809L
+#include "batch/batch.h"
+
+#include <dirent.h>
+#include <limits.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "core/afile.h"
+#include "core/csvio.h"
+#include "core/jsonio.h"
+
+/* The measure stage's keys in the order the table shows them. */
+static const char *const KNOWN[] = {
+        "id",
+        "segment",
+        "headline",
+        "radius_m",
+        "curvature_per_m",
+        "curvature_ci95_per_m_lo",
+        "curvature_ci95_per_m_hi",
+        "straight",
+        "fit_rms_m",
+        "arc_deg",
+        "radius_body_diameters",
+        "path_length_m",
+        "net_displacement_m",
+        "straightness",
+        "mean_speed_mps",
+        "speed_sd_mps",
+        "mean_yaw_rate_degps",
+        "heading_drift_degps",
+        "yaw_osc_freq_hz",
+        "yaw_osc_amp_deg",
+        "sway_amp_m",
+        "trim_start_s",
+        "duration_s",
+        "tracked_fraction",
+        NULL,
+};
+
+typedef struct {
+	size_t n, cap;
+	char **k, **v;
+} kvlist;
+
+typedef struct {
+	char *clip, *folder, *status, *error;
+	kvlist params, meas;
+} prow;
+
+typedef struct {
+	prow *r;
+	size_t n, cap;
+	int oom;
+} prows;
+
+static int kv_add(kvlist *l, const char *k, const char *v)
+{
+	if (l->n == l->cap) {
+		size_t nc = l->cap ? 2 * l->cap : 16;
+		char **nk = realloc(l->k, nc * sizeof *nk), **nv;
+		if (!nk)
+			return 0;
+		l->k = nk;
+		nv = realloc(l->v, nc * sizeof *nv);
+		if (!nv)
+			return 0;
+		l->v = nv;
+		l->cap = nc;
+	}
+	l->k[l->n] = strdup(k);
+	l->v[l->n] = strdup(v ? v : "");
+	if (!l->k[l->n] || !l->v[l->n]) {
+		free(l->k[l->n]);
+		free(l->v[l->n]);
+		return 0;
+	}
+	l->n++;
+	return 1;
+}
+
+static const char *kv_get(const kvlist *l, const char *k)
+{
+	size_t i;
+	for (i = 0; i < l->n; i++)
+		if (strcmp(l->k[i], k) == 0)
+			return l->v[i];
+	return NULL;
+}
+
+static void kv_free(kvlist *l)
+{
+	size_t i;
+	for (i = 0; i < l->n; i++) {
+		free(l->k[i]);
+		free(l->v[i]);
+	}
+	free(l->k);
+	free(l->v);
+}
+
+static prow *prow_new(prows *p, const char *clip, const char *folder, const char *status, const char *error)
+{
+	prow *r;
+	if (p->n == p->cap) {
+		size_t nc = p->cap ? 2 * p->cap : 32;
+		prow *nr = realloc(p->r, nc * sizeof *nr);
+		if (!nr) {
+			p->oom = 1;
+			return NULL;
+		}
+		p->r = nr;
+		p->cap = nc;
+	}
+	r = &p->r[p->n];
+	memset(r, 0, sizeof *r);
+	r->clip = strdup(clip);
+	r->folder = strdup(folder);
+	r->status = strdup(status);
+	r->error = strdup(error ? error : "");
+	p->n++;
+	if (!r->clip || !r->folder || !r->status || !r->error)
+		p->oom = 1;
+	return r;
+}
+
+static void prows_free(prows *p)
+{
+	size_t i;
+	for (i = 0; i < p->n; i++) {
+		free(p->r[i].clip);
+		free(p->r[i].folder);
+		free(p->r[i].status);
+		free(p->r[i].error);
+		kv_free(&p->r[i].params);
+		kv_free(&p->r[i].meas);
+	}
+	free(p->r);
+}
+
+static void value_text(const cJSON *v, char *buf, size_t cap)
+{
+	char num[WL_NUMBUF];
+	buf[0] = '\0';
+	if (cJSON_IsNumber(v))
+		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 10));
+	else if (cJSON_IsBool(v))
+		snprintf(buf, cap, "%s", cJSON_IsTrue(v) ? "true" : "false");
+	else if (cJSON_IsString(v))
+		snprintf(buf, cap, "%s", v->valuestring);
+}
+
+static int add_run_values(kvlist *l, const cJSON *run)
+{
+	const cJSON *v;
+	char buf[1024], key[300];
+	cJSON_ArrayForEach(v, run)
+	{
+		if (!v->string)
+			continue;
+		if (cJSON_IsArray(v)) {
+			if (cJSON_GetArraySize(v) == 2) {
+				snprintf(key, sizeof key, "%s_lo", v->string);
+				value_text(cJSON_GetArrayItem(v, 0), buf, sizeof buf);
+				if (!kv_add(l, key, buf))
+					return 0;
+				snprintf(key, sizeof key, "%s_hi", v->string);
+				value_text(cJSON_GetArrayItem(v, 1), buf, sizeof buf);
+				if (!kv_add(l, key, buf))
+					return 0;
+			}
+			continue;
+		}
+		if (cJSON_IsObject(v))
+			continue;
+		value_text(v, buf, sizeof buf);
+		if (!kv_add(l, v->string, buf))
+			return 0;
+	}
+	return 1;
+}
+
+static int cmp_name(const void *a, const void *b)
+{
+	return strcmp(*(const char *const *)a, *(const char *const *)b);
+}
+
+/* One clip folder: its rows (one per run, or one for a failure). */
+static void read_clip(prows *p, const char *out_dir, const char *name)
+{
+	char path[PATH_MAX], folder[PATH_MAX], msg[PATH_MAX + 300];
+	cJSON *cj = NULL, *sj = NULL;
+	const cJSON *params, *runs, *run, *v;
+	const char *clip, *status;
+	wl_err err;
+	prow *first = NULL;
+	size_t before = p->n;
+
+	msg[0] = '\0';
+	snprintf(folder, sizeof folder, "clips/%s", name);
+	snprintf(path, sizeof path, "%s/%s/clip.json", out_dir, folder);
+	wl_err_clear(&err);
+	if (wl_json_load(path, &cj, &err) != WL_OK)
+		return; /* no marker: the clip never finished; it is not a run */
+	clip = wl_json_string_or(cj, "clip", name);
+	status = wl_json_string_or(cj, "status", "failed");
+	params = cJSON_GetObjectItemCaseSensitive(cj, "params");
+	if (strcmp(status, "ok") == 0) {
+		snprintf(path, sizeof path, "%s/%s/summary.json", out_dir, folder);
+		if (wl_json_load(path, &sj, &err) != WL_OK) {
+			status = "failed";
+			snprintf(msg, sizeof msg, "%s", err.msg);
+		}
+	}
+	runs = sj ? cJSON_GetObjectItemCaseSensitive(sj, "runs") : NULL;
+	if (strcmp(status, "ok") == 0 && cJSON_IsArray(runs) && cJSON_GetArraySize(runs) > 0) {
+		struct stat st;
+		snprintf(path, sizeof path, "%s/%s/path_m.png", out_dir, folder);
+		if (stat(path, &st) != 0) {
+			/* the table can do without the picture: a broken image shows the gap */
+			wl_report_scene_buf *sb = calloc(1, sizeof *sb);
+			const char *cal = wl_json_string_or(cj, "cal", "");
+			if (sb && cal[0])
+				wl_report_scene_load(cal, sb, NULL);
+			snprintf(path, sizeof path, "%s/%s", out_dir, folder);
+			wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
+			wl_report_scene_release(sb);
+			free(sb);
+		}
+		cJSON_ArrayForEach(run, runs)
+		{
+			prow *r = prow_new(p, clip, folder, "ok", NULL);
+			if (!r || !add_run_values(&r->meas, run))
+				p->oom = 1;
+		}
+	} else if (strcmp(status, "ok") == 0) {
+		prow_new(p, clip, folder, "failed",
+		         cJSON_IsArray(runs) ? "no runs: nothing was tracked long enough to measure" : msg);
+	} else {
+		prow_new(p, clip, folder, "failed", msg[0] ? msg : wl_json_string_or(cj, "error", "failed"));
+	}
+	for (first = p->r + before; first < p->r + p->n; first++)
+		cJSON_ArrayForEach(v, params) if (v->string && cJSON_IsString(v) &&
+		                                  !kv_add(&first->params, v->string, v->valuestring)) p->oom =
+		        1;
+	cJSON_Delete(cj);
+	cJSON_Delete(sj);
+}
+
+static int has(char **list, size_t n, const char *s)
+{
+	size_t i;
+	for (i = 0; i < n; i++)
+		if (strcmp(list[i], s) == 0)
+			return 1;
+	return 0;
+}
+
+/* Columns: manifest parameters in first-seen order, then measures. */
+static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
+{
+	size_t i, j, k, nextra = 0, cap = 64;
+	char **extra = NULL;
+	t->cols = calloc(cap, sizeof *t->cols);
+	if (!t->cols)
+		goto oom;
+#define ADDCOL(name)                                                                                         \
+	do {                                                                                                 \
+		if (t->ncols == cap) {                                                                       \
+			char **nc = realloc(t->cols, 2 * cap * sizeof *nc);                                  \
+			if (!nc)                                                                             \
+				goto oom;                                                                    \
+			t->cols = nc;                                                                        \
+			cap *= 2;                                                                            \
+		}                                                                                            \
+		if (!(t->cols[t->ncols] = strdup(name)))                                                     \
+			goto oom;                                                                            \
+		t->ncols++;                                                                                  \
+	} while (0)
+	for (i = 0; i < p->n; i++)
+		for (j = 0; j < p->r[i].params.n; j++)
+			if (!has(t->cols, t->ncols, p->r[i].params.k[j]))
+				ADDCOL(p->r[i].params.k[j]);
+	t->nparams = t->ncols;
+	for (k = 0; KNOWN[k]; k++)
+		ADDCOL(KNOWN[k]);
+	for (i = 0; i < p->n; i++)
+		for (j = 0; j < p->r[i].meas.n; j++) {
+			const char *key = p->r[i].meas.k[j];
+			if (has(t->cols + t->nparams, t->ncols - t->nparams, key) || has(extra, nextra, key))
+				continue;
+			{
+				char **ne = realloc(extra, (nextra + 1) * sizeof *ne);
+				if (!ne)
+					goto oom;
+				extra = ne;
+				extra[nextra++] = p->r[i].meas.k[j];
+			}
+		}
+	qsort(extra, nextra, sizeof *extra, cmp_name);
+	for (i = 0; i < nextra; i++)
+		ADDCOL(extra[i]);
+#undef ADDCOL
+	free(extra);
+	extra = NULL;
+	t->rows = calloc(p->n ? p->n : 1, sizeof *t->rows);
+	if (!t->rows)
+		goto oom;
+	for (i = 0; i < p->n; i++) {
+		wl_report_row *r = &t->rows[i];
+		t->nrows++;
+		r->clip = strdup(p->r[i].clip);
+		r->folder = strdup(p->r[i].folder);
+		r->status = strdup(p->r[i].status);
+		r->error = strdup(p->r[i].error);
+		r->cells = calloc(t->ncols, sizeof *r->cells);
+		if (!r->clip || !r->folder || !r->status || !r->error || !r->cells)
+			goto oom;
+		for (j = 0; j < t->ncols; j++) {
+			const char *v = j < t->nparams ? kv_get(&p->r[i].params, t->cols[j])
+			                               : kv_get(&p->r[i].meas, t->cols[j]);
+			if (!(r->cells[j] = strdup(v ? v : "")))
+				goto oom;
+		}
+	}
+	return WL_OK;
+oom:
+	free(extra);
+	return wl_err_set(err, WL_ENOMEM, "out of memory building the run table");
+}
+
+static wl_status write_summary_csv(const wl_report_runs *t, const char *out_dir, wl_err *err)
+{
+	char path[PATH_MAX];
+	wl_afile *af;
+	wl_csv_writer w;
+	size_t i, j;
+	wl_status s;
+	snprintf(path, sizeof path, "%s/summary.csv", out_dir);
+	if ((s = wl_afile_open(path, &af, err)))
+		return s;
+	wl_csvw_init(&w, wl_afile_fp(af));
+	wl_csvw_str(&w, "clip");
+	wl_csvw_str(&w, "folder");
+	wl_csvw_str(&w, "status");
+	wl_csvw_str(&w, "error");
+	for (j = 0; j < t->ncols; j++)
+		wl_csvw_str(&w, t->cols[j]);
+	wl_csvw_end(&w);
+	for (i = 0; i < t->nrows; i++) {
+		const wl_report_row *r = &t->rows[i];
+		wl_csvw_str(&w, r->clip);
+		wl_csvw_str(&w, r->folder);
+		wl_csvw_str(&w, r->status);
+		wl_csvw_str(&w, r->error);
+		for (j = 0; j < t->ncols; j++)
+			wl_csvw_str(&w, r->cells[j]);
+		wl_csvw_end(&w);
+	}
+	return wl_afile_commit(af, err);
+}
+
+static int cmp_cstr(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
+                         wl_err *err)
+{
+	char path[PATH_MAX];
+	prows p;
+	wl_report_runs t;
+	wl_report_sweep_opts so = {NULL, NULL, 0};
+	cJSON *bj = NULL;
+	DIR *d;
+	struct dirent *e;
+	char **names = NULL;
+	size_t nn = 0, i;
+	int written = 0;
+	wl_status s = WL_OK;
+	wl_batch_result dummy;
+
+	if (!res)
+		res = &dummy;
+	memset(res, 0, sizeof *res);
+	memset(&p, 0, sizeof p);
+	wl_report_runs_init(&t);
+	snprintf(path, sizeof path, "%s/clips", out_dir);
+	d = opendir(path);
+	if (!d)
+		return wl_err_set(err, WL_EIO, "'%s' has no clips folder: is it the -o folder of a batch?",
+		                  out_dir);
+	while ((e = readdir(d))) {
+		char **nn2;
+		if (e->d_name[0] == '.')
+			continue;
+		nn2 = realloc(names, (nn + 1) * sizeof *nn2);
+		if (!nn2 || !(nn2[nn] = strdup(e->d_name))) {
+			names = nn2 ? nn2 : names;
+			closedir(d);
+			s = wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
+			goto out;
+		}
+		names = nn2;
+		nn++;
+	}
+	closedir(d);
+	qsort(names, nn, sizeof *names, cmp_cstr);
+	for (i = 0; i < nn && !p.oom; i++)
+		read_clip(&p, out_dir, names[i]);
+	snprintf(path, sizeof path, "%s/batch.json", out_dir);
+	if (wl_json_load(path, &bj, NULL) == WL_OK) {
+		const cJSON *m, *miss = cJSON_GetObjectItemCaseSensitive(bj, "missing");
+		cJSON_ArrayForEach(m, miss)
+		{
+			if (!prow_new(&p, wl_json_string_or(m, "clip", "?"), "", "missing",
+			              wl_json_string_or(m, "error", "")))
+				break;
+		}
+		{
+			const char *x = wl_json_string_or(bj, "x_col", ""),
+			           *g = wl_json_string_or(bj, "group_col", "");
+			so.x_col = x[0] ? x : NULL;
+			so.group_col = g[0] ? g : NULL;
+			so.body_diameter_m = wl_json_number_or(bj, "body_diameter_m", 0);
+		}
+	}
+	/* what the caller gives wins; what it leaves out comes from batch.json */
+	if (sweep && sweep->x_col)
+		so.x_col = sweep->x_col;
+	if (sweep && sweep->group_col)
+		so.group_col = sweep->group_col;
+	if (sweep && sweep->body_diameter_m > 0)
+		so.body_diameter_m = sweep->body_diameter_m;
+	if (p.oom) {
+		s = wl_err_set(err, WL_ENOMEM, "out of memory reading the clip folders of '%s'", out_dir);
+		goto out;
+	}
+	if ((s = build_table(&p, &t, err)) || (s = write_summary_csv(&t, out_dir, err)))
+		goto out;
+	for (i = 0; i < t.nrows; i++) {
+		if (strcmp(t.rows[i].status, "ok") == 0)
+			res->runs++;
+		else if (strcmp(t.rows[i].status, "missing") == 0)
+			res->missing++;
+		else
+			res->failed++;
+	}
+	res->clips = nn;
+	/* a bad sweep column is an error, but the table is still worth a page */
+	s = wl_report_sweep_plots(&t, &so, out_dir, &written, err);
+	{
+		wl_err herr;
+		wl_status hs = wl_report_html(&t, out_dir, "wakeline batch report", written, s ? &herr : err);
+		if (!s && hs)
+			s = hs;
+	}
+out:
+	for (i = 0; i < nn; i++)
+		free(names[i]);
+	free(names);
+	cJSON_Delete(bj);
+	prows_free(&p);
+	wl_report_runs_release(&t);
+	return s;
+}

@@ -1,0 +1,519 @@
+/*
+ * test_report.c: the report module: tick positions (linear and symmetric
+ * log), the symmetric-log transform and the viridis map against
+ * matplotlib's, tick labels under a decimal-comma locale, SVG/PNG files from
+ * the cairo layer, the per-run plots from a clip folder, the sweep plots and
+ * report.html.
+ */
+#define _POSIX_C_SOURCE 200809L
+#include <dirent.h>
+#include <locale.h>
+#include <math.h>
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <cmocka.h>
+
+#include "core/afile.h"
+#include "report/report.h"
+
+#define PI 3.14159265358979323846
+
+static char tmpdir[256];
+
+static int setup_dir(void **state)
+{
+	(void)state;
+	snprintf(tmpdir, sizeof tmpdir, "/tmp/wl_test_report_XXXXXX");
+	return mkdtemp(tmpdir) ? 0 : -1;
+}
+
+static int teardown_dir(void **state)
+{
+	char cmd[400];
+	(void)state;
+	snprintf(cmd, sizeof cmd, "rm -rf '%s'", tmpdir);
+	return system(cmd) == 0 ? 0 : -1;
+}
+
+/* ---- ticks ---- */
+
+static int is_125_step(double step)
+{
+	double e = floor(log10(step) + 1e-12), f = step / pow(10, e);
+	/* the step is measured as a difference of two ticks: allow for the
+	 * rounding of ticks far from zero (up to 1e10 steps away here) */
+	return fabs(f - 1) < 1e-5 || fabs(f - 2) < 1e-5 || fabs(f - 5) < 1e-5 || fabs(f - 10) < 1e-5;
+}
+
+static void test_ticks_linear_examples(void **state)
+{
+	double t[WL_TICKS_MAX];
+	size_t n, i;
+	(void)state;
+	n = wl_ticks_linear(0, 1, 6, t, WL_TICKS_MAX);
+	assert_int_equal(n, 6);
+	for (i = 0; i < n; i++)
+		assert_true(fabs(t[i] - 0.2 * (double)i) < 1e-12);
+	n = wl_ticks_linear(-3.7, 12.2, 9, t, WL_TICKS_MAX);
+	assert_int_equal(n, 8); /* -2, 0, ..., 12 */
+	assert_true(t[0] == -2 && t[7] == 12);
+	/* zero is exactly zero, not 1e-17 (0.1 steps do not add up exactly) */
+	n = wl_ticks_linear(-0.3, 0.3, 7, t, WL_TICKS_MAX);
+	assert_int_equal(n, 7);
+	assert_true(t[3] == 0.0 && !signbit(t[3]));
+	n = wl_ticks_linear(5, 5, 5, t, WL_TICKS_MAX);
+	assert_int_equal(n, 1);
+	n = wl_ticks_linear(NAN, 1, 5, t, WL_TICKS_MAX);
+	assert_int_equal(n, 0);
+}
+
+/* Properties over many ranges (common practice for tick generators): within
+ * range, at most max_ticks, at least 2 when max >= 3, equal 1-2-5 steps. */
+static void test_ticks_linear_properties(void **state)
+{
+	unsigned s = 12345;
+	int k;
+	(void)state;
+	for (k = 0; k < 2000; k++) {
+		double t[WL_TICKS_MAX], lo, hi, step;
+		size_t n, i, maxt;
+		s = s * 1103515245u + 12345u;
+		lo = ((double)(s % 20001) - 10000) * pow(10, (double)(s % 9) - 4) / 1000;
+		s = s * 1103515245u + 12345u;
+		hi = lo + ((double)(s % 10000) + 1) * pow(10, (double)(s % 7) - 3) / 1000;
+		maxt = 3 + s % 8;
+		n = wl_ticks_linear(lo, hi, maxt, t, WL_TICKS_MAX);
+		assert_true(n >= 2);
+		step = t[1] - t[0];
+		assert_true(is_125_step(step));
+		if (n > maxt) {
+			/* allowed only when the next coarser 1-2-5 step would leave < 2 ticks */
+			double e = pow(10, floor(log10(step) + 1e-9)), f = step / e;
+			double coarser = (f < 1.5 ? 2 : f < 3 ? 5 : 10) * e;
+			assert_true(floor(hi / coarser + 1e-9) - ceil(lo / coarser - 1e-9) + 1 < 2);
+		}
+		for (i = 0; i < n; i++) {
+			assert_true(t[i] >= lo - 1e-9 * step && t[i] <= hi + 1e-9 * step);
+			if (i)
+				assert_true(fabs(t[i] - t[i - 1] - step) < 1e-6 * step);
+		}
+	}
+}
+
+/* Reference: matplotlib 3.6.3 (Debian python3-matplotlib),
+ * SymmetricalLogTransform(base=10, linthresh=0.5, linscale=1).transform of
+ * [0.1, 0.5, 1, 5, -50] = [0.11111111, 0.55555556, 0.70607055, 1.05555556, -1.55555556]. */
+static void test_symlog_transform(void **state)
+{
+	const double x[5] = {0.1, 0.5, 1, 5, -50};
+	const double ref[5] = {0.11111111, 0.55555556, 0.70607055, 1.05555556, -1.55555556};
+	int i;
+	(void)state;
+	for (i = 0; i < 5; i++) {
+		assert_true(fabs(wl_symlog(x[i], 0.5) - ref[i]) < 1e-7);
+		assert_true(fabs(wl_symlog_inv(wl_symlog(x[i], 0.5), 0.5) - x[i]) <
+		            1e-12 * fmax(1, fabs(x[i])));
+	}
+	assert_true(wl_symlog(0, 0.5) == 0);
+	/* monotone across the threshold */
+	for (i = -2000; i < 2000; i++)
+		assert_true(wl_symlog((i + 1) * 0.001, 0.5) > wl_symlog(i * 0.001, 0.5));
+}
+
+static void test_symlog_ticks(void **state)
+{
+	double t[WL_TICKS_MAX];
+	const double want[7] = {-100, -10, -1, 0, 1, 10, 100};
+	size_t n, i;
+	(void)state;
+	n = wl_ticks_symlog(-150, 150, 1, 9, t, WL_TICKS_MAX);
+	assert_int_equal(n, 7);
+	for (i = 0; i < n; i++)
+		assert_true(fabs(t[i] - want[i]) < 1e-9 * fmax(1, fabs(want[i])));
+	/* many decades are thinned to fit */
+	n = wl_ticks_symlog(-1e9, 1e9, 1, 9, t, WL_TICKS_MAX);
+	assert_true(n <= 9 && n >= 5);
+	for (i = 1; i < n; i++)
+		assert_true(t[i] > t[i - 1]);
+	/* inside the linear part: linear ticks */
+	n = wl_ticks_symlog(-0.4, 0.4, 1, 9, t, WL_TICKS_MAX);
+	assert_true(n >= 3);
+	assert_true(fabs(t[1] - t[0] - (t[2] - t[1])) < 1e-12);
+}
+
+/* Reference: matplotlib 3.6.3 cm.get_cmap('viridis') at t = 0, 0.37, 0.5,
+ * 0.8, 1.0 (the 256-entry table, nearest entry). */
+static void test_viridis(void **state)
+{
+	const double t[5] = {0, 0.37, 0.5, 0.8, 1.0};
+	const double ref[5][3] = {{0.267004, 0.004874, 0.329415},
+	                          {0.175841, 0.441290, 0.557685},
+	                          {0.127568, 0.566949, 0.550556},
+	                          {0.477504, 0.821444, 0.318195},
+	                          {0.993248, 0.906157, 0.143936}};
+	double rgb[3];
+	int i, k;
+	(void)state;
+	for (i = 0; i < 5; i++) {
+		wl_cmap_viridis(t[i], rgb);
+		for (k = 0; k < 3; k++)
+			assert_true(fabs(rgb[k] - ref[i][k]) < 0.01);
+	}
+	wl_cmap_viridis(-3, rgb);
+	assert_true(fabs(rgb[0] - 0.267004) < 1e-6);
+	wl_cmap_viridis(NAN, rgb);
+	assert_true(rgb[0] == rgb[1] && rgb[1] == rgb[2]);
+}
+
+static void test_tick_labels_locale(void **state)
+{
+	char b[32];
+	int have = setlocale(LC_NUMERIC, "de_DE.UTF-8") != NULL;
+	(void)state;
+	if (!have)
+		print_message("de_DE.UTF-8 not installed: the label test runs in the C locale only\n");
+	assert_string_equal(wl_tick_label(b, 0.1 + 0.2), "0.3");
+	assert_string_equal(wl_tick_label(b, -0.0), "0");
+	assert_string_equal(wl_tick_label(b, 12.5), "12.5");
+	assert_string_equal(wl_tick_label(b, -0.002), "-0.002");
+	assert_string_equal(wl_tick_label(b, 250), "250");
+	assert_string_equal(wl_tick_label(b, 10), "10");
+	assert_string_equal(wl_tick_label(b, 400), "400");
+	assert_string_equal(wl_tick_label(b, 1e-7), "1e-07");
+	setlocale(LC_NUMERIC, "C");
+}
+
+/* ---- files ---- */
+
+static long file_size(const char *p)
+{
+	struct stat st;
+	return stat(p, &st) == 0 ? (long)st.st_size : -1;
+}
+
+static void check_png(const char *path, unsigned w, unsigned h)
+{
+	unsigned char b[24];
+	FILE *fp = fopen(path, "rb");
+	static const unsigned char sig[8] = {0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'};
+	assert_non_null(fp);
+	assert_int_equal(fread(b, 1, 24, fp), 24);
+	fclose(fp);
+	/* PNG signature and the IHDR chunk first (ISO/IEC 15948, 5.2 and 11.2.2) */
+	assert_memory_equal(b, sig, 8);
+	assert_memory_equal(b + 12, "IHDR", 4);
+	assert_int_equal(((unsigned)b[16] << 24 | b[17] << 16 | b[18] << 8 | b[19]), w);
+	assert_int_equal(((unsigned)b[20] << 24 | b[21] << 16 | b[22] << 8 | b[23]), h);
+}
+
+static void check_svg(const char *path)
+{
+	char *text = NULL;
+	size_t len = 0;
+	assert_int_equal(wl_read_file(path, 1 << 26, &text, &len, NULL), WL_OK);
+	assert_true(strncmp(text, "<?xml", 5) == 0);
+	assert_non_null(strstr(text, "<svg"));
+	assert_non_null(strstr(text, "</svg>"));
+	free(text);
+}
+
+static int count_tmp(const char *dir)
+{
+	DIR *d = opendir(dir);
+	struct dirent *e;
+	int n = 0;
+	if (!d)
+		return -1;
+	while ((e = readdir(d)))
+		n += strstr(e->d_name, ".tmp-") != NULL;
+	closedir(d);
+	return n;
+}
+
+static void test_plot_files(void **state)
+{
+	double x[50], y[50], lo[50], hi[50], c[50];
+	wl_style st = {{0.1, 0.3, 0.8}, 1, 1.5, 0, WL_MARK_NONE, 0, 0};
+	wl_style band = {{0.9, 0.4, 0.1}, 0.2, 0, 0, WL_MARK_NONE, 0, 0};
+	wl_plot *p = wl_plot_create();
+	char path[400];
+	wl_err err;
+	int i;
+	(void)state;
+	assert_non_null(p);
+	for (i = 0; i < 50; i++) {
+		x[i] = i * 0.1;
+		y[i] = sin(x[i]);
+		lo[i] = y[i] - 0.1;
+		hi[i] = y[i] + 0.1;
+		c[i] = x[i];
+	}
+	wl_plot_title(p, "test plot");
+	wl_plot_xlabel(p, "t (s)");
+	wl_plot_ylabel(p, "y (m)");
+	assert_int_equal(wl_plot_add_band(p, 1, 1, 2, &band, "band", &err), WL_OK);
+	assert_int_equal(wl_plot_add_line(p, x, y, 50, &st, "line", &err), WL_OK);
+	assert_int_equal(wl_plot_add_errorbars(p, x, y, lo, hi, 10, &st, "errors", &err), WL_OK);
+	assert_int_equal(wl_plot_add_cline(p, x, y, c, 50, 0, 5, 2, "time (s)", &err), WL_OK);
+	snprintf(path, sizeof path, "%s/a.svg", tmpdir);
+	assert_int_equal(wl_plot_save(&p, 1, 640, 480, path, &err), WL_OK);
+	check_svg(path);
+	snprintf(path, sizeof path, "%s/a.png", tmpdir);
+	assert_int_equal(wl_plot_save(&p, 1, 640, 480, path, &err), WL_OK);
+	check_png(path, 640, 480);
+	/* unknown extension and an unwritable folder fail cleanly, no temp left */
+	snprintf(path, sizeof path, "%s/a.gif", tmpdir);
+	assert_int_equal(wl_plot_save(&p, 1, 640, 480, path, &err), WL_EINVAL);
+	assert_non_null(strstr(err.msg, "a.gif"));
+	assert_int_equal(wl_plot_save(&p, 1, 640, 480, "/nonexistent-dir/a.svg", &err), WL_EIO);
+	assert_int_equal(count_tmp(tmpdir), 0);
+	wl_plot_destroy(p);
+	wl_plot_destroy(NULL);
+}
+
+static void test_layout_equal_aspect_and_symlog(void **state)
+{
+	double x[2] = {0, 2}, y[2] = {0, 1}, xl[2], yl[2], xt[WL_TICKS_MAX], yt[WL_TICKS_MAX];
+	size_t nx, ny;
+	wl_plot *p = wl_plot_create();
+	(void)state;
+	assert_int_equal(wl_plot_add_line(p, x, y, 2, NULL, NULL, NULL), WL_OK);
+	wl_plot_equal_aspect(p, 1);
+	wl_plot_layout(p, 400 + 64 + 16, 400 + 26 + 42, xl, yl, xt, &nx, yt, &ny);
+	/* square plot area: both spans equal, and the data inside */
+	assert_true(fabs((xl[1] - xl[0]) - (yl[1] - yl[0])) < 1e-9);
+	assert_true(xl[0] <= 0 && xl[1] >= 2 && yl[0] <= 0 && yl[1] >= 1);
+	wl_plot_destroy(p);
+
+	p = wl_plot_create();
+	{
+		double ry[3] = {-40, 0.05, 300}, rx[3] = {0, 1, 2};
+		size_t i;
+		assert_int_equal(wl_plot_add_scatter(p, rx, ry, 3, NULL, NULL, NULL), WL_OK);
+		wl_plot_yscale(p, WL_SCALE_SYMLOG, 0.1);
+		wl_plot_layout(p, 640, 440, xl, yl, xt, &nx, yt, &ny);
+		assert_true(yl[0] < -40 && yl[1] > 300);
+		for (i = 0; i < ny; i++)
+			assert_true(yt[i] == 0 ||
+			            fabs(log10(fabs(yt[i]) / 0.1) - round(log10(fabs(yt[i]) / 0.1))) < 1e-9);
+	}
+	wl_plot_destroy(p);
+}
+
+/* ---- per-run plots ---- */
+
+static void write_text(const char *path, const char *text)
+{
+	FILE *fp = fopen(path, "w");
+	assert_non_null(fp);
+	fputs(text, fp);
+	fclose(fp);
+}
+
+/* An invented run: robot 7 circles counter-clockwise on r = 0.4 m about
+ * (1, 0.5) for 20 s at 30 fps, the first 2 s left out as "start". */
+static void make_clip_folder(const char *dir, int nrows)
+{
+	char path[400];
+	FILE *fp;
+	int i;
+	snprintf(path, sizeof path, "%s/clean.csv", dir);
+	fp = fopen(path, "w");
+	assert_non_null(fp);
+	fprintf(fp, "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,status,"
+	            "cut\n");
+	for (i = 0; i < nrows; i++) {
+		double t = i / 30.0, a = 0.3 * t, h = atan2(cos(a), -sin(a));
+		fprintf(fp, "%.4f,%d,7,%.5f,%.5f,%.5f,0.12,0.3,0,0,%d,measured,%s\n", t, i, 1 + 0.4 * cos(a),
+		        0.5 + 0.4 * sin(a), h, t < 2 ? -1 : 0, t < 2 ? "start" : "");
+	}
+	fclose(fp);
+	snprintf(path, sizeof path, "%s/summary.json", dir);
+	write_text(path, "{\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
+	                 "\"curvature_per_m\":2.5,\"curvature_ci95_per_m\":[2.4,2.6],\"straight\":false,"
+	                 "\"centre_x_m\":1,\"centre_y_m\":0.5}]}\n");
+}
+
+static void test_clip_plots(void **state)
+{
+	double outline[4][2] = {{0, 0}, {2, 0}, {2, 1.2}, {0, 1.2}}, markers[2][2] = {{0.1, 0.1}, {1.9, 1.1}};
+	const char *ids[2] = {"A0", "A1"};
+	wl_report_scene sc = {4, (const double(*)[2])outline, 2, (const double(*)[2])markers, ids, 0.1};
+	char path[400];
+	wl_err err;
+	(void)state;
+	make_clip_folder(tmpdir, 600);
+	assert_int_equal(wl_report_clip_plots(tmpdir, &sc, &err), WL_OK);
+	snprintf(path, sizeof path, "%s/path_m.svg", tmpdir);
+	check_svg(path);
+	snprintf(path, sizeof path, "%s/heading.svg", tmpdir);
+	check_svg(path);
+	snprintf(path, sizeof path, "%s/path_m.png", tmpdir);
+	check_png(path, 640, 520);
+	snprintf(path, sizeof path, "%s/heading.png", tmpdir);
+	check_png(path, 640, 560);
+	/* a long clip is thinned: the SVG stays small whatever the row count */
+	make_clip_folder(tmpdir, 90000);
+	assert_int_equal(wl_report_clip_plots(tmpdir, NULL, &err), WL_OK);
+	snprintf(path, sizeof path, "%s/path_m.svg", tmpdir);
+	assert_true(file_size(path) > 1000 && file_size(path) < 4000000);
+	/* errors name the file */
+	snprintf(path, sizeof path, "%s/clean.csv", tmpdir);
+	write_text(path, "t_s,frame,id\n0,0,1\n");
+	assert_int_equal(wl_report_clip_plots(tmpdir, NULL, &err), WL_EFORMAT);
+	assert_non_null(strstr(err.msg, "clean.csv:1"));
+	assert_non_null(strstr(err.msg, "x_m"));
+}
+
+static void test_scene_load(void **state)
+{
+	wl_report_scene_buf sb;
+	char path[400];
+	wl_err err;
+	(void)state;
+	snprintf(path, sizeof path, "%s/cal.json", tmpdir);
+	write_text(
+	        path,
+	        "{\"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
+	        " \"points\": [{\"id\": \"M1\", \"x_m\": 0.1, \"y_m\": 0.2}, {\"id\": \"M2\", \"x_m\": 2.3,"
+	        " \"y_m\": 1.3}, {\"id\": \"bad\"}]}\n");
+	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
+	assert_int_equal(sb.scene.n_outline, 4);
+	assert_true(sb.scene.outline_m[2][0] == 2.4 && sb.scene.outline_m[2][1] == 1.4);
+	assert_int_equal(sb.scene.n_markers, 2);
+	assert_string_equal(sb.scene.marker_ids[1], "M2");
+	wl_report_scene_release(&sb);
+	snprintf(path, sizeof path, "%s/nope.json", tmpdir);
+	assert_int_not_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
+	assert_int_equal(sb.scene.n_outline, 0);
+	assert_non_null(strstr(err.msg, "nope.json"));
+	wl_report_scene_release(&sb);
+}
+
+/* ---- sweep and html ---- */
+
+static char *xs(const char *s)
+{
+	char *d = strdup(s);
+	assert_non_null(d);
+	return d;
+}
+
+static void make_runs(wl_report_runs *t, size_t n)
+{
+	const char *cols[] = {"gain",
+	                      "shape",
+	                      "headline",
+	                      "radius_m",
+	                      "curvature_per_m",
+	                      "curvature_ci95_per_m_lo",
+	                      "curvature_ci95_per_m_hi",
+	                      "straight",
+	                      "radius_body_diameters"};
+	size_t i, j;
+	wl_report_runs_init(t);
+	t->ncols = 9;
+	t->nparams = 2;
+	t->cols = calloc(9, sizeof *t->cols);
+	for (j = 0; j < 9; j++)
+		t->cols[j] = xs(cols[j]);
+	t->rows = calloc(n + 1, sizeof *t->rows);
+	for (i = 0; i <= n; i++) {
+		wl_report_row *r = &t->rows[t->nrows++];
+		char b[9][64];
+		double k = -3 + (double)i;
+		snprintf(b[0], 64, "%g", 0.1 * (double)i);
+		snprintf(b[1], 64, "%s", i % 2 ? "fin" : "<disc>");
+		snprintf(b[2], 64, "true");
+		snprintf(b[3], 64, "%g", k != 0 ? 1 / k : 0);
+		snprintf(b[4], 64, "%g", k);
+		snprintf(b[5], 64, "%g", k - 0.3);
+		snprintf(b[6], 64, "%g", k + 0.3);
+		snprintf(b[7], 64, "%s", k == 0 ? "true" : "false");
+		snprintf(b[8], 64, "%g", k != 0 ? 1 / k / 0.1 : 0);
+		if (k == 0)
+			b[3][0] = b[8][0] = '\0';
+		r->clip = xs(i == n ? "broken.mp4" : "c.mp4");
+		r->folder = xs("clips/c_mp4");
+		r->status = xs(i == n ? "failed" : "ok");
+		r->error = xs(i == n ? "broken.mp4: cannot decode <frame 3>" : "");
+		r->cells = calloc(9, sizeof *r->cells);
+		for (j = 0; j < 9; j++)
+			r->cells[j] = xs(b[j]);
+	}
+}
+
+static int count_str(const char *hay, const char *needle)
+{
+	int n = 0;
+	for (; (hay = strstr(hay, needle)); hay++)
+		n++;
+	return n;
+}
+
+static void test_sweep_and_html(void **state)
+{
+	wl_report_runs t;
+	wl_report_sweep_opts o = {"gain", "shape", 0};
+	char path[400], *text = NULL;
+	size_t len;
+	int written = 0;
+	wl_err err;
+	(void)state;
+	make_runs(&t, 7);
+	assert_int_equal(wl_report_runs_col(&t, "gain"), 0);
+	assert_int_equal(wl_report_runs_col(&t, "nope"), -1);
+	assert_int_equal(wl_report_sweep_plots(&t, &o, tmpdir, &written, &err), WL_OK);
+	assert_int_equal(written, 1);
+	snprintf(path, sizeof path, "%s/sweep_curvature.svg", tmpdir);
+	check_svg(path);
+	snprintf(path, sizeof path, "%s/sweep_radius.png", tmpdir);
+	check_png(path, 640, 440);
+	/* categorical x */
+	o.x_col = "shape";
+	o.group_col = NULL;
+	assert_int_equal(wl_report_sweep_plots(&t, &o, tmpdir, &written, &err), WL_OK);
+	o.x_col = "nothere";
+	assert_int_equal(wl_report_sweep_plots(&t, &o, tmpdir, &written, &err), WL_EINVAL);
+	assert_non_null(strstr(err.msg, "nothere"));
+	assert_int_equal(wl_report_html(&t, tmpdir, "sweep <test>", 1, &err), WL_OK);
+	snprintf(path, sizeof path, "%s/report.html", tmpdir);
+	assert_int_equal(wl_read_file(path, 1 << 24, &text, &len, NULL), WL_OK);
+	assert_int_equal(count_str(text, "<tr class=\"run\">"), 7);
+	assert_int_equal(count_str(text, "<tr class=\"failure\">"), 1);
+	assert_non_null(strstr(text, "&lt;disc&gt;"));
+	assert_null(strstr(text, "<disc>"));
+	assert_non_null(strstr(text, "cannot decode &lt;frame 3&gt;"));
+	assert_null(strstr(text, "http://"));
+	assert_null(strstr(text, "https://"));
+	free(text);
+	wl_report_runs_release(&t);
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+	        cmocka_unit_test(test_ticks_linear_examples),
+	        cmocka_unit_test(test_ticks_linear_properties),
+	        cmocka_unit_test(test_symlog_transform),
+	        cmocka_unit_test(test_symlog_ticks),
+	        cmocka_unit_test(test_viridis),
+	        cmocka_unit_test(test_tick_labels_locale),
+	        cmocka_unit_test(test_plot_files),
+	        cmocka_unit_test(test_layout_equal_aspect_and_symlog),
+	        cmocka_unit_test(test_clip_plots),
+	        cmocka_unit_test(test_scene_load),
+	        cmocka_unit_test(test_sweep_and_html),
+	};
+	int rc = cmocka_run_group_tests(tests, setup_dir, teardown_dir);
+	wl_report_release_caches();
+	return rc;
+}
