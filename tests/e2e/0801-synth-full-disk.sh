@@ -2,8 +2,9 @@
 # Nothing lost on a full disk.  A 64 kB tmpfs is mounted (root only; the test
 # is skipped with a message where mount is not permitted) and filled to leave
 # 0, 4, 12 or 40 kB free; then synth (clip + truth + scene, 31 kB), measure
-# (SUMMARY.json + --csv table), calibrate (CAL.json, 4.5 kB) and probe
-# --frames write into it.  Each run must either succeed with every output
+# (SUMMARY.json + --csv table), calibrate (CAL.json, 4.5 kB), probe
+# --frames, track (RAW.csv, 22 kB) and clean (CLEAN.csv + sidecar) write
+# into it.  Each run must either succeed with every output
 # complete (it parses) or exit 1 with one message naming a file it could not
 # write and "No space left on device", leaving nothing behind (no output, no
 # temporary file).  Standard output on /dev/full is an error too (exit 1).
@@ -28,6 +29,9 @@ with open("CLEAN.csv", "w") as f:
             t, k, 1 + 0.5 * math.cos(th), 1 + 0.5 * math.sin(th),
             math.atan2(math.cos(th), -math.sin(th)), -0.1 * math.sin(th), 0.1 * math.cos(th)))
 EOF
+
+$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" in.scene.json cal.json 0.25
+"$WAKELINE" track in.mp4 --cal cal.json -o RAW.csv -q
 
 if ! mount -t tmpfs -o size=64k tmpfs disk 2> mount.err; then
 	echo "SKIP: cannot mount a tmpfs here ($(cat mount.err)); run as root to test full disks"
@@ -80,6 +84,8 @@ for free in 0 4 12 40; do
 	check $free measure S.json S.csv -- "$WAKELINE" measure CLEAN.csv -o disk/S.json --csv disk/S.csv -q
 	check $free calibrate CAL.json -- "$WAKELINE" calibrate blank.png --points pts.csv -o disk/CAL.json
 	check $free probe f.csv -- "$WAKELINE" probe -q --frames disk/f.csv in.mp4
+	check $free track RAW.csv -- "$WAKELINE" track in.mp4 --cal cal.json -o disk/RAW.csv -q
+	check $free clean C.csv C.json -- "$WAKELINE" clean RAW.csv -o disk/C.csv
 done
 echo "$nfail runs refused cleanly, $nok completed"
 # with 0 kB free every command must have failed; with 40 kB everything fits
