@@ -553,7 +553,14 @@ int cmd_measure(int argc, char **argv)
 	qsort(c.runs, c.nruns, sizeof *c.runs, run_cmp);
 	mark_headlines(&c);
 	/* the table first, so that SUMMARY.json exists only when both were written */
-	if ((csv && write_csv(&c, csv, commanded, &err) != WL_OK) || write_json(&c, out, commanded, &err) != WL_OK) {
+	if (csv && write_csv(&c, csv, commanded, &err) != WL_OK) {
+		rc = cli_fail("measure", &err);
+		goto done;
+	}
+	if (write_json(&c, out, commanded, &err) != WL_OK) {
+		/* a failed run leaves neither output (the table alone would pass for a result) */
+		if (csv)
+			(void)remove(csv);
 		rc = cli_fail("measure", &err);
 		goto done;
 	}

@@ -127,7 +127,8 @@ wl_status wl_write_file_atomic(const char *path, const void *data, size_t len, w
 	if (len && fwrite(data, 1, len, wl_afile_fp(af)) != len) {
 		int e = errno;
 		wl_afile_abort(af);
-		return wl_err_set(err, WL_EIO, "cannot write '%s': %s", path, strerror(e));
+		return wl_err_set(err, WL_EIO, "cannot write '%s': %s%s", path, strerror(e),
+				  e == ENOSPC ? ": free some space and run again" : "");
 	}
 	return wl_afile_commit(af, err);
 }

@@ -237,6 +237,29 @@ static void fill_info(wl_decoder *dec, const char *path)
 	dec->guess_dt_s = (fr.num > 0 && fr.den > 0) ? 1.0 / av_q2d(fr) : 1.0 / 25.0;
 }
 
+/* Frame sizes past WL_DECODE_MAX_*: refused before anything is allocated
+ * for them (a damaged or hostile header could ask for gigabytes). */
+static int size_too_large(int w, int h)
+{
+	return w > WL_DECODE_MAX_SIDE_PX || h > WL_DECODE_MAX_SIDE_PX ||
+	       (long long)w * (long long)h > WL_DECODE_MAX_PIXELS;
+}
+
+static wl_status check_sizes(const AVFormatContext *fmt, const char *path, wl_err *err)
+{
+	for (unsigned i = 0; i < fmt->nb_streams; i++) {
+		const AVCodecParameters *par = fmt->streams[i]->codecpar;
+		if (par->codec_type == AVMEDIA_TYPE_VIDEO && size_too_large(par->width, par->height))
+			return wl_err_set(err, WL_EFORMAT,
+					  "%s: stream %u announces frames of %dx%d pixels, more than the %dx%d "
+					  "and %lld Mpixel wakeline accepts: the header is damaged, or scale "
+					  "the clip down (e.g. ffmpeg -vf scale=1920:-2)",
+					  path, i, par->width, par->height, WL_DECODE_MAX_SIDE_PX,
+					  WL_DECODE_MAX_SIDE_PX, WL_DECODE_MAX_PIXELS / 1000000);
+	}
+	return WL_OK;
+}
+
 static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
 {
 	struct stat sb;
@@ -253,11 +276,27 @@ static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
 	if (ret < 0)
 		return av_fail(err, path, "cannot read as video", ret,
 			       "check that it is a video file (MP4, MOV, MKV...) and not truncated");
+	/* checked before and after reading the first packets: some demuxers
+	 * (raw video, Y4M) read whole frames of the announced size */
+	if (check_sizes(dec->fmt, path, err) != WL_OK)
+		return WL_EFORMAT;
 	ret = avformat_find_stream_info(dec->fmt, NULL);
 	if (ret < 0)
 		return av_fail(err, path, "cannot read the stream headers", ret,
 			       "the file may be damaged; try re-exporting it");
-	return WL_OK;
+	return check_sizes(dec->fmt, path, err);
+}
+
+/* No stream, or a stream without a codec id: the demuxer read only part of
+ * the header (an MP4 cut inside its moov box), not a codec we lack. */
+static int stream_unknown(const AVFormatContext *fmt)
+{
+	if (fmt->nb_streams == 0)
+		return 1;
+	for (unsigned i = 0; i < fmt->nb_streams; i++)
+		if (fmt->streams[i]->codecpar->codec_id == AV_CODEC_ID_NONE)
+			return 1;
+	return 0;
 }
 
 static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_err *err)
@@ -265,6 +304,11 @@ static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_e
 	const AVCodec *codec = NULL;
 	int ret = av_find_best_stream(dec->fmt, AVMEDIA_TYPE_VIDEO, -1, -1, &codec, 0);
 
+	if (ret < 0 && stream_unknown(dec->fmt))
+		return wl_err_set(err, WL_EFORMAT,
+				  "%s: no readable video stream: the file's index is cut short or damaged (or "
+				  "it is not a video): copy the clip again from the camera",
+				  path);
 	if (ret == AVERROR_STREAM_NOT_FOUND || (ret >= 0 && (dec->fmt->streams[ret]->disposition &
 							    AV_DISPOSITION_ATTACHED_PIC)))
 		return wl_err_set(err, WL_EFORMAT, "%s: has no video stream: give a video clip, not %s", path,
@@ -282,6 +326,7 @@ static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_e
 	if (ret < 0)
 		return av_fail(err, path, "cannot set up the decoder", ret, "the stream headers may be damaged");
 	dec->cc->pkt_timebase = dec->st->time_base;
+	dec->cc->max_pixels = WL_DECODE_MAX_PIXELS; /* FFmpeg refuses larger frames mid-stream */
 	dec->cc->thread_type = FF_THREAD_FRAME;
 	dec->cc->thread_count = threads > 0 ? threads : 0;
 	ret = avcodec_open2(dec->cc, codec, NULL);
@@ -594,6 +639,11 @@ wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	av_frame_unref(dec->frame);
 	while (!dec->finished) {
 		int ret = avcodec_receive_frame(dec->cc, dec->frame);
+		if (ret == 0 && size_too_large(dec->frame->width, dec->frame->height)) {
+			add_damage(dec, next_index(dec), NAN, "frame larger than the decoder's bound, skipped", 0);
+			av_frame_unref(dec->frame);
+			continue;
+		}
 		if (ret == 0) {
 			dec->errors_in_a_row = 0;
 			return emit(dec, frame, err);

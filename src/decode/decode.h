@@ -26,6 +26,14 @@
 
 typedef struct wl_decoder wl_decoder;
 
+/* Largest frame the decoder accepts: each side at most WL_DECODE_MAX_SIDE_PX
+ * and at most WL_DECODE_MAX_PIXELS in all (8K UHD is 33 Mpixel).  A clip
+ * whose header announces more is refused at open (WL_EFORMAT, naming the
+ * file and the size) before any frame is allocated; a frame past the bound
+ * in mid-stream is reported as damage and not handed out. */
+#define WL_DECODE_MAX_SIDE_PX 16384
+#define WL_DECODE_MAX_PIXELS (100LL * 1000 * 1000)
+
 enum {
 	WL_DECODE_RGB = 1 << 0, /* also hand out packed RGB24 */
 };
@@ -66,8 +74,9 @@ typedef struct {
 	char what[96];
 } wl_damage;
 
-/* Opens a clip.  threads <= 0 uses every core.  Errors (WL_EIO, WL_EDECODE)
- * name the file: cannot open, not a video, no video stream. */
+/* Opens a clip.  threads <= 0 uses every core.  Errors (WL_EIO, WL_EDECODE,
+ * WL_EFORMAT) name the file: cannot open, not a video, no video stream, a
+ * frame size past the bounds above. */
 wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_decoder **out, wl_err *err);
 
 const wl_video_info *wl_decoder_info(const wl_decoder *dec);

@@ -12,6 +12,7 @@
  */
 #include "decode/vwriter.h"
 
+#include <errno.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -45,7 +46,8 @@ static wl_status av_fail(wl_err *err, int rc, const char *path, const char *what
 {
 	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
 	av_strerror(rc, buf, sizeof buf);
-	return wl_err_set(err, WL_EDECODE, "cannot write video '%s': %s: %s", path, what, buf);
+	return wl_err_set(err, rc == AVERROR(ENOSPC) ? WL_EIO : WL_EDECODE, "cannot write video '%s': %s: %s%s", path,
+			  what, buf, rc == AVERROR(ENOSPC) ? ": free some space and run again" : "");
 }
 
 static void vw_free(wl_vwriter *w)

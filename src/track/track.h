@@ -125,6 +125,10 @@ typedef struct {
 typedef struct {
 	int64_t frames, full_scans, window_scans;
 	int64_t rejected_edge, rejected_quality;
+	/* detections of new ids left out because WL_TRACK_MAX_ROBOTS robots
+	 * were already tracked, and the first such id (-1: none) */
+	int64_t over_limit;
+	int first_over_limit_id;
 } wl_track_stats;
 
 typedef struct wl_tracker wl_tracker;

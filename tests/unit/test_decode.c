@@ -294,13 +294,55 @@ static void test_decoder_errors(void **state)
 	assert_non_null(strstr(err.msg, "text.txt"));
 }
 
+/* A Y4M stream (plain-text header) of w x h with one 4:2:0 frame of
+ * (w*h*3/2 bytes, gray); the frame data are only written when small. */
+static void write_y4m(const char *path, int w, int h)
+{
+	FILE *fp = fopen(path, "wb");
+	assert_non_null(fp);
+	fprintf(fp, "YUV4MPEG2 W%d H%d F25:1 Ip A1:1 C420jpeg\nFRAME\n", w, h);
+	if ((long long)w * h <= 4096)
+		for (long long i = 0; i < (long long)w * h * 3 / 2; i++)
+			fputc(128, fp);
+	fclose(fp);
+}
+
+/* The frame-size bound (decode.h): refused at open with the size named;
+ * a small clip of the same kind opens and decodes. */
+static void test_decoder_size_bound(void **state)
+{
+	static const int bad[][2] = { { 20000, 100 }, { 100, 20000 }, { 16000, 16000 } };
+	wl_decoder *dec = NULL;
+	const wl_frame *f = NULL;
+	wl_err err = { 0 };
+	char path[512], want[64];
+	(void)state;
+	for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+		tmp_path(path, sizeof path, "big.y4m");
+		write_y4m(path, bad[i][0], bad[i][1]);
+		assert_int_equal(wl_decoder_open(path, 0, 1, &dec, &err), WL_EFORMAT);
+		assert_null(dec);
+		snprintf(want, sizeof want, "%dx%d pixels", bad[i][0], bad[i][1]);
+		assert_non_null(strstr(err.msg, want));
+		assert_non_null(strstr(err.msg, "big.y4m"));
+	}
+	tmp_path(path, sizeof path, "small.y4m");
+	write_y4m(path, 64, 48);
+	assert_int_equal(wl_decoder_open(path, 0, 1, &dec, &err), WL_OK);
+	assert_int_equal(wl_decoder_next(dec, &f, &err), WL_OK);
+	assert_non_null(f);
+	assert_int_equal(f->width_px, 64);
+	assert_int_equal(f->height_px, 48);
+	wl_decoder_destroy(dec);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_from_degrees),   cmocka_unit_test(test_corners),
 		cmocka_unit_test(test_round_trip),     cmocka_unit_test(test_image_orient),
 		cmocka_unit_test(test_png_round_trip), cmocka_unit_test(test_decoder_clip),
-		cmocka_unit_test(test_decoder_errors),
+		cmocka_unit_test(test_decoder_errors), cmocka_unit_test(test_decoder_size_bound),
 	};
 	char cmd[300];
 	int rc;

@@ -1,0 +1,79 @@
+#!/usr/bin/env bash
+# Nothing lost when a batch is killed.  Three copies of a small invented clip
+# (tests/data/tiny-scene.json) are processed by `wakeline batch`; 20 trials
+# each start the batch on the same OUTDIR and SIGKILL its process group at a
+# random point (bash RANDOM seeded with 1, uniform over the length of an
+# uninterrupted run).  After every kill each file in OUTDIR that is not a
+# temporary file parses (JSON, CSV with equal-length rows, PNG/SVG/HTML
+# headers).  A last run must finish with exit 0 and every clip done, and the
+# summary must equal an uninterrupted run's (same clips, same curvature).
+set -euo pipefail
+: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
+PY=/usr/bin/python3
+rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
+fail() { echo "FAIL: $*" >&2; exit 1; }
+"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o clip.mp4 -q
+$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" clip.scene.json cal.json 0.25
+mkdir -p clips
+for n in a b c; do cp clip.mp4 clips/$n.mp4; done
+
+t0=$(date +%s%N)
+"$WAKELINE" batch clips --cal cal.json -o ref -j 1 -q > ref.out 2> ref.err || fail "reference batch: exit $?: $(cat ref.err)"
+run_ms=$((($(date +%s%N) - t0) / 1000000))
+echo "uninterrupted run: $run_ms ms"
+
+# parses_all DIR: every non-temporary file in DIR parses
+parses_all() {
+	$PY - "$1" <<'PYEOF'
+import csv, json, os, sys
+bad = []
+for root, dirs, files in os.walk(sys.argv[1]):
+    for f in files:
+        p = os.path.join(root, f)
+        if f.startswith(".") and (".tmp" in f or f.startswith(".lock")):  # temporaries, the lock
+            continue
+        try:
+            if f.endswith(".json"):
+                json.load(open(p))
+            elif f.endswith(".csv"):
+                rows = list(csv.reader(open(p)))
+                assert rows and all(len(r) == len(rows[0]) for r in rows), "ragged"
+            elif f.endswith(".png"):
+                assert open(p, "rb").read(8) == b"\x89PNG\r\n\x1a\n", "not PNG"
+            elif f.endswith(".svg"):
+                import xml.dom.minidom; xml.dom.minidom.parse(p)
+            elif f.endswith(".html"):
+                assert open(p).read().rstrip().endswith("</html>"), "cut"
+            elif os.path.getsize(p) == 0:
+                raise AssertionError("empty")
+        except Exception as e:
+            bad.append("%s: %s" % (p, e))
+if bad:
+    print("\n".join(bad)); sys.exit(1)
+PYEOF
+}
+
+RANDOM=1
+for trial in $(seq 1 20); do
+	delay_ms=$((RANDOM % (run_ms + 1)))
+	setsid "$WAKELINE" batch clips --cal cal.json -o out -j 2 -q > /dev/null 2>&1 &
+	pid=$!
+	sleep "$(printf '%d.%03d' $((delay_ms / 1000)) $((delay_ms % 1000)))"
+	kill -KILL -- -$pid 2> /dev/null || true
+	wait $pid 2> /dev/null || true
+	parses_all out || fail "trial $trial (killed after $delay_ms ms): a file in OUTDIR does not parse"
+done
+echo "20 kills: every file in OUTDIR parsed after each"
+"$WAKELINE" batch clips --cal cal.json -o out -j 2 -q > last.out 2> last.err || fail "last run: exit $?: $(cat last.err)"
+parses_all out || fail "after the last run"
+$PY - <<'PYEOF' || fail "summary differs from the uninterrupted run"
+import csv
+def rows(p):
+    return sorted((r["clip"], r.get("status", ""), r.get("curvature_per_m", "")) for r in csv.DictReader(open(p)))
+a, b = rows("ref/summary.csv"), rows("out/summary.csv")
+print(len(a), "rows;", a[:1])
+assert a == b, (a, b)
+PYEOF
+left=$(find out -name '.*tmp*' | wc -l)
+echo "temporary files left by the kills after the last run: $left"
+echo "0804-batch-kill: ok"
