@@ -33,7 +33,13 @@ for root, dirs, files in os.walk(sys.argv[1]):
         if f.startswith(".") and (".tmp" in f or f.startswith(".lock")):  # temporaries, the lock
             continue
         try:
-            if f.endswith(".json"):
+            if f.startswith("journal") and f.endswith(".log"):
+                # append-only, one write() per line: empty (killed before the
+                # first event) or whole lines of five tab-separated fields
+                data = open(p).read()
+                assert data == "" or data.endswith("\n"), "last line cut"
+                assert all(l.count("\t") == 4 for l in data.splitlines()), "a line is not whole"
+            elif f.endswith(".json"):
                 json.load(open(p))
             elif f.endswith(".csv"):
                 rows = list(csv.reader(open(p)))
