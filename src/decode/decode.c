@@ -180,6 +180,24 @@ static int64_t next_index(const wl_decoder *dec)
 	return dec->after_seek ? -1 : dec->nframes;
 }
 
+/* The frame a packet holds, estimated from its time and the mean interval so
+ * far (packets arrive in decoding order, ahead of the frames that come out);
+ * the next frame out when its time is unknown. */
+static int64_t packet_index(const wl_decoder *dec, int64_t pts)
+{
+	double t = ts_to_t(dec, pts), dt;
+	int64_t k;
+	if (dec->after_seek)
+		return -1;
+	if (!isfinite(t) || !dec->have_last)
+		return dec->nframes;
+	dt = dec->nframes > 1 ? dec->last_t_s / (double)(dec->nframes - 1) : dec->guess_dt_s;
+	if (!(dt > 0))
+		return dec->nframes;
+	k = dec->nframes - 1 + (int64_t)llround((t - dec->last_t_s) / dt);
+	return k < 0 ? 0 : k;
+}
+
 /* ---- opening ------------------------------------------------------------ */
 
 static void fill_info(wl_decoder *dec, const char *path)
@@ -516,7 +534,7 @@ static void feed(wl_decoder *dec)
 			return;
 		}
 		if (dec->pkt->flags & AV_PKT_FLAG_CORRUPT)
-			add_damage(dec, next_index(dec), ts_to_t(dec, dec->pkt->pts), "packet is corrupt or cut short",
+			add_damage(dec, packet_index(dec, dec->pkt->pts), ts_to_t(dec, dec->pkt->pts), "packet is corrupt or cut short",
 				   0);
 	}
 	ret = avcodec_send_packet(dec->cc, dec->pkt);
@@ -525,7 +543,7 @@ static void feed(wl_decoder *dec)
 		return;
 	}
 	if (ret < 0)
-		add_damage(dec, next_index(dec), ts_to_t(dec, dec->pkt->pts), "packet rejected by the decoder", ret);
+		add_damage(dec, packet_index(dec, dec->pkt->pts), ts_to_t(dec, dec->pkt->pts), "packet rejected by the decoder", ret);
 	dec->pkt_pending = 0;
 	av_packet_unref(dec->pkt);
 }

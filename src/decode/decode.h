@@ -60,7 +60,8 @@ typedef struct {
 
 /* One reported damage: a packet or frame that failed or was flagged. */
 typedef struct {
-	int64_t frame_index; /* the frame it concerns, or the next frame out, -1 if unknown */
+	int64_t frame_index; /* the frame it concerns (for a packet: estimated from its time), or the
+			      * next frame out; -1 if unknown (after a seek) */
 	double t_s;          /* its time, NaN if unknown */
 	char what[96];
 } wl_damage;

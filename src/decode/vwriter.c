@@ -69,16 +69,21 @@ static void vw_free(wl_vwriter *w)
 static wl_status check_opts(const char *path, const wl_vwriter_opts *o, wl_err *err)
 {
 	if (o->width_px <= 0 || o->height_px <= 0 || o->width_px % 2 || o->height_px % 2)
-		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': size %dx%d: width and height must be even and positive",
-				  path, o->width_px, o->height_px);
+		return wl_err_set(
+		        err, WL_EINVAL,
+		        "cannot write video '%s': size %dx%d: width and height must be even and positive",
+		        path, o->width_px, o->height_px);
 	if (o->time_base_den <= 0)
-		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': time_base_den %d must be positive", path,
-				  o->time_base_den);
+		return wl_err_set(err, WL_EINVAL,
+		                  "cannot write video '%s': time_base_den %d must be positive", path,
+		                  o->time_base_den);
 	if (!(o->nominal_fps > 0) || !isfinite(o->nominal_fps))
-		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': nominal_fps must be positive", path);
+		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': nominal_fps must be positive",
+		                  path);
 	if (o->rotation_deg % 90 != 0 || o->rotation_deg < 0 || o->rotation_deg >= 360)
-		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': rotation %d: use 0, 90, 180 or 270", path,
-				  o->rotation_deg);
+		return wl_err_set(err, WL_EINVAL,
+		                  "cannot write video '%s': rotation %d: use 0, 90, 180 or 270", path,
+		                  o->rotation_deg);
 	if (o->crf < 0 || o->crf > 51)
 		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': crf %d: use 0..51", path, o->crf);
 	return WL_OK;
@@ -89,7 +94,7 @@ static wl_status check_opts(const char *path, const wl_vwriter_opts *o, wl_err *
  * prints and the decoder reads) returns the COUNTER-CLOCKWISE angle; so a
  * counter-clockwise rotation_deg is stored as set(-rotation_deg).  Checked
  * with ffprobe against `ffmpeg -metadata:s:v:0 rotate=90` (REFERENCES.md):
- * both report rotation 90 (tests/e2e/0100-synth-clip.sh). */
+ * both report rotation 90 (tests/e2e/0900-synth-clip.sh). */
 static wl_status add_rotation(wl_vwriter *w, wl_err *err)
 {
 	uint8_t *m;
@@ -101,7 +106,8 @@ static wl_status add_rotation(wl_vwriter *w, wl_err *err)
 	av_display_rotation_set((int32_t *)m, -(double)w->o.rotation_deg);
 	if (av_stream_add_side_data(w->st, AV_PKT_DATA_DISPLAYMATRIX, m, 9 * sizeof(int32_t)) < 0) {
 		av_free(m);
-		return wl_err_set(err, WL_ENOMEM, "cannot write video '%s': cannot store the rotation", w->path);
+		return wl_err_set(err, WL_ENOMEM, "cannot write video '%s': cannot store the rotation",
+		                  w->path);
 	}
 	return WL_OK;
 }
@@ -113,15 +119,17 @@ static wl_status open_codec(wl_vwriter *w, wl_err *err)
 	char buf[32];
 	int rc;
 	if (!codec)
-		return wl_err_set(err, WL_EDECODE, "cannot write video '%s': FFmpeg has no libx264 encoder: install libavcodec with x264",
-				  w->path);
+		return wl_err_set(err, WL_EDECODE,
+		                  "cannot write video '%s': FFmpeg has no libx264 encoder: install "
+		                  "libavcodec with x264",
+		                  w->path);
 	w->c = avcodec_alloc_context3(codec);
 	if (!w->c)
 		return wl_err_set(err, WL_ENOMEM, "cannot write video '%s': out of memory", w->path);
 	w->c->width = w->o.width_px;
 	w->c->height = w->o.height_px;
 	w->c->pix_fmt = AV_PIX_FMT_YUV420P;
-	w->c->time_base = (AVRational){ 1, w->o.time_base_den };
+	w->c->time_base = (AVRational){1, w->o.time_base_den};
 	w->c->framerate = av_d2q(w->o.nominal_fps, 100000);
 	w->c->gop_size = (int)lround(2 * w->o.nominal_fps) > 1 ? (int)lround(2 * w->o.nominal_fps) : 12;
 	w->c->max_b_frames = w->o.b_frames < 0 ? 3 : w->o.b_frames;
@@ -220,10 +228,11 @@ wl_status wl_vwriter_open(const char *path, const wl_vwriter_opts *opts, wl_vwri
 		st = av_fail(err, rc, path, "allocating a frame");
 		goto fail;
 	}
-	w->sws = sws_getContext(opts->width_px, opts->height_px, AV_PIX_FMT_RGB24, opts->width_px, opts->height_px,
-				AV_PIX_FMT_YUV420P, SWS_BILINEAR, NULL, NULL, NULL);
+	w->sws = sws_getContext(opts->width_px, opts->height_px, AV_PIX_FMT_RGB24, opts->width_px,
+	                        opts->height_px, AV_PIX_FMT_YUV420P, SWS_BILINEAR, NULL, NULL, NULL);
 	if (!w->sws) {
-		st = wl_err_set(err, WL_EDECODE, "cannot write video '%s': cannot set up the colour conversion", path);
+		st = wl_err_set(err, WL_EDECODE,
+		                "cannot write video '%s': cannot set up the colour conversion", path);
 		goto fail;
 	}
 	*out = w;
@@ -256,18 +265,20 @@ static wl_status drain(wl_vwriter *w, AVFrame *f, wl_err *err)
 
 wl_status wl_vwriter_put_rgb(wl_vwriter *w, const uint8_t *rgb, int stride, double t_s, wl_err *err)
 {
-	const uint8_t *src[1] = { rgb };
-	int srcstride[1] = { stride };
+	const uint8_t *src[1] = {rgb};
+	int srcstride[1] = {stride};
 	int64_t pts;
 	int rc;
 	if (!isfinite(t_s) || t_s < 0)
-		return wl_err_set(err, WL_EINVAL, "cannot write video '%s': frame %ld: time %g s is not valid", w->path,
-				  w->nframes, t_s);
+		return wl_err_set(err, WL_EINVAL,
+		                  "cannot write video '%s': frame %ld: time %g s is not valid", w->path,
+		                  w->nframes, t_s);
 	pts = llround(t_s * w->o.time_base_den);
 	if (pts <= w->last_pts)
 		return wl_err_set(err, WL_EINVAL,
-				  "cannot write video '%s': frame %ld: time %.6f s does not increase (time base 1/%d): space frames further apart",
-				  w->path, w->nframes, t_s, w->o.time_base_den);
+		                  "cannot write video '%s': frame %ld: time %.6f s does not increase (time "
+		                  "base 1/%d): space frames further apart",
+		                  w->path, w->nframes, t_s, w->o.time_base_den);
 	if ((rc = av_frame_make_writable(w->frame)) < 0)
 		return av_fail(err, rc, w->path, "allocating a frame");
 	sws_scale(w->sws, src, srcstride, 0, w->o.height_px, w->frame->data, w->frame->linesize);

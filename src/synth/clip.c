@@ -49,10 +49,11 @@ static void truth_rows(wl_csv_writer *cw, const wl_synth_scene *sc, long k, cons
 	}
 }
 
-wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl_synth_progress_fn fn, void *ctx,
-			      wl_err *err)
+wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl_synth_progress_fn fn,
+                              void *ctx, wl_err *err)
 {
-	static const char *const header[] = { "t_s", "frame", "id", "x_m", "y_m", "heading_rad", "visible", NULL };
+	static const char *const header[] = {"t_s", "frame",       "id",      "x_m",
+	                                     "y_m", "heading_rad", "visible", NULL};
 	char *truth = side_path(mp4_path, ".truth.csv"), *scene = side_path(mp4_path, ".scene.json");
 	wl_synth_renderer *r = NULL;
 	wl_vwriter *vw = NULL;
@@ -62,7 +63,7 @@ wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl
 	long n = wl_synth_frame_count(sc);
 	int w = sc->cam.width_px, h = sc->cam.height_px, mp4_done = 0;
 	wl_status st;
-	wl_vwriter_opts o = { 0 };
+	wl_vwriter_opts o = {0};
 
 	if (!truth || !scene || !(rgb = malloc((size_t)w * h * 3))) {
 		st = wl_err_set(err, WL_ENOMEM, "out of memory writing '%s'", mp4_path);
@@ -94,7 +95,8 @@ wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl
 			goto out;
 		truth_rows(&cw, sc, k, pts);
 		if (fn && fn(k + 1, n, ctx)) {
-			st = wl_err_set(err, WL_EINVAL, "writing '%s': stopped at frame %ld of %ld", mp4_path, k, n);
+			st = wl_err_set(err, WL_EINVAL, "writing '%s': stopped at frame %ld of %ld", mp4_path,
+			                k, n);
 			goto out;
 		}
 	}
@@ -156,7 +158,8 @@ wl_status wl_synth_write_png(const wl_synth_scene *sc, long k, const char *png_p
 			uint32_t *row = (uint32_t *)(void *)(d + (size_t)v * ds);
 			const uint8_t *src = rgb + (size_t)v * w * 3;
 			for (int u = 0; u < w; u++)
-				row[u] = (uint32_t)src[3 * u] << 16 | (uint32_t)src[3 * u + 1] << 8 | src[3 * u + 2];
+				row[u] = (uint32_t)src[3 * u] << 16 | (uint32_t)src[3 * u + 1] << 8 |
+				         src[3 * u + 2];
 		}
 	}
 	cairo_surface_mark_dirty(s);

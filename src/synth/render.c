@@ -38,18 +38,18 @@ static inline uint8_t clamp8(float v)
 }
 
 typedef struct {
-	int total;       /* cells across the card, white border included (10) */
-	int black;       /* cells across the black square (8) */
-	uint8_t *cells;  /* total x total, row 0 at the tag's top, 1 = white */
+	int total;      /* cells across the card, white border included (10) */
+	int black;      /* cells across the black square (8) */
+	uint8_t *cells; /* total x total, row 0 at the tag's top, 1 = white */
 } tag_tex;
 
 struct wl_synth_renderer {
 	const wl_synth_scene *sc;
 	int w, h, ss;
-	float *bg;            /* w x h x 3, the background while it is rendered */
-	uint8_t *bg8;         /* the background rounded to 8 bits */
-	tag_tex *marker_tex;  /* one per floor marker */
-	tag_tex *robot_tex;   /* one per robot (unused cells NULL) */
+	float *bg;           /* w x h x 3, the background while it is rendered */
+	uint8_t *bg8;        /* the background rounded to 8 bits */
+	tag_tex *marker_tex; /* one per floor marker */
+	tag_tex *robot_tex;  /* one per robot (unused cells NULL) */
 	int16_t noise[NOISE_TAB];
 	int order[WL_SYNTH_MAX_ROBOTS]; /* robots by marker height, lowest first */
 	double mcos[WL_SYNTH_MAX_MARKERS], msin[WL_SYNTH_MAX_MARKERS]; /* floor marker yaws */
@@ -120,7 +120,7 @@ static void shade_floor(const wl_synth_renderer *r, double x, double y, float ou
 	if (x >= 0 && y >= 0 && x <= sc->tank_length_m && y <= sc->tank_width_m)
 		c = sc->floor_rgb;
 	else if (x >= -sc->wall_m && y >= -sc->wall_m && x <= sc->tank_length_m + sc->wall_m &&
-		 y <= sc->tank_width_m + sc->wall_m)
+	         y <= sc->tank_width_m + sc->wall_m)
 		c = sc->wall_rgb;
 	else
 		c = sc->surround_rgb;
@@ -143,10 +143,11 @@ static void *bg_rows(void *arg)
 	float inv = 1.0f / (float)(n * n);
 	for (int v = j->y0; v < j->y1; v++) {
 		for (int u = 0; u < r->w; u++) {
-			float acc[3] = { 0, 0, 0 }, c[3];
+			float acc[3] = {0, 0, 0}, c[3];
 			for (int sy = 0; sy < n; sy++) {
 				for (int sx = 0; sx < n; sx++) {
-					double uu = u + (sx + 0.5) / n - 0.5, vv = v + (sy + 0.5) / n - 0.5, x, y;
+					double uu = u + (sx + 0.5) / n - 0.5, vv = v + (sy + 0.5) / n - 0.5,
+					       x, y;
 					if (wl_camera_pixel_to_plane_water(cam, uu, vv, 0, &x, &y)) {
 						shade_floor(r, x, y, c);
 					} else { /* a ray above the horizon: the surround */
@@ -214,7 +215,8 @@ static void noise_table(wl_synth_renderer *r)
 		r->noise[i] = (int16_t)lround((g[i] - m) / v * r->sc->noise_sigma);
 }
 
-wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_synth_renderer **out, wl_err *err)
+wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_synth_renderer **out,
+                                   wl_err *err)
 {
 	wl_synth_renderer *r = calloc(1, sizeof *r);
 	apriltag_family_t *fam = NULL;
@@ -235,8 +237,9 @@ wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_sy
 		goto nomem;
 	for (int i = 0; i < sc->n_markers; i++) {
 		if (sc->markers[i].id < 0 || (uint32_t)sc->markers[i].id >= fam->ncodes) {
-			st = wl_err_set(err, WL_EINVAL, "floor marker %d: tag id %d is not in tag36h11 (0..%u)", i,
-					sc->markers[i].id, fam->ncodes - 1);
+			st = wl_err_set(err, WL_EINVAL,
+			                "floor marker %d: tag id %d is not in tag36h11 (0..%u)", i,
+			                sc->markers[i].id, fam->ncodes - 1);
 			goto fail;
 		}
 		if (!tex_build(fam, sc->markers[i].id, &r->marker_tex[i]))
@@ -247,8 +250,8 @@ wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_sy
 		if (rb->kind != WL_SYNTH_TAG)
 			continue;
 		if (rb->tag_id < 0 || (uint32_t)rb->tag_id >= fam->ncodes) {
-			st = wl_err_set(err, WL_EINVAL, "robot %d: tag id %d is not in tag36h11 (0..%u)", i, rb->tag_id,
-					fam->ncodes - 1);
+			st = wl_err_set(err, WL_EINVAL, "robot %d: tag id %d is not in tag36h11 (0..%u)", i,
+			                rb->tag_id, fam->ncodes - 1);
 			goto fail;
 		}
 		if (!tex_build(fam, rb->tag_id, &r->robot_tex[i]))
@@ -300,7 +303,6 @@ void wl_synth_renderer_destroy(wl_synth_renderer *r)
 	free(r->bg8);
 	free(r);
 }
-
 
 /* ---- robots ---- */
 
@@ -385,7 +387,7 @@ static int robot_box(const wl_synth_renderer *r, int i, const rpose *poses, int 
 
 /* Renders robot i over the frame for the exposure's sub-frame poses. */
 static void draw_robot(const wl_synth_renderer *r, int i, const rpose *poses, int np, uint8_t *rgb,
-		       int stride)
+                       int stride)
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
 	int box[4], n = r->ss, any = 0;
@@ -395,17 +397,20 @@ static void draw_robot(const wl_synth_renderer *r, int i, const rpose *poses, in
 		return;
 	for (int v = box[1]; v <= box[3]; v++) {
 		for (int u = box[0]; u <= box[2]; u++) {
-			float acc[3] = { 0, 0, 0 }, c[3];
+			float acc[3] = {0, 0, 0}, c[3];
 			int hits = 0, total = n * n * np;
 			for (int sy = 0; sy < n; sy++) {
 				for (int sx = 0; sx < n; sx++) {
-					double uu = u + (sx + 0.5) / n - 0.5, vv = v + (sy + 0.5) / n - 0.5, x, y;
-					if (!wl_camera_pixel_to_plane_water(&r->sc->cam, uu, vv, rb->height_m, &x, &y))
+					double uu = u + (sx + 0.5) / n - 0.5, vv = v + (sy + 0.5) / n - 0.5,
+					       x, y;
+					if (!wl_camera_pixel_to_plane_water(&r->sc->cam, uu, vv, rb->height_m,
+					                                    &x, &y))
 						continue;
 					for (int j = 0; j < np; j++) {
 						if (!poses[j].visible)
 							continue;
-						if (shade_robot(r, i, &poses[j], x - poses[j].x, y - poses[j].y, c)) {
+						if (shade_robot(r, i, &poses[j], x - poses[j].x,
+						                y - poses[j].y, c)) {
 							acc[0] += c[0];
 							acc[1] += c[1];
 							acc[2] += c[2];
@@ -436,7 +441,8 @@ static void add_glare(const wl_synth_renderer *r, double t, uint8_t *rgb, int st
 		double spanx = r->w + 4 * rad, spany = r->h + 4 * rad;
 		/* drift in a straight line, wrapping around an enlarged frame */
 		double cx = fmod(synth_unit(h) * spanx + sc->glare_speed_pxps * t * cos(ang), spanx);
-		double cy = fmod(synth_unit(synth_mix64(h + 2)) * spany + sc->glare_speed_pxps * t * sin(ang), spany);
+		double cy = fmod(synth_unit(synth_mix64(h + 2)) * spany + sc->glare_speed_pxps * t * sin(ang),
+		                 spany);
 		if (cx < 0)
 			cx += spanx;
 		if (cy < 0)
@@ -465,7 +471,6 @@ static void add_glare(const wl_synth_renderer *r, double t, uint8_t *rgb, int st
 	}
 }
 
-
 /* Adds Gaussian sensor noise in place, drawn for frame k. */
 static void add_noise(const wl_synth_renderer *r, long k, uint8_t *rgb, int stride)
 {
@@ -493,7 +498,8 @@ wl_status wl_synth_render_at(wl_synth_renderer *r, double t_s, long k, uint8_t *
 	rpose poses[32];
 	int np = sc->blur_samples < 1 ? 1 : sc->blur_samples > 32 ? 32 : sc->blur_samples;
 	if (stride < 3 * r->w)
-		return wl_err_set(err, WL_EINVAL, "render: stride %d is less than 3 x width %d", stride, r->w);
+		return wl_err_set(err, WL_EINVAL, "render: stride %d is less than 3 x width %d", stride,
+		                  r->w);
 	for (int v = 0; v < r->h; v++)
 		memcpy(rgb + (size_t)v * stride, r->bg8 + (size_t)v * r->w * 3, (size_t)r->w * 3);
 	for (int oi = 0; oi < sc->n_robots; oi++) {

@@ -26,8 +26,8 @@ typedef struct {
 
 static wl_status bad(const pctx *p, const char *key, const char *what)
 {
-	return wl_err_set(p->err, WL_EFORMAT, "%s: %s%skey '%s' %s", p->name, p->where, p->where[0] ? ": " : "", key,
-			  what);
+	return wl_err_set(p->err, WL_EFORMAT, "%s: %s%skey '%s' %s", p->name, p->where,
+	                  p->where[0] ? ": " : "", key, what);
 }
 
 /* Every key of obj must be in allowed (NULL-terminated). */
@@ -35,20 +35,22 @@ static wl_status check_keys(const pctx *p, const cJSON *obj, const char *const *
 {
 	const cJSON *c;
 	if (!cJSON_IsObject(obj))
-		return wl_err_set(p->err, WL_EFORMAT, "%s: %s: must be an object", p->name, p->where[0] ? p->where : "top level");
+		return wl_err_set(p->err, WL_EFORMAT, "%s: %s: must be an object", p->name,
+		                  p->where[0] ? p->where : "top level");
 	for (c = obj->child; c; c = c->next) {
 		int ok = 0;
 		for (const char *const *a = allowed; *a && !ok; a++)
 			ok = strcmp(c->string, *a) == 0;
 		if (!ok)
-			return bad(p, c->string, "is not known: check the spelling (docs/synth.md lists the keys)");
+			return bad(p, c->string,
+			           "is not known: check the spelling (docs/synth.md lists the keys)");
 	}
 	return WL_OK;
 }
 
 /* A number, with a default when absent (required: no default) and a range. */
 static wl_status num(const pctx *p, const cJSON *obj, const char *key, int required, double def, double lo,
-		     double hi, double *out)
+                     double hi, double *out)
 {
 	const cJSON *v = cJSON_GetObjectItemCaseSensitive(obj, key);
 	char buf[160];
@@ -69,7 +71,7 @@ static wl_status num(const pctx *p, const cJSON *obj, const char *key, int requi
 }
 
 static wl_status inum(const pctx *p, const cJSON *obj, const char *key, int required, int def, int lo, int hi,
-		      int *out)
+                      int *out)
 {
 	double d;
 	wl_status st = num(p, obj, key, required, def, lo, hi, &d);
@@ -83,7 +85,7 @@ static wl_status inum(const pctx *p, const cJSON *obj, const char *key, int requ
 
 /* An array of n numbers; absent -> def (NULL def: required). */
 static wl_status vec(const pctx *p, const cJSON *obj, const char *key, int n, const double *def, double lo,
-		     double hi, double *out)
+                     double hi, double *out)
 {
 	const cJSON *a = cJSON_GetObjectItemCaseSensitive(obj, key), *v;
 	int i = 0;
@@ -99,7 +101,8 @@ static wl_status vec(const pctx *p, const cJSON *obj, const char *key, int n, co
 		return bad(p, key, buf);
 	cJSON_ArrayForEach(v, a)
 	{
-		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble) || v->valuedouble < lo || v->valuedouble > hi)
+		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble) || v->valuedouble < lo ||
+		    v->valuedouble > hi)
 			return bad(p, key, buf);
 		out[i++] = v->valuedouble;
 	}
@@ -108,7 +111,7 @@ static wl_status vec(const pctx *p, const cJSON *obj, const char *key, int n, co
 
 static wl_status rgb(const pctx *p, const cJSON *obj, const char *key, const uint8_t def[3], uint8_t out[3])
 {
-	double d[3] = { def[0], def[1], def[2] }, v[3];
+	double d[3] = {def[0], def[1], def[2]}, v[3];
 	wl_status st = vec(p, obj, key, 3, d, 0, 255, v);
 	for (int i = 0; !st && i < 3; i++)
 		out[i] = (uint8_t)lround(v[i]);
@@ -125,23 +128,25 @@ static void enter(pctx *p, const char *fmt, int idx)
 	snprintf(p->where, sizeof p->where, fmt, idx);
 }
 
-#define TRY(x)                                                                                                 \
-	do {                                                                                                   \
-		if ((st = (x)))                                                                                \
-			return st;                                                                             \
+#define TRY(x)                                                                                               \
+	do {                                                                                                 \
+		if ((st = (x)))                                                                              \
+			return st;                                                                           \
 	} while (0)
 
 static wl_status parse_tank(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "size_m", "wall_m", "floor_rgb", "wall_rgb", "surround_rgb", NULL };
-	static const uint8_t floor_d[3] = { 178, 190, 196 }, wall_d[3] = { 60, 70, 80 }, sur_d[3] = { 105, 100, 95 };
+	static const char *const keys[] = {"size_m", "wall_m", "floor_rgb", "wall_rgb", "surround_rgb", NULL};
+	static const uint8_t floor_d[3] = {178, 190, 196}, wall_d[3] = {60, 70, 80},
+	                     sur_d[3] = {105, 100, 95};
 	const cJSON *t = child(root, "tank");
 	double sz[2];
 	wl_status st;
 	enter(p, "tank", 0);
 	if (!t)
-		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'tank' is missing: give at least \"tank\": {\"size_m\": [L, W]}",
-				  p->name);
+		return wl_err_set(p->err, WL_EFORMAT,
+		                  "%s: key 'tank' is missing: give at least \"tank\": {\"size_m\": [L, W]}",
+		                  p->name);
 	TRY(check_keys(p, t, keys));
 	TRY(vec(p, t, "size_m", 2, NULL, 0.01, 1000, sz));
 	sc->tank_length_m = sz[0];
@@ -155,7 +160,7 @@ static wl_status parse_tank(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "id", "center_m", "size_m", "yaw_deg", NULL };
+	static const char *const keys[] = {"id", "center_m", "size_m", "yaw_deg", NULL};
 	const cJSON *a = child(root, "markers"), *m;
 	wl_status st;
 	int i = 0;
@@ -163,10 +168,11 @@ static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	if (!a)
 		return WL_OK;
 	if (!cJSON_IsArray(a))
-		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'markers' must be an array of objects", p->name);
+		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'markers' must be an array of objects",
+		                  p->name);
 	if (cJSON_GetArraySize(a) > WL_SYNTH_MAX_MARKERS)
 		return wl_err_set(p->err, WL_ELIMIT, "%s: key 'markers': more than %d markers", p->name,
-				  WL_SYNTH_MAX_MARKERS);
+		                  WL_SYNTH_MAX_MARKERS);
 	cJSON_ArrayForEach(m, a)
 	{
 		wl_synth_marker *k = &sc->markers[i];
@@ -189,9 +195,9 @@ static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 /* Builds sc->cam from the camera keys: intrinsics, then the look-at pose. */
 static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "width_px", "height_px", "hfov_deg", "focal_px", "principal_px", "k1",
-					    "k2", "p1", "p2", "k3", "position_m", "tilt_deg", "tilt_dir_deg",
-					    "yaw_deg", NULL };
+	static const char *const keys[] = {
+	        "width_px", "height_px", "hfov_deg",   "focal_px", "principal_px", "k1",      "k2", "p1",
+	        "p2",       "k3",        "position_m", "tilt_deg", "tilt_dir_deg", "yaw_deg", NULL};
 	const cJSON *c = child(root, "camera");
 	int w, h;
 	double f, hfov, pp[2], dpp[2], pos_d[3], deg, eye[3], tgt[3];
@@ -235,7 +241,8 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	TRY(num(p, c, "yaw_deg", 0, 0, -360, 360, &deg));
 	sc->yaw_rad = deg * DEG;
 	if (sc->cam_pos_m[2] <= 0.05)
-		return bad(p, "position_m", "puts the camera at or below the floor: its z must be above 0.05 m");
+		return bad(p, "position_m",
+		           "puts the camera at or below the floor: its z must be above 0.05 m");
 	memcpy(eye, sc->cam_pos_m, sizeof eye);
 	/* the optical axis leans tilt away from straight down, toward the
 	 * floor direction tilt_dir (CCW from +x) */
@@ -244,7 +251,8 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	tgt[2] = eye[2] - cos(sc->tilt_rad);
 	wl_camera_look_at(&sc->cam, eye, tgt, sc->yaw_rad);
 	if (sc->water_depth_m > 0 && sc->cam_pos_m[2] <= sc->water_depth_m)
-		return bad(p, "position_m", "puts the camera under the water surface: raise it above water_depth_m");
+		return bad(p, "position_m",
+		           "puts the camera under the water surface: raise it above water_depth_m");
 	sc->cam.water_depth_m = sc->water_depth_m;
 	sc->cam.water_index = sc->water_index;
 	return WL_OK;
@@ -252,7 +260,7 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_timing(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "fps", "duration_s", "jitter", "time_base_den", NULL };
+	static const char *const keys[] = {"fps", "duration_s", "jitter", "time_base_den", NULL};
 	const cJSON *t = child(root, "timing");
 	static const cJSON empty;
 	wl_status st;
@@ -269,13 +277,14 @@ static wl_status parse_timing(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		return bad(p, "duration_s", "gives more than 1000000 frames: shorten the clip");
 	/* the smallest interval must be at least one tick of the time base */
 	if ((1 - sc->jitter) / sc->fps * sc->time_base_den < 2)
-		return bad(p, "time_base_den", "is too coarse for this frame rate and jitter: raise it (90000)");
+		return bad(p, "time_base_den",
+		           "is too coarse for this frame rate and jitter: raise it (90000)");
 	return WL_OK;
 }
 
 static wl_status parse_encoding(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "crf", "bit_rate_bps", "b_frames", "rotation_deg", NULL };
+	static const char *const keys[] = {"crf", "bit_rate_bps", "b_frames", "rotation_deg", NULL};
 	const cJSON *e = child(root, "encoding");
 	static const cJSON empty;
 	wl_status st;
@@ -295,8 +304,9 @@ static wl_status parse_encoding(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_effects(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "supersample", "noise_sigma", "blur_samples", "exposure_s",
-					    "glare_count", "glare_radius_px", "glare_gain", "glare_speed_pxps", NULL };
+	static const char *const keys[] = {"supersample", "noise_sigma",      "blur_samples",
+	                                   "exposure_s",  "glare_count",      "glare_radius_px",
+	                                   "glare_gain",  "glare_speed_pxps", NULL};
 	const cJSON *e = child(root, "effects");
 	static const cJSON empty;
 	wl_status st;
@@ -318,9 +328,9 @@ static wl_status parse_effects(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_marker_kind(pctx *p, const cJSON *m, wl_synth_robot *r)
 {
-	static const char *const keys[] = { "type", "tag_id", "size_m", "offset_deg", "front_rgb", "back_rgb",
-					    "rgb", "cap_diameter_m", "offset_m", NULL };
-	static const uint8_t red[3] = { 220, 40, 40 }, blue[3] = { 40, 80, 220 };
+	static const char *const keys[] = {"type",     "tag_id", "size_m",         "offset_deg", "front_rgb",
+	                                   "back_rgb", "rgb",    "cap_diameter_m", "offset_m",   NULL};
+	static const uint8_t red[3] = {220, 40, 40}, blue[3] = {40, 80, 220};
 	const char *type;
 	double deg;
 	wl_status st;
@@ -339,7 +349,9 @@ static wl_status parse_marker_kind(pctx *p, const cJSON *m, wl_synth_robot *r)
 		TRY(num(p, m, "offset_deg", 0, 0, -360, 360, &deg));
 		r->tag_offset_rad = deg * DEG;
 		if (r->tag_size_m * 10.0 / 8.0 > 1.5 * r->diameter_m)
-			return bad(p, "size_m", "makes the tag card (10/8 of size_m with its white border) wider than 1.5 disc diameters");
+			return bad(p, "size_m",
+			           "makes the tag card (10/8 of size_m with its white border) wider than 1.5 "
+			           "disc diameters");
 	} else if (strcmp(type, "caps") == 0 || strcmp(type, "cap") == 0) {
 		int two = strcmp(type, "caps") == 0;
 		r->kind = two ? WL_SYNTH_CAPS : WL_SYNTH_CAP;
@@ -356,11 +368,11 @@ static wl_status parse_marker_kind(pctx *p, const cJSON *m, wl_synth_robot *r)
 
 static wl_status parse_path(pctx *p, const cJSON *q, wl_synth_robot *r, const wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "start_m", "heading_deg", "speed_mps", "curvature_1pm", "rest_s",
-					    "accel_s", "yaw_osc_deg", "yaw_osc_hz", "yaw_osc_phase_deg",
-					    "pivot_ahead_m", NULL };
+	static const char *const keys[] = {
+	        "start_m",     "heading_deg", "speed_mps",         "curvature_1pm", "rest_s", "accel_s",
+	        "yaw_osc_deg", "yaw_osc_hz",  "yaw_osc_phase_deg", "pivot_ahead_m", NULL};
 	wl_synth_path *w = &r->path;
-	double s[2], deg, ds[2] = { 0.5 * sc->tank_length_m, 0.5 * sc->tank_width_m };
+	double s[2], deg, ds[2] = {0.5 * sc->tank_length_m, 0.5 * sc->tank_width_m};
 	wl_status st;
 	size_t n = strlen(p->where);
 	static const cJSON empty;
@@ -399,8 +411,8 @@ static wl_status parse_occlusions(pctx *p, const cJSON *a, wl_synth_robot *r)
 	cJSON_ArrayForEach(it, a)
 	{
 		const cJSON *x0 = cJSON_GetArrayItem(it, 0), *x1 = cJSON_GetArrayItem(it, 1);
-		if (!cJSON_IsArray(it) || cJSON_GetArraySize(it) != 2 || !cJSON_IsNumber(x0) || !cJSON_IsNumber(x1) ||
-		    !(x0->valuedouble <= x1->valuedouble))
+		if (!cJSON_IsArray(it) || cJSON_GetArraySize(it) != 2 || !cJSON_IsNumber(x0) ||
+		    !cJSON_IsNumber(x1) || !(x0->valuedouble <= x1->valuedouble))
 			return bad(p, "occlusions", "items must be [t0_s, t1_s] with t0_s <= t1_s");
 		r->occl_t0_s[i] = x0->valuedouble;
 		r->occl_t1_s[i] = x1->valuedouble;
@@ -412,9 +424,9 @@ static wl_status parse_occlusions(pctx *p, const cJSON *a, wl_synth_robot *r)
 
 static wl_status parse_robots(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "id", "diameter_m", "height_m", "disc_rgb", "marker", "path",
-					    "occlusions", NULL };
-	static const uint8_t disc_d[3] = { 235, 200, 40 };
+	static const char *const keys[] = {"id",     "diameter_m", "height_m",   "disc_rgb",
+	                                   "marker", "path",       "occlusions", NULL};
+	static const uint8_t disc_d[3] = {235, 200, 40};
 	const cJSON *a = child(root, "robots"), *o;
 	wl_status st;
 	int i = 0;
@@ -422,10 +434,11 @@ static wl_status parse_robots(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	if (!a)
 		return WL_OK;
 	if (!cJSON_IsArray(a))
-		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'robots' must be an array of objects", p->name);
+		return wl_err_set(p->err, WL_EFORMAT, "%s: key 'robots' must be an array of objects",
+		                  p->name);
 	if (cJSON_GetArraySize(a) > WL_SYNTH_MAX_ROBOTS)
 		return wl_err_set(p->err, WL_ELIMIT, "%s: key 'robots': more than %d robots", p->name,
-				  WL_SYNTH_MAX_ROBOTS);
+		                  WL_SYNTH_MAX_ROBOTS);
 	cJSON_ArrayForEach(o, a)
 	{
 		wl_synth_robot *r = &sc->robots[i];
@@ -448,9 +461,10 @@ static wl_status parse_robots(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = { "description", "seed", "tank", "water_depth_m", "water_index",
-					    "markers", "camera", "timing", "encoding", "effects", "robots",
-					    "camera_model", NULL }; /* camera_model: written by us, ignored on input */
+	static const char *const keys[] = {"description", "seed",    "tank",   "water_depth_m",
+	                                   "water_index", "markers", "camera", "timing",
+	                                   "encoding",    "effects", "robots", "camera_model",
+	                                   NULL}; /* camera_model: written by us, ignored on input */
 	double seed;
 	wl_status st;
 	p->where[0] = 0;
@@ -473,7 +487,7 @@ static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
 wl_status wl_synth_parse(const char *name, const char *text, size_t len, wl_synth_scene *sc, wl_err *err)
 {
 	cJSON *root = NULL;
-	pctx p = { name, "", err };
+	pctx p = {name, "", err};
 	wl_status st = wl_json_parse(name, text, len, &root, err);
 	if (st)
 		return st;
@@ -590,7 +604,7 @@ void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_po
 
 static void add_rgb(cJSON *o, const char *key, const uint8_t c[3])
 {
-	double d[3] = { c[0], c[1], c[2] };
+	double d[3] = {c[0], c[1], c[2]};
 	wl_json_add_numbers(o, key, d, 3);
 }
 

@@ -37,10 +37,10 @@
 #define WL_SYNTH_MAX_FRAMES 1000000L
 
 typedef struct {
-	int id;                 /* tag36h11 id */
-	double x_m, y_m;        /* tag centre on the floor */
-	double size_m;          /* edge of the black square (AprilTag's "tag size") */
-	double yaw_rad;         /* tag's right edge direction, CCW from +x */
+	int id;          /* tag36h11 id */
+	double x_m, y_m; /* tag centre on the floor */
+	double size_m;   /* edge of the black square (AprilTag's "tag size") */
+	double yaw_rad;  /* tag's right edge direction, CCW from +x */
 } wl_synth_marker;
 
 typedef enum { WL_SYNTH_TAG = 0, WL_SYNTH_CAPS, WL_SYNTH_CAP } wl_synth_mark_kind;
@@ -51,21 +51,21 @@ typedef struct {
 	double curvature_1pm;            /* 1/radius, > 0 turns counter-clockwise, 0 straight */
 	double rest_s, accel_s;          /* at rest, then a linear speed ramp */
 	double osc_amp_rad, osc_freq_hz, osc_phase_rad; /* body yaw oscillation */
-	double pivot_ahead_m;            /* yaw pivot ahead of the marker (sway); 0: none */
+	double pivot_ahead_m;                           /* yaw pivot ahead of the marker (sway); 0: none */
 } wl_synth_path;
 
 typedef struct {
-	int id;                  /* robot id in the truth CSV */
-	double diameter_m;       /* the disc */
-	double height_m;         /* marker plane above the floor */
+	int id;            /* robot id in the truth CSV */
+	double diameter_m; /* the disc */
+	double height_m;   /* marker plane above the floor */
 	uint8_t disc_rgb[3];
 	wl_synth_mark_kind kind;
-	int tag_id;              /* WL_SYNTH_TAG */
-	double tag_size_m;       /* black square edge */
-	double tag_offset_rad;   /* tag "up" = heading + offset */
+	int tag_id;                        /* WL_SYNTH_TAG */
+	double tag_size_m;                 /* black square edge */
+	double tag_offset_rad;             /* tag "up" = heading + offset */
 	uint8_t front_rgb[3], back_rgb[3]; /* WL_SYNTH_CAPS (front only for CAP) */
 	double cap_diameter_m;
-	double cap_offset_m;     /* cap centres at +-offset along the heading (CAP: 0) */
+	double cap_offset_m; /* cap centres at +-offset along the heading (CAP: 0) */
 	wl_synth_path path;
 	int n_occl;
 	double occl_t0_s[WL_SYNTH_MAX_OCCL], occl_t1_s[WL_SYNTH_MAX_OCCL]; /* hidden for t in [t0, t1] */
@@ -90,10 +90,10 @@ typedef struct {
 	/* encoding */
 	int crf, bit_rate_bps, b_frames, rotation_deg;
 	/* effects */
-	int supersample;           /* n x n samples per pixel */
-	double noise_sigma;        /* Gaussian sensor noise, grey levels */
-	int blur_samples;          /* sub-frame renders averaged (1: none) */
-	double exposure_s;         /* exposure centred on the frame time */
+	int supersample;    /* n x n samples per pixel */
+	double noise_sigma; /* Gaussian sensor noise, grey levels */
+	int blur_samples;   /* sub-frame renders averaged (1: none) */
+	double exposure_s;  /* exposure centred on the frame time */
 	int n_glare;
 	double glare_radius_px, glare_gain, glare_speed_pxps;
 	/* robots */
@@ -103,10 +103,10 @@ typedef struct {
 
 /* One robot's true state at a time. */
 typedef struct {
-	double x_m, y_m;       /* marker centre (tag centre) in the tank frame */
-	double heading_rad;    /* body heading, wrapped to (-pi, pi] */
-	double speed_mps;      /* path speed */
-	int visible;           /* 0 inside an occlusion interval */
+	double x_m, y_m;    /* marker centre (tag centre) in the tank frame */
+	double heading_rad; /* body heading, wrapped to (-pi, pi] */
+	double speed_mps;   /* path speed */
+	int visible;        /* 0 inside an occlusion interval */
 } wl_synth_pose;
 
 /* Loads a scene file; errors name the file and the key ("scene.json:
@@ -131,7 +131,8 @@ void wl_synth_robot_pose(const wl_synth_scene *sc, int r, double t_s, wl_synth_p
 typedef struct wl_synth_renderer wl_synth_renderer;
 
 /* Renders the static background (once) with nthreads threads (<= 0: 2). */
-wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_synth_renderer **out, wl_err *err);
+wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_synth_renderer **out,
+                                   wl_err *err);
 void wl_synth_renderer_destroy(wl_synth_renderer *r);
 
 /* Renders frame k (at wl_synth_frame_time(sc, k)) as packed RGB24 into rgb
@@ -148,8 +149,8 @@ typedef int (*wl_synth_progress_fn)(long done, long total, void *ctx);
  * (<stem>.truth.csv) and the scene used (<stem>.scene.json), where <stem>
  * is mp4_path without a trailing ".mp4".  All three are atomic; on failure
  * none is left behind. */
-wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl_synth_progress_fn fn, void *ctx,
-			      wl_err *err);
+wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl_synth_progress_fn fn,
+                              void *ctx, wl_err *err);
 
 /* Writes frame k as a PNG (for calibration from a still image), atomically. */
 wl_status wl_synth_write_png(const wl_synth_scene *sc, long k, const char *png_path, wl_err *err);

@@ -1,5 +1,5 @@
 #!/bin/bash
-# 0100-synth-clip: `wakeline synth` writes an H.264 clip whose frame times,
+# 0900-synth-clip: `wakeline synth` writes an H.264 clip whose frame times,
 # size, frame count and rotation, as read back by Debian's ffprobe (FFmpeg
 # 5.1, the reference), are those of the truth table; constant and jittered
 # (variable) frame rates; bad scenes fail cleanly and write nothing.
@@ -69,6 +69,13 @@ check_clip vfr 60 "90"
 awk -F, 'NF != 7 || (NR > 1 && $1 !~ /^[0-9]+\.[0-9][0-9][0-9][0-9][0-9][0-9]$/) { exit 1 }' vfr.truth.csv ||
 	fail "vfr: truth numbers not in '.' decimals under LC_ALL=de_DE.UTF-8"
 
+# our own decoder (wakeline probe) reads the same times and rotation
+"$WAKELINE" probe -q --frames vfr.frames.csv vfr.mp4 > vfr.probe.txt
+grep -q "rotation *90 deg counter-clockwise" vfr.probe.txt || fail "probe: rotation: $(grep rotation vfr.probe.txt)"
+paste -d, <(tail -n +2 vfr.frames.csv | cut -d, -f2) vfr.truth_t | awk -F, '
+	{ d = $1 - $2; if (d < 0) d = -d; if (d > m) m = d; n++ } END { exit (n == 60 && m < 1e-6) ? 0 : 1 }' ||
+	fail "probe: frame times differ from the truth"
+
 # rotation 270 is reported as -90 (the phone-portrait case), and our display
 # matrix equals the one ffmpeg writes for -metadata rotate=270 (REFERENCES.md)
 write_scene r270 25 0 0 270
@@ -99,6 +106,12 @@ set -e
 grep -q "syntax.json:2:" syntax.err || fail "syntax: message lacks file:line: $(cat syntax.err)"
 [ "$(ls -A | grep -v '\.json$' | grep -v '\.err$' | wc -l)" = 0 ] || fail "bad scenes left files: $(ls -A)"
 cd ..
+
+# an output folder that does not exist: exit 1, the path named
+set +e
+"$WAKELINE" synth -q cfr.json -o no-such-dir/x.mp4 2> nodir.err; rc=$?
+set -e
+[ $rc = 1 ] && grep -q "no-such-dir/x" nodir.err || fail "missing folder: exit $rc: $(cat nodir.err)"
 
 # usage
 "$WAKELINE" synth --help | grep -q "usage: wakeline synth" || fail "--help"
