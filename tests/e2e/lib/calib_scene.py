@@ -36,6 +36,21 @@ def camera(tilt_deg, f=1400.0, height=2.0, centre=(1.2, 0.6)):
     return K, R, tvec, eye
 
 
+def surface_point(eye, X, depth, n):
+    """Where the ray from the camera to submerged point X crosses the flat
+    surface z = depth: Snell's law, sin(a_air) = n sin(a_water), solved with
+    scipy's brentq (independent of wakeline's bisection)."""
+    from scipy.optimize import brentq
+    dx, dy = X[0] - eye[0], X[1] - eye[1]
+    r = np.hypot(dx, dy)
+    if r == 0:
+        return (X[0], X[1], depth)
+    h, d = eye[2] - depth, depth - X[2]
+    f = lambda s: s / np.hypot(s, h) - n * (r - s) / np.hypot(r - s, d)
+    s = brentq(f, 0, r, xtol=1e-13)
+    return (eye[0] + dx / r * s, eye[1] + dy / r * s, depth)
+
+
 def project(K, R, t, X):
     rvec, _ = cv2.Rodrigues(R)
     uv, _ = cv2.projectPoints(np.asarray(X, float).reshape(-1, 1, 3), rvec, t, K, None)
@@ -55,6 +70,8 @@ def main():
     ap.add_argument("--z", type=float, default=0.0)
     ap.add_argument("--bad", default="")
     ap.add_argument("--tagdir", default=".")
+    ap.add_argument("--water", type=float, default=0.0, help="floor under this depth of water (m)")
+    ap.add_argument("--index", type=float, default=1.333)
     a = ap.parse_args()
     K, R, t, eye = camera(a.tilt, a.f)
     if a.mode == "camera":
@@ -71,7 +88,8 @@ def main():
         nx, ny = map(int, a.grid.split("x"))
         X = [(0.1 + 2.2 * i / (nx - 1) + 0.03 * (j % 2), 0.1 + 1.0 * j / (ny - 1), a.z)
              for j in range(ny) for i in range(nx)]
-    uv = project(K, R, t, X) + rng.normal(0, a.noise, (len(X), 2))
+    P = [surface_point(eye, x, a.water, a.index) for x in X] if a.water > 0 else X
+    uv = project(K, R, t, P) + rng.normal(0, a.noise, (len(X), 2))
     if a.bad:
         i, du = a.bad.split(":")
         uv[int(i), 0] += float(du)
