@@ -18,7 +18,7 @@
 #include <string.h>
 
 #define WL_PI 3.14159265358979323846
-#define IX(i, j) ((i) * 3 + (j))
+#define IX(i, j) ((i)*3 + (j))
 #define MAX_OUTLIER_PASSES 4
 /* the settling window is at most this many oscillation periods: longer
  * windows average noise better but a centred window over a speed-up is late
@@ -105,14 +105,15 @@ wl_status wl_clean_params_check(const wl_clean_params *p, wl_err *err)
 	if (p->model_dim != 2 && p->model_dim != 3)
 		return wl_err_set(err, WL_EINVAL, "--model: must be 'cv' or 'ca'");
 	if (!(p->gate_prob > 0.5 && p->gate_prob < 1.0 - 1e-12))
-		return wl_err_set(err, WL_EINVAL, "--gate %g: give a probability between 0.5 and 1", p->gate_prob);
+		return wl_err_set(err, WL_EINVAL, "--gate %g: give a probability between 0.5 and 1",
+		                  p->gate_prob);
 	if (p->smoother == WL_CLEAN_SG) {
 		if (p->sg_window < 3 || p->sg_window > WL_SG_MAX_WINDOW || p->sg_window % 2 == 0)
 			return wl_err_set(err, WL_EINVAL, "--sg-window %d: give an odd number from 3 to %d",
-					  p->sg_window, WL_SG_MAX_WINDOW);
+			                  p->sg_window, WL_SG_MAX_WINDOW);
 		if (p->sg_order < 1 || p->sg_order > WL_SG_MAX_ORDER || p->sg_order >= p->sg_window)
 			return wl_err_set(err, WL_EINVAL, "--sg-order %d: give 1 to %d, less than the window",
-					  p->sg_order, WL_SG_MAX_ORDER);
+			                  p->sg_order, WL_SG_MAX_ORDER);
 	}
 	if (!(p->max_gap_s >= 0))
 		return wl_err_set(err, WL_EINVAL, "--max-gap-s: must not be negative");
@@ -129,13 +130,13 @@ wl_status wl_clean_params_check(const wl_clean_params *p, wl_err *err)
 
 const char *wl_clean_status_name(wl_clean_status s)
 {
-	static const char *const n[] = { "measured", "filled", "outlier" };
+	static const char *const n[] = {"measured", "filled", "outlier"};
 	return n[s];
 }
 
 const char *wl_clean_cut_name(wl_clean_cut c)
 {
-	static const char *const n[] = { "", "start", "wall", "gap", "still" };
+	static const char *const n[] = {"", "start", "wall", "gap", "still"};
 	return n[c];
 }
 
@@ -161,9 +162,9 @@ double wl_clean_outline_dist(const wl_clean_params *p, double x, double y)
 /* ------------------------------------------------------ per-robot working */
 
 typedef struct {
-	size_t n;          /* samples kept (in pieces) */
-	size_t *src;       /* index into the raw track */
-	int *piece;        /* piece number of each sample */
+	size_t n;                 /* samples kept (in pieces) */
+	size_t *src;              /* index into the raw track */
+	int *piece;               /* piece number of each sample */
 	double *t, *zx, *zy, *zh; /* measurements, NaN when none */
 	unsigned char *mpos, *mh; /* 1: rejected as outlier (after smoothing: the union) */
 	unsigned char *why;       /* bit 0: position beyond the gate, bit 1: heading */
@@ -172,7 +173,7 @@ typedef struct {
 	wl_clean_cut *cut;
 	int *seg;
 	size_t npieces;
-	size_t *pstart;    /* first sample of each piece, pstart[npieces] = n */
+	size_t *pstart;        /* first sample of each piece, pstart[npieces] = n */
 	unsigned char *phas_h; /* piece has any heading */
 	double dt_med;
 } work;
@@ -229,8 +230,9 @@ static int work_alloc(work *w, size_t n, size_t npieces)
 	w->seg = calloc(m, sizeof *w->seg);
 	w->pstart = calloc(npieces + 1, sizeof *w->pstart);
 	w->phas_h = calloc(npieces + 1, 1);
-	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->mpos && w->mh && w->why && w->x && w->y &&
-	       w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg && w->pstart && w->phas_h;
+	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->mpos && w->mh && w->why && w->x &&
+	       w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg && w->pstart &&
+	       w->phas_h;
 }
 
 static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
@@ -252,8 +254,8 @@ static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
 
 /* Splits the track into pieces at gaps longer than max_gap_s and copies the
  * kept samples into w. */
-static wl_status build_pieces(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb, work *w,
-			      wl_err *err)
+static wl_status build_pieces(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
+                              work *w, wl_err *err)
 {
 	size_t ndet = 0, npieces = 0, n = 0, prev = (size_t)-1, first = 0, k = 0;
 	size_t *pf = NULL, *pl = NULL;
@@ -392,7 +394,7 @@ typedef struct {
  * rejected detection adds the value at the gate (a capped, robust
  * likelihood, so one wild point cannot drive the noise estimate). */
 static double group_forward(const work *w, group *g, const unsigned char *mask_in, double gate,
-			    unsigned char *mask_out)
+                            unsigned char *mask_out)
 {
 	double ll = 0;
 	for (size_t q = 0; q < w->npieces; q++) {
@@ -411,7 +413,8 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 			int have = 1;
 			for (int k = 0; k < g->naxes; k++) {
 				if (i > a)
-					wl_kin_predict(&g->cfg, &g->st[k][i - 1], w->t[i] - w->t[i - 1], &g->st[k][i]);
+					wl_kin_predict(&g->cfg, &g->st[k][i - 1], w->t[i] - w->t[i - 1],
+					               &g->st[k][i]);
 				if (!isfinite(g->z[k][i]))
 					have = 0;
 			}
@@ -539,8 +542,8 @@ static wl_status smooth_rts(work *w, const wl_clean_params *p, wl_clean_robot *r
 {
 	size_t n = w->n;
 	wl_kin_step *sx = malloc(n * sizeof *sx), *sy = malloc(n * sizeof *sy), *sh = malloc(n * sizeof *sh);
-	group gp = { 2, { p->model_dim, 0, 0, 0, { 1.0, 1.0, 10.0 } }, { w->zx, w->zy }, { sx, sy } };
-	group gh = { 1, { p->model_dim, 0, 0, 1, { WL_PI * WL_PI, 100.0, 1e4 } }, { w->zh, NULL }, { sh, NULL } };
+	group gp = {2, {p->model_dim, 0, 0, 0, {1.0, 1.0, 10.0}}, {w->zx, w->zy}, {sx, sy}};
+	group gh = {1, {p->model_dim, 0, 0, 1, {WL_PI * WL_PI, 100.0, 1e4}}, {w->zh, NULL}, {sh, NULL}};
 	double g2 = chi2_q2(p->gate_prob), g1 = chi2_q1(p->gate_prob);
 	wl_status st = WL_OK;
 	int any_h = 0;
@@ -558,8 +561,10 @@ static wl_status smooth_rts(work *w, const wl_clean_params *p, wl_clean_robot *r
 	rb->q_heading = any_h ? gh.cfg.q : NAN;
 	rb->q_estimated = !(p->q_pos > 0) || !(p->q_heading > 0);
 	if (!group_smooth(w, &gp, g2, w->mpos) || !group_smooth(w, &gh, g1, w->mh)) {
-		st = wl_err_set(err, WL_EINVAL, "robot %ld: the smoother became singular: give noise levels "
-				"with --sigma-pos-m and --q-pos", rb->id);
+		st = wl_err_set(err, WL_EINVAL,
+		                "robot %ld: the smoother became singular: give noise levels "
+		                "with --sigma-pos-m and --q-pos",
+		                rb->id);
 		goto out;
 	}
 	/* a detection rejected in either group is an outlier as a whole: both
@@ -601,7 +606,7 @@ out:
 /* Picks up to `want` valid samples nearest in time to sample i within its
  * piece (i itself excluded when `loo`).  Returns the count. */
 static int sg_window(const work *w, const double *z, const unsigned char *mask, size_t i, int want, int loo,
-		     size_t *idx)
+                     size_t *idx)
 {
 	size_t a = w->pstart[w->piece[i]], b = w->pstart[w->piece[i] + 1];
 	long L = (long)i - 1, R = (long)i + 1;
@@ -626,7 +631,7 @@ static int sg_window(const work *w, const double *z, const unsigned char *mask, 
 /* Value (deriv 0) or derivative at t[i] of the local fit; var gets the sum
  * of squared weights (the variance in units of sigma^2). */
 static double sg_eval(const work *w, const double *z, const unsigned char *mask, size_t i, int win, int order,
-		      int deriv, int loo, double *var)
+                      int deriv, int loo, double *var)
 {
 	size_t idx[WL_SG_MAX_WINDOW];
 	double tt[WL_SG_MAX_WINDOW], wt[WL_SG_MAX_WINDOW], s = 0, v = 0;
@@ -855,7 +860,8 @@ static void window_means(const work *w, const double *v, size_t a, size_t b, dou
 		if (t - W / 2 < w->t[a] || t + W / 2 > w->t[b])
 			continue;
 		m[a + i] = (integ_at(w->t + a, v + a, I, n, t + W / 2, &k1) -
-			    integ_at(w->t + a, v + a, I, n, t - W / 2, &k0)) / W;
+		            integ_at(w->t + a, v + a, I, n, t - W / 2, &k0)) /
+		           W;
 	}
 }
 
@@ -867,7 +873,7 @@ static void window_means(const work *w, const double *v, size_t a, size_t b, dou
  * smooth approach (an exponential with time constant tau is late by about
  * W^2 / (24 tau)). */
 static void settle(const work *w, const wl_clean_params *p, wl_clean_robot *rb, const double *spd, size_t on,
-		   size_t end)
+                   size_t end)
 {
 	size_t mid = on + (end - on) / 2, run = (size_t)-1, n = end - on + 1;
 	double P, W = 0, tolv = 0, tolr = INFINITY, *mv, *mr, *I;
@@ -894,7 +900,8 @@ static void settle(const work *w, const wl_clean_params *p, wl_clean_robot *rb, 
 		scat_r = isfinite(rb->yaw_ref_radps) ? mad_of(mr, mid, end, rb->yaw_ref_radps) : 0;
 		tolv = fmax(p->settle_tol * rb->speed_ref_mps, 3 * scat_v);
 		if (isfinite(rb->yaw_ref_radps))
-			tolr = fmax(fmax(p->settle_tol * fabs(rb->yaw_ref_radps), p->settle_yaw_tol_radps), 3 * scat_r);
+			tolr = fmax(fmax(p->settle_tol * fabs(rb->yaw_ref_radps), p->settle_yaw_tol_radps),
+			            3 * scat_r);
 		if (3 * scat_v <= p->settle_tol * rb->speed_ref_mps)
 			break;
 	}
@@ -903,7 +910,8 @@ static void settle(const work *w, const wl_clean_params *p, wl_clean_robot *rb, 
 	rb->settle_tol_radps = tolr;
 	for (size_t i = on; i <= end; i++) {
 		int ok = isfinite(mv[i]) && fabs(mv[i] - rb->speed_ref_mps) <= tolv &&
-			 (!isfinite(rb->yaw_ref_radps) || (isfinite(mr[i]) && fabs(mr[i] - rb->yaw_ref_radps) <= tolr));
+		         (!isfinite(rb->yaw_ref_radps) ||
+		          (isfinite(mr[i]) && fabs(mr[i] - rb->yaw_ref_radps) <= tolr));
 		if (!ok) {
 			run = (size_t)-1;
 			continue;
@@ -928,7 +936,8 @@ static void cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *r
 	double margin = p->wall_margin_m >= 0 ? p->wall_margin_m : 0.5 * p->body_diameter_m;
 	size_t on, end, from, seg = 0, m = 0;
 	rb->onset_s = rb->wall_s = rb->period_s = rb->window_s = NAN;
-	rb->speed_ref_mps = rb->yaw_ref_radps = rb->wall_dist_m = rb->settle_tol_mps = rb->settle_tol_radps = NAN;
+	rb->speed_ref_mps = rb->yaw_ref_radps = rb->wall_dist_m = rb->settle_tol_mps = rb->settle_tol_radps =
+	        NAN;
 	rb->trim_s = w->n ? w->t[0] : NAN;
 	rb->trim_reason = "none";
 	rb->end_reason = p->n_outline ? "end-of-track" : "no-outline";
@@ -992,8 +1001,9 @@ static void cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *r
 		settle(w, p, rb, spd, on, end > on ? end : on);
 	for (size_t i = 0; i < w->n; i++) {
 		w->seg[i] = -1;
-		w->cut[i] = w->t[i] < rb->trim_s ? WL_CUT_START
-			    : (isfinite(rb->wall_s) && w->t[i] >= rb->wall_s) ? WL_CUT_WALL : WL_CUT_NONE;
+		w->cut[i] = w->t[i] < rb->trim_s                              ? WL_CUT_START
+		            : (isfinite(rb->wall_s) && w->t[i] >= rb->wall_s) ? WL_CUT_WALL
+		                                                              : WL_CUT_NONE;
 	}
 	for (size_t q = 0; q < w->npieces; q++) {
 		size_t a = (size_t)-1, b = 0;
@@ -1093,13 +1103,15 @@ static void fill_row(wl_clean_row *o, const work *w, const wl_clean_raw_track *t
 static void hermite(double p0, double v0, double p1, double v1, double T, double s, double *p, double *v)
 {
 	double u = s / T, u2 = u * u, u3 = u2 * u;
-	*p = (2 * u3 - 3 * u2 + 1) * p0 + (u3 - 2 * u2 + u) * T * v0 + (-2 * u3 + 3 * u2) * p1 + (u3 - u2) * T * v1;
-	*v = ((6 * u2 - 6 * u) * p0 + (3 * u2 - 4 * u + 1) * T * v0 + (-6 * u2 + 6 * u) * p1 + (3 * u2 - 2 * u) * T * v1) /
+	*p = (2 * u3 - 3 * u2 + 1) * p0 + (u3 - 2 * u2 + u) * T * v0 + (-2 * u3 + 3 * u2) * p1 +
+	     (u3 - u2) * T * v1;
+	*v = ((6 * u2 - 6 * u) * p0 + (3 * u2 - 4 * u + 1) * T * v0 + (-6 * u2 + 6 * u) * p1 +
+	      (3 * u2 - 2 * u) * T * v1) /
 	     T;
 }
 
-static wl_status emit_rows(const work *w, const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_result *res,
-			   size_t *cap, wl_clean_robot *rb, wl_err *err)
+static wl_status emit_rows(const work *w, const wl_clean_raw_track *tr, const wl_clean_params *p,
+                           wl_clean_result *res, size_t *cap, wl_clean_robot *rb, wl_err *err)
 {
 	if (p->rate_hz <= 0) {
 		if (!rows_reserve(res, cap, w->n))
@@ -1129,10 +1141,13 @@ static wl_status emit_rows(const work *w, const wl_clean_raw_track *tr, const wl
 			if (b > a) {
 				T = w->t[j + 1] - w->t[j];
 				s = t - w->t[j];
-				hermite(w->x[j], w->vx[j], w->x[j + 1], w->vx[j + 1], T, s, &o->x_m, &o->vx_mps);
-				hermite(w->y[j], w->vy[j], w->y[j + 1], w->vy[j + 1], T, s, &o->y_m, &o->vy_mps);
+				hermite(w->x[j], w->vx[j], w->x[j + 1], w->vx[j + 1], T, s, &o->x_m,
+				        &o->vx_mps);
+				hermite(w->y[j], w->vy[j], w->y[j + 1], w->vy[j + 1], T, s, &o->y_m,
+				        &o->vy_mps);
 				if (isfinite(w->h[j])) {
-					hermite(w->h[j], w->r[j], w->h[j + 1], w->r[j + 1], T, s, &vh, &o->yaw_rate_radps);
+					hermite(w->h[j], w->r[j], w->h[j + 1], w->r[j + 1], T, s, &vh,
+					        &o->yaw_rate_radps);
 					o->heading_rad = wrap_out(vh);
 				}
 				o->speed_mps = hypot(o->vx_mps, o->vy_mps);
@@ -1146,9 +1161,9 @@ static wl_status emit_rows(const work *w, const wl_clean_raw_track *tr, const wl
 /* ---------------------------------------------------------------- driver */
 
 static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
-			     wl_clean_result *res, size_t *cap, wl_err *err)
+                             wl_clean_result *res, size_t *cap, wl_err *err)
 {
-	work w = { 0 };
+	work w = {0};
 	wl_status st;
 	double s;
 	rb->id = tr->id;

@@ -52,12 +52,12 @@ typedef struct {
 } wl_clean_raw_track;
 
 typedef struct {
-	char *path;              /* as given (owned) */
+	char *path; /* as given (owned) */
 	size_t ntracks;
-	wl_clean_raw_track *tracks;    /* in order of first appearance */
+	wl_clean_raw_track *tracks; /* in order of first appearance */
 	size_t nrows;
-	uint64_t bytes;          /* size of the file */
-	char sha256_hex[65];     /* SHA-256 of the file's bytes */
+	uint64_t bytes;      /* size of the file */
+	char sha256_hex[65]; /* SHA-256 of the file's bytes */
 } wl_clean_raw;
 
 #define WL_CLEAN_MAX_ROBOTS 4096
@@ -68,7 +68,8 @@ typedef struct {
  * and line.  *out is freed with wl_clean_raw_destroy. */
 wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
 /* Same over a buffer (name is used in messages; checksum of the buffer). */
-wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out, wl_err *err);
+wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out,
+                                wl_err *err);
 void wl_clean_raw_destroy(wl_clean_raw *raw);
 
 /* ---------------------------------------------------------------- SHA-256 */
@@ -96,11 +97,11 @@ wl_status wl_sha256_file(const char *path, char hex[65], uint64_t *bytes, wl_err
  *   dim 3: Q = q [dt^5/20 dt^4/8 dt^3/6; dt^4/8 dt^3/3 dt^2/2; dt^3/6 dt^2/2 dt]
  * Angular axes take innovations modulo 2 pi (the state is unwrapped). */
 typedef struct {
-	int dim;        /* 2 or 3 */
-	double q;       /* process noise spectral density (units^2 / s^(2 dim - 1)) */
-	double r;       /* measurement variance (units^2) */
-	int angular;    /* 1: innovation wrapped to (-pi, pi] */
-	double P0[3];   /* prior variances of p, v, a at a track's first sample */
+	int dim;      /* 2 or 3 */
+	double q;     /* process noise spectral density (units^2 / s^(2 dim - 1)) */
+	double r;     /* measurement variance (units^2) */
+	int angular;  /* 1: innovation wrapped to (-pi, pi] */
+	double P0[3]; /* prior variances of p, v, a at a track's first sample */
 } wl_kin_cfg;
 
 /* Per-sample storage of the filter and smoother (the caller allocates n). */
@@ -116,7 +117,7 @@ typedef struct {
  * log-likelihood of the innovations in *loglik (may be NULL).  Returns 0 if a
  * covariance became singular.  (Rauch, Tung & Striebel 1965.) */
 int wl_kin_smooth(const wl_kin_cfg *cfg, size_t n, const double *t, const double *z, wl_kin_step *st,
-		  double *loglik);
+                  double *loglik);
 
 /* Lower-level steps used by wl_kin_smooth and by the multi-axis gating in
  * clean.c: prior at sample 0, predict from i-1 to i, update, smooth. */
@@ -162,17 +163,17 @@ typedef struct {
 	int sg_window, sg_order;  /* Savitzky-Golay, default 11 points, order 2 */
 	double max_gap_s;         /* bridge gaps up to this (default 0.5 s) */
 	wl_trim_mode trim;
-	double trim_s;            /* WL_TRIM_FIXED: seconds after the robot's first row */
-	double settle_tol;        /* relative speed tolerance when settled (default 0.02) */
+	double trim_s;               /* WL_TRIM_FIXED: seconds after the robot's first row */
+	double settle_tol;           /* relative speed tolerance when settled (default 0.02) */
 	double settle_yaw_tol_radps; /* absolute yaw-rate tolerance floor (default 0.1) */
-	double default_window_s;  /* settling window when no oscillation is found (1.0 s) */
-	double min_speed_mps;     /* floor of the moving threshold (default 0.005 m/s) */
-	double min_segment_s;     /* shorter pieces are left out, cut 'gap' (default 1.0 s) */
-	double body_diameter_m;   /* default 0.1 m */
-	double wall_margin_m;     /* < 0: body radius */
-	int n_outline;            /* 0: no wall cut */
+	double default_window_s;     /* settling window when no oscillation is found (1.0 s) */
+	double min_speed_mps;        /* floor of the moving threshold (default 0.005 m/s) */
+	double min_segment_s;        /* shorter pieces are left out, cut 'gap' (default 1.0 s) */
+	double body_diameter_m;      /* default 0.1 m */
+	double wall_margin_m;        /* < 0: body radius */
+	int n_outline;               /* 0: no wall cut */
 	double outline_m[WL_CLEAN_MAX_OUTLINE][2];
-	double rate_hz;           /* > 0: resample evenly at this rate */
+	double rate_hz; /* > 0: resample evenly at this rate */
 } wl_clean_params;
 
 /* Fills the documented defaults. */
@@ -191,7 +192,7 @@ typedef struct {
 	long id;
 	double x_m, y_m, heading_rad; /* heading wrapped to (-pi, pi] */
 	double speed_mps, yaw_rate_radps, vx_mps, vy_mps;
-	int segment;                  /* >= 0 analysed, -1 left out (see cut) */
+	int segment; /* >= 0 analysed, -1 left out (see cut) */
 	wl_clean_status status;
 	wl_clean_cut cut;
 	unsigned char heading_outlier, pos_outlier; /* why an outlier */
@@ -217,22 +218,22 @@ typedef struct {
 	wl_clean_segment *segments;
 	int still;
 	double sigma_pos_m, sigma_heading_rad, q_pos, q_heading; /* used */
-	int sigma_estimated;      /* 0 given, 1 estimated, 2 default (too few detections) */
+	int sigma_estimated; /* 0 given, 1 estimated, 2 default (too few detections) */
 	int q_estimated;
 	double speed_threshold_mps, speed_sigma_mps;
-	double period_s;          /* heading oscillation period, NaN if none found */
-	double window_s;          /* settling window used */
+	double period_s; /* heading oscillation period, NaN if none found */
+	double window_s; /* settling window used */
 	double t_first_s, t_last_s;
-	double onset_s;           /* first sustained motion, NaN if still */
-	double trim_s;            /* rows before this are cut 'start' */
-	const char *trim_reason;  /* "settled", "not-settled", "fixed", "none", "still", "too-short",
-				     "no-detections" */
-	double speed_ref_mps, yaw_ref_radps; /* steady values (mean over the second half) */
+	double onset_s;          /* first sustained motion, NaN if still */
+	double trim_s;           /* rows before this are cut 'start' */
+	const char *trim_reason; /* "settled", "not-settled", "fixed", "none", "still", "too-short",
+	                            "no-detections" */
+	double speed_ref_mps, yaw_ref_radps;     /* steady values (mean over the second half) */
 	double settle_tol_mps, settle_tol_radps; /* tolerances used */
-	double wall_s;            /* rows from here are cut 'wall'; NaN none */
-	const char *end_reason;   /* "wall", "end-of-track", "no-outline", "still", "too-short",
-				     "no-detections" */
-	double wall_dist_m;       /* distance to the outline at wall_s */
+	double wall_s;                           /* rows from here are cut 'wall'; NaN none */
+	const char *end_reason; /* "wall", "end-of-track", "no-outline", "still", "too-short",
+	                           "no-detections" */
+	double wall_dist_m;     /* distance to the outline at wall_s */
 } wl_clean_robot;
 
 typedef struct {
@@ -266,7 +267,7 @@ typedef struct {
 /* Writes CLEAN.csv and the sidecar, both atomically; neither is replaced
  * unless both were written.  (cleanio.c) */
 wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_clean_raw *raw,
-			 const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res,
-			 wl_err *err);
+                         const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res,
+                         wl_err *err);
 
 #endif

@@ -33,17 +33,18 @@ wl_status wl_clean_load_outline(const char *cal_path, wl_clean_params *p, char s
 		goto out; /* no outline (calibrate writes an empty array): no wall cut, the CLI says so */
 	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) < 3 || cJSON_GetArraySize(a) > WL_CLEAN_MAX_OUTLINE) {
 		st = wl_err_set(err, WL_EFORMAT,
-				"%s: key 'tank_outline_m' must be an array of 3 to %d [x, y] pairs in metres",
-				cal_path, WL_CLEAN_MAX_OUTLINE);
+		                "%s: key 'tank_outline_m' must be an array of 3 to %d [x, y] pairs in metres",
+		                cal_path, WL_CLEAN_MAX_OUTLINE);
 		goto out;
 	}
 	cJSON_ArrayForEach(pt, a)
 	{
 		const cJSON *x = cJSON_GetArrayItem(pt, 0), *y = cJSON_GetArrayItem(pt, 1);
-		if (!cJSON_IsArray(pt) || cJSON_GetArraySize(pt) != 2 || !cJSON_IsNumber(x) || !cJSON_IsNumber(y) ||
-		    !isfinite(x->valuedouble) || !isfinite(y->valuedouble)) {
-			st = wl_err_set(err, WL_EFORMAT, "%s: key 'tank_outline_m': item %d is not an [x, y] pair of numbers",
-					cal_path, n);
+		if (!cJSON_IsArray(pt) || cJSON_GetArraySize(pt) != 2 || !cJSON_IsNumber(x) ||
+		    !cJSON_IsNumber(y) || !isfinite(x->valuedouble) || !isfinite(y->valuedouble)) {
+			st = wl_err_set(err, WL_EFORMAT,
+			                "%s: key 'tank_outline_m': item %d is not an [x, y] pair of numbers",
+			                cal_path, n);
 			goto out;
 		}
 		p->outline_m[n][0] = x->valuedouble;
@@ -58,8 +59,9 @@ out:
 
 /* ---------------------------------------------------------------- CSV */
 
-static const char *const HEADER[] = { "t_s", "frame", "id", "x_m", "y_m", "heading_rad", "speed_mps",
-				      "yaw_rate_radps", "vx_mps", "vy_mps", "segment", "status", "cut", NULL };
+static const char *const HEADER[] = {
+        "t_s",    "frame",  "id",      "x_m",    "y_m", "heading_rad", "speed_mps", "yaw_rate_radps",
+        "vx_mps", "vy_mps", "segment", "status", "cut", NULL};
 
 static void write_csv(FILE *fp, const wl_clean_result *res)
 {
@@ -102,7 +104,8 @@ static cJSON *params_json(const wl_clean_params *p)
 {
 	cJSON *o = cJSON_CreateObject();
 	cJSON_AddStringToObject(o, "smoother", p->smoother == WL_CLEAN_SG ? "sg" : "rts");
-	cJSON_AddStringToObject(o, "model", p->model_dim == 3 ? "constant-acceleration" : "constant-velocity");
+	cJSON_AddStringToObject(o, "model",
+	                        p->model_dim == 3 ? "constant-acceleration" : "constant-velocity");
 	num(o, "sigma_pos_m_given", p->sigma_pos_m > 0 ? p->sigma_pos_m : NAN);
 	num(o, "sigma_heading_rad_given", p->sigma_heading_rad > 0 ? p->sigma_heading_rad : NAN);
 	num(o, "q_pos_given", p->q_pos > 0 ? p->q_pos : NAN);
@@ -113,7 +116,10 @@ static cJSON *params_json(const wl_clean_params *p)
 		cJSON_AddNumberToObject(o, "sg_order", p->sg_order);
 	}
 	num(o, "max_gap_s", p->max_gap_s);
-	cJSON_AddStringToObject(o, "trim", p->trim == WL_TRIM_AUTO ? "auto" : p->trim == WL_TRIM_NONE ? "none" : "fixed");
+	cJSON_AddStringToObject(o, "trim",
+	                        p->trim == WL_TRIM_AUTO   ? "auto"
+	                        : p->trim == WL_TRIM_NONE ? "none"
+	                                                  : "fixed");
 	if (p->trim == WL_TRIM_FIXED)
 		num(o, "trim_s", p->trim_s);
 	num(o, "settle_tol", p->settle_tol);
@@ -144,13 +150,15 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	n = cJSON_AddObjectToObject(o, "noise");
 	num(n, "sigma_pos_m", rb->sigma_pos_m);
 	num(n, "sigma_heading_rad", rb->sigma_heading_rad);
-	cJSON_AddStringToObject(n, "sigma_source", rb->sigma_estimated == 2 ? "default (too few detections to estimate)"
-						   : rb->sigma_estimated ? "estimated (MAD of neighbour-line residuals)"
-									 : "given");
+	cJSON_AddStringToObject(n, "sigma_source",
+	                        rb->sigma_estimated == 2 ? "default (too few detections to estimate)"
+	                        : rb->sigma_estimated    ? "estimated (MAD of neighbour-line residuals)"
+	                                                 : "given");
 	num(n, "q_pos_m2ps3", rb->q_pos);
 	num(n, "q_heading_rad2ps3", rb->q_heading);
-	cJSON_AddStringToObject(n, "q_source", isfinite(rb->q_pos) ? (rb->q_estimated ? "maximum likelihood" : "given")
-								   : "not used (Savitzky-Golay)");
+	cJSON_AddStringToObject(n, "q_source",
+	                        isfinite(rb->q_pos) ? (rb->q_estimated ? "maximum likelihood" : "given")
+	                                            : "not used (Savitzky-Golay)");
 	num(n, "speed_sigma_mps", rb->speed_sigma_mps);
 	num(o, "t_first_s", rb->t_first_s);
 	num(o, "t_last_s", rb->t_last_s);
@@ -190,7 +198,7 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 }
 
 static char *sidecar_text(const wl_clean_raw *raw, const wl_clean_params *p, const wl_clean_source *src,
-			  const wl_clean_result *res)
+                          const wl_clean_result *res)
 {
 	cJSON *root = cJSON_CreateObject(), *o, *a;
 	char *text;
@@ -209,8 +217,10 @@ static char *sidecar_text(const wl_clean_raw *raw, const wl_clean_params *p, con
 	} else {
 		cJSON_AddNullToObject(o, "path");
 	}
-	cJSON_AddStringToObject(o, "outline_source", p->n_outline == 0 ? "none (no wall cut)"
-						     : src && src->tank_rect ? "--tank rectangle" : "tank_outline_m");
+	cJSON_AddStringToObject(o, "outline_source",
+	                        p->n_outline == 0       ? "none (no wall cut)"
+	                        : src && src->tank_rect ? "--tank rectangle"
+	                                                : "tank_outline_m");
 	a = cJSON_AddArrayToObject(o, "tank_outline_m");
 	for (int i = 0; i < p->n_outline; i++)
 		cJSON_AddItemToArray(a, cJSON_CreateDoubleArray(p->outline_m[i], 2));
@@ -224,8 +234,8 @@ static char *sidecar_text(const wl_clean_raw *raw, const wl_clean_params *p, con
 }
 
 wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_clean_raw *raw,
-			 const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res,
-			 wl_err *err)
+                         const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res,
+                         wl_err *err)
 {
 	wl_afile *fc = NULL, *fj = NULL;
 	char *text = sidecar_text(raw, p, src, res);

@@ -21,7 +21,7 @@
 
 #define WL_PI 3.14159265358979323846
 
-#define IX(i, j) ((i) * 3 + (j))
+#define IX(i, j) ((i)*3 + (j))
 
 static double wrap_pi(double a)
 {
@@ -212,7 +212,7 @@ int wl_kin_backward(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_ste
 }
 
 int wl_kin_smooth(const wl_kin_cfg *cfg, size_t n, const double *t, const double *z, wl_kin_step *st,
-		  double *loglik)
+                  double *loglik)
 {
 	double ll = 0, z0 = 0;
 	size_t i;

@@ -13,7 +13,7 @@
 #include "core/csvio.h"
 
 enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_STATUS, C_N };
-static const char *const REQUIRED[] = { "t_s", "frame", "id", "x_m", "y_m", "heading_rad", "status", NULL };
+static const char *const REQUIRED[] = {"t_s", "frame", "id", "x_m", "y_m", "heading_rad", "status", NULL};
 
 typedef struct {
 	wl_clean_raw *raw;
@@ -28,8 +28,8 @@ static wl_clean_raw_track *find_track(wl_clean_raw *raw, long id, const wl_csv_r
 		if (raw->tracks[i].id == id)
 			return &raw->tracks[i];
 	if (raw->ntracks >= WL_CLEAN_MAX_ROBOTS) {
-		wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d robot ids: is 'id' the robot column?", row->path,
-			   row->line, WL_CLEAN_MAX_ROBOTS);
+		wl_err_set(err, WL_ELIMIT, "%s:%ld: more than %d robot ids: is 'id' the robot column?",
+		           row->path, row->line, WL_CLEAN_MAX_ROBOTS);
 		return NULL;
 	}
 	t = realloc(raw->tracks, (raw->ntracks + 1) * sizeof *t);
@@ -69,14 +69,16 @@ static wl_status parse_row(rctx *c, const wl_csv_row *row, wl_clean_raw_sample *
 	    (st = wl_csv_get_long(row, c->col[C_ID], "id", id, err)))
 		return st;
 	if ((size_t)c->col[C_STATUS] >= row->nfields)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column 'status' is missing on this row (%zu cells)",
-				  row->path, row->line, row->nfields);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: column 'status' is missing on this row (%zu cells)", row->path,
+		                  row->line, row->nfields);
 	status = row->fields[c->col[C_STATUS]];
 	if (word_is(status, "lost"))
 		return WL_OK;
 	if (!word_is(status, "ok"))
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column 'status': '%.40s' is neither 'ok' nor 'lost'",
-				  row->path, row->line, status);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: column 'status': '%.40s' is neither 'ok' nor 'lost'", row->path,
+		                  row->line, status);
 	if ((st = wl_csv_get_double(row, c->col[C_X], "x_m", &s->x_m, err)) ||
 	    (st = wl_csv_get_double(row, c->col[C_Y], "y_m", &s->y_m, err)))
 		return st;
@@ -112,16 +114,19 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		const wl_clean_raw_sample *p = &tr->s[tr->n - 1];
 		if (s.frame == p->frame)
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: frame %ld of robot %ld appears twice (also on line %ld): "
-					  "keep one row per frame and robot", row->path, row->line, s.frame, id, p->line);
+			                  "%s:%ld: frame %ld of robot %ld appears twice (also on line %ld): "
+			                  "keep one row per frame and robot",
+			                  row->path, row->line, s.frame, id, p->line);
 		if (s.frame < p->frame)
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: frame %ld of robot %ld comes after frame %ld (line %ld): "
-					  "rows must be in frame order", row->path, row->line, s.frame, id, p->frame, p->line);
+			                  "%s:%ld: frame %ld of robot %ld comes after frame %ld (line %ld): "
+			                  "rows must be in frame order",
+			                  row->path, row->line, s.frame, id, p->frame, p->line);
 		if (!(s.t_s > p->t_s))
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: time t_s %.6f of robot %ld is not after %.6f (line %ld): "
-					  "times must increase strictly", row->path, row->line, s.t_s, id, p->t_s, p->line);
+			                  "%s:%ld: time t_s %.6f of robot %ld is not after %.6f (line %ld): "
+			                  "times must increase strictly",
+			                  row->path, row->line, s.t_s, id, p->t_s, p->line);
 	}
 	if (tr->n == tr->cap) {
 		size_t cap = tr->cap ? 2 * tr->cap : 256;
@@ -162,7 +167,7 @@ static wl_clean_raw *raw_new(const char *name)
 
 wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err)
 {
-	rctx c = { 0 };
+	rctx c = {0};
 	wl_status st;
 	*out = NULL;
 	if (!(c.raw = raw_new(path)))
@@ -173,9 +178,10 @@ wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err)
 	return finish(&c, st, path, out, err);
 }
 
-wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out, wl_err *err)
+wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out,
+                                wl_err *err)
 {
-	rctx c = { 0 };
+	rctx c = {0};
 	wl_status st;
 	wl_sha256 h;
 	*out = NULL;

@@ -40,7 +40,8 @@ void cli_warn(const char *cmd, const char *fmt, ...)
 int cli_finish(const char *cmd, int status)
 {
 	if (fflush(stdout) != 0 || ferror(stdout)) {
-		fprintf(stderr, "wakeline %s: error: cannot write standard output: %s\n", cmd, strerror(errno));
+		fprintf(stderr, "wakeline %s: error: cannot write standard output: %s\n", cmd,
+		        strerror(errno));
 		return WL_EXIT_FAIL;
 	}
 	return status;

@@ -15,7 +15,9 @@
 #include "core/err.h"
 
 /* Every command's entry point and summary (the list is generated). */
-#define WL_CMD(n) int cmd_##n(int argc, char **argv); extern const char cmd_##n##_summary[];
+#define WL_CMD(n)                                                                                            \
+	int cmd_##n(int argc, char **argv);                                                                  \
+	extern const char cmd_##n##_summary[];
 #include "wl_commands.inc"
 #undef WL_CMD
 

@@ -23,26 +23,26 @@
 const char cmd_measure_summary[] = "per-run measures (turning radius, speed, oscillation) from CLEAN.csv";
 
 static const char usage_text[] =
-	"usage: wakeline measure CLEAN.csv -o SUMMARY.json [options]\n"
-	"\n"
-	"Measures every analysed segment (segment >= 0) of every robot in CLEAN.csv:\n"
-	"signed turning radius and curvature with a 95% interval, arc, path length,\n"
-	"straightness, speed, yaw rate, heading drift, and the yaw and sway\n"
-	"oscillation.  Each robot's longest segment is marked \"headline\": true and\n"
-	"summarised on standard output.  Methods: docs/measure.md.\n"
-	"\n"
-	"options:\n"
-	"  -o, --output FILE           SUMMARY.json to write (required)\n"
-	"      --csv FILE              also write one row per run to FILE\n"
-	"      --body-diameter-m D     body size, for radius_body_diameters\n"
-	"      --commanded-period-s P  oscillation period the robot was commanded,\n"
-	"                              compared with the measured one\n"
-	"      --min-arc-deg A         arcs shorter than A degrees count as straight\n"
-	"                              (default 5)\n"
-	"  -q, --quiet                 no summary on standard output\n"
-	"  -h, --help                  this text\n"
-	"\n"
-	"exit status: 0 ok, 1 failure, 2 usage error.\n";
+        "usage: wakeline measure CLEAN.csv -o SUMMARY.json [options]\n"
+        "\n"
+        "Measures every analysed segment (segment >= 0) of every robot in CLEAN.csv:\n"
+        "signed turning radius and curvature with a 95% interval, arc, path length,\n"
+        "straightness, speed, yaw rate, heading drift, and the yaw and sway\n"
+        "oscillation.  Each robot's longest segment is marked \"headline\": true and\n"
+        "summarised on standard output.  Methods: docs/measure.md.\n"
+        "\n"
+        "options:\n"
+        "  -o, --output FILE           SUMMARY.json to write (required)\n"
+        "      --csv FILE              also write one row per run to FILE\n"
+        "      --body-diameter-m D     body size, for radius_body_diameters\n"
+        "      --commanded-period-s P  oscillation period the robot was commanded,\n"
+        "                              compared with the measured one\n"
+        "      --min-arc-deg A         arcs shorter than A degrees count as straight\n"
+        "                              (default 5)\n"
+        "  -q, --quiet                 no summary on standard output\n"
+        "  -h, --help                  this text\n"
+        "\n"
+        "exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 #define ID_MAX 64
 
@@ -118,9 +118,10 @@ static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 	for (size_t i = 0; i < c->nruns; i++)
 		if (strcmp(c->runs[i].id, r->id) == 0 && c->runs[i].segment == r->segment)
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: segment %ld of id '%s' starts again after other rows (first at line %ld): "
-					  "give each segment of a robot one block of rows",
-					  c->path, r->seg_line, r->segment, r->id, c->runs[i].first_line);
+			                  "%s:%ld: segment %ld of id '%s' starts again after other rows "
+			                  "(first at line %ld): "
+			                  "give each segment of a robot one block of rows",
+			                  c->path, r->seg_line, r->segment, r->id, c->runs[i].first_line);
 	if (c->nruns == c->capruns) {
 		size_t cap = c->capruns ? 2 * c->capruns : 16;
 		run_out *p = realloc(c->runs, cap * sizeof *p);
@@ -132,8 +133,8 @@ static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 	o = &c->runs[c->nruns];
 	memset(o, 0, sizeof *o);
 	if (wl_measure_run(&in, &c->opt, &o->res, &e2) != WL_OK) {
-		cli_warn("measure", "%s:%ld: id '%s' segment %ld not measured: %s", c->path, r->seg_line, r->id,
-			 r->segment, e2.msg);
+		cli_warn("measure", "%s:%ld: id '%s' segment %ld not measured: %s", c->path, r->seg_line,
+		         r->id, r->segment, e2.msg);
 		c->skipped++;
 	} else {
 		memcpy(o->id, r->id, ID_MAX);
@@ -205,12 +206,13 @@ static wl_status on_row(const wl_csv_row *row, void *vctx, wl_err *err)
 		return header_row(c, row, err);
 	c->last_line = row->line;
 	if (wl_csv_empty(row, c->c_id))
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column 'id' is empty: give every row a robot id", row->path,
-				  row->line);
+		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column 'id' is empty: give every row a robot id",
+		                  row->path, row->line);
 	id = row->fields[c->c_id];
 	if (strlen(id) >= ID_MAX)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: id '%.20s...' is longer than %d characters: shorten it",
-				  row->path, row->line, id, ID_MAX - 1);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: id '%.20s...' is longer than %d characters: shorten it", row->path,
+		                  row->line, id, ID_MAX - 1);
 	if ((st = wl_csv_get_double(row, c->c_t, "t_s", &t, err)) ||
 	    (st = wl_csv_get_long(row, c->c_seg, "segment", &seg, err)))
 		return st;
@@ -218,8 +220,9 @@ static wl_status on_row(const wl_csv_row *row, void *vctx, wl_err *err)
 		return WL_ENOMEM;
 	if (!(t > r->last_t_s))
 		return wl_err_set(err, WL_EFORMAT,
-				  "%s:%ld: t_s %.6f of id '%s' is not after its previous row's %.6f: sort the rows by time",
-				  row->path, row->line, t, id, r->last_t_s);
+		                  "%s:%ld: t_s %.6f of id '%s' is not after its previous row's %.6f: sort "
+		                  "the rows by time",
+		                  row->path, row->line, t, id, r->last_t_s);
 	r->last_t_s = t;
 	if (isnan(r->first_t_s))
 		r->first_t_s = t;
@@ -228,11 +231,14 @@ static wl_status on_row(const wl_csv_row *row, void *vctx, wl_err *err)
 	if (seg < 0)
 		return WL_OK;
 	status = c->c_status < (int)row->nfields ? row->fields[c->c_status] : "";
-	if (strcmp(status, "measured") != 0 && strcmp(status, "filled") != 0 && strcmp(status, "outlier") != 0)
+	if (strcmp(status, "measured") != 0 && strcmp(status, "filled") != 0 &&
+	    strcmp(status, "outlier") != 0)
 		return wl_err_set(err, WL_EFORMAT,
-				  "%s:%ld: status '%s' is not measured, filled or outlier: fix the clean stage's output",
-				  row->path, row->line, status);
-	if ((st = opt_double(row, c->c_x, "x_m", &x, err)) || (st = opt_double(row, c->c_y, "y_m", &y, err)) ||
+		                  "%s:%ld: status '%s' is not measured, filled or outlier: fix the clean "
+		                  "stage's output",
+		                  row->path, row->line, status);
+	if ((st = opt_double(row, c->c_x, "x_m", &x, err)) ||
+	    (st = opt_double(row, c->c_y, "y_m", &y, err)) ||
 	    (st = opt_double(row, c->c_h, "heading_rad", &h, err)) ||
 	    (st = opt_double(row, c->c_sp, "speed_mps", &sp, err)) ||
 	    (st = opt_double(row, c->c_yr, "yaw_rate_radps", &yr, err)))
@@ -296,18 +302,36 @@ typedef struct {
 	size_t off; /* offset of the double in wl_measure_result */
 } field;
 
-#define F(k, m) {k, offsetof(wl_measure_result, m)}
+#define F(k, m)                                                                                              \
+	{                                                                                                    \
+		k, offsetof(wl_measure_result, m)                                                            \
+	}
 static const field fields[] = {
-	F("t_start_s", t_start_s), F("duration_s", duration_s), F("tracked_fraction", tracked_fraction),
-	F("path_length_m", path_length_m), F("net_displacement_m", net_displacement_m),
-	F("straightness", straightness), F("mean_speed_mps", mean_speed_mps), F("speed_sd_mps", speed_sd_mps),
-	F("mean_yaw_rate_degps", mean_yaw_rate_degps), F("heading_drift_degps", heading_drift_degps),
-	F("radius_m", radius_m), F("radius_body_diameters", radius_body_diameters),
-	F("curvature_per_m", curvature_per_m), F("curvature_se_per_m", curvature_se_per_m),
-	F("arc_deg", arc_deg), F("centre_x_m", centre_x_m), F("centre_y_m", centre_y_m), F("fit_rms_m", fit_rms_m),
-	F("radius_taubin_m", radius_taubin_m), F("radius_kasa_m", radius_kasa_m),
-	F("yaw_osc_freq_hz", yaw_osc_freq_hz), F("yaw_osc_amp_deg", yaw_osc_amp_deg), F("yaw_osc_r2", yaw_osc_r2),
-	F("sway_osc_freq_hz", sway_osc_freq_hz), F("sway_amp_m", sway_amp_m),
+        F("t_start_s", t_start_s),
+        F("duration_s", duration_s),
+        F("tracked_fraction", tracked_fraction),
+        F("path_length_m", path_length_m),
+        F("net_displacement_m", net_displacement_m),
+        F("straightness", straightness),
+        F("mean_speed_mps", mean_speed_mps),
+        F("speed_sd_mps", speed_sd_mps),
+        F("mean_yaw_rate_degps", mean_yaw_rate_degps),
+        F("heading_drift_degps", heading_drift_degps),
+        F("radius_m", radius_m),
+        F("radius_body_diameters", radius_body_diameters),
+        F("curvature_per_m", curvature_per_m),
+        F("curvature_se_per_m", curvature_se_per_m),
+        F("arc_deg", arc_deg),
+        F("centre_x_m", centre_x_m),
+        F("centre_y_m", centre_y_m),
+        F("fit_rms_m", fit_rms_m),
+        F("radius_taubin_m", radius_taubin_m),
+        F("radius_kasa_m", radius_kasa_m),
+        F("yaw_osc_freq_hz", yaw_osc_freq_hz),
+        F("yaw_osc_amp_deg", yaw_osc_amp_deg),
+        F("yaw_osc_r2", yaw_osc_r2),
+        F("sway_osc_freq_hz", sway_osc_freq_hz),
+        F("sway_amp_m", sway_amp_m),
 };
 #undef F
 
@@ -348,9 +372,10 @@ static cJSON *run_json(const run_out *ro, double commanded)
 		add_num(o, fields[i].key, fval(r, &fields[i]));
 	ci = cJSON_AddArrayToObject(o, "curvature_ci95_per_m");
 	for (int k = 0; ci && k < 2; k++)
-		cJSON_AddItemToArray(ci, isfinite(r->curvature_ci95_per_m[k])
-						 ? cJSON_CreateRaw(wl_fmt_g(b, r->curvature_ci95_per_m[k], 10))
-						 : cJSON_CreateNull());
+		cJSON_AddItemToArray(ci,
+		                     isfinite(r->curvature_ci95_per_m[k])
+		                             ? cJSON_CreateRaw(wl_fmt_g(b, r->curvature_ci95_per_m[k], 10))
+		                             : cJSON_CreateNull());
 	cJSON_AddNumberToObject(o, "curvature_ar_order", r->ar_order);
 	add_num(o, "yaw_osc_period_s", period_s(r));
 	if (isfinite(commanded)) {
@@ -448,12 +473,13 @@ static void print_headline(const run_out *ro)
 	printf("id %s segment %ld (%s s): ", ro->id, ro->segment, wl_fmt_fixed(a, r->duration_s, 1));
 	if (r->straight)
 		printf("straight (curvature %s /m, 95%% [%s, %s])", wl_fmt_fixed(a, r->curvature_per_m, 4),
-		       wl_fmt_fixed(b, r->curvature_ci95_per_m[0], 4), wl_fmt_fixed(c, r->curvature_ci95_per_m[1], 4));
+		       wl_fmt_fixed(b, r->curvature_ci95_per_m[0], 4),
+		       wl_fmt_fixed(c, r->curvature_ci95_per_m[1], 4));
 	else
-		printf("radius %s m %s (curvature %s /m, 95%% [%s, %s], arc %s deg)", wl_fmt_fixed(a, r->radius_m, 3),
-		       r->radius_m > 0 ? "counter-clockwise" : "clockwise", wl_fmt_fixed(b, r->curvature_per_m, 4),
-		       wl_fmt_fixed(c, r->curvature_ci95_per_m[0], 4), wl_fmt_fixed(d, r->curvature_ci95_per_m[1], 4),
-		       wl_fmt_fixed(e, r->arc_deg, 0));
+		printf("radius %s m %s (curvature %s /m, 95%% [%s, %s], arc %s deg)",
+		       wl_fmt_fixed(a, r->radius_m, 3), r->radius_m > 0 ? "counter-clockwise" : "clockwise",
+		       wl_fmt_fixed(b, r->curvature_per_m, 4), wl_fmt_fixed(c, r->curvature_ci95_per_m[0], 4),
+		       wl_fmt_fixed(d, r->curvature_ci95_per_m[1], 4), wl_fmt_fixed(e, r->arc_deg, 0));
 	printf(", speed %s m/s", wl_fmt_fixed(a, r->mean_speed_mps, 3));
 	if (isfinite(r->yaw_osc_freq_hz))
 		printf(", yaw %s deg at %s Hz", wl_fmt_fixed(a, r->yaw_osc_amp_deg, 1),
@@ -473,14 +499,14 @@ static int positive_option(const char *name, const char *arg, double *out)
 int cmd_measure(int argc, char **argv)
 {
 	static const struct option longopts[] = {
-		{"output", required_argument, NULL, 'o'},
-		{"csv", required_argument, NULL, 'c'},
-		{"body-diameter-m", required_argument, NULL, 'b'},
-		{"commanded-period-s", required_argument, NULL, 'p'},
-		{"min-arc-deg", required_argument, NULL, 'a'},
-		{"quiet", no_argument, NULL, 'q'},
-		{"help", no_argument, NULL, 'h'},
-		{NULL, 0, NULL, 0},
+	        {"output", required_argument, NULL, 'o'},
+	        {"csv", required_argument, NULL, 'c'},
+	        {"body-diameter-m", required_argument, NULL, 'b'},
+	        {"commanded-period-s", required_argument, NULL, 'p'},
+	        {"min-arc-deg", required_argument, NULL, 'a'},
+	        {"quiet", no_argument, NULL, 'q'},
+	        {"help", no_argument, NULL, 'h'},
+	        {NULL, 0, NULL, 0},
 	};
 	const char *out = NULL, *csv = NULL;
 	double commanded = NAN;
@@ -525,7 +551,7 @@ int cmd_measure(int argc, char **argv)
 	}
 	if (optind != argc - 1)
 		return cli_usage_error("measure", optind >= argc ? "give the CLEAN.csv to measure"
-								 : "give exactly one CLEAN.csv");
+		                                                 : "give exactly one CLEAN.csv");
 	if (!out)
 		return cli_usage_error("measure", "give the output file with -o SUMMARY.json");
 	c.path = argv[optind];
@@ -545,8 +571,9 @@ int cmd_measure(int argc, char **argv)
 			goto done;
 		}
 	if (c.nruns == 0) {
-		wl_err_set(&err, WL_EFORMAT, "%s: no segment could be measured (%d skipped): check the clean stage's segments",
-			   c.path, c.skipped);
+		wl_err_set(&err, WL_EFORMAT,
+		           "%s: no segment could be measured (%d skipped): check the clean stage's segments",
+		           c.path, c.skipped);
 		rc = cli_fail("measure", &err);
 		goto done;
 	}

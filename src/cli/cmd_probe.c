@@ -18,26 +18,26 @@
 const char cmd_probe_summary[] = "decode a clip and report its format, frame times and damage";
 
 static const char usage_text[] =
-	"usage: wakeline probe [options] CLIP\n"
-	"\n"
-	"Decodes every frame of CLIP and reports the codec, coded and displayed size,\n"
-	"pixel format and range, rotation, the container's duration, the number of\n"
-	"frames decoded, the mean/min/max interval between frames, whether the frame\n"
-	"rate is variable, and any damage (packets or frames the decoder rejected or\n"
-	"flagged) with its frame and time.  Times are seconds since the first frame.\n"
-	"\n"
-	"options:\n"
-	"  --json           print the report as JSON on standard output\n"
-	"  --frames FILE    also write one CSV row per frame: frame,t_s,corrupt,time_guessed\n"
-	"  --threads N      decoding threads (default 0: every core)\n"
-	"  -q, --quiet      no progress line\n"
-	"  -h, --help       this text\n"
-	"\n"
-	"The frame rate is called variable when the longest and shortest intervals\n"
-	"differ by more than 1.5 ms or 2% of the mean interval.\n"
-	"\n"
-	"exit status: 0 the clip decoded without damage; 1 damage was found (the\n"
-	"report is still printed) or the clip cannot be read; 2 usage error.\n";
+        "usage: wakeline probe [options] CLIP\n"
+        "\n"
+        "Decodes every frame of CLIP and reports the codec, coded and displayed size,\n"
+        "pixel format and range, rotation, the container's duration, the number of\n"
+        "frames decoded, the mean/min/max interval between frames, whether the frame\n"
+        "rate is variable, and any damage (packets or frames the decoder rejected or\n"
+        "flagged) with its frame and time.  Times are seconds since the first frame.\n"
+        "\n"
+        "options:\n"
+        "  --json           print the report as JSON on standard output\n"
+        "  --frames FILE    also write one CSV row per frame: frame,t_s,corrupt,time_guessed\n"
+        "  --threads N      decoding threads (default 0: every core)\n"
+        "  -q, --quiet      no progress line\n"
+        "  -h, --help       this text\n"
+        "\n"
+        "The frame rate is called variable when the longest and shortest intervals\n"
+        "differ by more than 1.5 ms or 2% of the mean interval.\n"
+        "\n"
+        "exit status: 0 the clip decoded without damage; 1 damage was found (the\n"
+        "report is still printed) or the clip cannot be read; 2 usage error.\n";
 
 typedef struct {
 	int64_t n;
@@ -149,7 +149,8 @@ static void print_damage(const wl_decoder *dec)
 			printf("  frame %lld", (long long)dm[i].frame_index);
 		else
 			printf("  frame ?");
-		printf(" at %s s: %s\n", isfinite(dm[i].t_s) ? wl_fmt_fixed(b, dm[i].t_s, 6) : "?", dm[i].what);
+		printf(" at %s s: %s\n", isfinite(dm[i].t_s) ? wl_fmt_fixed(b, dm[i].t_s, 6) : "?",
+		       dm[i].what);
 	}
 }
 
@@ -168,15 +169,19 @@ static void text_report(const wl_decoder *dec, const stats *s)
 	printf("coded size     %dx%d px\n", in->width_px, in->height_px);
 	printf("rotation       %d deg counter-clockwise (displayed %dx%d px)\n", in->rotation_deg, wd, hd);
 	printf("duration       %s s (container)\n", fx(b1, in->duration_s, 3));
-	printf("frames         %lld decoded (container lists %lld)\n", (long long)s->n, (long long)in->frames_hint);
-	printf("first frame    at %s s in the container; times below are from it\n", fx(b1, in->first_pts_s, 6));
+	printf("frames         %lld decoded (container lists %lld)\n", (long long)s->n,
+	       (long long)in->frames_hint);
+	printf("first frame    at %s s in the container; times below are from it\n",
+	       fx(b1, in->first_pts_s, 6));
 	printf("last frame     at %s s\n", fx(b1, s->n ? s->last_t : NAN, 6));
-	printf("interval       mean %s s, min %s s, max %s s\n", fx(b1, m, 6), fx(b2, s->n > 1 ? s->min_dt : NAN, 6),
-	       fx(b3, s->n > 1 ? s->max_dt : NAN, 6));
+	printf("interval       mean %s s, min %s s, max %s s\n", fx(b1, m, 6),
+	       fx(b2, s->n > 1 ? s->min_dt : NAN, 6), fx(b3, s->n > 1 ? s->max_dt : NAN, 6));
 	if (s->n > 1)
-		printf("frame rate     %s, %s fps on average\n", is_vfr(s) ? "variable" : "constant", fx(b1, 1.0 / m, 3));
+		printf("frame rate     %s, %s fps on average\n", is_vfr(s) ? "variable" : "constant",
+		       fx(b1, 1.0 / m, 3));
 	if (s->guessed)
-		printf("timestamps     %lld frames had none; their times are extrapolated\n", (long long)s->guessed);
+		printf("timestamps     %lld frames had none; their times are extrapolated\n",
+		       (long long)s->guessed);
 	printf("corrupt frames %lld\n", (long long)s->corrupt);
 	print_damage(dec);
 }
@@ -192,14 +197,14 @@ static wl_status write_frame_row(wl_csv_writer *w, const wl_frame *f)
 }
 
 static wl_status run(const char *clip, const char *frames_csv, int threads, int quiet, int json, int *damaged,
-		     wl_err *err)
+                     wl_err *err)
 {
-	static const char *const header[] = { "frame", "t_s", "corrupt", "time_guessed", NULL };
+	static const char *const header[] = {"frame", "t_s", "corrupt", "time_guessed", NULL};
 	wl_decoder *dec = NULL;
 	wl_afile *af = NULL;
 	wl_csv_writer w;
 	cli_progress prog;
-	stats s = { 0 };
+	stats s = {0};
 	const wl_frame *f;
 	wl_status st;
 
@@ -249,10 +254,12 @@ static wl_status run(const char *clip, const char *frames_csv, int threads, int 
 		int nd;
 		const wl_damage *dm = wl_decoder_damage(dec, &nd);
 		char b[WL_NUMBUF];
-		wl_err_set(err, WL_EDECODE, "%s: frame %lld at %s s: %s (%lld damage reports in all): the clip is damaged; "
-			   "frames around these times may be wrong",
-			   clip, (long long)dm[0].frame_index, isfinite(dm[0].t_s) ? wl_fmt_fixed(b, dm[0].t_s, 3) : "?",
-			   dm[0].what, (long long)wl_decoder_damage_count(dec));
+		wl_err_set(err, WL_EDECODE,
+		           "%s: frame %lld at %s s: %s (%lld damage reports in all): the clip is damaged; "
+		           "frames around these times may be wrong",
+		           clip, (long long)dm[0].frame_index,
+		           isfinite(dm[0].t_s) ? wl_fmt_fixed(b, dm[0].t_s, 3) : "?", dm[0].what,
+		           (long long)wl_decoder_damage_count(dec));
 	}
 out:
 	wl_afile_abort(af);
@@ -263,13 +270,13 @@ out:
 int cmd_probe(int argc, char **argv)
 {
 	static const struct option opts[] = {
-		{ "json", no_argument, NULL, 'j' },     { "frames", required_argument, NULL, 'f' },
-		{ "threads", required_argument, NULL, 't' }, { "quiet", no_argument, NULL, 'q' },
-		{ "help", no_argument, NULL, 'h' },     { NULL, 0, NULL, 0 },
+	        {"json", no_argument, NULL, 'j'},          {"frames", required_argument, NULL, 'f'},
+	        {"threads", required_argument, NULL, 't'}, {"quiet", no_argument, NULL, 'q'},
+	        {"help", no_argument, NULL, 'h'},          {NULL, 0, NULL, 0},
 	};
 	const char *frames_csv = NULL;
 	int json = 0, quiet = 0, threads = 0, damaged = 0, c;
-	wl_err err = { 0 };
+	wl_err err = {0};
 
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "qh", opts, NULL)) != -1) {
@@ -282,7 +289,8 @@ int cmd_probe(int argc, char **argv)
 			break;
 		case 't':
 			if (!cli_parse_int(optarg, &threads) || threads < 0)
-				return cli_usage_error("probe", "--threads wants a whole number >= 0, not '%s'", optarg);
+				return cli_usage_error(
+				        "probe", "--threads wants a whole number >= 0, not '%s'", optarg);
 			break;
 		case 'q':
 			quiet = 1;

@@ -17,24 +17,24 @@
 const char cmd_still_summary[] = "write the frame nearest a time as PNG";
 
 static const char usage_text[] =
-	"usage: wakeline still [options] CLIP --at SECONDS -o FRAME.png\n"
-	"\n"
-	"Writes the frame of CLIP whose time is nearest SECONDS (seconds since the\n"
-	"first frame, as `wakeline probe` counts them; a tie goes to the earlier\n"
-	"frame) as an 8-bit PNG, turned as the clip is meant to be shown (its\n"
-	"rotation metadata applied).  A time past the last frame gives the last\n"
-	"frame, with a warning.\n"
-	"\n"
-	"options:\n"
-	"  --at SECONDS     the time wanted (>= 0)\n"
-	"  -o, --output F   the PNG to write\n"
-	"  --coded          keep the coded orientation (no rotation), as later stages see pixels\n"
-	"  --luma           write the 8-bit luma plane (gray) the tracker uses, instead of RGB\n"
-	"  --threads N      decoding threads (default 0: every core)\n"
-	"  -h, --help       this text\n"
-	"\n"
-	"Prints one line: the file written, the frame's time and its size.\n"
-	"exit status: 0 ok, 1 failure, 2 usage error.\n";
+        "usage: wakeline still [options] CLIP --at SECONDS -o FRAME.png\n"
+        "\n"
+        "Writes the frame of CLIP whose time is nearest SECONDS (seconds since the\n"
+        "first frame, as `wakeline probe` counts them; a tie goes to the earlier\n"
+        "frame) as an 8-bit PNG, turned as the clip is meant to be shown (its\n"
+        "rotation metadata applied).  A time past the last frame gives the last\n"
+        "frame, with a warning.\n"
+        "\n"
+        "options:\n"
+        "  --at SECONDS     the time wanted (>= 0)\n"
+        "  -o, --output F   the PNG to write\n"
+        "  --coded          keep the coded orientation (no rotation), as later stages see pixels\n"
+        "  --luma           write the 8-bit luma plane (gray) the tracker uses, instead of RGB\n"
+        "  --threads N      decoding threads (default 0: every core)\n"
+        "  -h, --help       this text\n"
+        "\n"
+        "Prints one line: the file written, the frame's time and its size.\n"
+        "exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	uint8_t *px;
@@ -56,7 +56,7 @@ static wl_status keep(still *s, const wl_frame *f, int luma, wl_err *err)
 		uint8_t *p = realloc(s->px, need);
 		if (!p)
 			return wl_err_set(err, WL_ENOMEM, "out of memory keeping a %dx%d frame", f->width_px,
-					  f->height_px);
+			                  f->height_px);
 		s->px = p;
 	}
 	s->w = f->width_px;
@@ -64,7 +64,8 @@ static wl_status keep(still *s, const wl_frame *f, int luma, wl_err *err)
 	s->ch = ch;
 	s->stride = f->width_px * ch;
 	for (int y = 0; y < s->h; y++)
-		memcpy(s->px + (size_t)y * (size_t)s->stride, src + (size_t)y * (size_t)stride, (size_t)s->stride);
+		memcpy(s->px + (size_t)y * (size_t)s->stride, src + (size_t)y * (size_t)stride,
+		       (size_t)s->stride);
 	s->t_s = f->t_s;
 	s->corrupt = f->corrupt;
 	s->have = 1;
@@ -123,10 +124,10 @@ static wl_status write_still(const still *s, int rot, const char *out_png, wl_er
 }
 
 static wl_status run(const char *clip, double at_s, const char *out_png, int coded, int luma, int threads,
-		     wl_err *err)
+                     wl_err *err)
 {
 	wl_decoder *dec = NULL;
-	still s = { 0 };
+	still s = {0};
 	wl_status st;
 	int overshot = 0, rot, wd, hd;
 	char b1[WL_NUMBUF], b2[WL_NUMBUF];
@@ -155,8 +156,8 @@ static wl_status run(const char *clip, double at_s, const char *out_png, int cod
 			break;
 	}
 	if (st == WL_OK && !s.have)
-		st = wl_err_set(err, WL_EDECODE, "%s: no frame decoded near %s s: the clip may be damaged", clip,
-				wl_fmt_fixed(b1, at_s, 6));
+		st = wl_err_set(err, WL_EDECODE, "%s: no frame decoded near %s s: the clip may be damaged",
+		                clip, wl_fmt_fixed(b1, at_s, 6));
 	if (st != WL_OK)
 		goto out;
 	rot = coded ? 0 : wl_decoder_info(dec)->rotation_deg;
@@ -180,15 +181,18 @@ out:
 int cmd_still(int argc, char **argv)
 {
 	static const struct option opts[] = {
-		{ "at", required_argument, NULL, 'a' },      { "output", required_argument, NULL, 'o' },
-		{ "coded", no_argument, NULL, 'c' },         { "luma", no_argument, NULL, 'l' },
-		{ "threads", required_argument, NULL, 't' }, { "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
+	        {"at", required_argument, NULL, 'a'},
+	        {"output", required_argument, NULL, 'o'},
+	        {"coded", no_argument, NULL, 'c'},
+	        {"luma", no_argument, NULL, 'l'},
+	        {"threads", required_argument, NULL, 't'},
+	        {"help", no_argument, NULL, 'h'},
+	        {NULL, 0, NULL, 0},
 	};
 	const char *out_png = NULL;
 	double at_s = NAN;
 	int coded = 0, luma = 0, threads = 0, c;
-	wl_err err = { 0 };
+	wl_err err = {0};
 
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:h", opts, NULL)) != -1) {
@@ -208,7 +212,8 @@ int cmd_still(int argc, char **argv)
 			break;
 		case 't':
 			if (!cli_parse_int(optarg, &threads) || threads < 0)
-				return cli_usage_error("still", "--threads wants a whole number >= 0, not '%s'", optarg);
+				return cli_usage_error(
+				        "still", "--threads wants a whole number >= 0, not '%s'", optarg);
 			break;
 		case 'h':
 			fputs(usage_text, stdout);

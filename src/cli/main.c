@@ -17,7 +17,7 @@ typedef struct {
 } command;
 
 static const command commands[] = {
-#define WL_CMD(n) { #n, cmd_##n, cmd_##n##_summary },
+#define WL_CMD(n) {#n, cmd_##n, cmd_##n##_summary},
 #include "wl_commands.inc"
 #undef WL_CMD
 };
@@ -25,12 +25,12 @@ static const command commands[] = {
 static void usage(FILE *fp)
 {
 	fprintf(fp, "usage: wakeline <command> [options]\n\n"
-		    "Overhead video of robots in a tank -> calibrated pose tracks and run measures.\n\n"
-		    "commands:\n");
+	            "Overhead video of robots in a tank -> calibrated pose tracks and run measures.\n\n"
+	            "commands:\n");
 	for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
 		fprintf(fp, "  %-10s %s\n", commands[i].name, commands[i].summary);
 	fprintf(fp, "\n'wakeline <command> --help' shows a command's options.\n"
-		    "exit status: 0 ok, 1 failure, 2 usage error.\n");
+	            "exit status: 0 ok, 1 failure, 2 usage error.\n");
 }
 
 int main(int argc, char **argv)

@@ -35,11 +35,12 @@ wl_status wl_afile_open(const char *path, wl_afile **out, wl_err *err)
 	if (!af->path || !af->tmp)
 		goto nomem;
 	snprintf(af->tmp, n, "%.*s.%s.tmp-%ld-%u", (int)dirlen, path, path + dirlen, (long)getpid(),
-		 atomic_fetch_add(&tmp_counter, 1));
+	         atomic_fetch_add(&tmp_counter, 1));
 	fd = open(af->tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
 	if (fd < 0) {
-		wl_err_set(err, WL_EIO, "cannot create '%s': %s: check that the folder exists and is writable",
-			   path, strerror(errno));
+		wl_err_set(err, WL_EIO,
+		           "cannot create '%s': %s: check that the folder exists and is writable", path,
+		           strerror(errno));
 		goto fail;
 	}
 	af->fp = fdopen(fd, "wb");
@@ -101,8 +102,8 @@ wl_status wl_afile_commit(wl_afile *af, wl_err *err)
 	if (bad) {
 		unlink(af->tmp);
 		st = wl_err_set(err, WL_EIO, "cannot write '%s': %s%s", af->path,
-				saved ? strerror(saved) : "write error",
-				saved == ENOSPC ? ": free some space and run again" : "");
+		                saved ? strerror(saved) : "write error",
+		                saved == ENOSPC ? ": free some space and run again" : "");
 	}
 	afile_free(af);
 	return st;
@@ -128,7 +129,7 @@ wl_status wl_write_file_atomic(const char *path, const void *data, size_t len, w
 		int e = errno;
 		wl_afile_abort(af);
 		return wl_err_set(err, WL_EIO, "cannot write '%s': %s%s", path, strerror(e),
-				  e == ENOSPC ? ": free some space and run again" : "");
+		                  e == ENOSPC ? ": free some space and run again" : "");
 	}
 	return wl_afile_commit(af, err);
 }
@@ -160,8 +161,9 @@ wl_status wl_read_file(const char *path, size_t max_bytes, char **out, size_t *l
 		got = fread(buf + n, 1, cap - n - 1, fp);
 		n += got;
 		if (n > max_bytes) {
-			st = wl_err_set(err, WL_ELIMIT, "'%s' is larger than %zu bytes: is it the right file?",
-					path, max_bytes);
+			st = wl_err_set(err, WL_ELIMIT,
+			                "'%s' is larger than %zu bytes: is it the right file?", path,
+			                max_bytes);
 			goto out;
 		}
 		if (got == 0)
@@ -193,7 +195,8 @@ wl_status wl_mkdirs(const char *path, wl_err *err)
 			char c = *s;
 			*s = '\0';
 			if (mkdir(p, 0755) != 0 && errno != EEXIST) {
-				st = wl_err_set(err, WL_EIO, "cannot create folder '%s': %s", p, strerror(errno));
+				st = wl_err_set(err, WL_EIO, "cannot create folder '%s': %s", p,
+				                strerror(errno));
 				break;
 			}
 			*s = c;

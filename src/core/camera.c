@@ -40,8 +40,8 @@ static int normalise(double v[3])
 
 int wl_camera_look_at(wl_camera *cam, const double eye[3], const double target[3], double roll_rad)
 {
-	double z[3] = { target[0] - eye[0], target[1] - eye[1], target[2] - eye[2] };
-	double up[3] = { 0, 1, 0 }, y[3], x[3], d;
+	double z[3] = {target[0] - eye[0], target[1] - eye[1], target[2] - eye[2]};
+	double up[3] = {0, 1, 0}, y[3], x[3], d;
 	if (!normalise(z))
 		return 0;
 	/* image up = world +y projected onto the image plane; if the axis is
@@ -71,7 +71,8 @@ int wl_camera_look_at(wl_camera *cam, const double eye[3], const double target[3
 		cam->R[6 + i] = z[i];
 	}
 	for (int i = 0; i < 3; i++)
-		cam->t[i] = -(cam->R[i * 3] * eye[0] + cam->R[i * 3 + 1] * eye[1] + cam->R[i * 3 + 2] * eye[2]);
+		cam->t[i] =
+		        -(cam->R[i * 3] * eye[0] + cam->R[i * 3 + 1] * eye[1] + cam->R[i * 3 + 2] * eye[2]);
 	return 1;
 }
 
@@ -209,7 +210,7 @@ int wl_camera_pixel_to_plane(const wl_camera *cam, double u, double v, double z_
 }
 
 int wl_camera_pixel_to_plane_water(const wl_camera *cam, double u, double v, double z_m, double *x_m,
-				   double *y_m)
+                                   double *y_m)
 {
 	double C[3], d[3], lam, sx, sy, sin_a, sin_w, tan_w, hx, hy;
 	double depth = cam->water_depth_m;

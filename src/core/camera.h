@@ -61,7 +61,7 @@ int wl_camera_pixel_to_plane(const wl_camera *cam, double u, double v, double z_
 /* Back-projects a pixel onto the plane z = z_m, refracting at the water
  * surface when z_m lies below it.  Returns 0 on failure. */
 int wl_camera_pixel_to_plane_water(const wl_camera *cam, double u, double v, double z_m, double *x_m,
-				   double *y_m);
+                                   double *y_m);
 
 /* The surface point through which a ray from camera centre C (above the
  * surface, at height h_air above it) reaches a point at horizontal distance

@@ -14,8 +14,8 @@ typedef struct {
 	void *ctx;
 	wl_err *err;
 	wl_status st;
-	long line;       /* physical line being fed */
-	long row_line;   /* line where the current row started (0: no cell yet) */
+	long line;     /* physical line being fed */
+	long row_line; /* line where the current row started (0: no cell yet) */
 	long index;
 	char *fields[WL_CSV_MAX_FIELDS];
 	size_t nfields;
@@ -28,8 +28,9 @@ static void on_field(void *s, size_t len, void *data)
 	if (r->st)
 		return;
 	if (r->nfields >= WL_CSV_MAX_FIELDS) {
-		r->st = wl_err_set(r->err, WL_ELIMIT, "%s:%ld: more than %d cells in a row: is this the right file?",
-				   r->path, r->row_line, WL_CSV_MAX_FIELDS);
+		r->st = wl_err_set(r->err, WL_ELIMIT,
+		                   "%s:%ld: more than %d cells in a row: is this the right file?", r->path,
+		                   r->row_line, WL_CSV_MAX_FIELDS);
 		return;
 	}
 	copy = malloc(len + 1);
@@ -56,7 +57,7 @@ static void on_row(int c, void *data)
 	reader *r = data;
 	(void)c;
 	if (!r->st && r->nfields > 0 && r->fields[0][0] != '#') {
-		wl_csv_row row = { r->path, r->row_line, r->index, r->nfields, r->fields };
+		wl_csv_row row = {r->path, r->row_line, r->index, r->nfields, r->fields};
 		r->st = r->fn(&row, r->ctx, r->err);
 		r->index++;
 	}
@@ -77,7 +78,7 @@ static wl_status feed(reader *r, struct csv_parser *p, const char *buf, size_t n
 	}
 	if (csv_parse(p, buf, n, on_field, on_row, r) != n && !r->st)
 		r->st = wl_err_set(r->err, WL_EFORMAT, "%s:%ld: %s: check the quotes on this line", r->path,
-				   r->line, csv_strerror(csv_error(p)));
+		                   r->line, csv_strerror(csv_error(p)));
 	return r->st;
 }
 
@@ -85,7 +86,7 @@ static wl_status finish(reader *r, struct csv_parser *p)
 {
 	if (!r->st && csv_fini(p, on_field, on_row, r) != 0 && !r->st)
 		r->st = wl_err_set(r->err, WL_EFORMAT, "%s:%ld: %s: a quoted cell is not closed", r->path,
-				   r->line, csv_strerror(csv_error(p)));
+		                   r->line, csv_strerror(csv_error(p)));
 	clear_fields(r);
 	csv_free(p);
 	return r->st;
@@ -99,7 +100,7 @@ static int init_parser(struct csv_parser *p)
 wl_status wl_csv_read(const char *path, wl_csv_row_fn fn, void *ctx, wl_err *err)
 {
 	struct csv_parser p;
-	reader r = { .path = path, .fn = fn, .ctx = ctx, .err = err };
+	reader r = {.path = path, .fn = fn, .ctx = ctx, .err = err};
 	FILE *fp = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
 	char *line = NULL;
 	size_t cap = 0;
@@ -115,13 +116,14 @@ wl_status wl_csv_read(const char *path, wl_csv_row_fn fn, void *ctx, wl_err *err
 	while (!r.st && (n = getline(&line, &cap, fp)) > 0) {
 		r.line++;
 		if (n > WL_CSV_MAX_LINE) {
-			r.st = wl_err_set(err, WL_ELIMIT, "%s:%ld: line longer than %d bytes: is this a CSV file?",
-					  path, r.line, WL_CSV_MAX_LINE);
+			r.st = wl_err_set(err, WL_ELIMIT,
+			                  "%s:%ld: line longer than %d bytes: is this a CSV file?", path,
+			                  r.line, WL_CSV_MAX_LINE);
 			break;
 		}
 		if (memchr(line, '\0', (size_t)n)) {
-			r.st = wl_err_set(err, WL_EFORMAT, "%s:%ld: a NUL byte: this is not a text CSV file", path,
-					  r.line);
+			r.st = wl_err_set(err, WL_EFORMAT, "%s:%ld: a NUL byte: this is not a text CSV file",
+			                  path, r.line);
 			break;
 		}
 		feed(&r, &p, line, (size_t)n);
@@ -135,10 +137,10 @@ wl_status wl_csv_read(const char *path, wl_csv_row_fn fn, void *ctx, wl_err *err
 }
 
 wl_status wl_csv_read_mem(const char *name, const char *data, size_t len, wl_csv_row_fn fn, void *ctx,
-			  wl_err *err)
+                          wl_err *err)
 {
 	struct csv_parser p;
-	reader r = { .path = name, .fn = fn, .ctx = ctx, .err = err };
+	reader r = {.path = name, .fn = fn, .ctx = ctx, .err = err};
 	size_t pos = 0;
 	if (init_parser(&p) != 0)
 		return wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", name);
@@ -147,13 +149,14 @@ wl_status wl_csv_read_mem(const char *name, const char *data, size_t len, wl_csv
 		size_t n = nl ? (size_t)(nl - (data + pos)) + 1 : len - pos;
 		r.line++;
 		if (n > WL_CSV_MAX_LINE) {
-			r.st = wl_err_set(err, WL_ELIMIT, "%s:%ld: line longer than %d bytes: is this a CSV file?",
-					  name, r.line, WL_CSV_MAX_LINE);
+			r.st = wl_err_set(err, WL_ELIMIT,
+			                  "%s:%ld: line longer than %d bytes: is this a CSV file?", name,
+			                  r.line, WL_CSV_MAX_LINE);
 			break;
 		}
 		if (memchr(data + pos, '\0', n)) {
-			r.st = wl_err_set(err, WL_EFORMAT, "%s:%ld: a NUL byte: this is not a text CSV file", name,
-					  r.line);
+			r.st = wl_err_set(err, WL_EFORMAT, "%s:%ld: a NUL byte: this is not a text CSV file",
+			                  name, r.line);
 			break;
 		}
 		feed(&r, &p, data + pos, n);
@@ -190,11 +193,11 @@ wl_status wl_csv_require(const wl_csv_row *header, const char *const *required, 
 			char found[256] = "";
 			size_t used = 0;
 			for (size_t j = 0; j < header->nfields && used < sizeof found - 1; j++)
-				used += (size_t)snprintf(found + used, sizeof found - used, "%s%s", j ? "," : "",
-							 header->fields[j]);
+				used += (size_t)snprintf(found + used, sizeof found - used, "%s%s",
+				                         j ? "," : "", header->fields[j]);
 			return wl_err_set(err, WL_EFORMAT,
-					  "%s:%ld: the header has no column '%s' (found: %s): add the column",
-					  header->path, header->line, required[i], found);
+			                  "%s:%ld: the header has no column '%s' (found: %s): add the column",
+			                  header->path, header->line, required[i], found);
 		}
 	}
 	return WL_OK;
@@ -254,10 +257,11 @@ wl_status wl_csv_get_double(const wl_csv_row *row, int col, const char *name, do
 {
 	if (col < 0 || (size_t)col >= row->nfields)
 		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s' is missing on this row (%zu cells)",
-				  row->path, row->line, name, row->nfields);
+		                  row->path, row->line, name, row->nfields);
 	if (!wl_parse_double(row->fields[col], out))
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s': '%.40s' is not a number (use '.' decimals)",
-				  row->path, row->line, name, row->fields[col]);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: column '%s': '%.40s' is not a number (use '.' decimals)",
+		                  row->path, row->line, name, row->fields[col]);
 	return WL_OK;
 }
 
@@ -265,10 +269,10 @@ wl_status wl_csv_get_long(const wl_csv_row *row, int col, const char *name, long
 {
 	if (col < 0 || (size_t)col >= row->nfields)
 		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s' is missing on this row (%zu cells)",
-				  row->path, row->line, name, row->nfields);
+		                  row->path, row->line, name, row->nfields);
 	if (!wl_parse_long(row->fields[col], out))
 		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s': '%.40s' is not a whole number",
-				  row->path, row->line, name, row->fields[col]);
+		                  row->path, row->line, name, row->fields[col]);
 	return WL_OK;
 }
 

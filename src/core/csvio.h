@@ -19,11 +19,11 @@
 #define WL_CSV_MAX_FIELDS 256
 
 typedef struct {
-	const char *path;  /* the file, for messages */
-	long line;         /* 1-based line on which this row starts */
-	long index;        /* 0-based row index (the header is row 0) */
+	const char *path; /* the file, for messages */
+	long line;        /* 1-based line on which this row starts */
+	long index;       /* 0-based row index (the header is row 0) */
 	size_t nfields;
-	char **fields;     /* NUL-terminated cells, borrowed until the callback returns */
+	char **fields; /* NUL-terminated cells, borrowed until the callback returns */
 } wl_csv_row;
 
 /* Called for each row; a non-WL_OK return stops reading and is returned. */
@@ -34,7 +34,7 @@ wl_status wl_csv_read(const char *path, wl_csv_row_fn fn, void *ctx, wl_err *err
 
 /* Same over a buffer in memory (used by fuzz targets and tests). */
 wl_status wl_csv_read_mem(const char *name, const char *data, size_t len, wl_csv_row_fn fn, void *ctx,
-			  wl_err *err);
+                          wl_err *err);
 
 /* Column index of `name` in a header row, or -1.  Names are compared exactly
  * after trimming spaces. */

@@ -47,15 +47,24 @@ void wl_err_clear(wl_err *err)
 const char *wl_status_name(wl_status code)
 {
 	switch (code) {
-	case WL_OK: return "ok";
-	case WL_EINVAL: return "invalid argument";
-	case WL_EIO: return "i/o error";
-	case WL_EFORMAT: return "bad format";
-	case WL_EDECODE: return "decode error";
-	case WL_ECALIB: return "calibration error";
-	case WL_ETRACK: return "tracking error";
-	case WL_ENOMEM: return "out of memory";
-	case WL_ELIMIT: return "limit exceeded";
+	case WL_OK:
+		return "ok";
+	case WL_EINVAL:
+		return "invalid argument";
+	case WL_EIO:
+		return "i/o error";
+	case WL_EFORMAT:
+		return "bad format";
+	case WL_EDECODE:
+		return "decode error";
+	case WL_ECALIB:
+		return "calibration error";
+	case WL_ETRACK:
+		return "tracking error";
+	case WL_ENOMEM:
+		return "out of memory";
+	case WL_ELIMIT:
+		return "limit exceeded";
 	}
 	return "unknown error";
 }

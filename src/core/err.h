@@ -30,8 +30,7 @@ typedef struct {
 } wl_err;
 
 /* Sets err (if not NULL) and returns code, so that `return wl_err_set(...)` works. */
-wl_status wl_err_set(wl_err *err, wl_status code, const char *fmt, ...)
-	__attribute__((format(printf, 3, 4)));
+wl_status wl_err_set(wl_err *err, wl_status code, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
 wl_status wl_err_vset(wl_err *err, wl_status code, const char *fmt, va_list ap);
 
 /* Prefixes an existing message: "prefix: old message".  Returns err->code. */

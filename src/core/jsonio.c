@@ -45,13 +45,14 @@ wl_status wl_json_parse(const char *name, const char *text, size_t len, cJSON **
 		if (!end)
 			end = text + len;
 		line_col(text, end, &line, &col);
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld:%ld: not valid JSON here: check brackets, commas and quotes",
-				  name, line, col);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld:%ld: not valid JSON here: check brackets, commas and quotes", name,
+		                  line, col);
 	}
 	if (depth_of(j) > WL_JSON_MAX_DEPTH) {
 		cJSON_Delete(j);
-		return wl_err_set(err, WL_ELIMIT, "%s: nested deeper than %d levels: is this the right file?", name,
-				  WL_JSON_MAX_DEPTH);
+		return wl_err_set(err, WL_ELIMIT, "%s: nested deeper than %d levels: is this the right file?",
+		                  name, WL_JSON_MAX_DEPTH);
 	}
 	*out = j;
 	return WL_OK;
@@ -101,18 +102,20 @@ double wl_json_number_or(const cJSON *obj, const char *key, double fallback)
 }
 
 wl_status wl_json_numbers(const cJSON *obj, const char *key, const char *name, double *out, size_t n,
-			  wl_err *err)
+                          wl_err *err)
 {
 	const cJSON *a = cJSON_GetObjectItemCaseSensitive(obj, key), *v;
 	size_t i = 0;
 	if (!a)
 		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' is missing", name, key);
 	if (!cJSON_IsArray(a) || (size_t)cJSON_GetArraySize(a) != n)
-		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' must be an array of %zu numbers", name, key, n);
+		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' must be an array of %zu numbers", name, key,
+		                  n);
 	cJSON_ArrayForEach(v, a)
 	{
 		if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
-			return wl_err_set(err, WL_EFORMAT, "%s: key '%s': item %zu is not a number", name, key, i);
+			return wl_err_set(err, WL_EFORMAT, "%s: key '%s': item %zu is not a number", name,
+			                  key, i);
 		out[i++] = v->valuedouble;
 	}
 	return WL_OK;

@@ -28,7 +28,7 @@ wl_status wl_json_number(const cJSON *obj, const char *key, const char *name, do
 double wl_json_number_or(const cJSON *obj, const char *key, double fallback);
 /* An array of exactly n numbers. */
 wl_status wl_json_numbers(const cJSON *obj, const char *key, const char *name, double *out, size_t n,
-			  wl_err *err);
+                          wl_err *err);
 /* A string; the pointer is borrowed from obj. */
 wl_status wl_json_string(const cJSON *obj, const char *key, const char *name, const char **out, wl_err *err);
 const char *wl_json_string_or(const cJSON *obj, const char *key, const char *fallback);

@@ -54,9 +54,9 @@ struct wl_decoder {
 	double tb_s;       /* stream time base in seconds */
 	double guess_dt_s; /* frame interval used when a frame has no timestamp */
 
-	int have_origin;         /* origin_ts is set */
-	int64_t origin_ts;       /* best-effort timestamp of the first timed frame */
-	double origin_offset_s;  /* t_s given to that frame (non-zero only if untimed frames came first) */
+	int have_origin;        /* origin_ts is set */
+	int64_t origin_ts;      /* best-effort timestamp of the first timed frame */
+	double origin_offset_s; /* t_s given to that frame (non-zero only if untimed frames came first) */
 	int have_last;
 	double last_t_s;
 
@@ -216,13 +216,13 @@ static void fill_info(wl_decoder *dec, const char *path)
 	in->height_px = par->height;
 	in->bit_depth = desc ? desc->comp[0].depth : 0;
 	in->full_range = par->color_range == AVCOL_RANGE_JPEG ||
-			 (desc && strncmp(desc->name, "yuvj", 4) == 0) ||
-			 (desc && (desc->flags & AV_PIX_FMT_FLAG_RGB));
+	                 (desc && strncmp(desc->name, "yuvj", 4) == 0) ||
+	                 (desc && (desc->flags & AV_PIX_FMT_FLAG_RGB));
 
 	sd = av_stream_get_side_data(dec->st, AV_PKT_DATA_DISPLAYMATRIX, &sd_size);
 	in->rotation_deg = (sd && sd_size >= 9 * sizeof(int32_t))
-				   ? wl_orient_from_degrees(av_display_rotation_get((const int32_t *)sd))
-				   : 0;
+	                           ? wl_orient_from_degrees(av_display_rotation_get((const int32_t *)sd))
+	                           : 0;
 
 	if (dec->st->duration != AV_NOPTS_VALUE && dec->st->duration > 0)
 		in->duration_s = (double)dec->st->duration * dec->tb_s;
@@ -250,12 +250,13 @@ static wl_status check_sizes(const AVFormatContext *fmt, const char *path, wl_er
 	for (unsigned i = 0; i < fmt->nb_streams; i++) {
 		const AVCodecParameters *par = fmt->streams[i]->codecpar;
 		if (par->codec_type == AVMEDIA_TYPE_VIDEO && size_too_large(par->width, par->height))
-			return wl_err_set(err, WL_EFORMAT,
-					  "%s: stream %u announces frames of %dx%d pixels, more than the %dx%d "
-					  "and %lld Mpixel wakeline accepts: the header is damaged, or scale "
-					  "the clip down (e.g. ffmpeg -vf scale=1920:-2)",
-					  path, i, par->width, par->height, WL_DECODE_MAX_SIDE_PX,
-					  WL_DECODE_MAX_SIDE_PX, WL_DECODE_MAX_PIXELS / 1000000);
+			return wl_err_set(
+			        err, WL_EFORMAT,
+			        "%s: stream %u announces frames of %dx%d pixels, more than the %dx%d "
+			        "and %lld Mpixel wakeline accepts: the header is damaged, or scale "
+			        "the clip down (e.g. ffmpeg -vf scale=1920:-2)",
+			        path, i, par->width, par->height, WL_DECODE_MAX_SIDE_PX,
+			        WL_DECODE_MAX_SIDE_PX, WL_DECODE_MAX_PIXELS / 1000000);
 	}
 	return WL_OK;
 }
@@ -266,16 +267,18 @@ static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
 	int ret;
 
 	if (stat(path, &sb) != 0)
-		return wl_err_set(err, WL_EIO, "%s: cannot open video: %s: check the path", path, strerror(errno));
+		return wl_err_set(err, WL_EIO, "%s: cannot open video: %s: check the path", path,
+		                  strerror(errno));
 	if (S_ISDIR(sb.st_mode))
-		return wl_err_set(err, WL_EIO, "%s: is a directory, not a video file: give the clip's path", path);
+		return wl_err_set(err, WL_EIO, "%s: is a directory, not a video file: give the clip's path",
+		                  path);
 	if (S_ISREG(sb.st_mode) && sb.st_size == 0)
-		return wl_err_set(err, WL_EFORMAT, "%s: the file is empty: copy the clip again from the camera",
-				  path);
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: the file is empty: copy the clip again from the camera", path);
 	ret = avformat_open_input(&dec->fmt, path, NULL, NULL);
 	if (ret < 0)
 		return av_fail(err, path, "cannot read as video", ret,
-			       "check that it is a video file (MP4, MOV, MKV...) and not truncated");
+		               "check that it is a video file (MP4, MOV, MKV...) and not truncated");
 	/* checked before and after reading the first packets: some demuxers
 	 * (raw video, Y4M) read whole frames of the announced size */
 	if (check_sizes(dec->fmt, path, err) != WL_OK)
@@ -283,7 +286,7 @@ static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
 	ret = avformat_find_stream_info(dec->fmt, NULL);
 	if (ret < 0)
 		return av_fail(err, path, "cannot read the stream headers", ret,
-			       "the file may be damaged; try re-exporting it");
+		               "the file may be damaged; try re-exporting it");
 	return check_sizes(dec->fmt, path, err);
 }
 
@@ -305,17 +308,19 @@ static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_e
 	int ret = av_find_best_stream(dec->fmt, AVMEDIA_TYPE_VIDEO, -1, -1, &codec, 0);
 
 	if (ret < 0 && stream_unknown(dec->fmt))
-		return wl_err_set(err, WL_EFORMAT,
-				  "%s: no readable video stream: the file's index is cut short or damaged (or "
-				  "it is not a video): copy the clip again from the camera",
-				  path);
-	if (ret == AVERROR_STREAM_NOT_FOUND || (ret >= 0 && (dec->fmt->streams[ret]->disposition &
-							    AV_DISPOSITION_ATTACHED_PIC)))
+		return wl_err_set(
+		        err, WL_EFORMAT,
+		        "%s: no readable video stream: the file's index is cut short or damaged (or "
+		        "it is not a video): copy the clip again from the camera",
+		        path);
+	if (ret == AVERROR_STREAM_NOT_FOUND ||
+	    (ret >= 0 && (dec->fmt->streams[ret]->disposition & AV_DISPOSITION_ATTACHED_PIC)))
 		return wl_err_set(err, WL_EFORMAT, "%s: has no video stream: give a video clip, not %s", path,
-				  ret >= 0 ? "a still picture" : "an audio or data file");
+		                  ret >= 0 ? "a still picture" : "an audio or data file");
 	if (ret < 0 || !codec)
-		return av_fail(err, path, "no decoder for the video stream", ret < 0 ? ret : AVERROR_DECODER_NOT_FOUND,
-			       "convert the clip to H.264 (e.g. with ffmpeg -c:v libx264)");
+		return av_fail(err, path, "no decoder for the video stream",
+		               ret < 0 ? ret : AVERROR_DECODER_NOT_FOUND,
+		               "convert the clip to H.264 (e.g. with ffmpeg -c:v libx264)");
 	dec->sidx = ret;
 	dec->st = dec->fmt->streams[ret];
 	dec->tb_s = av_q2d(dec->st->time_base);
@@ -324,14 +329,16 @@ static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_e
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory opening the decoder", path);
 	ret = avcodec_parameters_to_context(dec->cc, dec->st->codecpar);
 	if (ret < 0)
-		return av_fail(err, path, "cannot set up the decoder", ret, "the stream headers may be damaged");
+		return av_fail(err, path, "cannot set up the decoder", ret,
+		               "the stream headers may be damaged");
 	dec->cc->pkt_timebase = dec->st->time_base;
 	dec->cc->max_pixels = WL_DECODE_MAX_PIXELS; /* FFmpeg refuses larger frames mid-stream */
 	dec->cc->thread_type = FF_THREAD_FRAME;
 	dec->cc->thread_count = threads > 0 ? threads : 0;
 	ret = avcodec_open2(dec->cc, codec, NULL);
 	if (ret < 0)
-		return av_fail(err, path, "cannot open the decoder", ret, "the stream headers may be damaged");
+		return av_fail(err, path, "cannot open the decoder", ret,
+		               "the stream headers may be damaged");
 	return WL_OK;
 }
 
@@ -379,10 +386,10 @@ static int luma_is_direct(enum AVPixelFormat f)
 {
 	const AVPixFmtDescriptor *d = av_pix_fmt_desc_get(f);
 	if (!d || (d->flags & (AV_PIX_FMT_FLAG_RGB | AV_PIX_FMT_FLAG_PAL | AV_PIX_FMT_FLAG_BITSTREAM |
-			       AV_PIX_FMT_FLAG_HWACCEL | AV_PIX_FMT_FLAG_FLOAT | AV_PIX_FMT_FLAG_BAYER)))
+	                       AV_PIX_FMT_FLAG_HWACCEL | AV_PIX_FMT_FLAG_FLOAT | AV_PIX_FMT_FLAG_BAYER)))
 		return 0;
-	return d->comp[0].plane == 0 && d->comp[0].step == 1 && d->comp[0].depth == 8 && d->comp[0].shift == 0 &&
-	       d->comp[0].offset == 0;
+	return d->comp[0].plane == 0 && d->comp[0].step == 1 && d->comp[0].depth == 8 &&
+	       d->comp[0].shift == 0 && d->comp[0].offset == 0;
 }
 
 static int frame_full_range(const AVFrame *f)
@@ -445,7 +452,7 @@ static int conv_setup(struct conv *c, const AVFrame *f, enum AVPixelFormat dst_f
 		return 0;
 	/* The matrix (and the same ranges again); refused harmlessly for RGB sources. */
 	sws_setColorspaceDetails(c->sws, sws_getCoefficients(cs), full, sws_getCoefficients(SWS_CS_DEFAULT),
-				 rgb_dst ? 1 : full, 0, 1 << 16, 1 << 16);
+	                         rgb_dst ? 1 : full, 0, 1 << 16, 1 << 16);
 	c->out->format = dst_fmt;
 	c->out->width = f->width;
 	c->out->height = f->height;
@@ -467,28 +474,31 @@ static wl_status convert(wl_decoder *dec, struct conv **cp, int rgb, wl_err *err
 	int full = frame_full_range(f);
 	int cs = (f->colorspace >= 0 && f->colorspace <= 10) ? (int)f->colorspace : SWS_CS_DEFAULT;
 	enum AVPixelFormat dst = rgb ? AV_PIX_FMT_RGB24
-				     : (d && (d->flags & AV_PIX_FMT_FLAG_RGB)) ? AV_PIX_FMT_GRAY8
-									      : yuv8_like((enum AVPixelFormat)f->format);
+	                         : (d && (d->flags & AV_PIX_FMT_FLAG_RGB))
+	                                 ? AV_PIX_FMT_GRAY8
+	                                 : yuv8_like((enum AVPixelFormat)f->format);
 	struct conv *c = *cp;
 
 	if (!c) {
 		c = *cp = calloc(1, sizeof *c);
 		if (!c)
-			return wl_err_set(err, WL_ENOMEM, "%s: out of memory converting a frame", dec->info.path);
+			return wl_err_set(err, WL_ENOMEM, "%s: out of memory converting a frame",
+			                  dec->info.path);
 	}
-	if (!c->sws || c->w != f->width || c->h != f->height || c->src_fmt != f->format || c->src_full != full ||
-	    c->cs != cs) {
+	if (!c->sws || c->w != f->width || c->h != f->height || c->src_fmt != f->format ||
+	    c->src_full != full || c->cs != cs) {
 		if (!conv_setup(c, f, dst, full, cs)) {
 			c->w = 0; /* set up again next time */
-			return wl_err_set(err, WL_EDECODE,
-					  "%s: frame %lld: cannot convert pixel format '%s' to 8 bits: re-encode the "
-					  "clip as yuv420p",
-					  dec->info.path, (long long)dec->nframes,
-					  av_get_pix_fmt_name((enum AVPixelFormat)f->format));
+			return wl_err_set(
+			        err, WL_EDECODE,
+			        "%s: frame %lld: cannot convert pixel format '%s' to 8 bits: re-encode the "
+			        "clip as yuv420p",
+			        dec->info.path, (long long)dec->nframes,
+			        av_get_pix_fmt_name((enum AVPixelFormat)f->format));
 		}
 	}
 	sws_scale(c->sws, (const uint8_t *const *)f->data, f->linesize, 0, f->height, c->out->data,
-		  c->out->linesize);
+	          c->out->linesize);
 	return WL_OK;
 }
 
@@ -569,7 +579,7 @@ static void feed(wl_decoder *dec)
 		if (ret < 0) {
 			if (ret != AVERROR_EOF)
 				add_damage(dec, next_index(dec), dec->have_last ? dec->last_t_s : NAN,
-					   "read error, stream ends here", ret);
+				           "read error, stream ends here", ret);
 			avcodec_send_packet(dec->cc, NULL);
 			dec->draining = 1;
 			return;
@@ -579,8 +589,8 @@ static void feed(wl_decoder *dec)
 			return;
 		}
 		if (dec->pkt->flags & AV_PKT_FLAG_CORRUPT)
-			add_damage(dec, packet_index(dec, dec->pkt->pts), ts_to_t(dec, dec->pkt->pts), "packet is corrupt or cut short",
-				   0);
+			add_damage(dec, packet_index(dec, dec->pkt->pts), ts_to_t(dec, dec->pkt->pts),
+			           "packet is corrupt or cut short", 0);
 	}
 	ret = avcodec_send_packet(dec->cc, dec->pkt);
 	if (ret == AVERROR(EAGAIN)) {
@@ -588,7 +598,8 @@ static void feed(wl_decoder *dec)
 		return;
 	}
 	if (ret < 0)
-		add_damage(dec, packet_index(dec, dec->pkt->pts), ts_to_t(dec, dec->pkt->pts), "packet rejected by the decoder", ret);
+		add_damage(dec, packet_index(dec, dec->pkt->pts), ts_to_t(dec, dec->pkt->pts),
+		           "packet rejected by the decoder", ret);
 	dec->pkt_pending = 0;
 	av_packet_unref(dec->pkt);
 }
@@ -611,8 +622,9 @@ static void check_end(wl_decoder *dec)
 		return;
 	dec->end_checked = 1;
 	if (in->frames_hint > 0 && dec->nframes + 2 < in->frames_hint) {
-		snprintf(what, sizeof what, "stream ends early: %lld of the %lld frames listed (file cut short?)",
-			 (long long)dec->nframes, (long long)in->frames_hint);
+		snprintf(what, sizeof what,
+		         "stream ends early: %lld of the %lld frames listed (file cut short?)",
+		         (long long)dec->nframes, (long long)in->frames_hint);
 		add_damage(dec, dec->nframes, dec->last_t_s, what, 0);
 		return;
 	}
@@ -627,8 +639,9 @@ static void check_end(wl_decoder *dec)
 	end = in->first_pts_s + span;
 	if (isfinite(dur) && span + 2 * dt + 0.5 < dur && (!isfinite(end) || end + 2 * dt + 0.5 < dur)) {
 		char b1[WL_NUMBUF], b2[WL_NUMBUF];
-		snprintf(what, sizeof what, "stream ends early: at %s s of the %s s announced (file cut short?)",
-			 wl_fmt_fixed(b1, span, 3), wl_fmt_fixed(b2, dur, 3));
+		snprintf(what, sizeof what,
+		         "stream ends early: at %s s of the %s s announced (file cut short?)",
+		         wl_fmt_fixed(b1, span, 3), wl_fmt_fixed(b2, dur, 3));
 		add_damage(dec, dec->nframes, dec->last_t_s, what, 0);
 	}
 }
@@ -640,7 +653,8 @@ wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	while (!dec->finished) {
 		int ret = avcodec_receive_frame(dec->cc, dec->frame);
 		if (ret == 0 && size_too_large(dec->frame->width, dec->frame->height)) {
-			add_damage(dec, next_index(dec), NAN, "frame larger than the decoder's bound, skipped", 0);
+			add_damage(dec, next_index(dec), NAN,
+			           "frame larger than the decoder's bound, skipped", 0);
 			av_frame_unref(dec->frame);
 			continue;
 		}
@@ -654,7 +668,8 @@ wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 		} else if (ret != AVERROR(EAGAIN)) {
 			add_damage(dec, next_index(dec), NAN, "frame could not be decoded", ret);
 			if (++dec->errors_in_a_row > MAX_ERRORS_IN_A_ROW) {
-				add_damage(dec, next_index(dec), NAN, "too many errors in a row, decoding stopped", 0);
+				add_damage(dec, next_index(dec), NAN,
+				           "too many errors in a row, decoding stopped", 0);
 				dec->finished = 1;
 			}
 		} else if (dec->draining) {
@@ -665,9 +680,9 @@ wl_status wl_decoder_next(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	}
 	if (dec->nframes == 0)
 		return wl_err_set(err, WL_EDECODE,
-				  "%s: no frame could be decoded (%lld errors): the clip is damaged or not a "
-				  "video; try playing or re-exporting it",
-				  dec->info.path, (long long)dec->ndamage);
+		                  "%s: no frame could be decoded (%lld errors): the clip is damaged or not a "
+		                  "video; try playing or re-exporting it",
+		                  dec->info.path, (long long)dec->ndamage);
 	return WL_OK;
 }
 
@@ -679,7 +694,8 @@ wl_status wl_decoder_seek(wl_decoder *dec, double t_s, wl_err *err)
 	int ret;
 
 	if (!isfinite(t_s))
-		return wl_err_set(err, WL_EINVAL, "%s: cannot seek to a time that is not a number", dec->info.path);
+		return wl_err_set(err, WL_EINVAL, "%s: cannot seek to a time that is not a number",
+		                  dec->info.path);
 	if (!dec->have_origin) {
 		/* The time origin is the first frame: decode it first. */
 		if (dec->nframes == 0) {
@@ -688,8 +704,9 @@ wl_status wl_decoder_seek(wl_decoder *dec, double t_s, wl_err *err)
 				return st;
 		}
 		if (!dec->have_origin)
-			return wl_err_set(err, WL_EDECODE, "%s: cannot seek: the first frame has no timestamp",
-					  dec->info.path);
+			return wl_err_set(err, WL_EDECODE,
+			                  "%s: cannot seek: the first frame has no timestamp",
+			                  dec->info.path);
 	}
 	target = dec->origin_ts + (int64_t)llround((t_s - dec->origin_offset_s) / dec->tb_s);
 	if (t_s <= 0)

@@ -53,23 +53,23 @@ typedef struct {
 } wl_video_info;
 
 typedef struct {
-	int64_t index;         /* 0-based, in presentation order; -1 after wl_decoder_seek (unknown) */
-	double t_s;            /* seconds since the first frame's presentation time */
+	int64_t index;           /* 0-based, in presentation order; -1 after wl_decoder_seek (unknown) */
+	double t_s;              /* seconds since the first frame's presentation time */
 	int width_px, height_px; /* coded size */
-	const uint8_t *luma;   /* 8-bit, in the stream's range: 16..235 for limited-range ("tv")
-				* sources, 0..255 for full-range (yuvj, "pc") ones; see info.full_range.
-				* Points into the decoded frame for 8-bit YUV; converted otherwise. */
-	int luma_stride;       /* bytes per row (rows are padded) */
-	const uint8_t *rgb;    /* packed RGB24 when WL_DECODE_RGB, else NULL */
+	const uint8_t *luma;     /* 8-bit, in the stream's range: 16..235 for limited-range ("tv")
+	                          * sources, 0..255 for full-range (yuvj, "pc") ones; see info.full_range.
+	                          * Points into the decoded frame for 8-bit YUV; converted otherwise. */
+	int luma_stride;         /* bytes per row (rows are padded) */
+	const uint8_t *rgb;      /* packed RGB24 when WL_DECODE_RGB, else NULL */
 	int rgb_stride;
-	int corrupt;           /* the decoder flagged this frame (concealed errors) */
-	int time_guessed;      /* no timestamp: t_s extrapolated from the frame rate */
+	int corrupt;      /* the decoder flagged this frame (concealed errors) */
+	int time_guessed; /* no timestamp: t_s extrapolated from the frame rate */
 } wl_frame;
 
 /* One reported damage: a packet or frame that failed or was flagged. */
 typedef struct {
 	int64_t frame_index; /* the frame it concerns (for a packet: estimated from its time), or the
-			      * next frame out; -1 if unknown (after a seek) */
+	                      * next frame out; -1 if unknown (after a seek) */
 	double t_s;          /* its time, NaN if unknown */
 	char what[96];
 } wl_damage;

@@ -13,7 +13,7 @@
 #include "decode/decode.h"
 
 void wl_image_orient(int rot_deg, const uint8_t *src, int w, int h, int stride, int channels, uint8_t *dst,
-		     int dst_stride)
+                     int dst_stride)
 {
 	int wd, hd;
 	wl_orient_displayed_size(rot_deg, w, h, &wd, &hd);
@@ -23,13 +23,14 @@ void wl_image_orient(int rot_deg, const uint8_t *src, int w, int h, int stride, 
 			double u, v;
 			wl_orient_to_coded(rot_deg, w, h, ud, vd, &u, &v);
 			memcpy(row + (size_t)ud * (size_t)channels,
-			       src + (size_t)v * (size_t)stride + (size_t)u * (size_t)channels, (size_t)channels);
+			       src + (size_t)v * (size_t)stride + (size_t)u * (size_t)channels,
+			       (size_t)channels);
 		}
 	}
 }
 
-static wl_status encode_png(const uint8_t *data, int width, int height, int stride, int channels, AVPacket *pkt,
-			    wl_err *err)
+static wl_status encode_png(const uint8_t *data, int width, int height, int stride, int channels,
+                            AVPacket *pkt, wl_err *err)
 {
 	const AVCodec *codec = avcodec_find_encoder(AV_CODEC_ID_PNG);
 	AVCodecContext *cc = NULL;
@@ -38,7 +39,8 @@ static wl_status encode_png(const uint8_t *data, int width, int height, int stri
 	int ret;
 
 	if (!codec)
-		return wl_err_set(err, WL_EDECODE, "no PNG encoder in this FFmpeg build: install libavcodec with PNG");
+		return wl_err_set(err, WL_EDECODE,
+		                  "no PNG encoder in this FFmpeg build: install libavcodec with PNG");
 	cc = avcodec_alloc_context3(codec);
 	fr = av_frame_alloc();
 	if (!cc || !fr) {
@@ -48,7 +50,7 @@ static wl_status encode_png(const uint8_t *data, int width, int height, int stri
 	cc->width = width;
 	cc->height = height;
 	cc->pix_fmt = channels == 3 ? AV_PIX_FMT_RGB24 : AV_PIX_FMT_GRAY8;
-	cc->time_base = (AVRational){ 1, 1 };
+	cc->time_base = (AVRational){1, 1};
 	ret = avcodec_open2(cc, codec, NULL);
 	if (ret < 0) {
 		st = wl_err_set(err, WL_EDECODE, "cannot open the PNG encoder (%dx%d)", width, height);
@@ -74,15 +76,16 @@ out:
 }
 
 wl_status wl_png_write(const char *path, const uint8_t *data, int width, int height, int stride, int channels,
-		       wl_err *err)
+                       wl_err *err)
 {
 	AVPacket *pkt;
 	wl_status st;
 
 	av_log_set_level(AV_LOG_QUIET); /* the library never prints (process-wide, as in decode.c) */
 	if (width <= 0 || height <= 0 || (channels != 1 && channels != 3) || stride < width * channels)
-		return wl_err_set(err, WL_EINVAL, "%s: cannot write a %dx%d image with %d channels, stride %d", path,
-				  width, height, channels, stride);
+		return wl_err_set(err, WL_EINVAL,
+		                  "%s: cannot write a %dx%d image with %d channels, stride %d", path, width,
+		                  height, channels, stride);
 	pkt = av_packet_alloc();
 	if (!pkt)
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);

@@ -17,13 +17,13 @@
  * channel count, WL_EDECODE if the encoder fails, WL_EIO naming the path if
  * it cannot be written. */
 wl_status wl_png_write(const char *path, const uint8_t *data, int width, int height, int stride, int channels,
-		       wl_err *err);
+                       wl_err *err);
 
 /* Copies a coded w×h image into its displayed orientation (turned rot_deg
  * counter-clockwise, see wl_orient_to_displayed).  dst must hold the
  * displayed size (wl_orient_displayed_size) with rows dst_stride bytes apart;
  * src and dst must not overlap. */
 void wl_image_orient(int rot_deg, const uint8_t *src, int w, int h, int stride, int channels, uint8_t *dst,
-		     int dst_stride);
+                     int dst_stride);
 
 #endif

@@ -46,8 +46,9 @@ static wl_status av_fail(wl_err *err, int rc, const char *path, const char *what
 {
 	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
 	av_strerror(rc, buf, sizeof buf);
-	return wl_err_set(err, rc == AVERROR(ENOSPC) ? WL_EIO : WL_EDECODE, "cannot write video '%s': %s: %s%s", path,
-			  what, buf, rc == AVERROR(ENOSPC) ? ": free some space and run again" : "");
+	return wl_err_set(err, rc == AVERROR(ENOSPC) ? WL_EIO : WL_EDECODE,
+	                  "cannot write video '%s': %s: %s%s", path, what, buf,
+	                  rc == AVERROR(ENOSPC) ? ": free some space and run again" : "");
 }
 
 static void vw_free(wl_vwriter *w)

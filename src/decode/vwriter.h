@@ -18,14 +18,14 @@
 typedef struct wl_vwriter wl_vwriter;
 
 typedef struct {
-	int width_px, height_px;   /* even sizes */
-	int time_base_den;         /* timestamps are multiples of 1/time_base_den s (e.g. 1000 or 30000) */
-	double nominal_fps;        /* for the encoder's rate control */
-	int rotation_deg;          /* display matrix to store: 0, 90, 180, 270 (counter-clockwise) */
-	int crf;                   /* x264 quality (0 lossless .. 51); 0 means default 20 */
-	int bit_rate_bps;          /* if > 0, target this bit rate instead of crf */
-	int b_frames;              /* max B-frames (x264 default 3 if < 0) */
-	int threads;               /* 0: all cores */
+	int width_px, height_px; /* even sizes */
+	int time_base_den;       /* timestamps are multiples of 1/time_base_den s (e.g. 1000 or 30000) */
+	double nominal_fps;      /* for the encoder's rate control */
+	int rotation_deg;        /* display matrix to store: 0, 90, 180, 270 (counter-clockwise) */
+	int crf;                 /* x264 quality (0 lossless .. 51); 0 means default 20 */
+	int bit_rate_bps;        /* if > 0, target this bit rate instead of crf */
+	int b_frames;            /* max B-frames (x264 default 3 if < 0) */
+	int threads;             /* 0: all cores */
 } wl_vwriter_opts;
 
 wl_status wl_vwriter_open(const char *path, const wl_vwriter_opts *opts, wl_vwriter **out, wl_err *err);

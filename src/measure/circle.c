@@ -15,10 +15,9 @@
 
 #define PI 3.14159265358979323846
 
-
 /* Centred moments used by the Pratt and Taubin fits (Chernov 2010, §5). */
 typedef struct {
-	double mx, my;                          /* centroid */
+	double mx, my;                           /* centroid */
 	double Mxx, Myy, Mxy, Mxz, Myz, Mzz, Mz; /* averages over the points */
 } moments;
 
@@ -81,7 +80,8 @@ wl_status wl_measure_fit_kasa(const double *x, const double *y, size_t n, wl_cir
 	}
 	a[3] = a[1], a[6] = a[2], a[7] = a[5], a[8] = (double)n;
 	if (!wl_solve(a, b, 3))
-		return wl_err_set(err, WL_EINVAL, "kasa circle fit: the points are collinear: no finite circle");
+		return wl_err_set(err, WL_EINVAL,
+		                  "kasa circle fit: the points are collinear: no finite circle");
 	r2 = 0.25 * (b[0] * b[0] + b[1] * b[1]) - b[2];
 	if (!(r2 > 0) || !isfinite(r2))
 		return wl_err_set(err, WL_EINVAL, "kasa circle fit: degenerate points: no finite circle");
@@ -112,13 +112,14 @@ static double newton_root(double a0, double a1, double a2, double a3, double a4)
 }
 
 /* Centre from the root x of either characteristic polynomial. */
-static wl_status centre_from_root(const moments *m, double x, double r2_extra, const char *what, wl_circle *out,
-				  wl_err *err)
+static wl_status centre_from_root(const moments *m, double x, double r2_extra, const char *what,
+                                  wl_circle *out, wl_err *err)
 {
 	double cov_xy = m->Mxx * m->Myy - m->Mxy * m->Mxy;
 	double det = x * x - x * m->Mz + cov_xy, xc, yc, r2;
 	if (!(fabs(det) > 1e-14 * m->Mz * m->Mz))
-		return wl_err_set(err, WL_EINVAL, "%s circle fit: the points are collinear: no finite circle", what);
+		return wl_err_set(err, WL_EINVAL, "%s circle fit: the points are collinear: no finite circle",
+		                  what);
 	xc = (m->Mxz * (m->Myy - x) - m->Myz * m->Mxy) / det / 2;
 	yc = (m->Myz * (m->Mxx - x) - m->Mxz * m->Mxy) / det / 2;
 	r2 = xc * xc + yc * yc + m->Mz + r2_extra;
@@ -143,7 +144,8 @@ wl_status wl_measure_fit_pratt(const double *x, const double *y, size_t n, wl_ci
 	var_z = m.Mzz - m.Mz * m.Mz;
 	a2 = 4 * cov_xy - 3 * m.Mz * m.Mz - m.Mzz;
 	a1 = var_z * m.Mz + 4 * cov_xy * m.Mz - m.Mxz * m.Mxz - m.Myz * m.Myz;
-	a0 = m.Mxz * (m.Mxz * m.Myy - m.Myz * m.Mxy) + m.Myz * (m.Myz * m.Mxx - m.Mxz * m.Mxy) - var_z * cov_xy;
+	a0 = m.Mxz * (m.Mxz * m.Myy - m.Myz * m.Mxy) + m.Myz * (m.Myz * m.Mxx - m.Mxz * m.Mxy) -
+	     var_z * cov_xy;
 	root = newton_root(a0, a1, a2, 0, 4);
 	return centre_from_root(&m, root, 2 * root, "pratt", out, err);
 }
@@ -162,7 +164,8 @@ wl_status wl_measure_fit_taubin(const double *x, const double *y, size_t n, wl_c
 	a3 = 4 * m.Mz;
 	a2 = -3 * m.Mz * m.Mz - m.Mzz;
 	a1 = var_z * m.Mz + 4 * cov_xy * m.Mz - m.Mxz * m.Mxz - m.Myz * m.Myz;
-	a0 = m.Mxz * (m.Mxz * m.Myy - m.Myz * m.Mxy) + m.Myz * (m.Myz * m.Mxx - m.Mxz * m.Mxy) - var_z * cov_xy;
+	a0 = m.Mxz * (m.Mxz * m.Myy - m.Myz * m.Mxy) + m.Myz * (m.Myz * m.Mxx - m.Mxz * m.Mxy) -
+	     var_z * cov_xy;
 	root = newton_root(a0, a1, a2, a3, 0);
 	return centre_from_root(&m, root, 0, "taubin", out, err);
 }
@@ -237,7 +240,8 @@ static double cost(const problem *pb, const double *p)
 
 /* Total-least-squares line: unit direction oriented from the first point
  * toward the last, and the centroid. */
-static void tls_line(const double *x, const double *y, size_t n, double *ux, double *uy, double *mx, double *my)
+static void tls_line(const double *x, const double *y, size_t n, double *ux, double *uy, double *mx,
+                     double *my)
 {
 	double a[4] = {0}, ev[2], vec[4];
 	*mx = *my = 0;
@@ -426,7 +430,7 @@ static double *sway_table(const double *t, size_t n, double w)
 }
 
 wl_status wl_measure_fit_geometric_sway(const double *x, const double *y, const double *t, size_t n,
-					double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err)
+                                        double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err)
 {
 	double p[NP_MAX];
 	wl_geofit first;
@@ -435,10 +439,12 @@ wl_status wl_measure_fit_geometric_sway(const double *x, const double *y, const 
 	if (st)
 		return st;
 	if (!(freq_hz > 0) || !isfinite(freq_hz) || n < 6)
-		return wl_err_set(err, WL_EINVAL, "geometric circle fit with sway: frequency %g Hz or %zu points", freq_hz,
-				  n);
+		return wl_err_set(err, WL_EINVAL,
+		                  "geometric circle fit with sway: frequency %g Hz or %zu points", freq_hz,
+		                  n);
 	if (!(pb.cs = sway_table(t, n, pb.w)))
-		return wl_err_set(err, WL_ENOMEM, "geometric circle fit with sway: out of memory for %zu points", n);
+		return wl_err_set(err, WL_ENOMEM,
+		                  "geometric circle fit with sway: out of memory for %zu points", n);
 	*out = first;
 	out->sway_freq_hz = freq_hz;
 	out->sway_a_m = a0_m;
@@ -496,10 +502,11 @@ static int levinson_aic(const double *g, int pmax, size_t n, double phi[AR_MAX +
 }
 
 wl_status wl_measure_curvature_se(const double *x, const double *y, const double *t, size_t n,
-				  const wl_geofit *f, double *se, int *order_out, wl_err *err)
+                                  const wl_geofit *f, double *se, int *order_out, wl_err *err)
 {
 	double H[NP_MAX * NP_MAX], Hi[NP_MAX * NP_MAX], Om[NP_MAX * NP_MAX] = {0}, T[NP_MAX * NP_MAX],
-	       C[NP_MAX * NP_MAX], p[NP_MAX], g[NP_MAX], acov[AR_MAX + 1] = {0}, v[AR_MAX + 1];
+	                                                            C[NP_MAX * NP_MAX], p[NP_MAX], g[NP_MAX],
+	                                                            acov[AR_MAX + 1] = {0}, v[AR_MAX + 1];
 	double phi[AR_MAX + 1][AR_MAX + 1];
 	double *r = NULL, *Z = NULL;
 	problem pb = {x, y, t, NULL, n, f->ref_x_m, f->ref_y_m, 2 * PI * f->sway_freq_hz, 3};
@@ -507,7 +514,8 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 	int np, order, pmax;
 	if (f->sway_freq_hz > 0) {
 		if (!t)
-			return wl_err_set(err, WL_EINVAL, "curvature uncertainty: a fit with sway needs the times");
+			return wl_err_set(err, WL_EINVAL,
+			                  "curvature uncertainty: a fit with sway needs the times");
 		pb.np = 5;
 	}
 	np = pb.np;
@@ -524,7 +532,8 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 	packed(f, p);
 	normal_eq(&pb, p, H, g);
 	if (!wl_invert(H, Hi, np)) {
-		st = wl_err_set(err, WL_EINVAL, "curvature uncertainty: the fit is singular (too few distinct points)");
+		st = wl_err_set(err, WL_EINVAL,
+		                "curvature uncertainty: the fit is singular (too few distinct points)");
 		goto out;
 	}
 	for (size_t i = 0; i < n; i++)

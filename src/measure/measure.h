@@ -64,7 +64,8 @@ typedef struct {
 	double sway_freq_hz, sway_a_m, sway_b_m;
 } wl_geofit;
 
-wl_status wl_measure_fit_geometric(const double *x_m, const double *y_m, size_t n, wl_geofit *out, wl_err *err);
+wl_status wl_measure_fit_geometric(const double *x_m, const double *y_m, size_t n, wl_geofit *out,
+                                   wl_err *err);
 
 /* The same circle fitted jointly with a sinusoidal lateral sway of known
  * frequency (t_s absolute times, a0/b0 start values of its coefficients):
@@ -73,7 +74,8 @@ wl_status wl_measure_fit_geometric(const double *x_m, const double *y_m, size_t 
  * would pull the circle; fitting it removes that pull and leaves residuals
  * the uncertainty estimate can treat as noise. */
 wl_status wl_measure_fit_geometric_sway(const double *x_m, const double *y_m, const double *t_s, size_t n,
-					double freq_hz, double a0_m, double b0_m, wl_geofit *out, wl_err *err);
+                                        double freq_hz, double a0_m, double b0_m, wl_geofit *out,
+                                        wl_err *err);
 
 /* Signed distance of a point from the fitted circle (or line), positive to
  * the left of the direction of travel (the fitted sway is not subtracted). */
@@ -90,7 +92,7 @@ double wl_measure_geofit_offset(const wl_geofit *f, double x_m, double y_m);
  * be NULL) receives the order used; 0 means white residuals, where the
  * result is the classical σ²(JᵀJ)⁻¹. */
 wl_status wl_measure_curvature_se(const double *x_m, const double *y_m, const double *t_s, size_t n,
-				  const wl_geofit *f, double *se_per_m, int *ar_order_out, wl_err *err);
+                                  const wl_geofit *f, double *se_per_m, int *ar_order_out, wl_err *err);
 
 /* Total angle in radians swept about (cx, cy) by the path in index order,
  * signed (counter-clockwise positive). */
@@ -113,7 +115,7 @@ typedef struct {
  * phase.  v should already be detrended.  WL_EINVAL when fewer than 16
  * usable samples or the band is empty. */
 wl_status wl_measure_oscillation(const double *t_s, const double *v, size_t n, double fmin_hz, double fmax_hz,
-				 wl_osc *out, wl_err *err);
+                                 wl_osc *out, wl_err *err);
 
 /* ---- one run ------------------------------------------------------------ */
 
@@ -127,10 +129,10 @@ typedef struct {
 } wl_measure_input;
 
 typedef struct {
-	double min_arc_deg;       /* straight below this arc; default 5 */
-	double body_diameter_m;   /* NaN: radius_body_diameters not computed */
-	double osc_fmin_hz;       /* NaN: 3 cycles per segment, at least 0.05 Hz */
-	double osc_fmax_hz;       /* NaN: 0.8 × the Nyquist frequency */
+	double min_arc_deg;     /* straight below this arc; default 5 */
+	double body_diameter_m; /* NaN: radius_body_diameters not computed */
+	double osc_fmin_hz;     /* NaN: 3 cycles per segment, at least 0.05 Hz */
+	double osc_fmax_hz;     /* NaN: 0.8 × the Nyquist frequency */
 } wl_measure_opts;
 
 void wl_measure_opts_init(wl_measure_opts *o);
@@ -150,7 +152,7 @@ typedef struct {
 	double centre_x_m, centre_y_m; /* NaN when straight */
 	double arc_deg, fit_rms_m;
 	double radius_taubin_m, radius_kasa_m; /* unsigned, for comparison */
-	int ar_order;         /* order of the residual model behind the interval */
+	int ar_order;                          /* order of the residual model behind the interval */
 	/* oscillation */
 	double yaw_osc_freq_hz, yaw_osc_amp_deg, yaw_osc_r2;
 	double sway_osc_freq_hz, sway_amp_m;
@@ -160,6 +162,6 @@ typedef struct {
  * 5 rows have a position or times are not increasing; weaker data gives NaN
  * fields instead. */
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *out,
-			 wl_err *err);
+                         wl_err *err);
 
 #endif

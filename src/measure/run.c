@@ -54,7 +54,8 @@ static void phasors(const double *t, size_t n, double w, double t0, double *cs)
 	}
 }
 
-static double sine_rss(const double *t, const double *v, size_t n, double f, double t0, double *cs, double coef[3])
+static double sine_rss(const double *t, const double *v, size_t n, double f, double t0, double *cs,
+                       double coef[3])
 {
 	double A[9] = {0}, b[3] = {0}, rss = 0, w = 2 * PI * f;
 	phasors(t, n, w, t0, cs);
@@ -114,8 +115,8 @@ static void fft(double *re, double *im, size_t n)
  * of two of at least 2n (bins at most 1/(2T) apart; the window's main lobe
  * is 4/T wide, so the grid maximum lies in the peak's lobe).  g is scratch
  * for nfft_max doubles (real and imaginary halves). */
-static double periodogram_peak(const double *t, const double *v, size_t n, double f_lo, double f_hi, double *g,
-			       size_t nfft)
+static double periodogram_peak(const double *t, const double *v, size_t n, double f_lo, double f_hi,
+                               double *g, size_t nfft)
 {
 	double T = t[n - 1] - t[0], dt = T / (double)(n - 1), mean = 0, best = -1, fbest = NAN;
 	double *re = g, *im = g + nfft;
@@ -144,8 +145,8 @@ static double periodogram_peak(const double *t, const double *v, size_t n, doubl
 	return fbest;
 }
 
-wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t n_in, double f_lo, double f_hi,
-				 wl_osc *out, wl_err *err)
+wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t n_in, double f_lo,
+                                 double f_hi, wl_osc *out, wl_err *err)
 {
 	double *t = NULL, *v = NULL, *g = NULL, T, f0, lo, hi, coef[3], tss = 0, mean = 0, rss;
 	size_t n = 0, nfft = 16;
@@ -176,7 +177,8 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 	}
 	f0 = periodogram_peak(t, v, n, f_lo, f_hi, g, nfft);
 	if (!isfinite(f0)) {
-		st = wl_err_set(err, WL_EINVAL, "oscillation: no periodogram peak in [%g, %g] Hz", f_lo, f_hi);
+		st = wl_err_set(err, WL_EINVAL, "oscillation: no periodogram peak in [%g, %g] Hz", f_lo,
+		                f_hi);
 		goto out;
 	}
 	/* golden-section search of the sine fit's RSS within half a bin */
@@ -303,13 +305,33 @@ static void mean_sd(const double *v, size_t n, double *mean, double *sd)
 
 static void result_init(wl_measure_result *r)
 {
-	double *d[] = {&r->t_start_s, &r->duration_s, &r->tracked_fraction, &r->path_length_m,
-		       &r->net_displacement_m, &r->straightness, &r->mean_speed_mps, &r->speed_sd_mps,
-		       &r->mean_yaw_rate_degps, &r->heading_drift_degps, &r->curvature_per_m,
-		       &r->curvature_se_per_m, &r->curvature_ci95_per_m[0], &r->curvature_ci95_per_m[1],
-		       &r->radius_m, &r->radius_body_diameters, &r->centre_x_m, &r->centre_y_m, &r->arc_deg,
-		       &r->fit_rms_m, &r->radius_taubin_m, &r->radius_kasa_m, &r->yaw_osc_freq_hz,
-		       &r->yaw_osc_amp_deg, &r->yaw_osc_r2, &r->sway_osc_freq_hz, &r->sway_amp_m};
+	double *d[] = {&r->t_start_s,
+	               &r->duration_s,
+	               &r->tracked_fraction,
+	               &r->path_length_m,
+	               &r->net_displacement_m,
+	               &r->straightness,
+	               &r->mean_speed_mps,
+	               &r->speed_sd_mps,
+	               &r->mean_yaw_rate_degps,
+	               &r->heading_drift_degps,
+	               &r->curvature_per_m,
+	               &r->curvature_se_per_m,
+	               &r->curvature_ci95_per_m[0],
+	               &r->curvature_ci95_per_m[1],
+	               &r->radius_m,
+	               &r->radius_body_diameters,
+	               &r->centre_x_m,
+	               &r->centre_y_m,
+	               &r->arc_deg,
+	               &r->fit_rms_m,
+	               &r->radius_taubin_m,
+	               &r->radius_kasa_m,
+	               &r->yaw_osc_freq_hz,
+	               &r->yaw_osc_amp_deg,
+	               &r->yaw_osc_r2,
+	               &r->sway_osc_freq_hz,
+	               &r->sway_amp_m};
 	memset(r, 0, sizeof *r);
 	for (size_t i = 0; i < sizeof d / sizeof d[0]; i++)
 		*d[i] = NAN;
@@ -318,7 +340,7 @@ static void result_init(wl_measure_result *r)
 
 /* Path length, net displacement, straightness, speed, yaw rate, drift. */
 static void path_measures(const wl_measure_input *in, const double *x, const double *y, size_t m,
-			  wl_measure_result *r, double *hd)
+                          wl_measure_result *r, double *hd)
 {
 	double len = 0;
 	for (size_t i = 1; i < m; i++)
@@ -364,18 +386,19 @@ static void osc_band(const wl_measure_opts *opt, const wl_measure_result *r, dou
  * explaining at least 20% of the offsets' variance, so that red noise near
  * zero frequency is never taken for one.  Returns 0 when there is none. */
 static int find_sway(const double *t, const double *x, const double *y, size_t m, const wl_geofit *gf,
-		     double f_lo, double f_hi, double *scratch, wl_osc *o)
+                     double f_lo, double f_hi, double *scratch, wl_osc *o)
 {
 	for (size_t i = 0; i < m; i++)
 		scratch[i] = wl_measure_geofit_offset(gf, x[i], y[i]);
 	detrend_quadratic(t, scratch, m);
-	return wl_measure_oscillation(t, scratch, m, fmax(f_lo, 10 / (t[m - 1] - t[0])), f_hi, o, NULL) == WL_OK &&
+	return wl_measure_oscillation(t, scratch, m, fmax(f_lo, 10 / (t[m - 1] - t[0])), f_hi, o, NULL) ==
+	               WL_OK &&
 	       o->r2 >= 0.2;
 }
 
 /* The circle, its uncertainty and the straight rule. */
 static void circle_measures(const double *t, const double *x, const double *y, size_t m,
-			    const wl_measure_opts *opt, wl_measure_result *r, wl_geofit *gf, double *scratch)
+                            const wl_measure_opts *opt, wl_measure_result *r, wl_geofit *gf, double *scratch)
 {
 	wl_circle c;
 	wl_osc o;
@@ -393,22 +416,21 @@ static void circle_measures(const double *t, const double *x, const double *y, s
 		/* amp·sin(ωt + φ) = amp·sin φ·cos ωt + amp·cos φ·sin ωt */
 		wl_geofit g2;
 		if (wl_measure_fit_geometric_sway(x, y, t, m, o.freq_hz, o.amp * sin(o.phase_rad),
-						  o.amp * cos(o.phase_rad), &g2, NULL) == WL_OK)
+		                                  o.amp * cos(o.phase_rad), &g2, NULL) == WL_OK)
 			*gf = g2;
 	}
 	r->curvature_per_m = gf->kappa_per_m;
 	r->fit_rms_m = gf->rms_m;
-	r->arc_deg = gf->kappa_per_m != 0
-			     ? fabs(wl_measure_swept_angle(x, y, m, gf->cx_m, gf->cy_m)) * DEG
-			     : 0;
+	r->arc_deg =
+	        gf->kappa_per_m != 0 ? fabs(wl_measure_swept_angle(x, y, m, gf->cx_m, gf->cy_m)) * DEG : 0;
 	if (wl_measure_curvature_se(x, y, t, m, gf, &se, &r->ar_order, NULL) == WL_OK) {
 		double q = 1.959964;
 		r->curvature_se_per_m = se;
 		r->curvature_ci95_per_m[0] = gf->kappa_per_m - q * se;
 		r->curvature_ci95_per_m[1] = gf->kappa_per_m + q * se;
 	}
-	r->straight = !(r->arc_deg >= opt->min_arc_deg) || !(r->curvature_ci95_per_m[0] > 0 ||
-							     r->curvature_ci95_per_m[1] < 0);
+	r->straight = !(r->arc_deg >= opt->min_arc_deg) ||
+	              !(r->curvature_ci95_per_m[0] > 0 || r->curvature_ci95_per_m[1] < 0);
 	if (!r->straight) {
 		r->radius_m = 1 / gf->kappa_per_m;
 		r->centre_x_m = gf->cx_m;
@@ -420,7 +442,7 @@ static void circle_measures(const double *t, const double *x, const double *y, s
 
 /* Yaw and sway oscillation about the mean path (circle, or line when straight). */
 static void oscillation_measures(const wl_measure_input *in, const wl_measure_opts *opt, const wl_geofit *gf,
-				 wl_measure_result *r, double *sway, double *yaw)
+                                 wl_measure_result *r, double *sway, double *yaw)
 {
 	double ux = NAN, uy = NAN, mx = 0, my = 0, f_lo, f_hi, m = 0;
 	wl_osc o;
@@ -476,7 +498,7 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 }
 
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
-			 wl_err *err)
+                         wl_err *err)
 {
 	double *x = NULL, *y = NULL, *tc = NULL, *hd = NULL, *sway = NULL, *yaw = NULL;
 	size_t m = 0;
@@ -488,8 +510,9 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 		return wl_err_set(err, WL_EINVAL, "run of %zu rows: give at least 5", in->n);
 	for (size_t i = 1; i < in->n; i++)
 		if (!(in->t_s[i] > in->t_s[i - 1]))
-			return wl_err_set(err, WL_EINVAL, "t_s %.6f at row %zu is not after %.6f: sort by time",
-					  in->t_s[i], i, in->t_s[i - 1]);
+			return wl_err_set(err, WL_EINVAL,
+			                  "t_s %.6f at row %zu is not after %.6f: sort by time", in->t_s[i],
+			                  i, in->t_s[i - 1]);
 	x = malloc(in->n * sizeof *x);
 	y = malloc(in->n * sizeof *y);
 	tc = malloc(in->n * sizeof *tc);
@@ -511,7 +534,8 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 	}
 	r->n_used = m;
 	if (m < 5) {
-		st = wl_err_set(err, WL_EINVAL, "run of %zu rows has %zu positions: give at least 5", in->n, m);
+		st = wl_err_set(err, WL_EINVAL, "run of %zu rows has %zu positions: give at least 5", in->n,
+		                m);
 		goto out;
 	}
 	r->t_start_s = in->t_s[0];

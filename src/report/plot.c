@@ -710,7 +710,8 @@ static size_t points_under(const wl_plot *p, const frame *f, double x, double y,
 	size_t hits = 0;
 	for (size_t i = 0; i < p->n; i++) {
 		const item *it = &p->items[i];
-		if (it->kind != IT_LINE && it->kind != IT_SCATTER && it->kind != IT_ERR && it->kind != IT_CLINE)
+		if (it->kind != IT_LINE && it->kind != IT_SCATTER && it->kind != IT_ERR &&
+		    it->kind != IT_CLINE)
 			continue;
 		for (size_t k = 0; k < it->n; k++) {
 			double u = px(p, f, it->x[k]), v = py(p, f, it->y[k]);
@@ -725,7 +726,7 @@ static size_t points_under(const wl_plot *p, const frame *f, double x, double y,
  * points (top right first, on a tie). */
 static void legend_corner(const wl_plot *p, const frame *f, double w, double h, double *x, double *y)
 {
-	double xs[2] = { f->x0 + f->w - w - 4, f->x0 + 4 }, ys[2] = { f->y0 + 4, f->y0 + f->h - h - 4 };
+	double xs[2] = {f->x0 + f->w - w - 4, f->x0 + 4}, ys[2] = {f->y0 + 4, f->y0 + f->h - h - 4};
 	size_t best = (size_t)-1;
 	*x = xs[0];
 	*y = ys[0];

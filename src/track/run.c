@@ -272,21 +272,24 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	sum->stats = *wl_tracker_stats(tr);
 	if (sum->stats.over_limit > 0) {
 		snprintf(sum->warning, sizeof sum->warning,
-			 "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were left out; "
-			 "list the robots with --ids or --robots",
-			 ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit, sum->stats.first_over_limit_id);
+		         "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were "
+		         "left out; "
+		         "list the robots with --ids or --robots",
+		         ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit,
+		         sum->stats.first_over_limit_id);
 	} else if (wl_decoder_damage_count(dec) > 0) {
 		/* packets lost, a cut file: not only frames flagged corrupt */
 		int nd = 0;
 		const wl_damage *d = wl_decoder_damage(dec, &nd);
 		char tb[WL_NUMBUF];
 		snprintf(sum->warning, sizeof sum->warning,
-			 "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld frames flagged); "
-			 "see wakeline probe",
-			 ro->clip, (long long)wl_decoder_damage_count(dec), wl_decoder_damage_count(dec) > 1 ? "s" : "",
-			 nd ? (long long)d[0].frame_index : -1LL,
-			 nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
-			 (long long)q.damaged);
+		         "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld frames "
+		         "flagged); "
+		         "see wakeline probe",
+		         ro->clip, (long long)wl_decoder_damage_count(dec),
+		         wl_decoder_damage_count(dec) > 1 ? "s" : "", nd ? (long long)d[0].frame_index : -1LL,
+		         nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
+		         (long long)q.damaged);
 	} else if (q.damaged > 0)
 		snprintf(sum->warning, sizeof sum->warning,
 		         "%lld frames were flagged as damaged by the decoder; their poses may be off",

@@ -82,30 +82,31 @@ static void test_sg_published_tables(void **state)
 {
 	(void)state;
 	/* smoothing, quadratic/cubic */
-	check_table(5, 2, 0, (double[]){ -3, 12, 17, 12, -3 }, 35);
-	check_table(5, 3, 0, (double[]){ -3, 12, 17, 12, -3 }, 35);
-	check_table(7, 2, 0, (double[]){ -2, 3, 6, 7, 6, 3, -2 }, 21);
-	check_table(9, 2, 0, (double[]){ -21, 14, 39, 54, 59, 54, 39, 14, -21 }, 231);
+	check_table(5, 2, 0, (double[]){-3, 12, 17, 12, -3}, 35);
+	check_table(5, 3, 0, (double[]){-3, 12, 17, 12, -3}, 35);
+	check_table(7, 2, 0, (double[]){-2, 3, 6, 7, 6, 3, -2}, 21);
+	check_table(9, 2, 0, (double[]){-21, 14, 39, 54, 59, 54, 39, 14, -21}, 231);
 	/* smoothing, quartic */
-	check_table(7, 4, 0, (double[]){ 5, -30, 75, 131, 75, -30, 5 }, 231);
+	check_table(7, 4, 0, (double[]){5, -30, 75, 131, 75, -30, 5}, 231);
 	/* first derivative, quadratic (data order: weight of the latest sample last) */
-	check_table(5, 2, 1, (double[]){ -2, -1, 0, 1, 2 }, 10);
-	check_table(7, 2, 1, (double[]){ -3, -2, -1, 0, 1, 2, 3 }, 28);
-	check_table(9, 2, 1, (double[]){ -4, -3, -2, -1, 0, 1, 2, 3, 4 }, 60);
+	check_table(5, 2, 1, (double[]){-2, -1, 0, 1, 2}, 10);
+	check_table(7, 2, 1, (double[]){-3, -2, -1, 0, 1, 2, 3}, 28);
+	check_table(9, 2, 1, (double[]){-4, -3, -2, -1, 0, 1, 2, 3, 4}, 60);
 	/* first derivative, cubic */
-	check_table(5, 3, 1, (double[]){ 1, -8, 0, 8, -1 }, 12);
-	check_table(7, 3, 1, (double[]){ 22, -67, -58, 0, 58, 67, -22 }, 252);
+	check_table(5, 3, 1, (double[]){1, -8, 0, 8, -1}, 12);
+	check_table(7, 3, 1, (double[]){22, -67, -58, 0, 58, 67, -22}, 252);
 }
 
 /* Debian's python3-scipy: scipy.signal.savgol_coeffs(w, p, deriv, use='dot'). */
 static void test_sg_scipy(void **state)
 {
-	static const int cases[][3] = { { 5, 2, 0 }, { 7, 3, 1 }, { 11, 2, 0 }, { 11, 4, 2 }, { 21, 3, 1 }, { 15, 5, 3 } };
+	static const int cases[][3] = {{5, 2, 0}, {7, 3, 1}, {11, 2, 0}, {11, 4, 2}, {21, 3, 1}, {15, 5, 3}};
 	char args[256] = "ref_sg.py", *out, *p;
 	size_t len = strlen(args);
 	(void)state;
 	for (size_t k = 0; k < sizeof cases / sizeof cases[0]; k++)
-		len += (size_t)snprintf(args + len, sizeof args - len, " %d %d %d", cases[k][0], cases[k][1], cases[k][2]);
+		len += (size_t)snprintf(args + len, sizeof args - len, " %d %d %d", cases[k][0], cases[k][1],
+		                        cases[k][2]);
 	out = run_python(args);
 	assert_non_null(out);
 	p = out;
@@ -171,7 +172,7 @@ static void check_statsmodels(int dim, double q)
 	enum { N = 60 };
 	double t[N], z[N], ll = 0, maxd = 0, maxc = 0;
 	wl_kin_step st[N];
-	wl_kin_cfg cfg = { dim, q, 0.002 * 0.002, 0, { 1.0, 1.0, 10.0 } };
+	wl_kin_cfg cfg = {dim, q, 0.002 * 0.002, 0, {1.0, 1.0, 10.0}};
 	char path[] = "/tmp/wl-test-clean-XXXXXX", args[256], *out, *p;
 	FILE *fp;
 	int fd;
@@ -180,7 +181,8 @@ static void check_statsmodels(int dim, double q)
 	fd = mkstemp(path);
 	assert_true(fd >= 0);
 	fp = fdopen(fd, "w");
-	fprintf(fp, "%d %.17g %.17g 0 %.17g %.17g %.17g\n", dim, cfg.q, cfg.r, cfg.P0[0], cfg.P0[1], cfg.P0[2]);
+	fprintf(fp, "%d %.17g %.17g 0 %.17g %.17g %.17g\n", dim, cfg.q, cfg.r, cfg.P0[0], cfg.P0[1],
+	        cfg.P0[2]);
 	for (int i = 0; i < N; i++)
 		fprintf(fp, "%.17g %.17g\n", t[i], z[i]);
 	fclose(fp);
@@ -206,8 +208,9 @@ static void check_statsmodels(int dim, double q)
 	p = strstr(p, "llf");
 	assert_non_null(p);
 	assert_float_equal(ll, strtod(p + 3, NULL), 1e-6);
-	print_message("statsmodels, dim %d q %g: max |state diff| %.3g, max rel. cov diff %.3g, llf %.9f vs %.9f\n",
-		      dim, q, maxd, maxc, ll, strtod(p + 3, NULL));
+	print_message(
+	        "statsmodels, dim %d q %g: max |state diff| %.3g, max rel. cov diff %.3g, llf %.9f vs %.9f\n",
+	        dim, q, maxd, maxc, ll, strtod(p + 3, NULL));
 	free(out);
 }
 
@@ -232,7 +235,7 @@ static void test_rts_zero_q_is_ls_line(void **state)
 	enum { N = 80 };
 	double t[N], z[N], sw = 0, st_ = 0, stt = 0, sz = 0, stz = 0, a, b, det;
 	wl_kin_step s[N];
-	wl_kin_cfg cfg = { 2, 0.0, 1e-2, 0, { 1e8, 1e8, 0 } };
+	wl_kin_cfg cfg = {2, 0.0, 1e-2, 0, {1e8, 1e8, 0}};
 	(void)state;
 	make_series(N, t, z, 0);
 	assert_true(wl_kin_smooth(&cfg, N, t, z, s, NULL));
@@ -255,7 +258,7 @@ static void test_rts_heading_unwrap(void **state)
 	enum { N = 100 };
 	double t[N], z[N];
 	wl_kin_step s[N];
-	wl_kin_cfg cfg = { 2, 1e-3, 1e-4, 1, { PI * PI, 100, 0 } };
+	wl_kin_cfg cfg = {2, 1e-3, 1e-4, 1, {PI * PI, 100, 0}};
 	(void)state;
 	for (int i = 0; i < N; i++) {
 		double h = 2.8 + 0.02 * i; /* passes pi at i = 17 */
@@ -292,7 +295,7 @@ static void test_sha256_fips(void **state)
 static void expect_raw_error(const char *text, const char *needle)
 {
 	wl_clean_raw *raw = (wl_clean_raw *)1;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	assert_int_not_equal(wl_clean_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
 	assert_null(raw);
 	if (!strstr(err.msg, needle))
@@ -305,12 +308,16 @@ static void expect_raw_error(const char *text, const char *needle)
 static void test_raw_errors(void **state)
 {
 	(void)state;
-	expect_raw_error("t_s,frame,id,x_m,y_m,status\n0,0,1,0,0,ok\n", "RAW.csv:1: the header has no column 'heading_rad'");
+	expect_raw_error("t_s,frame,id,x_m,y_m,status\n0,0,1,0,0,ok\n",
+	                 "RAW.csv:1: the header has no column 'heading_rad'");
 	expect_raw_error(HDR ROW("0.0", "0") "0.033,1,1,10,10,abc,0.2,0.3,ok,50,30,tag\n",
-			 "RAW.csv:3: column 'x_m': 'abc' is not a number");
-	expect_raw_error(HDR ROW("0.0", "0") ROW("0.05", "1") ROW("0.04", "2"), "RAW.csv:4: time t_s 0.040000");
-	expect_raw_error(HDR ROW("0.0", "0") ROW("0.05", "1") ROW("0.06", "1"), "RAW.csv:4: frame 1 of robot 1 appears twice");
-	expect_raw_error(HDR ROW("0.0", "0") "0.05,1,1,,,,,,maybe,,,\n", "RAW.csv:3: column 'status': 'maybe'");
+	                 "RAW.csv:3: column 'x_m': 'abc' is not a number");
+	expect_raw_error(HDR ROW("0.0", "0") ROW("0.05", "1") ROW("0.04", "2"),
+	                 "RAW.csv:4: time t_s 0.040000");
+	expect_raw_error(HDR ROW("0.0", "0") ROW("0.05", "1") ROW("0.06", "1"),
+	                 "RAW.csv:4: frame 1 of robot 1 appears twice");
+	expect_raw_error(HDR ROW("0.0", "0") "0.05,1,1,,,,,,maybe,,,\n",
+	                 "RAW.csv:3: column 'status': 'maybe'");
 	expect_raw_error(HDR, "no data rows");
 	expect_raw_error("", "empty");
 }
@@ -318,9 +325,9 @@ static void test_raw_errors(void **state)
 static void test_raw_ok(void **state)
 {
 	const char *text = HDR ROW("0.0", "0") "0.0,0,2,10,10,0.5,0.6,,ok,50,30,caps\n"
-			       "0.04,1,1,,,,,,lost,,,\n" ROW("0.08", "2");
+	                                       "0.04,1,1,,,,,,lost,,,\n" ROW("0.08", "2");
 	wl_clean_raw *raw = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	(void)state;
 	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
 	assert_int_equal(raw->ntracks, 2);
@@ -362,7 +369,7 @@ static void test_stage_synthetic(void **state)
 	double tx[N], ty[N];
 	size_t len = 0;
 	wl_clean_raw *raw = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	wl_clean_params p;
 	wl_clean_result res;
 	double se = 0;
@@ -372,7 +379,8 @@ static void test_stage_synthetic(void **state)
 	len += (size_t)snprintf(text + len, sizeof text - len, HDR);
 	for (int i = 0; i < N; i++) {
 		/* speed 0.1 (1 - exp(-(t - 1) / 0.3)) m/s from t = 1 s, integrated */
-		double t = i / 30.0, s = t > 1 ? 0.1 * ((t - 1) - 0.3 * (1 - exp(-(t - 1) / 0.3))) : 0, h = 0.5;
+		double t = i / 30.0, s = t > 1 ? 0.1 * ((t - 1) - 0.3 * (1 - exp(-(t - 1) / 0.3))) : 0,
+		       h = 0.5;
 		double x = 0.2 + s * cos(h), y = 0.3 + s * sin(h), mx, my, mh;
 		tx[i] = x, ty[i] = y;
 		mx = x + 0.002 * nrand(), my = y + 0.002 * nrand(), mh = h + 0.035 * nrand();
@@ -381,8 +389,8 @@ static void test_stage_synthetic(void **state)
 		if (i == 155)
 			mh += PI;
 		mh = atan2(sin(mh), cos(mh));
-		len += (size_t)snprintf(text + len, sizeof text - len, "%.6f,%d,3,0,0,%.6f,%.6f,%.6f,ok,50,30,tag\n", t,
-					i, mx, my, mh);
+		len += (size_t)snprintf(text + len, sizeof text - len,
+		                        "%.6f,%d,3,0,0,%.6f,%.6f,%.6f,ok,50,30,tag\n", t, i, mx, my, mh);
 	}
 	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
 	wl_clean_params_init(&p);
@@ -401,7 +409,8 @@ static void test_stage_synthetic(void **state)
 		se += (r->x_m - tx[f]) * (r->x_m - tx[f]) + (r->y_m - ty[f]) * (r->y_m - ty[f]);
 		ne += 2;
 	}
-	assert_true(flagged >= 16 && flagged <= 19); /* 15 positions + 1 heading, at most a few false alarms */
+	assert_true(flagged >= 16 &&
+	            flagged <= 19); /* 15 positions + 1 heading, at most a few false alarms */
 	assert_true(sqrt(se / ne) < 0.001);
 	assert_true(res.robots[0].onset_s > 0.9 && res.robots[0].onset_s < 1.5);
 	assert_false(res.robots[0].still);
@@ -412,12 +421,12 @@ static void test_stage_synthetic(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_sg_published_tables), cmocka_unit_test(test_sg_scipy),
-		cmocka_unit_test(test_sg_uneven_exact),     cmocka_unit_test(test_rts_statsmodels_cv),
-		cmocka_unit_test(test_rts_statsmodels_ca),  cmocka_unit_test(test_rts_zero_q_is_ls_line),
-		cmocka_unit_test(test_rts_heading_unwrap),  cmocka_unit_test(test_sha256_fips),
-		cmocka_unit_test(test_raw_errors),          cmocka_unit_test(test_raw_ok),
-		cmocka_unit_test(test_outline_dist),        cmocka_unit_test(test_stage_synthetic),
+	        cmocka_unit_test(test_sg_published_tables), cmocka_unit_test(test_sg_scipy),
+	        cmocka_unit_test(test_sg_uneven_exact),     cmocka_unit_test(test_rts_statsmodels_cv),
+	        cmocka_unit_test(test_rts_statsmodels_ca),  cmocka_unit_test(test_rts_zero_q_is_ls_line),
+	        cmocka_unit_test(test_rts_heading_unwrap),  cmocka_unit_test(test_sha256_fips),
+	        cmocka_unit_test(test_raw_errors),          cmocka_unit_test(test_raw_ok),
+	        cmocka_unit_test(test_outline_dist),        cmocka_unit_test(test_stage_synthetic),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

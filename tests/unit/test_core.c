@@ -49,14 +49,14 @@ static wl_status collect(const wl_csv_row *row, void *ctx, wl_err *err)
 static void csv_reads_quotes_comments_and_line_numbers(void **state)
 {
 	const char text[] = "\xEF\xBB\xBF"
-			    "a,b,c\n"
-			    "# a comment\n"
-			    "\n"
-			    "1,\"two, quoted\",3\n"
-			    "\"multi\nline\",5,6\r\n"
-			    "7,8,9"; /* no final newline: csv_fini must deliver it */
-	csv_seen s = { 0 };
-	wl_err err = { 0 };
+	                    "a,b,c\n"
+	                    "# a comment\n"
+	                    "\n"
+	                    "1,\"two, quoted\",3\n"
+	                    "\"multi\nline\",5,6\r\n"
+	                    "7,8,9"; /* no final newline: csv_fini must deliver it */
+	csv_seen s = {0};
+	wl_err err = {0};
 	(void)state;
 	assert_int_equal(wl_csv_read_mem("t.csv", text, sizeof text - 1, collect, &s, &err), WL_OK);
 	assert_int_equal(s.rows, 4);
@@ -72,8 +72,8 @@ static void csv_reads_quotes_comments_and_line_numbers(void **state)
 static void csv_unclosed_quote_names_the_line(void **state)
 {
 	const char text[] = "a,b\n1,2\n\"open,3\n";
-	csv_seen s = { 0 };
-	wl_err err = { 0 };
+	csv_seen s = {0};
+	wl_err err = {0};
 	(void)state;
 	assert_int_equal(wl_csv_read_mem("bad.csv", text, sizeof text - 1, collect, &s, &err), WL_EFORMAT);
 	assert_non_null(strstr(err.msg, "bad.csv:"));
@@ -94,12 +94,13 @@ static void csv_number_errors_name_file_line_and_column(void **state)
 {
 	const char good[] = "id, x_m \n1,0.25\n", bad[] = "id,x_m\n1,0,25\n2,abc\n";
 	double v = 0;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	(void)state;
 	assert_int_equal(wl_csv_read_mem("g.csv", good, sizeof good - 1, parse_second_row, &v, &err), WL_OK);
 	assert_true(v == 0.25);
 	/* "0,25" splits into two cells, so x_m reads "0": the third row fails */
-	assert_int_equal(wl_csv_read_mem("layout.csv", bad, sizeof bad - 1, parse_second_row, &v, &err), WL_EFORMAT);
+	assert_int_equal(wl_csv_read_mem("layout.csv", bad, sizeof bad - 1, parse_second_row, &v, &err),
+	                 WL_EFORMAT);
 	assert_non_null(strstr(err.msg, "layout.csv:3: column 'x_m': 'abc' is not a number"));
 }
 
@@ -134,7 +135,7 @@ static void atomic_file_commit_and_abort(void **state)
 {
 	char dir[] = "/tmp/wl-core-XXXXXX", path[256], *back = NULL;
 	wl_afile *af;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	struct stat st;
 	(void)state;
 	assert_non_null(mkdtemp(dir));
@@ -172,7 +173,7 @@ static void json_errors_give_line_and_column(void **state)
 	cJSON *j = NULL;
 	double v[3];
 	const char *s;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	(void)state;
 	assert_int_equal(wl_json_parse("cal.json", bad, sizeof bad - 1, &j, &err), WL_EFORMAT);
 	assert_null(j);
@@ -192,7 +193,7 @@ static void json_depth_is_limited(void **state)
 {
 	char deep[2 * (WL_JSON_MAX_DEPTH + 10) + 1];
 	cJSON *j = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	int n = WL_JSON_MAX_DEPTH + 10;
 	(void)state;
 	for (int i = 0; i < n; i++) {
@@ -209,7 +210,7 @@ static void json_depth_is_limited(void **state)
 static void jacobi_eigen_matches_the_definition(void **state)
 {
 	/* a symmetric 4x4 with known spectrum: Q diag(1,2,3,10) Qᵀ */
-	double a[16] = { 4, 1, 2, 0.5, 1, 3, 0.25, 1, 2, 0.25, 5, 0.75, 0.5, 1, 0.75, 2 }, orig[16];
+	double a[16] = {4, 1, 2, 0.5, 1, 3, 0.25, 1, 2, 0.25, 5, 0.75, 0.5, 1, 0.75, 2}, orig[16];
 	double ev[4], V[16];
 	(void)state;
 	memcpy(orig, a, sizeof a);
@@ -227,14 +228,14 @@ static void jacobi_eigen_matches_the_definition(void **state)
 	/* the trace is the sum of the eigenvalues */
 	assert_true(fabs(ev[0] + ev[1] + ev[2] + ev[3] - 14.0) < 1e-12);
 	/* 2x2 [[2,1],[1,2]] has eigenvalues 1 and 3 (worked by hand) */
-	double b[4] = { 2, 1, 1, 2 }, e2[2], V2[4];
+	double b[4] = {2, 1, 1, 2}, e2[2], V2[4];
 	wl_sym_eig(b, 2, e2, V2);
 	assert_true(fabs(e2[0] - 1) < 1e-14 && fabs(e2[1] - 3) < 1e-14);
 }
 
 static void solve_and_invert(void **state)
 {
-	double a[9] = { 0, 2, 1, 1, 1, 1, 2, 1, 0 }, b[3] = { 5, 4, 4 }, inv[9], prod[9];
+	double a[9] = {0, 2, 1, 1, 1, 1, 2, 1, 0}, b[3] = {5, 4, 4}, inv[9], prod[9];
 	double a0[9];
 	(void)state;
 	memcpy(a0, a, sizeof a);
@@ -245,7 +246,7 @@ static void solve_and_invert(void **state)
 	wl_mul3(a0, inv, prod);
 	for (int i = 0; i < 9; i++)
 		assert_true(fabs(prod[i] - (i % 4 == 0)) < 1e-14);
-	double sing[4] = { 1, 2, 2, 4 }, rhs[2] = { 1, 2 };
+	double sing[4] = {1, 2, 2, 4}, rhs[2] = {1, 2};
 	assert_false(wl_solve(sing, rhs, 2));
 }
 
@@ -254,16 +255,16 @@ static void solve_and_invert(void **state)
 static void nadir_camera_maps_x_right_and_y_up(void **state)
 {
 	wl_camera cam;
-	double eye[3] = { 1.2, 0.8, 2.0 }, tgt[3] = { 1.2, 0.8, 0 }, C[3], u0, v0, u1, v1, u2, v2;
+	double eye[3] = {1.2, 0.8, 2.0}, tgt[3] = {1.2, 0.8, 0}, C[3], u0, v0, u1, v1, u2, v2;
 	(void)state;
 	wl_camera_init(&cam, 1920, 1080, 1400, 1400, 959.5, 539.5);
 	assert_true(wl_camera_look_at(&cam, eye, tgt, 0));
 	wl_camera_position(&cam, C);
 	assert_true(fabs(C[0] - 1.2) < 1e-12 && fabs(C[2] - 2.0) < 1e-12);
 	assert_true(fabs(wl_det3(cam.R) - 1) < 1e-12); /* a proper rotation */
-	assert_true(wl_camera_project(&cam, (double[3]){ 1.2, 0.8, 0 }, &u0, &v0));
-	assert_true(wl_camera_project(&cam, (double[3]){ 1.3, 0.8, 0 }, &u1, &v1));
-	assert_true(wl_camera_project(&cam, (double[3]){ 1.2, 0.9, 0 }, &u2, &v2));
+	assert_true(wl_camera_project(&cam, (double[3]){1.2, 0.8, 0}, &u0, &v0));
+	assert_true(wl_camera_project(&cam, (double[3]){1.3, 0.8, 0}, &u1, &v1));
+	assert_true(wl_camera_project(&cam, (double[3]){1.2, 0.9, 0}, &u2, &v2));
 	assert_true(fabs(u0 - 959.5) < 1e-9 && fabs(v0 - 539.5) < 1e-9);
 	assert_true(u1 > u0 && fabs(v1 - v0) < 1e-9); /* +x is right */
 	assert_true(v2 < v0 && fabs(u2 - u0) < 1e-9); /* +y is up on screen */
@@ -274,7 +275,7 @@ static void nadir_camera_maps_x_right_and_y_up(void **state)
 static void projection_round_trips_with_distortion(void **state)
 {
 	wl_camera cam;
-	double eye[3] = { 0.3, -0.9, 2.0 }, tgt[3] = { 1.2, 0.8, 0 };
+	double eye[3] = {0.3, -0.9, 2.0}, tgt[3] = {1.2, 0.8, 0};
 	(void)state;
 	wl_camera_init(&cam, 1920, 1080, 1500, 1500, 955, 545);
 	cam.dist[0] = -0.12;
@@ -284,7 +285,7 @@ static void projection_round_trips_with_distortion(void **state)
 	assert_true(wl_camera_look_at(&cam, eye, tgt, 0.1));
 	for (double x = 0; x <= 2.4; x += 0.6)
 		for (double y = 0; y <= 1.6; y += 0.4) {
-			double P[3] = { x, y, 0.25 }, u, v, xb, yb;
+			double P[3] = {x, y, 0.25}, u, v, xb, yb;
 			assert_true(wl_camera_project(&cam, P, &u, &v));
 			assert_true(wl_camera_pixel_to_plane(&cam, u, v, 0.25, &xb, &yb));
 			assert_true(fabs(xb - x) < 1e-9 && fabs(yb - y) < 1e-9);
@@ -297,7 +298,7 @@ static void refraction_worked_example(void **state)
 	 * above the surface, ray 20 deg off nadir, marker 0.30 m deep ->
 	 * 0.80758 m from nadir (n = 1.333); 0.83713 m if refraction is ignored. */
 	wl_camera cam;
-	double eye[3] = { 0, 0, 2.3 }, tgt[3] = { 0, 0, 0 }, x, y, u, v;
+	double eye[3] = {0, 0, 2.3}, tgt[3] = {0, 0, 0}, x, y, u, v;
 	double th = 20 * PI / 180;
 	(void)state;
 	wl_camera_init(&cam, 2000, 2000, 1000, 1000, 1000, 1000);
@@ -313,7 +314,7 @@ static void refraction_worked_example(void **state)
 	assert_true(fabs(x - 0.83713) < 1e-4);
 	/* and forward: the floor point at 0.80758 m images on that pixel */
 	double su, sv;
-	assert_true(wl_camera_project_water(&cam, (double[3]){ 0.80758, 0, 0 }, &su, &sv));
+	assert_true(wl_camera_project_water(&cam, (double[3]){0.80758, 0, 0}, &su, &sv));
 	assert_true(fabs(su - u) < 0.05 && fabs(sv - v) < 1e-9);
 	/* paraxial apparent depth d/n = 0.2251 m for 0.30 m (REFERENCES.md) */
 	/* a ray to a point 1 mm off nadir: apparent depth = d * tan(tw) / tan(ta) */
@@ -325,18 +326,18 @@ static void refraction_worked_example(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(csv_reads_quotes_comments_and_line_numbers),
-		cmocka_unit_test(csv_unclosed_quote_names_the_line),
-		cmocka_unit_test(csv_number_errors_name_file_line_and_column),
-		cmocka_unit_test(numbers_use_a_dot_whatever_the_locale),
-		cmocka_unit_test(atomic_file_commit_and_abort),
-		cmocka_unit_test(json_errors_give_line_and_column),
-		cmocka_unit_test(json_depth_is_limited),
-		cmocka_unit_test(jacobi_eigen_matches_the_definition),
-		cmocka_unit_test(solve_and_invert),
-		cmocka_unit_test(nadir_camera_maps_x_right_and_y_up),
-		cmocka_unit_test(projection_round_trips_with_distortion),
-		cmocka_unit_test(refraction_worked_example),
+	        cmocka_unit_test(csv_reads_quotes_comments_and_line_numbers),
+	        cmocka_unit_test(csv_unclosed_quote_names_the_line),
+	        cmocka_unit_test(csv_number_errors_name_file_line_and_column),
+	        cmocka_unit_test(numbers_use_a_dot_whatever_the_locale),
+	        cmocka_unit_test(atomic_file_commit_and_abort),
+	        cmocka_unit_test(json_errors_give_line_and_column),
+	        cmocka_unit_test(json_depth_is_limited),
+	        cmocka_unit_test(jacobi_eigen_matches_the_definition),
+	        cmocka_unit_test(solve_and_invert),
+	        cmocka_unit_test(nadir_camera_maps_x_right_and_y_up),
+	        cmocka_unit_test(projection_round_trips_with_distortion),
+	        cmocka_unit_test(refraction_worked_example),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

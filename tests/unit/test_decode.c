@@ -33,7 +33,7 @@ static void test_from_degrees(void **state)
 	assert_int_equal(wl_orient_from_degrees(270), 270);
 	assert_int_equal(wl_orient_from_degrees(360), 0);
 	assert_int_equal(wl_orient_from_degrees(-270), 90);
-	assert_int_equal(wl_orient_from_degrees(89.6), 90);  /* matrices store rounded sines */
+	assert_int_equal(wl_orient_from_degrees(89.6), 90); /* matrices store rounded sines */
 	assert_int_equal(wl_orient_from_degrees(-89.99), 270);
 	assert_int_equal(wl_orient_from_degrees(44), 0);
 	assert_int_equal(wl_orient_from_degrees(46), 90);
@@ -49,7 +49,7 @@ static void test_from_degrees(void **state)
  */
 static void check_corners(int rot, const double want[4][2], int wd_want, int hd_want)
 {
-	static const double coded[4][2] = { { 0, 0 }, { 3, 0 }, { 3, 2 }, { 0, 2 } }; /* TL TR BR BL */
+	static const double coded[4][2] = {{0, 0}, {3, 0}, {3, 2}, {0, 2}}; /* TL TR BR BL */
 	int wd, hd;
 	wl_orient_displayed_size(rot, 4, 3, &wd, &hd);
 	assert_int_equal(wd, wd_want);
@@ -67,10 +67,10 @@ static void test_corners(void **state)
 {
 	(void)state;
 	/* displayed positions of coded TL, TR, BR, BL */
-	static const double r0[4][2] = { { 0, 0 }, { 3, 0 }, { 3, 2 }, { 0, 2 } };
-	static const double r90[4][2] = { { 0, 3 }, { 0, 0 }, { 2, 0 }, { 2, 3 } };  /* TR -> TL */
-	static const double r180[4][2] = { { 3, 2 }, { 0, 2 }, { 0, 0 }, { 3, 0 } };
-	static const double r270[4][2] = { { 2, 0 }, { 2, 3 }, { 0, 3 }, { 0, 0 } }; /* TL -> TR */
+	static const double r0[4][2] = {{0, 0}, {3, 0}, {3, 2}, {0, 2}};
+	static const double r90[4][2] = {{0, 3}, {0, 0}, {2, 0}, {2, 3}}; /* TR -> TL */
+	static const double r180[4][2] = {{3, 2}, {0, 2}, {0, 0}, {3, 0}};
+	static const double r270[4][2] = {{2, 0}, {2, 3}, {0, 3}, {0, 0}}; /* TL -> TR */
 	check_corners(0, r0, 4, 3);
 	check_corners(90, r90, 3, 4);
 	check_corners(180, r180, 4, 3);
@@ -82,7 +82,7 @@ static void test_corners(void **state)
  * mutual inverses: exactly on a grid of 1/64 px, to 1e-12 px at random points. */
 static void test_round_trip(void **state)
 {
-	static const int rots[] = { 0, 90, 180, 270 };
+	static const int rots[] = {0, 90, 180, 270};
 	const int w = 1920, h = 1080;
 	(void)state;
 	srand(7);
@@ -102,9 +102,11 @@ static void test_round_trip(void **state)
 			wl_orient_to_coded(rots[r], w, h, ud, vd, &u2, &v2);
 			assert_true(fabs(u2 - u) < 1e-12 && fabs(v2 - v) < 1e-12);
 			/* the other direction */
-			wl_orient_to_coded(rots[r], w, h, u * (wd - 1) / (w - 1), v * (hd - 1) / (h - 1), &u2, &v2);
+			wl_orient_to_coded(rots[r], w, h, u * (wd - 1) / (w - 1), v * (hd - 1) / (h - 1), &u2,
+			                   &v2);
 			wl_orient_to_displayed(rots[r], w, h, u2, v2, &ud, &vd);
-			assert_true(fabs(ud - u * (wd - 1) / (w - 1)) < 1e-12 && fabs(vd - v * (hd - 1) / (h - 1)) < 1e-12);
+			assert_true(fabs(ud - u * (wd - 1) / (w - 1)) < 1e-12 &&
+			            fabs(vd - v * (hd - 1) / (h - 1)) < 1e-12);
 		}
 	}
 }
@@ -114,7 +116,7 @@ static void test_image_orient(void **state)
 {
 	enum { W = 5, H = 3 };
 	uint8_t src[H][W * 3], dst[W * H * 3];
-	static const int rots[] = { 0, 90, 180, 270 };
+	static const int rots[] = {0, 90, 180, 270};
 	(void)state;
 	for (int y = 0; y < H; y++)
 		for (int x = 0; x < W * 3; x++)
@@ -128,7 +130,8 @@ static void test_image_orient(void **state)
 				double ud, vd;
 				wl_orient_to_displayed(rots[r], W, H, x, y, &ud, &vd);
 				for (int c = 0; c < 3; c++)
-					assert_int_equal(dst[((int)vd * wd + (int)ud) * 3 + c], src[y][x * 3 + c]);
+					assert_int_equal(dst[((int)vd * wd + (int)ud) * 3 + c],
+					                 src[y][x * 3 + c]);
 			}
 	}
 	/* 90 CCW of a 5x3: the coded top-right pixel is the displayed top-left */
@@ -152,7 +155,7 @@ static void test_png_round_trip(void **state)
 	char path[512];
 	wl_decoder *dec = NULL;
 	const wl_frame *f;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	(void)state;
 	for (int y = 0; y < H; y++) {
 		for (int x = 0; x < W + 3; x++)
@@ -198,9 +201,9 @@ static int make_clip(void)
 	tmp_path(clip, sizeof clip, "clip.mp4");
 	/* 30 frames at 25 fps, key frames every 10, B-frames, first time 5 s */
 	snprintf(cmd, sizeof cmd,
-		 "ffmpeg -v error -nostdin -y -f lavfi -i testsrc2=size=160x120:rate=25 -frames:v 30 "
-		 "-c:v libx264 -pix_fmt yuv420p -g 10 -bf 3 -output_ts_offset 5 '%s'",
-		 clip);
+	         "ffmpeg -v error -nostdin -y -f lavfi -i testsrc2=size=160x120:rate=25 -frames:v 30 "
+	         "-c:v libx264 -pix_fmt yuv420p -g 10 -bf 3 -output_ts_offset 5 '%s'",
+	         clip);
 	return system(cmd);
 }
 
@@ -209,7 +212,7 @@ static void test_decoder_clip(void **state)
 	wl_decoder *dec = NULL;
 	const wl_frame *f;
 	const wl_video_info *in;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	int64_t n = 0;
 	(void)state;
 	assert_int_equal(make_clip(), 0);
@@ -272,7 +275,7 @@ static void test_decoder_clip(void **state)
 static void test_decoder_errors(void **state)
 {
 	wl_decoder *dec = (wl_decoder *)1;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	char path[512];
 	FILE *fp;
 	(void)state;
@@ -311,10 +314,10 @@ static void write_y4m(const char *path, int w, int h)
  * a small clip of the same kind opens and decodes. */
 static void test_decoder_size_bound(void **state)
 {
-	static const int bad[][2] = { { 20000, 100 }, { 100, 20000 }, { 16000, 16000 } };
+	static const int bad[][2] = {{20000, 100}, {100, 20000}, {16000, 16000}};
 	wl_decoder *dec = NULL;
 	const wl_frame *f = NULL;
-	wl_err err = { 0 };
+	wl_err err = {0};
 	char path[512], want[64];
 	(void)state;
 	for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
@@ -339,10 +342,10 @@ static void test_decoder_size_bound(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_from_degrees),   cmocka_unit_test(test_corners),
-		cmocka_unit_test(test_round_trip),     cmocka_unit_test(test_image_orient),
-		cmocka_unit_test(test_png_round_trip), cmocka_unit_test(test_decoder_clip),
-		cmocka_unit_test(test_decoder_errors), cmocka_unit_test(test_decoder_size_bound),
+	        cmocka_unit_test(test_from_degrees),   cmocka_unit_test(test_corners),
+	        cmocka_unit_test(test_round_trip),     cmocka_unit_test(test_image_orient),
+	        cmocka_unit_test(test_png_round_trip), cmocka_unit_test(test_decoder_clip),
+	        cmocka_unit_test(test_decoder_errors), cmocka_unit_test(test_decoder_size_bound),
 	};
 	char cmd[300];
 	int rc;

@@ -48,9 +48,9 @@ static void test_ggs_geometric(void **state)
 	assert_true(fabs(f.rms_m - 0.4523271) < 1e-7);
 }
 
-static void check_alg(const char *name, wl_status (*fit)(const double *, const double *, size_t, wl_circle *,
-							  wl_err *),
-		      double cx, double cy, double r, double sigma)
+static void check_alg(const char *name,
+                      wl_status (*fit)(const double *, const double *, size_t, wl_circle *, wl_err *),
+                      double cx, double cy, double r, double sigma)
 {
 	wl_circle c;
 	wl_err err;
@@ -74,7 +74,6 @@ static void test_ggs_algebraic(void **state)
 	/* REFERENCES.md, GGS 1994 data: Taubin 1991 row */
 	check_alg("taubin", wl_measure_fit_taubin, 4.613933, 2.795209, 4.879213, 0.4572958);
 }
-
 
 /* ---- synthetic runs --------------------------------------------------------
  * Kinematic model (ours, documented in docs/measure.md): the body point moves
@@ -111,13 +110,13 @@ static double rng_gauss(rng *r)
 }
 
 typedef struct {
-	double R_m;        /* 0: straight */
-	int dir;           /* +1 counter-clockwise, -1 clockwise */
+	double R_m; /* 0: straight */
+	int dir;    /* +1 counter-clockwise, -1 clockwise */
 	double v_mps, T_s, fps;
 	double amp_rad, f_hz;
 	double noise_m, ar; /* marginal SD and AR(1) coefficient (0: white) */
 	int ma;             /* > 1: the noise is instead white noise of SD noise_m
-			     * averaged over ma frames, as a smoother leaves it */
+	                     * averaged over ma frames, as a smoother leaves it */
 	double heading_noise_rad;
 } synth_cfg;
 
@@ -138,7 +137,8 @@ static void synth_make(const synth_cfg *c, rng *r, synth_run *o)
 	ex = c->noise_m * rng_gauss(r);
 	ey = c->noise_m * rng_gauss(r);
 	for (size_t i = 0; i < o->n; i++) {
-		double t = (double)i / c->fps, s = -sway_amp * cos(w * t + ps), dev = c->amp_rad * sin(w * t + ps);
+		double t = (double)i / c->fps, s = -sway_amp * cos(w * t + ps),
+		       dev = c->amp_rad * sin(w * t + ps);
 		double px, py, tang;
 		if (i > 0) {
 			ex = c->ar * ex + k * c->noise_m * rng_gauss(r);
@@ -158,7 +158,8 @@ static void synth_make(const synth_cfg *c, rng *r, synth_run *o)
 			double nx = c->noise_m * rng_gauss(r), ny = c->noise_m * rng_gauss(r);
 			if (i == 0)
 				for (int j = 0; j < c->ma; j++)
-					hist[2 * j] = c->noise_m * rng_gauss(r), hist[2 * j + 1] = c->noise_m * rng_gauss(r);
+					hist[2 * j] = c->noise_m * rng_gauss(r),
+					         hist[2 * j + 1] = c->noise_m * rng_gauss(r);
 			hist[2 * (i % (size_t)c->ma)] = nx;
 			hist[2 * (i % (size_t)c->ma) + 1] = ny;
 			ex = ey = 0;
@@ -231,14 +232,16 @@ static void test_synth_arcs(void **state)
 				truth_sway = c.v_mps * c.amp_rad / (2 * PI * c.f_hz);
 				synth_make(&c, &g, &s);
 				run_synth(&s, &r);
-				printf("%s R %4.1f dir %+d: radius %+.5f (err %+.3f%%) arc %7.1f deg ci [%.5f, %.5f] "
+				printf("%s R %4.1f dir %+d: radius %+.5f (err %+.3f%%) arc %7.1f deg ci "
+				       "[%.5f, %.5f] "
 				       "ar %d yaw %.4f Hz %.3f deg sway %.4f Hz %.5f m (%+.1f%%)\n",
 				       noise_name[noise], radii[i], dir, r.radius_m,
-				       100 * (fabs(r.radius_m) / radii[i] - 1), r.arc_deg, r.curvature_ci95_per_m[0],
-				       r.curvature_ci95_per_m[1], r.ar_order, r.yaw_osc_freq_hz, r.yaw_osc_amp_deg,
-				       r.sway_osc_freq_hz, r.sway_amp_m, 100 * (r.sway_amp_m / truth_sway - 1));
+				       100 * (fabs(r.radius_m) / radii[i] - 1), r.arc_deg,
+				       r.curvature_ci95_per_m[0], r.curvature_ci95_per_m[1], r.ar_order,
+				       r.yaw_osc_freq_hz, r.yaw_osc_amp_deg, r.sway_osc_freq_hz, r.sway_amp_m,
+				       100 * (r.sway_amp_m / truth_sway - 1));
 				assert_false(r.straight);
-				assert_true(r.radius_m * dir > 0);     /* sign: counter-clockwise positive */
+				assert_true(r.radius_m * dir > 0); /* sign: counter-clockwise positive */
 				assert_true(r.curvature_per_m * dir > 0);
 				assert_true(fabs(fabs(r.radius_m) / radii[i] - 1) < tol);
 				assert_true(fabs(r.yaw_osc_freq_hz - 1.2) < 0.02);
@@ -248,12 +251,14 @@ static void test_synth_arcs(void **state)
 				 * (a 0.3 s running mean barely damps it), so the sway
 				 * amplitude's spread is ~5%: 15% there, 10% otherwise */
 				assert_true(fabs(r.sway_amp_m / truth_sway - 1) < (noise == 2 ? 0.15 : 0.10));
-				assert_true(fabs(r.radius_body_diameters - radii[i] / 0.1) < tol * radii[i] / 0.1);
+				assert_true(fabs(r.radius_body_diameters - radii[i] / 0.1) <
+				            tol * radii[i] / 0.1);
 				assert_true(fabs(r.mean_speed_mps - 0.1) < 1e-9);
 				assert_true(fabs(r.duration_s - 30) < 1e-9);
 				assert_true(fabs(r.tracked_fraction - 1) < 1e-12);
 				/* the mean yaw rate is the turn rate v/R plus a zero-mean oscillation */
-				assert_true(fabs(r.mean_yaw_rate_degps - dir * 0.1 / radii[i] * 180 / PI) < 1.0);
+				assert_true(fabs(r.mean_yaw_rate_degps - dir * 0.1 / radii[i] * 180 / PI) <
+				            1.0);
 			}
 }
 
@@ -303,7 +308,8 @@ static void test_interval_coverage(void **state)
 			double hw, ratio;
 			int dir = i % 2 ? -1 : 1;
 			int hits = coverage(radii[i], dir, noise, 100, &hw, &ratio);
-			printf("coverage %s R %.1f dir %+d: %d/100 (mean half-width %.5f /m = %.3f%% of curvature; "
+			printf("coverage %s R %.1f dir %+d: %d/100 (mean half-width %.5f /m = %.3f%% of "
+			       "curvature; "
 			       "reported/observed error %.2f)\n",
 			       noise_name[noise], radii[i], dir, hits, hw, 100 * hw * radii[i], ratio);
 			assert_true(hits >= 90);
@@ -324,11 +330,12 @@ static void test_synth_straight(void **state)
 		c.ar = noise ? 0.9 : 0;
 		synth_make(&c, &g, &s);
 		run_synth(&s, &r);
-		printf("straight %s: curvature %+.5f ci [%+.5f, %+.5f] arc %.2f deg straightness %.4f yaw %.4f Hz "
+		printf("straight %s: curvature %+.5f ci [%+.5f, %+.5f] arc %.2f deg straightness %.4f yaw "
+		       "%.4f Hz "
 		       "%.3f deg sway %.5f m\n",
 		       noise ? "ar1" : "white", r.curvature_per_m, r.curvature_ci95_per_m[0],
-		       r.curvature_ci95_per_m[1], r.arc_deg, r.straightness, r.yaw_osc_freq_hz, r.yaw_osc_amp_deg,
-		       r.sway_amp_m);
+		       r.curvature_ci95_per_m[1], r.arc_deg, r.straightness, r.yaw_osc_freq_hz,
+		       r.yaw_osc_amp_deg, r.sway_amp_m);
 		assert_true(r.straight);
 		assert_true(isnan(r.radius_m));
 		assert_true(isnan(r.radius_body_diameters));
@@ -362,7 +369,8 @@ static void test_short_arc_kasa_bias(void **state)
 		geo += f.r_m / 50;
 		arc += fabs(wl_measure_swept_angle(x, y, 301, f.cx_m, f.cy_m)) * 180 / PI / 50;
 	}
-	printf("short arc (20 deg, R 2 m, 5 mm noise): mean Kasa radius %.4f m, geometric %.4f m, arc %.2f deg\n",
+	printf("short arc (20 deg, R 2 m, 5 mm noise): mean Kasa radius %.4f m, geometric %.4f m, arc %.2f "
+	       "deg\n",
 	       kasa, geo, arc);
 	assert_true(fabs(arc - 20) < 0.5);
 	assert_true(kasa < 1.97);
@@ -385,7 +393,8 @@ static void test_uneven_times_and_gaps(void **state)
 	{
 		double w = 2 * PI * c.f_hz, sa = c.v_mps * c.amp_rad / w;
 		for (size_t i = 0; i < s.n; i++) {
-			double t = (double)i / c.fps + (i ? 0.008 * (2 * rng_unif(&g) - 1) : 0), th = c.v_mps * t;
+			double t = (double)i / c.fps + (i ? 0.008 * (2 * rng_unif(&g) - 1) : 0),
+			       th = c.v_mps * t;
 			double sw = -sa * cos(w * t), dev = c.amp_rad * sin(w * t);
 			s.t[i] = t;
 			s.x[i] = (1 - sw) * cos(th) + 0.002 * rng_gauss(&g);
@@ -400,8 +409,8 @@ static void test_uneven_times_and_gaps(void **state)
 		}
 	}
 	run_synth(&s, &r);
-	printf("uneven times, %zu of %zu rows lost: radius %.5f yaw %.4f Hz %.3f deg tracked %.3f\n", lost, s.n,
-	       r.radius_m, r.yaw_osc_freq_hz, r.yaw_osc_amp_deg, r.tracked_fraction);
+	printf("uneven times, %zu of %zu rows lost: radius %.5f yaw %.4f Hz %.3f deg tracked %.3f\n", lost,
+	       s.n, r.radius_m, r.yaw_osc_freq_hz, r.yaw_osc_amp_deg, r.tracked_fraction);
 	assert_true(fabs(r.radius_m - 1) < 0.02);
 	assert_true(fabs(r.yaw_osc_freq_hz - 1.2) < 0.02);
 	assert_true(fabs(r.yaw_osc_amp_deg / 20 - 1) < 0.10);
@@ -449,8 +458,8 @@ static void test_oscillation_exact_sine(void **state)
 		v[i] = 0.3 + 0.05 * sin(2 * PI * 0.73 * t[i] + 1.1);
 	}
 	assert_int_equal(wl_measure_oscillation(t, v, 1200, 0.1, 16, &o, NULL), WL_OK);
-	printf("exact sine 0.73 Hz, 0.05, phase 1.1: %.6f Hz, %.6f, %.4f, r2 %.6f\n", o.freq_hz, o.amp, o.phase_rad,
-	       o.r2);
+	printf("exact sine 0.73 Hz, 0.05, phase 1.1: %.6f Hz, %.6f, %.4f, r2 %.6f\n", o.freq_hz, o.amp,
+	       o.phase_rad, o.r2);
 	assert_true(fabs(o.freq_hz - 0.73) < 1e-4);
 	assert_true(fabs(o.amp - 0.05) < 1e-4);
 	assert_true(fabs(o.phase_rad - 1.1) < 1e-2);
@@ -464,15 +473,15 @@ static void test_oscillation_exact_sine(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-		cmocka_unit_test(test_ggs_geometric),
-		cmocka_unit_test(test_ggs_algebraic),
-		cmocka_unit_test(test_synth_arcs),
-		cmocka_unit_test(test_synth_straight),
-		cmocka_unit_test(test_short_arc_kasa_bias),
-		cmocka_unit_test(test_uneven_times_and_gaps),
-		cmocka_unit_test(test_errors),
-		cmocka_unit_test(test_oscillation_exact_sine),
-		cmocka_unit_test(test_interval_coverage),
+	        cmocka_unit_test(test_ggs_geometric),
+	        cmocka_unit_test(test_ggs_algebraic),
+	        cmocka_unit_test(test_synth_arcs),
+	        cmocka_unit_test(test_synth_straight),
+	        cmocka_unit_test(test_short_arc_kasa_bias),
+	        cmocka_unit_test(test_uneven_times_and_gaps),
+	        cmocka_unit_test(test_errors),
+	        cmocka_unit_test(test_oscillation_exact_sine),
+	        cmocka_unit_test(test_interval_coverage),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
