@@ -16,6 +16,7 @@
 #include "cli/cli.h"
 #include "core/afile.h"
 #include "core/csvio.h"
+#include "core/numfmt.h"
 #include "core/jsonio.h"
 #include "measure/measure.h"
 #include "wl_version.h"
@@ -466,26 +467,27 @@ static wl_status write_csv(const ctx *c, const char *path, double commanded, wl_
 	return wl_afile_commit(af, err);
 }
 
+/* One line for people: each value rounded to what its 95% interval supports
+ * (core/numfmt.h); the files keep full precision. */
 static void print_headline(const run_out *ro)
 {
 	const wl_measure_result *r = &ro->res;
-	char a[WL_NUMBUF], b[WL_NUMBUF], c[WL_NUMBUF], d[WL_NUMBUF], e[WL_NUMBUF];
+	const double *ci = r->curvature_ci95_per_m;
+	char a[WL_NUMFMT_BUF], b[WL_NUMFMT_BUF], c[WL_NUMFMT_BUF];
+	double kh = 0.5 * (ci[1] - ci[0]), rh = 0.5 * fabs(1 / ci[0] - 1 / ci[1]);
 	printf("id %s segment %ld (%s s): ", ro->id, ro->segment, wl_fmt_fixed(a, r->duration_s, 1));
 	if (r->straight)
-		printf("straight (curvature %s /m, 95%% [%s, %s])", wl_fmt_fixed(a, r->curvature_per_m, 4),
-		       wl_fmt_fixed(b, r->curvature_ci95_per_m[0], 4),
-		       wl_fmt_fixed(c, r->curvature_ci95_per_m[1], 4));
+		printf("straight (curvature %s /m at 95%%)", wl_numfmt_pm(a, r->curvature_per_m, kh));
 	else
-		printf("radius %s m %s (curvature %s /m, 95%% [%s, %s], arc %s deg)",
-		       wl_fmt_fixed(a, r->radius_m, 3), r->radius_m > 0 ? "counter-clockwise" : "clockwise",
-		       wl_fmt_fixed(b, r->curvature_per_m, 4), wl_fmt_fixed(c, r->curvature_ci95_per_m[0], 4),
-		       wl_fmt_fixed(d, r->curvature_ci95_per_m[1], 4), wl_fmt_fixed(e, r->arc_deg, 0));
-	printf(", speed %s m/s", wl_fmt_fixed(a, r->mean_speed_mps, 3));
+		printf("radius %s m %s (curvature %s /m at 95%%, arc %s deg)",
+		       wl_numfmt_pm(a, r->radius_m, rh), r->radius_m > 0 ? "counter-clockwise" : "clockwise",
+		       wl_numfmt_pm(b, r->curvature_per_m, kh), wl_fmt_fixed(c, r->arc_deg, 0));
+	printf(", speed %s m/s", wl_numfmt_sig(a, r->mean_speed_mps, 3));
 	if (isfinite(r->yaw_osc_freq_hz))
-		printf(", yaw %s deg at %s Hz", wl_fmt_fixed(a, r->yaw_osc_amp_deg, 1),
-		       wl_fmt_fixed(b, r->yaw_osc_freq_hz, 2));
+		printf(", yaw %s deg at %s Hz", wl_numfmt_sig(a, r->yaw_osc_amp_deg, 3),
+		       wl_numfmt_sig(b, r->yaw_osc_freq_hz, 3));
 	if (isfinite(r->sway_amp_m))
-		printf(", sway %s mm", wl_fmt_fixed(a, 1000 * r->sway_amp_m, 1));
+		printf(", sway %s mm", wl_numfmt_sig(a, 1000 * r->sway_amp_m, 2));
 	printf(", tracked %s%%\n", wl_fmt_fixed(a, 100 * r->tracked_fraction, 0));
 }
 

@@ -199,7 +199,7 @@ char *wl_numfmt_value(char *buf, double v, double u)
 
 char *wl_numfmt_sig(char *buf, double v, int sig)
 {
-	char m[WL_NUMFMT_BUF];
+	char m[WL_NUMFMT_BUF], k[NDIG + 40];
 	int e, dec;
 	if (!isfinite(v)) {
 		snprintf(buf, WL_NUMFMT_BUF, "n/a");
@@ -213,21 +213,18 @@ char *wl_numfmt_sig(char *buf, double v, int sig)
 		snprintf(buf, WL_NUMFMT_BUF, "0");
 		return buf;
 	}
+	/* the exponent of v rounded to sig digits: 9.996 with 3 is 10.0 */
 	e = exp10_of(v);
+	round_digits(v, sig - 1 - e, k, sizeof k);
+	if (strlen(k) > (size_t)sig) {
+		e++;
+		round_digits(v, sig - 1 - e, k, sizeof k);
+	}
 	if (fabs(v) >= 1e-4 && fabs(v) < 1e6) {
 		dec = sig - 1 - e;
 		return wl_numfmt_fixed(buf, v, dec > 0 ? dec : 0);
 	}
-	/* the mantissa may round up to 10: then the exponent grows */
-	{
-		char k[NDIG + 40];
-		round_digits(v, sig - 1 - e, k, sizeof k);
-		if (strlen(k) > (size_t)sig) {
-			e++;
-			round_digits(v, sig - 1 - e, k, sizeof k);
-		}
-		place_point(m, v < 0, k, sig - 1);
-	}
+	place_point(m, v < 0, k, sig - 1);
 	snprintf(buf, WL_NUMFMT_BUF, "%se%d", m, e);
 	return buf;
 }

@@ -55,7 +55,8 @@ PYEOF
 LC_ALL=de_DE.UTF-8 "$WAKELINE" measure "$T/CLEAN.csv" -o "$T/SUMMARY.json" --csv "$T/runs.csv" \
 	--body-diameter-m 0.1 --commanded-period-s 0.8 > "$T/stdout"
 cat "$T/stdout"
-grep -q "^id 1 segment 1 (30.0 s): radius 0.5" "$T/stdout"
+# rounded to what the interval supports (core/numfmt.h): "radius 0.49991 ± 0.00013 m"
+grep -q "^id 1 segment 1 (30.0 s): radius 0\.\(49\|50\)[0-9]* ± 0\.000[0-9]* m counter-clockwise (curvature [0-9.]* ± [0-9.]* /m at 95%" "$T/stdout"
 grep -q "^id 7 segment 0 (25.0 s): straight" "$T/stdout"
 [ "$(wc -l < "$T/stdout")" -eq 2 ]
 ! grep -q "[0-9],[0-9]" "$T/SUMMARY.json"
