@@ -22,6 +22,7 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
+#include "core/numfmt.h"
 
 /* The measure stage's keys in the order the table shows them. */
 static const char *const KNOWN[] = {
@@ -154,14 +155,32 @@ static void prows_free(prows *p)
 
 static void value_text(const cJSON *v, char *buf, size_t cap)
 {
-	char num[WL_NUMBUF];
+	char num[WL_NUMFMT_BUF];
 	buf[0] = '\0';
-	if (cJSON_IsNumber(v))
-		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 10));
+	if (cJSON_IsNumber(v)) /* full precision: summary.csv is for programs */
+		snprintf(buf, cap, "%s", wl_numfmt_exact(num, v->valuedouble));
 	else if (cJSON_IsBool(v))
 		snprintf(buf, cap, "%s", cJSON_IsTrue(v) ? "true" : "false");
 	else if (cJSON_IsString(v))
 		snprintf(buf, cap, "%s", v->valuestring);
+}
+
+/* An array of strings (verdict_reasons) as one cell, joined with "; ". */
+static int joined_strings(const cJSON *a, char *buf, size_t cap)
+{
+	const cJSON *e;
+	size_t len = 0;
+	if (cJSON_GetArraySize(a) == 0)
+		return 0;
+	buf[0] = '\0';
+	cJSON_ArrayForEach(e, a)
+	{
+		if (!cJSON_IsString(e))
+			return 0;
+		len += (size_t)snprintf(buf + len, len < cap ? cap - len : 0, "%s%s", len ? "; " : "",
+		                        e->valuestring);
+	}
+	return 1;
 }
 
 static int add_run_values(kvlist *l, const cJSON *run)
@@ -173,7 +192,10 @@ static int add_run_values(kvlist *l, const cJSON *run)
 		if (!v->string)
 			continue;
 		if (cJSON_IsArray(v)) {
-			if (cJSON_GetArraySize(v) == 2) {
+			if (joined_strings(v, buf, sizeof buf)) {
+				if (!kv_add(l, v->string, buf))
+					return 0;
+			} else if (cJSON_GetArraySize(v) == 2) {
 				snprintf(key, sizeof key, "%s_lo", v->string);
 				value_text(cJSON_GetArrayItem(v, 0), buf, sizeof buf);
 				if (!kv_add(l, key, buf))

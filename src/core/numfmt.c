@@ -228,3 +228,22 @@ char *wl_numfmt_sig(char *buf, double v, int sig)
 	snprintf(buf, WL_NUMFMT_BUF, "%se%d", m, e);
 	return buf;
 }
+
+char *wl_numfmt_exact(char *buf, double v)
+{
+	if (!isfinite(v)) {
+		snprintf(buf, WL_NUMFMT_BUF, "%s", isnan(v) ? "nan" : v > 0 ? "inf" : "-inf");
+		return buf;
+	}
+	/* printf and strtod share the locale, so the round trip holds in any;
+	 * a decimal comma is put right afterwards */
+	for (int sig = 15; sig <= 17; sig++) {
+		snprintf(buf, WL_NUMFMT_BUF, "%.*g", sig, v);
+		if (strtod(buf, NULL) == v)
+			break;
+	}
+	for (char *p = buf; *p; p++)
+		if (*p == ',')
+			*p = '.';
+	return buf;
+}

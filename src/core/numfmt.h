@@ -56,4 +56,8 @@ char *wl_numfmt_value(char *buf, double v, double u);
  * else "7.44e-5". */
 char *wl_numfmt_sig(char *buf, double v, int sig);
 
+/* For files, not people: the shortest "%.{15,16,17}g" text of v that reads
+ * back as exactly v, '.' decimals ("nan", "inf" for non-finite v). */
+char *wl_numfmt_exact(char *buf, double v);
+
 #endif

@@ -187,13 +187,40 @@ static void test_random_properties(void **state)
 	}
 }
 
+/* wl_numfmt_exact: the shortest text that reads back exactly, '.' decimals */
+static void test_exact(void **state)
+{
+	char buf[WL_NUMFMT_BUF];
+	double back;
+	unsigned long long x = 0x9E3779B97F4A7C15ULL;
+	(void)state;
+	setlocale(LC_ALL, "C");
+	assert_string_equal(wl_numfmt_exact(buf, 0.4000094223), "0.4000094223");
+	assert_string_equal(wl_numfmt_exact(buf, 0.1), "0.1");
+	assert_string_equal(wl_numfmt_exact(buf, 1.0 / 3.0), "0.3333333333333333");
+	assert_string_equal(wl_numfmt_exact(buf, -2.5e-7), "-2.5e-07");
+	for (int i = 0; i < 10000; i++) {
+		double v;
+		x ^= x << 13, x ^= x >> 7, x ^= x << 17;
+		memcpy(&v, &x, sizeof v);
+		if (!isfinite(v))
+			continue;
+		wl_numfmt_exact(buf, v);
+		back = strtod(buf, NULL); /* subnormals too (wl_parse_double refuses ERANGE) */
+		assert_true(back == v);
+	}
+	if (setlocale(LC_ALL, "de_DE.UTF-8")) {
+		assert_string_equal(wl_numfmt_exact(buf, 0.4000094223), "0.4000094223");
+		setlocale(LC_ALL, "C");
+	}
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-	        cmocka_unit_test(test_worked_examples),
-	        cmocka_unit_test(test_examples_decimal_comma),
-	        cmocka_unit_test(test_place),
-	        cmocka_unit_test(test_random_properties),
+	        cmocka_unit_test(test_worked_examples), cmocka_unit_test(test_examples_decimal_comma),
+	        cmocka_unit_test(test_place),           cmocka_unit_test(test_random_properties),
+	        cmocka_unit_test(test_exact),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
