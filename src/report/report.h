@@ -48,9 +48,11 @@ size_t wl_ticks_linear(double lo, double hi, size_t max_ticks, double *out, size
 double wl_symlog(double v, double linthresh);
 double wl_symlog_inv(double s, double linthresh);
 
-/* Ticks of a symmetric-log axis within [lo, hi]: 0 (when inside) and
- * +-linthresh * 10^k; decades are thinned so that at most max_ticks remain.
- * Falls back to linear ticks when the range does not leave the linear part. */
+/* Ticks of a symmetric-log axis within [lo, hi]: 0 (when inside) and the
+ * round decades +-10^k from a third of linthresh up (+-0.1, +-1, +-10 for a
+ * 0.14 m threshold); decades are thinned (keeping 1) so that at most
+ * max_ticks remain.  Falls back to linear ticks when the range does not
+ * leave the linear part. */
 size_t wl_ticks_symlog(double lo, double hi, double linthresh, size_t max_ticks, double *out, size_t cap);
 
 /* The viridis colour map (van der Walt & Smith, 2015, CC0) at t in [0, 1]

@@ -143,6 +143,15 @@ static void test_symlog_ticks(void **state)
 	assert_true(n <= 9 && n >= 5);
 	for (i = 1; i < n; i++)
 		assert_true(t[i] > t[i - 1]);
+	/* a threshold that is not a power of ten (a body diameter) still gives
+	 * round decades: +-0.1, +-1, +-10, not +-0.14, +-1.4, +-14 */
+	{
+		const double want2[7] = {-10, -1, -0.1, 0, 0.1, 1, 10};
+		n = wl_ticks_symlog(-30, 30, 0.14, 9, t, WL_TICKS_MAX);
+		assert_int_equal(n, 7);
+		for (i = 0; i < n; i++)
+			assert_true(fabs(t[i] - want2[i]) < 1e-12 * fmax(1, fabs(want2[i])));
+	}
 	/* inside the linear part: linear ticks */
 	n = wl_ticks_symlog(-0.4, 0.4, 1, 9, t, WL_TICKS_MAX);
 	assert_true(n >= 3);
