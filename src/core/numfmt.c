@@ -171,7 +171,7 @@ char *wl_numfmt_pm(char *buf, double v, double u)
 	if (!isfinite(u) || !(u > 0))
 		return wl_numfmt_sig(buf, v, 3);
 	dec = wl_numfmt_place(u, &ur);
-	if (dec > 6 || fabs(v) >= 1e6 || ur >= 1e6)
+	if ((dec > 6 && fmax(fabs(v), ur) < 1e-3) || fmax(fabs(v), ur) >= 1e6)
 		return pm_exp(buf, v, u, dec);
 	snprintf(buf, WL_NUMFMT_BUF, "%s \xc2\xb1 %s", wl_numfmt_fixed(a, v, dec),
 	         wl_numfmt_fixed(b, u, dec));

@@ -20,9 +20,9 @@
  * tested against tests/data/numfmt-examples.csv.
  *
  * Output: '.' decimals whatever the locale, '-' for minus, never "-0",
- * " ± " (UTF-8) between value and uncertainty.  Magnitudes that would need
- * more than 6 decimals, or values of 1e6 and more, take a common exponent:
- * "(7.44 ± 0.32)e-5".
+ * " ± " (UTF-8) between value and uncertainty.  Small magnitudes (value and
+ * uncertainty under 1e-3) that would need more than 6 decimals, and values of
+ * 1e6 and more, take a common exponent: "(7.44 ± 0.32)e-5".
  *
  * All functions write into buf (at least WL_NUMFMT_BUF bytes) and return it;
  * none fails.  Non-finite values give "n/a".
