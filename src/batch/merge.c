@@ -488,7 +488,8 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	s = wl_report_sweep_plots(&t, &so, out_dir, &written, err);
 	{
 		wl_err herr;
-		wl_status hs = wl_report_html(&t, out_dir, "wakeline batch report", written, s ? &herr : err);
+		wl_status hs =
+		        wl_report_html(&t, &so, out_dir, "wakeline batch report", written, s ? &herr : err);
 		if (!s && hs)
 			s = hs;
 	}

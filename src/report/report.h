@@ -228,11 +228,21 @@ typedef struct {
 wl_status wl_report_sweep_plots(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
                                 int *written, wl_err *err);
 
-/* Writes dir/report.html: the sweep plots (when `with_sweep`), a table of
- * all runs sortable by any column, each run's thumbnail (folder/path_m.png)
- * and a link to its folder, and the failures with their messages.  The page
- * loads nothing from the network; images are referenced relatively. */
-wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *title, int with_sweep,
-                         wl_err *err);
+/* The body diameter the sweep plots use: o->body_diameter_m when > 0, else
+ * the median over the runs of |radius_m| / radius_body_diameters, else 0
+ * (unknown).  o may be NULL. */
+double wl_report_body_diameter(const wl_report_runs *t, const wl_report_sweep_opts *o);
+
+/* Writes dir/report.html, one self-contained file (docs/report.md): the
+ * runs of t (status ok) embedded as JSON and drawn by an inline script as a
+ * runs table (compact view or every column, sort, filter, pages), groups of
+ * replicates with means and 95% intervals, and the sweep plots as inline
+ * SVG (x and variant chosen in the page; o's x_col / group_col are the
+ * defaults, o may be NULL); the failed and missing clips with their
+ * messages; links to summary.csv, each run's page (folder/run.html) and,
+ * when `with_sweep`, the sweep plot files.  The page loads nothing from the
+ * network. */
+wl_status wl_report_html(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
+                         const char *title, int with_sweep, wl_err *err);
 
 #endif

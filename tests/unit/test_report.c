@@ -20,8 +20,13 @@
 #include <unistd.h>
 
 #include <cmocka.h>
+#include <cjson/cJSON.h>
 
 #include "core/afile.h"
+#include "core/angle.h"
+#include "core/jsonio.h"
+#include "core/numfmt.h"
+#include "measure/measure.h"
 #include "report/report.h"
 
 #define PI 3.14159265358979323846
@@ -493,15 +498,44 @@ static void test_sweep_and_html(void **state)
 	o.x_col = "nothere";
 	assert_int_equal(wl_report_sweep_plots(&t, &o, tmpdir, &written, &err), WL_EINVAL);
 	assert_non_null(strstr(err.msg, "nothere"));
-	assert_int_equal(wl_report_html(&t, tmpdir, "sweep <test>", 1, &err), WL_OK);
+	assert_int_equal(wl_report_html(&t, &o, tmpdir, "sweep <test>", 1, &err), WL_OK);
 	snprintf(path, sizeof path, "%s/report.html", tmpdir);
 	assert_int_equal(wl_read_file(path, 1 << 24, &text, &len, NULL), WL_OK);
-	assert_int_equal(count_str(text, "<tr class=\"run\">"), 7);
+	{
+		/* the data block: the 7 runs with the interval texts of core/numfmt */
+		char *a = strstr(text, "<script type=\"application/json\" id=\"wl-data\">"), *b;
+		cJSON *d, *rows;
+		assert_non_null(a);
+		a = strchr(a, '>') + 1;
+		b = strstr(a, "</script>");
+		assert_non_null(b);
+		d = cJSON_ParseWithLength(a, (size_t)(b - a));
+		assert_non_null(d);
+		rows = cJSON_GetObjectItem(d, "rows");
+		assert_int_equal(cJSON_GetArraySize(rows), 7);
+		assert_int_equal(cJSON_GetArraySize(cJSON_GetArrayItem(rows, 0)), 2 + 9 + 2);
+		/* k = -3, interval [-3.3, -2.7]: curvature -3.00 ± 0.30, radius
+		 * -1/3 with half of |1/-3.3 - 1/-2.7| = 0.0337 -> -0.333 ± 0.034 */
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 11)->valuestring,
+		                    "-3.00 \xc2\xb1 0.30");
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 12)->valuestring,
+		                    "-0.333 \xc2\xb1 0.034");
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 3), 12)->valuestring,
+		                    "straight");
+		assert_string_equal(cJSON_GetObjectItem(d, "x_col")->valuestring, "nothere"); /* as given */
+		assert_true(fabs(cJSON_GetObjectItem(d, "body_m")->valuedouble - 0.1) < 1e-9);
+		/* no '<' inside the block: "<disc>" is written \u003cdisc> */
+		assert_null(memchr(a, '<', (size_t)(b - a)));
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 3)->valuestring,
+		                    "<disc>");
+		cJSON_Delete(d);
+	}
 	assert_int_equal(count_str(text, "<tr class=\"failure\">"), 1);
-	assert_non_null(strstr(text, "&lt;disc&gt;"));
 	assert_null(strstr(text, "<disc>"));
 	assert_non_null(strstr(text, "cannot decode &lt;frame 3&gt;"));
-	assert_null(strstr(text, "http://"));
+	assert_non_null(strstr(text, "default-src 'none'"));
+	/* the only URL is the SVG namespace, a name that is never fetched */
+	assert_int_equal(count_str(text, "http://"), count_str(text, "http://www.w3.org/2000/svg"));
 	assert_null(strstr(text, "https://"));
 	free(text);
 	wl_report_runs_release(&t);
