@@ -221,6 +221,28 @@ static int cmp_name(const void *a, const void *b)
 	return strcmp(*(const char *const *)a, *(const char *const *)b);
 }
 
+static int newer(const struct timespec *a, const struct timespec *b)
+{
+	return a->tv_sec > b->tv_sec || (a->tv_sec == b->tv_sec && a->tv_nsec > b->tv_nsec);
+}
+
+/* The clip's run.html is missing or older than its clip.json (written
+ * last, with the clip's name and parameters, which the page made inside
+ * the clip's process did not know yet) or its summary.json. */
+static int run_page_stale(const char *out_dir, const char *folder)
+{
+	char path[PATH_MAX];
+	struct stat page, other;
+	snprintf(path, sizeof path, "%s/%s/run.html", out_dir, folder);
+	if (stat(path, &page) != 0)
+		return 1;
+	snprintf(path, sizeof path, "%s/%s/clip.json", out_dir, folder);
+	if (stat(path, &other) == 0 && newer(&other.st_mtim, &page.st_mtim))
+		return 1;
+	snprintf(path, sizeof path, "%s/%s/summary.json", out_dir, folder);
+	return stat(path, &other) == 0 && newer(&other.st_mtim, &page.st_mtim);
+}
+
 /* One clip folder: its rows (one per run, or one for a failure). */
 static void read_clip(prows *p, const char *out_dir, const char *name)
 {
@@ -251,15 +273,21 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 	runs = sj ? cJSON_GetObjectItemCaseSensitive(sj, "runs") : NULL;
 	if (strcmp(status, "ok") == 0 && cJSON_IsArray(runs) && cJSON_GetArraySize(runs) > 0) {
 		struct stat st;
+		int no_plots, stale_page;
 		snprintf(path, sizeof path, "%s/%s/path_m.png", out_dir, folder);
-		if (stat(path, &st) != 0) {
+		no_plots = stat(path, &st) != 0;
+		stale_page = run_page_stale(out_dir, folder);
+		if (no_plots || stale_page) {
 			/* the table can do without the picture: a broken image shows the gap */
 			wl_report_scene_buf *sb = calloc(1, sizeof *sb);
 			const char *cal = wl_json_string_or(cj, "cal", "");
 			if (sb && cal[0])
 				wl_report_scene_load(cal, sb, NULL);
 			snprintf(path, sizeof path, "%s/%s", out_dir, folder);
-			wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
+			if (no_plots) /* the plots, then the run page */
+				wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
+			else
+				wl_report_run_page(path, sb ? &sb->scene : NULL, &err);
 			wl_report_scene_release(sb);
 			free(sb);
 		}

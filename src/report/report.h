@@ -182,12 +182,26 @@ void wl_report_scene_release(wl_report_scene_buf *sb);
 
 /* Reads `clip_dir`/clean.csv and `clip_dir`/summary.json (the formats in
  * DEVELOPERS.md) and writes path_m.svg, path_m.png, heading.svg and
- * heading.png into clip_dir.  Memory stays bounded: long tracks are thinned
+ * heading.png into clip_dir, then the clip's page run.html
+ * (wl_report_run_page).  Memory stays bounded: long tracks are thinned
  * to at most WL_REPORT_MAX_POINTS points per robot for drawing.
  * The fitted circle is drawn for each non-straight run whose summary gives a
  * centre (keys centre_x_m / centre_y_m, or center_x_m / center_y_m). */
 #define WL_REPORT_MAX_POINTS 20000
 wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scene, wl_err *err);
+
+/* Writes clip_dir/run.html, the page of one clip folder (docs/report.md):
+ * a section per run of summary.json with its key numbers rounded to what
+ * their intervals support, the path on the tank with the fitted circle,
+ * heading, yaw rate and speed over time with the rows left out shaded, the
+ * yaw spectrum with the fitted peak and the circle's residuals (recomputed
+ * from clean.csv by the measure module), the verdict and uncertainty budget
+ * when the summary has them; then clean.json's account, process.log and
+ * trail.png (embedded).  One self-contained file; a folder without
+ * clean.csv gets the numbers only.  scene may be NULL (the outline then
+ * comes from clean.json).  Fails only on an unreadable summary.json or
+ * clean.csv, or when the page cannot be written. */
+wl_status wl_report_run_page(const char *clip_dir, const wl_report_scene *scene, wl_err *err);
 
 /* ---- the sweep: a table of runs over many clips ------------------------- */
 
