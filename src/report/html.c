@@ -164,7 +164,7 @@ static const char BODY[] =
         "<h2 id=\"sweep-h\">Sweep</h2>\n"
         "<div class=\"bar\"><label>x: <select id=\"sweep-x\"></select></label>"
         "<label>variant (colour and marker): <select id=\"sweep-by\"></select></label></div>\n"
-        "<div id=\"sweep-plots\"></div>\n";
+        "<div id=\"sweep-plots\"></div>\n<div id=\"tip\" role=\"tooltip\"></div>\n";
 
 wl_status wl_report_html(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
                          const char *title, int with_sweep, wl_err *err)

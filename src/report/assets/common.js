@@ -189,23 +189,46 @@ var wl = (function () {
     });
   }
   var NS = 'http://www.w3.org/2000/svg';
+  /* SVG is built as a light tree of {n, a, k, textContent} and written out
+   * as one string: a page of 2000 runs draws two plots of 2000 markers
+   * each, and one innerHTML costs far less than 20000 createElementNS. */
   function el(name, attrs, parent) {
-    var e = document.createElementNS(NS, name), k;
-    for (k in attrs) if (attrs[k] !== undefined && attrs[k] !== null) e.setAttribute(k, attrs[k]);
-    if (parent) parent.appendChild(e);
+    var e = { n: name, a: attrs || {}, k: [], textContent: null };
+    if (parent) parent.k.push(e);
     return e;
   }
-  /* a marker of a given shape centred on (x, y), as an SVG element */
-  function mark(parent, shape, x, y, r, color, filled, title) {
-    var e, p, fill = filled ? color : '#fff', sw = filled ? 0.8 : 1.4, a = { stroke: color, fill: fill, 'stroke-width': sw };
-    if (shape === 'square') { a.x = x - r * 0.85; a.y = y - r * 0.85; a.width = a.height = 1.7 * r; e = el('rect', a, parent); }
+  function markup(e) {
+    var s = '<' + e.n, k;
+    for (k in e.a) if (e.a[k] !== undefined && e.a[k] !== null) s += ' ' + k + '="' + esc(e.a[k]) + '"';
+    s += '>';
+    if (e.textContent !== null) s += esc(e.textContent);
+    for (k = 0; k < e.k.length; k++) s += markup(e.k[k]);
+    return s + '</' + e.n + '>';
+  }
+  function f1(v) { return Math.round(v * 10) / 10; }
+  /* the outline of a marker as an SVG subpath (many markers in one path) */
+  function markPath(shape, x, y, r) {
+    x = f1(x); y = f1(y);
+    var a = f1(r), b = f1(2 * r), t = f1(1.1 * r), u = f1(0.75 * r), d = f1(1.2 * r);
+    if (shape === 'square') { a = f1(0.85 * r); return 'M' + f1(x - a) + ' ' + f1(y - a) + 'h' + 2 * a + 'v' + 2 * a + 'h' + -2 * a + 'z'; }
+    if (shape === 'triangle') return 'M' + x + ' ' + f1(y - t) + 'L' + f1(x + a) + ' ' + f1(y + u) + 'L' + f1(x - a) + ' ' + f1(y + u) + 'z';
+    if (shape === 'down') return 'M' + x + ' ' + f1(y + t) + 'L' + f1(x + a) + ' ' + f1(y - u) + 'L' + f1(x - a) + ' ' + f1(y - u) + 'z';
+    if (shape === 'diamond') return 'M' + x + ' ' + f1(y - d) + 'L' + f1(x + a) + ' ' + y + 'L' + x + ' ' + f1(y + d) + 'L' + f1(x - a) + ' ' + y + 'z';
+    if (shape === 'cross') return 'M' + f1(x - a) + ' ' + y + 'H' + f1(x + a) + 'M' + x + ' ' + f1(y - a) + 'V' + f1(y + a);
+    return 'M' + f1(x - a) + ' ' + y + 'a' + a + ' ' + a + ' 0 1 0 ' + b + ' 0a' + a + ' ' + a + ' 0 1 0 ' + -b + ' 0z';
+  }
+  /* a marker of a given shape centred on (x, y) */
+  function mark(parent, shape, x, y, r, color, filled, title) { /* color null: inherit the group's */
+    var e, p, a = color ? { stroke: color, fill: filled ? color : '#fff', 'stroke-width': filled ? 0.8 : 1.4 } : {};
+    x = f1(x); y = f1(y);
+    if (shape === 'square') { a.x = f1(x - r * 0.85); a.y = f1(y - r * 0.85); a.width = a.height = f1(1.7 * r); e = el('rect', a, parent); }
     else if (shape === 'triangle' || shape === 'down') {
       var s = shape === 'down' ? -1 : 1;
       p = [x, y - s * r * 1.1, x + r, y + s * r * 0.75, x - r, y + s * r * 0.75];
-      a.points = p.map(function (q) { return q.toFixed(1); }).join(' '); e = el('polygon', a, parent);
+      a.points = p.map(f1).join(' '); e = el('polygon', a, parent);
     } else if (shape === 'diamond') {
       p = [x, y - r * 1.2, x + r, y, x, y + r * 1.2, x - r, y];
-      a.points = p.map(function (q) { return q.toFixed(1); }).join(' '); e = el('polygon', a, parent);
+      a.points = p.map(f1).join(' '); e = el('polygon', a, parent);
     } else if (shape === 'cross') {
       a.d = 'M' + (x - r) + ' ' + y + 'H' + (x + r) + 'M' + x + ' ' + (y - r) + 'V' + (y + r);
       a['stroke-width'] = 1.6; a.fill = 'none'; e = el('path', a, parent);
@@ -219,12 +242,7 @@ var wl = (function () {
     if (kind === 'band') s += '<rect x="1" y="2" width="20" height="10" fill="' + color + '" fill-opacity="0.25" stroke="none"/>';
     else if (kind === 'line') s += '<path d="M1 7H21" stroke="' + color + '" stroke-width="2" fill="none"/>';
     else if (kind === 'dash') s += '<path d="M1 7H21" stroke="' + color + '" stroke-width="1.5" stroke-dasharray="4 3" fill="none"/>';
-    else {
-      var d = document.createElement('div'), svg = document.createElementNS(NS, 'svg');
-      mark(svg, shape, 11, 7, 4.5, color, filled);
-      d.appendChild(svg);
-      s += svg.innerHTML;
-    }
+    else s += markup(mark(null, shape, 11, 7, 4.5, color, filled));
     return s + '</svg>';
   }
 
@@ -288,19 +306,20 @@ var wl = (function () {
     var clipId = 'c' + Math.random().toString(36).slice(2);
     el('rect', { x: ml, y: mt, width: pw, height: ph }, el('clipPath', { id: clipId }, el('defs', {}, svg)));
     var g = el('g', { 'clip-path': 'url(#' + clipId + ')' }, svg), axes = el('g', { 'class': 'axes' }, svg);
+    var hits = [];
     /* ticks and grid */
     var yl = c ? [wl_inv(ty[0], c), wl_inv(ty[1], c)] : ty;
     var yt = c ? ticksSymlog(yl[0], yl[1], c, Math.max(3, Math.floor(ph / 40))) : ticksLinear(ty[0], ty[1], Math.max(3, Math.floor(ph / 45)));
     if (o.ytickMax !== undefined) yt = yt.filter(function (v) { return v <= o.ytickMax; });
     var xt = o.xcats ? o.xcats.map(function (_, i) { return i; }) : ticksLinear(xr[0], xr[1], Math.max(3, Math.floor(pw / 70)));
     yt.forEach(function (v) {
-      var y = Y(v);
+      var y = f1(Y(v));
       el('path', { d: 'M' + ml + ' ' + y + 'H' + (ml + pw), stroke: v === 0 ? '#bbb' : '#eee' }, g);
       el('text', { x: ml - 5, y: y + 4, 'text-anchor': 'end', 'class': 'tick ytick' }, axes).textContent = o.yfmt ? o.yfmt(v) : tickLabel(v);
     });
     var lastx = -1e9;
     xt.forEach(function (v, i) {
-      var x = X(v);
+      var x = f1(X(v));
       el('path', { d: 'M' + x + ' ' + mt + 'V' + (mt + ph), stroke: '#f0f0f0' }, g);
       if (x - lastx < 18) return;
       lastx = x;
@@ -331,15 +350,32 @@ var wl = (function () {
         }
         if (d) el('path', { d: d, fill: 'none', stroke: l.color || '#000', 'stroke-width': l.width || 1.5, 'stroke-dasharray': l.dash || null, 'stroke-opacity': l.opacity || null, 'stroke-linejoin': 'round' }, g);
       } else if (it.t === 'points') {
+        /* style on the group, geometry on the markers: many points stay cheap.
+         * With p.ids, each marker carries data-i (for a page's own tooltip
+         * and click handling) instead of a title and a link. */
         p = it.p;
-        var pg = el('g', { 'class': p.cls || null }, g);
+        var filled = p.filled !== false, col = p.color || '#000';
+        var pg = el('g', { 'class': p.cls || null, stroke: col, fill: filled ? col : '#fff', 'stroke-width': filled ? 0.8 : 1.4 }, g);
+        if (p.ids) { /* many markers: one path, and their places for the page's hit test */
+          d = '';
+          var n0 = hits.length;
+          for (i = 0; i < p.x.length; i++) {
+            if (!isFinite(p.x[i]) || !isFinite(p.y[i])) continue;
+            var hx = X(p.x[i]), hy = Y(p.y[i]);
+            d += markPath(p.shape || 'circle', hx, hy, p.r || 4);
+            hits.push([hx, hy, p.ids[i]]);
+          }
+          el('path', { d: d, 'data-n': hits.length - n0 }, pg);
+          return;
+        }
         for (i = 0; i < p.x.length; i++) {
           if (!isFinite(p.x[i]) || !isFinite(p.y[i])) continue;
-          var px = X(p.x[i]), py = Y(p.y[i]), parent = pg;
+          var px = X(p.x[i]), py = Y(p.y[i]), parent = pg, m;
           if (p.hrefs && p.hrefs[i]) parent = el('a', { href: p.hrefs[i] }, pg);
           if (p.lo && isFinite(p.lo[i]) && isFinite(p.hi[i]))
-            el('path', { d: 'M' + px.toFixed(1) + ' ' + Y(p.lo[i]).toFixed(1) + 'V' + Y(p.hi[i]).toFixed(1) + 'M' + (px - 4).toFixed(1) + ' ' + Y(p.lo[i]).toFixed(1) + 'h8M' + (px - 4).toFixed(1) + ' ' + Y(p.hi[i]).toFixed(1) + 'h8', stroke: p.color, 'stroke-width': 1.3, fill: 'none' }, parent);
-          mark(parent, p.shape || 'circle', px, py, p.r || 4, p.color || '#000', p.filled !== false, p.titles ? p.titles[i] : null);
+            el('path', { d: 'M' + f1(px) + ' ' + f1(Y(p.lo[i])) + 'V' + f1(Y(p.hi[i])) + 'M' + f1(px - 4) + ' ' + f1(Y(p.lo[i])) + 'h8M' + f1(px - 4) + ' ' + f1(Y(p.hi[i])) + 'h8', 'stroke-width': 1.3, fill: 'none' }, parent);
+          m = mark(parent, p.shape || 'circle', px, py, p.r || 4, null, filled, p.titles ? p.titles[i] : null);
+          if (p.ids) m.a['data-i'] = p.ids[i];
         }
       } else if (it.t === 'text') {
         el('text', { x: X(it.x.x) + (it.x.dx || 0), y: Y(it.x.y) + (it.x.dy || 0), 'text-anchor': it.x.anchor || 'start', fill: it.x.color || '#333', 'class': 'ptext' }, g).textContent = it.x.text;
@@ -353,7 +389,10 @@ var wl = (function () {
       }
     });
     this.X = X; this.Y = Y;
-    return svg;
+    var box = document.createElement('div');
+    box.innerHTML = markup(svg);
+    box.firstChild.wlHits = hits; /* [x, y, id] in the SVG's pixels, for hit tests */
+    return box.firstChild;
   };
   function wl_inv(s, c) { /* inverse of symlog */
     var a = Math.abs(s);

@@ -7,7 +7,7 @@
 'use strict';
 (function () {
   var t0 = performance.now();
-  var D = JSON.parse(document.getElementById('wl-data').textContent);
+  var D = JSON.parse(document.getElementById('wl-data').textContent), tparse = performance.now() - t0;
   var NC = D.cols.length, COL = {}, rows = D.rows, PARAMS = D.cols.slice(0, D.nparams);
   D.cols.forEach(function (c, i) { COL[c] = i; });
   var KPM = 2 + NC, RPM = 3 + NC; /* the C-formatted "value ± half" of curvature and radius */
@@ -24,16 +24,17 @@
     }
     return (numCache[key] = a);
   }
-  function numericCol(key) { /* every non-empty cell a number */
-    var j = COL[key], i, s, any = false;
-    if (j === undefined) return false;
-    for (i = 0; i < rows.length; i++) {
-      s = rows[i][2 + j];
-      if (s === '') continue;
-      if (isNaN(Number(s))) return false;
-      any = true;
+  var numericCache = {};
+  function numericCol(key) { /* every non-empty cell a number (the parsed column is kept for sorting) */
+    if (key in numericCache) return numericCache[key];
+    var j = COL[key], a, i, any = false, ok = true;
+    if (j === undefined) return (numericCache[key] = false);
+    a = nums(key);
+    for (i = 0; i < rows.length && ok; i++) {
+      if (rows[i][2 + j] === '') continue;
+      if (isNaN(a[i])) ok = false; else any = true;
     }
-    return any;
+    return (numericCache[key] = ok && any);
   }
   function runHref(r) {
     return encodeURI(r[1]) + '/run.html#run=' + encodeURIComponent(cell(r, 'id') + '.' + cell(r, 'segment'));
@@ -94,6 +95,7 @@
     def(c, { label: c, text: !isnum, sortNum: isnum ? c : null, sortText: function (r) { return cell(r, c); },
       html: function (r) { return c === 'verdict_reasons' ? esc(cell(r, c)) : numText(cell(r, c)); } });
   });
+  var tdefs = performance.now() - t0;
   var COMPACT = ['clip'].concat(PARAMS, ['id'], hasVerdict ? ['verdict'] : [],
     ['radius', 'curvature', 'straightness', 'mean_speed_mps', 'yaw_osc_freq_hz', 'yaw_osc_amp_deg', 'tracked_fraction'])
     .filter(function (k) { return DEF[k]; });
@@ -353,7 +355,9 @@
     var vg = S.by ? groupsOf(pts, [S.by]) : [{ vals: [''], idx: pts }];
     var body = D.body_m > 0 ? D.body_m : 0, c = body > 0 ? body : 0.1;
     var xs = pts.map(xOf), xspan = (Math.max.apply(null, xs.concat([0])) - Math.min.apply(null, xs.concat([0]))) || 1;
-    var step = cats ? 0.12 : 0.012 * xspan, G = vg.length;
+    /* variants side by side (a plot is about 500 px wide: 0.03 of the span
+     * is some 15 px), each run a little left of its group's mean */
+    var step = cats ? 0.2 : 0.03 * xspan, G = vg.length, runShift = cats ? 0.08 : 0.014 * xspan;
     var kmax = 0, amax = 0;
     var series = vg.map(function (g, gi) { /* per variant: runs and the means at each x */
       var dx = G > 1 ? step * (gi - 0.5 * (G - 1)) : 0, color = wl.PALETTE[gi % 8], shape = wl.SHAPES[gi % 6];
@@ -394,20 +398,21 @@
     pr.band({ a: inv(thi0 + 0.08 * hb), b: Infinity, color: '#999', opacity: 0.18, text: 'straight', anchor: 'end' });
     if (body > 0) pr.band({ a: -body, b: body, color: '#D55E00', opacity: 0.12 });
     series.forEach(function (s) {
-      var rx = [], rk = [], rrx = [], rr = [], rst = [], tk1 = [], tr1 = [], ts1 = [], hk = [], hr = [], hs = [];
+      var rx = [], rk = [], rrx = [], rr = [], rst = [], tk1 = [], tr1 = [], ts1 = [];
       s.runs.forEach(function (i) {
-        /* a run sits a little left of its group's mean, so that the mean does not hide it */
-        var r = rows[i], x = xOf(i) + s.dx - (cats ? 0.05 : 0.005 * xspan), who = r[0] + ' (robot ' + cell(r, 'id') + ')';
-        rx.push(x); rk.push(K[i]); tk1.push(who + ': curvature ' + r[KPM] + ' /m'); hk.push(runHref(r));
-        if (isFinite(R[i]) && cell(r, 'straight') !== 'true') { rrx.push(x); rr.push(R[i]); tr1.push(who + ': radius ' + r[RPM] + ' m'); hr.push(runHref(r)); }
-        else { rst.push(x); ts1.push(who + ': straight, curvature ' + r[KPM] + ' /m'); hs.push(runHref(r)); }
+        /* a run sits a little left of its group's mean, so that the mean does
+         * not hide it; its marker carries the row (tooltip and link below) */
+        var x = xOf(i) + s.dx - runShift;
+        rx.push(x); rk.push(K[i]); tk1.push(i);
+        if (isFinite(R[i]) && cell(rows[i], 'straight') !== 'true') { rrx.push(x); rr.push(R[i]); tr1.push(i); }
+        else { rst.push(x); ts1.push(i); }
       });
       var mx = s.means.map(function (m) { return m.x; });
       var mk = s.means.map(function (m) { return m.st.mean; });
       var mlo = s.means.map(function (m) { return m.st.mean - m.st.half; }), mhi = s.means.map(function (m) { return m.st.mean + m.st.half; });
       var mtitle = s.means.map(function (m) { return s.name + ', ' + S.x + ' ' + m.label + ': mean of ' + m.st.n + ' runs ' + (m.st.n > 1 ? fmt.pm(m.st.mean, m.st.half) : fmt.sig(m.st.mean, 3)) + ' /m (95%)'; });
       pk.line({ x: mx, y: mk, color: s.color, width: 1, opacity: 0.6 });
-      pk.points({ x: rx, y: rk, color: s.color, shape: s.shape, r: 3, filled: false, titles: tk1, hrefs: hk, cls: 'runpt' });
+      pk.points({ x: rx, y: rk, color: s.color, shape: s.shape, r: 3, filled: false, ids: tk1, cls: 'runpt' });
       pk.points({ x: mx, y: mk, lo: mlo, hi: mhi, color: s.color, shape: s.shape, r: 5.5, filled: true, titles: mtitle, cls: 'meanpt' });
       var Mx = [], My = [], Mlo = [], Mhi = [], Mt = [], Sx = [], St = [];
       s.means.forEach(function (m, j) {
@@ -415,8 +420,8 @@
         Mx.push(m.x); My.push(m.rr.r); Mlo.push(m.rr.lo); Mhi.push(m.rr.hi); Mt.push(mtitle[j].replace(/ \/m \(95%\)$/, '') + ' /m, radius ' + fmt.pm(m.rr.r, m.rr.half) + ' m');
       });
       pr.line({ x: Mx, y: My, color: s.color, width: 1, opacity: 0.6 });
-      pr.points({ x: rrx, y: rr, color: s.color, shape: s.shape, r: 3, filled: false, titles: tr1, hrefs: hr, cls: 'runpt' });
-      pr.points({ x: rst, y: rst.map(function () { return straightY; }), color: s.color, shape: s.shape, r: 3, filled: false, titles: ts1, hrefs: hs, cls: 'runpt' });
+      pr.points({ x: rrx, y: rr, color: s.color, shape: s.shape, r: 3, filled: false, ids: tr1, cls: 'runpt' });
+      pr.points({ x: rst, y: rst.map(function () { return straightY; }), color: s.color, shape: s.shape, r: 3, filled: false, ids: ts1, cls: 'runpt' });
       pr.points({ x: Mx, y: My, lo: Mlo, hi: Mhi, color: s.color, shape: s.shape, r: 5.5, filled: true, titles: Mt, cls: 'meanpt' });
       pr.points({ x: Sx, y: Sx.map(function () { return straightY; }), color: s.color, shape: s.shape, r: 5.5, filled: true, titles: St, cls: 'meanpt' });
     });
@@ -437,16 +442,49 @@
     });
     box.insertAdjacentHTML('beforeend', wl.legend(leg));
   }
+  /* the runs' markers are drawn as one path per variant: the run under the
+   * pointer is found from their places (the nearest within 7 px), for a
+   * tooltip on hover and the run page on click */
+  var tip = document.getElementById('tip'), plots = document.getElementById('sweep-plots');
+  function runAt(e) {
+    var svg = e.target.closest && e.target.closest('svg.plot'), rc, sx, sy, best = -1, bd = 49, k, h, d;
+    if (!svg || !svg.wlHits) return -1;
+    rc = svg.getBoundingClientRect();
+    sx = (e.clientX - rc.left) * svg.viewBox.baseVal.width / rc.width;
+    sy = (e.clientY - rc.top) * svg.viewBox.baseVal.height / rc.height;
+    for (k = 0; k < svg.wlHits.length; k++) {
+      h = svg.wlHits[k]; d = (h[0] - sx) * (h[0] - sx) + (h[1] - sy) * (h[1] - sy);
+      if (d < bd) { bd = d; best = h[2]; }
+    }
+    return best;
+  }
+  plots.addEventListener('mousemove', function (e) {
+    var i = runAt(e), r;
+    e.target.closest && e.target.closest('svg.plot') && (e.target.closest('svg.plot').style.cursor = i < 0 ? '' : 'pointer');
+    if (i < 0) { tip.style.display = 'none'; return; }
+    r = rows[i];
+    tip.textContent = r[0] + ' (robot ' + cell(r, 'id') + '): curvature ' + r[KPM] + ' /m' +
+      (cell(r, 'straight') === 'true' ? ', straight' : ', radius ' + r[RPM] + ' m') + ' (click: its page)';
+    tip.style.left = (e.clientX + 12) + 'px'; tip.style.top = (e.clientY + 12) + 'px'; tip.style.display = 'block';
+  });
+  plots.addEventListener('mouseleave', function () { tip.style.display = 'none'; });
+  plots.addEventListener('click', function (e) { var i = runAt(e); if (i >= 0) location.href = runHref(rows[i]); });
   document.getElementById('sweep-x').addEventListener('change', function () { S.x = this.value; renderSweep(view); writeHash(); });
   document.getElementById('sweep-by').addEventListener('change', function () { S.by = this.value || null; renderSweep(view); writeHash(); });
 
   /* ---- filter box and headline switch -------------------------------------- */
   var fbox = document.getElementById('filter'), timer = null;
   fbox.value = S.q;
+  var T = {};
   function refilter() {
+    var a = performance.now(), b, c, d;
     view = sortIdx(selected());
     S.page = Math.min(S.page, Math.max(0, Math.ceil(view.length / S.size) - 1));
-    renderTable(); renderGroups(view); renderSweep(view); writeHash();
+    renderTable(); b = performance.now();
+    renderGroups(view); c = performance.now();
+    renderSweep(view); d = performance.now();
+    writeHash();
+    T.table_ms = b - a; T.groups_ms = c - b; T.sweep_ms = d - c;
   }
   fbox.addEventListener('input', function () { clearTimeout(timer); timer = setTimeout(function () { S.q = fbox.value; S.page = 0; refilter(); }, 150); });
   var hl = document.getElementById('headline');
@@ -458,7 +496,10 @@
 
   renderChooser();
   refilter();
-  window.wlReport = { timing: { ready_ms: performance.now() - t0 }, state: S, data: D, defs: ALL, stats: wl.stats, fmt: fmt, tq975: wl.tq975 };
+  T.ready_ms = performance.now() - t0;
+  T.parse_ms = tparse;
+  T.defs_ms = tdefs;
+  window.wlReport = { timing: T, state: S, data: D, defs: ALL, stats: wl.stats, fmt: fmt, tq975: wl.tq975 };
   document.body.setAttribute('data-ready', '1');
   window.addEventListener('load', function () { /* for headless checks: every image present */
     var im = document.images, ok = 0, k;

@@ -166,7 +166,7 @@ function csvRows(text) { /* the examples file: '#' comments, quoted last column 
   /* sweep plots: one marker per run, round decades on the radius axis */
   res.sweep = await page.evaluate(() => {
     const svgs = document.querySelectorAll('#sweep-plots svg.plot');
-    return { plots: svgs.length, runs_k: svgs[0] ? svgs[0].querySelectorAll('.runpt title').length : 0,
+    return { plots: svgs.length, runs_k: svgs[0] ? Array.from(svgs[0].querySelectorAll('.runpt path[data-n]')).reduce((a, p) => a + Number(p.dataset.n), 0) : 0,
       means_k: svgs[0] ? svgs[0].querySelectorAll('.meanpt title').length : 0,
       radius_ticks: svgs[1] ? Array.from(svgs[1].querySelectorAll('text.ytick')).map(t => t.textContent).filter(t => t !== '') : [] };
   });
