@@ -419,7 +419,16 @@
         if (m.rr.straight) { Sx.push(m.x); St.push(mtitle[j] + ': straight'); return; }
         Mx.push(m.x); My.push(m.rr.r); Mlo.push(m.rr.lo); Mhi.push(m.rr.hi); Mt.push(mtitle[j].replace(/ \/m \(95%\)$/, '') + ' /m, radius ' + fmt.pm(m.rr.r, m.rr.half) + ' m');
       });
-      pr.line({ x: Mx, y: My, color: s.color, width: 1, opacity: 0.6 });
+      /* the means joined in x order, but never through a straight group or
+       * across a change of sign: a radius goes from + to - through
+       * infinity (straight), not through 0 */
+      var Lx = [], Ly = [], prev = null;
+      s.means.forEach(function (m) {
+        var y = m.rr.straight ? NaN : m.rr.r;
+        if (prev !== null && isFinite(prev) && isFinite(y) && prev * y < 0) { Lx.push(NaN); Ly.push(NaN); }
+        Lx.push(m.x); Ly.push(y); prev = y;
+      });
+      pr.line({ x: Lx, y: Ly, color: s.color, width: 1, opacity: 0.6 });
       pr.points({ x: rrx, y: rr, color: s.color, shape: s.shape, r: 3, filled: false, ids: tr1, cls: 'runpt' });
       pr.points({ x: rst, y: rst.map(function () { return straightY; }), color: s.color, shape: s.shape, r: 3, filled: false, ids: ts1, cls: 'runpt' });
       pr.points({ x: Mx, y: My, lo: Mlo, hi: Mhi, color: s.color, shape: s.shape, r: 5.5, filled: true, titles: Mt, cls: 'meanpt' });
