@@ -71,7 +71,7 @@ int cmd_process(int argc, char **argv)
 	};
 	const char *cal = NULL, *out = NULL, *robots = NULL, *plane = NULL, *body = NULL, *threads = NULL,
 	           *clip;
-	char raw[4200], clean[4200], side[4200], sum[4200];
+	char raw[4200], clean[4200], side[4200], sum[4200], trail[4200];
 	const char *args[40];
 	int quiet = 0, c, n, rc;
 	double dummy;
@@ -130,10 +130,11 @@ int cmd_process(int argc, char **argv)
 	snprintf(clean, sizeof clean, "%s/clean.csv", out);
 	snprintf(side, sizeof side, "%s/clean.json", out);
 	snprintf(sum, sizeof sum, "%s/summary.json", out);
+	snprintf(trail, sizeof trail, "%s/trail.png", out); /* shown on the run page */
 
 	n = 0;
 	args[n++] = "track", args[n++] = clip, args[n++] = "--cal", args[n++] = cal, args[n++] = "-o",
-	args[n++] = raw;
+	args[n++] = raw, args[n++] = "--trail", args[n++] = trail;
 	if (robots)
 		args[n++] = "--robots", args[n++] = robots;
 	if (plane)
