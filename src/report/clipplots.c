@@ -17,6 +17,7 @@
 
 #include "core/csvio.h"
 #include "core/jsonio.h"
+#include "report/cleanrows.h"
 
 #ifndef M_PI
 #define M_PI 3.14159265358979323846
@@ -46,7 +47,7 @@ typedef struct {
 typedef struct {
 	const char *path;
 	int pass;
-	int c_t, c_id, c_x, c_y, c_h, c_yr, c_seg;
+	wl_clean_cols c;
 	track *tr;
 	size_t ntr;
 	double tmin, tmax;
@@ -109,28 +110,17 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	track *tr;
 	double t, h;
 	long seg = -1;
-	if (row->index == 0) {
-		wl_status s = wl_csv_require(row, req, err);
-		if (s)
-			return wl_err_prefix(err, "%s:%ld", row->path, row->line);
-		r->c_t = wl_csv_col(row, "t_s");
-		r->c_id = wl_csv_col(row, "id");
-		r->c_x = wl_csv_col(row, "x_m");
-		r->c_y = wl_csv_col(row, "y_m");
-		r->c_h = wl_csv_col(row, "heading_rad");
-		r->c_yr = wl_csv_col(row, "yaw_rate_radps");
-		r->c_seg = wl_csv_col(row, "segment");
-		return WL_OK;
-	}
-	if ((size_t)r->c_id >= row->nfields)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: row has no 'id' cell: check the file", row->path,
-		                  row->line);
-	tr = find_track(r, row->fields[r->c_id], r->pass == 0, err, row->line);
+	const char *id;
+	if (row->index == 0)
+		return wl_clean_cols_read(row, req, &r->c, err);
+	if (!(id = wl_clean_cols_id(row, &r->c, err)))
+		return err->code;
+	tr = find_track(r, id, r->pass == 0, err, row->line);
 	if (!tr)
 		return r->pass == 0 ? err->code : WL_OK;
-	if (wl_csv_get_double(row, r->c_t, "t_s", &t, err))
+	if (wl_csv_get_double(row, r->c.t, "t_s", &t, err))
 		return err->code;
-	if (!wl_csv_empty(row, r->c_seg) && wl_csv_get_long(row, r->c_seg, "segment", &seg, err))
+	if (!wl_csv_empty(row, r->c.seg) && wl_csv_get_long(row, r->c.seg, "segment", &seg, err))
 		return err->code;
 	if (r->pass == 0) {
 		tr->count++;
@@ -148,7 +138,7 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	}
 	tr->last_t = t;
 	/* heading unwrapped on every row, so that thinning cannot miss a wrap */
-	h = cell(row, r->c_h);
+	h = cell(row, r->c.h);
 	if (isfinite(h)) {
 		if (tr->have_h) {
 			double d = h - tr->prev_h;
@@ -166,10 +156,10 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		if (tr->n >= m) /* segment changes past the budget: drop */
 			return WL_OK;
 		tr->t[tr->n] = t;
-		tr->x[tr->n] = cell(row, r->c_x);
-		tr->y[tr->n] = cell(row, r->c_y);
+		tr->x[tr->n] = cell(row, r->c.x);
+		tr->y[tr->n] = cell(row, r->c.y);
 		tr->hd[tr->n] = isfinite(h) ? (h + tr->off_h) * 180.0 / M_PI : NAN;
-		tr->yr[tr->n] = cell(row, r->c_yr) * 180.0 / M_PI;
+		tr->yr[tr->n] = cell(row, r->c.yr) * 180.0 / M_PI;
 		tr->seg[tr->n] = (int)seg;
 		tr->n++;
 	}

@@ -34,6 +34,7 @@
 #include "core/jsonio.h"
 #include "core/numfmt.h"
 #include "measure/measure.h"
+#include "report/cleanrows.h"
 #include "report/page.h"
 #include "wl_version.h"
 
@@ -53,7 +54,7 @@ typedef struct {
 
 typedef struct {
 	const char *path;
-	int c_t, c_id, c_x, c_y, c_h, c_v, c_yr, c_seg, c_st;
+	wl_clean_cols c;
 	rtrack *tr;
 	size_t ntr;
 } rreader;
@@ -111,25 +112,13 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	long seg = -1;
 	double t;
 	size_t i;
-	if (row->index == 0) {
-		if (wl_csv_require(row, req, err))
-			return wl_err_prefix(err, "%s:%ld", row->path, row->line);
-		r->c_t = wl_csv_col(row, "t_s");
-		r->c_id = wl_csv_col(row, "id");
-		r->c_x = wl_csv_col(row, "x_m");
-		r->c_y = wl_csv_col(row, "y_m");
-		r->c_h = wl_csv_col(row, "heading_rad");
-		r->c_v = wl_csv_col(row, "speed_mps");
-		r->c_yr = wl_csv_col(row, "yaw_rate_radps");
-		r->c_seg = wl_csv_col(row, "segment");
-		r->c_st = wl_csv_col(row, "status");
-		return WL_OK;
-	}
-	if ((size_t)r->c_id >= row->nfields)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: row has no 'id' cell: check the file", row->path,
-		                  row->line);
+	const char *id;
+	if (row->index == 0)
+		return wl_clean_cols_read(row, req, &r->c, err);
+	if (!(id = wl_clean_cols_id(row, &r->c, err)))
+		return err->code;
 	for (i = 0; i < r->ntr; i++)
-		if (strcmp(r->tr[i].id, row->fields[r->c_id]) == 0)
+		if (strcmp(r->tr[i].id, id) == 0)
 			tr = &r->tr[i];
 	if (!tr) {
 		if (r->ntr == RP_MAX_IDS)
@@ -137,23 +126,23 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 			                  "%s:%ld: more than %d robot ids: the run page shows at most %d",
 			                  row->path, row->line, RP_MAX_IDS, RP_MAX_IDS);
 		tr = &r->tr[r->ntr++];
-		snprintf(tr->id, sizeof tr->id, "%s", row->fields[r->c_id]);
+		snprintf(tr->id, sizeof tr->id, "%s", id);
 	}
-	if (wl_csv_get_double(row, r->c_t, "t_s", &t, err))
+	if (wl_csv_get_double(row, r->c.t, "t_s", &t, err))
 		return err->code;
-	if (!wl_csv_empty(row, r->c_seg) && wl_csv_get_long(row, r->c_seg, "segment", &seg, err))
+	if (!wl_csv_empty(row, r->c.seg) && wl_csv_get_long(row, r->c.seg, "segment", &seg, err))
 		return err->code;
 	if (tr->n == tr->cap && !rtrack_grow(tr))
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory at line %ld", row->path, row->line);
 	tr->t[tr->n] = t;
-	tr->x[tr->n] = cellv(row, r->c_x);
-	tr->y[tr->n] = cellv(row, r->c_y);
-	tr->h[tr->n] = cellv(row, r->c_h);
-	tr->v[tr->n] = cellv(row, r->c_v);
-	tr->yr[tr->n] = cellv(row, r->c_yr);
+	tr->x[tr->n] = cellv(row, r->c.x);
+	tr->y[tr->n] = cellv(row, r->c.y);
+	tr->h[tr->n] = cellv(row, r->c.h);
+	tr->v[tr->n] = cellv(row, r->c.v);
+	tr->yr[tr->n] = cellv(row, r->c.yr);
 	tr->seg[tr->n] = (int)seg;
 	tr->meas[tr->n] =
-	        r->c_st < 0 || ((size_t)r->c_st < row->nfields && !strcmp(row->fields[r->c_st], "measured"));
+	        r->c.st < 0 || ((size_t)r->c.st < row->nfields && !strcmp(row->fields[r->c.st], "measured"));
 	tr->n++;
 	return WL_OK;
 }
