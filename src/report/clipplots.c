@@ -17,7 +17,7 @@
 
 #include "core/csvio.h"
 #include "core/jsonio.h"
-#include "report/cleanrows.h"
+#include "report/readers.h"
 
 #ifndef M_PI
 #define M_PI 3.14159265358979323846
@@ -171,23 +171,6 @@ typedef struct {
 	double cx, cy, r;
 } circle;
 
-static void id_text(const cJSON *v, char *buf, size_t cap)
-{
-	char num[WL_NUMBUF];
-	if (cJSON_IsString(v))
-		snprintf(buf, cap, "%s", v->valuestring);
-	else if (cJSON_IsNumber(v))
-		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 12));
-	else
-		buf[0] = '\0';
-}
-
-static double num_or_nan(const cJSON *o, const char *k)
-{
-	const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, k);
-	return cJSON_IsNumber(v) ? v->valuedouble : NAN;
-}
-
 /* Fitted circles of the non-straight runs that give a centre. */
 static wl_status read_circles(const char *path, circle *c, size_t cap, size_t *n, wl_err *err)
 {
@@ -206,16 +189,16 @@ static wl_status read_circles(const char *path, circle *c, size_t cap, size_t *n
 	}
 	cJSON_ArrayForEach(run, runs)
 	{
-		double cx = num_or_nan(run, "centre_x_m"), cy = num_or_nan(run, "centre_y_m");
-		double r = num_or_nan(run, "radius_m");
+		double cx = wl_summary_num(run, "centre_x_m"), cy = wl_summary_num(run, "centre_y_m");
+		double r = wl_summary_num(run, "radius_m");
 		if (!isfinite(cx))
-			cx = num_or_nan(run, "center_x_m");
+			cx = wl_summary_num(run, "center_x_m");
 		if (!isfinite(cy))
-			cy = num_or_nan(run, "center_y_m");
+			cy = wl_summary_num(run, "center_y_m");
 		if (cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(run, "straight")) || !isfinite(cx) ||
 		    !isfinite(cy) || !isfinite(r) || *n == cap)
 			continue;
-		id_text(cJSON_GetObjectItemCaseSensitive(run, "id"), c[*n].id, sizeof c[*n].id);
+		wl_summary_id_text(cJSON_GetObjectItemCaseSensitive(run, "id"), c[*n].id, sizeof c[*n].id);
 		c[*n].cx = cx;
 		c[*n].cy = cy;
 		c[*n].r = fabs(r);

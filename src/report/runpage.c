@@ -34,7 +34,7 @@
 #include "core/jsonio.h"
 #include "core/numfmt.h"
 #include "measure/measure.h"
-#include "report/cleanrows.h"
+#include "report/readers.h"
 #include "report/page.h"
 #include "wl_version.h"
 
@@ -162,23 +162,6 @@ static cJSON *add_array(cJSON *obj, const char *key, const double *v, const size
 	return a;
 }
 
-static void id_text(const cJSON *v, char *buf, size_t cap)
-{
-	char num[WL_NUMBUF];
-	if (cJSON_IsString(v))
-		snprintf(buf, cap, "%s", v->valuestring);
-	else if (cJSON_IsNumber(v))
-		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 12));
-	else
-		buf[0] = '\0';
-}
-
-static double num(const cJSON *o, const char *k)
-{
-	const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, k);
-	return cJSON_IsNumber(v) ? v->valuedouble : NAN;
-}
-
 /* ---- the robots' series: thinned, heading unwrapped ---------------------- */
 
 static wl_status add_robot(cJSON *robots, const rtrack *tr, wl_err *err)
@@ -269,7 +252,7 @@ static void add_numbers(cJSON *o, const cJSON *run)
 	}
 	for (size_t i = 0; a && i < sizeof NUMBERS / sizeof NUMBERS[0]; i++) {
 		const number_row *nr = &NUMBERS[i];
-		double v = num(run, nr->key), half = NAN;
+		double v = wl_summary_num(run, nr->key), half = NAN;
 		const cJSON *b = cJSON_GetObjectItemCaseSensitive(budget, nr->key);
 		char text[WL_NUMFMT_BUF], full[WL_NUMFMT_BUF];
 		cJSON *row;
@@ -283,8 +266,8 @@ static void add_numbers(cJSON *o, const cJSON *run)
 				half = 0.5 * (hi - lo);
 			else if (!strcmp(nr->key, "radius_m") && lo * hi > 0)
 				half = 0.5 * fabs(1 / lo - 1 / hi);
-			else if (isfinite(num(b, "total_se")))
-				half = 1.959964 * num(b, "total_se");
+			else if (isfinite(wl_summary_num(b, "total_se")))
+				half = 1.959964 * wl_summary_num(b, "total_se");
 			if (nr->fixed >= 0)
 				wl_numfmt_fixed(text, v * nr->scale, nr->fixed);
 			else
@@ -544,7 +527,7 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 		               "%s: no \"runs\" array: is this a summary.json of the measure stage?", path);
 		goto out;
 	}
-	min_arc = num(cJSON_GetObjectItemCaseSensitive(sum, "provenance"), "min_arc_deg");
+	min_arc = wl_summary_num(cJSON_GetObjectItemCaseSensitive(sum, "provenance"), "min_arc_deg");
 	snprintf(path, sizeof path, "%s/clean.json", dir);
 	wl_json_load(path, &clean, NULL);
 	snprintf(path, sizeof path, "%s/clip.json", dir);
@@ -596,9 +579,9 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 	{
 		cJSON *o = cJSON_CreateObject();
 		const rtrack *tr = NULL;
-		double seg = num(run, "segment");
+		double seg = wl_summary_num(run, "segment");
 		cJSON_AddItemToArray(runs_out, o);
-		id_text(cJSON_GetObjectItemCaseSensitive(run, "id"), idt, sizeof idt);
+		wl_summary_id_text(cJSON_GetObjectItemCaseSensitive(run, "id"), idt, sizeof idt);
 		cJSON_AddStringToObject(o, "id", idt);
 		cJSON_AddNumberToObject(o, "segment", isfinite(seg) ? seg : -1);
 		cJSON_AddItemToObject(o, "summary", cJSON_Duplicate(run, 1));

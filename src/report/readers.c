@@ -1,7 +1,10 @@
 /*
- * cleanrows.c: CLEAN.csv's columns for the report's readers (cleanrows.h).
+ * readers.c: what the report's readers share (readers.h).
  */
-#include "report/cleanrows.h"
+#include "report/readers.h"
+
+#include <math.h>
+#include <stdio.h>
 
 wl_status wl_clean_cols_read(const wl_csv_row *header, const char *const *required, wl_clean_cols *c,
                              wl_err *err)
@@ -28,4 +31,21 @@ const char *wl_clean_cols_id(const wl_csv_row *row, const wl_clean_cols *c, wl_e
 		return NULL;
 	}
 	return row->fields[c->id];
+}
+
+void wl_summary_id_text(const cJSON *v, char *buf, size_t cap)
+{
+	char num[WL_NUMBUF];
+	if (cJSON_IsString(v))
+		snprintf(buf, cap, "%s", v->valuestring);
+	else if (cJSON_IsNumber(v))
+		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 12));
+	else
+		buf[0] = '\0';
+}
+
+double wl_summary_num(const cJSON *o, const char *k)
+{
+	const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, k);
+	return cJSON_IsNumber(v) ? v->valuedouble : NAN;
 }
