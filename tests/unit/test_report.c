@@ -351,7 +351,7 @@ static void make_clip_folder(const char *dir, int nrows)
 	}
 	fclose(fp);
 	snprintf(path, sizeof path, "%s/summary.json", dir);
-	write_text(path, "{\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
+	write_text(path, "{\"format\":\"wakeline summary\",\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
 	                 "\"curvature_per_m\":2.5,\"curvature_ci95_per_m\":[2.4,2.6],\"straight\":false,"
 	                 "\"centre_x_m\":1,\"centre_y_m\":0.5}]}\n");
 }
@@ -405,8 +405,11 @@ static void make_run_folder(const char *dir, int with_budget)
 	wl_measure_input in;
 	wl_measure_opts opt;
 	wl_measure_result r;
-	cJSON *root = cJSON_CreateObject(), *runs = cJSON_AddArrayToObject(root, "runs"),
+	cJSON *root = cJSON_CreateObject(), *runs,
 	      *run = cJSON_CreateObject();
+	cJSON_AddStringToObject(root, "format", "wakeline summary");
+	cJSON_AddNumberToObject(root, "format_version", 1);
+	runs = cJSON_AddArrayToObject(root, "runs");
 	snprintf(path, sizeof path, "%s/clean.csv", dir);
 	fp = fopen(path, "w");
 	assert_non_null(fp);
@@ -530,8 +533,9 @@ static void test_run_page(void **state)
 	/* the numbers: curvature ± half its interval by core/numfmt; the speed
 	 * with the budget's 1.96 x total_se */
 	k = cJSON_GetObjectItem(sum, "curvature_per_m")->valuedouble;
-	lo = cJSON_GetArrayItem(cJSON_GetObjectItem(sum, "curvature_ci95_per_m"), 0)->valuedouble;
-	hi = cJSON_GetArrayItem(cJSON_GetObjectItem(sum, "curvature_ci95_per_m"), 1)->valuedouble;
+	/* the page's run object has the per-run table's columns */
+	lo = cJSON_GetObjectItem(sum, "curvature_ci95_per_m_lo")->valuedouble;
+	hi = cJSON_GetObjectItem(sum, "curvature_ci95_per_m_hi")->valuedouble;
 	{
 		cJSON *nums = cJSON_GetObjectItem(run, "numbers"), *row;
 		int seen = 0;
@@ -605,16 +609,22 @@ static void test_scene_load(void **state)
 	wl_err err;
 	(void)state;
 	snprintf(path, sizeof path, "%s/cal.json", tmpdir);
-	write_text(
-	        path,
-	        "{\"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
-	        " \"points\": [{\"id\": \"M1\", \"x_m\": 0.1, \"y_m\": 0.2}, {\"id\": \"M2\", \"x_m\": 2.3,"
-	        " \"y_m\": 1.3}, {\"id\": \"bad\"}]}\n");
+	write_text(path, "{\"format\": \"wakeline-calibration\", \"format_version\": 1,"
+	                 " \"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
+	                 " \"points\": [{\"id\": \"M1\", \"u_px\": 10, \"v_px\": 20, \"x_m\": 0.1, \"y_m\": 0.2},"
+	                 " {\"id\": \"M2\", \"u_px\": 900, \"v_px\": 500, \"x_m\": 2.3, \"y_m\": 1.3},"
+	                 " {\"id\": \"M2.c0\", \"u_px\": 905, \"v_px\": 505, \"x_m\": 2.32, \"y_m\": 1.32}]}\n");
 	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
 	assert_int_equal(sb.scene.n_outline, 4);
 	assert_true(sb.scene.outline_m[2][0] == 2.4 && sb.scene.outline_m[2][1] == 1.4);
 	assert_int_equal(sb.scene.n_markers, 2);
-	assert_string_equal(sb.scene.marker_ids[1], "M2");
+	assert_string_equal(sb.scene.marker_ids[1], "M2"); /* the corner point is left out */
+	wl_report_scene_release(&sb);
+	/* a point without its numbers breaks CAL.json's one rule (formats/cal.h) */
+	write_text(path, "{\"format\": \"wakeline-calibration\", \"tank_outline_m\": [],"
+	                 " \"points\": [{\"id\": \"bad\"}]}\n");
+	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_EFORMAT);
+	assert_non_null(strstr(err.msg, "points[0]"));
 	wl_report_scene_release(&sb);
 	snprintf(path, sizeof path, "%s/nope.json", tmpdir);
 	assert_int_not_equal(wl_report_scene_load(path, &sb, &err), WL_OK);

@@ -160,11 +160,11 @@
     if (c.trim && c.trim.t_s !== undefined && c.trim.t_s !== null) bits.push('start trimmed at ' + fmt.sig(c.trim.t_s, 3) + ' s (' + (c.trim.reason || '') + ')');
     if (c.end && c.end.reason) bits.push('track ends: ' + c.end.reason + (c.end.t_s !== null && c.end.t_s !== undefined ? ' at ' + fmt.sig(c.end.t_s, 3) + ' s' : ''));
     if (c.measured !== undefined) bits.push(c.measured + ' rows measured, ' + (c.filled || 0) + ' filled');
-    if (o.total !== undefined) bits.push(o.total + ' outliers' + (o.total ? ' (' + (o.position || 0) + ' position, ' + (o.heading || 0) + ' heading)' : ''));
+    if (o.total !== undefined) bits.push(o.total + ' outlier' + (o.total === 1 ? '' : 's'));
     bits.push(c.gap_count + ' gap' + (c.gap_count === 1 ? '' : 's'));
     if (c.still) bits.push('the robot stood still');
     return '<li>robot ' + esc(c.id) + ': ' + esc(bits.join('; ')) + '</li>';
-  }).join('') + '</ul>' : '<p class="note">No clean.json in this folder.</p>';
+  }).join('') + '</ul>' : '<p class="note">No clean.csv in this folder.</p>';
 
   /* ---- messages ---- */
   document.getElementById('log').innerHTML = D.log ? '<div class="msgs">' + esc(D.log.join('\n')) + '</div>' :
