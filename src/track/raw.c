@@ -1,7 +1,8 @@
 /*
  * raw.c: RAW.csv, the tracker's output (DEVELOPERS.md, "File formats"):
  * t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source
- * written row by row (streaming) into an atomic file.
+ * written row by row (streaming) into an atomic file, or into a stream the
+ * caller owns (wl_raw_open_fp, for `wakeline live`).
  */
 #include "track/track.h"
 
@@ -12,15 +13,28 @@
 #include "core/csvio.h"
 
 struct wl_raw_writer {
-	wl_afile *af;
+	wl_afile *af; /* NULL when writing to the caller's stream */
 	wl_csv_writer w;
 };
 
+static const char *const RAW_HEADER[] = {
+        "t_s",         "frame",  "id",     "u_px",    "v_px",           "x_m", "y_m",
+        "heading_rad", "status", "margin", "size_px", "heading_source", NULL};
+
+wl_status wl_raw_open_fp(FILE *fp, wl_raw_writer **out, wl_err *err)
+{
+	wl_raw_writer *w = calloc(1, sizeof *w);
+	*out = NULL;
+	if (!w)
+		return wl_err_set(err, WL_ENOMEM, "out of memory opening RAW.csv");
+	wl_csvw_init(&w->w, fp);
+	wl_csvw_header(&w->w, RAW_HEADER);
+	*out = w;
+	return WL_OK;
+}
+
 wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err)
 {
-	static const char *const hdr[] = {
-	        "t_s",         "frame",  "id",     "u_px",    "v_px",           "x_m", "y_m",
-	        "heading_rad", "status", "margin", "size_px", "heading_source", NULL};
 	wl_raw_writer *w = calloc(1, sizeof *w);
 	wl_status st;
 	*out = NULL;
@@ -31,7 +45,7 @@ wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err)
 		return st;
 	}
 	wl_csvw_init(&w->w, wl_afile_fp(w->af));
-	wl_csvw_header(&w->w, hdr);
+	wl_csvw_header(&w->w, RAW_HEADER);
 	*out = w;
 	return WL_OK;
 }
@@ -70,7 +84,7 @@ wl_status wl_raw_commit(wl_raw_writer *w, wl_err *err)
 	wl_status st;
 	if (!w)
 		return WL_OK;
-	st = wl_afile_commit(w->af, err);
+	st = w->af ? wl_afile_commit(w->af, err) : WL_OK;
 	free(w);
 	return st;
 }
@@ -79,6 +93,7 @@ void wl_raw_abort(wl_raw_writer *w)
 {
 	if (!w)
 		return;
-	wl_afile_abort(w->af);
+	if (w->af)
+		wl_afile_abort(w->af);
 	free(w);
 }

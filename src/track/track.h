@@ -28,6 +28,7 @@
 #define WL_TRACK_H
 
 #include <stdint.h>
+#include <stdio.h>
 
 #include "calib/calib.h"
 #include "core/err.h"
@@ -225,6 +226,10 @@ typedef struct wl_raw_writer wl_raw_writer;
 /* Opens RAW.csv atomically and writes the header. */
 wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err);
 void wl_raw_put(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n);
+/* Writes the header and then the rows to fp, a stream the caller owns and
+ * flushes (not atomic: `wakeline live` records as it goes, flushing each
+ * frame's rows with one write).  Commit or abort then only free the writer. */
+wl_status wl_raw_open_fp(FILE *fp, wl_raw_writer **out, wl_err *err);
 /* Commits (renames into place) and frees; abort removes the temp and frees. */
 wl_status wl_raw_commit(wl_raw_writer *w, wl_err *err);
 void wl_raw_abort(wl_raw_writer *w);
