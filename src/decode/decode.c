@@ -91,6 +91,7 @@ struct wl_decoder {
 	int have_off; /* max_lag_s: the least (arrival - timestamp) seen */
 	double min_off;
 	int skipping; /* dropping packets up to a key frame on time */
+	int seen_key; /* the demuxer marks key frames */
 	int64_t skipped;
 	wl_rec *rec;
 	int rec_failed;
@@ -387,7 +388,7 @@ static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_o
 {
 	const AVInputFormat *ifmt = NULL;
 	const char *fname = o->format;
-	AVDictionary *opts;
+	AVDictionary *opts, *opts_given = NULL;
 	const AVDictionaryEntry *e = NULL;
 	int ret;
 	wl_status st;
@@ -410,16 +411,26 @@ static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_o
 	dec->fmt->interrupt_callback.callback = interrupt_cb;
 	dec->fmt->interrupt_callback.opaque = dec;
 	opts = input_options(o);
+	av_dict_copy(&opts_given, opts, 0);
 	dec->t_last_read = mono_now();
 	ret = avformat_open_input(&dec->fmt, path, ifmt, &opts);
 	if (ret < 0) {
 		av_dict_free(&opts);
+		av_dict_free(&opts_given);
 		return open_failed(dec, path, ret, err);
 	}
 	while ((e = av_dict_get(opts, "", e, AV_DICT_IGNORE_SUFFIX)))
 		wl_diag_warn(o->diag, "decode", "%s: option '%s' was not used by this source: check its name",
 		             path, e->key);
+	/* MPEG-TS: each PES holds one whole frame (as FFmpeg, GStreamer and
+	 * cameras write it), so the parser, which holds every frame back until
+	 * the next one starts, is left out: that saves a frame interval of delay.
+	 * fflags given by the user decide instead. */
+	if (o->live && !av_dict_get(opts_given, "fflags", NULL, 0) &&
+	    strcmp(dec->fmt->iformat->name, "mpegts") == 0)
+		dec->fmt->flags |= AVFMT_FLAG_NOPARSE;
 	av_dict_free(&opts);
+	av_dict_free(&opts_given);
 	/* a device hands out frames as they are captured: nothing to buffer */
 	if (o->live && dec->fmt->iformat->priv_class &&
 	    dec->fmt->iformat->priv_class->category == AV_CLASS_CATEGORY_DEVICE_VIDEO_INPUT)
@@ -801,7 +812,8 @@ static int catch_up(wl_decoder *dec, double ts_s, double now)
 		dec->skipping = 1;
 	if (!dec->skipping)
 		return 1;
-	if ((dec->pkt->flags & AV_PKT_FLAG_KEY) && lag <= 0.5 * dec->o.max_lag_s) {
+	/* a stream whose demuxer marks no key frames resumes when on time */
+	if ((!dec->seen_key || (dec->pkt->flags & AV_PKT_FLAG_KEY)) && lag <= 0.5 * dec->o.max_lag_s) {
 		dec->skipping = 0;
 		avcodec_flush_buffers(dec->cc);
 		return 1;
@@ -835,7 +847,11 @@ static int arrive(wl_decoder *dec)
 	dec->arrival[dec->narrival % ARRIVAL_KEEP].pts = p->pts != AV_NOPTS_VALUE ? p->pts : p->dts;
 	dec->arrival[dec->narrival % ARRIVAL_KEEP].t = now;
 	dec->narrival++;
-	if (dec->o.live && dec->o.max_lag_s > 0 && isfinite(ts_s))
+	if (p->flags & AV_PKT_FLAG_KEY)
+		dec->seen_key = 1;
+	/* the packets a demuxer flushes after the end (a stop or a timeout)
+	 * are late by then, but they are the stream's last frames: kept */
+	if (dec->o.live && dec->o.max_lag_s > 0 && isfinite(ts_s) && dec->end == WL_END_NONE)
 		return catch_up(dec, ts_s, now);
 	return 1;
 }
@@ -873,8 +889,6 @@ static void feed(wl_decoder *dec)
 			return;
 		}
 		dec->t_last_read = mono_now();
-		if (dec->end == WL_END_TIMEOUT)
-			dec->end = WL_END_NONE; /* data came after all */
 		if (dec->pkt->stream_index != dec->sidx || !arrive(dec)) {
 			av_packet_unref(dec->pkt);
 			return;
