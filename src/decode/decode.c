@@ -80,6 +80,7 @@ struct wl_decoder {
 	wl_decode_opts o;
 	char source[1024];
 	double t_last_read;  /* monotonic time of the last packet (or of the open) */
+	int opening;         /* in the open: open_timeout_s applies */
 	double last_arrival; /* arrival of the last packet of our stream */
 	struct {
 		int64_t pts;
@@ -310,16 +311,16 @@ static wl_status check_sizes(const AVFormatContext *fmt, const char *path, wl_er
 static int interrupt_cb(void *ctx)
 {
 	wl_decoder *dec = ctx;
+	double limit = dec->opening && dec->o.open_timeout_s > 0 ? dec->o.open_timeout_s : dec->o.timeout_s;
 	if (dec->o.interrupt && dec->o.interrupt(dec->o.interrupt_ctx)) {
 		dec->end = WL_END_STOPPED;
 		snprintf(dec->end_what, sizeof dec->end_what, "stopped");
 		return 1;
 	}
-	if (dec->o.live && dec->o.timeout_s > 0 && mono_now() - dec->t_last_read > dec->o.timeout_s) {
+	if (dec->o.live && limit > 0 && mono_now() - dec->t_last_read > limit) {
 		char b[WL_NUMBUF];
 		dec->end = WL_END_TIMEOUT;
-		snprintf(dec->end_what, sizeof dec->end_what, "no data for %s s",
-		         wl_fmt_fixed(b, dec->o.timeout_s, 1));
+		snprintf(dec->end_what, sizeof dec->end_what, "no data for %s s", wl_fmt_fixed(b, limit, 1));
 		return 1;
 	}
 	return 0;
@@ -354,11 +355,15 @@ static wl_status check_file(const char *path, wl_err *err)
 
 /* The demuxer options: the caller's, and for a live source short probing
  * without frame-rate analysis (it would hold frames back at the start). */
-static AVDictionary *input_options(const wl_decode_opts *o)
+static AVDictionary *input_options(const char *path, const wl_decode_opts *o)
 {
 	AVDictionary *d = NULL;
 	for (const char *const *kv = o->options; kv && kv[0] && kv[1]; kv += 2)
 		av_dict_set(&d, kv[0], kv[1], 0);
+	if (o->live && (strncmp(path, "udp://", 6) == 0 || strncmp(path, "rtp://", 6) == 0))
+		/* a reader that fell behind catches up (skipping) rather than
+		 * failing when FFmpeg's receive buffer fills */
+		av_dict_set(&d, "overrun_nonfatal", "1", AV_DICT_DONT_OVERWRITE);
 	if (o->live) {
 		av_dict_set(&d, "probesize", "500000", AV_DICT_DONT_OVERWRITE);
 		av_dict_set(&d, "analyzeduration", "1000000", AV_DICT_DONT_OVERWRITE);
@@ -373,10 +378,13 @@ static wl_status open_failed(wl_decoder *dec, const char *path, int ret, wl_err 
 	if (dec->end == WL_END_STOPPED)
 		return wl_err_set(err, WL_EIO, "%s: stopped before the stream opened", path);
 	if (dec->end == WL_END_TIMEOUT)
-		return wl_err_set(err, WL_EIO,
-		                  "%s: no data for %s s: check that the camera or sender is running and "
-		                  "sends to this address",
-		                  path, wl_fmt_fixed(b, dec->o.timeout_s, 1));
+		return wl_err_set(
+		        err, WL_EIO,
+		        "%s: no data for %s s: check that the camera or sender is running and "
+		        "sends to this address",
+		        path,
+		        wl_fmt_fixed(b, dec->o.open_timeout_s > 0 ? dec->o.open_timeout_s : dec->o.timeout_s,
+		                     1));
 	if (is_url(path) || dec->o.format)
 		return av_fail(err, path, "cannot open the source", ret,
 		               "check the address or device, and that the sender or camera is running");
@@ -410,9 +418,10 @@ static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_o
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
 	dec->fmt->interrupt_callback.callback = interrupt_cb;
 	dec->fmt->interrupt_callback.opaque = dec;
-	opts = input_options(o);
+	opts = input_options(path, o);
 	av_dict_copy(&opts_given, opts, 0);
 	dec->t_last_read = mono_now();
+	dec->opening = 1;
 	ret = avformat_open_input(&dec->fmt, path, ifmt, &opts);
 	if (ret < 0) {
 		av_dict_free(&opts);
@@ -444,6 +453,8 @@ static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_o
 		return dec->end != WL_END_NONE ? open_failed(dec, path, ret, err)
 		                               : av_fail(err, path, "cannot read the stream headers", ret,
 		                                         "the file may be damaged; try re-exporting it");
+	dec->opening = 0;
+	dec->t_last_read = mono_now();
 	return check_sizes(dec->fmt, path, err);
 }
 
@@ -708,6 +719,15 @@ static wl_status make_planes(wl_decoder *dec, wl_err *err)
 
 /* ---- the decoding loop -------------------------------------------------- */
 
+/* The recording stops at its first error; the stream goes on. */
+static void rec_error(wl_decoder *dec, int averr)
+{
+	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
+	av_strerror(averr, buf, sizeof buf);
+	dec->rec_failed = 1;
+	snprintf(dec->rec_error, sizeof dec->rec_error, "cannot write the recording: %s", buf);
+}
+
 /* The arrival time of the packet with presentation time pts (the last
  * packet's when it is no longer remembered). */
 static double arrival_of(const wl_decoder *dec, int64_t pts)
@@ -754,6 +774,11 @@ static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	dec->last_t_s = o->t_s;
 	dec->have_last = 1;
 	dec->nframes++;
+	if (dec->rec && !dec->rec_failed) {
+		int ret = wl_rec_ready(dec->rec, dec->cc, dec->st);
+		if (ret < 0)
+			rec_error(dec, ret);
+	}
 	st = make_planes(dec, err);
 	if (st != WL_OK)
 		return st;
@@ -822,11 +847,42 @@ static int catch_up(wl_decoder *dec, double ts_s, double now)
 	return 0;
 }
 
+/* True when an H.264 or HEVC packet in Annex B form (start codes, as in
+ * MPEG-TS and raw streams) holds an IDR picture (H.264 NAL type 5; HEVC
+ * types 16-21, the random access points).  MPEG-TS read without the parser
+ * leaves key flags unset; the recording and the catching up need them. */
+static int annexb_key(enum AVCodecID id, const uint8_t *d, int n)
+{
+	for (int i = 0; i + 3 < n; i++) {
+		int t;
+		if (d[i] != 0 || d[i + 1] != 0 || d[i + 2] != 1)
+			continue;
+		if (id == AV_CODEC_ID_H264 && (d[i + 3] & 0x1f) == 5)
+			return 1;
+		t = (d[i + 3] >> 1) & 0x3f;
+		if (id == AV_CODEC_ID_HEVC && t >= 16 && t <= 21)
+			return 1;
+		i += 2;
+	}
+	return 0;
+}
+
+/* Marks key frames the demuxer left unmarked: intra-only codecs always,
+ * H.264 and HEVC by their NAL units. */
+static void mark_key(wl_decoder *dec, AVPacket *p)
+{
+	const AVCodecDescriptor *cd = avcodec_descriptor_get(dec->cc->codec_id);
+	if (p->flags & AV_PKT_FLAG_KEY)
+		return;
+	if ((cd && (cd->props & AV_CODEC_PROP_INTRA_ONLY)) || annexb_key(dec->cc->codec_id, p->data, p->size))
+		p->flags |= AV_PKT_FLAG_KEY;
+}
+
 /* A packet of our stream came in: paced (realtime), recorded, its arrival
  * remembered, and dropped when catching up.  Returns 0 to drop it. */
 static int arrive(wl_decoder *dec)
 {
-	const AVPacket *p = dec->pkt;
+	AVPacket *p = dec->pkt;
 	int64_t ts = p->dts != AV_NOPTS_VALUE ? p->dts : p->pts;
 	double ts_s = ts != AV_NOPTS_VALUE ? (double)ts * dec->tb_s : NAN;
 	double now;
@@ -834,15 +890,12 @@ static int arrive(wl_decoder *dec)
 		pace(dec, ts_s);
 	now = mono_now();
 	dec->last_arrival = now;
+	if (dec->o.live)
+		mark_key(dec, p);
 	if (dec->rec && !dec->rec_failed) {
 		int ret = wl_rec_packet(dec->rec, p, dec->st);
-		if (ret < 0) {
-			char buf[AV_ERROR_MAX_STRING_SIZE] = "";
-			av_strerror(ret, buf, sizeof buf);
-			dec->rec_failed = 1;
-			snprintf(dec->rec_error, sizeof dec->rec_error, "cannot write the recording: %s",
-			         buf);
-		}
+		if (ret < 0)
+			rec_error(dec, ret);
 	}
 	dec->arrival[dec->narrival % ARRIVAL_KEEP].pts = p->pts != AV_NOPTS_VALUE ? p->pts : p->dts;
 	dec->arrival[dec->narrival % ARRIVAL_KEEP].t = now;

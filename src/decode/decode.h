@@ -92,6 +92,7 @@ wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_deco
  * devices, and it watches the input:
  *   - timeout_s: no packet for this long ends the stream (a sender that
  *     stopped or a dropped connection on UDP, which has no end of its own);
+ *     open_timeout_s is the wait for the first data, while opening;
  *   - max_lag_s: when the input runs this far behind the stream's own clock
  *     (estimated from packet arrival against timestamps: the decoder cannot
  *     keep up), packets are skipped up to the next key frame that is on
@@ -115,6 +116,7 @@ typedef struct {
 	const char *const *options;  /* NULL or key, value, ..., NULL */
 	int realtime;                /* read no faster than the timestamps */
 	double timeout_s;            /* live: <= 0 waits for ever */
+	double open_timeout_s;       /* live: the wait for the stream to start; <= 0: timeout_s */
 	double max_lag_s;            /* live: <= 0 never skips */
 	const char *record_path;     /* NULL: no recording */
 	int (*interrupt)(void *ctx); /* NULL, or polled while waiting: non-zero stops */
