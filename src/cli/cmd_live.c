@@ -41,6 +41,7 @@ static const char usage_head[] =
         "                          (e.g. rtsp_transport=tcp, fifo_size=0)\n"
         "  --realtime              read a file no faster than its timestamps (rehearsal)\n"
         "  --timeout-s S           no data for S seconds ends the stream (default 5)\n"
+        "  --wait-s S              wait up to S seconds for the stream to start (default 30)\n"
         "  --reconnect             open the source again when it ends or drops, until stopped\n"
         "  --threads N             decoder slice threads (default: all cores)\n"
         "Output:\n"
@@ -88,6 +89,7 @@ enum {
 	O_SRCOPT,
 	O_REALTIME,
 	O_TIMEOUT,
+	O_WAIT,
 	O_RECONNECT,
 	O_THREADS,
 	O_PUBLISH,
@@ -117,6 +119,7 @@ static const struct option own_opts[] = {{"cal", required_argument, NULL, O_CAL}
                                          {"source-option", required_argument, NULL, O_SRCOPT},
                                          {"realtime", no_argument, NULL, O_REALTIME},
                                          {"timeout-s", required_argument, NULL, O_TIMEOUT},
+                                         {"wait-s", required_argument, NULL, O_WAIT},
                                          {"reconnect", no_argument, NULL, O_RECONNECT},
                                          {"threads", required_argument, NULL, O_THREADS},
                                          {"publish", required_argument, NULL, O_PUBLISH},
@@ -308,6 +311,8 @@ static int own_option(live_args *a, int c, const char *arg)
 		return 0;
 	case O_TIMEOUT:
 		return num_opt("--timeout-s", arg, 0.1, 86400, &lo->input.timeout_s);
+	case O_WAIT:
+		return num_opt("--wait-s", arg, 0.1, 86400, &lo->input.open_timeout_s);
 	case O_RECONNECT:
 		lo->reconnect = 1;
 		return 0;

@@ -85,6 +85,7 @@ void wl_live_opts_init(wl_live_opts *o)
 	wl_decode_opts_init(&o->input);
 	o->input.threads = 0;
 	o->input.timeout_s = 5.0;
+	o->input.open_timeout_s = 30.0;
 	o->input.max_lag_s = 0.25;
 	o->packet = WL_PUB_JSON;
 	o->reconnect_wait_s = 1.0;
