@@ -84,7 +84,7 @@ struct wl_decoder {
 	double last_arrival; /* arrival of the last packet of our stream */
 	struct {
 		int64_t pts;
-		double t;
+		double t, lag;
 	} arrival[ARRIVAL_KEEP];
 	int narrival;
 	int rt_started; /* realtime: the first packet's time and wall clock are set */
@@ -728,16 +728,20 @@ static void rec_error(wl_decoder *dec, int averr)
 	snprintf(dec->rec_error, sizeof dec->rec_error, "cannot write the recording: %s", buf);
 }
 
-/* The arrival time of the packet with presentation time pts (the last
- * packet's when it is no longer remembered). */
-static double arrival_of(const wl_decoder *dec, int64_t pts)
+/* The arrival time and input lag of the packet with presentation time pts
+ * (the last packet's when it is no longer remembered). */
+static void arrival_of(const wl_decoder *dec, int64_t pts, wl_frame *o)
 {
 	int n = dec->narrival < ARRIVAL_KEEP ? dec->narrival : ARRIVAL_KEEP;
+	o->arrival_s = dec->last_arrival;
+	o->lag_s = NAN;
 	if (pts != AV_NOPTS_VALUE)
 		for (int i = 0; i < n; i++)
-			if (dec->arrival[i].pts == pts)
-				return dec->arrival[i].t;
-	return dec->last_arrival;
+			if (dec->arrival[i].pts == pts) {
+				o->arrival_s = dec->arrival[i].t;
+				o->lag_s = dec->arrival[i].lag;
+				return;
+			}
 }
 
 /* Times the frame just received and fills dec->out. */
@@ -765,7 +769,7 @@ static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	/* frames skipped to catch up keep their numbers: the index counts
 	 * every frame of the stream seen so far */
 	o->index = dec->after_seek ? -1 : dec->nframes + dec->skipped;
-	o->arrival_s = arrival_of(dec, f->pts != AV_NOPTS_VALUE ? f->pts : ts);
+	arrival_of(dec, f->pts != AV_NOPTS_VALUE ? f->pts : ts, o);
 	o->width_px = f->width;
 	o->height_px = f->height;
 	o->corrupt = (f->flags & AV_FRAME_FLAG_CORRUPT) || f->decode_error_flags;
@@ -821,7 +825,7 @@ static void pace(wl_decoder *dec, double ts_s)
  * packets are dropped up to a key frame that is back within half of it,
  * and the decoder starts again from there.  Returns 0 to drop the packet.
  */
-static int catch_up(wl_decoder *dec, double ts_s, double now)
+static double input_lag(wl_decoder *dec, double ts_s, double now)
 {
 	double off = now - ts_s, lag;
 	if (!dec->have_off || off < dec->min_off) {
@@ -833,6 +837,11 @@ static int catch_up(wl_decoder *dec, double ts_s, double now)
 		dec->min_off = off;
 		lag = 0;
 	}
+	return lag;
+}
+
+static int catch_up(wl_decoder *dec, double lag)
+{
 	if (!dec->skipping && lag > dec->o.max_lag_s)
 		dec->skipping = 1;
 	if (!dec->skipping)
@@ -885,7 +894,7 @@ static int arrive(wl_decoder *dec)
 	AVPacket *p = dec->pkt;
 	int64_t ts = p->dts != AV_NOPTS_VALUE ? p->dts : p->pts;
 	double ts_s = ts != AV_NOPTS_VALUE ? (double)ts * dec->tb_s : NAN;
-	double now;
+	double now, lag;
 	if (dec->o.realtime && isfinite(ts_s))
 		pace(dec, ts_s);
 	now = mono_now();
@@ -897,15 +906,19 @@ static int arrive(wl_decoder *dec)
 		if (ret < 0)
 			rec_error(dec, ret);
 	}
+	/* what a demuxer flushes after the end waited for the end, not in a
+	 * buffer: no lag for it */
+	lag = dec->o.live && isfinite(ts_s) && dec->end == WL_END_NONE ? input_lag(dec, ts_s, now) : NAN;
 	dec->arrival[dec->narrival % ARRIVAL_KEEP].pts = p->pts != AV_NOPTS_VALUE ? p->pts : p->dts;
 	dec->arrival[dec->narrival % ARRIVAL_KEEP].t = now;
+	dec->arrival[dec->narrival % ARRIVAL_KEEP].lag = lag;
 	dec->narrival++;
 	if (p->flags & AV_PKT_FLAG_KEY)
 		dec->seen_key = 1;
 	/* the packets a demuxer flushes after the end (a stop or a timeout)
 	 * are late by then, but they are the stream's last frames: kept */
 	if (dec->o.live && dec->o.max_lag_s > 0 && isfinite(ts_s) && dec->end == WL_END_NONE)
-		return catch_up(dec, ts_s, now);
+		return catch_up(dec, lag);
 	return 1;
 }
 

@@ -67,6 +67,10 @@ typedef struct {
 	int time_guessed; /* no timestamp: t_s extrapolated from the frame rate */
 	double arrival_s; /* CLOCK_MONOTONIC seconds at which the demuxer handed over this frame's
 	                   * packet (for a --realtime file: when its time came) */
+	double lag_s;     /* live: how late that was against the stream's own clock (arrival less
+	                   * timestamp, less the least such offset seen): time the packet waited
+	                   * in buffers before wakeline read it, which arrival_s does not show;
+	                   * NaN when unknown */
 } wl_frame;
 
 /* One reported damage: a packet or frame that failed or was flagged. */
