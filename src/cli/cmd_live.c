@@ -59,7 +59,7 @@ static const char usage_head[] =
         "  --max-delay-ms MS       drop a waiting frame older than MS when a newer one\n"
         "                          waits (default: one frame interval)\n"
         "  --max-lag-ms MS         when decoding runs MS behind the stream, skip to the\n"
-        "                          next key frame (default 250)\n"
+        "                          next key frame (default 500)\n"
         "Causal filter (the offline smoother's model; take the values `wakeline clean`\n"
         "reports for your set-up):\n"
         "  --sigma-pos-m S         position noise, m (default 0.002)\n"
@@ -217,10 +217,10 @@ static void on_status(void *ctx, const wl_live_stats *st)
 	pthread_mutex_lock(&c->m);
 	clear_line(c);
 	fprintf(stderr,
-	        "live: in %.1f fps, tracked %.1f fps, latency %s ms median, %s ms p99, %lld dropped, "
-	        "%lld skipped, robots %d/%d seen now (%d ever)",
-	        st->input_fps, st->tracked_fps, med, p99, (long long)st->dropped, (long long)st->skipped,
-	        st->robots_ok, st->robots_listed, st->robots_seen);
+	        "live: in %.1f fps, tracked %.1f fps, latency %s ms median, %s ms p99, input lag %.0f ms, "
+	        "%lld dropped, %lld skipped, robots %d/%d seen now (%d ever)",
+	        st->input_fps, st->tracked_fps, med, p99, st->input_lag_ms, (long long)st->dropped,
+	        (long long)st->skipped, st->robots_ok, st->robots_listed, st->robots_seen);
 	if (c->tty) {
 		c->line_open = 1;
 	} else {
@@ -440,9 +440,10 @@ static void summary(const live_args *a, const wl_live_stats *st)
 	fmt_ms(p99, sizeof p99, st->run_latency_p99_ms);
 	fmt_ms(mx, sizeof mx, st->run_latency_max_ms);
 	printf("live: %lld frames in, %lld tracked, %lld dropped, %lld skipped; latency median %s ms, p99 %s "
-	       "ms, max %s ms; %lld packets sent, %lld failed; %d robots seen; %d reconnects\n",
+	       "ms, max %s ms; input lag max %.0f ms; %lld packets sent, %lld failed; %d robots seen; %d "
+	       "reconnects\n",
 	       (long long)st->frames_in, (long long)st->frames_tracked, (long long)st->dropped,
-	       (long long)st->skipped, med, p99, mx, (long long)st->packets_sent,
+	       (long long)st->skipped, med, p99, mx, st->run_input_lag_max_ms, (long long)st->packets_sent,
 	       (long long)st->send_failures, st->robots_seen, st->reconnects);
 	if (a->lo.raw_path)
 		printf("%s: %lld frames recorded\n", a->lo.raw_path, (long long)st->frames_tracked);

@@ -147,13 +147,16 @@ typedef struct {
 	double tracked_fps;       /* likewise */
 	double latency_median_ms; /* arrival -> datagrams sent, last status period */
 	double latency_p99_ms;
-	int robots_listed; /* robots in the last frame's output */
-	int robots_ok;     /* of them found in it */
-	int robots_seen;   /* different robots found so far */
+	double input_lag_ms; /* the largest input lag (decode.h wl_frame.lag_s) in the period: time
+	                      * frames waited in buffers before they were read, not in latency */
+	int robots_listed;   /* robots in the last frame's output */
+	int robots_ok;       /* of them found in it */
+	int robots_seen;     /* different robots found so far */
 	int64_t packets_sent, send_failures;
 	int reconnects;
 	/* the whole run (filled at the end and in every status) */
 	double run_latency_median_ms, run_latency_p99_ms, run_latency_max_ms;
+	double run_input_lag_max_ms;
 	wl_decode_end end; /* why the input ended */
 	char end_what[256];
 } wl_live_stats;

@@ -7,8 +7,9 @@
  *
  * Bounded latency: a frame is never queued behind more than the slots
  * hold.  When tracking falls behind, a waiting frame older than max_delay_s
- * is dropped as soon as a newer one waits, and the input gives a full set
- * of slots' oldest waiting frame to the newest; both are counted as drops.
+ * is dropped as soon as a newer one waits; when every slot is taken the
+ * input waits until the oldest waiting frame is that old, then gives its
+ * slot to the newest.  Both are counted as drops.
  * The decoder itself skips to a key frame when it falls behind (decode.h).
  *
  * Time across reconnects: each connection's timestamps start again, so a
@@ -42,7 +43,7 @@ typedef struct {
 	uint8_t *luma, *rgb;
 	size_t luma_cap, rgb_cap;
 	int w, h, rotation_deg;
-	double t_s, arrival_s;
+	double t_s, arrival_s, lag_s;
 	int64_t index;
 } slot;
 
@@ -60,7 +61,8 @@ typedef struct {
 	wl_err err;
 	int64_t frames_in, dropped, skipped;
 	int reconnects;
-	double interval_s; /* frame interval, running mean of t_s steps */
+	double interval_s;  /* frame interval, running mean of t_s steps */
+	double max_delay_s; /* in force (set by the tracking thread) */
 	wl_decode_end end;
 	char end_what[256];
 } shared;
@@ -86,7 +88,7 @@ void wl_live_opts_init(wl_live_opts *o)
 	o->input.threads = 0;
 	o->input.timeout_s = 5.0;
 	o->input.open_timeout_s = 30.0;
-	o->input.max_lag_s = 0.25;
+	o->input.max_lag_s = 0.5;
 	o->packet = WL_PUB_JSON;
 	o->reconnect_wait_s = 1.0;
 	o->status_period_s = 1.0;
@@ -137,22 +139,46 @@ static void copy_plane(uint8_t *dst, size_t row, const uint8_t *src, int stride,
 		memcpy(dst + (size_t)y * row, src + (size_t)y * stride, row);
 }
 
-/* Hands a decoded frame to tracking: a free slot, or the oldest waiting
- * frame's (dropped).  Returns 0 when out of memory. */
+/* A slot for the next frame (under s->m): a free one; else, once the
+ * oldest waiting frame is older than max_delay_s (or at a stop), that one,
+ * dropped.  Until then the input waits: a burst of fresh frames (the
+ * start, a network hiccup) is tracked, not dropped, while it is fresh. */
+static slot *slot_for_input(shared *s)
+{
+	for (;;) {
+		slot *old = NULL;
+		double age_left;
+		struct timespec until;
+		for (int i = 0; i < NSLOTS; i++)
+			if (s->slots[i].state == S_FREE)
+				return &s->slots[i];
+		/* one slot is tracked at most, this thread fills none: some wait */
+		for (int i = 0; i < NSLOTS; i++)
+			if (s->slots[i].state == S_PENDING && (!old || s->slots[i].order < old->order))
+				old = &s->slots[i];
+		age_left = old ? old->arrival_s + s->max_delay_s - mono_now() : WAIT_STEP_S;
+		if (old && (age_left <= 0 || input_interrupt(s))) {
+			s->dropped++;
+			return old;
+		}
+		if (age_left > WAIT_STEP_S)
+			age_left = WAIT_STEP_S;
+		clock_gettime(CLOCK_REALTIME, &until);
+		until.tv_nsec += (long)(age_left * 1e9);
+		until.tv_sec += until.tv_nsec / 1000000000L;
+		until.tv_nsec %= 1000000000L;
+		pthread_cond_timedwait(&s->cv, &s->m, &until);
+	}
+}
+
+/* Hands a decoded frame to tracking (slot_for_input).  Returns 0 when out
+ * of memory. */
 static int hand_over(shared *s, const wl_frame *f, double t_off, int64_t idx_off, int rotation_deg)
 {
-	slot *sl = NULL;
+	slot *sl;
 	int ok;
 	pthread_mutex_lock(&s->m);
-	for (int i = 0; i < NSLOTS && !sl; i++)
-		if (s->slots[i].state == S_FREE)
-			sl = &s->slots[i];
-	if (!sl) {
-		for (int i = 0; i < NSLOTS; i++)
-			if (s->slots[i].state == S_PENDING && (!sl || s->slots[i].order < sl->order))
-				sl = &s->slots[i];
-		s->dropped++; /* one slot is tracked at most, one filled: there is a waiting one */
-	}
+	sl = slot_for_input(s);
 	sl->state = S_FILLING;
 	pthread_mutex_unlock(&s->m);
 
@@ -168,6 +194,7 @@ static int hand_over(shared *s, const wl_frame *f, double t_off, int64_t idx_off
 		sl->t_s = f->t_s + t_off;
 		sl->index = f->index + idx_off;
 		sl->arrival_s = f->arrival_s;
+		sl->lag_s = f->lag_s;
 	}
 	pthread_mutex_lock(&s->m);
 	if (ok) {
@@ -424,6 +451,7 @@ typedef struct {
 	uint32_t session;
 	uint64_t seq;
 	wl_latency run_lat, period_lat;
+	double period_lag_max, run_lag_max; /* input lag (decode.h wl_frame.lag_s), s */
 	int64_t frames_tracked;
 	int robots_listed, robots_ok;
 	/* status */
@@ -543,6 +571,10 @@ static wl_status track_one(tracking *k, const slot *sl, wl_err *err)
 		double lat = mono_now() - sl->arrival_s;
 		wl_latency_add(&k->run_lat, lat);
 		wl_latency_add(&k->period_lat, lat);
+		if (sl->lag_s > k->period_lag_max)
+			k->period_lag_max = sl->lag_s;
+		if (sl->lag_s > k->run_lag_max)
+			k->run_lag_max = sl->lag_s;
 	}
 	k->frames_tracked++;
 	record_raw(k, sl, obs, n);
@@ -568,6 +600,8 @@ static void fill_stats(tracking *k, wl_live_stats *st, double now, int period)
 		st->tracked_fps = (double)(k->frames_tracked - k->tracked_at_status) / dt;
 		st->latency_median_ms = wl_latency_quantile(&k->period_lat, 0.5) * 1e3;
 		st->latency_p99_ms = wl_latency_quantile(&k->period_lat, 0.99) * 1e3;
+		st->input_lag_ms = k->period_lag_max * 1e3;
+		k->period_lag_max = 0;
 		k->in_at_status = st->frames_in;
 		k->tracked_at_status = k->frames_tracked;
 		k->t_status = now;
@@ -581,6 +615,7 @@ static void fill_stats(tracking *k, wl_live_stats *st, double now, int period)
 	st->run_latency_median_ms = wl_latency_quantile(&k->run_lat, 0.5) * 1e3;
 	st->run_latency_p99_ms = wl_latency_quantile(&k->run_lat, 0.99) * 1e3;
 	st->run_latency_max_ms = k->run_lat.n ? k->run_lat.max_s * 1e3 : NAN;
+	st->run_input_lag_max_ms = k->run_lag_max * 1e3;
 }
 
 static void status_tick(tracking *k, wl_live_stats *st, int force)
@@ -685,6 +720,7 @@ static wl_status track_loop(tracking *k, wl_live_stats *st, wl_err *err)
 		max_delay = lo->max_delay_s > 0 ? lo->max_delay_s
 		            : s->interval_s > 0 ? s->interval_s
 		                                : 1.0 / 30;
+		s->max_delay_s = max_delay;
 		pthread_mutex_unlock(&s->m);
 		sl = take(s, max_delay, &done);
 		if (sl) {
@@ -728,6 +764,7 @@ wl_status wl_live_run(const wl_live_opts *lo, const wl_track_opts *to, const wl_
 	atomic_init(&s->stop, 0);
 	s->lo = lo;
 	s->want_rgb = to->mode == WL_TRACK_COLOUR;
+	s->max_delay_s = lo->max_delay_s > 0 ? lo->max_delay_s : 1.0 / 30;
 	k->lo = lo;
 	k->to = to;
 	k->cal = cal;
