@@ -73,6 +73,18 @@ send_clip() {
 	ffmpeg -nostdin -v error -re -i "$clip" -c copy "$@" -f mpegts "udp://127.0.0.1:$port?pkt_size=1316"
 }
 
+# wait_rows FILE N: waits (up to 60 s) until FILE has N lines after its header
+# (a live run that has tracked that many robot-frames; a loaded machine may
+# take seconds to start one)
+wait_rows() {
+	local k
+	for k in $(seq 600); do
+		[ -f "$1" ] && [ "$(($(wc -l < "$1") - 1))" -ge "$2" ] && return 0
+		sleep 0.1
+	done
+	return 1
+}
+
 # whole_lines FILE NCELLS: every line ends in a newline and has NCELLS cells
 whole_lines() {
 	[ -s "$1" ] || fail "$1 is empty"
