@@ -674,6 +674,10 @@ static wl_status close_raw(tracking *k, wl_err *err)
 	if (fclose(k->raw_fp) != 0 && st == WL_OK)
 		st = wl_err_set(err, WL_EIO, "%s: cannot close: %s", k->lo->raw_path, strerror(errno));
 	k->raw_fp = NULL;
+	/* no frame, no file: a source that never opened leaves nothing */
+	if (k->frames_tracked == 0 && unlink(k->lo->raw_path) != 0 && st == WL_OK)
+		st = wl_err_set(err, WL_EIO, "%s: cannot remove the empty file: %s", k->lo->raw_path,
+		                strerror(errno));
 	if (st == WL_OK && k->raw_failed)
 		st = wl_err_set(err, WL_EIO, "%s", k->raw_error);
 	return st;
@@ -776,6 +780,16 @@ wl_status wl_live_run(const wl_live_opts *lo, const wl_track_opts *to, const wl_
 		goto out;
 	if (lo->raw_path && (rc = open_raw(k, err)) != WL_OK)
 		goto out;
+	{
+		struct stat sb;
+		if (!lo->input.realtime && !lo->input.format && stat(lo->source, &sb) == 0 &&
+		    S_ISREG(sb.st_mode))
+			wl_diag_warn(
+			        lo->diag, "live",
+			        "%s is a file: it is read as fast as it decodes, and frames are dropped when "
+			        "tracking is slower; give --realtime to play it at its own rate",
+			        lo->source);
+	}
 	if (pthread_create(&th, NULL, input_main, s) != 0) {
 		rc = wl_err_set(err, WL_ENOMEM, "cannot start the input thread");
 		goto out;
