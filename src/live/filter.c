@@ -2,7 +2,7 @@
  * filter.c: the causal filter of `wakeline live` (live.h): for each robot a
  * forward-only Kalman filter (Kalman 1960) on x, y and the heading, each a
  * constant-velocity axis with continuous white acceleration, built from the
- * offline smoother's own steps (clean.h: wl_kin_start, _predict, _innov,
+ * offline smoother's own steps (clean/kin.h: wl_kin_start, _predict, _innov,
  * _update, _skip) so that live and offline share one model and one noise
  * structure; the offline smoother adds the backward pass, which needs the
  * future and stays offline.
@@ -51,7 +51,7 @@ wl_status wl_live_filter_cfg_check(const wl_live_filter_cfg *c, wl_err *err)
 	return WL_OK;
 }
 
-/* The offline smoother's axes (clean.c smooth_rts): its priors, our noise. */
+/* The offline smoother's axes (clean/smooth.c clean_smooth_rts): its priors, our noise. */
 static void kin_cfgs(const wl_live_filter_cfg *c, wl_kin_cfg *pos, wl_kin_cfg *head)
 {
 	memset(pos, 0, sizeof *pos);

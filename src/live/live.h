@@ -15,7 +15,7 @@
  * frame on time (decode.h, max_lag_s).  Tracking uses the tracker library
  * (track.h) with its search windows around the prediction, exactly as
  * `wakeline track`; velocities and yaw rate come from a forward-only Kalman
- * filter built from the offline smoother's steps (clean.h wl_kin_*: the same
+ * filter built from the offline smoother's steps (clean/kin.h wl_kin_*: the same
  * constant-velocity model and noise structure).
  *
  * Pieces, in reading order:
@@ -36,7 +36,7 @@
 #include <stdint.h>
 
 #include "calib/calib.h"
-#include "clean/clean.h"
+#include "clean/kin.h"
 #include "core/diag.h"
 #include "core/err.h"
 #include "decode/decode.h"

@@ -497,7 +497,7 @@ static void record_raw(tracking *k, const slot *sl, const wl_track_obs *obs, int
 {
 	if (!k->raw || k->raw_failed)
 		return;
-	wl_raw_put(k->raw, sl->t_s, sl->index, obs, n);
+	wl_track_put_rows(k->raw, sl->t_s, sl->index, obs, n);
 	if (fflush(k->raw_fp) != 0 || ferror(k->raw_fp)) {
 		k->raw_failed = 1;
 		snprintf(k->raw_error, sizeof k->raw_error,
