@@ -65,11 +65,10 @@ def main():
     ap.add_argument("--host", default="0.0.0.0", help="local address to listen on")
     ap.add_argument("--group", help="multicast group to join")
     ap.add_argument("--count", type=int, default=0, help="stop after this many packets (0: never)")
-    ap.add_argument("--timeout", type=float, default=0, help="stop after this many seconds without a packet")
+    ap.add_argument("--timeout", type=float, default=0,
+                    help="once packets have come, stop after this many seconds without one")
     a = ap.parse_args()
     s = open_socket(a.port, a.group, a.host)
-    if a.timeout > 0:
-        s.settimeout(a.timeout)
     n = 0
     print("session,seq,frame,id,status,t_s,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,latency_ms,age_ms")
     while not a.count or n < a.count:
@@ -77,6 +76,8 @@ def main():
             data = s.recv(65536)
         except socket.timeout:
             break
+        if a.timeout > 0:
+            s.settimeout(a.timeout)  # from the first packet on
         p = decode(data)
         if p is None:
             print("not a wakeline pose packet (%d bytes)" % len(data), file=sys.stderr)

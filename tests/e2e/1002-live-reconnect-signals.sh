@@ -24,7 +24,7 @@ wait_for() {
 }
 
 # --- reconnect
-start_client poses.csv --idle 3
+start_client poses.csv --idle 30 --stop-file live-ended
 start_live rc --cal clip.cal.json --timeout-s 1 --reconnect --max-delay-ms 1000 --max-lag-ms 5000 --raw rc.csv \
 	--publish "udp://127.0.0.1:$JPORT"
 send_clip clip.mp4 "$IN_PORT" || fail "ffmpeg could not send the clip"
@@ -38,6 +38,7 @@ sleep 0.5
 kill -INT "$LIVE_PID"
 rc=0
 wait "$LIVE_PID" || rc=$?
+touch live-ended
 wait "$CLIENT_PID" || fail "the test client failed"
 cat rc.err rc.out
 [ "$rc" -eq 0 ] || fail "live --reconnect exited $rc on SIGINT"

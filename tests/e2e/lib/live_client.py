@@ -21,8 +21,8 @@ little-endian throughout.
 usage: live_client.py PORTFILE OUT.csv [--idle S] [--max-s S]
 PORTFILE receives "JSON_PORT BINARY_PORT" once both sockets are bound (the
 kernel picks free ports, so parallel tests never collide).  Receiving ends
---idle seconds after the last packet (default 3) once one has come, or after
---max-s seconds in all (default 120).
+--idle seconds after the last packet (default 3) once one has come (0.5 s
+once --stop-file exists), or after --max-s seconds in all (default 120).
 """
 import argparse
 import csv
@@ -45,6 +45,7 @@ ap.add_argument("portfile")
 ap.add_argument("out")
 ap.add_argument("--idle", type=float, default=3.0)
 ap.add_argument("--max-s", type=float, default=120.0)
+ap.add_argument("--stop-file", help="once this file exists, stop 0.5 s after the last packet")
 a = ap.parse_args()
 
 
@@ -87,9 +88,11 @@ t_end = time.time() + a.max_s
 last = None
 while True:
     now = time.time()
-    wait = t_end - now if last is None else min(t_end, last + a.idle) - now
+    idle = 0.5 if a.stop_file and os.path.exists(a.stop_file) else a.idle
+    wait = t_end - now if last is None else min(t_end, last + idle) - now
     if wait <= 0:
         break
+    wait = min(wait, 0.25)  # look at the stop file now and then
     ready, _, _ = select.select([sj, sb], [], [], wait)
     for s in ready:
         d = s.recv(65536)
