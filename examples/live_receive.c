@@ -118,8 +118,9 @@ static int decode_json(const char *js, pose *p)
 	if (!strstr(js, "\"type\":\"wakeline.pose\"") || !strstr(js, "\"version\":1,"))
 		return 0;
 	if (!num(js, "session", &d[0]) || !num(js, "seq", &d[1]) || !num(js, "frame", &d[2]) ||
-	    !num(js, "id", &d[3]) || !num(js, "t_s", &p->t_s) || !num(js, "arrival_unix_s", &p->arrival_unix_s) ||
-	    !num(js, "x_m", &p->x_m) || !num(js, "y_m", &p->y_m) || !num(js, "heading_rad", &p->heading_rad) ||
+	    !num(js, "id", &d[3]) || !num(js, "t_s", &p->t_s) ||
+	    !num(js, "arrival_unix_s", &p->arrival_unix_s) || !num(js, "x_m", &p->x_m) ||
+	    !num(js, "y_m", &p->y_m) || !num(js, "heading_rad", &p->heading_rad) ||
 	    !num(js, "vx_mps", &p->vx_mps) || !num(js, "vy_mps", &p->vy_mps) ||
 	    !num(js, "yaw_rate_radps", &p->yaw_rate_radps) || !num(js, "latency_ms", &p->latency_ms))
 		return 0;
@@ -177,7 +178,8 @@ int main(int argc, char **argv)
 				ok = buf[0] == '{' ? decode_json((const char *)buf, &p)
 				                   : decode_binary(buf, (size_t)n, &p);
 				if (!ok)
-					fprintf(stderr, "live_receive: not a wakeline pose packet (%zd bytes)\n", n);
+					fprintf(stderr,
+					        "live_receive: not a wakeline pose packet (%zd bytes)\n", n);
 			}
 		}
 		t = now_s();
