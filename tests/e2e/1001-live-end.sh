@@ -27,12 +27,29 @@ $PY "$LIB/live_check.py" offline.csv poses.csv --live-raw file.csv || fail "the 
 awk -v a="$t0" -v b="$t1" 'BEGIN { d = b - a; printf "realtime run took %.2f s for a 4 s clip\n", d; exit !(d >= 3.8) }' ||
 	fail "--realtime did not pace the clip"
 
+# tcp_sender: ffmpeg serving the clip (MPEG-TS, at its own rate) on a TCP
+# port the kernel just gave out, once it listens there (another port if it
+# could not bind); sets FF and TCP_PORT
+tcp_sender() {
+	local try k
+	for try in 1 2 3 4 5; do
+		TCP_PORT=$($PY -c 'import socket; s = socket.socket(); s.bind(("127.0.0.1", 0)); print(s.getsockname()[1])')
+		ffmpeg -nostdin -v error -re -i clip.mp4 -c copy -f mpegts "tcp://127.0.0.1:$TCP_PORT?listen=1" &
+		FF=$!
+		for k in $(seq 100); do
+			ss -Hltnp "sport = :$TCP_PORT" | grep -q "pid=$FF," && return 0
+			kill -0 "$FF" 2>/dev/null || break
+			sleep 0.1
+		done
+		kill "$FF" 2>/dev/null || true
+		wait "$FF" 2>/dev/null || true
+	done
+	fail "ffmpeg could not listen on a TCP port"
+}
+
 # --- TCP: the sender dies in mid-stream
-port=$(free_udp_port) # a TCP port free at this moment (the kernel's next one)
-ffmpeg -nostdin -v error -re -i clip.mp4 -c copy -f mpegts "tcp://127.0.0.1:$port?listen=1" &
-FF=$!
-for k in $(seq 100); do ss -Hltnp "sport = :$port" | grep -q "pid=$FF," && break; sleep 0.1; done
-"$WAKELINE" live "tcp://127.0.0.1:$port" --cal clip.cal.json --raw tcp.csv --timeout-s 5 >tcp.out 2>tcp.err &
+tcp_sender
+"$WAKELINE" live "tcp://127.0.0.1:$TCP_PORT" --cal clip.cal.json --raw tcp.csv --timeout-s 5 >tcp.out 2>tcp.err &
 LP=$!
 wait_rows tcp.csv 60 || fail "no poses from the TCP stream"
 kill -9 "$FF"
@@ -48,11 +65,8 @@ rows=$(($(wc -l < tcp.csv) - 1))
 "$WAKELINE" clean tcp.csv -o tcp.clean.csv --quiet || fail "clean does not take the RAW.csv of a dropped connection"
 
 # --- TCP: the sender hangs with the connection open
-port=$(free_udp_port)
-ffmpeg -nostdin -v error -re -i clip.mp4 -c copy -f mpegts "tcp://127.0.0.1:$port?listen=1" &
-FF=$!
-for k in $(seq 100); do ss -Hltnp "sport = :$port" | grep -q "pid=$FF," && break; sleep 0.1; done
-"$WAKELINE" live "tcp://127.0.0.1:$port" --cal clip.cal.json --raw hang.csv --timeout-s 1 >hang.out 2>hang.err &
+tcp_sender
+"$WAKELINE" live "tcp://127.0.0.1:$TCP_PORT" --cal clip.cal.json --raw hang.csv --timeout-s 1 >hang.out 2>hang.err &
 LP=$!
 wait_rows hang.csv 20 || fail "no poses from the TCP stream"
 kill -STOP "$FF"
