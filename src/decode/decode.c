@@ -79,9 +79,11 @@ struct wl_decoder {
 	/* live sources (wl_decode_opts) */
 	wl_decode_opts o;
 	char source[1024];
-	double t_last_read;  /* monotonic time of the last packet (or of the open) */
-	int opening;         /* in the open: open_timeout_s applies */
-	double last_arrival; /* arrival of the last packet of our stream */
+	double t_last_read;      /* monotonic time of the last packet (or of the open) */
+	int opening;             /* in the open: open_timeout_s applies */
+	double last_arrival;     /* arrival of the last packet of our stream */
+	double arrival_origin_s; /* live without timestamps: the first frame's arrival (t_s 0) */
+	int no_timestamps;       /* live, and the container has none (AVFMT_NOTIMESTAMPS) */
 	struct {
 		int64_t pts;
 		double t, lag;
@@ -440,6 +442,9 @@ static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_o
 		dec->fmt->flags |= AVFMT_FLAG_NOPARSE;
 	av_dict_free(&opts);
 	av_dict_free(&opts_given);
+	/* MJPEG over HTTP and the like carry no times: frames are timed by
+	 * their arrival (emit), and no lag can be told */
+	dec->no_timestamps = o->live && (dec->fmt->iformat->flags & AVFMT_NOTIMESTAMPS);
 	/* a device hands out frames as they are captured: nothing to buffer */
 	if (o->live && dec->fmt->iformat->priv_class &&
 	    dec->fmt->iformat->priv_class->category == AV_CLASS_CATEGORY_DEVICE_VIDEO_INPUT)
@@ -759,8 +764,20 @@ static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 		dec->origin_offset_s = dec->have_last ? dec->last_t_s + dec->guess_dt_s : 0.0;
 		dec->info.first_pts_s = (double)ts * dec->tb_s - dec->origin_offset_s;
 	}
+	arrival_of(dec, f->pts != AV_NOPTS_VALUE ? f->pts : ts, o);
+	if (dec->no_timestamps)
+		ts = AV_NOPTS_VALUE; /* libavformat's are made up at a nominal rate */
 	if (ts != AV_NOPTS_VALUE) {
 		o->t_s = ts_to_t(dec, ts);
+	} else if (dec->o.live) {
+		/* A live source without timestamps (HTTP MJPEG): the arrival is
+		 * the best clock there is, and says so. */
+		if (!dec->have_last)
+			dec->arrival_origin_s = o->arrival_s;
+		o->t_s = o->arrival_s - dec->arrival_origin_s;
+		if (dec->have_last && o->t_s <= dec->last_t_s)
+			o->t_s = dec->last_t_s + 1e-6;
+		o->time_guessed = 1;
 	} else {
 		/* No timestamp: continue from the last frame at the nominal rate, and say so. */
 		o->t_s = dec->have_last ? dec->last_t_s + dec->guess_dt_s : 0.0;
@@ -769,7 +786,6 @@ static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	/* frames skipped to catch up keep their numbers: the index counts
 	 * every frame of the stream seen so far */
 	o->index = dec->after_seek ? -1 : dec->nframes + dec->skipped;
-	arrival_of(dec, f->pts != AV_NOPTS_VALUE ? f->pts : ts, o);
 	o->width_px = f->width;
 	o->height_px = f->height;
 	o->corrupt = (f->flags & AV_FRAME_FLAG_CORRUPT) || f->decode_error_flags;
@@ -893,7 +909,7 @@ static int arrive(wl_decoder *dec)
 {
 	AVPacket *p = dec->pkt;
 	int64_t ts = p->dts != AV_NOPTS_VALUE ? p->dts : p->pts;
-	double ts_s = ts != AV_NOPTS_VALUE ? (double)ts * dec->tb_s : NAN;
+	double ts_s = ts != AV_NOPTS_VALUE && !dec->no_timestamps ? (double)ts * dec->tb_s : NAN;
 	double now, lag;
 	if (dec->o.realtime && isfinite(ts_s))
 		pace(dec, ts_s);
@@ -928,7 +944,9 @@ static void note_end(wl_decoder *dec, int ret)
 	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
 	if (dec->end == WL_END_STOPPED || dec->end == WL_END_TIMEOUT)
 		return;
-	if (ret == AVERROR_EOF) {
+	/* a demuxer that meets the end of its input in mid-packet (MJPEG over
+	 * HTTP when the server closes) says invalid data: an end all the same */
+	if (ret == AVERROR_EOF || (dec->fmt->pb && dec->fmt->pb->eof_reached && !dec->fmt->pb->error)) {
 		dec->end = WL_END_EOF;
 		snprintf(dec->end_what, sizeof dec->end_what, "end of stream");
 		return;

@@ -64,7 +64,8 @@ typedef struct {
 	const uint8_t *rgb;      /* packed RGB24 when WL_DECODE_RGB, else NULL */
 	int rgb_stride;
 	int corrupt;      /* the decoder flagged this frame (concealed errors) */
-	int time_guessed; /* no timestamp: t_s extrapolated from the frame rate */
+	int time_guessed; /* no timestamp: t_s extrapolated from the frame rate (a live source: from
+	                   * the arrival, since the first frame's) */
 	double arrival_s; /* CLOCK_MONOTONIC seconds at which the demuxer handed over this frame's
 	                   * packet (for a --realtime file: when its time came) */
 	double lag_s;     /* live: how late that was against the stream's own clock (arrival less

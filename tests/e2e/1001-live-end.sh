@@ -3,6 +3,10 @@
 #  - a clip played at its own rate (--realtime) ends with "the stream
 #    ended", exit 0, every frame recorded and equal to offline track
 #    (0.1 mm), and takes about its duration (paced, not as fast as it can);
+#  - MJPEG over HTTP (ffmpeg's multipart server, as phone camera apps
+#    serve it), which has no timestamps: every frame, timed by its arrival
+#    (span within 20 % of the clip's), positions within 1 mm of offline
+#    (JPEG against H.264), "the stream ended" at the server's end;
 #  - a TCP sender killed in mid-stream (the connection closes): the run ends
 #    cleanly with a message, exit 0, RAW.csv whole lines of the frames seen;
 #  - a TCP sender that hangs (SIGSTOP: the connection stays open, nothing
@@ -27,14 +31,21 @@ $PY "$LIB/live_check.py" offline.csv poses.csv --live-raw file.csv || fail "the 
 awk -v a="$t0" -v b="$t1" 'BEGIN { d = b - a; printf "realtime run took %.2f s for a 4 s clip\n", d; exit !(d >= 3.8) }' ||
 	fail "--realtime did not pace the clip"
 
-# tcp_sender: ffmpeg serving the clip (MPEG-TS, at its own rate) on a TCP
-# port the kernel just gave out, once it listens there (another port if it
-# could not bind); sets FF and TCP_PORT
+# tcp_sender [KIND]: ffmpeg serving the clip at its own rate on a TCP port
+# the kernel just gave out, once it listens there (another port if it could
+# not bind): MPEG-TS over TCP, or with KIND mjpeg MJPEG over HTTP (JPEG
+# quality 3, the multipart stream phone camera apps serve); sets FF and
+# TCP_PORT
 tcp_sender() {
 	local try k
 	for try in 1 2 3 4 5; do
 		TCP_PORT=$($PY -c 'import socket; s = socket.socket(); s.bind(("127.0.0.1", 0)); print(s.getsockname()[1])')
-		ffmpeg -nostdin -v error -re -i clip.mp4 -c copy -f mpegts "tcp://127.0.0.1:$TCP_PORT?listen=1" &
+		if [ "${1:-}" = mjpeg ]; then
+			ffmpeg -nostdin -v error -re -i clip.mp4 -c:v mjpeg -q:v 3 -f mpjpeg -listen 1 \
+				"http://127.0.0.1:$TCP_PORT/stream.mjpg" &
+		else
+			ffmpeg -nostdin -v error -re -i clip.mp4 -c copy -f mpegts "tcp://127.0.0.1:$TCP_PORT?listen=1" &
+		fi
 		FF=$!
 		for k in $(seq 100); do
 			ss -Hltnp "sport = :$TCP_PORT" | grep -q "pid=$FF," && return 0
@@ -46,6 +57,29 @@ tcp_sender() {
 	done
 	fail "ffmpeg could not listen on a TCP port"
 }
+
+# --- HTTP MJPEG (no timestamps: frames timed by their arrival) to its end
+tcp_sender mjpeg
+"$WAKELINE" live "http://127.0.0.1:$TCP_PORT/stream.mjpg" --cal clip.cal.json --raw mjpeg.csv --timeout-s 2 \
+	--max-delay-ms 1000 --max-lag-ms 5000 >mjpeg.out 2>mjpeg.err || { cat mjpeg.err; fail "live on MJPEG exited $?"; }
+wait "$FF" 2>/dev/null || true
+cat mjpeg.err mjpeg.out
+grep -q "wakeline live: the stream ended: end of stream" mjpeg.err || fail "no end-of-stream message for MJPEG"
+$PY - <<'PY' || fail "the MJPEG stream's poses are off"
+import csv, math
+off = {(int(r["frame"]), int(r["id"])): r for r in csv.DictReader(open("offline.csv"))}
+rows = list(csv.DictReader(open("mjpeg.csv")))
+assert len(rows) == len(off), (len(rows), len(off))
+t = sorted({float(r["t_s"]) for r in rows})
+assert all(b > a for a, b in zip(t, t[1:])) and len(t) == 120
+span = t[-1] / (119 / 30)  # arrival times against the clip's own (HTTP and ffmpeg -re jitter)
+assert 0.8 < span < 1.2, span
+worst = max(math.hypot(float(r["x_m"]) - float(off[k]["x_m"]), float(r["y_m"]) - float(off[k]["y_m"]))
+            for r in rows for k in [(int(r["frame"]), int(r["id"]))] if r["status"] == "ok" == off[k]["status"])
+assert worst < 1e-3, worst  # JPEG at quality 3 against the H.264 frames
+print("MJPEG over HTTP: %d rows, times from arrival span %.2f of the clip's, largest difference %.3f mm"
+      % (len(rows), span, worst * 1e3))
+PY
 
 # --- TCP: the sender dies in mid-stream
 tcp_sender
