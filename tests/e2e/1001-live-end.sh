@@ -7,6 +7,9 @@
 #    serve it), which has no timestamps: every frame, timed by its arrival
 #    (span within 20 % of the clip's), positions within 1 mm of offline
 #    (JPEG against H.264), "the stream ended" at the server's end;
+#  - SRT (ffmpeg listening, wakeline calling): at least 230 of the 240
+#    rows (SRT may lose the last frames at its close), equal to offline
+#    within 0.1 mm;
 #  - a TCP sender killed in mid-stream (the connection closes): the run ends
 #    cleanly with a message, exit 0, RAW.csv whole lines of the frames seen;
 #  - a TCP sender that hangs (SIGSTOP: the connection stays open, nothing
@@ -80,6 +83,26 @@ assert worst < 1e-3, worst  # JPEG at quality 3 against the H.264 frames
 print("MJPEG over HTTP: %d rows, times from arrival span %.2f of the clip's, largest difference %.3f mm"
       % (len(rows), span, worst * 1e3))
 PY
+
+# --- SRT (FFmpeg's libsrt; Debian's has it): ffmpeg listens, wakeline calls
+if ffmpeg -hide_banner -protocols 2>/dev/null | grep -qw srt; then
+	for try in 1 2 3 4 5; do
+		port=$(free_udp_port)
+		ffmpeg -nostdin -v error -re -i clip.mp4 -c copy -f mpegts "srt://127.0.0.1:$port?mode=listener" &
+		FF=$!
+		wait_bound "$FF" "$port" && break
+		wait "$FF" 2>/dev/null || true
+	done
+	"$WAKELINE" live "srt://127.0.0.1:$port?mode=caller" --cal clip.cal.json --raw srt.csv --timeout-s 2 \
+		--max-delay-ms 1000 --max-lag-ms 5000 >srt.out 2>srt.err || { cat srt.err; fail "live on SRT exited $?"; }
+	wait "$FF" 2>/dev/null || true
+	cat srt.err srt.out
+	grep -Eq "wakeline live: (the stream ended|the connection dropped)" srt.err || fail "no end message for SRT"
+	$PY "$LIB/live_check.py" offline.csv /dev/null --raw-only srt.csv --min-rows 230 ||
+		fail "the SRT stream's poses differ from offline"
+else
+	echo "this FFmpeg has no SRT: SRT case left out"
+fi
 
 # --- TCP: the sender dies in mid-stream
 tcp_sender

@@ -3,6 +3,7 @@ on the same clip, prints the figures and exits 1 when a bound fails.
 
 usage: live_check.py OFFLINE_RAW.csv POSES.csv [--live-raw LIVE_RAW.csv]
        [--truth TRUTH.csv] [--pos-mm 0.1] [--speed-mps B]
+       live_check.py OFFLINE_RAW.csv - --raw-only LIVE_RAW.csv [--min-rows N]
 
 POSES.csv comes from live_client.py.  Checked:
   - each kind (json, binary): one session; seq 0, 1, 2, ... in arrival
@@ -14,6 +15,9 @@ POSES.csv comes from live_client.py.  Checked:
   - with --truth: the filter's speed, after each robot's first 0.5 s,
     against the renderer's true speed (central differences of the truth),
     RMS error <= --speed-mps.
+With --raw-only only LIVE_RAW.csv is checked: at least --min-rows rows,
+each equal to offline's row of the same frame and id (status, t_s, and
+positions within --pos-mm).
 """
 import argparse
 import csv
@@ -28,6 +32,8 @@ ap.add_argument("--live-raw")
 ap.add_argument("--truth")
 ap.add_argument("--pos-mm", type=float, default=0.1)
 ap.add_argument("--speed-mps", type=float, default=0.01)
+ap.add_argument("--raw-only")
+ap.add_argument("--min-rows", type=int, default=0)
 a = ap.parse_args()
 bad = []
 
@@ -37,6 +43,24 @@ def f(v):
 
 
 off = {(int(r["frame"]), int(r["id"])): r for r in csv.DictReader(open(a.offline))}
+if a.raw_only:
+    rows = list(csv.DictReader(open(a.raw_only)))
+    worst = 0.0
+    for r in rows:
+        o = off.get((int(r["frame"]), int(r["id"])))
+        if o is None or o["status"] != r["status"] or abs(f(o["t_s"]) - f(r["t_s"])) > 2e-6:
+            bad.append(f"{a.raw_only}: frame {r['frame']} id {r['id']}: not offline's row")
+            break
+        if r["status"] == "ok":
+            worst = max(worst, math.hypot(f(r["x_m"]) - f(o["x_m"]), f(r["y_m"]) - f(o["y_m"])) * 1e3)
+    if len(rows) < a.min_rows:
+        bad.append(f"{a.raw_only}: {len(rows)} rows, fewer than {a.min_rows}")
+    if worst > a.pos_mm:
+        bad.append(f"{a.raw_only}: largest position difference {worst:.4f} mm > {a.pos_mm} mm")
+    print(f"{a.raw_only}: {len(rows)} rows, largest position difference from offline {worst:.4f} mm")
+    for b in bad:
+        print("FAIL:", b, file=sys.stderr)
+    sys.exit(1 if bad else 0)
 pk = list(csv.DictReader(open(a.poses)))
 kinds = {k: [r for r in pk if r["kind"] == k] for k in ("json", "binary")}
 
