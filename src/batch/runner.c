@@ -32,24 +32,18 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
+#include "wl_version.h"
+
+static const char *const *outputs(const runner *r)
+{
+	return r->o->outputs ? r->o->outputs : wl_batch_outputs;
+}
 
 static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char *msg)
 {
 	wl_batch_event ev;
-	double el, units = 0, rate;
-	size_t i;
-	long frames = r->frames_done;
 	if (!r->o->on_event)
 		return;
-	el = batch_now_s() - r->t_start;
-	for (i = 0; i < r->njobs; i++) {
-		if (r->jobs[i].pid > 0) {
-			frames += r->jobs[i].frames;
-			if (r->jobs[i].total > 0)
-				units += fmin(1.0, (double)r->jobs[i].frames / (double)r->jobs[i].total);
-		}
-	}
-	units += (double)(r->res->done + r->res->failed);
 	memset(&ev, 0, sizeof ev);
 	ev.kind = kind;
 	ev.clip = clip;
@@ -58,15 +52,27 @@ static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char 
 	ev.total = r->njobs;
 	ev.failed = r->res->failed;
 	ev.running = r->running;
-	ev.fps = el > 0 ? (double)frames / el : 0;
-	rate = el > 0.5 ? units / el : 0;
-	ev.eta_s = rate > 0 ? ((double)(r->njobs - r->finished) -
-	                       (units - (double)(r->res->done + r->res->failed))) /
-	                              rate
-	                    : NAN;
-	if (ev.eta_s < 0)
-		ev.eta_s = 0;
 	r->o->on_event(&ev, r->o->ev_ctx);
+}
+
+/* Progress: clips finished in this run (not the skipped ones), counting the
+ * part of each running clip that its worker reported, of the clips to run. */
+static void progress(runner *r)
+{
+	double units = (double)(r->res->done + r->res->failed), todo = (double)(r->njobs - r->res->skipped);
+	for (size_t i = 0; i < r->njobs; i++)
+		if (r->jobs[i].pid > 0 && r->jobs[i].total > 0)
+			units += fmin(1.0, r->jobs[i].frames / r->jobs[i].total);
+	wl_diag_progress(r->o->diag, "batch", units, todo, NAN);
+}
+
+void batch_warn(runner *r, const char *clip, const char *msg)
+{
+	batch_journal(r->journal_fd, "warn", clip, NULL, msg);
+	if (clip)
+		wl_diag_warn(r->o->diag, "batch", "%s: %s", clip, msg);
+	else
+		wl_diag_warn(r->o->diag, "batch", "%s", msg);
 }
 
 static wl_status start_job(runner *r, clipjob *j, wl_err *err)
@@ -80,8 +86,8 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 		char path[PATH_MAX];
 		snprintf(path, sizeof path, "%s/clip.json", j->out_dir);
 		unlink(path);
-		for (i = 0; r->o->outputs && r->o->outputs[i]; i++) {
-			snprintf(path, sizeof path, "%s/%s", j->out_dir, r->o->outputs[i]);
+		for (i = 0; outputs(r)[i]; i++) {
+			snprintf(path, sizeof path, "%s/%s", j->out_dir, outputs(r)[i]);
 			unlink(path);
 		}
 	}
@@ -106,6 +112,7 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	j->msg[0] = '\0';
 	j->frames = 0;
 	j->total = -1;
+	j->runs = 0;
 	j->t0 = batch_now_s();
 	r->running++;
 	batch_journal(r->journal_fd, "start", j->rel, j->hash, NULL);
@@ -129,7 +136,8 @@ static void finish_job(runner *r, clipjob *j)
 	j->pid = 0;
 	j->fd = -1;
 	r->running--;
-	r->frames_done += j->frames;
+	/* a worker that crashed leaves the temporary files of what it was writing */
+	batch_remove_stale_tmp(j->out_dir);
 	ok = WIFEXITED(ws) && WEXITSTATUS(ws) == 0;
 	msg[0] = '\0';
 	if (WIFSIGNALED(ws))
@@ -138,14 +146,14 @@ static void finish_job(runner *r, clipjob *j)
 		         j->rel, WTERMSIG(ws), strsignal(WTERMSIG(ws)));
 	else if (!ok)
 		snprintf(msg, sizeof msg, "%s", j->msg[0] ? j->msg : "the clip failed without a message");
-	for (i = 0; ok && r->o->outputs && r->o->outputs[i]; i++) {
+	for (i = 0; ok && outputs(r)[i]; i++) {
 		char path[PATH_MAX];
 		struct stat st;
-		snprintf(path, sizeof path, "%s/%s", j->out_dir, r->o->outputs[i]);
+		snprintf(path, sizeof path, "%s/%s", j->out_dir, outputs(r)[i]);
 		if (stat(path, &st) != 0) {
 			snprintf(msg, sizeof msg,
 			         "%s: the clip's processing wrote no '%s': a bug; please report it", j->rel,
-			         r->o->outputs[i]);
+			         outputs(r)[i]);
 			ok = 0;
 		}
 	}
@@ -190,7 +198,7 @@ static void pump(runner *r)
 			k = read(j->fd, j->buf + j->blen, sizeof j->buf - j->blen);
 			if (k > 0) {
 				j->blen += (size_t)k;
-				batch_worker_parse(j);
+				batch_worker_parse(j, r);
 				continue;
 			}
 			if (k < 0 && (errno == EAGAIN || errno == EINTR))
@@ -201,11 +209,7 @@ static void pump(runner *r)
 	}
 	if (batch_now_s() - r->t_last_ev >= 0.2) {
 		r->t_last_ev = batch_now_s();
-		for (i = 0; i < r->njobs; i++)
-			if (r->jobs[i].pid > 0) {
-				emit(r, WL_BATCH_EV_PROGRESS, r->jobs[i].rel, NULL);
-				break;
-			}
+		progress(r);
 	}
 }
 
@@ -217,14 +221,63 @@ static int ncores(void)
 	return n > 0 ? (int)n : 1;
 }
 
+/* The hash of a CAL.json's bytes, read once per distinct path in a run. */
+static wl_status cal_hash(runner *r, const char *path, char out[17], wl_err *err)
+{
+	const char *files[] = {path, NULL};
+	wl_status st;
+	for (size_t i = 0; i < r->ncal; i++)
+		if (strcmp(r->cal[i].path, path) == 0) {
+			memcpy(out, r->cal[i].hash, 17);
+			return WL_OK;
+		}
+	if ((st = wl_batch_settings_hash(NULL, files, out, err)))
+		return st;
+	if (r->ncal < sizeof r->cal / sizeof r->cal[0]) {
+		snprintf(r->cal[r->ncal].path, sizeof r->cal[r->ncal].path, "%s", path);
+		memcpy(r->cal[r->ncal].hash, out, 17);
+		r->ncal++;
+	}
+	return WL_OK;
+}
+
+/* The clip's settings hash: this version, the batch's settings text, every
+ * option of the clip (the row applied) and its calibration's bytes.  A row
+ * whose options cannot be applied (a bad ROBOTS.csv, colour ranges in tag
+ * mode) fails its clip with the message, before any work. */
+static void job_hash(runner *r, clipjob *j)
+{
+	wl_process_opts *po = malloc(sizeof *po);
+	char ch[17], *desc = NULL, *text = NULL;
+	size_t n;
+	wl_err e;
+	wl_err_clear(&e);
+	if (!po || wl_batch_clip_opts(r->o->proc, j->job.row ? &j->job.row->opts : NULL, po, &e) ||
+	    wl_track_opts_check(&po->track, &e) || cal_hash(r, j->cal, ch, &e)) {
+		snprintf(j->hash_err, sizeof j->hash_err, "%s: %s", j->rel, po ? e.msg : "out of memory");
+		goto out;
+	}
+	desc = wl_process_opts_describe(po);
+	n = (desc ? strlen(desc) : 0) + (r->o->settings ? strlen(r->o->settings) : 0) + 128;
+	if (!desc || !(text = malloc(n))) {
+		snprintf(j->hash_err, sizeof j->hash_err, "%s: out of memory", j->rel);
+		goto out;
+	}
+	snprintf(text, n, "wakeline %s\n%s\n%s\ncal %s\n", WL_VERSION, r->o->settings ? r->o->settings : "",
+	         desc, ch);
+	wl_batch_settings_hash(text, NULL, j->hash, NULL);
+out:
+	free(text);
+	free(desc);
+	free(po);
+}
+
 static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, clipjob *j, wl_err *err)
 {
 	const wl_batch_opts *o = r->o;
 	const wl_manifest_row *row = m ? wl_manifest_find(m, rel) : NULL;
 	char name[PATH_MAX];
 	size_t i, k = 0;
-	double plane = NAN;
-	wl_err herr;
 
 	memset(j, 0, sizeof *j);
 	j->fd = -1;
@@ -232,7 +285,10 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	snprintf(j->clip_path, sizeof j->clip_path, "%s/%s", o->clip_dir, rel);
 	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir,
 	         wl_batch_clip_name(rel, name, sizeof name));
-	snprintf(j->cal, sizeof j->cal, "%s", o->cal_path ? o->cal_path : "");
+	snprintf(j->cal, sizeof j->cal, "%s",
+	         row && row->opts.cal ? row->opts.cal
+	         : o->cal_path        ? o->cal_path
+	                              : "");
 	if (m) {
 		j->names = calloc(m->ncols ? m->ncols : 1, sizeof *j->names);
 		j->values = calloc(m->ncols ? m->ncols : 1, sizeof *j->values);
@@ -244,25 +300,20 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 			j->names[k] = m->cols[i];
 			j->values[k++] = row ? row->values[i] : "";
 		}
-		if (row && row->opts.cal)
-			snprintf(j->cal, sizeof j->cal, "%s", row->opts.cal);
-		if (row)
-			plane = row->opts.plane_height_m;
 	}
 	j->job.clip_path = j->clip_path;
 	j->job.clip_rel = j->rel;
 	j->job.out_dir = j->out_dir;
 	j->job.cal_path = j->cal[0] ? j->cal : NULL;
-	j->job.plane_height_m = plane;
+	j->job.row = row;
 	j->job.nparams = k;
 	j->job.param_names = j->names;
 	j->job.param_values = j->values;
-	wl_err_clear(&herr);
 	if (!j->cal[0])
 		snprintf(j->hash_err, sizeof j->hash_err,
 		         "%s: no calibration: give --cal, or a 'cal' cell in the manifest row", rel);
-	else if (wl_batch_settings_hash(o->settings, j->cal, plane, j->hash, &herr) != WL_OK)
-		snprintf(j->hash_err, sizeof j->hash_err, "%s: %s", rel, herr.msg);
+	else
+		job_hash(r, j);
 	return wl_mkdirs(j->out_dir, err);
 }
 
@@ -319,14 +370,6 @@ static wl_status take_lock(const wl_batch_opts *o, int *fd, wl_err *err)
 	return WL_OK;
 }
 
-static void warn(runner *r, const char *fmt, const char *a, const char *b)
-{
-	char msg[PATH_MAX * 2];
-	snprintf(msg, sizeof msg, fmt, a, b);
-	batch_journal(r->journal_fd, "warn", NULL, NULL, msg);
-	emit(r, WL_BATCH_EV_WARN, NULL, msg);
-}
-
 wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
 {
 	wl_manifest m;
@@ -343,8 +386,6 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	r.res = res;
 	r.journal_fd = -1;
 	wl_manifest_init(&m);
-	if (!o->fn)
-		return wl_err_set(err, WL_EINVAL, "no clip function given to the batch");
 	if ((s = wl_mkdirs(o->out_dir, err)))
 		return s;
 	snprintf(path, sizeof path, "%s/clips", o->out_dir);
@@ -377,8 +418,10 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 			continue;
 		if (have_m && !row) {
 			res->unlisted++;
-			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
-			     cl.rel[i], o->manifest_path);
+			snprintf(path, sizeof path,
+			         "no row in the manifest '%s': processed with empty parameter cells",
+			         o->manifest_path);
+			batch_warn(&r, cl.rel[i], path);
 		}
 		if ((s = prepare_job(&r, have_m ? &m : NULL, cl.rel[i], &r.jobs[r.njobs], err)))
 			goto out;
@@ -388,8 +431,9 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		if (m.rows[i].found)
 			continue;
 		res->missing++;
-		snprintf(path, sizeof path, "%s:%ld", m.path, m.rows[i].line);
-		warn(&r, "%s: clip '%s' is not under the clip folder: check the name", path, m.rows[i].clip);
+		snprintf(path, sizeof path, "%s:%ld: clip '%s' is not under the clip folder: check the name",
+		         m.path, m.rows[i].line, m.rows[i].clip);
+		batch_warn(&r, NULL, path);
 	}
 	if ((s = write_batch_json(o, have_m ? &m : NULL, err)))
 		goto out;
@@ -412,7 +456,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 				continue;
 			}
 			if (!o->force &&
-			    batch_is_complete(j->out_dir, &j->job, j->hash, o->outputs, &differ)) {
+			    batch_is_complete(j->out_dir, &j->job, j->hash, outputs(&r), &differ)) {
 				if (differ) /* new parameter cells only: no need to redo the clip */
 					wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
 				res->skipped++;

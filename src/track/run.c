@@ -199,11 +199,14 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	queue q;
 	pthread_t th;
 	int started = 0, want_rgb, nq;
-	double lookahead_s;
+	double lookahead_s, total;
+	char warning[512] = "";
 	const wl_video_info *info;
 	wl_status st;
 	memset(sum, 0, sizeof *sum);
 	memset(&q, 0, sizeof q);
+	if ((st = wl_track_opts_check(opts, err)))
+		return st;
 	pthread_mutex_init(&q.m, NULL);
 	pthread_cond_init(&q.cv, NULL);
 	want_rgb = opts->mode == WL_TRACK_COLOUR || ro->overlay_mp4;
@@ -211,6 +214,9 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	    WL_OK)
 		goto out;
 	info = wl_decoder_info(dec);
+	total = info->frames_hint > 0                        ? (double)info->frames_hint
+	        : info->duration_s > 0 && info->fps_hint > 0 ? floor(info->duration_s * info->fps_hint + 0.5)
+	                                                     : -1;
 	if ((st = wl_tracker_create(opts, cal, cal_path, info->width_px, info->height_px, info->rotation_deg,
 	                            &tr, err)) != WL_OK)
 		goto out;
@@ -269,8 +275,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 			pthread_mutex_unlock(&q.m);
 		}
 		queue_pop(&q);
-		if (ro->progress)
-			ro->progress(ro->progress_ctx, sum->frames, img.t_s, info->duration_s);
+		wl_diag_progress(ro->diag, "track", (double)sum->frames, total, img.t_s);
 	}
 	if (q.st != WL_OK) {
 		st = q.st;
@@ -293,7 +298,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
 	if (sum->stats.over_limit > 0) {
-		snprintf(sum->warning, sizeof sum->warning,
+		snprintf(warning, sizeof warning,
 		         "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were "
 		         "left out; "
 		         "list the robots with --ids or --robots",
@@ -304,7 +309,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		int nd = 0;
 		const wl_damage *d = wl_decoder_damage(dec, &nd);
 		char tb[WL_NUMBUF];
-		snprintf(sum->warning, sizeof sum->warning,
+		snprintf(warning, sizeof warning,
 		         "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld frames "
 		         "flagged); "
 		         "see wakeline probe",
@@ -313,13 +318,15 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		         nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
 		         (long long)q.damaged);
 	} else if (q.damaged > 0)
-		snprintf(sum->warning, sizeof sum->warning,
+		snprintf(warning, sizeof warning,
 		         "%lld frames were flagged as damaged by the decoder; their poses may be off",
 		         (long long)q.damaged);
 	else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8)
-		snprintf(sum->warning, sizeof sum->warning,
+		snprintf(warning, sizeof warning,
 		         "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
 		         ro->clip, info->bit_depth);
+	if (warning[0])
+		wl_diag_warn(ro->diag, "track", "%s", warning);
 out:
 	if (started) {
 		queue_stop(&q);
