@@ -327,20 +327,79 @@ static int cmp_cstr(const void *a, const void *b)
 	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
+/* The clip folders under out_dir/clips, sorted.  *names is freed by the
+ * caller (each name, then the array), also after a failure. */
+static wl_status list_clip_folders(const char *out_dir, char ***names, size_t *n, wl_err *err)
+{
+	char path[PATH_MAX];
+	DIR *d;
+	struct dirent *e;
+	*names = NULL;
+	*n = 0;
+	snprintf(path, sizeof path, "%s/clips", out_dir);
+	if (!(d = opendir(path)))
+		return wl_err_set(err, WL_EIO, "'%s' has no clips folder: is it the -o folder of a batch?",
+		                  out_dir);
+	while ((e = readdir(d))) {
+		char **nn;
+		if (e->d_name[0] == '.')
+			continue;
+		if (!(nn = realloc(*names, (*n + 1) * sizeof *nn))) {
+			closedir(d);
+			return wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
+		}
+		*names = nn;
+		if (!(nn[*n] = strdup(e->d_name))) {
+			closedir(d);
+			return wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
+		}
+		(*n)++;
+	}
+	closedir(d);
+	qsort(*names, *n, sizeof **names, cmp_cstr);
+	return WL_OK;
+}
+
+/* batch.json: the manifest rows whose clip is missing, and the sweep's
+ * options; those the caller gives (sweep, may be NULL) win. */
+static void read_batch_json(const char *out_dir, const wl_report_sweep_opts *sweep, prows *p, cJSON **bj,
+                            wl_report_sweep_opts *so)
+{
+	char path[PATH_MAX];
+	snprintf(path, sizeof path, "%s/batch.json", out_dir);
+	if (wl_json_load(path, bj, NULL) == WL_OK) {
+		const cJSON *m, *miss = cJSON_GetObjectItemCaseSensitive(*bj, "missing");
+		const char *x = wl_json_string_or(*bj, "x_col", ""),
+		           *g = wl_json_string_or(*bj, "group_col", "");
+		cJSON_ArrayForEach(m, miss)
+		{
+			if (!prow_new(p, wl_json_string_or(m, "clip", "?"), "", "missing",
+			              wl_json_string_or(m, "error", "")))
+				break;
+		}
+		so->x_col = x[0] ? x : NULL;
+		so->group_col = g[0] ? g : NULL;
+		so->body_diameter_m = wl_json_number_or(*bj, "body_diameter_m", 0);
+	}
+	if (sweep && sweep->x_col)
+		so->x_col = sweep->x_col;
+	if (sweep && sweep->group_col)
+		so->group_col = sweep->group_col;
+	if (sweep && sweep->body_diameter_m > 0)
+		so->body_diameter_m = sweep->body_diameter_m;
+}
+
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
                          wl_err *err)
 {
-	char path[PATH_MAX];
 	prows p;
 	wl_report_runs t;
 	wl_report_sweep_opts so = {NULL, NULL, 0};
 	cJSON *bj = NULL;
-	DIR *d;
-	struct dirent *e;
 	char **names = NULL;
 	size_t nn = 0, i;
 	int written = 0;
-	wl_status s = WL_OK;
+	wl_status s;
 	wl_batch_result dummy;
 
 	if (!res)
@@ -348,53 +407,11 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	memset(res, 0, sizeof *res);
 	memset(&p, 0, sizeof p);
 	wl_report_runs_init(&t);
-	snprintf(path, sizeof path, "%s/clips", out_dir);
-	d = opendir(path);
-	if (!d)
-		return wl_err_set(err, WL_EIO, "'%s' has no clips folder: is it the -o folder of a batch?",
-		                  out_dir);
-	while ((e = readdir(d))) {
-		char **nn2;
-		if (e->d_name[0] == '.')
-			continue;
-		nn2 = realloc(names, (nn + 1) * sizeof *nn2);
-		if (!nn2 || !(nn2[nn] = strdup(e->d_name))) {
-			names = nn2 ? nn2 : names;
-			closedir(d);
-			s = wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
-			goto out;
-		}
-		names = nn2;
-		nn++;
-	}
-	closedir(d);
-	qsort(names, nn, sizeof *names, cmp_cstr);
+	if ((s = list_clip_folders(out_dir, &names, &nn, err)))
+		goto out;
 	for (i = 0; i < nn && !p.oom; i++)
 		read_clip(&p, out_dir, names[i]);
-	snprintf(path, sizeof path, "%s/batch.json", out_dir);
-	if (wl_json_load(path, &bj, NULL) == WL_OK) {
-		const cJSON *m, *miss = cJSON_GetObjectItemCaseSensitive(bj, "missing");
-		cJSON_ArrayForEach(m, miss)
-		{
-			if (!prow_new(&p, wl_json_string_or(m, "clip", "?"), "", "missing",
-			              wl_json_string_or(m, "error", "")))
-				break;
-		}
-		{
-			const char *x = wl_json_string_or(bj, "x_col", ""),
-			           *g = wl_json_string_or(bj, "group_col", "");
-			so.x_col = x[0] ? x : NULL;
-			so.group_col = g[0] ? g : NULL;
-			so.body_diameter_m = wl_json_number_or(bj, "body_diameter_m", 0);
-		}
-	}
-	/* what the caller gives wins; what it leaves out comes from batch.json */
-	if (sweep && sweep->x_col)
-		so.x_col = sweep->x_col;
-	if (sweep && sweep->group_col)
-		so.group_col = sweep->group_col;
-	if (sweep && sweep->body_diameter_m > 0)
-		so.body_diameter_m = sweep->body_diameter_m;
+	read_batch_json(out_dir, sweep, &p, &bj, &so);
 	if (p.oom) {
 		s = wl_err_set(err, WL_ENOMEM, "out of memory reading the clip folders of '%s'", out_dir);
 		goto out;

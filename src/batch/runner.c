@@ -370,13 +370,112 @@ static wl_status take_lock(const wl_batch_opts *o, int *fd, wl_err *err)
 	return WL_OK;
 }
 
+/* The clips of this run (this shard), each with its job; warnings for clips
+ * without a manifest row and rows without a clip. */
+static wl_status prepare_jobs(runner *r, wl_manifest *m, const wl_cliplist *cl, wl_err *err)
+{
+	const wl_batch_opts *o = r->o;
+	char msg[PATH_MAX + 256];
+	wl_status s;
+	if (!(r->jobs = calloc(cl->n ? cl->n : 1, sizeof *r->jobs)))
+		return wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", cl->n);
+	for (size_t i = 0; i < cl->n; i++) {
+		wl_manifest_row *row = m ? (wl_manifest_row *)wl_manifest_find(m, cl->rel[i]) : NULL;
+		if (row)
+			row->found = 1;
+		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
+			continue;
+		if (m && !row) {
+			r->res->unlisted++;
+			snprintf(msg, sizeof msg,
+			         "no row in the manifest '%s': processed with empty parameter cells",
+			         o->manifest_path);
+			batch_warn(r, cl->rel[i], msg);
+		}
+		if ((s = prepare_job(r, m, cl->rel[i], &r->jobs[r->njobs], err)))
+			return s;
+		r->njobs++;
+	}
+	for (size_t i = 0; m && i < m->nrows; i++) {
+		if (m->rows[i].found)
+			continue;
+		r->res->missing++;
+		snprintf(msg, sizeof msg, "%s:%ld: clip '%s' is not under the clip folder: check the name",
+		         m->path, m->rows[i].line, m->rows[i].clip);
+		batch_warn(r, NULL, msg);
+	}
+	return WL_OK;
+}
+
+/* A clip that needs no worker: its options failed (the message is the
+ * result) or it is complete.  Returns 1 when the clip is settled here. */
+static int settle_without_worker(runner *r, clipjob *j)
+{
+	int differ = 0;
+	if (j->hash_err[0]) {
+		wl_err e2;
+		wl_err_clear(&e2);
+		wl_batch_mark(j->out_dir, &j->job, "", 0, j->hash_err, 0, &e2);
+		r->res->failed++;
+		r->finished++;
+		batch_journal(r->journal_fd, "fail", j->rel, NULL, j->hash_err);
+		emit(r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
+		return 1;
+	}
+	if (r->o->force || !batch_is_complete(j->out_dir, &j->job, j->hash, outputs(r), &differ))
+		return 0;
+	if (differ) /* new parameter cells only: no need to redo the clip */
+		wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
+	r->res->skipped++;
+	r->finished++;
+	batch_journal(r->journal_fd, "skip", j->rel, j->hash, NULL);
+	emit(r, WL_BATCH_EV_SKIP, j->rel, NULL);
+	return 1;
+}
+
+/* Runs the jobs, at most o->jobs workers at a time. */
+static wl_status schedule(runner *r, wl_err *err)
+{
+	size_t next = 0;
+	int jobs = r->o->jobs > 0 ? r->o->jobs : ncores();
+	wl_status s;
+	if (jobs > MAX_JOBS)
+		jobs = MAX_JOBS;
+	while (next < r->njobs || r->running) {
+		while (next < r->njobs && (int)r->running < jobs) {
+			clipjob *j = &r->jobs[next++];
+			if (!settle_without_worker(r, j) && (s = start_job(r, j, err)))
+				return s;
+		}
+		pump(r);
+	}
+	return WL_OK;
+}
+
+static void runner_release(runner *r)
+{
+	/* on a set-up error while workers run, stop them: their clips are redone */
+	for (size_t i = 0; i < r->njobs; i++)
+		if (r->jobs[i].pid > 0) {
+			kill(r->jobs[i].pid, SIGKILL);
+			waitpid(r->jobs[i].pid, NULL, 0);
+			close(r->jobs[i].fd);
+		}
+	for (size_t i = 0; i < r->njobs; i++) {
+		free(r->jobs[i].names);
+		free(r->jobs[i].values);
+	}
+	free(r->jobs);
+	if (r->journal_fd >= 0)
+		close(r->journal_fd);
+}
+
 wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
 {
 	wl_manifest m;
 	wl_cliplist cl = {0, NULL};
 	runner r;
-	int lock_fd = -1, have_m = 0, jobs;
-	size_t i, next = 0;
+	int lock_fd = -1, have_m = 0;
 	wl_status s;
 	char path[PATH_MAX];
 
@@ -404,72 +503,13 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	else
 		snprintf(path, sizeof path, "%s/journal.log", o->out_dir);
 	r.journal_fd = open(path, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
-	r.jobs = calloc(cl.n ? cl.n : 1, sizeof *r.jobs);
-	if (!r.jobs) {
-		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", cl.n);
-		goto out;
-	}
 	r.t_start = batch_now_s();
-	for (i = 0; i < cl.n; i++) {
-		wl_manifest_row *row = have_m ? (wl_manifest_row *)wl_manifest_find(&m, cl.rel[i]) : NULL;
-		if (row)
-			row->found = 1;
-		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
-			continue;
-		if (have_m && !row) {
-			res->unlisted++;
-			snprintf(path, sizeof path,
-			         "no row in the manifest '%s': processed with empty parameter cells",
-			         o->manifest_path);
-			batch_warn(&r, cl.rel[i], path);
-		}
-		if ((s = prepare_job(&r, have_m ? &m : NULL, cl.rel[i], &r.jobs[r.njobs], err)))
-			goto out;
-		r.njobs++;
-	}
-	for (i = 0; have_m && i < m.nrows; i++) {
-		if (m.rows[i].found)
-			continue;
-		res->missing++;
-		snprintf(path, sizeof path, "%s:%ld: clip '%s' is not under the clip folder: check the name",
-		         m.path, m.rows[i].line, m.rows[i].clip);
-		batch_warn(&r, NULL, path);
-	}
-	if ((s = write_batch_json(o, have_m ? &m : NULL, err)))
+	if ((s = prepare_jobs(&r, have_m ? &m : NULL, &cl, err)) ||
+	    (s = write_batch_json(o, have_m ? &m : NULL, err)))
 		goto out;
 	res->clips = r.njobs;
-	jobs = o->jobs > 0 ? o->jobs : ncores();
-	if (jobs > MAX_JOBS)
-		jobs = MAX_JOBS;
-	while (next < r.njobs || r.running) {
-		while (next < r.njobs && (int)r.running < jobs) {
-			clipjob *j = &r.jobs[next++];
-			int differ = 0;
-			if (j->hash_err[0]) {
-				wl_err e2;
-				wl_err_clear(&e2);
-				wl_batch_mark(j->out_dir, &j->job, "", 0, j->hash_err, 0, &e2);
-				res->failed++;
-				r.finished++;
-				batch_journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
-				emit(&r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
-				continue;
-			}
-			if (!o->force &&
-			    batch_is_complete(j->out_dir, &j->job, j->hash, outputs(&r), &differ)) {
-				if (differ) /* new parameter cells only: no need to redo the clip */
-					wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
-				res->skipped++;
-				r.finished++;
-				batch_journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
-				emit(&r, WL_BATCH_EV_SKIP, j->rel, NULL);
-				continue;
-			}
-			if ((s = start_job(&r, j, err)))
-				goto out;
-		}
-		pump(&r);
-	}
+	if ((s = schedule(&r, err)))
+		goto out;
 	if (o->shard_count <= 1) {
 		wl_batch_result mr;
 		if ((s = wl_batch_merge(o->out_dir, &o->sweep, &mr, err)))
@@ -477,20 +517,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		res->runs = mr.runs;
 	}
 out:
-	/* on a set-up error while workers run, stop them: their clips are redone */
-	for (i = 0; i < r.njobs; i++)
-		if (r.jobs[i].pid > 0) {
-			kill(r.jobs[i].pid, SIGKILL);
-			waitpid(r.jobs[i].pid, NULL, 0);
-			close(r.jobs[i].fd);
-		}
-	for (i = 0; i < r.njobs; i++) {
-		free(r.jobs[i].names);
-		free(r.jobs[i].values);
-	}
-	free(r.jobs);
-	if (r.journal_fd >= 0)
-		close(r.journal_fd);
+	runner_release(&r);
 	if (lock_fd >= 0)
 		close(lock_fd);
 	wl_cliplist_release(&cl);

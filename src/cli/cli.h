@@ -61,7 +61,7 @@ typedef enum {
 
 typedef struct {
 	cli_kind kind;
-	const char *name; /* long name without "--"; a one-letter name is a short option too */
+	const char *name; /* long name without "--" */
 	const char *arg;  /* the value's name in --help ("S", "tag|colour") */
 	const char *help; /* text in --help (NULL: left out) */
 	void *dest;

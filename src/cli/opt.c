@@ -130,7 +130,7 @@ int cli_parse(const char *cmd, const char *head, const char *tail, const cli_opt
 			char letter;
 			if (o->kind == CLI_SECTION || n + 2 > 2 * MAX_OPTS)
 				continue;
-			letter = o->letter ? o->letter : strlen(o->name) == 1 ? o->name[0] : 0;
+			letter = o->letter;
 			for (int k = 0; k < 1 + (o->alias != NULL); k++) {
 				lo[n] = (struct option){k ? o->alias : o->name, has_arg, NULL, 256 + (int)n};
 				ent[n] = (entry){o, k};

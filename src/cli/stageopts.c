@@ -86,13 +86,9 @@ static int parse_tank(const char *arg, void *dest, char *msg, size_t cap)
 	return 0;
 }
 
-void cli_stages_init(cli_stages *s)
+static void track_table(cli_stages *s)
 {
 	wl_track_opts *t = &s->p.track;
-	wl_clean_params *c = &s->p.clean;
-	memset(s, 0, sizeof *s);
-	wl_process_opts_init(&s->p);
-	s->body_m = NAN;
 	{
 		cli_opt margin = CLI_OPT_NUM("min-margin", "M",
 		                             "minimum decision margin (default 20; 60 with 1 bit corrected)",
@@ -139,6 +135,11 @@ void cli_stages_init(cli_stages *s)
 			if (o->dest == &t->min_margin)
 				o->seen = &s->margin_seen;
 	}
+}
+
+static void clean_table(cli_stages *s)
+{
+	wl_clean_params *c = &s->p.clean;
 	{
 		const cli_opt clean[] = {
 		        CLI_OPT_SECTION("Smoothing:"),
@@ -182,6 +183,10 @@ void cli_stages_init(cli_stages *s)
 		        CLI_OPT_END};
 		memcpy(s->clean, clean, sizeof clean);
 	}
+}
+
+static void measure_tables(cli_stages *s)
+{
 	{
 		const cli_opt measure[] = {
 		        CLI_OPT_SECTION("Measuring:"),
@@ -203,6 +208,16 @@ void cli_stages_init(cli_stages *s)
 		s->body[0] = body;
 		s->body[1] = (cli_opt)CLI_OPT_END;
 	}
+}
+
+void cli_stages_init(cli_stages *s)
+{
+	memset(s, 0, sizeof *s);
+	wl_process_opts_init(&s->p);
+	s->body_m = NAN;
+	track_table(s);
+	clean_table(s);
+	measure_tables(s);
 }
 
 int cli_stages_finish(const char *cmd, cli_stages *s)

@@ -167,6 +167,45 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 	return WL_OK;
 }
 
+/* One warning at the end of a run, the most important: robots past the
+ * limit, a damaged clip, frames flagged damaged, HDR video in colour mode. */
+static void warn_end(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_decoder *dec,
+                     const wl_track_summary *sum)
+{
+	const wl_video_info *info = wl_decoder_info(dec);
+	const char *stage = "track";
+	if (sum->stats.over_limit > 0) {
+		wl_diag_warn(ro->diag, stage,
+		             "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) "
+		             "were left out; "
+		             "list the robots with --ids or --robots",
+		             ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit,
+		             sum->stats.first_over_limit_id);
+	} else if (wl_decoder_damage_count(dec) > 0) {
+		/* packets lost, a cut file: not only frames flagged corrupt */
+		int nd = 0;
+		const wl_damage *d = wl_decoder_damage(dec, &nd);
+		char tb[WL_NUMBUF];
+		wl_diag_warn(ro->diag, stage,
+		             "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld "
+		             "frames flagged); "
+		             "see wakeline probe",
+		             ro->clip, (long long)wl_decoder_damage_count(dec),
+		             wl_decoder_damage_count(dec) > 1 ? "s" : "",
+		             nd ? (long long)d[0].frame_index : -1LL,
+		             nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?",
+		             nd ? d[0].what : "?", (long long)sum->damaged);
+	} else if (sum->damaged > 0) {
+		wl_diag_warn(ro->diag, stage,
+		             "%lld frames were flagged as damaged by the decoder; their poses may be off",
+		             (long long)sum->damaged);
+	} else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8) {
+		wl_diag_warn(ro->diag, stage,
+		             "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
+		             ro->clip, info->bit_depth);
+	}
+}
+
 /* One frame's observations as RAW.csv rows. */
 static void put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)
 {
@@ -200,7 +239,6 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	pthread_t th;
 	int started = 0, want_rgb, nq;
 	double lookahead_s, total;
-	char warning[512] = "";
 	const wl_video_info *info;
 	wl_status st;
 	memset(sum, 0, sizeof *sum);
@@ -297,36 +335,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
-	if (sum->stats.over_limit > 0) {
-		snprintf(warning, sizeof warning,
-		         "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were "
-		         "left out; "
-		         "list the robots with --ids or --robots",
-		         ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit,
-		         sum->stats.first_over_limit_id);
-	} else if (wl_decoder_damage_count(dec) > 0) {
-		/* packets lost, a cut file: not only frames flagged corrupt */
-		int nd = 0;
-		const wl_damage *d = wl_decoder_damage(dec, &nd);
-		char tb[WL_NUMBUF];
-		snprintf(warning, sizeof warning,
-		         "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld frames "
-		         "flagged); "
-		         "see wakeline probe",
-		         ro->clip, (long long)wl_decoder_damage_count(dec),
-		         wl_decoder_damage_count(dec) > 1 ? "s" : "", nd ? (long long)d[0].frame_index : -1LL,
-		         nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
-		         (long long)q.damaged);
-	} else if (q.damaged > 0)
-		snprintf(warning, sizeof warning,
-		         "%lld frames were flagged as damaged by the decoder; their poses may be off",
-		         (long long)q.damaged);
-	else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8)
-		snprintf(warning, sizeof warning,
-		         "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
-		         ro->clip, info->bit_depth);
-	if (warning[0])
-		wl_diag_warn(ro->diag, "track", "%s", warning);
+	warn_end(ro, opts, dec, sum);
 out:
 	if (started) {
 		queue_stop(&q);
