@@ -247,7 +247,7 @@ int cli_stages_finish(const char *cmd, cli_stages *s)
 		return cli_usage_error(cmd, "%s", err.msg);
 	if (s->robots && wl_track_load_robots(s->robots, t, &err))
 		return cli_fail(cmd, &err);
-	if (wl_track_opts_check(t, &err))
-		return cli_fail(cmd, &err);
+	if (wl_track_opts_check(t, &err)) /* options that contradict each other */
+		return cli_usage_error(cmd, "%s", err.msg);
 	return CLI_CONTINUE;
 }
