@@ -77,8 +77,9 @@ typedef struct {
 	double water_index;      /* refractive index (WL_WATER_INDEX) */
 	double plane_height_m;   /* default tracked plane height to record */
 	int displayed, rotation_deg;
-	double outlier_px;   /* leave-one-out threshold (default 3 px when 0) */
-	const wl_diag *diag; /* warnings: points left out or far off, an undetermined focal length (may be NULL) */
+	double outlier_px; /* leave-one-out threshold (default 3 px when 0) */
+	const wl_diag
+	        *diag; /* warnings: points left out or far off, an undetermined focal length (may be NULL) */
 } wl_calib_opts;
 
 typedef struct {

@@ -23,11 +23,10 @@ static const char HEAD[] =
         "water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
         "setting as the runs.\n"
         "\n";
-static const char TAIL[] =
-        "\n"
-        "Intrinsics come from --lens, else from the markers when the view is oblique\n"
-        "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
-        "Exit status: 0 ok, 1 failure, 2 usage error.\n";
+static const char TAIL[] = "\n"
+                           "Intrinsics come from --lens, else from the markers when the view is oblique\n"
+                           "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
+                           "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	const char *source, *layout, *points, *out, *lens, *family, *tank;
@@ -153,19 +152,22 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 		const wl_calib_marker *m = &marks[i];
 		if (!wl_calib_tags_get(tags, m->id, &o)) {
 			wl_diag_warn(diag, "calibrate",
-			             "marker %ld (layout line %ld) was not found: check that it is in view, lit and flat",
+			             "marker %ld (layout line %ld) was not found: check that it is in view, "
+			             "lit and flat",
 			             m->id, m->line);
 			continue;
 		}
 		(*n_seen)++;
 		if (o.move_px > MOVE_WARN_PX)
 			wl_diag_warn(diag, "calibrate",
-			             "marker %ld moves by up to %.1f px between frames: turn image stabilisation off "
+			             "marker %ld moves by up to %.1f px between frames: turn image "
+			             "stabilisation off "
 			             "and fix the camera",
 			             m->id, o.move_px);
 		if (o.margin < MIN_MARGIN)
 			wl_diag_warn(diag, "calibrate",
-			             "marker %ld is weakly detected (decision margin %.0f, below %.0f): more light, "
+			             "marker %ld is weakly detected (decision margin %.0f, below %.0f): more "
+			             "light, "
 			             "less glare, or a larger print",
 			             m->id, o.margin, MIN_MARGIN);
 		if (n >= max)
@@ -298,27 +300,32 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 static int parse_args(int argc, char **argv, options *op)
 {
 	const cli_opt tab[] = {
-	        CLI_OPT_STR("layout", 0, "FILE",
-	                    "floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\nmarkers are found in "
-	                    "SOURCE (AprilTag)",
-	                    &op->layout),
+	        CLI_OPT_STR(
+	                "layout", 0, "FILE",
+	                "floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\nmarkers are found in "
+	                "SOURCE (AprilTag)",
+	                &op->layout),
 	        CLI_OPT_STR("points", 0, "FILE", "hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]",
 	                    &op->points),
 	        CLI_OPT_STR("output", 'o', "FILE", "CAL.json to write (not written on error)", &op->out),
-	        CLI_OPT_STR("lens", 0, "FILE", "LENS.json from 'wakeline lens' (intrinsics and distortion)", &op->lens),
+	        CLI_OPT_STR("lens", 0, "FILE", "LENS.json from 'wakeline lens' (intrinsics and distortion)",
+	                    &op->lens),
 	        CLI_OPT_NUM("hfov-deg", "A",
-	                    "horizontal field of view, when neither the lens nor the view\ngives the focal length",
+	                    "horizontal field of view, when neither the lens nor the view\ngives the focal "
+	                    "length",
 	                    &op->hfov_deg, 0, 179),
-	        CLI_OPT_NUM("plane-height-m", "H", "height of the robots' marker plane above the floor (default 0)",
-	                    &op->plane_m, -10, 10),
-	        CLI_OPT_NUM("water-depth-m", "D", "the floor markers lie under D metres of still water", &op->water_m, 0,
-	                    100),
-	        CLI_OPT_NUM("water-index", "N", "refractive index of the water (default 1.333)", &op->water_index, 1, 3),
+	        CLI_OPT_NUM("plane-height-m", "H",
+	                    "height of the robots' marker plane above the floor (default 0)", &op->plane_m,
+	                    -10, 10),
+	        CLI_OPT_NUM("water-depth-m", "D", "the floor markers lie under D metres of still water",
+	                    &op->water_m, 0, 100),
+	        CLI_OPT_NUM("water-index", "N", "refractive index of the water (default 1.333)",
+	                    &op->water_index, 1, 3),
 	        CLI_OPT_STR("family", 0, "NAME", "tag family (default tag36h11)", &op->family),
 	        CLI_OPT_NUM("at", "T", "clip: start at T seconds (default 0)", &op->at_s, 0, 1e9),
 	        CLI_OPT_POS("span", "S", "clip: use S seconds of frames (default 2)", &op->span_s),
-	        CLI_OPT_STR("tank", 0, "\"x,y;x,y;...\"", "tank outline in metres (default: the markers' bounding rectangle)",
-	                    &op->tank),
+	        CLI_OPT_STR("tank", 0, "\"x,y;x,y;...\"",
+	                    "tank outline in metres (default: the markers' bounding rectangle)", &op->tank),
 	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &op->quiet),
 	        CLI_OPT_END};
 	const cli_opt *tables[] = {tab, NULL};

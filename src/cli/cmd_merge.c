@@ -28,11 +28,15 @@ int cmd_merge(int argc, char **argv)
 	wl_batch_result res;
 	wl_err err;
 	cli_opt tab[] = {
-	        CLI_OPT_STR("x", 0, "COLUMN", "manifest column on the sweep plots' x axis\n(default: the one the batch was given)",
-	                    &so.x_col),
-	        CLI_OPT_STR("group", 0, "COLUMN", "manifest column that groups the sweep points", &so.group_col),
+	        CLI_OPT_STR(
+	                "x", 0, "COLUMN",
+	                "manifest column on the sweep plots' x axis\n(default: the one the batch was given)",
+	                &so.x_col),
+	        CLI_OPT_STR("group", 0, "COLUMN", "manifest column that groups the sweep points",
+	                    &so.group_col),
 	        CLI_OPT_POS("body-diameter-m", "D",
-	                    "body diameter in metres for the shaded band\n(default: from the runs' radius_body_diameters)",
+	                    "body diameter in metres for the shaded band\n(default: from the runs' "
+	                    "radius_body_diameters)",
 	                    &so.body_diameter_m),
 	        CLI_OPT_END};
 	const cli_opt *tables[] = {tab, NULL};
@@ -47,7 +51,7 @@ int cmd_merge(int argc, char **argv)
 	wl_report_release_caches();
 	if (rc != WL_OK)
 		return cli_fail("merge", &err);
-	printf("merge: %zu runs from %zu clip folders, %zu failed, %zu missing; see %s/report.html\n", res.runs,
-	       res.clips, res.failed, res.missing, argv[first]);
+	printf("merge: %zu runs from %zu clip folders, %zu failed, %zu missing; see %s/report.html\n",
+	       res.runs, res.clips, res.failed, res.missing, argv[first]);
 	return cli_finish("merge", res.failed || res.missing ? WL_EXIT_FAIL : WL_EXIT_OK);
 }
