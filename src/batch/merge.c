@@ -259,7 +259,8 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 				extra[nextra++] = p->r[i].meas.k[j];
 			}
 		}
-	qsort(extra, nextra, sizeof *extra, cmp_name);
+	if (nextra)
+		qsort(extra, nextra, sizeof *extra, cmp_name);
 	for (i = 0; i < nextra; i++)
 		ADDCOL(extra[i]);
 #undef ADDCOL
@@ -356,7 +357,8 @@ static wl_status list_clip_folders(const char *out_dir, char ***names, size_t *n
 		(*n)++;
 	}
 	closedir(d);
-	qsort(*names, *n, sizeof **names, cmp_cstr);
+	if (*n)
+		qsort(*names, *n, sizeof **names, cmp_cstr);
 	return WL_OK;
 }
 
