@@ -57,8 +57,10 @@ void batch_utc_now(char *buf, size_t cap);
  * set when only the manifest's parameter cells changed. */
 int batch_is_complete(const char *out_dir, const wl_batch_job *job, const char *hash,
                       const char *const *outputs, int *params_differ);
-/* Removes the temporary files that a killed worker left in dir. */
-void batch_remove_stale_tmp(const char *dir);
+/* Removes the temporary files that a killed writer left in dir: all of
+ * them (owner NULL or ""), or only those named for one owner
+ * (core/afile.h's wl_afile_set_owner), for folders that others write too. */
+void batch_remove_stale_tmp(const char *dir, const char *owner);
 /* Appends one line to the journal (fd < 0: none). */
 void batch_journal(int fd, const char *event, const char *clip, const char *hash, const char *msg);
 

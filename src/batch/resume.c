@@ -154,16 +154,18 @@ out:
 	return ok;
 }
 
-/* Leftovers of a worker that was killed: temporary files of afile. */
-void batch_remove_stale_tmp(const char *dir)
+/* Leftovers of a worker that was killed: temporary files of afile
+ * (".<name>.tmp-..."); with an owner tag, only ".<name>.tmp-<owner>-...". */
+void batch_remove_stale_tmp(const char *dir, const char *owner)
 {
 	DIR *d = opendir(dir);
 	struct dirent *e;
-	char path[PATH_MAX];
+	char path[PATH_MAX], pat[64];
 	if (!d)
 		return;
+	snprintf(pat, sizeof pat, ".tmp-%s%s", owner ? owner : "", owner && owner[0] ? "-" : "");
 	while ((e = readdir(d)))
-		if (e->d_name[0] == '.' && strstr(e->d_name, ".tmp-")) {
+		if (e->d_name[0] == '.' && strstr(e->d_name, pat)) {
 			snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
 			unlink(path);
 		}

@@ -74,7 +74,7 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	int p[2];
 	pid_t pid, parent = getpid();
 	size_t i;
-	batch_remove_stale_tmp(j->out_dir);
+	batch_remove_stale_tmp(j->out_dir, NULL); /* the clip's folder is this run's alone */
 	/* the old done marker goes first: from here the folder is not complete */
 	{
 		char path[PATH_MAX];
@@ -345,7 +345,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	int lock_fd = -1, have_m = 0, jobs;
 	size_t i, next = 0;
 	wl_status s;
-	char path[PATH_MAX];
+	char path[PATH_MAX], owner[32], old_owner[32] = "";
 
 	memset(res, 0, sizeof *res);
 	memset(&r, 0, sizeof r);
@@ -360,7 +360,16 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	snprintf(path, sizeof path, "%s/clips", o->out_dir);
 	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock_fd, err)))
 		return s;
-	batch_remove_stale_tmp(o->out_dir);
+	/* OUT's top is shared with the other shards (each writes batch.json):
+	 * name this run's temporaries and remove only those a killed run of the
+	 * same shard left, never another shard's half-written file */
+	snprintf(old_owner, sizeof old_owner, "%s", wl_afile_owner());
+	if (o->shard_count > 1)
+		snprintf(owner, sizeof owner, "shard%d", o->shard_index);
+	else
+		snprintf(owner, sizeof owner, "batch");
+	wl_afile_set_owner(owner);
+	batch_remove_stale_tmp(o->out_dir, owner);
 	if (o->manifest_path) {
 		if ((s = wl_manifest_load(o->manifest_path, &m, err)))
 			goto out;
@@ -457,8 +466,10 @@ out:
 	free(r.jobs);
 	if (r.journal_fd >= 0)
 		close(r.journal_fd);
-	if (lock_fd >= 0)
+	if (lock_fd >= 0) {
 		close(lock_fd);
+		wl_afile_set_owner(old_owner);
+	}
 	wl_cliplist_release(&cl);
 	wl_manifest_release(&m);
 	return s;

@@ -1,0 +1,180 @@
+/*
+ * test_shards.c: shards of one sweep side by side on one output folder, as
+ * the tasks of a cluster job array run them.
+ *
+ * - The race: 50 rounds of 3 shards released at the same instant (a pipe
+ *   that all of them wait on is closed) on a fresh OUT; no shard may fail.
+ *   Before the fix each shard deleted every temporary file at the top of OUT
+ *   on start, among them another shard's half-written batch.json, which
+ *   then failed "cannot write .../batch.json" (3 in 20 trials when found).
+ *
+ * The clip function is a test double that writes one small summary.json;
+ * it tests the runner, not the processing.
+ */
+#define _GNU_SOURCE
+#include <fcntl.h>
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <cmocka.h>
+
+#include "batch/batch.h"
+#include "core/afile.h"
+#include "core/csvio.h"
+#include "core/jsonio.h"
+
+static char root[256];
+
+static void mkfile(const char *rel, const char *text)
+{
+	char path[600], dir[600], *slash;
+	FILE *fp;
+	snprintf(path, sizeof path, "%s/%s", root, rel);
+	snprintf(dir, sizeof dir, "%s", path);
+	slash = strrchr(dir, '/');
+	*slash = '\0';
+	assert_int_equal(wl_mkdirs(dir, NULL), WL_OK);
+	fp = fopen(path, "w");
+	assert_non_null(fp);
+	fputs(text, fp);
+	fclose(fp);
+}
+
+static int setup(void **state)
+{
+	(void)state;
+	snprintf(root, sizeof root, "/tmp/wl_test_shards_XXXXXX");
+	return mkdtemp(root) ? 0 : -1;
+}
+
+static int teardown(void **state)
+{
+	char cmd[400];
+	(void)state;
+	snprintf(cmd, sizeof cmd, "rm -rf '%s'", root);
+	return system(cmd) == 0 ? 0 : -1;
+}
+
+static const char *const OUTPUTS[] = {"summary.json", NULL};
+
+/* A clip that is done at once: one run whose curvature is the clip's
+ * content. */
+static wl_status quick_clip(const wl_batch_job *job, void *ctx, wl_err *err)
+{
+	char *content = NULL, buf[256], path[4200];
+	size_t len = 0;
+	wl_status s;
+	(void)ctx;
+	if ((s = wl_read_file(job->clip_path, 4096, &content, &len, err)))
+		return s;
+	snprintf(buf, sizeof buf,
+	         "{\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"curvature_per_m\":%s,\"straight\":"
+	         "false}]}\n",
+	         content);
+	free(content);
+	snprintf(path, sizeof path, "%s/summary.json", job->out_dir);
+	return wl_write_file_atomic(path, buf, strlen(buf), err);
+}
+
+static void opts_for(wl_batch_opts *o, const char *clips, const char *out, const char *cal)
+{
+	memset(o, 0, sizeof *o);
+	o->clip_dir = clips;
+	o->out_dir = out;
+	o->cal_path = cal;
+	o->jobs = 1;
+	o->settings = "test settings v1";
+	o->outputs = OUTPUTS;
+	o->fn = quick_clip;
+}
+
+/* Starts shard k/n of the sweep in a child that waits until `gate` is
+ * closed; the child exits 0 when the shard ran and no clip failed, else 1
+ * after printing why. */
+static pid_t start_shard(const char *clips, const char *out, const char *cal, int k, int n, const int gate[2])
+{
+	pid_t pid;
+	fflush(NULL);
+	pid = fork();
+	if (pid == 0) {
+		wl_batch_opts o;
+		wl_batch_result res;
+		wl_err err;
+		char c;
+		close(gate[1]);
+		while (read(gate[0], &c, 1) > 0)
+			;
+		opts_for(&o, clips, out, cal);
+		o.shard_index = k;
+		o.shard_count = n;
+		wl_err_clear(&err);
+		if (wl_batch_run(&o, &res, &err) != WL_OK) {
+			fprintf(stderr, "shard %d/%d: %s\n", k, n, err.msg);
+			_exit(1);
+		}
+		if (res.failed || res.done != res.clips) {
+			fprintf(stderr, "shard %d/%d: %zu of %zu clips failed\n", k, n, res.failed,
+			        res.clips);
+			_exit(1);
+		}
+		_exit(0);
+	}
+	return pid;
+}
+
+static void test_shards_at_once(void **state)
+{
+	char clips[300], out[300], cal[300], rel[64];
+	int round, k, failures = 0;
+	wl_batch_result res;
+	wl_err err;
+	(void)state;
+	snprintf(clips, sizeof clips, "%s/race/clips", root);
+	snprintf(cal, sizeof cal, "%s/race/cal.json", root);
+	mkfile("race/cal.json", "{}\n");
+	for (k = 0; k < 6; k++) {
+		snprintf(rel, sizeof rel, "race/clips/c%d.mp4", k);
+		mkfile(rel, k == 5 ? "2.5" : "1.5");
+	}
+	for (round = 0; round < 50; round++) {
+		int gate[2];
+		pid_t pids[3];
+		snprintf(out, sizeof out, "%s/race/out%d", root, round);
+		assert_int_equal(pipe(gate), 0);
+		for (k = 0; k < 3; k++)
+			pids[k] = start_shard(clips, out, cal, k, 3, gate);
+		close(gate[0]);
+		close(gate[1]); /* all three start now */
+		for (k = 0; k < 3; k++) {
+			int st = 0;
+			assert_true(pids[k] > 0);
+			assert_int_equal(waitpid(pids[k], &st, 0), pids[k]);
+			if (!WIFEXITED(st) || WEXITSTATUS(st) != 0) {
+				failures++;
+				fprintf(stderr, "round %d: shard %d failed\n", round, k);
+			}
+		}
+	}
+	printf("50 rounds of 3 shards at once: %d shard failures\n", failures);
+	assert_int_equal(failures, 0);
+	/* and the last round merges into all six clips */
+	assert_int_equal(wl_batch_merge(out, NULL, &res, &err), WL_OK);
+	assert_int_equal(res.runs, 6);
+	assert_int_equal(res.failed + res.missing, 0);
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+	        cmocka_unit_test(test_shards_at_once),
+	};
+	return cmocka_run_group_tests(tests, setup, teardown);
+}
