@@ -99,6 +99,8 @@ typedef struct {
 	size_t nparams;        /* manifest columns other than clip */
 	const char *const *param_names;
 	const char *const *param_values;
+	int threads; /* decoder threads for this clip (wl_batch_opts.threads or the
+	                CPUs the process may use / jobs; at least 1) */
 	wl_batch_progress_fn progress;
 	void *progress_ctx;
 } wl_batch_job;
@@ -179,6 +181,12 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
  * over `settings`, the CAL.json's bytes and the plane height. */
 wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
                                  char out[17], wl_err *err);
+
+/* The resume rule's key of an input file: SHA-256 (hex) over its size and
+ * three 64 KiB blocks of its content (the first, one from the middle and
+ * the last; the whole file when it is smaller than 192 KiB).  Fast on
+ * large clips, blind to file times.  *size gets the size in bytes. */
+wl_status wl_batch_input_digest(const char *path, char hex[65], long long *size, wl_err *err);
 
 /* Writes clip.json into a clip folder (atomically): for commands that
  * process one clip outside a batch so that merge can pick it up. */

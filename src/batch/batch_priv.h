@@ -22,6 +22,8 @@ typedef struct {
 	char rel[PATH_MAX], clip_path[PATH_MAX], out_dir[PATH_MAX], cal[PATH_MAX];
 	char hash[17];
 	char hash_err[512];
+	char digest[65]; /* the input's content digest ("" until computed or unreadable) */
+	long long size;
 	const char **names, **values;
 	/* running state */
 	pid_t pid;
@@ -52,11 +54,15 @@ void batch_utc_now(char *buf, size_t cap);
 
 /* ---- resume.c: the resume rule and the journal ---- */
 
-/* Complete: clip.json says ok for this very input and these settings, and
- * every output exists and is no older than the input.  *params_differ is
- * set when only the manifest's parameter cells changed. */
-int batch_is_complete(const char *out_dir, const wl_batch_job *job, const char *hash,
-                      const char *const *outputs, int *params_differ);
+/* Complete: clip.json says ok for this very input (size and content digest,
+ * wl_batch_input_digest) and these settings, and every output exists.
+ * *params_differ is set when only the manifest's parameter cells changed. */
+int batch_is_complete(const char *out_dir, const wl_batch_job *job, const char *digest, long long size,
+                      const char *hash, const char *const *outputs, int *params_differ);
+/* Writes clip.json (see wl_batch_mark) with the input's digest and size as
+ * the caller computed them (digest "" or size < 0: not recorded). */
+wl_status batch_mark(const char *out_dir, const wl_batch_job *job, const char *digest, long long size,
+                     const char *settings_hash, int ok, const char *error, double elapsed_s, wl_err *err);
 /* Removes the temporary files that a killed writer left in dir: all of
  * them (owner NULL or ""), or only those named for one owner
  * (core/afile.h's wl_afile_set_owner), for folders that others write too. */

@@ -150,7 +150,7 @@ static void finish_job(runner *r, clipjob *j)
 		}
 	}
 	wl_err_clear(&err);
-	if (wl_batch_mark(j->out_dir, &j->job, j->hash, ok, msg, el, &err) != WL_OK) {
+	if (batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, ok, msg, el, &err) != WL_OK) {
 		ok = 0;
 		snprintf(msg, sizeof msg, "%s", err.msg);
 	}
@@ -423,17 +423,20 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 			if (j->hash_err[0]) {
 				wl_err e2;
 				wl_err_clear(&e2);
-				wl_batch_mark(j->out_dir, &j->job, "", 0, j->hash_err, 0, &e2);
+				batch_mark(j->out_dir, &j->job, "", -1, "", 0, j->hash_err, 0, &e2);
 				res->failed++;
 				r.finished++;
 				batch_journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
 				emit(&r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
 				continue;
 			}
-			if (!o->force &&
-			    batch_is_complete(j->out_dir, &j->job, j->hash, o->outputs, &differ)) {
+			if (wl_batch_input_digest(j->clip_path, j->digest, &j->size, NULL) != WL_OK)
+				j->digest[0] = '\0'; /* unreadable: the worker says why */
+			if (!o->force && batch_is_complete(j->out_dir, &j->job, j->digest, j->size, j->hash,
+			                                   o->outputs, &differ)) {
 				if (differ) /* new parameter cells only: no need to redo the clip */
-					wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
+					batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, 1, NULL,
+					           0, NULL);
 				res->skipped++;
 				r.finished++;
 				batch_journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
