@@ -138,7 +138,8 @@ typedef struct {
 	const char *out_dir;        /* OUT: created when missing */
 	const char *cal_path;       /* the default CAL.json (may be NULL if every row has `cal`) */
 	const char *manifest_path;  /* NULL: no manifest */
-	int jobs;                   /* parallel workers; <= 0: number of cores */
+	int jobs;                   /* parallel workers; <= 0: wl_batch_cpus() */
+	int threads;                /* decoder threads per clip; <= 0: wl_batch_cpus() / jobs, at least 1 */
 	int force;                  /* 1: redo complete clips */
 	const char *settings;       /* text naming every setting that changes outputs (hashed) */
 	const char *const *outputs; /* NULL-terminated file names each clip folder must hold */
@@ -158,7 +159,16 @@ typedef struct {
 	size_t missing;  /* manifest rows whose clip does not exist */
 	size_t unlisted; /* clips without a manifest row (processed) */
 	size_t runs;     /* rows of summary.csv with status ok */
+	int cpus;        /* CPUs this process may use (wl_batch_cpus) */
+	int jobs;        /* workers at once */
+	int threads;     /* decoder threads per clip */
 } wl_batch_result;
+
+/* The CPUs this process may use: those of its affinity mask
+ * (sched_getaffinity, which taskset and Slurm's task binding set), fewer
+ * when SLURM_CPUS_PER_TASK says so (Slurm without task binding leaves the
+ * mask whole), never the machine's count regardless of the allocation. */
+int wl_batch_cpus(void);
 
 /* Runs the batch: discovers clips, reads the manifest, skips complete clips,
  * runs the rest in up to o->jobs workers, records each in clip.json and the

@@ -46,6 +46,7 @@ typedef struct {
 	long frames_done;
 	double t_start, t_last_ev;
 	int journal_fd;
+	int threads; /* decoder threads of each clip */
 } runner;
 
 /* Monotonic seconds and the UTC time as "YYYY-MM-DDTHH:MM:SSZ". */

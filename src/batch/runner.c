@@ -18,6 +18,7 @@
 #include <limits.h>
 #include <math.h>
 #include <poll.h>
+#include <sched.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -211,10 +212,28 @@ static void pump(runner *r)
 
 /* ---- set-up ----------------------------------------------------------- */
 
-static int ncores(void)
+int wl_batch_cpus(void)
 {
-	long n = sysconf(_SC_NPROCESSORS_ONLN);
-	return n > 0 ? (int)n : 1;
+	cpu_set_t set;
+	const char *env = getenv("SLURM_CPUS_PER_TASK");
+	long n = 0;
+	CPU_ZERO(&set);
+	if (sched_getaffinity(0, sizeof set, &set) == 0)
+		n = CPU_COUNT(&set);
+	if (n <= 0) {
+		n = sysconf(_SC_NPROCESSORS_ONLN);
+		if (n <= 0)
+			n = 1;
+	}
+	/* Slurm without task binding (TaskPlugin=task/none) leaves the mask
+	 * whole: the allocation is then only in the environment */
+	if (env && env[0]) {
+		char *end;
+		long k = strtol(env, &end, 10);
+		if (*end == '\0' && k > 0 && k < n)
+			n = k;
+	}
+	return n > 4096 ? 4096 : (int)n;
 }
 
 static void resolve_cal(const wl_manifest *m, const char *cell, char *out, size_t cap)
@@ -267,6 +286,7 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	j->job.nparams = k;
 	j->job.param_names = j->names;
 	j->job.param_values = j->values;
+	j->job.threads = r->threads;
 	wl_err_clear(&herr);
 	if (!j->cal[0])
 		snprintf(j->hash_err, sizeof j->hash_err,
@@ -342,7 +362,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	wl_manifest m;
 	wl_cliplist cl = {0, NULL};
 	runner r;
-	int lock_fd = -1, have_m = 0, jobs;
+	int lock_fd = -1, have_m = 0, jobs, cpus;
 	size_t i, next = 0;
 	wl_status s;
 	char path[PATH_MAX], owner[32], old_owner[32] = "";
@@ -388,6 +408,14 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		goto out;
 	}
 	r.t_start = batch_now_s();
+	cpus = wl_batch_cpus();
+	jobs = o->jobs > 0 ? o->jobs : cpus;
+	if (jobs > MAX_JOBS)
+		jobs = MAX_JOBS;
+	r.threads = o->threads > 0 ? o->threads : (cpus / jobs > 1 ? cpus / jobs : 1);
+	res->jobs = jobs;
+	res->threads = r.threads;
+	res->cpus = cpus;
 	for (i = 0; i < cl.n; i++) {
 		wl_manifest_row *row = have_m ? (wl_manifest_row *)wl_manifest_find(&m, cl.rel[i]) : NULL;
 		if (row)
@@ -413,9 +441,6 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	if ((s = write_batch_json(o, have_m ? &m : NULL, err)))
 		goto out;
 	res->clips = r.njobs;
-	jobs = o->jobs > 0 ? o->jobs : ncores();
-	if (jobs > MAX_JOBS)
-		jobs = MAX_JOBS;
 	while (next < r.njobs || r.running) {
 		while (next < r.njobs && (int)r.running < jobs) {
 			clipjob *j = &r.jobs[next++];

@@ -34,7 +34,9 @@ static const char USAGE[] =
         "                        `plane_height_m` override per clip\n"
         "  --robots ROBOTS.csv   the robots (ids, plane heights, colours): see `wakeline track --help`\n"
         "  -o, --out OUTDIR      where everything goes (created)\n"
-        "  -j, --jobs N          clips processed at once (default: the number of cores)\n"
+        "  -j, --jobs N          clips processed at once (default: the CPUs this process\n"
+        "                        may use: its affinity mask, or SLURM_CPUS_PER_TASK)\n"
+        "  --threads N           decoder threads per clip (default: those CPUs / -j)\n"
         "  --force               redo clips that are complete\n"
         "  --x COLUMN            manifest column on the sweep plots' x axis\n"
         "  --group COLUMN        manifest column that groups the sweep points\n"
@@ -62,7 +64,6 @@ static const char *const OUTPUTS[] = {"raw.csv",     "clean.csv",  "clean.json",
 
 typedef struct {
 	const char *robots, *body;
-	char threads[16];
 } proc_opts;
 
 /* The last "error:" line of a log (else its last line), for the clip's
@@ -91,7 +92,7 @@ static void last_error(const char *log, char *out, size_t cap)
 static wl_status batch_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 {
 	const proc_opts *po = ctx;
-	char log[4200], plane[WL_NUMBUF], msg[400];
+	char log[4200], plane[WL_NUMBUF], msg[400], threads[16];
 	const char *args[24];
 	char *argv[24];
 	wl_afile *af = NULL;
@@ -109,8 +110,9 @@ static wl_status batch_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	dup2(fileno(wl_afile_fp(af)), STDOUT_FILENO);
 	dup2(fileno(wl_afile_fp(af)), STDERR_FILENO);
 	args[n++] = "process", args[n++] = job->clip_path, args[n++] = "--cal", args[n++] = job->cal_path;
+	snprintf(threads, sizeof threads, "%d", job->threads > 0 ? job->threads : 1);
 	args[n++] = "-o", args[n++] = job->out_dir, args[n++] = "-q", args[n++] = "--threads",
-	args[n++] = po->threads;
+	args[n++] = threads;
 	if (isfinite(job->plane_height_m))
 		args[n++] = "--plane-height-m", args[n++] = wl_fmt_g(plane, job->plane_height_m, 17);
 	if (po->robots)
@@ -190,19 +192,13 @@ static int parse_shard(const char *s, int *k, int *n)
 int cmd_batch(int argc, char **argv)
 {
 	static const struct option opts[] = {
-	        {"cal", required_argument, NULL, 'c'},
-	        {"manifest", required_argument, NULL, 'm'},
-	        {"robots", required_argument, NULL, 'r'},
-	        {"out", required_argument, NULL, 'o'},
-	        {"jobs", required_argument, NULL, 'j'},
-	        {"force", no_argument, NULL, 'f'},
-	        {"x", required_argument, NULL, 'x'},
-	        {"group", required_argument, NULL, 'g'},
-	        {"body-m", required_argument, NULL, 'b'},
-	        {"shard", required_argument, NULL, 's'},
-	        {"quiet", no_argument, NULL, 'q'},
-	        {"help", no_argument, NULL, 'h'},
-	        {NULL, 0, NULL, 0},
+	        {"cal", required_argument, NULL, 'c'},    {"manifest", required_argument, NULL, 'm'},
+	        {"robots", required_argument, NULL, 'r'}, {"out", required_argument, NULL, 'o'},
+	        {"jobs", required_argument, NULL, 'j'},   {"threads", required_argument, NULL, 'T'},
+	        {"force", no_argument, NULL, 'f'},        {"x", required_argument, NULL, 'x'},
+	        {"group", required_argument, NULL, 'g'},  {"body-m", required_argument, NULL, 'b'},
+	        {"shard", required_argument, NULL, 's'},  {"quiet", no_argument, NULL, 'q'},
+	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
 	};
 	wl_batch_opts o;
 	proc_opts po;
@@ -235,6 +231,12 @@ int cmd_batch(int argc, char **argv)
 				return cli_usage_error("batch",
 				                       "-j wants a number of clips from 1 to 256, not '%s'",
 				                       optarg);
+			break;
+		case 'T':
+			if (!cli_parse_int(optarg, &o.threads) || o.threads < 1 || o.threads > 64)
+				return cli_usage_error(
+				        "batch", "--threads wants a number of threads from 1 to 64, not '%s'",
+				        optarg);
 			break;
 		case 'f':
 			o.force = 1;
@@ -279,13 +281,10 @@ int cmd_batch(int argc, char **argv)
 	{
 		/* what changes the outputs besides the clip and its calibration */
 		char rh[17] = "";
-		long cores = sysconf(_SC_NPROCESSORS_ONLN);
-		int jobs = o.jobs > 0 ? o.jobs : (int)(cores > 0 ? cores : 1);
 		if (po.robots && wl_batch_settings_hash(NULL, po.robots, NAN, rh, &err) != WL_OK)
 			return cli_fail("batch", &err);
 		snprintf(settings, sizeof settings, "wakeline %s process; robots %s; body %s", WL_VERSION, rh,
 		         po.body ? po.body : "");
-		snprintf(po.threads, sizeof po.threads, "%ld", cores > jobs ? cores / jobs : 1L);
 	}
 	o.settings = settings;
 	o.outputs = OUTPUTS;
@@ -303,6 +302,9 @@ int cmd_batch(int argc, char **argv)
 	       "clips; "
 	       "%zu without a manifest row\n",
 	       res.clips, res.done, res.skipped, res.failed, res.missing, res.unlisted);
+	printf("batch: %d worker%s at once, %d decoder thread%s each (%d CPU%s this process may use)\n",
+	       res.jobs, res.jobs == 1 ? "" : "s", res.threads, res.threads == 1 ? "" : "s", res.cpus,
+	       res.cpus == 1 ? "" : "s");
 	if (o.shard_count > 1)
 		printf("batch: shard %d/%d finished; run `wakeline merge %s` when every shard is done\n",
 		       o.shard_index, o.shard_count, o.out_dir);

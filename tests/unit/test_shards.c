@@ -13,6 +13,7 @@
  */
 #define _GNU_SOURCE
 #include <fcntl.h>
+#include <sched.h>
 #include <setjmp.h>
 #include <stdarg.h>
 #include <stddef.h>
@@ -171,9 +172,44 @@ static void test_shards_at_once(void **state)
 	assert_int_equal(res.failed + res.missing, 0);
 }
 
+/* The CPUs a process may use follow its affinity mask and Slurm's
+ * allocation, not the machine (a child narrows its own mask). */
+static void test_cpus(void **state)
+{
+	pid_t pid;
+	int st = 0;
+	(void)state;
+	unsetenv("SLURM_CPUS_PER_TASK");
+	assert_true(wl_batch_cpus() >= 1);
+	pid = fork();
+	if (pid == 0) {
+		cpu_set_t one;
+		int ok = 1, all = wl_batch_cpus();
+		CPU_ZERO(&one);
+		CPU_SET(0, &one);
+		if (sched_setaffinity(0, sizeof one, &one) != 0)
+			_exit(2);
+		ok &= wl_batch_cpus() == 1;
+		/* more CPUs in the environment than in the mask: the mask wins */
+		setenv("SLURM_CPUS_PER_TASK", "8", 1);
+		ok &= wl_batch_cpus() == 1;
+		_exit(ok && all >= 1 ? 0 : 1);
+	}
+	assert_int_equal(waitpid(pid, &st, 0), pid);
+	assert_true(WIFEXITED(st));
+	assert_int_equal(WEXITSTATUS(st), 0);
+	/* fewer in the environment (Slurm without task binding): those */
+	setenv("SLURM_CPUS_PER_TASK", "1", 1);
+	assert_int_equal(wl_batch_cpus(), 1);
+	setenv("SLURM_CPUS_PER_TASK", "junk", 1);
+	assert_true(wl_batch_cpus() >= 1);
+	unsetenv("SLURM_CPUS_PER_TASK");
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
+	        cmocka_unit_test(test_cpus),
 	        cmocka_unit_test(test_shards_at_once),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
