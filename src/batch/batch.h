@@ -133,6 +133,15 @@ typedef struct {
 
 typedef void (*wl_batch_event_fn)(const wl_batch_event *ev, void *ctx);
 
+/* How a run keeps a second run of the same shard out of OUT. */
+typedef enum {
+	WL_BATCH_LOCK_FLOCK = 0, /* flock() on OUT/.lock-<shard> (released by the kernel when the run dies) */
+	WL_BATCH_LOCK_DIR,       /* a directory OUT/.lock-<shard>.d made with mkdir, for file systems
+	                            without flock; left behind by a killed run (taken over on the same
+	                            host when its pid is gone, else to be removed by hand) */
+	WL_BATCH_LOCK_NONE       /* no lock: the caller makes sure runs do not overlap */
+} wl_batch_lock_mode;
+
 typedef struct {
 	const char *clip_dir;       /* DIR: where the clips are */
 	const char *out_dir;        /* OUT: created when missing */
@@ -141,6 +150,7 @@ typedef struct {
 	int jobs;                   /* parallel workers; <= 0: wl_batch_cpus() */
 	int threads;                /* decoder threads per clip; <= 0: wl_batch_cpus() / jobs, at least 1 */
 	int force;                  /* 1: redo complete clips */
+	wl_batch_lock_mode lock;    /* default: flock */
 	const char *settings;       /* text naming every setting that changes outputs (hashed) */
 	const char *const *outputs; /* NULL-terminated file names each clip folder must hold */
 	wl_batch_clip_fn fn;

@@ -331,22 +331,135 @@ static wl_status write_batch_json(const wl_batch_opts *o, const wl_manifest *m, 
 	return s;
 }
 
-static wl_status take_lock(const wl_batch_opts *o, int *fd, wl_err *err)
+/* The lock of one shard (or of the unsharded batch) on OUT. */
+typedef struct {
+	int fd;                 /* flock: the open lock file, else -1 */
+	char dir[PATH_MAX + 8]; /* mkdir: the lock directory, else "" */
+} batch_lock;
+
+static void lock_name(const wl_batch_opts *o, char *buf, size_t cap, const char *suffix)
 {
-	char path[PATH_MAX];
-	snprintf(path, sizeof path, "%s/.lock-%d", o->out_dir, o->shard_count > 1 ? o->shard_index : 0);
-	*fd = open(path, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
-	if (*fd < 0)
+	snprintf(buf, cap, "%s/.lock-%d%s", o->out_dir, o->shard_count > 1 ? o->shard_index : 0, suffix);
+}
+
+static wl_status take_flock(const wl_batch_opts *o, batch_lock *l, wl_err *err)
+{
+	char path[PATH_MAX + 8];
+	lock_name(o, path, sizeof path, "");
+	l->fd = open(path, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
+	if (l->fd < 0)
 		return wl_err_set(err, WL_EIO, "cannot create '%s': %s: check that the folder is writable",
 		                  path, strerror(errno));
-	if (flock(*fd, LOCK_EX | LOCK_NB) != 0) {
-		close(*fd);
-		*fd = -1;
-		return wl_err_set(err, WL_EINVAL,
-		                  "another batch is writing into '%s': wait for it to end or use another -o",
-		                  o->out_dir);
+	if (flock(l->fd, LOCK_EX | LOCK_NB) != 0) {
+		int e = errno;
+		close(l->fd);
+		l->fd = -1;
+		if (e == EWOULDBLOCK)
+			return wl_err_set(
+			        err, WL_EINVAL,
+			        "another batch is writing into '%s' (it holds '%s'): wait for it to "
+			        "end or use another -o",
+			        o->out_dir, path);
+		return wl_err_set(err, WL_EIO,
+		                  "cannot lock '%s': flock failed: %s (errno %d): the file system may not "
+		                  "support locks; run with --lock dir (a lock directory made with mkdir) "
+		                  "or --lock none (no protection: then make sure no two runs of the same "
+		                  "shard write into '%s' at once)",
+		                  path, strerror(e), e, o->out_dir);
 	}
 	return WL_OK;
+}
+
+/* mkdir is atomic on every file system, network ones included; the
+ * directory holds "owner": host, pid and time.  A directory left by a
+ * killed run on this host (its pid gone) is taken over; one from another
+ * host is not: its run may still be going. */
+static wl_status take_dirlock(const wl_batch_opts *o, batch_lock *l, wl_err *err)
+{
+	char owner[PATH_MAX + 16], host[256] = "", line[512], utc[32];
+	int attempt;
+	lock_name(o, l->dir, sizeof l->dir, ".d");
+	snprintf(owner, sizeof owner, "%s/owner", l->dir);
+	gethostname(host, sizeof host - 1);
+	for (attempt = 0; attempt < 2; attempt++) {
+		char *text = NULL, ohost[256] = "", outc[64] = "";
+		size_t len;
+		long opid = 0;
+		if (mkdir(l->dir, 0755) == 0) {
+			batch_utc_now(utc, sizeof utc);
+			snprintf(line, sizeof line, "%s %ld %s\n", host, (long)getpid(), utc);
+			if (wl_write_file_atomic(owner, line, strlen(line), err) != WL_OK) {
+				rmdir(l->dir);
+				l->dir[0] = '\0';
+				return err ? err->code : WL_EIO;
+			}
+			return WL_OK;
+		}
+		if (errno != EEXIST) {
+			wl_status s = wl_err_set(err, WL_EIO, "cannot create the lock directory '%s': %s",
+			                         l->dir, strerror(errno));
+			l->dir[0] = '\0';
+			return s;
+		}
+		if (wl_read_file(owner, 4096, &text, &len, NULL) == WL_OK) {
+			if (sscanf(text, "%255s %ld %63s", ohost, &opid, outc) < 2)
+				ohost[0] = '\0';
+			free(text);
+		}
+		if (attempt == 0 && ohost[0] && strcmp(ohost, host) == 0 && opid > 0 &&
+		    kill((pid_t)opid, 0) != 0 && errno == ESRCH) {
+			unlink(owner); /* its run is gone: a killed batch on this host */
+			rmdir(l->dir);
+			continue;
+		}
+		{
+			char who[400];
+			wl_status s;
+			if (ohost[0])
+				snprintf(who, sizeof who, "host %s pid %ld%s%s", ohost, opid,
+				         outc[0] ? " since " : "", outc);
+			else
+				snprintf(who, sizeof who, "a run that did not say who it is");
+			s = wl_err_set(
+			        err, WL_EINVAL,
+			        "another batch is writing into '%s': the lock directory '%s' belongs to "
+			        "%s: wait for it to end; if it is no longer running (killed, node "
+			        "lost), remove that directory",
+			        o->out_dir, l->dir, who);
+			l->dir[0] = '\0';
+			return s;
+		}
+	}
+	l->dir[0] = '\0';
+	return wl_err_set(err, WL_EIO, "cannot take the lock directory for '%s'", o->out_dir);
+}
+
+static wl_status take_lock(const wl_batch_opts *o, batch_lock *l, wl_err *err)
+{
+	l->fd = -1;
+	l->dir[0] = '\0';
+	switch (o->lock) {
+	case WL_BATCH_LOCK_NONE:
+		return WL_OK;
+	case WL_BATCH_LOCK_DIR:
+		return take_dirlock(o, l, err);
+	default:
+		return take_flock(o, l, err);
+	}
+}
+
+static void drop_lock(batch_lock *l)
+{
+	if (l->fd >= 0)
+		close(l->fd);
+	l->fd = -1;
+	if (l->dir[0]) {
+		char owner[PATH_MAX + 16];
+		snprintf(owner, sizeof owner, "%s/owner", l->dir);
+		unlink(owner);
+		rmdir(l->dir);
+		l->dir[0] = '\0';
+	}
 }
 
 static void warn(runner *r, const char *fmt, const char *a, const char *b)
@@ -362,7 +475,8 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	wl_manifest m;
 	wl_cliplist cl = {0, NULL};
 	runner r;
-	int lock_fd = -1, have_m = 0, jobs, cpus;
+	int have_m = 0, jobs, cpus, locked = 0;
+	batch_lock lock;
 	size_t i, next = 0;
 	wl_status s;
 	char path[PATH_MAX], owner[32], old_owner[32] = "";
@@ -378,8 +492,9 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	if ((s = wl_mkdirs(o->out_dir, err)))
 		return s;
 	snprintf(path, sizeof path, "%s/clips", o->out_dir);
-	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock_fd, err)))
+	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock, err)))
 		return s;
+	locked = 1;
 	/* OUT's top is shared with the other shards (each writes batch.json):
 	 * name this run's temporaries and remove only those a killed run of the
 	 * same shard left, never another shard's half-written file */
@@ -494,8 +609,8 @@ out:
 	free(r.jobs);
 	if (r.journal_fd >= 0)
 		close(r.journal_fd);
-	if (lock_fd >= 0) {
-		close(lock_fd);
+	if (locked) {
+		drop_lock(&lock);
 		wl_afile_set_owner(old_owner);
 	}
 	wl_cliplist_release(&cl);

@@ -38,6 +38,13 @@ static const char USAGE[] =
         "                        may use: its affinity mask, or SLURM_CPUS_PER_TASK)\n"
         "  --threads N           decoder threads per clip (default: those CPUs / -j)\n"
         "  --force               redo clips that are complete\n"
+        "  --lock MODE           how a second run of the same shard is kept out of OUTDIR:\n"
+        "                        flock (default), dir (a lock directory made with mkdir,\n"
+        "                        for file systems without locks; a killed run leaves it:\n"
+        "                        remove it by hand when the run was on another host),\n"
+        "                        none (no protection: two runs of one shard at once\n"
+        "                        would spoil each other's clips)\n"
+        "  --no-lock             the same as --lock none\n"
         "  --x COLUMN            manifest column on the sweep plots' x axis\n"
         "  --group COLUMN        manifest column that groups the sweep points\n"
         "  --body-m D            body diameter (m): the wall cut, radius_body_diameters\n"
@@ -195,7 +202,8 @@ int cmd_batch(int argc, char **argv)
 	        {"cal", required_argument, NULL, 'c'},    {"manifest", required_argument, NULL, 'm'},
 	        {"robots", required_argument, NULL, 'r'}, {"out", required_argument, NULL, 'o'},
 	        {"jobs", required_argument, NULL, 'j'},   {"threads", required_argument, NULL, 'T'},
-	        {"force", no_argument, NULL, 'f'},        {"x", required_argument, NULL, 'x'},
+	        {"force", no_argument, NULL, 'f'},        {"lock", required_argument, NULL, 'L'},
+	        {"no-lock", no_argument, NULL, 'N'},      {"x", required_argument, NULL, 'x'},
 	        {"group", required_argument, NULL, 'g'},  {"body-m", required_argument, NULL, 'b'},
 	        {"shard", required_argument, NULL, 's'},  {"quiet", no_argument, NULL, 'q'},
 	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
@@ -240,6 +248,20 @@ int cmd_batch(int argc, char **argv)
 			break;
 		case 'f':
 			o.force = 1;
+			break;
+		case 'L':
+			if (strcmp(optarg, "flock") == 0)
+				o.lock = WL_BATCH_LOCK_FLOCK;
+			else if (strcmp(optarg, "dir") == 0)
+				o.lock = WL_BATCH_LOCK_DIR;
+			else if (strcmp(optarg, "none") == 0)
+				o.lock = WL_BATCH_LOCK_NONE;
+			else
+				return cli_usage_error("batch", "--lock wants flock, dir or none, not '%s'",
+				                       optarg);
+			break;
+		case 'N':
+			o.lock = WL_BATCH_LOCK_NONE;
 			break;
 		case 'x':
 			o.sweep.x_col = optarg;

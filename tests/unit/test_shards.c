@@ -21,6 +21,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/file.h>
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <unistd.h>
@@ -206,10 +207,78 @@ static void test_cpus(void **state)
 	unsetenv("SLURM_CPUS_PER_TASK");
 }
 
+/* Locks: flock refuses a second run of the same shard and names the lock;
+ * the lock directory (file systems without flock) refuses a live owner,
+ * names it, takes over one left by a dead run on this host, and is gone
+ * after the run; --lock none runs beside a held lock. */
+static void test_locks(void **state)
+{
+	char clips[300], out[300], cal[300], path[400], host[256] = "", text[400];
+	wl_batch_opts o;
+	wl_batch_result res;
+	wl_err err;
+	int fd;
+	(void)state;
+	snprintf(clips, sizeof clips, "%s/lock/clips", root);
+	snprintf(out, sizeof out, "%s/lock/out", root);
+	snprintf(cal, sizeof cal, "%s/lock/cal.json", root);
+	mkfile("lock/cal.json", "{}\n");
+	mkfile("lock/clips/a.mp4", "1.5");
+	mkfile("lock/clips/b.mp4", "2.5");
+	opts_for(&o, clips, out, cal);
+	o.shard_index = 1;
+	o.shard_count = 2;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	/* flock held by someone else */
+	snprintf(path, sizeof path, "%s/.lock-1", out);
+	fd = open(path, O_RDWR);
+	assert_true(fd >= 0);
+	assert_int_equal(flock(fd, LOCK_EX), 0);
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_EINVAL);
+	assert_non_null(strstr(err.msg, "another batch is writing into"));
+	assert_non_null(strstr(err.msg, ".lock-1"));
+	/* shard 0 has a lock of its own */
+	o.shard_index = 0;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	o.shard_index = 1;
+	o.lock = WL_BATCH_LOCK_NONE;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	close(fd);
+
+	/* the lock directory */
+	o.lock = WL_BATCH_LOCK_DIR;
+	gethostname(host, sizeof host - 1);
+	snprintf(path, sizeof path, "%s/.lock-1.d", out);
+	assert_int_equal(mkdir(path, 0755), 0);
+	snprintf(text, sizeof text, "other-node 4242 2026-01-01T00:00:00Z\n");
+	snprintf(path, sizeof path, "%s/.lock-1.d/owner", out);
+	assert_int_equal(wl_write_file_atomic(path, text, strlen(text), NULL), WL_OK);
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_EINVAL);
+	assert_non_null(strstr(err.msg, "host other-node pid 4242 since 2026-01-01T00:00:00Z"));
+	assert_non_null(strstr(err.msg, "remove that directory"));
+	/* a live pid on this host: refused too */
+	snprintf(text, sizeof text, "%s %ld 2026-01-01T00:00:00Z\n", host, (long)getppid());
+	assert_int_equal(wl_write_file_atomic(path, text, strlen(text), NULL), WL_OK);
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_EINVAL);
+	/* a dead pid on this host: taken over; and released after the run */
+	{
+		pid_t dead = fork();
+		if (dead == 0)
+			_exit(0);
+		waitpid(dead, NULL, 0);
+		snprintf(text, sizeof text, "%s %ld 2026-01-01T00:00:00Z\n", host, (long)dead);
+	}
+	assert_int_equal(wl_write_file_atomic(path, text, strlen(text), NULL), WL_OK);
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	snprintf(path, sizeof path, "%s/.lock-1.d", out);
+	assert_int_equal(access(path, F_OK), -1);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 	        cmocka_unit_test(test_cpus),
+	        cmocka_unit_test(test_locks),
 	        cmocka_unit_test(test_shards_at_once),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
