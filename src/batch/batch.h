@@ -188,6 +188,13 @@ int wl_batch_cpus(void);
  * if clips failed (see res). */
 wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err);
 
+/* What a run would do, without running: reads the manifest, finds the
+ * clips and writes OUT/batch.json (the sweep, o->shard_count shards) so
+ * that merge and `batch --status` know every clip even of shards that never
+ * start.  res gets clips (all of them), missing and unlisted.  For job
+ * submitters (`batch --slurm`). */
+wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *err);
+
 /* Rebuilds OUT/summary.csv, the sweep plots and OUT/report.html from
  * OUT/clips/<name>/clip.json and summary.json (and OUT/batch.json for the
  * manifest's missing clips and the batch's sweep options; fields set in

@@ -24,6 +24,7 @@ typedef struct {
 	char hash_err[512];
 	char digest[65]; /* the input's content digest ("" until computed or unreadable) */
 	long long size;
+	char *wclip, *wout, *wcal; /* the paths the worker sees: relative to OUT, its folder */
 	const char **names, **values;
 	/* running state */
 	pid_t pid;
@@ -47,6 +48,7 @@ typedef struct {
 	double t_start, t_last_ev;
 	int journal_fd;
 	int threads; /* decoder threads of each clip */
+	char out_abs[PATH_MAX], clip_dir_abs[PATH_MAX];
 } runner;
 
 /* Monotonic seconds and the UTC time as "YYYY-MM-DDTHH:MM:SSZ". */
@@ -70,6 +72,35 @@ wl_status batch_mark(const char *out_dir, const wl_batch_job *job, const char *d
 void batch_remove_stale_tmp(const char *dir, const char *owner);
 /* Appends one line to the journal (fd < 0: none). */
 void batch_journal(int fd, const char *event, const char *clip, const char *hash, const char *msg);
+
+/* ---- sweep.c: batch.json, shard-K.json, the calibration check ---- */
+
+/* SHA-256 of a CAL.json ("" for none). */
+wl_status batch_cal_digest(const char *cal_path, char hex[65], wl_err *err);
+/* Writes OUT/batch.json: the sweep (paths relative to out_abs), every clip
+ * of cl in shard order and the manifest rows not found (row->found). */
+wl_status batch_sweep_save(const wl_batch_opts *o, const char *out_abs, const wl_manifest *m,
+                           const wl_cliplist *cl, const char *cal_sha256, wl_err *err);
+/* Writes OUT/shard-K.json (K = 0 unsharded). */
+wl_status batch_shard_record(const wl_batch_opts *o, const char *cal_sha256, size_t nclips, int finished,
+                             const char *started_utc, wl_err *err);
+/* Refuses (WL_EINVAL, saying what to do) a shard whose calibration differs
+ * from the sweep's or another shard's, unless the manifest assigns
+ * calibrations per clip or o->force. */
+wl_status batch_check_cal(const wl_batch_opts *o, const char *cal_sha256, wl_err *err);
+
+/* ---- paths.c: paths stored relative to OUT ---- */
+
+/* The absolute form of a path: realpath when it exists, else cwd + path
+ * with "." and ".." resolved.  0 or -1. */
+int batch_abspath(const char *path, char *out, size_t cap);
+/* target (absolute) relative to the folder base (absolute): "a/b",
+ * "../x/y", "." for base itself. */
+void batch_relpath(const char *base, const char *target, char *out, size_t cap);
+/* path (as typed, relative to the current folder) relative to base_abs,
+ * newly allocated (free()); "" for NULL or ""; the path as typed when it
+ * cannot be resolved; NULL when out of memory. */
+char *batch_rel_to(const char *base_abs, const char *path);
 
 /* ---- worker.c: the worker side of the pipe ---- */
 

@@ -97,6 +97,9 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	}
 	if (pid == 0) {
 		close(p[0]);
+		/* the worker's paths are relative to OUT (see prepare_job) */
+		if (chdir(r->out_abs) != 0)
+			_exit(4);
 		batch_worker_main(r, j, p[1], parent);
 	}
 	close(p[1]);
@@ -246,11 +249,33 @@ static void resolve_cal(const wl_manifest *m, const char *cell, char *out, size_
 	snprintf(out, cap, "%.*s/%s", (int)(slash - m->path), m->path, cell);
 }
 
-static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, clipjob *j, wl_err *err)
+/* The manifest's rows sorted by clip, for lookups in O(log n). */
+static int cmp_row(const void *a, const void *b)
+{
+	return strcmp((*(wl_manifest_row *const *)a)->clip, (*(wl_manifest_row *const *)b)->clip);
+}
+
+static wl_manifest_row *find_row(wl_manifest_row **idx, size_t n, const char *clip)
+{
+	size_t lo = 0, hi = n;
+	while (lo < hi) {
+		size_t mid = lo + (hi - lo) / 2;
+		int c = strcmp(idx[mid]->clip, clip);
+		if (c == 0)
+			return idx[mid];
+		if (c < 0)
+			lo = mid + 1;
+		else
+			hi = mid;
+	}
+	return NULL;
+}
+
+static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_row *row, const char *rel,
+                             clipjob *j, wl_err *err)
 {
 	const wl_batch_opts *o = r->o;
-	const wl_manifest_row *row = m ? wl_manifest_find(m, rel) : NULL;
-	char name[PATH_MAX];
+	char name[PATH_MAX], abs[PATH_MAX * 2];
 	size_t i, k = 0;
 	double plane = NAN;
 	wl_err herr;
@@ -259,8 +284,8 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	j->fd = -1;
 	snprintf(j->rel, sizeof j->rel, "%s", rel);
 	snprintf(j->clip_path, sizeof j->clip_path, "%s/%s", o->clip_dir, rel);
-	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir,
-	         wl_batch_clip_name(rel, name, sizeof name));
+	wl_batch_clip_name(rel, name, sizeof name);
+	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir, name);
 	snprintf(j->cal, sizeof j->cal, "%s", o->cal_path ? o->cal_path : "");
 	if (m) {
 		j->names = calloc(m->ncols ? m->ncols : 1, sizeof *j->names);
@@ -278,10 +303,20 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 		if (row && m->c_plane >= 0 && row->values[m->c_plane][0])
 			wl_parse_double(row->values[m->c_plane], &plane);
 	}
-	j->job.clip_path = j->clip_path;
+	/* the worker runs in OUT and sees every path relative to it, so that
+	 * what it writes (clean.json, summary.json, messages) names no folder
+	 * of this node */
+	snprintf(abs, sizeof abs, "%s/%s", r->clip_dir_abs, rel);
+	j->wclip = batch_rel_to(r->out_abs, abs);
+	j->wout = malloc(strlen(name) + 8);
+	j->wcal = batch_rel_to(r->out_abs, j->cal);
+	if (!j->wclip || !j->wout || !j->wcal)
+		return wl_err_set(err, WL_ENOMEM, "out of memory preparing the batch");
+	sprintf(j->wout, "clips/%s", name);
+	j->job.clip_path = j->wclip;
 	j->job.clip_rel = j->rel;
-	j->job.out_dir = j->out_dir;
-	j->job.cal_path = j->cal[0] ? j->cal : NULL;
+	j->job.out_dir = j->wout;
+	j->job.cal_path = j->wcal[0] ? j->wcal : NULL;
 	j->job.plane_height_m = plane;
 	j->job.nparams = k;
 	j->job.param_names = j->names;
@@ -294,41 +329,6 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	else if (wl_batch_settings_hash(o->settings, j->cal, plane, j->hash, &herr) != WL_OK)
 		snprintf(j->hash_err, sizeof j->hash_err, "%s: %s", rel, herr.msg);
 	return wl_mkdirs(j->out_dir, err);
-}
-
-static wl_status write_batch_json(const wl_batch_opts *o, const wl_manifest *m, wl_err *err)
-{
-	char path[PATH_MAX], msg[PATH_MAX + 256];
-	cJSON *root = cJSON_CreateObject(), *miss;
-	wl_status s;
-	size_t i;
-	if (!root)
-		return wl_err_set(err, WL_ENOMEM, "out of memory writing batch.json");
-	cJSON_AddStringToObject(root, "clip_dir", o->clip_dir);
-	cJSON_AddStringToObject(root, "manifest", o->manifest_path ? o->manifest_path : "");
-	cJSON_AddStringToObject(root, "cal", o->cal_path ? o->cal_path : "");
-	cJSON_AddStringToObject(root, "x_col", o->sweep.x_col ? o->sweep.x_col : "");
-	cJSON_AddStringToObject(root, "group_col", o->sweep.group_col ? o->sweep.group_col : "");
-	cJSON_AddNumberToObject(root, "body_diameter_m", o->sweep.body_diameter_m);
-	miss = cJSON_AddArrayToObject(root, "missing");
-	for (i = 0; m && miss && i < m->nrows; i++) {
-		cJSON *e;
-		if (m->rows[i].found)
-			continue;
-		e = cJSON_CreateObject();
-		if (!e)
-			break;
-		snprintf(msg, sizeof msg,
-		         "%s:%ld: clip '%s' is not under '%s': check the name in the manifest", m->path,
-		         m->rows[i].line, m->rows[i].clip, o->clip_dir);
-		cJSON_AddStringToObject(e, "clip", m->rows[i].clip);
-		cJSON_AddStringToObject(e, "error", msg);
-		cJSON_AddItemToArray(miss, e);
-	}
-	snprintf(path, sizeof path, "%s/batch.json", o->out_dir);
-	s = wl_json_save(path, root, err);
-	cJSON_Delete(root);
-	return s;
 }
 
 /* The lock of one shard (or of the unsharded batch) on OUT. */
@@ -470,23 +470,93 @@ static void warn(runner *r, const char *fmt, const char *a, const char *b)
 	emit(r, WL_BATCH_EV_WARN, NULL, msg);
 }
 
+/* The set-up both a run and a plan need: OUT and its absolute path, the
+ * manifest, the clips (rows found marked), the manifest's sorted index. */
+typedef struct {
+	wl_manifest m;
+	int have_m;
+	wl_cliplist cl;
+	wl_manifest_row **idx;
+	char out_abs[PATH_MAX], clip_dir_abs[PATH_MAX];
+	char cal_sha256[65];
+} setup;
+
+static void setup_release(setup *su)
+{
+	free(su->idx);
+	wl_cliplist_release(&su->cl);
+	wl_manifest_release(&su->m);
+}
+
+static wl_status setup_sweep(const wl_batch_opts *o, setup *su, wl_err *err)
+{
+	wl_status s;
+	size_t i;
+	if (o->manifest_path) {
+		if ((s = wl_manifest_load(o->manifest_path, &su->m, err)))
+			return s;
+		su->have_m = 1;
+		su->idx = malloc((su->m.nrows ? su->m.nrows : 1) * sizeof *su->idx);
+		if (!su->idx)
+			return wl_err_set(err, WL_ENOMEM, "out of memory reading the manifest");
+		for (i = 0; i < su->m.nrows; i++)
+			su->idx[i] = &su->m.rows[i];
+		qsort(su->idx, su->m.nrows, sizeof *su->idx, cmp_row);
+	}
+	if ((s = wl_batch_discover(o->clip_dir, o->out_dir, &su->cl, err)))
+		return s;
+	for (i = 0; su->have_m && i < su->cl.n; i++) {
+		wl_manifest_row *row = find_row(su->idx, su->m.nrows, su->cl.rel[i]);
+		if (row)
+			row->found = 1;
+	}
+	if (batch_abspath(o->out_dir, su->out_abs, sizeof su->out_abs) != 0 ||
+	    batch_abspath(o->clip_dir, su->clip_dir_abs, sizeof su->clip_dir_abs) != 0)
+		return wl_err_set(err, WL_EIO, "cannot resolve the folders '%s' and '%s': %s", o->out_dir,
+		                  o->clip_dir, strerror(errno));
+	return batch_cal_digest(o->cal_path, su->cal_sha256, err);
+}
+
+wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
+{
+	setup su;
+	wl_status s;
+	char path[PATH_MAX];
+	size_t i;
+	memset(res, 0, sizeof *res);
+	memset(&su, 0, sizeof su);
+	wl_manifest_init(&su.m);
+	snprintf(path, sizeof path, "%s/clips", o->out_dir);
+	if ((s = wl_mkdirs(o->out_dir, err)) || (s = wl_mkdirs(path, err)) || (s = setup_sweep(o, &su, err)))
+		goto out;
+	res->clips = su.cl.n;
+	for (i = 0; su.have_m && i < su.m.nrows; i++)
+		res->missing += !su.m.rows[i].found;
+	for (i = 0; su.have_m && i < su.cl.n; i++)
+		res->unlisted += !find_row(su.idx, su.m.nrows, su.cl.rel[i]);
+	s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err);
+out:
+	setup_release(&su);
+	return s;
+}
+
 wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
 {
-	wl_manifest m;
-	wl_cliplist cl = {0, NULL};
+	setup su;
 	runner r;
-	int have_m = 0, jobs, cpus, locked = 0;
+	int jobs, cpus, locked = 0;
 	batch_lock lock;
-	size_t i, next = 0;
+	size_t i, next = 0, mine = 0;
 	wl_status s;
-	char path[PATH_MAX], owner[32], old_owner[32] = "";
+	char path[PATH_MAX], owner[32], old_owner[32] = "", started[32];
 
 	memset(res, 0, sizeof *res);
 	memset(&r, 0, sizeof r);
+	memset(&su, 0, sizeof su);
 	r.o = o;
 	r.res = res;
 	r.journal_fd = -1;
-	wl_manifest_init(&m);
+	wl_manifest_init(&su.m);
 	if (!o->fn)
 		return wl_err_set(err, WL_EINVAL, "no clip function given to the batch");
 	if ((s = wl_mkdirs(o->out_dir, err)))
@@ -495,6 +565,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock, err)))
 		return s;
 	locked = 1;
+	batch_utc_now(started, sizeof started);
 	/* OUT's top is shared with the other shards (each writes batch.json):
 	 * name this run's temporaries and remove only those a killed run of the
 	 * same shard left, never another shard's half-written file */
@@ -505,21 +576,22 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		snprintf(owner, sizeof owner, "batch");
 	wl_afile_set_owner(owner);
 	batch_remove_stale_tmp(o->out_dir, owner);
-	if (o->manifest_path) {
-		if ((s = wl_manifest_load(o->manifest_path, &m, err)))
-			goto out;
-		have_m = 1;
-	}
-	if ((s = wl_batch_discover(o->clip_dir, o->out_dir, &cl, err)))
+	if ((s = setup_sweep(o, &su, err)))
 		goto out;
+	if (!(su.have_m && su.m.c_cal >= 0) && (s = batch_check_cal(o, su.cal_sha256, err)))
+		goto out;
+	snprintf(r.out_abs, sizeof r.out_abs, "%s", su.out_abs);
+	snprintf(r.clip_dir_abs, sizeof r.clip_dir_abs, "%s", su.clip_dir_abs);
 	if (o->shard_count > 1)
 		snprintf(path, sizeof path, "%s/journal-%d.log", o->out_dir, o->shard_index);
 	else
 		snprintf(path, sizeof path, "%s/journal.log", o->out_dir);
 	r.journal_fd = open(path, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
-	r.jobs = calloc(cl.n ? cl.n : 1, sizeof *r.jobs);
+	for (i = 0; i < su.cl.n; i++)
+		mine += !(o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index);
+	r.jobs = calloc(mine ? mine : 1, sizeof *r.jobs);
 	if (!r.jobs) {
-		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", cl.n);
+		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", mine);
 		goto out;
 	}
 	r.t_start = batch_now_s();
@@ -531,29 +603,32 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	res->jobs = jobs;
 	res->threads = r.threads;
 	res->cpus = cpus;
-	for (i = 0; i < cl.n; i++) {
-		wl_manifest_row *row = have_m ? (wl_manifest_row *)wl_manifest_find(&m, cl.rel[i]) : NULL;
-		if (row)
-			row->found = 1;
+	for (i = 0; i < su.cl.n; i++) {
+		const wl_manifest_row *row = su.have_m ? find_row(su.idx, su.m.nrows, su.cl.rel[i]) : NULL;
 		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
 			continue;
-		if (have_m && !row) {
+		if (su.have_m && !row) {
 			res->unlisted++;
 			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
-			     cl.rel[i], o->manifest_path);
+			     su.cl.rel[i], o->manifest_path);
 		}
-		if ((s = prepare_job(&r, have_m ? &m : NULL, cl.rel[i], &r.jobs[r.njobs], err)))
+		if ((s = prepare_job(&r, su.have_m ? &su.m : NULL, row, su.cl.rel[i], &r.jobs[r.njobs],
+		                     err))) {
+			r.njobs++; /* what it allocated is freed below */
 			goto out;
+		}
 		r.njobs++;
 	}
-	for (i = 0; have_m && i < m.nrows; i++) {
-		if (m.rows[i].found)
+	for (i = 0; su.have_m && i < su.m.nrows; i++) {
+		if (su.m.rows[i].found)
 			continue;
 		res->missing++;
-		snprintf(path, sizeof path, "%s:%ld", m.path, m.rows[i].line);
-		warn(&r, "%s: clip '%s' is not under the clip folder: check the name", path, m.rows[i].clip);
+		snprintf(path, sizeof path, "%s:%ld", su.m.path, su.m.rows[i].line);
+		warn(&r, "%s: clip '%s' is not under the clip folder: check the name", path,
+		     su.m.rows[i].clip);
 	}
-	if ((s = write_batch_json(o, have_m ? &m : NULL, err)))
+	if ((s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err)) ||
+	    (s = batch_shard_record(o, su.cal_sha256, r.njobs, 0, started, err)))
 		goto out;
 	res->clips = r.njobs;
 	while (next < r.njobs || r.running) {
@@ -588,6 +663,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		}
 		pump(&r);
 	}
+	batch_shard_record(o, su.cal_sha256, r.njobs, 1, started, NULL);
 	if (o->shard_count <= 1) {
 		wl_batch_result mr;
 		if ((s = wl_batch_merge(o->out_dir, &o->sweep, &mr, err)))
@@ -605,6 +681,9 @@ out:
 	for (i = 0; i < r.njobs; i++) {
 		free(r.jobs[i].names);
 		free(r.jobs[i].values);
+		free(r.jobs[i].wclip);
+		free(r.jobs[i].wout);
+		free(r.jobs[i].wcal);
 	}
 	free(r.jobs);
 	if (r.journal_fd >= 0)
@@ -613,7 +692,6 @@ out:
 		drop_lock(&lock);
 		wl_afile_set_owner(old_owner);
 	}
-	wl_cliplist_release(&cl);
-	wl_manifest_release(&m);
+	setup_release(&su);
 	return s;
 }

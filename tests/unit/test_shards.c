@@ -29,6 +29,7 @@
 #include <cmocka.h>
 
 #include "batch/batch.h"
+#include "batch/batch_priv.h"
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
@@ -274,11 +275,92 @@ static void test_locks(void **state)
 	assert_int_equal(access(path, F_OK), -1);
 }
 
+/* Paths stored in OUT are relative to it. */
+static void test_relpath(void **state)
+{
+	const char *cases[][3] = {
+	        {"/a/b", "/a/b/c/d", "c/d"},
+	        {"/a/b", "/a/x/y", "../x/y"},
+	        {"/a/b", "/a/b", "."},
+	        {"/", "/x/y", "x/y"},
+	        {"/a/b/c", "/", "../../.."},
+	        {"/scratch/out", "/home/u/clips/a.mp4", "../../home/u/clips/a.mp4"},
+	        {"/a/bc", "/a/b/x", "../b/x"},
+	};
+	char out[256];
+	size_t i;
+	(void)state;
+	for (i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+		batch_relpath(cases[i][0], cases[i][1], out, sizeof out);
+		assert_string_equal(out, cases[i][2]);
+	}
+	assert_int_equal(batch_abspath("/x/./y/../z//w", out, sizeof out), 0);
+	assert_string_equal(out, "/x/z/w");
+}
+
+/* A shard whose CAL.json differs from the sweep's is refused with a
+ * message that says what to do; --force and per-clip calibrations pass;
+ * nothing under OUT names a folder of this machine. */
+static void test_cal_check(void **state)
+{
+	char clips[300], out[300], cal[300], cal2[300], man[300], cmd[900];
+	wl_batch_opts o;
+	wl_batch_result res;
+	wl_err err;
+	FILE *p;
+	int hits = -1;
+	(void)state;
+	snprintf(clips, sizeof clips, "%s/cal/clips", root);
+	snprintf(out, sizeof out, "%s/cal/out", root);
+	snprintf(cal, sizeof cal, "%s/cal/cal.json", root);
+	snprintf(cal2, sizeof cal2, "%s/cal/other.json", root);
+	snprintf(man, sizeof man, "%s/cal/m.csv", root);
+	mkfile("cal/cal.json", "{\"v\": 1}\n");
+	mkfile("cal/other.json", "{\"v\": 2}\n");
+	mkfile("cal/clips/a.mp4", "1.5");
+	mkfile("cal/clips/b.mp4", "2.5");
+	mkfile("cal/clips/c.mp4", "3.5");
+	opts_for(&o, clips, out, cal);
+	o.shard_count = 3;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	o.shard_index = 1;
+	o.cal_path = cal2;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_EINVAL);
+	assert_non_null(strstr(err.msg, "shard 1/3: the calibration"));
+	assert_non_null(strstr(err.msg, "give every shard the same CAL.json"));
+	o.cal_path = cal;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	/* the sweep's record was written by shard 1 with the same calibration;
+	 * shard 0's record disagrees with another calibration for shard 2 */
+	o.shard_index = 2;
+	o.cal_path = cal2;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_EINVAL);
+	o.force = 1;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	o.force = 0;
+	/* a manifest with a cal column assigns calibrations per clip */
+	mkfile("cal/m.csv", "clip,cal\na.mp4,cal.json\nb.mp4,other.json\nc.mp4,cal.json\n");
+	o.manifest_path = man;
+	o.shard_index = 0;
+	o.cal_path = cal;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	o.shard_index = 1;
+	o.cal_path = cal2;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	/* no absolute path of this machine in what OUT holds */
+	snprintf(cmd, sizeof cmd, "grep -rl '%s' '%s' | wc -l", root, out);
+	p = popen(cmd, "r");
+	assert_non_null(p);
+	assert_int_equal(fscanf(p, "%d", &hits), 1);
+	pclose(p);
+	assert_int_equal(hits, 0);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-	        cmocka_unit_test(test_cpus),
-	        cmocka_unit_test(test_locks),
+	        cmocka_unit_test(test_cpus),           cmocka_unit_test(test_locks),
+	        cmocka_unit_test(test_relpath),        cmocka_unit_test(test_cal_check),
 	        cmocka_unit_test(test_shards_at_once),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
