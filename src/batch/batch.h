@@ -204,6 +204,20 @@ wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *er
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
                          wl_err *err);
 
+/* Called by wl_batch_merge_report for every clip that failed (status
+ * "failed") or has no result (status "missing"), with its message. */
+typedef void (*wl_batch_problem_fn)(const char *clip, const char *status, const char *msg, void *ctx);
+
+/* wl_batch_merge, telling on_problem (may be NULL) about each failed or
+ * missing clip.  A clip is missing when OUT/batch.json lists it (the
+ * sweep as planned or as any shard saw it) and its folder has no
+ * clip.json, when its folder has no clip.json (an interrupted run), or
+ * when a manifest row names a clip that does not exist; each gets a row in
+ * summary.csv and report.html saying which shard to run again.  Failed and
+ * missing clips are counted in res; they are not an error of the merge. */
+wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts *sweep,
+                                wl_batch_problem_fn on_problem, void *ctx, wl_batch_result *res, wl_err *err);
+
 /* Settings hash of the resume rule (FNV-1a, 64 bits, as 16 hex digits):
  * over `settings`, the CAL.json's bytes and the plane height. */
 wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
