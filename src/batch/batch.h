@@ -218,6 +218,42 @@ typedef void (*wl_batch_problem_fn)(const char *clip, const char *status, const 
 wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts *sweep,
                                 wl_batch_problem_fn on_problem, void *ctx, wl_batch_result *res, wl_err *err);
 
+/* ---- status ---------------------------------------------------------------- */
+
+typedef enum {
+	WL_BATCH_DONE = 0,    /* clip.json says ok */
+	WL_BATCH_FAILED,      /* clip.json says failed: msg */
+	WL_BATCH_RUNNING,     /* started (journal) and its shard's lock is held */
+	WL_BATCH_INTERRUPTED, /* started, not ended, and no run holds its shard's lock */
+	WL_BATCH_NOT_STARTED, /* no marker, never started */
+	WL_BATCH_MISSING,     /* a manifest row names a clip that does not exist: msg */
+	WL_BATCH_NSTATES
+} wl_batch_state;
+
+typedef struct {
+	char *clip; /* relative to the clip folder */
+	wl_batch_state state;
+	int shard; /* its shard (0 unsharded), -1 for missing clips */
+	char *msg; /* failed / missing: the message; else NULL */
+} wl_batch_clip_status;
+
+typedef struct {
+	size_t n;
+	wl_batch_clip_status *e; /* the sweep's clips in shard order, then the missing ones */
+	int shard_count;
+	int *shard_running; /* per shard: 1 when a run holds its lock */
+	size_t count[WL_BATCH_NSTATES];
+} wl_batch_status_report;
+
+/* Where the sweep in out_dir stands: every clip of batch.json with its
+ * state, from the clip folders' done markers, the journals' last event per
+ * clip and the shards' locks.  Only reads; works while shards run (on any
+ * node that sees OUT; "running" needs locks that work across nodes, else
+ * such clips show as interrupted).  wl_batch_status_release frees st. */
+wl_status wl_batch_status(const char *out_dir, wl_batch_status_report *st, wl_err *err);
+void wl_batch_status_release(wl_batch_status_report *st);
+const char *wl_batch_state_name(wl_batch_state s);
+
 /* Settings hash of the resume rule (FNV-1a, 64 bits, as 16 hex digits):
  * over `settings`, the CAL.json's bytes and the plane height. */
 wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,

@@ -53,6 +53,10 @@ static const char USAGE[] =
         "                        sorted list, for job arrays; run `wakeline merge OUTDIR`\n"
         "                        when all shards are done\n"
         "  -q, --quiet           no progress line\n"
+        "  --status OUTDIR       where the sweep in OUTDIR stands (also while shards run):\n"
+        "                        clips done, failed (with their messages), running,\n"
+        "                        interrupted and not started; exit 0 when every clip is\n"
+        "                        done, else 1\n"
         "  -h, --help            this text\n"
         "\n"
         "Exit status: 0 every clip done, 1 a clip failed, a manifest row names a\n"
@@ -190,6 +194,48 @@ static void on_event(const wl_batch_event *ev, void *ctx)
 	                    ev->fps, eta);
 }
 
+/* `batch --status OUT`: where the sweep stands. */
+static int show_status(const char *out)
+{
+	wl_batch_status_report st;
+	wl_err err;
+	size_t i;
+	int k, shown = 0;
+	wl_err_clear(&err);
+	if (wl_batch_status(out, &st, &err) != WL_OK)
+		return cli_fail("batch", &err);
+	printf("%s: %zu clips in %d shard%s: %zu done, %zu failed, %zu running, %zu interrupted, %zu not "
+	       "started; %zu manifest rows name missing clips\n",
+	       out, st.n - st.count[WL_BATCH_MISSING], st.shard_count, st.shard_count == 1 ? "" : "s",
+	       st.count[WL_BATCH_DONE], st.count[WL_BATCH_FAILED], st.count[WL_BATCH_RUNNING],
+	       st.count[WL_BATCH_INTERRUPTED], st.count[WL_BATCH_NOT_STARTED], st.count[WL_BATCH_MISSING]);
+	for (i = 0; i < st.n; i++) {
+		const wl_batch_clip_status *e = &st.e[i];
+		if (e->state == WL_BATCH_DONE)
+			continue;
+		if (e->shard >= 0 && st.shard_count > 1)
+			printf("%-11s %s (shard %d/%d)%s%s\n", wl_batch_state_name(e->state), e->clip,
+			       e->shard, st.shard_count, e->msg ? ": " : "", e->msg ? e->msg : "");
+		else
+			printf("%-11s %s%s%s\n", wl_batch_state_name(e->state), e->clip, e->msg ? ": " : "",
+			       e->msg ? e->msg : "");
+	}
+	if (st.shard_count > 1) {
+		printf("shards running now:");
+		for (k = 0; k < st.shard_count; k++)
+			if (st.shard_running[k]) {
+				printf(" %d", k);
+				shown = 1;
+			}
+		printf("%s\n", shown ? "" : " none");
+	}
+	k = st.count[WL_BATCH_DONE] == st.n;
+	wl_batch_status_release(&st);
+	return cli_finish("batch", k ? WL_EXIT_OK : WL_EXIT_FAIL);
+}
+
+enum { O_SLURM = 1000, O_SHARDS, O_PARTITION, O_TIME, O_CPUS, O_MEM, O_ACCOUNT, O_LINES, O_MTIME, O_DRY };
+
 static int parse_shard(const char *s, int *k, int *n)
 {
 	char tail;
@@ -198,23 +244,44 @@ static int parse_shard(const char *s, int *k, int *n)
 
 int cmd_batch(int argc, char **argv)
 {
+	/* clang-format off */
 	static const struct option opts[] = {
-	        {"cal", required_argument, NULL, 'c'},    {"manifest", required_argument, NULL, 'm'},
-	        {"robots", required_argument, NULL, 'r'}, {"out", required_argument, NULL, 'o'},
-	        {"jobs", required_argument, NULL, 'j'},   {"threads", required_argument, NULL, 'T'},
-	        {"force", no_argument, NULL, 'f'},        {"lock", required_argument, NULL, 'L'},
-	        {"no-lock", no_argument, NULL, 'N'},      {"x", required_argument, NULL, 'x'},
-	        {"group", required_argument, NULL, 'g'},  {"body-m", required_argument, NULL, 'b'},
-	        {"shard", required_argument, NULL, 's'},  {"quiet", no_argument, NULL, 'q'},
-	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
+	        {"cal", required_argument, NULL, 'c'},
+	        {"manifest", required_argument, NULL, 'm'},
+	        {"robots", required_argument, NULL, 'r'},
+	        {"out", required_argument, NULL, 'o'},
+	        {"jobs", required_argument, NULL, 'j'},
+	        {"threads", required_argument, NULL, 'T'},
+	        {"force", no_argument, NULL, 'f'},
+	        {"lock", required_argument, NULL, 'L'},
+	        {"no-lock", no_argument, NULL, 'N'},
+	        {"x", required_argument, NULL, 'x'},
+	        {"group", required_argument, NULL, 'g'},
+	        {"body-m", required_argument, NULL, 'b'},
+	        {"shard", required_argument, NULL, 's'},
+	        {"quiet", no_argument, NULL, 'q'},
+	        {"status", no_argument, NULL, 'S'},
+	        {"slurm", no_argument, NULL, O_SLURM},
+	        {"shards", required_argument, NULL, O_SHARDS},
+	        {"partition", required_argument, NULL, O_PARTITION},
+	        {"time", required_argument, NULL, O_TIME},
+	        {"cpus-per-task", required_argument, NULL, O_CPUS},
+	        {"mem", required_argument, NULL, O_MEM},
+	        {"account", required_argument, NULL, O_ACCOUNT},
+	        {"sbatch-lines", required_argument, NULL, O_LINES},
+	        {"merge-time", required_argument, NULL, O_MTIME},
+	        {"dry-run", no_argument, NULL, O_DRY},
+	        {"help", no_argument, NULL, 'h'},
+	        {NULL, 0, NULL, 0},
 	};
+	/* clang-format on */
 	wl_batch_opts o;
 	proc_opts po;
 	wl_batch_result res;
 	char settings[2048];
 	ui u;
 	wl_err err;
-	int c;
+	int c, status = 0;
 
 	memset(&o, 0, sizeof o);
 	memset(&u, 0, sizeof u);
@@ -284,12 +351,20 @@ int cmd_batch(int argc, char **argv)
 		case 'q':
 			u.quiet = 1;
 			break;
+		case 'S':
+			status = 1;
+			break;
 		case 'h':
 			fputs(USAGE, stdout);
 			return cli_finish("batch", WL_EXIT_OK);
 		default:
 			return cli_usage_error("batch", "unknown option");
 		}
+	}
+	if (status) {
+		if (argc - optind > 1 || (argc - optind == 1 && o.out_dir) || (argc == optind && !o.out_dir))
+			return cli_usage_error("batch", "--status wants one OUTDIR (batch --status OUTDIR)");
+		return show_status(o.out_dir ? o.out_dir : argv[optind]);
 	}
 	if (argc - optind != 1)
 		return cli_usage_error("batch", "wants one DIR (the folder of clips)");
