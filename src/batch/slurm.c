@@ -214,6 +214,9 @@ wl_status wl_slurm_write(const wl_slurm_opts *o, char *shard_script, char *merge
 	       "The sweep's merge: summary.csv and report.html from every shard's clips; it lists the "
 	       "clips that failed or are missing and then exits 1.",
 	       name, "merge-%j.out", o->merge_time ? o->merge_time : o->time, 1, NULL, 0, extra);
+	/* a dependency that can never be met (the array's id unknown) cancels
+	 * the merge instead of leaving it pending for ever */
+	fprintf(fp, "#SBATCH --kill-on-invalid-dep=yes\n");
 	fprintf(fp, "#\n# Submitted with --dependency=afterany:<the array's job id>, so that it runs\n"
 	            "# when every task has ended, also when some failed (afterok would never run).\n");
 	fprintf(fp, "set -eu\nexec ");
