@@ -75,6 +75,8 @@ void batch_journal(int fd, const char *event, const char *clip, const char *hash
 
 /* ---- sweep.c: batch.json, shard-K.json, the calibration check ---- */
 
+/* 1 when the manifest has a `cal` column: calibrations assigned per clip. */
+int batch_manifest_has_cal(const wl_manifest *m);
 /* SHA-256 of a CAL.json ("" for none). */
 wl_status batch_cal_digest(const char *cal_path, char hex[65], wl_err *err);
 /* Writes OUT/batch.json: the sweep (paths relative to out_abs), every clip

@@ -239,16 +239,6 @@ int wl_batch_cpus(void)
 	return n > 4096 ? 4096 : (int)n;
 }
 
-static void resolve_cal(const wl_manifest *m, const char *cell, char *out, size_t cap)
-{
-	const char *slash;
-	if (cell[0] == '/' || !m->path || !(slash = strrchr(m->path, '/'))) {
-		snprintf(out, cap, "%s", cell);
-		return;
-	}
-	snprintf(out, cap, "%.*s/%s", (int)(slash - m->path), m->path, cell);
-}
-
 /* The manifest's rows sorted by clip, for lookups in O(log n). */
 static int cmp_row(const void *a, const void *b)
 {
@@ -293,15 +283,15 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_
 		if (!j->names || !j->values)
 			return wl_err_set(err, WL_ENOMEM, "out of memory preparing the batch");
 		for (i = 0; i < m->ncols; i++) {
-			if ((int)i == m->c_clip)
+			if (wl_manifest_is_clip_col(m, i))
 				continue;
 			j->names[k] = m->cols[i];
 			j->values[k++] = row ? row->values[i] : "";
 		}
-		if (row && m->c_cal >= 0 && row->values[m->c_cal][0])
-			resolve_cal(m, row->values[m->c_cal], j->cal, sizeof j->cal);
-		if (row && m->c_plane >= 0 && row->values[m->c_plane][0])
-			wl_parse_double(row->values[m->c_plane], &plane);
+		if (row && row->opts.cal)
+			snprintf(j->cal, sizeof j->cal, "%s", row->opts.cal);
+		if (row)
+			plane = row->opts.plane_height_m;
 	}
 	/* the worker runs in OUT and sees every path relative to it, so that
 	 * what it writes (clean.json, summary.json, messages) names no folder
@@ -578,7 +568,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	batch_remove_stale_tmp(o->out_dir, owner);
 	if ((s = setup_sweep(o, &su, err)))
 		goto out;
-	if (!(su.have_m && su.m.c_cal >= 0) && (s = batch_check_cal(o, su.cal_sha256, err)))
+	if (!(su.have_m && batch_manifest_has_cal(&su.m)) && (s = batch_check_cal(o, su.cal_sha256, err)))
 		goto out;
 	snprintf(r.out_abs, sizeof r.out_abs, "%s", su.out_abs);
 	snprintf(r.clip_dir_abs, sizeof r.clip_dir_abs, "%s", su.clip_dir_abs);

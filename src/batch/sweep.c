@@ -28,6 +28,15 @@
 #include "core/jsonio.h"
 #include "core/sha256.h"
 
+int batch_manifest_has_cal(const wl_manifest *m)
+{
+	size_t i;
+	for (i = 0; m && i < m->ncols; i++)
+		if (strcmp(m->cols[i], "cal") == 0)
+			return 1;
+	return 0;
+}
+
 wl_status batch_cal_digest(const char *cal_path, char hex[65], wl_err *err)
 {
 	uint64_t n;
@@ -56,7 +65,7 @@ wl_status batch_sweep_save(const wl_batch_opts *o, const char *out_abs, const wl
 	cJSON_AddStringToObject(root, "manifest", man);
 	cJSON_AddStringToObject(root, "cal", cal);
 	cJSON_AddStringToObject(root, "cal_sha256", cal_sha256 ? cal_sha256 : "");
-	cJSON_AddBoolToObject(root, "cal_per_clip", m && m->c_cal >= 0);
+	cJSON_AddBoolToObject(root, "cal_per_clip", batch_manifest_has_cal(m));
 	cJSON_AddStringToObject(root, "x_col", o->sweep.x_col ? o->sweep.x_col : "");
 	cJSON_AddStringToObject(root, "group_col", o->sweep.group_col ? o->sweep.group_col : "");
 	cJSON_AddNumberToObject(root, "body_diameter_m", o->sweep.body_diameter_m);

@@ -79,7 +79,9 @@ static wl_status quick_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	if ((s = wl_read_file(job->clip_path, 4096, &content, &len, err)))
 		return s;
 	snprintf(buf, sizeof buf,
-	         "{\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"curvature_per_m\":%s,\"straight\":"
+	         "{\"format\":\"wakeline "
+	         "summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"curvature_per_m\":%s,"
+	         "\"straight\":"
 	         "false}]}\n",
 	         content);
 	free(content);
