@@ -129,9 +129,27 @@ static void header(FILE *fp, const wl_slurm_opts *o, const char *what, const cha
 		fprintf(fp, "# extra lines from %s\n%s", o->extra_path, extra);
 }
 
-static wl_status write_script(const char *path, const char *text, wl_err *err)
+/* "exec 'PROGRAM' CMD 'ARG'..." without the line's end. */
+static void put_exec(FILE *fp, const char *program, const char *cmd, const char *const *args, size_t n)
 {
-	wl_status s = wl_write_file_atomic(path, text, strlen(text), err);
+	size_t i;
+	fputs("exec ", fp);
+	put_word(fp, program);
+	fprintf(fp, " %s", cmd);
+	for (i = 0; i < n; i++) {
+		fputc(' ', fp);
+		put_word(fp, args[i]);
+	}
+}
+
+/* Closes the memory stream fp (its text in *buf) and writes the text to
+ * path, executable. */
+static wl_status finish_script(FILE *fp, char **buf, const char *path, wl_err *err)
+{
+	wl_status s;
+	if (fclose(fp) != 0)
+		return wl_err_set(err, WL_ENOMEM, "out of memory writing the job scripts");
+	s = wl_write_file_atomic(path, *buf, strlen(*buf), err);
 	if (!s && chmod(path, 0755) != 0)
 		return wl_err_set(err, WL_EIO, "cannot make '%s' executable: %s", path, strerror(errno));
 	return s;
@@ -142,7 +160,7 @@ wl_status wl_slurm_write(const wl_slurm_opts *o, char *shard_script, char *merge
 {
 	char dir[PATH_MAX], name[256];
 	char *extra = NULL, *buf = NULL;
-	size_t len = 0, i;
+	size_t len = 0;
 	FILE *fp = NULL;
 	wl_status s;
 	const char *prefix = o->job_name ? o->job_name : "wakeline";
@@ -183,22 +201,12 @@ wl_status wl_slurm_write(const wl_slurm_opts *o, char *shard_script, char *merge
 	fprintf(fp, "if [ \"$TASK\" -ge \"$SHARDS\" ]; then\n"
 	            "\techo \"task $TASK: this sweep has $SHARDS shards (0 to $((SHARDS - 1)))\" >&2\n"
 	            "\texit 2\nfi\n");
-	fputs("exec ", fp);
-	put_word(fp, o->program);
-	fputs(" batch", fp);
-	for (i = 0; i < o->nbatch_args; i++) {
-		fputc(' ', fp);
-		put_word(fp, o->batch_args[i]);
-	}
+	put_exec(fp, o->program, "batch", o->batch_args, o->nbatch_args);
 	fputs(" --shard \"$TASK/$SHARDS\"\n", fp);
-	if (fclose(fp) != 0) {
-		fp = NULL;
-		s = wl_err_set(err, WL_ENOMEM, "out of memory writing the job scripts");
-		goto out;
-	}
-	fp = NULL;
 	snprintf(shard_script, cap, "%s/slurm/shards.sbatch", o->out_dir);
-	if ((s = write_script(shard_script, buf, err)))
+	s = finish_script(fp, &buf, shard_script, err);
+	fp = NULL;
+	if (s)
 		goto out;
 	free(buf);
 	buf = NULL;
@@ -219,22 +227,12 @@ wl_status wl_slurm_write(const wl_slurm_opts *o, char *shard_script, char *merge
 	fprintf(fp, "#SBATCH --kill-on-invalid-dep=yes\n");
 	fprintf(fp, "#\n# Submitted with --dependency=afterany:<the array's job id>, so that it runs\n"
 	            "# when every task has ended, also when some failed (afterok would never run).\n");
-	fprintf(fp, "set -eu\nexec ");
-	put_word(fp, o->program);
-	fputs(" merge", fp);
-	for (i = 0; i < o->nmerge_args; i++) {
-		fputc(' ', fp);
-		put_word(fp, o->merge_args[i]);
-	}
+	fprintf(fp, "set -eu\n");
+	put_exec(fp, o->program, "merge", o->merge_args, o->nmerge_args);
 	fputc('\n', fp);
-	if (fclose(fp) != 0) {
-		fp = NULL;
-		s = wl_err_set(err, WL_ENOMEM, "out of memory writing the job scripts");
-		goto out;
-	}
-	fp = NULL;
 	snprintf(merge_script, cap, "%s/slurm/merge.sbatch", o->out_dir);
-	s = write_script(merge_script, buf, err);
+	s = finish_script(fp, &buf, merge_script, err);
+	fp = NULL;
 out:
 	if (fp)
 		fclose(fp);
