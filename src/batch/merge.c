@@ -270,7 +270,8 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 				extra[nextra++] = p->r[i].meas.k[j];
 			}
 		}
-	qsort(extra, nextra, sizeof *extra, cmp_name);
+	if (nextra) /* qsort wants a real array even for none */
+		qsort(extra, nextra, sizeof *extra, cmp_name);
 	for (i = 0; i < nextra; i++)
 		ADDCOL(extra[i]);
 #undef ADDCOL
@@ -439,7 +440,8 @@ wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts 
 		s = wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
 		goto out;
 	}
-	qsort(names, nn, sizeof *names, cmp_cstr);
+	if (nn)
+		qsort(names, nn, sizeof *names, cmp_cstr);
 	/* the sweep: every clip it holds, even of shards that never ran */
 	snprintf(path, sizeof path, "%s/batch.json", out_dir);
 	if (wl_json_load(path, &bj, NULL) == WL_OK) {

@@ -452,11 +452,14 @@ static void drop_lock(batch_lock *l)
 	}
 }
 
-static void warn(runner *r, const char *fmt, const char *a, const char *b)
+/* A warning about the manifest: on screen with its path as typed, in the
+ * journal (a file in OUT) with its path relative to OUT. */
+static void warn(runner *r, const char *fmt, const char *a, const char *manifest, const char *manifest_rel)
 {
 	char msg[PATH_MAX * 2];
-	snprintf(msg, sizeof msg, fmt, a, b);
+	snprintf(msg, sizeof msg, fmt, a, manifest_rel);
 	batch_journal(r->journal_fd, "warn", NULL, NULL, msg);
+	snprintf(msg, sizeof msg, fmt, a, manifest);
 	emit(r, WL_BATCH_EV_WARN, NULL, msg);
 }
 
@@ -539,6 +542,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	size_t i, next = 0, mine = 0;
 	wl_status s;
 	char path[PATH_MAX], owner[32], old_owner[32] = "", started[32];
+	char *man_rel = NULL;
 
 	memset(res, 0, sizeof *res);
 	memset(&r, 0, sizeof r);
@@ -568,6 +572,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	batch_remove_stale_tmp(o->out_dir, owner);
 	if ((s = setup_sweep(o, &su, err)))
 		goto out;
+	man_rel = batch_rel_to(su.out_abs, o->manifest_path);
 	if (!(su.have_m && batch_manifest_has_cal(&su.m)) && (s = batch_check_cal(o, su.cal_sha256, err)))
 		goto out;
 	snprintf(r.out_abs, sizeof r.out_abs, "%s", su.out_abs);
@@ -600,7 +605,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		if (su.have_m && !row) {
 			res->unlisted++;
 			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
-			     su.cl.rel[i], o->manifest_path);
+			     su.cl.rel[i], o->manifest_path, man_rel ? man_rel : "");
 		}
 		if ((s = prepare_job(&r, su.have_m ? &su.m : NULL, row, su.cl.rel[i], &r.jobs[r.njobs],
 		                     err))) {
@@ -613,9 +618,9 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		if (su.m.rows[i].found)
 			continue;
 		res->missing++;
-		snprintf(path, sizeof path, "%s:%ld", su.m.path, su.m.rows[i].line);
-		warn(&r, "%s: clip '%s' is not under the clip folder: check the name", path,
-		     su.m.rows[i].clip);
+		snprintf(path, sizeof path, "%s' on line %ld", su.m.rows[i].clip, su.m.rows[i].line);
+		warn(&r, "clip '%s of the manifest '%s' is not under the clip folder: check the name", path,
+		     su.m.path, man_rel ? man_rel : "");
 	}
 	if ((s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err)) ||
 	    (s = batch_shard_record(o, su.cal_sha256, r.njobs, 0, started, err)))
@@ -682,6 +687,7 @@ out:
 		drop_lock(&lock);
 		wl_afile_set_owner(old_owner);
 	}
+	free(man_rel);
 	setup_release(&su);
 	return s;
 }
