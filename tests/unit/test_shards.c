@@ -69,7 +69,7 @@ static int teardown(void **state)
 static const char *const OUTPUTS[] = {"summary.json", NULL};
 
 /* A clip that is done at once: one run whose curvature is the clip's
- * content. */
+ * content; a clip whose content starts with FAIL fails. */
 static wl_status quick_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 {
 	char *content = NULL, buf[256], path[4200];
@@ -78,6 +78,11 @@ static wl_status quick_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	(void)ctx;
 	if ((s = wl_read_file(job->clip_path, 4096, &content, &len, err)))
 		return s;
+	if (strncmp(content, "FAIL", 4) == 0) {
+		free(content);
+		return wl_err_set(err, WL_EDECODE, "%s: frame 3: invalid data: re-encode the clip",
+		                  job->clip_rel);
+	}
 	snprintf(buf, sizeof buf,
 	         "{\"format\":\"wakeline "
 	         "summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"curvature_per_m\":%s,"
@@ -358,12 +363,83 @@ static void test_cal_check(void **state)
 	assert_int_equal(hits, 0);
 }
 
+/* batch --status: done and failed from the markers, running while the
+ * shard's lock is held, interrupted when it is not, not started without a
+ * journal line, and the manifest's missing clips. */
+static void test_status(void **state)
+{
+	char clips[300], out[300], cal[300], man[300], path[400], line[200];
+	wl_batch_opts o;
+	wl_batch_result res;
+	wl_batch_status_report st;
+	wl_err err;
+	size_t i;
+	int fd;
+	(void)state;
+	snprintf(clips, sizeof clips, "%s/st/clips", root);
+	snprintf(out, sizeof out, "%s/st/out", root);
+	snprintf(cal, sizeof cal, "%s/st/cal.json", root);
+	snprintf(man, sizeof man, "%s/st/m.csv", root);
+	mkfile("st/cal.json", "{}\n");
+	mkfile("st/clips/a.mp4", "1.5");
+	mkfile("st/clips/b.mp4", "2.5");
+	mkfile("st/clips/c.mp4", "FAIL");
+	mkfile("st/clips/d.mp4", "3.5");
+	mkfile("st/m.csv", "clip,gain\na.mp4,1\nb.mp4,2\nc.mp4,3\nd.mp4,4\ngone.mp4,5\n");
+	opts_for(&o, clips, out, cal);
+	o.manifest_path = man;
+	o.shard_count = 2;
+	/* shard 0: a.mp4 (ok) and c.mp4 (failed) */
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	/* shard 1 started b.mp4 and holds its lock; d.mp4 not yet */
+	snprintf(path, sizeof path, "%s/journal-1.log", out);
+	snprintf(line, sizeof line, "2026-01-01T00:00:00Z\tstart\tb.mp4\t0\t\n");
+	assert_int_equal(wl_write_file_atomic(path, line, strlen(line), NULL), WL_OK);
+	snprintf(path, sizeof path, "%s/.lock-1", out);
+	fd = open(path, O_RDWR | O_CREAT, 0644);
+	assert_true(fd >= 0);
+	assert_int_equal(flock(fd, LOCK_EX), 0);
+	assert_int_equal(wl_batch_status(out, &st, &err), WL_OK);
+	assert_int_equal(st.shard_count, 2);
+	assert_int_equal(st.n, 5);
+	assert_int_equal(st.count[WL_BATCH_DONE], 1);
+	assert_int_equal(st.count[WL_BATCH_FAILED], 1);
+	assert_int_equal(st.count[WL_BATCH_RUNNING], 1);
+	assert_int_equal(st.count[WL_BATCH_NOT_STARTED], 1);
+	assert_int_equal(st.count[WL_BATCH_MISSING], 1);
+	assert_true(st.shard_running[1] && !st.shard_running[0]);
+	for (i = 0; i < st.n; i++) {
+		if (strcmp(st.e[i].clip, "b.mp4") == 0)
+			assert_int_equal(st.e[i].state, WL_BATCH_RUNNING);
+		if (strcmp(st.e[i].clip, "c.mp4") == 0) {
+			assert_int_equal(st.e[i].state, WL_BATCH_FAILED);
+			assert_non_null(strstr(st.e[i].msg, "frame 3: invalid data"));
+		}
+		if (strcmp(st.e[i].clip, "gone.mp4") == 0)
+			assert_non_null(strstr(st.e[i].msg, "m.csv:6"));
+	}
+	wl_batch_status_release(&st);
+	/* the shard died: its started clip is interrupted */
+	close(fd);
+	assert_int_equal(wl_batch_status(out, &st, &err), WL_OK);
+	assert_int_equal(st.count[WL_BATCH_RUNNING], 0);
+	assert_int_equal(st.count[WL_BATCH_INTERRUPTED], 1);
+	wl_batch_status_release(&st);
+	/* shard 1 runs: every clip but the failed one is done */
+	o.shard_index = 1;
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	assert_int_equal(wl_batch_status(out, &st, &err), WL_OK);
+	assert_int_equal(st.count[WL_BATCH_DONE], 3);
+	assert_int_equal(st.count[WL_BATCH_INTERRUPTED] + st.count[WL_BATCH_RUNNING], 0);
+	wl_batch_status_release(&st);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-	        cmocka_unit_test(test_cpus),           cmocka_unit_test(test_locks),
-	        cmocka_unit_test(test_relpath),        cmocka_unit_test(test_cal_check),
-	        cmocka_unit_test(test_shards_at_once),
+	        cmocka_unit_test(test_cpus),    cmocka_unit_test(test_locks),
+	        cmocka_unit_test(test_relpath), cmocka_unit_test(test_cal_check),
+	        cmocka_unit_test(test_status),  cmocka_unit_test(test_shards_at_once),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
 }
