@@ -9,6 +9,7 @@
 #define _GNU_SOURCE
 #include "batch/batch.h"
 
+#include <errno.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -85,7 +86,11 @@ void batch_worker_result(const wl_batch_job *job, int64_t frames, size_t runs)
 		        runs);
 }
 
-/* Runs the clip with its options; the log is committed whatever happens. */
+/* Runs the clip with its options; the log is committed whatever happens.
+ * The options are resolved first (a manifest cell's ROBOTS.csv is relative
+ * to where the batch was started); then the worker moves into OUT, where
+ * every path of the job is relative to, so that what it writes
+ * (clean.json, summary.json, messages) names no folder of this node. */
 static wl_status run_clip(runner *r, clipjob *j, worker *w, wl_err *err)
 {
 	wl_diag d = {w_warn, w_progress, w};
@@ -93,16 +98,22 @@ static wl_status run_clip(runner *r, clipjob *j, worker *w, wl_err *err)
 	wl_afile *log = NULL;
 	char path[PATH_MAX];
 	wl_status st, ls;
-	snprintf(path, sizeof path, "%s/%s", j->out_dir, BATCH_LOG);
 	if (!opts)
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", j->rel);
-	if ((st = wl_afile_open(path, &log, err))) {
+	st = wl_batch_clip_opts(r->o->proc, j->job.row ? &j->job.row->opts : NULL, opts, err);
+	if (!st && opts->decode_threads <= 0)
+		opts->decode_threads = j->job.threads;
+	if (chdir(r->out_abs) != 0) {
 		free(opts);
-		return st;
+		return wl_err_set(err, WL_EIO, "cannot enter '%s': %s", r->out_abs, strerror(errno));
+	}
+	snprintf(path, sizeof path, "%s/%s", j->job.out_dir, BATCH_LOG);
+	if ((ls = wl_afile_open(path, &log, st ? NULL : err))) {
+		free(opts);
+		return st ? st : ls;
 	}
 	w->log = wl_afile_fp(log);
-	fprintf(w->log, "wakeline %s process %s\n", WL_VERSION, j->clip_path);
-	st = wl_batch_clip_opts(r->o->proc, j->job.row ? &j->job.row->opts : NULL, opts, err);
+	fprintf(w->log, "wakeline %s process %s\n", WL_VERSION, j->job.clip_path);
 	j->job.opts = opts;
 	j->job.diag = &d;
 	if (!st)

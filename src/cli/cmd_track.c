@@ -55,8 +55,11 @@ int cmd_track(int argc, char **argv)
 	ro.queue_frames = 4;
 	ro.decode_threads = s.p.decode_threads;
 	wl_err_clear(&err);
-	if (wl_calib_load(cal_path, &cal, &err) != WL_OK)
+	wl_calib_init(&cal);
+	if (wl_calib_load(cal_path, &cal, &err) != WL_OK) {
+		wl_calib_release(&cal);
 		return cli_fail("track", &err);
+	}
 	ro.diag = cli_diag_init(&cd, "track", quiet);
 	if (!isnan(s.p.track.plane_height_m) && cal.cam.water_depth_m > 0 &&
 	    s.p.track.plane_height_m < cal.cam.water_depth_m)
@@ -65,6 +68,7 @@ int cmd_track(int argc, char **argv)
 		             s.p.track.plane_height_m, cal.cam.water_depth_m);
 	rc = wl_track_run(&ro, &s.p.track, &cal, cal_path, &sum, &err);
 	cli_diag_done(&cd);
+	wl_calib_release(&cal);
 	if (rc != WL_OK)
 		return cli_fail("track", &err);
 	if (!quiet)
