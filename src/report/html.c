@@ -18,6 +18,7 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/numfmt.h"
+#include "formats/summary.h"
 #include "report/page.h"
 #include "wl_version.h"
 
@@ -72,9 +73,11 @@ int wl_report_runs_col(const wl_report_runs *t, const char *name)
  * (the radius interval is 1 / the curvature interval); "" when unknown. */
 static void interval_texts(const wl_report_runs *t, size_t i, char *kpm, char *rpm)
 {
-	double k = runnum(t, i, "curvature_per_m"), lo = runnum(t, i, "curvature_ci95_per_m_lo");
-	double hi = runnum(t, i, "curvature_ci95_per_m_hi"), r = runnum(t, i, "radius_m");
-	int cs = wl_report_runs_col(t, "straight");
+	double k = runnum(t, i, wl_summary_col_name(WL_SUMCOL_CURVATURE));
+	double lo = runnum(t, i, wl_summary_col_name(WL_SUMCOL_CURVATURE_LO));
+	double hi = runnum(t, i, wl_summary_col_name(WL_SUMCOL_CURVATURE_HI));
+	double r = runnum(t, i, wl_summary_col_name(WL_SUMCOL_RADIUS));
+	int cs = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_STRAIGHT));
 	kpm[0] = rpm[0] = '\0';
 	if (isfinite(k))
 		wl_numfmt_pm(kpm, k, 0.5 * (hi - lo));

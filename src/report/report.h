@@ -157,6 +157,32 @@ void wl_report_release_caches(void);
 
 /* ---- per-run plots ------------------------------------------------------ */
 
+/* One segment's rows, and what the measure stage computes from them that
+ * the run page shows (the yaw spectrum, the circle's residuals).  report
+ * and measure are stages of one layer and include no one another, so the
+ * function that computes it comes from a caller above both, in the scene:
+ * wl_process_analyse_run (pipeline/pipeline.h) runs the measure module's
+ * own functions, so the page shows what the summary's numbers come from. */
+typedef struct {
+	size_t n;
+	const double *t_s, *x_m, *y_m, *heading_rad, *speed_mps, *yaw_rate_radps;
+	const unsigned char *measured;
+	double min_arc_deg; /* NaN: the measure's default */
+} wl_report_seg;
+
+typedef struct {
+	double *yaw_rad;      /* n (caller's): the heading about the path's direction */
+	double *offset_m;     /* n (caller's): distance from the fitted circle (or line) */
+	double *f_hz, *power; /* cap (caller's): the yaw's periodogram, nbins filled */
+	size_t cap, nbins;
+	size_t n_used;      /* rows the measure used */
+	double yaw_peak_hz; /* the fitted yaw frequency; NaN when none */
+} wl_report_seg_analysis;
+
+/* Fills out for in; WL_OK, or an error when the segment cannot be measured
+ * (the page then shows no spectrum or residuals). */
+typedef wl_status (*wl_report_analyse_fn)(const wl_report_seg *in, wl_report_seg_analysis *out);
+
 /* What the path plot draws besides the track.  Any field may be empty. */
 typedef struct {
 	size_t n_outline; /* tank outline polygon, floor metres */
@@ -165,6 +191,7 @@ typedef struct {
 	const double (*markers_m)[2];
 	const char *const *marker_ids; /* labels (CAL.json's point ids), may be NULL */
 	double body_diameter_m;        /* 0 if unknown */
+	wl_report_analyse_fn analyse;  /* the run page's spectrum and residuals; NULL: none */
 } wl_report_scene;
 
 /* A scene from CAL.json's tank outline and floor markers (formats/cal.h),
@@ -200,7 +227,7 @@ wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scen
  * their intervals support, the path on the tank with the fitted circle,
  * heading, yaw rate and speed over time with the rows left out shaded, the
  * yaw spectrum with the fitted peak and the circle's residuals (recomputed
- * from clean.csv by the measure module), the verdict and uncertainty budget
+ * from clean.csv by scene->analyse, none without it), the verdict and uncertainty budget
  * when the summary has them; then clean.json's account, process.log and
  * trail.png (embedded).  One self-contained file; a folder without
  * clean.csv gets the numbers only.  scene may be NULL (the outline then

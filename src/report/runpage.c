@@ -13,9 +13,9 @@
  * (formats/clean.h, formats/summary.h): clean.csv, summary.json and, when
  * present, clean.json; and clip.json (clip name and parameters, written by
  * batch), process.log and trail.png.  The spectrum and residuals are recomputed
- * from clean.csv by the measure module's own functions
- * (wl_measure_run_series, wl_measure_periodogram), so they are those the
- * summary's numbers come from.
+ * from clean.csv by the scene's analyse function, which the callers above
+ * the stages fill with the measure module's own (wl_process_analyse_run),
+ * so they are those the summary's numbers come from.
  *
  * Memory: every row of the clip is held while the page is made (about 60
  * bytes a row); the page holds at most RP_MAX_POINTS points a robot.
@@ -35,7 +35,6 @@
 #include "core/numfmt.h"
 #include "formats/clean.h"
 #include "formats/summary.h"
-#include "measure/measure.h"
 #include "report/page.h"
 #include "wl_version.h"
 
@@ -351,24 +350,24 @@ static int segrows_take(const rtrack *tr, int segment, segrows *s)
 }
 
 /* Spectrum of the yaw about the path and the circle's residuals. */
-static wl_status add_analysis(cJSON *o, const rtrack *tr, int segment, double min_arc_deg, wl_err *err)
+static wl_status add_analysis(cJSON *o, wl_report_analyse_fn analyse, const rtrack *tr, int segment,
+                              double min_arc_deg, wl_err *err)
 {
 	segrows s;
-	wl_measure_input in;
-	wl_measure_opts opt;
-	wl_measure_result res;
+	wl_report_seg in;
+	wl_report_seg_analysis res;
 	double *yaw = NULL, *off = NULL, *f = NULL, *p = NULL;
 	size_t nb = 0, i;
 	wl_status st = WL_OK;
+	if (!analyse)
+		return WL_OK; /* no measure functions given: the numbers only */
 	if (!segrows_take(tr, segment, &s))
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the run page");
 	if (s.n < 16)
 		goto out; /* too short to analyse: the page says so */
 	in.n = s.n, in.t_s = s.t, in.x_m = s.x, in.y_m = s.y, in.heading_rad = s.h;
 	in.speed_mps = s.v, in.yaw_rate_radps = s.yr, in.measured = s.meas;
-	wl_measure_opts_init(&opt);
-	if (isfinite(min_arc_deg))
-		opt.min_arc_deg = min_arc_deg;
+	in.min_arc_deg = min_arc_deg;
 	yaw = malloc(s.n * sizeof *yaw);
 	off = malloc(s.n * sizeof *off);
 	f = malloc((s.n + 2) * sizeof *f);
@@ -377,7 +376,9 @@ static wl_status add_analysis(cJSON *o, const rtrack *tr, int segment, double mi
 		st = wl_err_set(err, WL_ENOMEM, "out of memory for the run page");
 		goto out;
 	}
-	if (wl_measure_run_series(&in, &opt, &res, yaw, off, NULL) != WL_OK)
+	res.yaw_rad = yaw, res.offset_m = off, res.f_hz = f, res.power = p, res.cap = s.n + 2;
+	res.nbins = 0, res.n_used = 0, res.yaw_peak_hz = NAN;
+	if (analyse(&in, &res) != WL_OK)
 		goto out;
 	/* residuals of the circle (or line), mm, thinned */
 	{
@@ -395,7 +396,7 @@ static wl_status add_analysis(cJSON *o, const rtrack *tr, int segment, double mi
 		free(idx);
 	}
 	/* the periodogram of the yaw about the path, max-pooled to RP_MAX_BINS */
-	if (wl_measure_periodogram(s.t, yaw, s.n, f, p, s.n + 2, &nb, NULL) == WL_OK && nb > 0) {
+	if ((nb = res.nbins) > 0) {
 		size_t pool = (nb + RP_MAX_BINS - 1) / RP_MAX_BINS, m = 0;
 		double pmax = 0, T = s.t[s.n - 1] - s.t[0];
 		cJSON *sp = cJSON_AddObjectToObject(o, "spectrum"), *af = cJSON_AddArrayToObject(sp, "f"),
@@ -415,7 +416,7 @@ static wl_status add_analysis(cJSON *o, const rtrack *tr, int segment, double mi
 		/* the band the measure searched (measure.h: 3 cycles, 0.8 x Nyquist) */
 		cJSON_AddNumberToObject(sp, "f_lo", fmax(3 / T, 0.05));
 		cJSON_AddNumberToObject(sp, "f_hi", 0.8 * 0.5 * (double)(res.n_used - 1) / T);
-		cJSON_AddNumberToObject(sp, "peak_hz", res.yaw_osc_freq_hz);
+		cJSON_AddNumberToObject(sp, "peak_hz", res.yaw_peak_hz);
 		(void)m;
 	}
 out:
@@ -527,11 +528,11 @@ static void add_clean(cJSON *root, const rreader *rd, const wl_clean_sidecar *si
 			cJSON_AddBoolToObject(o, "still", r->still);
 			x = cJSON_AddObjectToObject(o, "trim");
 			if (isfinite(r->trim_s))
-				cJSON_AddNumberToObject(x, "t_s", r->trim_s);
+				cJSON_AddNumberToObject(x, "at_s", r->trim_s);
 			cJSON_AddStringToObject(x, "reason", r->trim_reason);
 			x = cJSON_AddObjectToObject(o, "end");
 			if (isfinite(r->end_s))
-				cJSON_AddNumberToObject(x, "t_s", r->end_s);
+				cJSON_AddNumberToObject(x, "at_s", r->end_s);
 			cJSON_AddStringToObject(x, "reason", r->end_reason);
 		}
 		cJSON_AddItemToArray(a, o);
@@ -576,6 +577,7 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 	wl_clean_sidecar side;
 	int have_side;
 	wl_report_scene_buf *sb = NULL;
+	wl_report_analyse_fn analyse = scene ? scene->analyse : NULL; /* kept if the scene is replaced */
 	rreader rd;
 	size_t i;
 	wl_status s = WL_OK;
@@ -656,7 +658,7 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 		for (i = 0; i < rd.ntr; i++)
 			if (rd.tr[i].id == run->id)
 				tr = &rd.tr[i];
-		if (tr && (s = add_analysis(o, tr, (int)run->segment, sum.min_arc_deg, err)))
+		if (tr && (s = add_analysis(o, analyse, tr, (int)run->segment, sum.min_arc_deg, err)))
 			goto out;
 	}
 out:

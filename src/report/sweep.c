@@ -68,7 +68,8 @@ static double body_from_runs(const pt *p, size_t n)
 
 double wl_report_body_diameter(const wl_report_runs *t, const wl_report_sweep_opts *o)
 {
-	int cr = wl_report_runs_col(t, "radius_m"), crb = wl_report_runs_col(t, "radius_body_diameters");
+	int cr = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS));
+	int crb = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS_BODY));
 	pt *p;
 	size_t i, n = 0;
 	double body;

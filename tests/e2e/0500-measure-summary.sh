@@ -59,7 +59,7 @@ cat "$T/stdout"
 grep -q "^id 1 segment 1 (30.0 s): radius 0\.\(49\|50\)[0-9]* ± 0\.000[0-9]* m counter-clockwise (curvature [0-9.]* ± [0-9.]* /m at 95%" "$T/stdout"
 grep -q "^id 7 segment 0 (25.0 s): straight" "$T/stdout"
 [ "$(wc -l < "$T/stdout")" -eq 2 ]
-! grep -q "[0-9],[0-9]" "$T/SUMMARY.json"
+if grep -q "[0-9],[0-9]" "$T/SUMMARY.json"; then echo "FAIL: a decimal comma in SUMMARY.json"; exit 1; fi
 
 $PY - "$T/SUMMARY.json" "$T/runs.csv" <<'PYEOF'
 import csv, json, math, sys

@@ -6,7 +6,7 @@
 # every PNG has the PNG signature, the output is the same under a
 # decimal-comma locale, and headless Chromium loads report.html with one
 # table row per run, sorted as the address asks, and every thumbnail loaded
-# (read back with --dump-dom; tests/e2e/0602 drives the page further).
+# (read back with --dump-dom; tests/e2e/0604 drives the page further).
 set -euo pipefail
 : "${WAKELINE:?}" "${WL_TEST_TMP:?}"
 PY=/usr/bin/python3

@@ -27,6 +27,7 @@
 #include "core/jsonio.h"
 #include "core/numfmt.h"
 #include "measure/measure.h"
+#include "pipeline/pipeline.h"
 #include "report/report.h"
 
 #define PI 3.14159265358979323846
@@ -361,7 +362,7 @@ static void test_clip_plots(void **state)
 {
 	double outline[4][2] = {{0, 0}, {2, 0}, {2, 1.2}, {0, 1.2}}, markers[2][2] = {{0.1, 0.1}, {1.9, 1.1}};
 	const char *ids[2] = {"A0", "A1"};
-	wl_report_scene sc = {4, (const double(*)[2])outline, 2, (const double(*)[2])markers, ids, 0.1};
+	wl_report_scene sc = {4, (const double(*)[2])outline, 2, (const double(*)[2])markers, ids, 0.1, NULL};
 	char path[400];
 	wl_err err;
 	(void)state;
@@ -494,13 +495,23 @@ static void test_run_page(void **state)
 	cJSON *d, *run, *sp, *f, *p, *res, *mm, *sum;
 	double best = -1, fbest = NAN, ss = 0, T = 28, k, lo, hi;
 	int i, n;
+	wl_report_scene scene;
 	wl_err err;
 	(void)state;
 	make_run_folder(tmpdir, 1);
 	snprintf(path, sizeof path, "%s/process.log", tmpdir);
 	write_text(path, "wakeline process c.mp4\nwarning: <3> rows rejected\n");
+	/* without the measure's functions: the numbers, no spectrum */
 	assert_int_equal(wl_report_run_page(tmpdir, NULL, &err), WL_OK);
 	snprintf(path, sizeof path, "%s/run.html", tmpdir);
+	d = page_data(path);
+	run = cJSON_GetArrayItem(cJSON_GetObjectItem(d, "runs"), 0);
+	assert_non_null(cJSON_GetObjectItem(run, "numbers"));
+	assert_null(cJSON_GetObjectItem(run, "spectrum"));
+	cJSON_Delete(d);
+	memset(&scene, 0, sizeof scene);
+	scene.analyse = wl_process_analyse_run; /* as process and merge give it */
+	assert_int_equal(wl_report_run_page(tmpdir, &scene, &err), WL_OK);
 	d = page_data(path);
 	run = cJSON_GetArrayItem(cJSON_GetObjectItem(d, "runs"), 0);
 	assert_string_equal(cJSON_GetObjectItem(run, "id")->valuestring, "5");

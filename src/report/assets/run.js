@@ -157,8 +157,8 @@
   var cl = document.getElementById('clean');
   cl.innerHTML = (D.clean || []).length ? '<ul>' + D.clean.map(function (c) {
     var bits = [], o = c.outliers || {};
-    if (c.trim && c.trim.t_s !== undefined && c.trim.t_s !== null) bits.push('start trimmed at ' + fmt.sig(c.trim.t_s, 3) + ' s (' + (c.trim.reason || '') + ')');
-    if (c.end && c.end.reason) bits.push('track ends: ' + c.end.reason + (c.end.t_s !== null && c.end.t_s !== undefined ? ' at ' + fmt.sig(c.end.t_s, 3) + ' s' : ''));
+    if (c.trim && c.trim.at_s !== undefined && c.trim.at_s !== null) bits.push('start trimmed at ' + fmt.sig(c.trim.at_s, 3) + ' s (' + (c.trim.reason || '') + ')');
+    if (c.end && c.end.reason) bits.push('track ends: ' + c.end.reason + (c.end.at_s !== null && c.end.at_s !== undefined ? ' at ' + fmt.sig(c.end.at_s, 3) + ' s' : ''));
     if (c.measured !== undefined) bits.push(c.measured + ' rows measured, ' + (c.filled || 0) + ' filled');
     if (o.total !== undefined) bits.push(o.total + ' outlier' + (o.total === 1 ? '' : 's'));
     bits.push(c.gap_count + ' gap' + (c.gap_count === 1 ? '' : 's'));
