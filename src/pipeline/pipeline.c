@@ -188,6 +188,10 @@ static wl_status plots(const wl_calib *cal, const char *out_dir, const wl_proces
 	if (isfinite(o->measure.run.body_diameter_m))
 		sb->scene.body_diameter_m = o->measure.run.body_diameter_m;
 	sb->scene.analyse = wl_process_analyse_run;
+	sb->scene.clip_name = o->clip_name;
+	sb->scene.nparams = o->nparams;
+	sb->scene.param_names = o->param_names;
+	sb->scene.param_values = o->param_values;
 	st = wl_report_clip_plots(out_dir, &sb->scene, err);
 	wl_report_scene_release(sb);
 	free(sb);

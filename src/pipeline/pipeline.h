@@ -42,6 +42,11 @@ typedef struct {
 	int decode_threads;            /* 0: all cores */
 	int plots;                     /* 1 (default): trail.png, the path and heading plots, run.html */
 	const wl_diag *diag;           /* warnings and progress (may be NULL) */
+	/* for run.html: the clip's name and its manifest parameters (batch sets
+	 * them; NULL / 0: the folder's name, none); borrowed */
+	const char *clip_name;
+	size_t nparams;
+	const char *const *param_names, *const *param_values;
 } wl_process_opts;
 
 /* The documented defaults of every stage, plots on. */

@@ -192,6 +192,11 @@ typedef struct {
 	const char *const *marker_ids; /* labels (CAL.json's point ids), may be NULL */
 	double body_diameter_m;        /* 0 if unknown */
 	wl_report_analyse_fn analyse;  /* the run page's spectrum and residuals; NULL: none */
+	/* the run page's clip name and parameters when the folder has no clip.json
+	 * yet (a batch writes it after the clip): NULL / 0 for none */
+	const char *clip_name;
+	size_t nparams;
+	const char *const *param_names, *const *param_values;
 } wl_report_scene;
 
 /* A scene from CAL.json's tank outline and floor markers (formats/cal.h),

@@ -596,12 +596,21 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 	wl_json_load(path, &clip, NULL); /* the batch's marker: name and parameters */
 	{
 		const char *slash = strrchr(dir, '/');
-		const char *name = wl_json_string_or(clip, "clip", slash && slash[1] ? slash + 1 : dir);
+		const char *name = wl_json_string_or(clip, "clip",
+		                                     scene && scene->clip_name ? scene->clip_name
+		                                     : slash && slash[1]       ? slash + 1
+		                                                               : dir);
 		snprintf(title, tcap, "%s", name);
 		cJSON_AddStringToObject(root, "clip", name);
 	}
 	params = cJSON_GetObjectItemCaseSensitive(clip, "params");
-	cJSON_AddItemToObject(root, "params", params ? cJSON_Duplicate(params, 1) : cJSON_CreateObject());
+	if (params) {
+		cJSON_AddItemToObject(root, "params", cJSON_Duplicate(params, 1));
+	} else { /* the batch's worker: the manifest row it was given */
+		cJSON *po = cJSON_AddObjectToObject(root, "params");
+		for (i = 0; scene && po && i < scene->nparams; i++)
+			cJSON_AddStringToObject(po, scene->param_names[i], scene->param_values[i]);
+	}
 	cJSON_AddStringToObject(root, "tool", "wakeline " WL_VERSION);
 	/* without a scene, the calibration clean.json names (its path as given then) */
 	if ((!scene || (!scene->n_outline && !scene->n_markers)) && have_side && side.cal_path[0] &&

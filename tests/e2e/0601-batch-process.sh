@@ -80,6 +80,22 @@ for f in raw.csv clean.csv clean.json summary.json path_m.svg path_m.png heading
 	[ -s "out/clips/day2__g2_MOV/$f" ] || fail "out/clips/day2__g2_MOV/$f missing"
 done
 [ -s out/report.html ] && [ -s out/sweep_curvature.svg ] || fail "no report or sweep plot"
+# the worker's run page is whole (name, manifest parameters, the clip's
+# messages, the trail image), so a merge leaves it alone
+[ -s out/clips/day2__g2_MOV/trail.png ] || fail "no trail.png"
+$PY - <<'PYEOF' || fail "run.html of day2/g2.MOV"
+import json
+h = open("out/clips/day2__g2_MOV/run.html").read()
+a = h.index('<script type="application/json" id="wl-data">') + len('<script type="application/json" id="wl-data">')
+d = json.loads(h[a:h.index("</script>", a)])
+assert d["clip"] == "day2/g2.MOV" and d["params"] == {"gain": "1.0", "fin": "swept"}, (d["clip"], d["params"])
+assert any(" process " in line for line in d["log"]), d.get("log")
+assert d["trail"].startswith("data:image/png;base64,"), d["trail"][:40]
+assert d["runs"] and "spectrum" in d["runs"][0], "no spectrum on the run page"
+PYEOF
+before=$(stat -c %Y.%y out/clips/day2__g2_MOV/run.html)
+"$WAKELINE" merge out > /dev/null 2>&1 || true
+[ "$(stat -c %Y.%y out/clips/day2__g2_MOV/run.html)" = "$before" ] || fail "merge redrew a whole run page"
 
 # rerun: done clips are skipped, the bad one is tried again
 set +e

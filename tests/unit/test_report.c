@@ -362,7 +362,12 @@ static void test_clip_plots(void **state)
 {
 	double outline[4][2] = {{0, 0}, {2, 0}, {2, 1.2}, {0, 1.2}}, markers[2][2] = {{0.1, 0.1}, {1.9, 1.1}};
 	const char *ids[2] = {"A0", "A1"};
-	wl_report_scene sc = {4, (const double(*)[2])outline, 2, (const double(*)[2])markers, ids, 0.1, NULL};
+	wl_report_scene sc = {.n_outline = 4,
+	                      .outline_m = (const double(*)[2])outline,
+	                      .n_markers = 2,
+	                      .markers_m = (const double(*)[2])markers,
+	                      .marker_ids = ids,
+	                      .body_diameter_m = 0.1};
 	char path[400];
 	wl_err err;
 	(void)state;
