@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # probe: decoded frame count and every frame's time agree with ffprobe
-# (Debian ffmpeg 5.1, REFERENCES.md "Video timestamps") to within 1 ms on a
+# (Debian ffmpeg 5.1, tests/data/references.md "Video timestamps") to within 1 ms on a
 # constant-rate clip, the variable-frame-rate recipe, clips with B-frames and
 # clips whose first timestamp is not zero.
 source "$WL_SOURCE_DIR/tests/e2e/lib/decode.bash"

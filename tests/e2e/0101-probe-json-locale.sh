@@ -22,7 +22,7 @@ cmp c.txt de.txt || fail "text report differs between LC_ALL=C and LC_ALL=de_DE.
 $PY - <<'PYEOF' || fail "JSON values"
 import json, sys
 j = json.load(open("c.json"))
-# VFR recipe of REFERENCES.md: 25 frames 40 ms apart, then 25 frames 100 ms apart
+# VFR recipe of tests/data/references.md: 25 frames 40 ms apart, then 25 frames 100 ms apart
 want = {"codec": "h264", "width_px": 320, "height_px": 240, "rotation_deg": 0, "pix_fmt": "yuv420p",
         "bit_depth": 8, "full_range": False, "frames": 50, "first_pts_s": 0, "last_t_s": 3.4,
         "interval_min_s": 0.04, "interval_max_s": 0.1, "variable_frame_rate": True,

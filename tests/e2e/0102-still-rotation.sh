@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # probe reports the display rotation, and still writes the frame as
 # displayed: compared with the ffmpeg CLI's auto-rotated frame
-# (REFERENCES.md, "Rotation"; Debian ffmpeg 5.1).
+# (tests/data/references.md, "Video timestamps and rotation"; Debian ffmpeg 5.1).
 source "$WL_SOURCE_DIR/tests/e2e/lib/decode.bash"
 ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 50 -c:v libx264 -pix_fmt yuv420p -g 10 base.mp4
 for r in 90 180 270; do

@@ -36,7 +36,7 @@ still_is gop.mp4 3.96 99 3.960000
 "$WAKELINE" still gop.mp4 --at 10 -o end.png > end.txt 2> end.err || fail "still --at 10"
 grep -q 't_s 3.960000' end.txt || fail "past the end: $(cat end.txt)"
 grep -q 'past the last frame' end.err || fail "no warning past the end"
-# variable frame rate (REFERENCES.md recipe): frame N at N*40 ms for N < 25, then 1 s + (N-25)*100 ms
+# variable frame rate (tests/data/references.md recipe): frame N at N*40 ms for N < 25, then 1 s + (N-25)*100 ms
 still_is vfr.mp4 1.03 25 1.000000
 still_is vfr.mp4 2.0 35 2.000000
 still_is vfr.mp4 3.36 49 3.400000

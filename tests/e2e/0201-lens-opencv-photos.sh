@@ -3,7 +3,7 @@
 # (Debian opencv-doc 4.6.0, tests/data/opencv-left, see tests/data/README.md).
 # Checks: RMS within 0.01 px of 0.196334638 and fx, fy, cx, cy within 1 px of
 # the values OpenCV's modules/python/test/test_calibration.py expects
-# (REFERENCES.md); distortion compared through undistorted point positions
+# (tests/data/references.md); distortion compared through undistorted point positions
 # against Debian's python3-opencv calibrating the same photos.
 set -euo pipefail
 : "${WAKELINE:?}" "${WL_SOURCE_DIR:?}" "${WL_TEST_TMP:?}"
@@ -20,7 +20,7 @@ import glob, json, sys
 lens = json.load(open(sys.argv[1]))
 K = lens["camera_matrix"]
 rms = lens["rms_px"]
-# OpenCV's test_calibration.py (REFERENCES.md): RMS 0.196334638,
+# OpenCV's test_calibration.py (tests/data/references.md): RMS 0.196334638,
 # fx, fy = 532.80992, 532.93346, cx, cy = 342.49522, 233.88793
 ref = dict(rms=0.196334638, fx=532.80992, fy=532.93346, cx=342.49522, cy=233.88793)
 got = dict(rms=rms, fx=K[0][0], fy=K[1][1], cx=K[0][2], cy=K[1][2])
@@ -63,7 +63,7 @@ grep -q "views used 13 of 13" "$WL_TEST_TMP/clip.txt"
 /usr/bin/python3 - "$WL_TEST_TMP/clip.json" <<'PY'
 import json, sys
 K = json.load(open(sys.argv[1]))["camera_matrix"]
-# REFERENCES.md values again; compression moves corners slightly, 1 px still holds
+# tests/data/references.md values again; compression moves corners slightly, 1 px still holds
 for got, ref in ((K[0][0], 532.80992), (K[1][1], 532.93346), (K[0][2], 342.49522), (K[1][2], 233.88793)):
     assert abs(got - ref) < 1.0, (got, ref)
 PY

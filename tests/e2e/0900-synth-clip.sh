@@ -40,7 +40,7 @@ check_clip() {
 	[ "$counted" = "$frames" ] || fail "$n: ffprobe decoded $counted frames, expected $frames"
 	[ "$(($(wc -l < "$n.truth.csv") - 1))" = "$frames" ] || fail "$n: truth rows != frames"
 	[ "$(head -1 "$n.truth.csv")" = "t_s,frame,id,x_m,y_m,heading_rad,visible" ] || fail "$n: truth header"
-	# REFERENCES.md "Video timestamps": ffprobe's frame pts_time list
+	# tests/data/references.md "Video timestamps": ffprobe's frame pts_time list
 	ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$n.mp4" > "$n.pts"
 	tail -n +2 "$n.truth.csv" | cut -d, -f1 > "$n.truth_t"
 	paste -d, "$n.pts" "$n.truth_t" | awk -F, -v name="$n" '
@@ -77,7 +77,7 @@ paste -d, <(tail -n +2 vfr.frames.csv | cut -d, -f2) vfr.truth_t | awk -F, '
 	fail "probe: frame times differ from the truth"
 
 # rotation 270 is reported as -90 (the phone-portrait case), and our display
-# matrix equals the one ffmpeg writes for -metadata rotate=270 (REFERENCES.md)
+# matrix equals the one ffmpeg writes for -metadata rotate=270 (tests/data/references.md)
 write_scene r270 25 0 0 270
 "$WAKELINE" synth -q r270.json -o r270.mp4
 check_clip r270 50 "-90"

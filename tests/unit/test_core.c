@@ -294,7 +294,7 @@ static void projection_round_trips_with_distortion(void **state)
 
 static void refraction_worked_example(void **state)
 {
-	/* REFERENCES.md, "Refraction at a flat water surface": camera 2.0 m
+	/* tests/data/references.md, "Refraction at a flat water surface": camera 2.0 m
 	 * above the surface, ray 20 deg off nadir, marker 0.30 m deep ->
 	 * 0.80758 m from nadir (n = 1.333); 0.83713 m if refraction is ignored. */
 	wl_camera cam;
@@ -316,7 +316,7 @@ static void refraction_worked_example(void **state)
 	double su, sv;
 	assert_true(wl_camera_project_water(&cam, (double[3]){0.80758, 0, 0}, &su, &sv));
 	assert_true(fabs(su - u) < 0.05 && fabs(sv - v) < 1e-9);
-	/* paraxial apparent depth d/n = 0.2251 m for 0.30 m (REFERENCES.md) */
+	/* paraxial apparent depth d/n = 0.2251 m for 0.30 m (tests/data/references.md) */
 	/* a ray to a point 1 mm off nadir: apparent depth = d * tan(tw) / tan(ta) */
 	double s = wl_refract_surface_offset(2.0, 0.001, 0.30, 1.333);
 	double ta = s / 2.0, tw = (0.001 - s) / 0.30;

@@ -14,7 +14,7 @@ fail() { echo "FAIL: $*" >&2; exit 1; }
 # ff ARGS...: the ffmpeg CLI, quiet.
 ff() { ffmpeg -v error -nostdin -y "$@"; }
 
-# ffprobe_times CLIP: presentation time of every frame (REFERENCES.md, "Video timestamps").
+# ffprobe_times CLIP: presentation time of every frame (tests/data/references.md, "Video timestamps").
 ffprobe_times() {
 	ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$1"
 }
