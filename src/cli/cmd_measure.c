@@ -385,12 +385,13 @@ static cJSON *run_json(const run_out *ro, double commanded)
 	return o;
 }
 
-static wl_status write_json(const ctx *c, const char *path, double commanded, wl_err *err)
+/* SUMMARY.json's text (caller frees with cJSON_free), or NULL: out of memory */
+static char *summary_text(const ctx *c, double commanded)
 {
 	cJSON *root = cJSON_CreateObject(), *prov, *runs;
-	wl_status st;
+	char *text;
 	if (!root)
-		return wl_err_set(err, WL_ENOMEM, "out of memory writing '%s'", path);
+		return NULL;
 	cJSON_AddStringToObject(root, "format", "wakeline summary");
 	cJSON_AddNumberToObject(root, "format_version", 1);
 	prov = cJSON_AddObjectToObject(root, "provenance");
@@ -408,23 +409,19 @@ static wl_status write_json(const ctx *c, const char *path, double commanded, wl
 		cJSON *o = run_json(&c->runs[i], commanded);
 		if (!o) {
 			cJSON_Delete(root);
-			return wl_err_set(err, WL_ENOMEM, "out of memory writing '%s'", path);
+			return NULL;
 		}
 		cJSON_AddItemToArray(runs, o);
 	}
-	st = wl_json_save(path, root, err);
+	text = cJSON_Print(root);
 	cJSON_Delete(root);
-	return st;
+	return text;
 }
 
-static wl_status write_csv(const ctx *c, const char *path, double commanded, wl_err *err)
+static void write_csv(const ctx *c, FILE *fp, double commanded)
 {
-	wl_afile *af;
 	wl_csv_writer w;
-	wl_status st = wl_afile_open(path, &af, err);
-	if (st)
-		return st;
-	wl_csvw_init(&w, wl_afile_fp(af));
+	wl_csvw_init(&w, fp);
 	wl_csvw_str(&w, "id");
 	wl_csvw_str(&w, "segment");
 	wl_csvw_str(&w, "headline");
@@ -463,7 +460,36 @@ static wl_status write_csv(const ctx *c, const char *path, double commanded, wl_
 		wl_csvw_g(&w, period_s(r) / commanded, 10);
 		wl_csvw_end(&w);
 	}
-	return wl_afile_commit(af, err);
+}
+
+/* Writes the table (when asked) and SUMMARY.json.  Both temporaries are
+ * written before either is committed, the table first: a failure leaves the
+ * previous outputs as they were, and SUMMARY.json exists only when the table
+ * was written too. */
+static wl_status write_outputs(const ctx *c, const char *csv, const char *out, double commanded, wl_err *err)
+{
+	wl_afile *fc = NULL, *fj = NULL;
+	char *text = summary_text(c, commanded);
+	wl_status st;
+	if (!text)
+		return wl_err_set(err, WL_ENOMEM, "out of memory writing '%s'", out);
+	if ((csv && (st = wl_afile_open(csv, &fc, err))) || (st = wl_afile_open(out, &fj, err)))
+		goto done;
+	if (fc)
+		write_csv(c, wl_afile_fp(fc), commanded);
+	fputs(text, wl_afile_fp(fj));
+	fputc('\n', wl_afile_fp(fj));
+	st = wl_afile_commit(fc, err);
+	fc = NULL;
+	if (st)
+		goto done;
+	st = wl_afile_commit(fj, err);
+	fj = NULL;
+done:
+	wl_afile_abort(fc);
+	wl_afile_abort(fj);
+	cJSON_free(text);
+	return st;
 }
 
 static void print_headline(const run_out *ro)
@@ -579,15 +605,7 @@ int cmd_measure(int argc, char **argv)
 	}
 	qsort(c.runs, c.nruns, sizeof *c.runs, run_cmp);
 	mark_headlines(&c);
-	/* the table first, so that SUMMARY.json exists only when both were written */
-	if (csv && write_csv(&c, csv, commanded, &err) != WL_OK) {
-		rc = cli_fail("measure", &err);
-		goto done;
-	}
-	if (write_json(&c, out, commanded, &err) != WL_OK) {
-		/* a failed run leaves neither output (the table alone would pass for a result) */
-		if (csv)
-			(void)remove(csv);
+	if (write_outputs(&c, csv, out, commanded, &err) != WL_OK) {
 		rc = cli_fail("measure", &err);
 		goto done;
 	}
