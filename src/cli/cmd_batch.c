@@ -74,11 +74,18 @@ static void last_error(const char *log, char *out, size_t cap)
 	out[0] = '\0';
 	if (wl_read_file(log, 1 << 24, &text, &len, NULL) != WL_OK)
 		return;
-	for (p = text; (p = strstr(p, "error: ")); p++)
-		best = p + 7;
+	/* the last line with an "error: " prefix; the first one in the line
+	 * ("Input/output error: ..." later in a message is not a prefix) */
 	for (p = text; *p; p++)
-		if ((p == text || p[-1] == '\n') && *p != '\n')
+		if ((p == text || p[-1] == '\n') && *p != '\n') {
+			size_t n = strcspn(p, "\n");
 			last = p;
+			for (size_t k = 0; k + 7 <= n; k++)
+				if (memcmp(p + k, "error: ", 7) == 0) {
+					best = p + k + 7;
+					break;
+				}
+		}
 	if (!best)
 		best = last;
 	if (best)
