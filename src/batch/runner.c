@@ -187,7 +187,10 @@ static void remove_stale_tmp(const char *dir)
 
 /* ---- the journal ------------------------------------------------------ */
 
-static void journal(int fd, const char *event, const char *clip, const char *hash, const char *msg)
+/* Appends one line; a failure is kept in *failed (the first errno) and
+ * reported when the batch ends. */
+static void journal(int fd, int *failed, const char *event, const char *clip, const char *hash,
+                    const char *msg)
 {
 	char line[1024], ts[32];
 	int n;
@@ -200,10 +203,10 @@ static void journal(int fd, const char *event, const char *clip, const char *has
 		n = (int)sizeof line;
 		line[n - 1] = '\n';
 	}
-	/* one write() per line: O_APPEND puts it whole at the end */
-	if (write(fd, line, (size_t)n) < 0) {
-		/* the journal is history only; clip.json decides */
-	}
+	/* one write() per line: O_APPEND puts it whole at the end; the journal
+	 * is history only (clip.json decides), but a lost line is reported */
+	if (write(fd, line, (size_t)n) != n && !*failed)
+		*failed = errno ? errno : EIO;
 }
 
 /* ---- jobs ------------------------------------------------------------- */
@@ -233,7 +236,7 @@ typedef struct {
 	size_t running;
 	long frames_done;
 	double t_start, t_last_ev;
-	int journal_fd;
+	int journal_fd, journal_errno;
 } runner;
 
 static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char *msg)
@@ -358,7 +361,7 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	j->total = -1;
 	j->t0 = now_s();
 	r->running++;
-	journal(r->journal_fd, "start", j->rel, j->hash, NULL);
+	journal(r->journal_fd, &r->journal_errno, "start", j->rel, j->hash, NULL);
 	emit(r, WL_BATCH_EV_START, j->rel, NULL);
 	return WL_OK;
 }
@@ -429,11 +432,11 @@ static void finish_job(runner *r, clipjob *j)
 	r->finished++;
 	if (ok) {
 		r->res->done++;
-		journal(r->journal_fd, "done", j->rel, j->hash, NULL);
+		journal(r->journal_fd, &r->journal_errno, "done", j->rel, j->hash, NULL);
 		emit(r, WL_BATCH_EV_DONE, j->rel, NULL);
 	} else {
 		r->res->failed++;
-		journal(r->journal_fd, "fail", j->rel, j->hash, msg);
+		journal(r->journal_fd, &r->journal_errno, "fail", j->rel, j->hash, msg);
 		emit(r, WL_BATCH_EV_FAIL, j->rel, msg);
 	}
 }
@@ -605,7 +608,7 @@ static void warn(runner *r, const char *fmt, const char *a, const char *b)
 {
 	char msg[PATH_MAX * 2];
 	snprintf(msg, sizeof msg, fmt, a, b);
-	journal(r->journal_fd, "warn", NULL, NULL, msg);
+	journal(r->journal_fd, &r->journal_errno, "warn", NULL, NULL, msg);
 	emit(r, WL_BATCH_EV_WARN, NULL, msg);
 }
 
@@ -617,10 +620,11 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	int lock_fd = -1, have_m = 0, jobs;
 	size_t i, next = 0;
 	wl_status s;
-	char path[PATH_MAX];
+	char path[PATH_MAX], jpath[PATH_MAX];
 
 	memset(res, 0, sizeof *res);
 	memset(&r, 0, sizeof r);
+	jpath[0] = '\0';
 	r.o = o;
 	r.res = res;
 	r.journal_fd = -1;
@@ -641,10 +645,12 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	if ((s = wl_batch_discover(o->clip_dir, o->out_dir, &cl, err)))
 		goto out;
 	if (o->shard_count > 1)
-		snprintf(path, sizeof path, "%s/journal-%d.log", o->out_dir, o->shard_index);
+		snprintf(jpath, sizeof jpath, "%s/journal-%d.log", o->out_dir, o->shard_index);
 	else
-		snprintf(path, sizeof path, "%s/journal.log", o->out_dir);
-	r.journal_fd = open(path, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
+		snprintf(jpath, sizeof jpath, "%s/journal.log", o->out_dir);
+	r.journal_fd = open(jpath, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
+	if (r.journal_fd < 0)
+		r.journal_errno = errno;
 	r.jobs = calloc(cl.n ? cl.n : 1, sizeof *r.jobs);
 	if (!r.jobs) {
 		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", cl.n);
@@ -689,7 +695,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 				wl_batch_mark(j->out_dir, &j->job, "", 0, j->hash_err, 0, &e2);
 				res->failed++;
 				r.finished++;
-				journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
+				journal(r.journal_fd, &r.journal_errno, "fail", j->rel, NULL, j->hash_err);
 				emit(&r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
 				continue;
 			}
@@ -698,7 +704,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 					wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
 				res->skipped++;
 				r.finished++;
-				journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
+				journal(r.journal_fd, &r.journal_errno, "skip", j->rel, j->hash, NULL);
 				emit(&r, WL_BATCH_EV_SKIP, j->rel, NULL);
 				continue;
 			}
@@ -726,8 +732,14 @@ out:
 		free(r.jobs[i].values);
 	}
 	free(r.jobs);
-	if (r.journal_fd >= 0)
-		close(r.journal_fd);
+	if (r.journal_fd >= 0 && close(r.journal_fd) != 0 && !r.journal_errno)
+		r.journal_errno = errno;
+	if (s == WL_OK && r.journal_errno)
+		s = wl_err_set(
+		        err, WL_EIO,
+		        "cannot write '%s': %s: the clips' results are complete, their history is not%s",
+		        jpath, strerror(r.journal_errno),
+		        r.journal_errno == ENOSPC ? ": free some space and run again" : "");
 	if (lock_fd >= 0)
 		close(lock_fd);
 	wl_cliplist_release(&cl);
