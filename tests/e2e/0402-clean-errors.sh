@@ -45,7 +45,7 @@ check_exit "a bad --tank is a usage error (exit 2)" 2 "$WAKELINE" clean "$T/dup.
 check_exit "clean --help exits 0" 0 "$WAKELINE" clean --help
 check_grep "clean --help shows the usage" "usage: wakeline clean" "$T/last.out"
 # a CAL.json with a broken outline is an error too
-echo '{"tank_outline_m": [[0,0],[1,0]]}' > "$T/cal.json"
+echo '{"format": "wakeline-calibration", "format_version": 1, "tank_outline_m": [[0,0],[1,0]]}' > "$T/cal.json"
 { echo "$H"; good 0.0 0; good 0.1 1; } > "$T/ok.csv"
 check_exit "a CAL.json with a two-point outline fails (exit 1)" 1 \
 	"$WAKELINE" clean "$T/ok.csv" -o "$T/o.csv" --cal "$T/cal.json"
