@@ -245,7 +245,9 @@ static wl_status fake_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	}
 	fclose(fp);
 	snprintf(buf, sizeof buf,
-	         "{\"format\":\"wakeline summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_per_m\":%"
+	         "{\"format\":\"wakeline "
+	         "summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_"
+	         "per_m\":%"
 	         "s,"
 	         "\"curvature_ci95_per_m\":[1.9,2.1],\"straight\":false,\"centre_x_m\":0,\"centre_y_m\":0}]}"
 	         "\n",
