@@ -259,7 +259,8 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 				extra[nextra++] = p->r[i].meas.k[j];
 			}
 		}
-	qsort(extra, nextra, sizeof *extra, cmp_name);
+	if (nextra) /* qsort wants a valid pointer even for no elements */
+		qsort(extra, nextra, sizeof *extra, cmp_name);
 	for (i = 0; i < nextra; i++)
 		ADDCOL(extra[i]);
 #undef ADDCOL
