@@ -56,8 +56,10 @@ check_no_grep "no decimal commas in CAL.json" -E '[0-9],[0-9]{6}' CAL.json
 scene points six.csv --grid six --bad 4:40 --noise 0.3 --seed 5
 check_exit "calibrate with one bad point of six succeeds" 0 "$WAKELINE" calibrate blank.png --points six.csv -o six.json
 cp last.out six.txt
-check_grep "the warning names p4, about 40 px off, left out" \
-	"warning: point 'p4' is 4[0-9]\.[0-9] px off the fit of the others: left out" six.txt
+# warnings go to standard error, the quality report to standard output
+check_grep "the warning (on standard error) names p4, about 40 px off, left out" \
+	"wakeline calibrate: warning: point 'p4' is 4[0-9]\.[0-9] px off the fit of the others: left out" last.err
+check_no_grep "no warning on standard output" "warning" six.txt
 check "p4 is marked unused, the other five used, height within 1 %" "$PY" -c "
 import json; c = json.load(open('six.json'))
 used = {p['id']: p['used'] for p in c['points']}

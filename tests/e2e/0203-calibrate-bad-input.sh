@@ -11,6 +11,7 @@ expect_fail() {
 	shift 2
 	check_exit "$name: calibrate fails (exit 1)" 1 "$WAKELINE" calibrate blank.png "$@" -o "$name.json"
 	cp last.out "$name.out"
+	cp last.err "$name.err"
 	check_grep "$name: the message says '$want'" -F -- "$want" last.err
 	check_no_file "$name: no CAL.json is written" "$name.json"
 }
@@ -34,8 +35,9 @@ expect_fail few "few.csv: 3 points, calibration needs at least 4" --points few.c
 # markers listed but not in the (blank) image
 printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n3,0,1\n' > ok.csv
 expect_fail missing "only 0 of the 4 layout markers were found" --layout ok.csv
-check_grep "the report names marker 2 (layout line 4) as not found" \
-	"marker 2 (layout line 4) was not found" missing.out
+# the warnings go to standard error (the quality report alone to standard output)
+check_grep "the warning (on standard error) names marker 2 (layout line 4) as not found" \
+	"wakeline calibrate: warning: marker 2 (layout line 4) was not found" missing.err
 # an output that cannot be written: the error names it
 printf 'u_px,v_px,x_m,y_m\n100,100,0,1\n500,120,1,1\n450,400,1,0\n80,350,0,0\n' > four.csv
 check_exit "an output in a missing folder fails (exit 1)" 1 \

@@ -57,6 +57,8 @@ ffmpeg -v error -y -loop 1 -t 0.5 -r 10 -i scene.png -loop 1 -t 0.5 -r 10 -i shi
 check_exit "calibrate on a clip whose camera moves succeeds" 0 \
 	"$WAKELINE" calibrate moving.mp4 --layout "$layout" --span 1 -o moving.json
 cp last.out moving.txt
-check_grep "a warning says a marker moves by 2 to 5 px between frames" \
-	"warning: marker [0-9]* moves by up to [2-5]\.[0-9] px between frames" moving.txt
+# warnings go to standard error, the quality report to standard output
+check_grep "a warning (on standard error) says a marker moves by 2 to 5 px between frames" \
+	"wakeline calibrate: warning: marker [0-9]* moves by up to [2-5]\.[0-9] px between frames" last.err
+check_no_grep "no warning on standard output" "warning" moving.txt
 done_testing
