@@ -9,23 +9,21 @@
 # the PNG's pixels at 300 dpi (python3-opencv connected components), within
 # a pixel (0.085 mm).  A robot sheet (--robot) is checked against the
 # tracker's heading by tests/unit/test_markers.c.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}"
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 
 "$WAKELINE" markers --ids 0-3 --size-mm 150 -o sheet.svg > svg.txt || fail "markers svg"
 "$WAKELINE" markers --ids 0-3 --size-mm 150 --dpi 300 -o sheet.png > png.txt || fail "markers png"
 "$WAKELINE" markers --ids 0-3 --size-mm 150 -o sheet.pdf > pdf.txt || fail "markers pdf"
-grep -q "4 tag36h11 tags of 150.0 mm on 4 pages -> sheet-1.svg sheet-2.svg sheet-3.svg sheet-4.svg" svg.txt ||
-	fail "markers said: $(cat svg.txt)"
-grep -q "on 4 pages -> sheet.pdf" pdf.txt || fail "markers said: $(cat pdf.txt)"
-[ ! -e sheet.svg ] && [ ! -e sheet.png ] || fail "a single-file sheet was written beside the pages"
-/usr/bin/python3 -c 'import re; n = len(re.findall(rb"/Type\s*/Page(?!s)", open("sheet.pdf", "rb").read())); assert n == 4, n' ||
-	fail "the PDF has not 4 pages"
-"$WAKELINE" markers --help | grep -q -- "--robot" || fail "--help does not name --robot"
+check_grep "SVG: four pages, one file a page" \
+	"4 tag36h11 tags of 150.0 mm on 4 pages -> sheet-1.svg sheet-2.svg sheet-3.svg sheet-4.svg" svg.txt
+check_grep "PDF: four pages in one file" "on 4 pages -> sheet.pdf" pdf.txt
+check_no_file "no single-file SVG beside the pages" sheet.svg
+check_no_file "no single-file PNG beside the pages" sheet.png
+check "the PDF has 4 /Type /Page objects" $PY -c 'import re; n = len(re.findall(rb"/Type\s*/Page(?!s)", open("sheet.pdf", "rb").read())); assert n == 4, n'
+"$WAKELINE" markers --help > help.txt || fail "markers --help"
+check_grep "--help names --robot" -- "--robot" help.txt
 
-/usr/bin/python3 - <<'PYEOF' || fail "page size or printed size"
+check_py "every page is A4 and the tag's black square measures 150 mm (SVG coordinates, PNG pixels at 300 dpi)" <<'PYEOF'
 import re, struct
 import xml.etree.ElementTree as ET
 import cv2, numpy as np
@@ -66,3 +64,4 @@ for p in range(1, 5):
     print("page %d: svg 210 x 297 mm, square %.3f x %.3f mm; png %d x %d px at %.1f dpi = %.2f x %.2f mm, square %.2f x %.2f mm"
           % (p, w, h, pw, ph, dpi, wmm, hmm, sw, sh))
 PYEOF
+done_testing

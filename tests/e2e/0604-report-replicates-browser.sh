@@ -23,12 +23,9 @@
 #     messages and the trail image;
 #   - summary.csv keeps verdict_reasons joined with "; ".
 # Screenshots (report.png, table.png, groups.png, sweep.png, run.png) stay in
-# the test's folder.  Exit 77 (skipped) without node/npm or chromium.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}" "${WL_BUILD_DIR:?}"
-PY=/usr/bin/python3
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
+# the test's folder.  Skipped (77) when npm cannot fetch the driver.
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+: "${WL_BUILD_DIR:?}"
 . "$WL_SOURCE_DIR/tests/e2e/lib/browser.bash"
 wl_browser_setup
 
@@ -40,12 +37,13 @@ printf 'wakeline process clips/g0_round_r1.mp4\nwakeline clean: warning: robot 1
 cp $c/path_m.png $c/trail.png
 rm $c/run.html
 "$WAKELINE" merge out > merge.txt || fail "merge: $(cat merge.txt)"
-grep -q "24 runs from 24 clip folders, 0 failed, 0 missing" merge.txt || fail "merge said: $(cat merge.txt)"
+check_grep "merge: 24 runs from 24 clip folders, none failed or missing" "24 runs from 24 clip folders, 0 failed, 0 missing" merge.txt
 
-node "$WL_SOURCE_DIR/tests/e2e/lib/report_check.js" out/report.html . \
-	"$WL_SOURCE_DIR/tests/data/numfmt-examples.csv" g0_round_r1.mp4 || fail "the browser checks"
+check "in Chromium: no console error, no outside request, every part of the page there" \
+	node "$WL_SOURCE_DIR/tests/e2e/lib/report_check.js" out/report.html . \
+	"$WL_SOURCE_DIR/tests/data/numfmt-examples.csv" g0_round_r1.mp4
 
-$PY - <<'PYEOF' || fail "page against the Python reference"
+check_py "the page's groups, sorting, filter, plots and run page against summary.csv and Python's statistics" <<'PYEOF'
 import csv, json, math, statistics
 from scipy import stats
 b = json.load(open("browser.json"))
@@ -119,6 +117,7 @@ assert "3 rows rejected as outliers" in r["log"], r["log"]
 print("run page: %d plots, budget of %d rows, trail %d px wide" % (r["plots"], len(r["budget"]), r["trail"][1]))
 PYEOF
 for f in report.png table.png groups.png sweep.png run.png; do
-	[ "$(head -c 8 "$f" | od -An -c | tr -d ' ')" = "211PNG\r\n032\n" ] || fail "$f is not a PNG"
+	check_eq "$f is a PNG screenshot" "$(head -c 8 "$f" | od -An -c | tr -d ' ')" '211PNG\r\n032\n'
 done
-echo "screenshots: $(ls "$WL_TEST_TMP"/*.png | tr '\n' ' ')"
+note "screenshots: $(ls "$WL_TEST_TMP"/*.png | tr '\n' ' ')"
+done_testing
