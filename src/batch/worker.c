@@ -91,15 +91,15 @@ void batch_worker_result(const wl_batch_job *job, int64_t frames, size_t runs)
 
 /* The clip's run.html again, now that process.log is in place (the page
  * shows the clip's messages), with the clip's name and parameters; only
- * when the clip function made one.  A failure leaves the first page. */
-static void redraw_run_page(const wl_batch_job *job)
+ * when the clip function made one.  A failure fails the clip, so that a
+ * rerun redoes it (the first page, without the messages, stays whole). */
+static wl_status redraw_run_page(const wl_batch_job *job, wl_err *err)
 {
 	char path[PATH_MAX];
 	wl_report_scene sc;
-	wl_err err;
 	snprintf(path, sizeof path, "%s/run.html", job->out_dir);
 	if (access(path, F_OK) != 0)
-		return;
+		return WL_OK;
 	memset(&sc, 0, sizeof sc); /* the tank from clean.json's calibration */
 	sc.analyse = wl_process_analyse_run;
 	sc.clip_name = job->clip_rel;
@@ -108,8 +108,7 @@ static void redraw_run_page(const wl_batch_job *job)
 	sc.param_values = job->param_values;
 	if (isfinite(job->opts->measure.run.body_diameter_m))
 		sc.body_diameter_m = job->opts->measure.run.body_diameter_m;
-	wl_err_clear(&err);
-	wl_report_run_page(job->out_dir, &sc, &err);
+	return wl_report_run_page(job->out_dir, &sc, err);
 }
 
 /* Runs the clip with its options; the log is committed whatever happens.
@@ -149,7 +148,7 @@ static wl_status run_clip(runner *r, clipjob *j, worker *w, wl_err *err)
 	w->log = NULL;
 	ls = wl_afile_commit(log, st ? NULL : err);
 	if (!st && !ls && opts->plots)
-		redraw_run_page(&j->job);
+		ls = redraw_run_page(&j->job, err);
 	free(opts);
 	return st ? st : ls;
 }
