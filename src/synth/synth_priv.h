@@ -4,8 +4,14 @@
 
 #include <stdint.h>
 
+#include "synth/synth.h"
+
 #ifndef M_PI
 #define M_PI 3.14159265358979323846
+/* hazard.c: what real water and phones add, drawn over the robots */
+void synth_draw_occluders(const wl_synth_scene *sc, int ss, double t, uint8_t *rgb, int stride);
+void synth_add_spots(const wl_synth_scene *sc, double t, uint8_t *rgb, int stride);
+
 #endif
 
 /* splitmix64's finaliser (Steele, Lea & Flood 2014) as a counter-based hash. */
@@ -22,5 +28,9 @@ static inline double synth_unit(uint64_t h)
 {
 	return (double)(h >> 11) / 9007199254740992.0;
 }
+
+/* hazard.c: what real water and phones add, drawn over the robots */
+void synth_draw_occluders(const wl_synth_scene *sc, int ss, double t, uint8_t *rgb, int stride);
+void synth_add_spots(const wl_synth_scene *sc, double t, uint8_t *rgb, int stride);
 
 #endif

@@ -39,7 +39,7 @@ check_clip() {
 	counted=$(ffprobe -v error -count_frames -select_streams v:0 -show_entries stream=nb_read_frames -of default=nw=1:nk=1 "$n.mp4" | head -1)
 	[ "$counted" = "$frames" ] || fail "$n: ffprobe decoded $counted frames, expected $frames"
 	[ "$(($(wc -l < "$n.truth.csv") - 1))" = "$frames" ] || fail "$n: truth rows != frames"
-	[ "$(head -1 "$n.truth.csv")" = "t_s,frame,id,x_m,y_m,heading_rad,visible" ] || fail "$n: truth header"
+	[ "$(head -1 "$n.truth.csv")" = "t_s,frame,id,x_m,y_m,heading_rad,visible,visible_frac,t_centre_s" ] || fail "$n: truth header"
 	# REFERENCES.md "Video timestamps": ffprobe's frame pts_time list
 	ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$n.mp4" > "$n.pts"
 	tail -n +2 "$n.truth.csv" | cut -d, -f1 > "$n.truth_t"
@@ -65,8 +65,8 @@ check_clip vfr 60 "90"
 # the intervals really vary (more than 10 distinct values in ms)
 [ "$(awk -F, 'NR > 2 { printf "%d\n", ($1 - p) * 1000 + 0.5 } { p = $1 }' vfr.truth.csv | sort -u | wc -l)" -gt 10 ] ||
 	fail "vfr: frame intervals do not vary"
-# written under a decimal-comma locale: still '.' decimals, 7 cells a row
-awk -F, 'NF != 7 || (NR > 1 && $1 !~ /^[0-9]+\.[0-9][0-9][0-9][0-9][0-9][0-9]$/) { exit 1 }' vfr.truth.csv ||
+# written under a decimal-comma locale: still '.' decimals, 9 cells a row
+awk -F, 'NF != 9 || (NR > 1 && $1 !~ /^[0-9]+\.[0-9][0-9][0-9][0-9][0-9][0-9]$/) { exit 1 }' vfr.truth.csv ||
 	fail "vfr: truth numbers not in '.' decimals under LC_ALL=de_DE.UTF-8"
 
 # our own decoder (wakeline probe) reads the same times and rotation
