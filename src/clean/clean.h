@@ -40,15 +40,21 @@ typedef struct {
 	double t_s;
 	long frame;
 	double x_m, y_m, heading_rad; /* NaN when absent */
-	unsigned char has_pos;        /* status ok with x_m, y_m */
-	unsigned char has_heading;    /* status ok with heading_rad */
+	unsigned char has_pos;        /* status ok or held, with x_m, y_m */
+	unsigned char has_heading;    /* status ok or held, with heading_rad */
+	unsigned char held;           /* status held: a pose refined where the detector missed */
 	long line;                    /* line in RAW.csv, for messages */
+	/* the time the pose belongs to: t_detect_s when given (rolling-shutter
+	 * correction), else t_s; a lost row takes t_s plus the previous pose's
+	 * t_detect_s - t_s of the same robot */
+	double t_meas_s;
 } wl_clean_raw_sample;
 
 typedef struct {
 	long id;
 	size_t n, cap;
-	wl_clean_raw_sample *s; /* in time order (validated strictly increasing) */
+	wl_clean_raw_sample *s; /* in time order (validated strictly increasing, t_s and t_meas_s) */
+	double t_offset_s;      /* reading: t_detect_s - t_s of the last pose */
 } wl_clean_raw_track;
 
 typedef struct {
@@ -63,9 +69,10 @@ typedef struct {
 #define WL_CLEAN_MAX_ROBOTS 4096
 
 /* Reads and validates RAW.csv (required columns t_s, frame, id, x_m, y_m,
- * heading_rad, status; numbers in number cells; per id frames and times
- * strictly increasing, so no duplicate (frame, id)).  Errors name the file
- * and line.  *out is freed with wl_clean_raw_destroy. */
+ * heading_rad, status; optional hold_score, t_detect_s; status ok, held or
+ * lost; numbers in number cells; per id frames and times strictly
+ * increasing, so no duplicate (frame, id)).  Errors name the file and line.
+ * *out is freed with wl_clean_raw_destroy. */
 wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
 /* Same over a buffer (name is used in messages; checksum of the buffer). */
 wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out,

@@ -18,6 +18,7 @@ static const char *const REQUIRED[] = {"t_s", "frame", "id", "x_m", "y_m", "head
 typedef struct {
 	wl_clean_raw *raw;
 	int col[C_N];
+	int col_score, col_tdet; /* optional columns (-1: absent) */
 	int have_header;
 } rctx;
 
@@ -73,12 +74,29 @@ static wl_status parse_row(rctx *c, const wl_csv_row *row, wl_clean_raw_sample *
 		                  "%s:%ld: column 'status' is missing on this row (%zu cells)", row->path,
 		                  row->line, row->nfields);
 	status = row->fields[c->col[C_STATUS]];
+	s->t_meas_s = NAN;
 	if (word_is(status, "lost"))
 		return WL_OK;
-	if (!word_is(status, "ok"))
+	s->held = (unsigned char)word_is(status, "held");
+	if (!s->held && !word_is(status, "ok"))
 		return wl_err_set(err, WL_EFORMAT,
-		                  "%s:%ld: column 'status': '%.40s' is neither 'ok' nor 'lost'", row->path,
+		                  "%s:%ld: column 'status': '%.40s' is not 'ok', 'held' or 'lost'", row->path,
 		                  row->line, status);
+	if (s->held && !wl_csv_empty(row, c->col_score)) {
+		double q;
+		if ((st = wl_csv_get_double(row, c->col_score, "hold_score", &q, err)))
+			return st;
+	}
+	if (!wl_csv_empty(row, c->col_tdet)) {
+		if ((st = wl_csv_get_double(row, c->col_tdet, "t_detect_s", &s->t_meas_s, err)))
+			return st;
+		if (!(s->t_meas_s >= s->t_s - 1e-6 && s->t_meas_s < s->t_s + 1.0))
+			return wl_err_set(
+			        err, WL_EFORMAT,
+			        "%s:%ld: column 't_detect_s': %.6f is not within a second after t_s "
+			        "%.6f: check the rolling-shutter readout given to track",
+			        row->path, row->line, s->t_meas_s, s->t_s);
+	}
 	if ((st = wl_csv_get_double(row, c->col[C_X], "x_m", &s->x_m, err)) ||
 	    (st = wl_csv_get_double(row, c->col[C_Y], "y_m", &s->y_m, err)))
 		return st;
@@ -103,6 +121,8 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 			return st;
 		for (int i = 0; i < C_N; i++)
 			c->col[i] = wl_csv_col(row, REQUIRED[i]);
+		c->col_score = wl_csv_col(row, "hold_score");
+		c->col_tdet = wl_csv_col(row, "t_detect_s");
 		c->have_header = 1;
 		return WL_OK;
 	}
@@ -110,6 +130,11 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		return st;
 	if (!(tr = find_track(c->raw, id, row, err)))
 		return err ? err->code : WL_ENOMEM;
+	/* the time of the pose: t_detect_s, or t_s shifted like the last pose */
+	if (isnan(s.t_meas_s))
+		s.t_meas_s = s.t_s + tr->t_offset_s;
+	else if (s.has_pos)
+		tr->t_offset_s = s.t_meas_s - s.t_s;
 	if (tr->n > 0) {
 		const wl_clean_raw_sample *p = &tr->s[tr->n - 1];
 		if (s.frame == p->frame)
@@ -127,6 +152,13 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 			                  "%s:%ld: time t_s %.6f of robot %ld is not after %.6f (line %ld): "
 			                  "times must increase strictly",
 			                  row->path, row->line, s.t_s, id, p->t_s, p->line);
+		if (!(s.t_meas_s > p->t_meas_s))
+			return wl_err_set(
+			        err, WL_EFORMAT,
+			        "%s:%ld: time t_detect_s %.6f of robot %ld is not after %.6f (line %ld): "
+			        "the rolling-shutter times must increase strictly: check the readout given "
+			        "to track",
+			        row->path, row->line, s.t_meas_s, id, p->t_meas_s, p->line);
 	}
 	if (tr->n == tr->cap) {
 		size_t cap = tr->cap ? 2 * tr->cap : 256;

@@ -99,13 +99,20 @@ const char *wl_heading_source_name(wl_heading_source s);
 
 typedef struct {
 	int id;
-	int ok;             /* 0: lost this frame (pose fields NaN) */
+	int ok;             /* 1: a pose this frame (detected, or held); 0: lost (pose fields NaN) */
 	double u_px, v_px;  /* coded pixels, our centre convention */
 	double x_m, y_m;    /* tank frame, on the robot's marker plane */
 	double heading_rad; /* (-pi, pi], NaN when unknown */
 	double margin;      /* tag decision margin, or blob area in px */
 	double size_px;     /* tag side, or blob diameter, in px */
 	wl_heading_source heading_source;
+	/* held (RAW.csv status `held`): the detector missed, and the pose was
+	 * refined against the image from the prediction; ok is 1 too */
+	int held;
+	double hold_score; /* held: match quality, 0..1; NaN otherwise */
+	/* when the row through the pose's centre was exposed: t_s + v_px /
+	 * height * readout (rolling shutter), t_s without; NaN when lost */
+	double t_detect_s;
 } wl_track_obs;
 
 /* A frame as the tracker sees it (borrowed). */

@@ -312,6 +312,9 @@ static int tag_pose(const wl_tracker *tr, const robot *r, const wl_tagdet_hit *h
 	o->margin = h->margin;
 	o->size_px = side / 4.0;
 	o->heading_source = WL_HS_TAG;
+	o->held = 0;
+	o->hold_score = NAN;
+	o->t_detect_s = NAN;
 	return 1;
 }
 
@@ -403,6 +406,7 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 	memset(&o, 0, sizeof o);
 	o.id = r->spec.id;
 	o.ok = 1;
+	o.hold_score = o.t_detect_s = NAN;
 	o.margin = fb.area_px;
 	size = 2.0 * sqrt(fb.area_px / M_PI);
 	if (r->spec.back.set) {
@@ -571,6 +575,7 @@ wl_status wl_tracker_frame(wl_tracker *tr, const wl_track_image *img, const wl_t
 			tr->obs[k].id = r->spec.id;
 			tr->obs[k].u_px = tr->obs[k].v_px = tr->obs[k].x_m = tr->obs[k].y_m = NAN;
 			tr->obs[k].heading_rad = tr->obs[k].margin = tr->obs[k].size_px = NAN;
+			tr->obs[k].hold_score = tr->obs[k].t_detect_s = NAN;
 		}
 		k++;
 	}

@@ -26,6 +26,6 @@ LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail 
 compare raw.csv clip.truth.csv --pos-mm 2 --head-deg 1 --ok 0.99 --ccw 3
 grep -q '[0-9],[0-9][0-9]*,[0-9]' raw.csv || fail "no rows"
 if grep -Eq '[0-9],[0-9]{6}[^0-9,]' raw.csv; then fail "decimal commas in raw.csv"; fi
-awk -F, 'NR > 1 && NF != 12 { exit 1 }' raw.csv || fail "a row of raw.csv has not 12 cells"
+awk -F, 'NR > 1 && NF != 14 { exit 1 }' raw.csv || fail "a row of raw.csv has not 14 cells"
 head -c 8 trail.png | od -An -tx1 | grep -q '89 50 4e 47 0d 0a 1a 0a' || fail "trail.png is not a PNG"
 echo "ok"

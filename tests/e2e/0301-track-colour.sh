@@ -25,7 +25,7 @@ CSV
 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --mode colour --robots robots.csv --quiet ||
 	fail "track exited $?"
 compare raw.csv clip.truth.csv --pos-mm 5 --head-deg 2 --ok 0.99
-grep -q ',caps$' raw.csv || fail "heading_source is not caps"
+grep -q ',caps,' raw.csv || fail "heading_source is not caps"
 # the front cap's hue, read back at its first-frame pixel position
 read -r u v < <(awk -F, 'NR == 2 { print $4, $5 }' raw.csv)
 "$WAKELINE" colours clip.mp4 --at 0 --box "$(printf '%.0f,%.0f,3,3' "$u" "$v")" > colours.txt ||

@@ -302,7 +302,8 @@ static void expect_raw_error(const char *text, const char *needle)
 		fail_msg("error '%s' lacks '%s'", err.msg, needle);
 }
 
-#define HDR "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n"
+#define HDR_BASE "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source"
+#define HDR HDR_BASE "\n"
 #define ROW(t, f) t "," f ",1,10,10,0.1,0.2,0.3,ok,50,30,tag\n"
 
 static void test_raw_errors(void **state)
@@ -317,7 +318,7 @@ static void test_raw_errors(void **state)
 	expect_raw_error(HDR ROW("0.0", "0") ROW("0.05", "1") ROW("0.06", "1"),
 	                 "RAW.csv:4: frame 1 of robot 1 appears twice");
 	expect_raw_error(HDR ROW("0.0", "0") "0.05,1,1,,,,,,maybe,,,\n",
-	                 "RAW.csv:3: column 'status': 'maybe'");
+	                 "RAW.csv:3: column 'status': 'maybe' is not 'ok', 'held' or 'lost'");
 	expect_raw_error(HDR, "no data rows");
 	expect_raw_error("", "empty");
 }
@@ -336,7 +337,39 @@ static void test_raw_ok(void **state)
 	assert_true(raw->tracks[1].s[0].has_pos);
 	assert_false(raw->tracks[1].s[0].has_heading);
 	assert_int_equal(raw->tracks[0].s[2].line, 5);
+	assert_float_equal(raw->tracks[0].s[2].t_meas_s, 0.08, 1e-12); /* no t_detect_s: t_s */
 	wl_clean_raw_destroy(raw);
+}
+
+/* RAW.csv of issue 17: status held (a pose, flagged), hold_score, and
+ * t_detect_s as the time of the pose; a lost row keeps the last offset. */
+#define HDR17 HDR_BASE ",hold_score,t_detect_s\n"
+static void test_raw_held_and_detect_time(void **state)
+{
+	const char *text = HDR17 "0.0,0,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.004\n"
+	                         "0.04,1,1,10,10,0.11,0.2,0.3,held,,30,tag,0.870,0.0445\n"
+	                         "0.08,2,1,,,,,,lost,,,,,\n"
+	                         "0.12,3,1,10,10,0.13,0.2,0.3,ok,50,30,tag,,0.125\n";
+	wl_clean_raw *raw = NULL;
+	wl_err err = {0};
+	(void)state;
+	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
+	assert_int_equal(raw->tracks[0].n, 4);
+	assert_false(raw->tracks[0].s[0].held);
+	assert_true(raw->tracks[0].s[1].held);
+	assert_true(raw->tracks[0].s[1].has_pos);
+	assert_float_equal(raw->tracks[0].s[0].t_meas_s, 0.004, 1e-12);
+	assert_float_equal(raw->tracks[0].s[1].t_meas_s, 0.0445, 1e-12);
+	assert_float_equal(raw->tracks[0].s[2].t_meas_s, 0.08 + 0.0045, 1e-12);
+	assert_float_equal(raw->tracks[0].s[3].t_meas_s, 0.125, 1e-12);
+	wl_clean_raw_destroy(raw);
+	expect_raw_error(HDR17 "0.0,0,1,10,10,0.1,0.2,0.3,held,,30,tag,high,0.0\n",
+	                 "RAW.csv:2: column 'hold_score': 'high' is not a number");
+	expect_raw_error(HDR17 "0.5,0,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.4\n",
+	                 "RAW.csv:2: column 't_detect_s': 0.400000 is not within a second after t_s");
+	expect_raw_error(HDR17 "0.0,0,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.030\n"
+	                       "0.02,1,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.021\n",
+	                 "RAW.csv:3: time t_detect_s 0.021000");
 }
 
 /* ----------------------------------------------------------- outline */
@@ -421,12 +454,19 @@ static void test_stage_synthetic(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-	        cmocka_unit_test(test_sg_published_tables), cmocka_unit_test(test_sg_scipy),
-	        cmocka_unit_test(test_sg_uneven_exact),     cmocka_unit_test(test_rts_statsmodels_cv),
-	        cmocka_unit_test(test_rts_statsmodels_ca),  cmocka_unit_test(test_rts_zero_q_is_ls_line),
-	        cmocka_unit_test(test_rts_heading_unwrap),  cmocka_unit_test(test_sha256_fips),
-	        cmocka_unit_test(test_raw_errors),          cmocka_unit_test(test_raw_ok),
-	        cmocka_unit_test(test_outline_dist),        cmocka_unit_test(test_stage_synthetic),
+	        cmocka_unit_test(test_sg_published_tables),
+	        cmocka_unit_test(test_sg_scipy),
+	        cmocka_unit_test(test_sg_uneven_exact),
+	        cmocka_unit_test(test_rts_statsmodels_cv),
+	        cmocka_unit_test(test_rts_statsmodels_ca),
+	        cmocka_unit_test(test_rts_zero_q_is_ls_line),
+	        cmocka_unit_test(test_rts_heading_unwrap),
+	        cmocka_unit_test(test_sha256_fips),
+	        cmocka_unit_test(test_raw_errors),
+	        cmocka_unit_test(test_raw_ok),
+	        cmocka_unit_test(test_raw_held_and_detect_time),
+	        cmocka_unit_test(test_outline_dist),
+	        cmocka_unit_test(test_stage_synthetic),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
