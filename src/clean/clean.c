@@ -25,6 +25,11 @@
  * by about W^2 / (24 tau); 2 gave the smallest trim errors on the synthetic
  * runs of tests/e2e/0401 (18 seeds: |error| <= 0.27 s, period 0.5 s) */
 #define SETTLE_MAX_MULT 2
+/* RAW.csv `held` poses (refined against the image where the detector
+ * missed) get this many times the measurement variance of a detection (3x
+ * its standard deviation) in the RTS smoother, and are left out of the noise
+ * estimate; tests/e2e/0310 measures held poses at about that spread */
+#define HELD_VAR_SCALE 9.0
 
 /* ---------------------------------------------------------------- helpers */
 
@@ -166,6 +171,7 @@ typedef struct {
 	size_t *src;              /* index into the raw track */
 	int *piece;               /* piece number of each sample */
 	double *t, *zx, *zy, *zh; /* measurements, NaN when none */
+	double *rs;               /* measurement variance scale: 1, or HELD_VAR_SCALE for held poses */
 	unsigned char *mpos, *mh; /* 1: rejected as outlier (after smoothing: the union) */
 	unsigned char *why;       /* bit 0: position beyond the gate, bit 1: heading */
 	/* smoothed state */
@@ -186,6 +192,7 @@ static void work_free(work *w)
 	free(w->zx);
 	free(w->zy);
 	free(w->zh);
+	free(w->rs);
 	free(w->mpos);
 	free(w->mh);
 	free(w->why);
@@ -215,6 +222,7 @@ static int work_alloc(work *w, size_t n, size_t npieces)
 	w->zx = calloc(m, sizeof *w->zx);
 	w->zy = calloc(m, sizeof *w->zy);
 	w->zh = calloc(m, sizeof *w->zh);
+	w->rs = calloc(m, sizeof *w->rs);
 	w->mpos = calloc(m, 1);
 	w->mh = calloc(m, 1);
 	w->why = calloc(m, 1);
@@ -230,9 +238,9 @@ static int work_alloc(work *w, size_t n, size_t npieces)
 	w->seg = calloc(m, sizeof *w->seg);
 	w->pstart = calloc(npieces + 1, sizeof *w->pstart);
 	w->phas_h = calloc(npieces + 1, 1);
-	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->mpos && w->mh && w->why && w->x &&
-	       w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg && w->pstart &&
-	       w->phas_h;
+	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->rs && w->mpos && w->mh && w->why &&
+	       w->x && w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg &&
+	       w->pstart && w->phas_h;
 }
 
 static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
@@ -316,7 +324,8 @@ static wl_status build_pieces(const wl_clean_raw_track *tr, const wl_clean_param
 			const wl_clean_raw_sample *s = &tr->s[i];
 			w->src[n] = i;
 			w->piece[n] = (int)q;
-			w->t[n] = s->t_s;
+			w->t[n] = s->t_meas_s; /* the pose's own time (rolling shutter) */
+			w->rs[n] = s->held ? HELD_VAR_SCALE : 1.0;
 			w->zx[n] = s->has_pos ? s->x_m : NAN;
 			w->zy[n] = s->has_pos ? s->y_m : NAN;
 			w->zh[n] = s->has_pos && s->has_heading ? s->heading_rad : NAN;
@@ -350,7 +359,7 @@ static double mad_sigma(const work *w, const double *z, int angular)
 	for (size_t q = 0; q < w->npieces; q++) {
 		size_t a = (size_t)-1, b = (size_t)-1;
 		for (size_t i = w->pstart[q]; i < w->pstart[q + 1]; i++) {
-			if (!isfinite(z[i]))
+			if (!isfinite(z[i]) || w->rs[i] != 1.0) /* detections only: held poses are noisier */
 				continue;
 			if (a != (size_t)-1 && b != (size_t)-1) {
 				double h1 = w->t[b] - w->t[a], h2 = w->t[i] - w->t[b];
@@ -411,6 +420,8 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 		for (size_t i = a; i < b; i++) {
 			double nu[2], S[2], chi = 0, lls = 0;
 			int have = 1;
+			wl_kin_cfg c = g->cfg; /* a held pose's variance is inflated */
+			c.r *= w->rs[i];
 			for (int k = 0; k < g->naxes; k++) {
 				if (i > a)
 					wl_kin_predict(&g->cfg, &g->st[k][i - 1], w->t[i] - w->t[i - 1],
@@ -423,7 +434,7 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 			if (!have || (mask_in && mask_in[i]))
 				continue;
 			for (int k = 0; k < g->naxes; k++) {
-				wl_kin_innov(&g->cfg, &g->st[k][i], g->z[k][i], &nu[k], &S[k]);
+				wl_kin_innov(&c, &g->st[k][i], g->z[k][i], &nu[k], &S[k]);
 				chi += nu[k] * nu[k] / S[k];
 				lls += log(2 * WL_PI * S[k]);
 			}
@@ -435,7 +446,7 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 			}
 			ll += -0.5 * (lls + chi);
 			for (int k = 0; k < g->naxes; k++)
-				wl_kin_update(&g->cfg, &g->st[k][i], nu[k], S[k]);
+				wl_kin_update(&c, &g->st[k][i], nu[k], S[k]);
 		}
 	}
 	return ll;
@@ -511,7 +522,7 @@ static size_t post_check(const work *w, const group *g, unsigned char *mask, dou
 			e = g->z[k][i] - g->st[k][i].xs[0];
 			if (g->cfg.angular)
 				e = wrap_pi(e);
-			chi += e * e / g->cfg.r;
+			chi += e * e / (g->cfg.r * w->rs[i]);
 		}
 		if (have && chi > gate) {
 			mask[i] = 1;
