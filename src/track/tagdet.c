@@ -161,3 +161,15 @@ int wl_tagdet_render_cells(const char *family, int id, unsigned char *cells, int
 	fe->destroy(f);
 	return tw;
 }
+
+int wl_tagdet_border_width(const char *family)
+{
+	const family_entry *fe = find_family(family);
+	apriltag_family_t *f;
+	int wab;
+	if (!fe || !(f = fe->create()))
+		return 0;
+	wab = f->width_at_border;
+	fe->destroy(f);
+	return wab;
+}
