@@ -34,6 +34,12 @@ static const char usage[] =
         "  --sharpening F          AprilTag decode_sharpening (default 0.25)\n"
         "  --max-hamming N         corrected bits accepted: 0 (default) or 1\n"
         "  --min-margin M          minimum decision margin (default 20; 60 with 1 bit corrected)\n"
+        "  --hold-max-s S          hold a robot the detector misses for up to S s after its\n"
+        "                          last detection (status held; default 1.5; 0: never)\n"
+        "  --hold-min-score Q      lowest match quality held, 0-1 (default 0.4)\n"
+        "  --readout-ms R          rolling shutter: top-to-bottom readout of the coded rows,\n"
+        "                          ms (default: CAL.json's readout_ms, else 0); each pose is\n"
+        "                          timed by its row (t_detect_s)\n"
         "  --trail TRAIL.png       the first frame with each robot's path\n"
         "  --overlay QC.mp4        the clip with poses, ids, trails and tank outline\n"
         "  --threads N             decoder threads (default: all cores)\n"
@@ -58,7 +64,10 @@ enum {
 	O_MARGIN,
 	O_TRAIL,
 	O_OVERLAY,
-	O_THREADS
+	O_THREADS,
+	O_HOLD_MAX,
+	O_HOLD_SCORE,
+	O_READOUT
 };
 
 typedef struct {
@@ -99,6 +108,9 @@ int cmd_track(int argc, char **argv)
 	                                   {"trail", required_argument, NULL, O_TRAIL},
 	                                   {"overlay", required_argument, NULL, O_OVERLAY},
 	                                   {"threads", required_argument, NULL, O_THREADS},
+	                                   {"hold-max-s", required_argument, NULL, O_HOLD_MAX},
+	                                   {"hold-min-score", required_argument, NULL, O_HOLD_SCORE},
+	                                   {"readout-ms", required_argument, NULL, O_READOUT},
 	                                   {"quiet", no_argument, NULL, 'q'},
 	                                   {"help", no_argument, NULL, 'h'},
 	                                   {NULL, 0, NULL, 0}};
@@ -110,7 +122,7 @@ int cmd_track(int argc, char **argv)
 	progress_ctx pc;
 	const char *cal_path = NULL, *ids = NULL, *robots = NULL;
 	int quiet = 0, c, rc, margin_set = 0;
-	double d;
+	double d, readout_ms = NAN;
 	wl_track_opts_init(&o);
 	memset(&ro, 0, sizeof ro);
 	optind = 1;
@@ -189,6 +201,18 @@ int cmd_track(int argc, char **argv)
 				return cli_usage_error("track", "--threads '%s': give 0 (all cores) to 64",
 				                       optarg);
 			break;
+		case O_HOLD_MAX:
+			if (parse_float_opt("--hold-max-s", optarg, 0, 60, &o.hold_max_s))
+				return WL_EXIT_USAGE;
+			break;
+		case O_HOLD_SCORE:
+			if (parse_float_opt("--hold-min-score", optarg, 0, 1, &o.hold_min_score))
+				return WL_EXIT_USAGE;
+			break;
+		case O_READOUT:
+			if (parse_float_opt("--readout-ms", optarg, 0, 1000, &readout_ms))
+				return WL_EXIT_USAGE;
+			break;
 		case 'q':
 			quiet = 1;
 			break;
@@ -222,6 +246,8 @@ int cmd_track(int argc, char **argv)
 		wl_calib_release(&cal);
 		return cli_fail("track", &err);
 	}
+	/* the readout: the option, else the camera's in CAL.json */
+	o.readout_s = (isnan(readout_ms) ? cal.readout_ms : readout_ms) / 1000.0;
 	if (!isnan(o.plane_height_m) && cal.cam.water_depth_m > 0 && o.plane_height_m < cal.cam.water_depth_m)
 		cli_warn("track",
 		         "plane %.3f m lies under the water surface (%.3f m): positions are refracted",
@@ -236,12 +262,18 @@ int cmd_track(int argc, char **argv)
 		return cli_fail("track", &err);
 	if (sum.warning[0])
 		cli_warn("track", "%s", sum.warning);
-	if (!quiet)
-		printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%), %lld full-frame and %lld "
-		       "window "
-		       "searches\n",
-		       ro.raw_path, (long long)sum.frames, sum.n_robots, (long long)sum.ok_rows,
-		       (long long)sum.rows, sum.rows ? 100.0 * sum.ok_rows / sum.rows : 0.0,
-		       (long long)sum.stats.full_scans, (long long)sum.stats.window_scans);
+	if (!quiet) {
+		int64_t det = sum.ok_rows - sum.stats.held_rows;
+		printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%) and %lld held (%.1f%%), "
+		       "%lld "
+		       "full-frame and %lld window searches; %lld lost rows: %lld searched, %lld out of "
+		       "view\n",
+		       ro.raw_path, (long long)sum.frames, sum.n_robots, (long long)det, (long long)sum.rows,
+		       sum.rows ? 100.0 * det / sum.rows : 0.0, (long long)sum.stats.held_rows,
+		       sum.rows ? 100.0 * sum.stats.held_rows / sum.rows : 0.0,
+		       (long long)sum.stats.full_scans, (long long)sum.stats.window_scans,
+		       (long long)sum.stats.lost_rows, (long long)sum.stats.lost_searched,
+		       (long long)sum.stats.lost_out_of_view);
+	}
 	return cli_finish("track", WL_EXIT_OK);
 }

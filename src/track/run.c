@@ -9,6 +9,13 @@
  * the region the tracker asks for (its windows, grown by the motion over
  * the queue's length: wl_tracker_roi); whole frames again when a full-frame
  * search may be needed.
+ *
+ * Deterministic: the region of frame k is the one the tracker asked for
+ * right after frame k - n (n buffers), kept in a ring indexed by frame
+ * number.  The decoder cannot start frame k before frame k - n has left the
+ * queue, so that region is always known by then, and it does not depend on
+ * how far ahead the decoder runs: the same clip gives the same RAW.csv
+ * whatever the thread timing.
  */
 #define _POSIX_C_SOURCE 200809L
 #include "track/track.h"
@@ -42,7 +49,8 @@ typedef struct {
 	wl_decoder *dec;
 	int want_rgb;
 	int64_t damaged;
-	int roi[4]; /* what to copy next (set by the tracking thread) */
+	int64_t produced; /* frames the decoder thread has taken a buffer for */
+	int (*rois)[4];   /* n entries: the region of frame k is rois[k % n] */
 } queue;
 
 static void copy_plane(uint8_t *dst, int dst_stride, const uint8_t *src, int stride, int row_bytes, int h)
@@ -67,7 +75,10 @@ static void *decode_main(void *arg)
 			break;
 		}
 		s = &q->slots[(q->head + q->count) % q->n];
-		memcpy(s->roi, q->roi, sizeof s->roi);
+		/* set by the tracking thread after frame produced - n, which has
+		 * left the queue since this buffer is free */
+		memcpy(s->roi, q->rois[q->produced % q->n], sizeof s->roi);
+		q->produced++;
 		pthread_mutex_unlock(&q->m);
 		wl_err_clear(&e);
 		st = wl_decoder_next(q->dec, &f, &e);
@@ -141,6 +152,7 @@ static void queue_stop(queue *q)
 
 static void free_slots(queue *q)
 {
+	free(q->rois);
 	for (int i = 0; q->slots && i < q->n; i++) {
 		free(q->slots[i].luma);
 		free(q->slots[i].rgb);
@@ -152,7 +164,8 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 {
 	q->n = n;
 	q->slots = calloc((size_t)n, sizeof *q->slots);
-	if (!q->slots)
+	q->rois = calloc((size_t)n, sizeof *q->rois); /* zero: whole frames first */
+	if (!q->slots || !q->rois)
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the frame queue");
 	for (int i = 0; i < n; i++) {
 		slot *s = &q->slots[i];
@@ -204,7 +217,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	q.dec = dec;
 	q.want_rgb = want_rgb;
-	/* frames already queued (or being decoded) when a new region is set */
+	/* a region is set nq frames ahead (one more for a variable rate) */
 	lookahead_s = (nq + 2) / (info->fps_hint > 0 ? info->fps_hint : 30.0);
 	if (pthread_create(&th, NULL, decode_main, &q) != 0) {
 		st = wl_err_set(err, WL_ENOMEM, "cannot start the decoder thread");
@@ -238,12 +251,14 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 			sum->ok_rows += obs[i].ok;
 		if (n > sum->n_robots)
 			sum->n_robots = n;
-		if (!want_rgb) {
-			int roi[4];
-			if (wl_tracker_roi(tr, lookahead_s, roi))
+		{
+			/* the region of frame sum->frames - 1 + nq (its entry held this
+			 * frame's, which is done with) */
+			int roi[4] = {0, 0, 0, 0};
+			if (!want_rgb && wl_tracker_roi(tr, lookahead_s, roi))
 				roi[2] = roi[3] = 0;
 			pthread_mutex_lock(&q.m);
-			memcpy(q.roi, roi, sizeof roi);
+			memcpy(q.rois[(sum->frames - 1) % nq], roi, sizeof roi);
 			pthread_mutex_unlock(&q.m);
 		}
 		queue_pop(&q);
