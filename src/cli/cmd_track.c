@@ -35,7 +35,7 @@ static const char usage[] =
         "  --max-hamming N         corrected bits accepted: 0 (default) or 1\n"
         "  --min-margin M          minimum decision margin (default 20; 60 with 1 bit corrected)\n"
         "  --hold-max-s S          hold a robot the detector misses for up to S s after its\n"
-        "                          last detection (status held; default 1.5; 0: never)\n"
+        "                          last detection (status held; default 3; 0: never)\n"
         "  --hold-min-score Q      lowest match quality held, 0-1 (default 0.4)\n"
         "  --readout-ms R          rolling shutter: top-to-bottom readout of the coded rows,\n"
         "                          ms (default: CAL.json's readout_ms, else 0); each pose is\n"

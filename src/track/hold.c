@@ -45,11 +45,15 @@
 #define EDGE_FRAC 0.05  /* ... nor below this fraction of the contrast */
 #define MAX_FRAC 0.1    /* ... and never rises above this fraction of it */
 #define AGREE_FRAC 0.25 /* a sample agrees with the fit within this fraction of the contrast */
+#define WL_MIN(a, b) ((a) < (b) ? (a) : (b))
+#define NCAND 3       /* places of the coarse search refined */
+#define CAND_SEP 0.25 /* ... at least this many tag sides apart */
 
 struct wl_tagmodel {
 	int tw, wab; /* cells across the card, and across the black square's outer edge */
 	unsigned char cells[MAX_TW * MAX_TW];
-	int n;                 /* samples */
+	unsigned char data[MAX_TW * MAX_TW]; /* 1: the cell carries a bit of the code */
+	int n;                               /* samples */
 	double a[MAX_SAMPLES]; /* tag coordinates (AprilTag's: x right, y down, +-1 at the black square's
 	                          edge) */
 	double b[MAX_SAMPLES];
@@ -66,7 +70,8 @@ wl_status wl_tagmodel_create(const char *family, int id, wl_tagmodel **out, wl_e
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the tag model");
 	m->tw = wl_tagdet_render_cells(family, id, m->cells, (int)sizeof m->cells);
 	m->wab = wl_tagdet_border_width(family);
-	if (m->tw <= 0 || m->tw > MAX_TW || m->wab <= 0) {
+	if (m->tw <= 0 || m->tw > MAX_TW || m->wab <= 0 ||
+	    wl_tagdet_data_cells(family, m->data, (int)sizeof m->data) != m->tw) {
 		free(m);
 		return wl_err_set(err, WL_EINVAL, "no tag model for id %d of family '%s'", id, family);
 	}
@@ -225,57 +230,57 @@ static double corr_at(const wl_tagmodel *m, const geom *g, const view *vw, const
 	return (sIT - sI * sT / n) / sqrt(vI * vT);
 }
 
+/* The agreement of the image with the pattern at pose p given its levels
+ * ab: the harmonic mean of the fractions of dark and of light samples
+ * (every `stride`-th) within AGREE_FRAC of the contrast.  Unlike the
+ * correlation it is not pulled by glare or an occluder's edge; -2 when
+ * too few samples are readable. */
+static double agree_at(const wl_tagmodel *m, const geom *g, const view *vw, const wl_tagpose *p,
+                       const double ab[2], int stride)
+{
+	quadmap qm;
+	double cut = AGREE_FRAC * ab[1], nd = 0, nl = 0, ad = 0, al = 0, n = 0, fd, fl;
+	if (!pose_map(g, p, &qm, NULL))
+		return -2;
+	for (int i = 0; i < m->n; i += stride) {
+		double u, v, I, T = m->T[i];
+		int dark = T < 0.5;
+		nd += dark;
+		nl += !dark;
+		map_tag(&qm, m->a[i], m->b[i], &u, &v);
+		if (!sample(vw, u, v, &I))
+			continue;
+		n++;
+		if (fabs(I - ab[0] - ab[1] * T) <= cut) {
+			ad += dark;
+			al += !dark;
+		}
+	}
+	if (n < 0.25 * m->n / stride || nd < 1 || nl < 1)
+		return -2;
+	fd = ad / nd;
+	fl = al / nl;
+	return fd + fl > 0 ? 2 * fd * fl / (fd + fl) : 0;
+}
+
 static int cmp_double(const void *a, const void *b)
 {
 	double x = *(const double *)a, y = *(const double *)b;
 	return x < y ? -1 : x > y;
 }
 
-int wl_tagmodel_fit(wl_tagmodel *m, const double corners[4][2], wl_plane_to_px_fn f, const void *ctx,
-                    const uint8_t *img, int stride, const int area[4], const wl_tagpose *guess,
-                    const double ab[2], double search_px, wl_tagpose *out, wl_tagfit *fit)
+/* Gauss-Newton from p, then the quality at the pose reached (see the top). */
+static int refine(wl_tagmodel *m, const geom *gp, const view *vwp, double side, double mpp,
+                  const double ab[2], wl_tagpose p, wl_tagpose *out, wl_tagfit *fit)
 {
-	geom g = {corners, f, ctx};
-	view vw = {img, stride, area[0], area[1], area[0] + area[2], area[1] + area[3]};
-	double pc[4][2], side = 0, mpp, best = -3, eps[3];
+	geom g = *gp;
+	view vw = *vwp;
+	double pc[4][2], eps[3];
 	double *r = m->r, *tmp = m->tmp;
 	double alpha = 0, beta = 0, sigma = 0;
-	wl_tagpose p = *guess;
 	quadmap qm;
-	int it, nsteps;
+	int it;
 	memset(fit, 0, sizeof *fit);
-	*out = *guess;
-	if (!pose_map(&g, &p, &qm, pc))
-		return 0;
-	for (int k = 0; k < 4; k++)
-		side += hypot(pc[(k + 1) % 4][0] - pc[k][0], pc[(k + 1) % 4][1] - pc[k][1]);
-	side /= 4;
-	if (!(side >= 4))
-		return 0;
-	/* the pattern blurred over about a pixel (2 tag units span `side` px) */
-	if (fabs(m->blur - 2.0 / side) > 0.25 * m->blur)
-		build_samples(m, 2.0 / side);
-	/* metres per pixel on the plane, from the corners' spread */
-	mpp = hypot(corners[1][0] - corners[0][0], corners[1][1] - corners[0][1]) / side;
-	/* coarse search: shifts on a 1 px grid and three turns, by correlation */
-	nsteps = (int)ceil(search_px);
-	if (nsteps > 0) {
-		wl_tagpose c0 = p, bp = p;
-		for (int a = -1; a <= 1; a++)
-			for (int dy = -nsteps; dy <= nsteps; dy++)
-				for (int dx = -nsteps; dx <= nsteps; dx++) {
-					wl_tagpose q = {c0.x_m + dx * mpp, c0.y_m + dy * mpp,
-					                c0.up_rad + 4 * WL_DEG * a};
-					double c = corr_at(m, &g, &vw, &q, COARSE_STRIDE);
-					if (c > best) {
-						best = c;
-						bp = q;
-					}
-				}
-		if (best <= -2)
-			return 0;
-		p = bp;
-	}
 	/* Gauss-Newton with Tukey weights on (x, y, up, alpha, beta) */
 	eps[0] = eps[1] = 0.25 * mpp;
 	eps[2] = 0.25 / side;
@@ -430,6 +435,53 @@ int wl_tagmodel_fit(wl_tagmodel *m, const double corners[4][2], wl_plane_to_px_f
 		fit->score = ad > 0 && al > 0 ? 2 * fit->frac_dark * fit->frac_light /
 		                                        (fit->frac_dark + fit->frac_light)
 		                              : 0;
+		/* the code itself: every other tag of the family shares the border,
+		 * and half of any two codes' bits agree, so the pattern's agreement
+		 * alone cannot tell this tag from another; read the centre of each
+		 * code cell (the mean of its four central samples) and compare.  A
+		 * dark occluder turns light bits dark, glare dark bits light; only
+		 * another tag gets both kinds wrong. */
+		{
+			int per = SPC * m->tw, bits_read = 0, bits_total = 0, wrong_dark = 0, wrong_light = 0;
+			int n_dark = 0, ok_dark = 0, ok_light = 0;
+			for (int cr = 0; cr < m->tw; cr++)
+				for (int cc = 0; cc < m->tw; cc++) {
+					double sum = 0, mean;
+					int ns = 0;
+					if (!m->data[cr * m->tw + cc])
+						continue;
+					bits_total++;
+					n_dark += !m->cells[cr * m->tw + cc];
+					for (int j = SPC / 2 - 1; j <= SPC / 2; j++)
+						for (int i = SPC / 2 - 1; i <= SPC / 2; i++) {
+							int si = (cr * SPC + j) * per + cc * SPC + i;
+							map_tag(&qm, m->a[si], m->b[si], &u, &v);
+							if (sample(&vw, u, v, &I)) {
+								sum += I;
+								ns++;
+							}
+						}
+					if (ns < 4)
+						continue;
+					mean = sum / ns;
+					if (fabs(mean - alpha) <= cut || fabs(mean - alpha - beta) <= cut) {
+						int light = fabs(mean - alpha - beta) < fabs(mean - alpha);
+						bits_read++;
+						wrong_dark += !light && m->cells[cr * m->tw + cc];
+						wrong_light += light && !m->cells[cr * m->tw + cc];
+						ok_dark += !light && !m->cells[cr * m->tw + cc];
+						ok_light += light && m->cells[cr * m->tw + cc];
+					}
+				}
+			fit->bits_read = bits_read;
+			fit->bits_wrong = wrong_dark + wrong_light;
+			fit->bits_wrong_dark = wrong_dark;
+			fit->bits_wrong_light = wrong_light;
+			fit->bits_dark = n_dark;
+			fit->bits_ok_dark = ok_dark;
+			fit->bits_ok_light = ok_light;
+			fit->bits_total = bits_total;
+		}
 		fit->contrast = beta;
 		fit->sigma = sigma;
 		map_tag(&qm, 0, 0, &fit->u_px, &fit->v_px);
@@ -444,6 +496,100 @@ int wl_tagmodel_fit(wl_tagmodel *m, const double corners[4][2], wl_plane_to_px_f
 	}
 	*out = p;
 	return 1;
+}
+
+int wl_tagmodel_fit(wl_tagmodel *m, const double corners[4][2], wl_plane_to_px_fn f, const void *ctx,
+                    const uint8_t *img, int stride, const int area[4], const wl_tagpose *guess,
+                    const double ab[2], double search_px, wl_tagpose *out, wl_tagfit *fit)
+{
+	geom g = {corners, f, ctx};
+	view vw = {img, stride, area[0], area[1], area[0] + area[2], area[1] + area[3]};
+	double pc[4][2], side = 0, mpp, cs[NCAND];
+	wl_tagpose cand[NCAND];
+	quadmap qm;
+	int nc = 0, nsteps, got = 0;
+	memset(fit, 0, sizeof *fit);
+	*out = *guess;
+	if (!pose_map(&g, guess, &qm, pc))
+		return 0;
+	for (int k = 0; k < 4; k++)
+		side += hypot(pc[(k + 1) % 4][0] - pc[k][0], pc[(k + 1) % 4][1] - pc[k][1]);
+	side /= 4;
+	if (!(side >= 4))
+		return 0;
+	/* the pattern blurred over about a pixel (2 tag units span `side` px) */
+	if (fabs(m->blur - 2.0 / side) > 0.25 * m->blur)
+		build_samples(m, 2.0 / side);
+	/* metres per pixel on the plane, from the corners' spread */
+	mpp = hypot(corners[1][0] - corners[0][0], corners[1][1] - corners[0][1]) / side;
+	/* coarse search: shifts on a 1 px grid and three turns, scored by the
+	 * agreement with the pattern at the levels given (by correlation
+	 * without them); the NCAND best places a quarter side apart are
+	 * refined (a tag partly covered can score best somewhat off its place) */
+	cand[nc] = *guess;
+	cs[nc++] = -3;
+	nsteps = (int)ceil(search_px);
+	if (nsteps > 0) {
+		nc = 0;
+		for (int a = -1; a <= 1; a++)
+			for (int dy = -nsteps; dy <= nsteps; dy++)
+				for (int dx = -nsteps; dx <= nsteps; dx++) {
+					wl_tagpose q = {guess->x_m + dx * mpp, guess->y_m + dy * mpp,
+					                guess->up_rad + 4 * WL_DEG * a};
+					double c = ab && ab[1] > 0
+					                   ? agree_at(m, &g, &vw, &q, ab, COARSE_STRIDE)
+					                   : corr_at(m, &g, &vw, &q, COARSE_STRIDE);
+					int near = -1, k;
+					if (c <= -2)
+						continue;
+					for (k = 0; k < nc; k++)
+						if (hypot(cand[k].x_m - q.x_m, cand[k].y_m - q.y_m) <
+						    CAND_SEP * side * mpp)
+							near = k;
+					if (near >= 0) {
+						if (c > cs[near]) {
+							cs[near] = c;
+							cand[near] = q;
+						}
+						continue;
+					}
+					if (nc < NCAND) {
+						cs[nc] = c;
+						cand[nc++] = q;
+						continue;
+					}
+					for (k = 0, near = 0; k < nc; k++)
+						if (cs[k] < cs[near])
+							near = k;
+					if (c > cs[near]) {
+						cs[near] = c;
+						cand[near] = q;
+					}
+				}
+		if (nc == 0)
+			return 0;
+	}
+	/* the refined candidate whose code reads best (fewest bits wrong both
+	 * ways), then scores best */
+	for (int k = 0; k < nc; k++) {
+		wl_tagpose p;
+		wl_tagfit fk;
+		double wk, wb;
+		if (!refine(m, &g, &vw, side, mpp, ab, cand[k], &p, &fk) ||
+		    hypot(p.x_m - cand[k].x_m, p.y_m - cand[k].y_m) > 0.25 * side * mpp + 2 * mpp)
+			continue;
+		wk = fk.bits_read ? (double)WL_MIN(fk.bits_wrong_dark, fk.bits_wrong_light) / fk.bits_read
+		                  : 1;
+		wb = fit->bits_read
+		             ? (double)WL_MIN(fit->bits_wrong_dark, fit->bits_wrong_light) / fit->bits_read
+		             : 1;
+		if (!got || wk < wb - 1e-9 || (wk < wb + 1e-9 && fk.score > fit->score)) {
+			*fit = fk;
+			*out = p;
+			got = 1;
+		}
+	}
+	return got;
 }
 
 int wl_tagmodel_levels(wl_tagmodel *m, const double corners_px[4][2], const uint8_t *img, int stride,

@@ -212,6 +212,9 @@ int wl_tagdet_render_cells(const char *family, int id, unsigned char *cells, int
 /* Cells across the black square's outer edge of a family (tag36h11: 8;
  * AprilTag's width_at_border), or 0 for an unknown family. */
 int wl_tagdet_border_width(const char *family);
+/* The cells that carry the code's bits (1) in the layout of
+ * wl_tagdet_render_cells; returns total_width, 0 for an unknown family. */
+int wl_tagdet_data_cells(const char *family, unsigned char *mask, int max_cells);
 
 /* ---- lower level: holding a tag the detector missed (hold.c) ---- */
 
@@ -236,6 +239,14 @@ typedef struct {
 	double frac_light;          /* ... and of its light ones (the white border included) */
 	double frac;                /* fraction of all samples that agree */
 	double corr;                /* correlation of image and pattern over the agreeing samples */
+	int bits_read;              /* code cells whose centre reads clearly dark or light */
+	int bits_wrong;             /* ... and of them, those that differ from this id's code: */
+	int bits_wrong_dark;        /* light in the code, read dark (a dark occluder does this) */
+	int bits_wrong_light;       /* dark in the code, read light (glare does this) */
+	int bits_total;             /* code cells of the family */
+	int bits_dark;              /* ... dark in this id's code (the others are light) */
+	int bits_ok_dark;           /* dark bits read dark */
+	int bits_ok_light;          /* light bits read light */
 	double contrast;            /* fitted white - black, grey levels */
 	double sigma;               /* robust noise scale of the residuals, grey levels */
 	double u_px, v_px, side_px; /* centre and mean side in coded pixels */

@@ -260,6 +260,9 @@ static void test_tag_hold_fit(void **state)
 	assert_true(1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m) < 0.05);
 	assert_true(fabs(got.up_rad - truth.up_rad) < 0.2 * PI / 180);
 	assert_true(fit.score > 0.9);
+	assert_int_equal(fit.bits_total, 36);
+	assert_int_equal(fit.bits_read, 36);
+	assert_int_equal(fit.bits_wrong, 0);
 	/* drawn black 30, white 220: the fit sees the edges a little softer */
 	assert_true(fit.contrast > 170 && fit.contrast < 200);
 	/* glare over a third of it */
