@@ -318,6 +318,129 @@ static void test_tag_hold_fit(void **state)
 	free(img);
 }
 
+/* ---- what the footage needs: blur, noise (light), glare ---- */
+
+/* A 64-bit LCG's normal deviates (Box-Muller), for reproducible noise. */
+static uint64_t fl_rng = 1;
+static double fl_normal(void)
+{
+	double u1, u2;
+	fl_rng = fl_rng * 6364136223846793005ULL + 1442695040888963407ULL;
+	u1 = ((fl_rng >> 11) + 0.5) / 9007199254740992.0;
+	fl_rng = fl_rng * 6364136223846793005ULL + 1442695040888963407ULL;
+	u2 = ((fl_rng >> 11) + 0.5) / 9007199254740992.0;
+	return sqrt(-2 * log(u1)) * cos(2 * PI * u2);
+}
+
+/* One trial: tag 5 (side px, turned 0.4 rad) smeared over `blur` px along
+ * 30 degrees, a glare spot of `gain` levels (sigma side / 4) over it,
+ * noise of `sigma` levels; returns 1 when detected (decimate by the
+ * tracker's rule) and sets *hold_err to the hold fit's error in px (from a
+ * guess 1.5 px off; 99 when it fails or is not accepted). */
+static int footage_trial(double side, double blur, double gain, double sigma, double *hold_err)
+{
+	int w = 160, h = 160, stride = 160, n, ok, area[4] = {0, 0, 160, 160};
+	uint8_t *img = grey_image(h, stride);
+	double *acc = calloc((size_t)w * h, sizeof *acc), cu = 80.3, cv = 79.6, L[4][2], ab[2];
+	int steps = blur > 0 ? (int)ceil(blur) + 1 : 1;
+	wl_tagdet *d = NULL;
+	wl_tagdet_hit hits[4];
+	wl_tagmodel *m = NULL;
+	wl_tagpose truth, guess, got;
+	wl_tagfit fit;
+	for (int k = 0; k < steps; k++) {
+		double off = steps > 1 ? blur * ((double)k / (steps - 1) - 0.5) : 0;
+		memset(img, 200, (size_t)stride * h);
+		draw_tag(img, w, h, stride, 5, cu + off * cos(PI / 6), cv - off * sin(PI / 6), side, 0.4);
+		for (int i = 0; i < w * h; i++)
+			acc[i] += img[i] / (double)steps;
+	}
+	for (int y = 0; y < h; y++)
+		for (int x = 0; x < w; x++) {
+			double g = gain *
+			           exp(-((x - cu - side / 4) * (x - cu - side / 4) + (y - cv) * (y - cv)) /
+			               (2 * side * side / 16)),
+			       v = acc[y * w + x] + g + sigma * fl_normal();
+			img[y * stride + x] = (uint8_t)(v < 0 ? 0 : v > 255 ? 255 : v + 0.5);
+		}
+	assert_int_equal(wl_tagdet_create("tag36h11", 1, &d, NULL), WL_OK);
+	wl_tagdet_set(d, side >= 32 ? 2.0f : 1.0f, 0.0f, 0.25);
+	n = wl_tagdet_detect(d, img, stride, 0, 0, w, h, hits, 4);
+	ok = n == 1 && hits[0].id == 5 && hits[0].hamming == 0 && hits[0].margin >= 20;
+	wl_tagdet_destroy(d);
+	/* the hold, with the levels of a clean view of the tag */
+	assert_int_equal(wl_tagmodel_create("tag36h11", 5, &m, NULL), WL_OK);
+	drawn_pose(cu, cv, side, 0.4, &truth, L);
+	ab[0] = 30; /* draw_tag's black, and white - black */
+	ab[1] = 190;
+	guess = truth;
+	guess.x_m += 0.0012;
+	guess.y_m += 0.0009;
+	*hold_err = 99;
+	if (wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess, ab, 3, &got,
+	                    &fit) &&
+	    fit.score >= 0.4 && fit.bits_ok_dark >= fit.bits_dark / 4 &&
+	    fit.bits_ok_light >= (fit.bits_total - fit.bits_dark) / 4 &&
+	    !(fit.bits_wrong_dark > 1 && fit.bits_wrong_light > 1))
+		*hold_err = 1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m);
+	wl_tagmodel_destroy(m);
+	free(acc);
+	free(img);
+	return ok;
+}
+
+/* The limits docs/track.md and the README quote ("What the footage
+ * needs"), measured on drawn tags (no compression): the longest motion
+ * smear, the strongest noise and the brightest glare spot at which a 30 px
+ * and a 44 px tag are still detected, and held within 0.5 px. */
+static void test_footage_limits(void **state)
+{
+	static const double sides[2] = {30, 44};
+	(void)state;
+	for (int si = 0; si < 2; si++) {
+		double side = sides[si], e, blur_det = 0, blur_hold = 0, sig_det = 0, sig_hold = 0,
+		       gain_det = 0, gain_hold = 0;
+		for (double b = 0; b <= 24; b += 1) {
+			int det = footage_trial(side, b, 0, 0, &e);
+			if (det && blur_det == b - 1 + (b == 0))
+				blur_det = b;
+			if (det || e < 0.5) {
+				if (blur_hold == b - 1 + (b == 0))
+					blur_hold = b;
+			}
+		}
+		/* noise: every one of 5 trials detected */
+		for (double sg = 4; sg <= 64; sg += 4) {
+			int all = 1, hold_all = 1;
+			fl_rng = 7;
+			for (int k = 0; k < 5; k++) {
+				all &= footage_trial(side, 0, 0, sg, &e);
+				hold_all &= e < 0.5;
+			}
+			if (all && sig_det == sg - 4)
+				sig_det = sg;
+			if ((all || hold_all) && sig_hold == sg - 4)
+				sig_hold = sg;
+		}
+		for (double g = 10; g <= 250; g += 10) {
+			int det = footage_trial(side, 0, g, 0, &e);
+			if (det && gain_det == g - 10)
+				gain_det = g;
+			if ((det || e < 0.5) && gain_hold == g - 10)
+				gain_hold = g;
+		}
+		printf("# footage, %.0f px tag (contrast 190 levels): smear up to %.0f px detected, %.0f px "
+		       "held; noise "
+		       "sigma up to %.0f levels detected, %.0f held; a glare spot (sigma side/4) up to +%.0f "
+		       "levels "
+		       "detected, +%.0f held\n",
+		       side, blur_det, blur_hold, sig_det, sig_hold, gain_det, gain_hold);
+		assert_true(blur_det >= 3 && blur_hold >= blur_det);
+		assert_true(sig_det >= 10 && sig_hold >= sig_det);
+		assert_true(gain_det >= 50 && gain_hold > gain_det);
+	}
+}
+
 /* ---- colour ---- */
 
 /* A red cap (radius 9 px) on a white disc with glare over one side (+g
@@ -1082,6 +1205,7 @@ int main(void)
 	        cmocka_unit_test(test_tag_small_sizes),
 	        cmocka_unit_test(test_tag_families),
 	        cmocka_unit_test(test_tag_hold_fit),
+	        cmocka_unit_test(test_footage_limits),
 	        cmocka_unit_test(test_hsv_matches_opencv),
 	        cmocka_unit_test(test_hsv_wrap),
 	        cmocka_unit_test(test_blob_centroid),
