@@ -274,6 +274,12 @@ int cmd_track(int argc, char **argv)
 		       (long long)sum.stats.full_scans, (long long)sum.stats.window_scans,
 		       (long long)sum.stats.lost_rows, (long long)sum.stats.lost_searched,
 		       (long long)sum.stats.lost_out_of_view);
+		if (sum.stats.readout_n >= 30 && isfinite(sum.stats.readout_se_s))
+			printf("%s: rolling shutter: the shear of %lld moving tags gives a readout of %.1f "
+			       "+- %.1f ms "
+			       "(used: %.1f ms)\n",
+			       ro.raw_path, (long long)sum.stats.readout_n, 1000 * sum.stats.readout_s,
+			       1000 * sum.stats.readout_se_s, 1000 * o.readout_s);
 	}
 	return cli_finish("track", WL_EXIT_OK);
 }

@@ -146,6 +146,11 @@ typedef struct {
 	 * lost_out_of_view */
 	int64_t lost_rows, lost_searched, lost_out_of_view;
 	int64_t held_rows, hold_tries;
+	/* the rolling-shutter readout estimated from moving tags' shear (tag
+	 * mode): detections used, the estimate and its standard error, s
+	 * (NaN until there are some) */
+	int64_t readout_n;
+	double readout_s, readout_se_s;
 	/* detections of new ids left out because WL_TRACK_MAX_ROBOTS robots
 	 * were already tracked, and the first such id (-1: none) */
 	int64_t over_limit;

@@ -53,10 +53,12 @@
 #define HOLD_SEARCH_PX 3.0 /* radius of the coarse search of a hold */
 #define HOLD_GROW_PX 2.0   /* ... grown by this per frame missed before */
 #define WL_MAX(a, b) ((a) > (b) ? (a) : (b))
-#define TURN_MIN_MPS 0.01 /* travel slower than this has no direction */
-#define HOLD_GROW_PX 2.0  /* ... grown by this per frame missed before */
+#define READOUT_MAX_DT_S 0.1 /* readout estimate: detections at most this far apart */
+#define TURN_MIN_MPS 0.01    /* travel slower than this has no direction */
+#define HOLD_GROW_PX 2.0     /* ... grown by this per frame missed before */
 #define WL_MAX(a, b) ((a) > (b) ? (a) : (b))
-#define TURN_MIN_MPS 0.01 /* travel slower than this has no direction */
+#define READOUT_MAX_DT_S 0.1 /* readout estimate: detections at most this far apart */
+#define TURN_MIN_MPS 0.01    /* travel slower than this has no direction */
 #define HOLD_TURN_MAX (20 * WL_DEG)
 #define HOLD_CONTRAST_LO 0.4 /* a held tag's contrast against the last detection's */
 #define HOLD_CONTRAST_HI 2.5
@@ -83,7 +85,10 @@ typedef struct {
 	double t_detected;
 	double L[4][2];
 	int has_shape;
-	double det_px[4][2]; /* the last detection's corners, for its levels */
+	double det_px[4][2];     /* the last detection's corners, for its levels */
+	double det_P[4][2];      /* ... on the marker plane */
+	double rs_x, rs_y, rs_t; /* the detection before (for the readout estimate) */
+	int rs_have;
 	double ab[2];
 	int has_levels, no_model;
 	wl_tagmodel *model;
@@ -110,6 +115,7 @@ struct wl_tracker {
 	double t_last_full, t_prev;
 	int any_frame;
 	wl_track_stats st;
+	double rs_yy, rs_zy, rs_zz; /* the readout estimate's normal equations */
 	wl_tagdet_hit hits[MAX_HITS];
 	wl_blob blobs[MAX_BLOBS];
 };
@@ -197,6 +203,7 @@ wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, cons
 	}
 	if (!(tr = calloc(1, sizeof *tr)))
 		return wl_err_set(err, WL_ENOMEM, "out of memory creating the tracker");
+	tr->st.readout_s = tr->st.readout_se_s = NAN;
 	tr->o = *opts;
 	tr->cal = *cal;
 	tr->w = width_px;
@@ -456,6 +463,8 @@ static void take_hits(wl_tracker *tr, int nh, double t)
 			r->L[k][1] = -sin(up) * dx + cos(up) * dy;
 			r->det_px[k][0] = h->p[k][0];
 			r->det_px[k][1] = h->p[k][1];
+			r->det_P[k][0] = P[k][0];
+			r->det_P[k][1] = P[k][1];
 		}
 		r->has_shape = 2; /* 2: its levels are to be measured this frame */
 	}
@@ -556,13 +565,91 @@ static int hold_tag(wl_tracker *tr, robot *r, const wl_track_image *img)
 
 /* After a detection: the tag's levels for later holds (and its model,
  * made on the first detection when holding is on). */
+/* The readout from a moving tag's shear.  Row v of the image is exposed at
+ * t + v / H * readout, so a tag moving at V on its plane shows corner k
+ * displaced by V (v_k - v_c) rho, rho = readout / H.  The true corners are
+ * a square: C + [a -b; b a] l_k (l_k the unit square's corners, mirrored
+ * when the image is).  Linear in (C, a, b) and the one global rho: each
+ * detection of a moving tag adds its normal
+ * equations with (C, a, b) projected out (l is centred and orthogonal, so
+ * the projection is a mean and two dot products).  V comes from the
+ * detection before, when it was on the previous frame. */
+static void readout_shear(wl_tracker *tr, robot *r, double t)
+{
+	static const double l0[4][2] = {{-1, 1}, {1, 1}, {1, -1}, {-1, -1}};
+	double l[4][2], area = 0, vx, vy, vc = 0, y[8], z[8];
+	int have = r->rs_have && t > r->rs_t && t - r->rs_t < READOUT_MAX_DT_S;
+	double px = 0, py = 0;
+	for (int k = 0; k < 4; k++) {
+		px += r->det_P[k][0] / 4;
+		py += r->det_P[k][1] / 4;
+		vc += r->det_px[k][1] / 4;
+	}
+	if (!have) {
+		r->rs_x = px;
+		r->rs_y = py;
+		r->rs_t = t;
+		r->rs_have = 1;
+		return;
+	}
+	vx = (px - r->rs_x) / (t - r->rs_t);
+	vy = (py - r->rs_y) / (t - r->rs_t);
+	r->rs_x = px;
+	r->rs_y = py;
+	r->rs_t = t;
+	/* the unit square mirrored like the plane's quad (shoelace signs) */
+	for (int k = 0; k < 4; k++)
+		area += r->det_P[k][0] * r->det_P[(k + 1) % 4][1] - r->det_P[(k + 1) % 4][0] * r->det_P[k][1];
+	for (int k = 0; k < 4; k++) {
+		l[k][0] = l0[k][0];
+		l[k][1] = area < 0 ? l0[k][1] : -l0[k][1];
+	}
+	for (int k = 0; k < 4; k++) {
+		y[2 * k] = r->det_P[k][0];
+		y[2 * k + 1] = r->det_P[k][1];
+		z[2 * k] = vx * (r->det_px[k][1] - vc);
+		z[2 * k + 1] = vy * (r->det_px[k][1] - vc);
+	}
+	/* project out C (means) and a, b (dot products with l and its turn) */
+	for (int pass = 0; pass < 2; pass++) {
+		double *q = pass ? z : y, mx = 0, my = 0, a = 0, b = 0;
+		for (int k = 0; k < 4; k++) {
+			mx += q[2 * k] / 4;
+			my += q[2 * k + 1] / 4;
+		}
+		for (int k = 0; k < 4; k++) {
+			a += (l[k][0] * (q[2 * k] - mx) + l[k][1] * (q[2 * k + 1] - my)) / 8;
+			b += (-l[k][1] * (q[2 * k] - mx) + l[k][0] * (q[2 * k + 1] - my)) / 8;
+		}
+		for (int k = 0; k < 4; k++) {
+			q[2 * k] -= mx + a * l[k][0] - b * l[k][1];
+			q[2 * k + 1] -= my + b * l[k][0] + a * l[k][1];
+		}
+	}
+	for (int i = 0; i < 8; i++) {
+		tr->rs_yy += y[i] * y[i];
+		tr->rs_zy += z[i] * y[i];
+		tr->rs_zz += z[i] * z[i];
+	}
+	tr->st.readout_n++;
+	if (tr->rs_zz > 0) {
+		double rho = tr->rs_zy / tr->rs_zz, rss = tr->rs_yy - tr->rs_zy * rho;
+		long dof = 4 * tr->st.readout_n - 1;
+		tr->st.readout_s = rho * tr->h;
+		tr->st.readout_se_s = dof > 0 && rss > 0 ? sqrt(rss / dof / tr->rs_zz) * tr->h : NAN;
+	}
+}
+
 static void learn_tag(wl_tracker *tr, robot *r, const wl_track_image *img)
 {
 	int area[4];
 	double ab[2];
-	if (!(tr->o.hold_max_s > 0) || r->has_shape != 2)
+	if (r->has_shape != 2)
 		return;
 	r->has_shape = 1;
+	readout_shear(tr, r, img->t_s);
+	if (!(tr->o.hold_max_s > 0))
+		return;
 	if (!r->model && !r->no_model &&
 	    wl_tagmodel_create(tr->o.family, r->spec.id, &r->model, NULL) != WL_OK)
 		r->no_model = 1; /* no memory, or no pattern for this id: never held */

@@ -4,7 +4,9 @@
 # 0.25 m above the floor, H.264 at 10 Mbit/s like a phone): position RMSE
 # <= 2 mm, heading RMSE <= 1 degree, >= 99 % of frames ok against the
 # renderer's truth; the path stays counter-clockwise; numbers keep '.'
-# decimals under a decimal-comma locale; the trail picture is a PNG.
+# decimals under a decimal-comma locale; the trail picture is a PNG; the
+# readout estimated from the tag's shear is within 3 ms of 0 (a global
+# shutter).
 source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
 need_synth
 cat > scene.json <<'JSON'
@@ -21,8 +23,12 @@ cat > scene.json <<'JSON'
 JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
-LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail trail.png --quiet ||
+LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail trail.png > out.txt ||
 	fail "track exited $?"
+# a global shutter: the readout estimated from the tag's shear is near 0
+read -r est se < <(sed -n 's/.*gives a readout of \([-0-9.]*\) +- \([0-9.]*\) ms.*/\1 \2/p' out.txt)
+echo "readout from the tag's shear: $est +- $se ms (global shutter)"
+[ -n "$est" ] && awk -v e="$est" 'BEGIN { exit !(e > -3 && e < 3) }' || fail "readout estimate '$est' ms: $(cat out.txt)"
 compare raw.csv clip.truth.csv --pos-mm 2 --head-deg 1 --ok 0.99 --ccw 3
 grep -q '[0-9],[0-9][0-9]*,[0-9]' raw.csv || fail "no rows"
 if grep -Eq '[0-9],[0-9]{6}[^0-9,]' raw.csv; then fail "decimal commas in raw.csv"; fi
