@@ -7,6 +7,7 @@
 
 #include "calib/calib.h"
 #include "cli/cli.h"
+#include "core/diag.h"
 #include "track/track.h"
 
 const char cmd_track_summary[] = "track robots (AprilTags or colour caps) in a clip -> RAW.csv";
@@ -82,6 +83,12 @@ static void on_progress(void *vctx, int64_t frames, double t_s, double duration_
 	cli_progress_update(&c->p, "track: %lld frames, %.0f fps, %.0f s left", (long long)frames, fps, left);
 }
 
+static void on_warn(void *ctx, const char *stage, const char *msg)
+{
+	(void)ctx;
+	cli_warn(stage, "%s", msg);
+}
+
 static int parse_float_opt(const char *name, const char *arg, double lo, double hi, double *out)
 {
 	if (!cli_parse_double(arg, out) || *out < lo || *out > hi)
@@ -120,6 +127,7 @@ int cmd_track(int argc, char **argv)
 	wl_calib cal;
 	wl_err err;
 	progress_ctx pc;
+	wl_diag diag = {0};
 	const char *cal_path = NULL, *ids = NULL, *robots = NULL;
 	int quiet = 0, c, rc, margin_set = 0;
 	double d, readout_ms = NAN;
@@ -255,6 +263,8 @@ int cmd_track(int argc, char **argv)
 	cli_progress_init(&pc.p, quiet);
 	ro.progress = on_progress;
 	ro.progress_ctx = &pc;
+	diag.warn = on_warn;
+	ro.diag = &diag;
 	rc = wl_track_run(&ro, &o, &cal, cal_path, &sum, &err);
 	cli_progress_done(&pc.p);
 	wl_calib_release(&cal);

@@ -27,6 +27,7 @@
 #include <string.h>
 
 #include "core/csvio.h"
+#include "core/diag.h"
 #include "decode/decode.h"
 
 typedef struct {
@@ -180,6 +181,24 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 	return WL_OK;
 }
 
+/* The readout given against the one the moving tags' shear shows: a
+ * warning when they differ by more than 3 standard errors and 3 ms with
+ * enough detections to tell. */
+static void readout_check(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_track_stats *st)
+{
+	double d = st->readout_s - opts->readout_s;
+	if (st->readout_n < 50 || !isfinite(st->readout_se_s) ||
+	    fabs(d) <= fmax(3 * st->readout_se_s, 0.003))
+		return;
+	wl_diag_warn(
+	        ro->diag, "track",
+	        "%s: the shear of %lld moving tags gives a rolling-shutter readout of %.1f +- %.1f ms, but "
+	        "%.1f ms was used: measure the camera's readout (docs/track.md, \"Measuring the readout\") "
+	        "and give it with --readout-ms or \"readout_ms\" in CAL.json",
+	        ro->clip, (long long)st->readout_n, 1000 * st->readout_s, 1000 * st->readout_se_s,
+	        1000 * opts->readout_s);
+}
+
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
                        const char *cal_path, wl_track_summary *sum, wl_err *err)
 {
@@ -285,6 +304,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
+	readout_check(ro, opts, &sum->stats);
 	if (sum->stats.over_limit > 0) {
 		snprintf(sum->warning, sizeof sum->warning,
 		         "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were "

@@ -363,6 +363,9 @@ typedef struct {
 	/* called from the tracking thread after each frame (may be NULL) */
 	void (*progress)(void *ctx, int64_t frames, double t_s, double duration_s);
 	void *progress_ctx;
+	/* warnings (core/diag.h; may be NULL): e.g. a readout that the tags'
+	 * shear contradicts */
+	const struct wl_diag *diag;
 } wl_track_run_opts;
 
 typedef struct {

@@ -10,7 +10,7 @@
 #   0.3 % of 0.45 m/s on every row of the steady middle;
 # - with the readout in CAL.json instead of the option: the same RAW.csv;
 # - the readout estimated from the tag's shear (printed by track) is 25 +-
-#   3 ms;
+#   3 ms, and a wrong readout given (10 ms) brings a warning;
 # - without it: t_detect_s = t_s, and the error against the pose at the
 #   frame time is measured and printed (README, "What the footage needs",
 #   quotes this run's figures); it must be far above the corrected one.
@@ -30,7 +30,12 @@ cat > scene.json <<'JSON'
 JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
-"$WAKELINE" track clip.mp4 --cal cal.json -o rs.csv --readout-ms 25 -q || fail "track --readout-ms exited $?"
+"$WAKELINE" track clip.mp4 --cal cal.json -o rs.csv --readout-ms 25 -q 2> rs.err || fail "track --readout-ms exited $?"
+! grep -q warning rs.err || fail "a warning with the right readout: $(cat rs.err)"
+# a wrong readout is contradicted by the tags' shear: a warning naming the clip
+"$WAKELINE" track clip.mp4 --cal cal.json -o wrong.csv --readout-ms 10 -q 2> wrong.err || fail "track exited $?"
+grep -q 'warning: clip.mp4: the shear of [0-9]* moving tags gives a rolling-shutter readout of 2[0-9.]* +- [0-9.]* ms, but 10.0 ms was used' wrong.err ||
+	fail "no warning about a wrong readout: $(cat wrong.err)"
 "$WAKELINE" track clip.mp4 --cal cal.json -o gs.csv > gs.txt || fail "track exited $?"
 # the readout estimated from the moving tag's shear
 read -r est se < <(sed -n 's/.*gives a readout of \([-0-9.]*\) +- \([0-9.]*\) ms.*/\1 \2/p' gs.txt)
