@@ -13,9 +13,9 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/linalg.h"
 
-#define WL_PI_ 3.14159265358979323846
 #define RESIDUAL_WARN_PX 2.0
 #define FOCAL_SPREAD_MAX 0.05 /* jackknife spread of f beyond which f counts as undetermined */
 
@@ -242,7 +242,7 @@ static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opt
 		return WL_OK;
 	}
 	if (o->hfov_deg > 0 && o->hfov_deg < 179) {
-		f = (o->width_px / 2.0) / tan(o->hfov_deg * WL_PI_ / 360);
+		f = (o->width_px / 2.0) / tan(o->hfov_deg * WL_DEG / 2);
 		wl_camera_init(&cal->cam, o->width_px, o->height_px, f, f, cx, cy);
 		snprintf(cal->intrinsics_source, sizeof cal->intrinsics_source, "hfov");
 		return WL_OK;

@@ -52,7 +52,7 @@ static int occluder_box(const wl_synth_scene *sc, const wl_synth_occluder *o, do
 		double cx = o->start_m[0] + o->velocity_mps[0] * tau,
 		       cy = o->start_m[1] + o->velocity_mps[1] * tau;
 		for (int a = 0; a < 24; a++) {
-			double ang = 2 * M_PI * a / 24, X[3], u, v;
+			double ang = 2 * WL_PI * a / 24, X[3], u, v;
 			/* the circumscribed 24-gon of the ellipse (or the rectangle's circle) */
 			double sx = 0.5 * o->size_m[0] * (o->shape == WL_SYNTH_RECT ? 1.4142136 : 1.01);
 			double sy = 0.5 * o->size_m[1] * (o->shape == WL_SYNTH_RECT ? 1.4142136 : 1.01);

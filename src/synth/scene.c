@@ -15,8 +15,6 @@
 #include "core/jsonio.h"
 #include "synth/synth_priv.h"
 
-#define DEG (M_PI / 180.0)
-
 /* Where we are in the file, for messages: "scene.json: robots[0].path". */
 typedef struct {
 	const char *name;
@@ -185,7 +183,7 @@ static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		TRY(num(p, m, "yaw_deg", 0, 0, -3600, 3600, &yaw));
 		k->x_m = c[0];
 		k->y_m = c[1];
-		k->yaw_rad = yaw * DEG;
+		k->yaw_rad = yaw * WL_DEG;
 		i++;
 	}
 	sc->n_markers = i;
@@ -217,7 +215,7 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		hfov = 2 * atan(0.5 * w / f);
 	} else {
 		TRY(num(p, c, "hfov_deg", 0, 75, 1, 170, &deg));
-		hfov = deg * DEG;
+		hfov = deg * WL_DEG;
 		f = 0.5 * w / tan(0.5 * hfov);
 	}
 	sc->hfov_rad = hfov;
@@ -235,11 +233,11 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	pos_d[2] = 2.0;
 	TRY(vec(p, c, "position_m", 3, pos_d, -1000, 1000, sc->cam_pos_m));
 	TRY(num(p, c, "tilt_deg", 0, 0, 0, 80, &deg));
-	sc->tilt_rad = deg * DEG;
+	sc->tilt_rad = deg * WL_DEG;
 	TRY(num(p, c, "tilt_dir_deg", 0, 90, -360, 360, &deg));
-	sc->tilt_dir_rad = deg * DEG;
+	sc->tilt_dir_rad = deg * WL_DEG;
 	TRY(num(p, c, "yaw_deg", 0, 0, -360, 360, &deg));
-	sc->yaw_rad = deg * DEG;
+	sc->yaw_rad = deg * WL_DEG;
 	if (sc->cam_pos_m[2] <= 0.05)
 		return bad(p, "position_m",
 		           "puts the camera at or below the floor: its z must be above 0.05 m");
@@ -362,7 +360,7 @@ static wl_status parse_marker_kind(pctx *p, const cJSON *m, wl_synth_robot *r)
 		TRY(inum(p, m, "tag_id", 1, 0, 0, 586, &r->tag_id));
 		TRY(num(p, m, "size_m", 0, 0.6 * r->diameter_m, 0.001, 100, &r->tag_size_m));
 		TRY(num(p, m, "offset_deg", 0, 0, -360, 360, &deg));
-		r->tag_offset_rad = deg * DEG;
+		r->tag_offset_rad = deg * WL_DEG;
 		if (r->tag_size_m * 10.0 / 8.0 > 1.5 * r->diameter_m)
 			return bad(p, "size_m",
 			           "makes the tag card (10/8 of size_m with its white border) wider than 1.5 "
@@ -400,16 +398,16 @@ static wl_status parse_path(pctx *p, const cJSON *q, wl_synth_robot *r, const wl
 	w->x0_m = s[0];
 	w->y0_m = s[1];
 	TRY(num(p, q, "heading_deg", 0, 0, -3600, 3600, &deg));
-	w->heading0_rad = deg * DEG;
+	w->heading0_rad = deg * WL_DEG;
 	TRY(num(p, q, "speed_mps", 0, 0.1, 0, 100, &w->speed_mps));
 	TRY(num(p, q, "curvature_1pm", 0, 0, -1000, 1000, &w->curvature_1pm));
 	TRY(num(p, q, "rest_s", 0, 0, 0, 1e6, &w->rest_s));
 	TRY(num(p, q, "accel_s", 0, 0, 0, 1e6, &w->accel_s));
 	TRY(num(p, q, "yaw_osc_deg", 0, 0, 0, 90, &deg));
-	w->osc_amp_rad = deg * DEG;
+	w->osc_amp_rad = deg * WL_DEG;
 	TRY(num(p, q, "yaw_osc_hz", 0, 1, 0, 1000, &w->osc_freq_hz));
 	TRY(num(p, q, "yaw_osc_phase_deg", 0, 0, -360, 360, &deg));
-	w->osc_phase_rad = deg * DEG;
+	w->osc_phase_rad = deg * WL_DEG;
 	TRY(num(p, q, "pivot_ahead_m", 0, 0, -10, 10, &w->pivot_ahead_m));
 	p->where[n] = 0;
 	return WL_OK;
@@ -464,7 +462,7 @@ static wl_status parse_docks(pctx *p, const cJSON *a, wl_synth_robot *r)
 		d->along_m = off[0];
 		d->left_m = off[1];
 		TRY(num(p, it, "heading_deg", 0, 0, -360, 360, &deg));
-		d->dheading_rad = deg * DEG;
+		d->dheading_rad = deg * WL_DEG;
 		TRY(num(p, it, "t0_s", 1, 0, 0, 1e6, &d->t0_s));
 		TRY(num(p, it, "t1_s", 1, 0, 0, 1e6, &d->t1_s));
 		TRY(num(p, it, "blend_s", 0, 0.5, 0, 1e3, &d->blend_s));
@@ -733,16 +731,6 @@ static void path_s(const wl_synth_path *w, double t, double *s, double *v)
 	}
 }
 
-static double wrap_pi(double a)
-{
-	a = fmod(a, 2 * M_PI);
-	if (a <= -M_PI)
-		a += 2 * M_PI;
-	else if (a > M_PI)
-		a -= 2 * M_PI;
-	return a;
-}
-
 /* The robot's pose on its own path (docks left out). */
 static void own_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *o)
 {
@@ -765,13 +753,14 @@ static void own_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *
 	g = w->speed_mps > 0 ? v / w->speed_mps : 0;
 	h = psi;
 	if (w->osc_amp_rad > 0 && t > w->rest_s)
-		h += g * w->osc_amp_rad * sin(2 * M_PI * w->osc_freq_hz * (t - w->rest_s) + w->osc_phase_rad);
+		h += g * w->osc_amp_rad *
+		     sin(2 * WL_PI * w->osc_freq_hz * (t - w->rest_s) + w->osc_phase_rad);
 	/* the body turns about a pivot pivot_ahead_m ahead of the marker; the
 	 * pivot follows the path, so the marker sways sideways by about
 	 * -pivot * (h - psi) */
 	o->x_m = px - w->pivot_ahead_m * cos(h);
 	o->y_m = py - w->pivot_ahead_m * sin(h);
-	o->heading_rad = wrap_pi(h);
+	o->heading_rad = wl_wrap_pi(h);
 	o->speed_mps = v;
 	o->visible = 1;
 	for (int i = 0; i < r->n_occl; i++)
@@ -809,10 +798,10 @@ void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_po
 		sh = sin(l.heading_rad);
 		l.x_m += d->along_m * ch - d->left_m * sh;
 		l.y_m += d->along_m * sh + d->left_m * ch;
-		dh = wrap_pi(l.heading_rad + d->dheading_rad - o->heading_rad);
+		dh = wl_wrap_pi(l.heading_rad + d->dheading_rad - o->heading_rad);
 		o->x_m += w * (l.x_m - o->x_m);
 		o->y_m += w * (l.y_m - o->y_m);
-		o->heading_rad = wrap_pi(o->heading_rad + w * dh);
+		o->heading_rad = wl_wrap_pi(o->heading_rad + w * dh);
 		o->speed_mps += w * (l.speed_mps - o->speed_mps); /* approximate while blending */
 		break; /* spans do not overlap: the first active one */
 	}
@@ -838,7 +827,7 @@ static void docks_json(cJSON *m, const wl_synth_scene *sc, const wl_synth_robot 
 		double off[2] = {d->along_m, d->left_m};
 		cJSON_AddNumberToObject(o, "with", sc->robots[d->with].id);
 		wl_json_add_numbers(o, "offset_m", off, 2);
-		cJSON_AddNumberToObject(o, "heading_deg", d->dheading_rad / DEG);
+		cJSON_AddNumberToObject(o, "heading_deg", d->dheading_rad / WL_DEG);
 		cJSON_AddNumberToObject(o, "t0_s", d->t0_s);
 		cJSON_AddNumberToObject(o, "t1_s", d->t1_s);
 		cJSON_AddNumberToObject(o, "blend_s", d->blend_s);
@@ -909,7 +898,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 		d[1] = k->y_m;
 		wl_json_add_numbers(m, "center_m", d, 2);
 		cJSON_AddNumberToObject(m, "size_m", k->size_m);
-		cJSON_AddNumberToObject(m, "yaw_deg", k->yaw_rad / DEG);
+		cJSON_AddNumberToObject(m, "yaw_deg", k->yaw_rad / WL_DEG);
 		cJSON_AddItemToArray(a, m);
 	}
 	o = cJSON_AddObjectToObject(root, "camera");
@@ -925,9 +914,9 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 	cJSON_AddNumberToObject(o, "p2", sc->cam.dist[3]);
 	cJSON_AddNumberToObject(o, "k3", sc->cam.dist[4]);
 	wl_json_add_numbers(o, "position_m", sc->cam_pos_m, 3);
-	cJSON_AddNumberToObject(o, "tilt_deg", sc->tilt_rad / DEG);
-	cJSON_AddNumberToObject(o, "tilt_dir_deg", sc->tilt_dir_rad / DEG);
-	cJSON_AddNumberToObject(o, "yaw_deg", sc->yaw_rad / DEG);
+	cJSON_AddNumberToObject(o, "tilt_deg", sc->tilt_rad / WL_DEG);
+	cJSON_AddNumberToObject(o, "tilt_dir_deg", sc->tilt_dir_rad / WL_DEG);
+	cJSON_AddNumberToObject(o, "yaw_deg", sc->yaw_rad / WL_DEG);
 	o = cJSON_AddObjectToObject(root, "timing");
 	cJSON_AddNumberToObject(o, "fps", sc->fps);
 	cJSON_AddNumberToObject(o, "duration_s", sc->duration_s);
@@ -963,7 +952,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 			cJSON_AddStringToObject(mk, "type", "tag");
 			cJSON_AddNumberToObject(mk, "tag_id", r->tag_id);
 			cJSON_AddNumberToObject(mk, "size_m", r->tag_size_m);
-			cJSON_AddNumberToObject(mk, "offset_deg", r->tag_offset_rad / DEG);
+			cJSON_AddNumberToObject(mk, "offset_deg", r->tag_offset_rad / WL_DEG);
 		} else {
 			cJSON_AddStringToObject(mk, "type", r->kind == WL_SYNTH_CAPS ? "caps" : "cap");
 			add_rgb(mk, r->kind == WL_SYNTH_CAPS ? "front_rgb" : "rgb", r->front_rgb);
@@ -976,14 +965,14 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 		d[0] = w->x0_m;
 		d[1] = w->y0_m;
 		wl_json_add_numbers(pa, "start_m", d, 2);
-		cJSON_AddNumberToObject(pa, "heading_deg", w->heading0_rad / DEG);
+		cJSON_AddNumberToObject(pa, "heading_deg", w->heading0_rad / WL_DEG);
 		cJSON_AddNumberToObject(pa, "speed_mps", w->speed_mps);
 		cJSON_AddNumberToObject(pa, "curvature_1pm", w->curvature_1pm);
 		cJSON_AddNumberToObject(pa, "rest_s", w->rest_s);
 		cJSON_AddNumberToObject(pa, "accel_s", w->accel_s);
-		cJSON_AddNumberToObject(pa, "yaw_osc_deg", w->osc_amp_rad / DEG);
+		cJSON_AddNumberToObject(pa, "yaw_osc_deg", w->osc_amp_rad / WL_DEG);
 		cJSON_AddNumberToObject(pa, "yaw_osc_hz", w->osc_freq_hz);
-		cJSON_AddNumberToObject(pa, "yaw_osc_phase_deg", w->osc_phase_rad / DEG);
+		cJSON_AddNumberToObject(pa, "yaw_osc_phase_deg", w->osc_phase_rad / WL_DEG);
 		cJSON_AddNumberToObject(pa, "pivot_ahead_m", w->pivot_ahead_m);
 		oc = cJSON_AddArrayToObject(m, "occlusions");
 		for (int j = 0; j < r->n_occl; j++) {
@@ -1006,7 +995,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 	wl_json_add_numbers(o, "t_m", sc->cam.t, 3);
 	wl_camera_position(&sc->cam, d);
 	wl_json_add_numbers(o, "position_m", d, 3);
-	cJSON_AddNumberToObject(o, "hfov_deg", sc->hfov_rad / DEG);
+	cJSON_AddNumberToObject(o, "hfov_deg", sc->hfov_rad / WL_DEG);
 	cJSON_AddNumberToObject(o, "frames", (double)wl_synth_frame_count(sc));
 	cJSON_AddStringToObject(o, "pixels", "coded");
 	return root;

@@ -4,15 +4,8 @@
 
 #include <stdint.h>
 
+#include "core/angle.h"
 #include "synth/synth.h"
-
-#ifndef M_PI
-#define M_PI 3.14159265358979323846
-/* hazard.c: what real water and phones add, drawn over the robots */
-void synth_draw_occluders(const wl_synth_scene *sc, int ss, double t, uint8_t *rgb, int stride);
-void synth_add_spots(const wl_synth_scene *sc, double t, uint8_t *rgb, int stride);
-
-#endif
 
 /* splitmix64's finaliser (Steele, Lea & Flood 2014) as a counter-based hash. */
 static inline uint64_t synth_mix64(uint64_t z)

@@ -187,8 +187,7 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 static void readout_check(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_track_stats *st)
 {
 	double d = st->readout_s - opts->readout_s;
-	if (st->readout_n < 50 || !isfinite(st->readout_se_s) ||
-	    fabs(d) <= fmax(3 * st->readout_se_s, 0.003))
+	if (st->readout_n < 50 || !isfinite(st->readout_se_s) || fabs(d) <= fmax(3 * st->readout_se_s, 0.003))
 		return;
 	wl_diag_warn(
 	        ro->diag, "track",
@@ -197,6 +196,32 @@ static void readout_check(const wl_track_run_opts *ro, const wl_track_opts *opts
 	        "and give it with --readout-ms or \"readout_ms\" in CAL.json",
 	        ro->clip, (long long)st->readout_n, 1000 * st->readout_s, 1000 * st->readout_se_s,
 	        1000 * opts->readout_s);
+}
+
+/* One frame's observations as RAW.csv rows. */
+static void put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)
+{
+	for (int i = 0; i < n; i++) {
+		const wl_track_obs *o = &obs[i];
+		wl_raw_row r = {t_s,
+		                frame,
+		                o->id,
+		                !o->ok    ? WL_RAW_LOST
+		                : o->held ? WL_RAW_HELD
+		                          : WL_RAW_OK,
+		                o->u_px,
+		                o->v_px,
+		                o->x_m,
+		                o->y_m,
+		                o->heading_rad,
+		                o->margin,
+		                o->size_px,
+		                o->heading_source,
+		                o->hold_score,
+		                o->t_detect_s,
+		                0};
+		wl_raw_put(w, &r);
+	}
 }
 
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
@@ -261,7 +286,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		memcpy(img.roi, s->roi, sizeof img.roi);
 		if ((st = wl_tracker_frame(tr, &img, &obs, &n, err)) != WL_OK)
 			goto out;
-		wl_raw_put(raw, s->t_s, s->index, obs, n);
+		put_rows(raw, s->t_s, s->index, obs, n);
 		if (qc && (st = wl_qc_frame(qc, tr, &img, obs, n, err)) != WL_OK)
 			goto out;
 		sum->frames++;

@@ -19,6 +19,9 @@
 #include <unistd.h>
 
 #include "clean/clean.h"
+#include "clean/kin.h"
+#include "clean/sg.h"
+#include "core/sha256.h"
 
 #define PI 3.14159265358979323846
 
@@ -405,7 +408,7 @@ static void test_stage_held_and_detect_time(void **state)
 		wl_clean_params_init(&p);
 		p.trim = WL_TRIM_NONE;
 		p.sigma_pos_m = 0.0005;
-		assert_int_equal(wl_clean_run(raw, &p, &res, &err), WL_OK);
+		assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
 		for (size_t i = 0; i < res.nrows; i++)
 			if (res.rows[i].frame >= 105 && res.rows[i].frame < 125)
 				pull[pass] += (res.rows[i].y_m - 0.3) / 20;
@@ -435,7 +438,7 @@ static void test_stage_held_and_detect_time(void **state)
 		wl_clean_params_init(&p);
 		p.trim = WL_TRIM_NONE;
 		p.sigma_pos_m = 0.0001;
-		assert_int_equal(wl_clean_run(raw, &p, &res, &err), WL_OK);
+		assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
 		for (size_t i = 0; i < res.nrows; i++)
 			if (res.rows[i].frame >= 30 && res.rows[i].frame < N - 30) {
 				speed[pass] = fmax(speed[pass], fabs(res.rows[i].speed_mps - 0.45));
@@ -508,7 +511,7 @@ static void test_stage_synthetic(void **state)
 	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
 	wl_clean_params_init(&p);
 	p.trim = WL_TRIM_NONE;
-	assert_int_equal(wl_clean_run(raw, &p, &res, &err), WL_OK);
+	assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
 	assert_int_equal(res.nrows, N);
 	for (size_t i = 0; i < res.nrows; i++) {
 		const wl_clean_row *r = &res.rows[i];
