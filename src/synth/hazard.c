@@ -41,36 +41,28 @@ static int occluder_covers(const wl_synth_occluder *o, double t, double x, doubl
 	return (dx * dx) / (ax * ax) + (dy * dy) / (ay * ay) <= 1.0;
 }
 
-/* The pixel box of occluder o over the times [t0, t1]; 0 when off image. */
-static int occluder_box(const wl_synth_scene *sc, const wl_synth_occluder *o, double t0, double t1,
-                        int box[4])
+int synth_project_ellipse(const wl_camera *cam, double cx, double cy, double z, double sx, double sy,
+                          double lohi[4])
 {
-	double lo_u = 1e30, lo_v = 1e30, hi_u = -1e30, hi_v = -1e30;
-	int w = sc->cam.width_px, h = sc->cam.height_px;
-	for (int k = 0; k < 3; k++) {
-		double t = t0 + 0.5 * k * (t1 - t0), tau = t - o->t0_s;
-		double cx = o->start_m[0] + o->velocity_mps[0] * tau,
-		       cy = o->start_m[1] + o->velocity_mps[1] * tau;
-		for (int a = 0; a < 24; a++) {
-			double ang = 2 * WL_PI * a / 24, X[3], u, v;
-			/* the circumscribed 24-gon of the ellipse (or the rectangle's circle) */
-			double sx = 0.5 * o->size_m[0] * (o->shape == WL_SYNTH_RECT ? 1.4142136 : 1.01);
-			double sy = 0.5 * o->size_m[1] * (o->shape == WL_SYNTH_RECT ? 1.4142136 : 1.01);
-			X[0] = cx + sx * cos(ang);
-			X[1] = cy + sy * sin(ang);
-			X[2] = o->height_m;
-			if (!wl_camera_project_water(&sc->cam, X, &u, &v))
-				return 0;
-			lo_u = fmin(lo_u, u);
-			hi_u = fmax(hi_u, u);
-			lo_v = fmin(lo_v, v);
-			hi_v = fmax(hi_v, v);
-		}
+	for (int a = 0; a < 24; a++) {
+		double ang = 2 * WL_PI * a / 24, X[3] = {cx + sx * cos(ang), cy + sy * sin(ang), z}, u, v;
+		if (!wl_camera_project_water(cam, X, &u, &v))
+			return 0;
+		lohi[0] = fmin(lohi[0], u);
+		lohi[1] = fmin(lohi[1], v);
+		lohi[2] = fmax(lohi[2], u);
+		lohi[3] = fmax(lohi[3], v);
 	}
-	box[0] = (int)floor(lo_u) - 3;
-	box[1] = (int)floor(lo_v) - 3;
-	box[2] = (int)ceil(hi_u) + 3;
-	box[3] = (int)ceil(hi_v) + 3;
+	return 1;
+}
+
+int synth_finish_box(const double lohi[4], int w, int h, int box[4])
+{
+	/* distortion can bend an outline beyond its polygon: a margin */
+	box[0] = (int)floor(lohi[0]) - 3;
+	box[1] = (int)floor(lohi[1]) - 3;
+	box[2] = (int)ceil(lohi[2]) + 3;
+	box[3] = (int)ceil(lohi[3]) + 3;
 	if (box[0] < 0)
 		box[0] = 0;
 	if (box[1] < 0)
@@ -80,6 +72,23 @@ static int occluder_box(const wl_synth_scene *sc, const wl_synth_occluder *o, do
 	if (box[3] > h - 1)
 		box[3] = h - 1;
 	return box[0] <= box[2] && box[1] <= box[3];
+}
+
+/* The pixel box of occluder o over the times [t0, t1]; 0 when off image. */
+static int occluder_box(const wl_synth_scene *sc, const wl_synth_occluder *o, double t0, double t1,
+                        int box[4])
+{
+	double lohi[4] = {1e30, 1e30, -1e30, -1e30};
+	/* the circumscribed 24-gon of the ellipse (or the rectangle's circle) */
+	double f = o->shape == WL_SYNTH_RECT ? 1.4142136 : 1.01;
+	for (int k = 0; k < 3; k++) {
+		double t = t0 + 0.5 * k * (t1 - t0), tau = t - o->t0_s;
+		if (!synth_project_ellipse(&sc->cam, o->start_m[0] + o->velocity_mps[0] * tau,
+		                           o->start_m[1] + o->velocity_mps[1] * tau, o->height_m,
+		                           0.5 * o->size_m[0] * f, 0.5 * o->size_m[1] * f, lohi))
+			return 0;
+	}
+	return synth_finish_box(lohi, sc->cam.width_px, sc->cam.height_px, box);
 }
 
 void synth_draw_occluders(const wl_synth_scene *sc, int ss, double t, uint8_t *rgb, int stride)

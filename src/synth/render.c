@@ -347,42 +347,18 @@ static int shade_robot(const wl_synth_renderer *r, int i, const rpose *p, double
 static int robot_box(const wl_synth_renderer *r, int i, const rpose *poses, int np, int box[4])
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
-	double reach = 0.5 * rb->diameter_m;
-	double lo_u = 1e30, lo_v = 1e30, hi_u = -1e30, hi_v = -1e30;
+	double reach = 0.5 * rb->diameter_m, lohi[4] = {1e30, 1e30, -1e30, -1e30};
 	if (rb->kind == WL_SYNTH_TAG) {
 		double card = 0.5 * rb->tag_size_m * r->robot_tex[i].total / r->robot_tex[i].black * 1.4143;
 		if (card > reach)
 			reach = card;
 	}
-	for (int j = 0; j < np; j++) {
-		for (int a = 0; a < 24; a++) {
-			double ang = 2 * WL_PI * a / 24, X[3], u, v;
-			/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
-			X[0] = poses[j].x + reach * 1.01 * cos(ang);
-			X[1] = poses[j].y + reach * 1.01 * sin(ang);
-			X[2] = rb->height_m;
-			if (!wl_camera_project_water(&r->sc->cam, X, &u, &v))
-				return 0;
-			lo_u = fmin(lo_u, u);
-			hi_u = fmax(hi_u, u);
-			lo_v = fmin(lo_v, v);
-			hi_v = fmax(hi_v, v);
-		}
-	}
-	/* distortion can bend the outline beyond the polygon: a margin */
-	box[0] = (int)floor(lo_u) - 3;
-	box[1] = (int)floor(lo_v) - 3;
-	box[2] = (int)ceil(hi_u) + 3;
-	box[3] = (int)ceil(hi_v) + 3;
-	if (box[0] < 0)
-		box[0] = 0;
-	if (box[1] < 0)
-		box[1] = 0;
-	if (box[2] > r->w - 1)
-		box[2] = r->w - 1;
-	if (box[3] > r->h - 1)
-		box[3] = r->h - 1;
-	return box[0] <= box[2] && box[1] <= box[3];
+	/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
+	for (int j = 0; j < np; j++)
+		if (!synth_project_ellipse(&r->sc->cam, poses[j].x, poses[j].y, rb->height_m, reach * 1.01,
+		                           reach * 1.01, lohi))
+			return 0;
+	return synth_finish_box(lohi, r->w, r->h, box);
 }
 
 /* The sub-frame poses of robot i over an exposure centred on t. */

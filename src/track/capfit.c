@@ -73,22 +73,31 @@ static int classify(const uint8_t *p, const wl_hsv_range *r, const double c[3])
 	return PX_WASHED;
 }
 
+/* The pixels within r of (cu, cv), inclusive box (x0, y0, x1, y1), cut to area. */
+static void box_around(const int area[4], double cu, double cv, double r, int b[4])
+{
+	b[0] = (int)floor(cu - r);
+	b[1] = (int)floor(cv - r);
+	b[2] = (int)ceil(cu + r);
+	b[3] = (int)ceil(cv + r);
+	if (b[0] < area[0])
+		b[0] = area[0];
+	if (b[1] < area[1])
+		b[1] = area[1];
+	if (b[2] > area[0] + area[2] - 1)
+		b[2] = area[0] + area[2] - 1;
+	if (b[3] > area[1] + area[3] - 1)
+		b[3] = area[1] + area[3] - 1;
+}
+
 int wl_cap_colour(const uint8_t *rgb, int stride, const int area[4], const wl_hsv_range *r, double cu,
                   double cv, double radius_px, double out[3])
 {
 	double s[3] = {0, 0, 0}, n = 0;
-	int x0 = (int)floor(cu - radius_px), x1 = (int)ceil(cu + radius_px);
-	int y0 = (int)floor(cv - radius_px), y1 = (int)ceil(cv + radius_px);
-	if (x0 < area[0])
-		x0 = area[0];
-	if (y0 < area[1])
-		y0 = area[1];
-	if (x1 > area[0] + area[2] - 1)
-		x1 = area[0] + area[2] - 1;
-	if (y1 > area[1] + area[3] - 1)
-		y1 = area[1] + area[3] - 1;
-	for (int y = y0; y <= y1; y++)
-		for (int x = x0; x <= x1; x++) {
+	int b[4];
+	box_around(area, cu, cv, radius_px, b);
+	for (int y = b[1]; y <= b[3]; y++)
+		for (int x = b[0]; x <= b[2]; x++) {
 			const uint8_t *p = rgb + (size_t)y * stride + 3 * (size_t)x;
 			int h, sa, v;
 			if ((x - cu) * (x - cu) + (y - cv) * (y - cv) > radius_px * radius_px)
@@ -113,17 +122,13 @@ int wl_cap_fit(const uint8_t *rgb, int stride, const int area[4], const wl_hsv_r
 {
 	double reach = radius_px + search_px + 2, best = -1e30, su = 0, sv = 0, nbest = 0,
 	       r2 = radius_px * radius_px;
-	int x0 = (int)floor(cu0 - reach), x1 = (int)ceil(cu0 + reach);
-	int y0 = (int)floor(cv0 - reach), y1 = (int)ceil(cv0 + reach), bw, bh, ns;
+	int bx[4], x0, y0, x1, y1, bw, bh, ns;
 	memset(out, 0, sizeof *out);
-	if (x0 < area[0])
-		x0 = area[0];
-	if (y0 < area[1])
-		y0 = area[1];
-	if (x1 > area[0] + area[2] - 1)
-		x1 = area[0] + area[2] - 1;
-	if (y1 > area[1] + area[3] - 1)
-		y1 = area[1] + area[3] - 1;
+	box_around(area, cu0, cv0, reach, bx);
+	x0 = bx[0];
+	y0 = bx[1];
+	x1 = bx[2];
+	y1 = bx[3];
 	bw = x1 - x0 + 1;
 	bh = y1 - y0 + 1;
 	if (bw < 3 || bh < 3 || bw > MAX_BOX || bh > MAX_BOX || !(radius_px >= 1.5))

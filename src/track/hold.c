@@ -201,6 +201,29 @@ static inline int sample(const view *vw, double u, double v, double *out)
 	return 1;
 }
 
+/* The black level ab[0] and contrast ab[1] by least squares of the image
+ * against the pattern over every `stride`-th sample; 0 when too few. */
+static int fit_levels(const wl_tagmodel *m, const quadmap *qm, const view *vw, int stride, double ab[2])
+{
+	double s1 = 0, sT = 0, sTT = 0, sI = 0, sIT = 0;
+	for (int i = 0; i < m->n; i += stride) {
+		double u, v, I;
+		map_tag(qm, m->a[i], m->b[i], &u, &v);
+		if (!sample(vw, u, v, &I))
+			continue;
+		s1++;
+		sT += m->T[i];
+		sTT += m->T[i] * m->T[i];
+		sI += I;
+		sIT += I * m->T[i];
+	}
+	if (s1 < 10 || s1 * sTT - sT * sT <= 0)
+		return 0;
+	ab[1] = (s1 * sIT - sT * sI) / (s1 * sTT - sT * sT);
+	ab[0] = (sI - ab[1] * sT) / s1;
+	return 1;
+}
+
 /* Pearson correlation of the image with the pattern over every `stride`-th
  * sample at pose p; -2 when too few samples are readable. */
 static double corr_at(const wl_tagmodel *m, const geom *g, const view *vw, const wl_tagpose *p, int stride)
@@ -308,22 +331,11 @@ static int refine(wl_tagmodel *m, const geom *gp, const view *vwp, double side, 
 			beta = ab[1];
 		} else if (it == 0) {
 			/* alpha, beta by least squares at the start pose */
-			double s1 = 0, sT = 0, sTT = 0, sI = 0, sIT = 0;
-			for (int i = 0; i < m->n; i++) {
-				double u, v, I;
-				map_tag(&qm, m->a[i], m->b[i], &u, &v);
-				if (!sample(&vw, u, v, &I))
-					continue;
-				s1++;
-				sT += m->T[i];
-				sTT += m->T[i] * m->T[i];
-				sI += I;
-				sIT += I * m->T[i];
-			}
-			if (s1 < 10 || s1 * sTT - sT * sT <= 0)
+			double lv[2];
+			if (!fit_levels(m, &qm, &vw, 1, lv))
 				return 0;
-			beta = (s1 * sIT - sT * sI) / (s1 * sTT - sT * sT);
-			alpha = (sI - beta * sT) / s1;
+			alpha = lv[0];
+			beta = lv[1];
 		}
 		/* residuals and the robust scale */
 		for (int i = 0; i < m->n; i++) {
@@ -596,7 +608,7 @@ int wl_tagmodel_levels(wl_tagmodel *m, const double corners_px[4][2], const uint
                        const int area[4], double ab[2])
 {
 	view vw = {img, stride, area[0], area[1], area[0] + area[2], area[1] + area[3]};
-	double q[4][2], side = 0, s1 = 0, sT = 0, sTT = 0, sI = 0, sIT = 0;
+	double q[4][2], side = 0;
 	static const int order[4] = {3, 2, 1, 0};
 	quadmap qm;
 	for (int k = 0; k < 4; k++) {
@@ -610,20 +622,5 @@ int wl_tagmodel_levels(wl_tagmodel *m, const double corners_px[4][2], const uint
 		return 0;
 	if (fabs(m->blur - 2.0 / side) > 0.25 * m->blur)
 		build_samples(m, 2.0 / side);
-	for (int i = 0; i < m->n; i += COARSE_STRIDE) {
-		double u, v, I;
-		map_tag(&qm, m->a[i], m->b[i], &u, &v);
-		if (!sample(&vw, u, v, &I))
-			continue;
-		s1++;
-		sT += m->T[i];
-		sTT += m->T[i] * m->T[i];
-		sI += I;
-		sIT += I * m->T[i];
-	}
-	if (s1 < 10 || s1 * sTT - sT * sT <= 0)
-		return 0;
-	ab[1] = (s1 * sIT - sT * sI) / (s1 * sTT - sT * sT);
-	ab[0] = (sI - ab[1] * sT) / s1;
-	return 1;
+	return fit_levels(m, &qm, &vw, COARSE_STRIDE, ab);
 }
