@@ -6,7 +6,8 @@
  * status: ok (detected), held (the detector missed; the pose was refined
  * against the image, hold_score its quality), lost (pose cells empty).
  * This module is the only code that knows the columns: the streaming writer
- * (rows go out as they come, into an atomic file) and the streaming reader
+ * (rows go out as they come, into an atomic file or a stream the caller
+ * owns) and the streaming reader
  * (one validated row at a time through a callback, from a file or from
  * memory).  A file is known by its header; see format.h.
  *
@@ -18,6 +19,7 @@
 #define WL_FORMATS_RAW_H
 
 #include <stddef.h>
+#include <stdio.h>
 
 #include "core/err.h"
 
@@ -54,6 +56,10 @@ typedef struct {
 typedef struct wl_raw_writer wl_raw_writer;
 /* Opens RAW.csv atomically and writes the header. */
 wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err);
+/* Writes the header and then the rows to fp, a stream the caller owns and
+ * flushes (not atomic: `wakeline live` records as it goes, flushing each
+ * frame's rows with one write).  Commit or abort then only free the writer. */
+wl_status wl_raw_open_fp(FILE *fp, wl_raw_writer **out, wl_err *err);
 /* Appends one row (status lost writes empty pose cells; hold_score is
  * written for held rows only). */
 void wl_raw_put(wl_raw_writer *w, const wl_raw_row *row);
