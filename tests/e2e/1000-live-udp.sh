@@ -42,7 +42,7 @@ grep -Eq "latency median [0-9.]+ ms, p99 [0-9.]+ ms" live.out || fail "no latenc
 
 $PY "$LIB/live_check.py" offline.csv poses.csv --live-raw live.csv --truth clip.truth.csv \
 	--pos-mm 0.1 --speed-mps 0.01 || fail "the poses do not match offline tracking"
-whole_lines live.csv 12
+whole_lines live.csv 14
 
 # the recorded RAW.csv goes through the normal pipeline
 "$WAKELINE" clean live.csv -o clean.csv --quiet || fail "clean of the live RAW.csv exited $?"

@@ -125,7 +125,7 @@ wait "$LP" || rc=$?
 cat tcp.err tcp.out
 [ "$rc" -eq 0 ] || fail "live exited $rc when the TCP sender died"
 grep -Eq "wakeline live: (the stream ended|the connection dropped)" tcp.err || fail "no message for the lost connection"
-whole_lines tcp.csv 12
+whole_lines tcp.csv 14
 rows=$(($(wc -l < tcp.csv) - 1))
 [ "$rows" -ge 40 ] && [ "$rows" -lt 240 ] || fail "tcp.csv has $rows rows: expected part of the clip"
 "$WAKELINE" clean tcp.csv -o tcp.clean.csv --quiet || fail "clean does not take the RAW.csv of a dropped connection"
@@ -143,5 +143,5 @@ wait "$FF" 2>/dev/null || true
 cat hang.err hang.out
 [ "$rc" -eq 0 ] || fail "live exited $rc when the sender hung"
 grep -q "wakeline live: the stream stopped: no data for 1.0 s" hang.err || fail "no message for the silent connection"
-whole_lines hang.csv 12
+whole_lines hang.csv 14
 echo "ok"

@@ -44,7 +44,7 @@ cat rc.err rc.out
 [ "$rc" -eq 0 ] || fail "live --reconnect exited $rc on SIGINT"
 grep -q "wakeline live: stopped" rc.err || fail "no 'stopped' message"
 grep -q "1 reconnects" rc.out || fail "the summary does not count the reconnection"
-whole_lines rc.csv 12
+whole_lines rc.csv 14
 $PY - <<'PY' || fail "RAW.csv across the reconnection is not one run"
 import csv
 rows = list(csv.DictReader(open("rc.csv")))
@@ -81,7 +81,7 @@ wait "$FF" 2>/dev/null || true
 cat int.err int.out
 [ "$rc" -eq 0 ] || fail "live exited $rc on SIGINT"
 grep -q "wakeline live: stopped" int.err || fail "no 'stopped' message"
-whole_lines int.csv 12
+whole_lines int.csv 14
 "$WAKELINE" clean int.csv -o int.clean.csv --quiet || fail "clean does not take the RAW.csv of an interrupted run"
 
 # --- SIGKILL at two points
@@ -94,7 +94,7 @@ for at in 20 150; do
 	wait "$LIVE_PID" 2>/dev/null || true
 	kill "$FF" 2>/dev/null || true
 	wait "$FF" 2>/dev/null || true
-	whole_lines "kill$at.csv" 12
+	whole_lines "kill$at.csv" 14
 	echo "SIGKILL after $at rows or more: $(($(wc -l < "kill$at.csv") - 1)) whole rows"
 	"$WAKELINE" clean "kill$at.csv" -o "kill$at.clean.csv" --quiet ||
 		fail "clean does not take the RAW.csv of a killed run"

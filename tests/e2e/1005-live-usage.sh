@@ -42,6 +42,6 @@ expect 1 "overwrite" clip.mp4 --cal clip.cal.json --raw exists.csv
 [ "$(cat exists.csv)" = "keep me" ] || fail "an existing RAW.csv was changed without --overwrite"
 "$WAKELINE" live clip.mp4 --realtime --max-delay-ms 1000 --cal clip.cal.json --raw exists.csv --overwrite -q ||
 	fail "--overwrite exited $?"
-whole_lines exists.csv 12
+whole_lines exists.csv 14
 [ "$(($(wc -l < exists.csv) - 1))" -eq 60 ] || fail "exists.csv does not hold the clip's 30 frames of 2 robots"
 echo "ok"
