@@ -13,11 +13,9 @@
 #include "clean/clean.h"
 
 #define MAX_OUTLIER_PASSES 4
-/* RAW.csv `held` poses (refined against the image where the detector
- * missed) get this many times the measurement variance of a detection (3x
- * its standard deviation) in the RTS smoother, and are left out of the
- * noise estimate; tests/e2e/0310 measures held poses at about that spread */
-#define HELD_VAR_SCALE 9.0
+/* held poses' variance scale (clean.h), and they are left out of the
+ * noise estimate */
+#define HELD_VAR_SCALE WL_CLEAN_HELD_VAR_SCALE
 
 /* One robot's samples, kept in pieces split at long gaps. */
 typedef struct {
