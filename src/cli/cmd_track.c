@@ -160,10 +160,10 @@ int cmd_track(int argc, char **argv)
 		       (long long)sum.stats.lost_out_of_view);
 		if (sum.stats.readout_n >= 30 && isfinite(sum.stats.readout_se_s))
 			printf("%s: rolling shutter: the shear of %lld moving tags gives a readout of %.1f "
-			       "+- %.1f ms "
-			       "(used: %.1f ms)\n",
+			       "+- %.1f ms (+- %.1f ms from the tags' corner bias; used: %.1f ms)\n",
 			       ro.raw_path, (long long)sum.stats.readout_n, 1000 * sum.stats.readout_s,
-			       1000 * sum.stats.readout_se_s, 1000 * o.readout_s);
+			       1000 * sum.stats.readout_se_s, 1000 * sum.stats.readout_bias_s,
+			       1000 * o.readout_s);
 	}
 	return cli_finish("track", WL_EXIT_OK);
 }

@@ -182,20 +182,22 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 }
 
 /* The readout given against the one the moving tags' shear shows: a
- * warning when they differ by more than 3 standard errors and 3 ms with
- * enough detections to tell. */
+ * warning when they differ by more than 3 standard errors plus the tags'
+ * own corner bias, and by 3 ms, with enough detections to tell. */
 static void readout_check(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_track_stats *st)
 {
-	double d = st->readout_s - opts->readout_s;
-	if (st->readout_n < 50 || !isfinite(st->readout_se_s) || fabs(d) <= fmax(3 * st->readout_se_s, 0.003))
+	double d = st->readout_s - opts->readout_s,
+	       bias = isfinite(st->readout_bias_s) ? st->readout_bias_s : 0;
+	if (st->readout_n < 50 || !isfinite(st->readout_se_s) ||
+	    fabs(d) <= fmax(3 * st->readout_se_s + bias, 0.003))
 		return;
-	wl_diag_warn(
-	        ro->diag, "track",
-	        "%s: the shear of %lld moving tags gives a rolling-shutter readout of %.1f +- %.1f ms, but "
-	        "%.1f ms was used: measure the camera's readout (docs/track.md, \"Measuring the readout\") "
-	        "and give it with --readout-ms or \"readout_ms\" in CAL.json",
-	        ro->clip, (long long)st->readout_n, 1000 * st->readout_s, 1000 * st->readout_se_s,
-	        1000 * opts->readout_s);
+	wl_diag_warn(ro->diag, "track",
+	             "%s: the shear of %lld moving tags gives a rolling-shutter readout of %.1f +- %.1f ms "
+	             "(+- %.1f ms from the tags' corner bias), but %.1f ms was used: measure the camera's "
+	             "readout (docs/track.md, \"Measuring the readout\") and give it with --readout-ms or "
+	             "\"readout_ms\" in CAL.json",
+	             ro->clip, (long long)st->readout_n, 1000 * st->readout_s, 1000 * st->readout_se_s,
+	             1000 * bias, 1000 * opts->readout_s);
 }
 
 void wl_track_put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)

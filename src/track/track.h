@@ -150,6 +150,10 @@ typedef struct {
 	 * (NaN until there are some) */
 	int64_t readout_n;
 	double readout_s, readout_se_s;
+	/* ... and the largest error the tags' own corner shear (without motion)
+	 * can cause: on a straight path at a steady speed it looks like a
+	 * readout, and no fit over the clip tells the two apart, s */
+	double readout_bias_s;
 	/* detections of new ids left out because WL_TRACK_MAX_ROBOTS robots
 	 * were already tracked, and the first such id (-1: none) */
 	int64_t over_limit;

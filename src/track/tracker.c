@@ -54,11 +54,12 @@
 #define HOLD_GROW_PX 2.0   /* ... grown by this per frame missed before */
 #define WL_MAX(a, b) ((a) > (b) ? (a) : (b))
 #define READOUT_MAX_DT_S 0.1 /* readout estimate: detections at most this far apart */
-#define TURN_MIN_MPS 0.01    /* travel slower than this has no direction */
-#define HOLD_GROW_PX 2.0     /* ... grown by this per frame missed before */
-#define WL_MAX(a, b) ((a) > (b) ? (a) : (b))
-#define READOUT_MAX_DT_S 0.1 /* readout estimate: detections at most this far apart */
-#define TURN_MIN_MPS 0.01    /* travel slower than this has no direction */
+/* readout estimate: the shear a tag's corners show without motion (the
+ * printed pattern next to the border pulls the fitted edges), as the norm
+ * of the 8 corner coordinates' displacement, px.  Measured on our
+ * renderer's tag36h11 tags of about 35 px (tests/e2e/0302): up to 0.08 px */
+#define READOUT_CORNER_BIAS_PX 0.1
+#define TURN_MIN_MPS 0.01 /* travel slower than this has no direction */
 #define HOLD_TURN_MAX (20 * WL_DEG)
 #define HOLD_CONTRAST_LO 0.4 /* a held tag's contrast against the last detection's */
 #define HOLD_CONTRAST_HI 2.5
@@ -116,6 +117,7 @@ struct wl_tracker {
 	int any_frame;
 	wl_track_stats st;
 	double rs_yy, rs_zy, rs_zz; /* the readout estimate's normal equations */
+	double rs_bz;               /* sum of |z| times the plane's metres per pixel (corner bias) */
 	wl_tagdet_hit hits[MAX_HITS];
 	wl_blob blobs[MAX_BLOBS];
 };
@@ -203,7 +205,7 @@ wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, cons
 	}
 	if (!(tr = calloc(1, sizeof *tr)))
 		return wl_err_set(err, WL_ENOMEM, "out of memory creating the tracker");
-	tr->st.readout_s = tr->st.readout_se_s = NAN;
+	tr->st.readout_s = tr->st.readout_se_s = tr->st.readout_bias_s = NAN;
 	tr->o = *opts;
 	tr->cal = *cal;
 	tr->w = width_px;
@@ -563,8 +565,6 @@ static int hold_tag(wl_tracker *tr, robot *r, const wl_track_image *img)
 	return 1;
 }
 
-/* After a detection: the tag's levels for later holds (and its model,
- * made on the first detection when holding is on). */
 /* The readout from a moving tag's shear.  Row v of the image is exposed at
  * t + v / H * readout, so a tag moving at V on its plane shows corner k
  * displaced by V (v_k - v_c) rho, rho = readout / H.  The true corners are
@@ -573,11 +573,13 @@ static int hold_tag(wl_tracker *tr, robot *r, const wl_track_image *img)
  * detection of a moving tag adds its normal
  * equations with (C, a, b) projected out (l is centred and orthogonal, so
  * the projection is a mean and two dot products).  V comes from the
- * detection before, when it was on the previous frame. */
+ * detection before, when it was on the previous frame.  A tag's fitted
+ * corners are sheared a little without motion too (READOUT_CORNER_BIAS_PX);
+ * readout_bias_s says how far that can move the estimate. */
 static void readout_shear(wl_tracker *tr, robot *r, double t)
 {
 	static const double l0[4][2] = {{-1, 1}, {1, 1}, {1, -1}, {-1, -1}};
-	double l[4][2], area = 0, vx, vy, vc = 0, y[8], z[8];
+	double l[4][2], area = 0, vx, vy, vc = 0, y[8], z[8], zn = 0, side_m = 0, side_px = 0;
 	int have = r->rs_have && t > r->rs_t && t - r->rs_t < READOUT_MAX_DT_S;
 	double px = 0, py = 0;
 	for (int k = 0; k < 4; k++) {
@@ -597,6 +599,37 @@ static void readout_shear(wl_tracker *tr, robot *r, double t)
 	r->rs_x = px;
 	r->rs_y = py;
 	r->rs_t = t;
+	/* only the motion along the image rows shears the square: motion along
+	 * the columns stretches it, which the detector's own bias along the
+	 * columns mimics (tens of ms on our renderer's tags), so it is left
+	 * out.  A: the local map from pixels to the plane (the four corners,
+	 * least squares); the part of V along the rows is A (A^-1 V)_u. */
+	{
+		double uc = 0, sxx = 0, sxy = 0, syy = 0, pxu = 0, pxv = 0, pyu = 0, pyv = 0, det, a[2][2],
+		       du;
+		for (int k = 0; k < 4; k++)
+			uc += r->det_px[k][0] / 4;
+		for (int k = 0; k < 4; k++) {
+			double u = r->det_px[k][0] - uc, v = r->det_px[k][1] - vc;
+			double X = r->det_P[k][0] - px, Y = r->det_P[k][1] - py;
+			sxx += u * u, sxy += u * v, syy += v * v;
+			pxu += X * u, pxv += X * v, pyu += Y * u, pyv += Y * v;
+		}
+		det = sxx * syy - sxy * sxy;
+		if (!(fabs(det) > 0))
+			return;
+		/* A = [pxu pxv; pyu pyv] [sxx sxy; sxy syy]^-1 */
+		a[0][0] = (pxu * syy - pxv * sxy) / det;
+		a[0][1] = (pxv * sxx - pxu * sxy) / det;
+		a[1][0] = (pyu * syy - pyv * sxy) / det;
+		a[1][1] = (pyv * sxx - pyu * sxy) / det;
+		det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+		if (!(fabs(det) > 0))
+			return;
+		du = (a[1][1] * vx - a[0][1] * vy) / det; /* (A^-1 V)_u: px/s along the rows */
+		vx = a[0][0] * du;
+		vy = a[1][0] * du;
+	}
 	/* the unit square mirrored like the plane's quad (shoelace signs) */
 	for (int k = 0; k < 4; k++)
 		area += r->det_P[k][0] * r->det_P[(k + 1) % 4][1] - r->det_P[(k + 1) % 4][0] * r->det_P[k][1];
@@ -630,16 +663,28 @@ static void readout_shear(wl_tracker *tr, robot *r, double t)
 		tr->rs_yy += y[i] * y[i];
 		tr->rs_zy += z[i] * y[i];
 		tr->rs_zz += z[i] * z[i];
+		zn += z[i] * z[i];
 	}
+	for (int k = 0; k < 4; k++) {
+		side_m += hypot(r->det_P[(k + 1) % 4][0] - r->det_P[k][0],
+		                r->det_P[(k + 1) % 4][1] - r->det_P[k][1]);
+		side_px += hypot(r->det_px[(k + 1) % 4][0] - r->det_px[k][0],
+		                 r->det_px[(k + 1) % 4][1] - r->det_px[k][1]);
+	}
+	if (side_px > 0)
+		tr->rs_bz += side_m / side_px * sqrt(zn);
 	tr->st.readout_n++;
 	if (tr->rs_zz > 0) {
 		double rho = tr->rs_zy / tr->rs_zz, rss = tr->rs_yy - tr->rs_zy * rho;
 		long dof = 4 * tr->st.readout_n - 1;
 		tr->st.readout_s = rho * tr->h;
 		tr->st.readout_se_s = dof > 0 && rss > 0 ? sqrt(rss / dof / tr->rs_zz) * tr->h : NAN;
+		tr->st.readout_bias_s = READOUT_CORNER_BIAS_PX * tr->rs_bz / tr->rs_zz * tr->h;
 	}
 }
 
+/* After a detection: the tag's levels for later holds (and its model,
+ * made on the first detection when holding is on). */
 static void learn_tag(wl_tracker *tr, robot *r, const wl_track_image *img)
 {
 	int area[4];
