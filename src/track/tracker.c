@@ -207,6 +207,10 @@ wl_status wl_tracker_create(const wl_track_opts *opts, const wl_calib *cal, cons
 		return wl_err_set(err, WL_ENOMEM, "out of memory creating the tracker");
 	tr->st.readout_s = tr->st.readout_se_s = tr->st.readout_bias_s = NAN;
 	tr->o = *opts;
+	if (isnan(tr->o.readout_s)) /* the camera's, from CAL.json */
+		tr->o.readout_s =
+		        isfinite(cal->readout_ms) && cal->readout_ms > 0 ? cal->readout_ms / 1000.0 : 0;
+	tr->st.readout_used_s = tr->o.readout_s;
 	tr->cal = *cal;
 	tr->w = width_px;
 	tr->h = height_px;
