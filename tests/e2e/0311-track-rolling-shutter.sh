@@ -8,7 +8,8 @@
 #   of the tag's centre row, position RMSE against the pose at t_detect_s
 #   <= 1 mm, and after clean (which smooths at t_detect_s) the speed within
 #   0.3 % of 0.45 m/s on every row of the steady middle;
-# - with the readout in CAL.json instead of the option: the same RAW.csv;
+# - with the readout in CAL.json instead of the option, and through
+#   `wakeline process --readout-ms 25`: the same RAW.csv;
 # - the readout estimated from the tag's shear (printed by track) is 25 +-
 #   3 ms, and without a readout given a warning says so (a readout of 10 ms
 #   is within the estimate's bound for the tags' own corner bias here);
@@ -46,6 +47,9 @@ echo "readout from the tag's shear: $est +- $se ms (true 25 ms)"
 $PY -c 'import json,sys; c=json.load(open(sys.argv[1])); c["readout_ms"]=25; json.dump(c,open(sys.argv[2],"w"))' cal.json cal25.json
 "$WAKELINE" track clip.mp4 --cal cal25.json -o rs2.csv -q || fail "track with readout_ms in CAL.json exited $?"
 cmp -s rs.csv rs2.csv || fail "CAL.json's readout_ms and --readout-ms give different RAW.csv"
+# process takes the tracker's options through the pipeline: the same RAW.csv
+"$WAKELINE" process clip.mp4 --cal cal.json --readout-ms 25 -o proc -q || fail "process --readout-ms exited $?"
+cmp -s rs.csv proc/raw.csv || fail "process --readout-ms 25 and track --readout-ms 25 give different RAW.csv"
 "$WAKELINE" clean rs.csv -o rs.clean.csv -q || fail "clean exited $?"
 "$WAKELINE" clean gs.csv -o gs.clean.csv -q || fail "clean exited $?"
 $PY - <<'PYEOF' || fail "rolling-shutter bounds"
