@@ -14,8 +14,8 @@
 #   3 ms, and without a readout given a warning says so (a readout of 10 ms
 #   is within the estimate's bound for the tags' own corner bias here);
 # - without it: t_detect_s = t_s, and the error against the pose at the
-#   frame time is measured and printed (README, "What the footage needs",
-#   quotes this run's figures); it must be far above the corrected one.
+#   frame time is measured and printed; it must be far above the corrected
+#   one, and README.md's figures for it must be this run's (within 0.05 mm).
 source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
 need_synth
 cat > scene.json <<'JSON'
@@ -83,6 +83,13 @@ if dtmax > 0.1: bad.append(f"t_detect_s {dtmax:.3f} ms from the centre row's tim
 n0, _, rf0, wf0, _ = errs("gs.csv")
 print(f"without --readout-ms: RMSE {rf0:.2f} mm against the pose at the frame time (worst {wf0:.2f} mm)")
 if rf0 < 5 * max(rd, 0.2): bad.append(f"uncorrected error {rf0:.3f} mm is not well above the corrected {rd:.3f} mm")
+# the README quotes this run's figures (issue 17): they must be what is measured
+import os, re
+readme = open(os.path.join(os.environ["WL_SOURCE_DIR"], "README.md")).read().replace("\n", " ")
+m = re.search(r"placed ([0-9.]+) mm RMS \(([0-9.]+) mm worst\)", re.sub(r"\s+", " ", readme))
+if not m: bad.append("README.md does not quote the uncorrected error ('placed X mm RMS (Y mm worst)')")
+elif abs(float(m.group(1)) - rf0) > 0.05 or abs(float(m.group(2)) - wf0) > 0.05:
+    bad.append(f"README.md says {m.group(1)} mm RMS ({m.group(2)} mm worst), this run measures {rf0:.2f} ({wf0:.2f})")
 lo, hi, med = speed("rs.clean.csv")
 print(f"clean, --readout-ms 25: speed {lo:.5f}..{hi:.5f} m/s ({100 * (lo / V - 1):+.3f}% .. {100 * (hi / V - 1):+.3f}%)")
 if lo < V * 0.997 or hi > V * 1.003: bad.append("corrected speed not within 0.3 %")
