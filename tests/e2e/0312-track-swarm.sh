@@ -12,6 +12,7 @@ $PY "$LIB/swarm_scene.py" scene.json --robots 20 --seed 1 --duration 3 --docks 3
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv || fail "track exited $?"
-[ "$(tail -n +2 raw.csv | cut -d, -f3 | sort -u | wc -l)" -eq 20 ] || fail "not 20 ids in raw.csv"
-$PY "$LIB/swarm_check.py" raw.csv clip.truth.csv --max-mm 2 --rmse-mm 1.2 --min-frac 0.99 || fail "swarm bounds"
-echo "ok"
+check_eq "raw.csv has 20 ids" "$(tail -n +2 raw.csv | cut -d, -f3 | sort -u | wc -l)" 20
+check "zero identity swaps, every pose within 2 mm, RMSE <= 1.2 mm, >= 99 % posed" \
+	"$PY" "$LIB/swarm_check.py" raw.csv clip.truth.csv --max-mm 2 --rmse-mm 1.2 --min-frac 0.99
+done_testing

@@ -32,15 +32,16 @@ synth glare.json glare.mp4
 make_cal glare.scene.json cal.json 0.05
 "$WAKELINE" track glare.mp4 --cal cal.json -o offline.csv --readout-ms 10 --quiet || fail "track exited $?"
 held=$(grep -c ',held,' offline.csv || true)
-[ "$held" -ge 20 ] || fail "offline track held $held rows: the scene does not test holding"
+check_num "offline track holds at least 20 rows (the scene tests holding)" "$held" ">=" 20
 start_client poses.csv --idle 2
-"$WAKELINE" live glare.mp4 --realtime --max-delay-ms 1000 --max-lag-ms 5000 --cal cal.json --readout-ms 10 \
-	--raw live.csv --publish "udp://127.0.0.1:$JPORT" --publish "udp://127.0.0.1:$BPORT?format=binary" -q ||
-	fail "live exited $?"
+check_exit "wakeline live --readout-ms 10 succeeds" 0 \
+	"$WAKELINE" live glare.mp4 --realtime --max-delay-ms 1000 --max-lag-ms 5000 --cal cal.json --readout-ms 10 \
+	--raw live.csv --publish "udp://127.0.0.1:$JPORT" --publish "udp://127.0.0.1:$BPORT?format=binary" -q
 wait "$CLIENT_PID" || fail "the test client failed"
-$PY "$LIB/live_check.py" offline.csv poses.csv --live-raw live.csv --truth glare.truth.csv --pos-mm 0.1 \
-	--speed-mps 0.01 || fail "live differs from offline"
+check "packets and live RAW.csv equal offline's (status held too, positions 0.1 mm, t_detect_s), filter speed 0.01 m/s" \
+	"$PY" "$LIB/live_check.py" offline.csv poses.csv --live-raw live.csv --truth glare.truth.csv --pos-mm 0.1 \
+	--speed-mps 0.01
 n=$(awk -F, '$1 == "json" && $6 == "held" && $9 != ""' poses.csv | wc -l)
-echo "offline: $held held rows; live: $n held JSON packets with a position"
-[ "$n" -eq "$held" ] || fail "$n held packets with a position, offline has $held held rows"
-echo "ok"
+note "offline: $held held rows; live: $n held JSON packets with a position"
+check_eq "a held packet with a position for every held row offline" "$n" "$held"
+done_testing
