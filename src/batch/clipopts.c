@@ -33,6 +33,8 @@ wl_status wl_batch_clip_opts(const wl_process_opts *base, const wl_manifest_opts
 		snprintf(out->track.family, sizeof out->track.family, "%s", row->family);
 	if (isfinite(row->plane_height_m))
 		out->track.plane_height_m = row->plane_height_m;
+	if (isfinite(row->readout_ms))
+		out->track.readout_s = row->readout_ms / 1000.0;
 	if (isfinite(row->body_diameter_m)) {
 		out->clean.body_diameter_m = row->body_diameter_m;
 		out->measure.run.body_diameter_m = row->body_diameter_m;

@@ -127,6 +127,8 @@ static cJSON *build_json(const wl_calib *cal)
 	cJSON_AddNumberToObject(root, "camera_height_m", pos[2]);
 	cJSON_AddNumberToObject(root, "camera_tilt_deg", wl_calib_camera_tilt_deg(cal));
 	cJSON_AddNumberToObject(root, "plane_height_m", cal->plane_height_m);
+	if (cal->readout_ms > 0)
+		cJSON_AddNumberToObject(root, "readout_ms", cal->readout_ms);
 	o = cJSON_AddObjectToObject(root, "water");
 	if (o) {
 		cJSON_AddNumberToObject(o, "depth_m", c->water_depth_m);
@@ -313,6 +315,15 @@ static wl_status parse(const wl_cal_doc *d, wl_calib *cal, wl_err *err)
 		return wl_err_set(err, WL_EFORMAT,
 		                  "%s: key 'water.depth_m' is missing or not a number (0: no water)", name);
 	cal->cam.water_index = wl_json_number_or(water, "index", WL_WATER_INDEX);
+	{
+		const cJSON *ro = cJSON_GetObjectItemCaseSensitive(root, "readout_ms");
+		cal->readout_ms = ro ? (cJSON_IsNumber(ro) ? ro->valuedouble : NAN) : 0;
+	}
+	if (!(cal->readout_ms >= 0 && cal->readout_ms < 1000))
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'readout_ms' must be a number of milliseconds from 0 to 1000 (the "
+		                  "camera's rolling-shutter readout)",
+		                  name);
 	cal->rms_px = wl_json_number_or(root, "rms_px", NAN);
 	cal->rms_mm = wl_json_number_or(root, "rms_mm", NAN);
 	if ((st = copy_string(root, "intrinsics_source", name, cal->intrinsics_source,

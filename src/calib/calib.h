@@ -38,6 +38,10 @@ typedef struct {
 	/* added by the calibration stage: */
 	int n_points; /* correspondences and their residuals */
 	wl_calib_point points[WL_CALIB_MAX_POINTS];
+	/* rolling shutter: this camera's top-to-bottom readout of the coded
+	 * rows in ms (0: global shutter or unknown); CAL.json "readout_ms",
+	 * written when > 0, the tracker's default for --readout-ms */
+	double readout_ms;
 	char created_utc[32];  /* "2026-12-02T03:04:05Z"; filled by save when empty */
 	char tool_version[64]; /* the wakeline version that wrote the file (on load) */
 	char sha256_hex[65];   /* SHA-256 of the CAL.json it was loaded from ("" otherwise) */

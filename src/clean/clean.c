@@ -44,6 +44,7 @@ void clean_work_free(work *w)
 	free(w->zx);
 	free(w->zy);
 	free(w->zh);
+	free(w->rs);
 	free(w->mpos);
 	free(w->mh);
 	free(w->why);
@@ -73,6 +74,7 @@ int clean_work_alloc(work *w, size_t n, size_t npieces)
 	w->zx = calloc(m, sizeof *w->zx);
 	w->zy = calloc(m, sizeof *w->zy);
 	w->zh = calloc(m, sizeof *w->zh);
+	w->rs = calloc(m, sizeof *w->rs);
 	w->mpos = calloc(m, 1);
 	w->mh = calloc(m, 1);
 	w->why = calloc(m, 1);
@@ -88,9 +90,9 @@ int clean_work_alloc(work *w, size_t n, size_t npieces)
 	w->seg = calloc(m, sizeof *w->seg);
 	w->pstart = calloc(npieces + 1, sizeof *w->pstart);
 	w->phas_h = calloc(npieces + 1, 1);
-	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->mpos && w->mh && w->why && w->x &&
-	       w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg && w->pstart &&
-	       w->phas_h;
+	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->rs && w->mpos && w->mh && w->why &&
+	       w->x && w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg &&
+	       w->pstart && w->phas_h;
 }
 
 static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
@@ -174,7 +176,8 @@ static wl_status build_pieces(const wl_clean_raw_track *tr, const wl_clean_param
 			const wl_clean_raw_sample *s = &tr->s[i];
 			w->src[n] = i;
 			w->piece[n] = (int)q;
-			w->t[n] = s->t_s;
+			w->t[n] = s->t_meas_s; /* the pose's own time (rolling shutter) */
+			w->rs[n] = s->held ? HELD_VAR_SCALE : 1.0;
 			w->zx[n] = s->has_pos ? s->x_m : NAN;
 			w->zy[n] = s->has_pos ? s->y_m : NAN;
 			w->zh[n] = s->has_pos && s->has_heading ? s->heading_rad : NAN;

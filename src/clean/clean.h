@@ -36,6 +36,12 @@
 #include "core/err.h"
 #include "formats/clean.h" /* the rows, parameters and per-robot records */
 
+/* RAW.csv `held` poses (refined against the image where the detector
+ * missed) get this many times the measurement variance of a detection (3x
+ * its standard deviation) in the RTS smoother and in the live filter;
+ * tests/e2e/0310 measures held poses at about that spread */
+#define WL_CLEAN_HELD_VAR_SCALE 9.0
+
 /* Fills the documented defaults. */
 void wl_clean_params_init(wl_clean_params *p);
 /* Checks ranges; the message names the option. */

@@ -13,13 +13,17 @@
 #include "clean/clean.h"
 
 #define MAX_OUTLIER_PASSES 4
+/* held poses' variance scale (clean.h), and they are left out of the
+ * noise estimate */
+#define HELD_VAR_SCALE WL_CLEAN_HELD_VAR_SCALE
 
 /* One robot's samples, kept in pieces split at long gaps. */
 typedef struct {
 	size_t n;                 /* samples kept (in pieces) */
 	size_t *src;              /* index into the raw track */
 	int *piece;               /* piece number of each sample */
-	double *t, *zx, *zy, *zh; /* measurements, NaN when none */
+	double *t, *zx, *zy, *zh; /* measurements, NaN when none; t: the pose's own time */
+	double *rs;               /* measurement variance scale: 1, or HELD_VAR_SCALE for held poses */
 	unsigned char *mpos, *mh; /* 1: rejected as outlier (after smoothing: the union) */
 	unsigned char *why;       /* bit 0: position beyond the gate, bit 1: heading */
 	/* smoothed state */

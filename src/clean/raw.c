@@ -46,10 +46,12 @@ static wl_status on_row(const wl_raw_row *r, void *ctx, wl_err *err)
 	s.t_s = r->t_s;
 	s.frame = (long)r->frame;
 	s.x_m = s.y_m = s.heading_rad = NAN;
-	if (r->status == WL_RAW_OK) {
+	s.t_meas_s = r->t_detect_s; /* NaN when lost or not given */
+	if (r->status == WL_RAW_OK || r->status == WL_RAW_HELD) {
 		s.x_m = r->x_m;
 		s.y_m = r->y_m;
 		s.has_pos = 1;
+		s.held = r->status == WL_RAW_HELD;
 		if (!isnan(r->heading_rad)) {
 			s.heading_rad = r->heading_rad;
 			s.has_heading = 1;
@@ -57,6 +59,11 @@ static wl_status on_row(const wl_raw_row *r, void *ctx, wl_err *err)
 	}
 	if (!(tr = find_track(raw, r->id, r->line, err)))
 		return err ? err->code : WL_ENOMEM;
+	/* the time of the pose: t_detect_s, or t_s shifted like the last pose */
+	if (isnan(s.t_meas_s))
+		s.t_meas_s = s.t_s + tr->t_offset_s;
+	else if (s.has_pos)
+		tr->t_offset_s = s.t_meas_s - s.t_s;
 	if (tr->n > 0) {
 		const wl_clean_raw_sample *p = &tr->s[tr->n - 1];
 		if (s.frame == p->frame)
@@ -74,6 +81,13 @@ static wl_status on_row(const wl_raw_row *r, void *ctx, wl_err *err)
 			                  "%s:%ld: time t_s %.6f of robot %ld is not after %.6f (line %ld): "
 			                  "times must increase strictly",
 			                  raw->path, r->line, s.t_s, r->id, p->t_s, p->line);
+		if (!(s.t_meas_s > p->t_meas_s))
+			return wl_err_set(
+			        err, WL_EFORMAT,
+			        "%s:%ld: time t_detect_s %.6f of robot %ld is not after %.6f (line %ld): "
+			        "the rolling-shutter times must increase strictly: check the readout given "
+			        "to track",
+			        raw->path, r->line, s.t_meas_s, r->id, p->t_meas_s, p->line);
 	}
 	if (tr->n == tr->cap) {
 		size_t cap = tr->cap ? 2 * tr->cap : 256;

@@ -21,15 +21,21 @@ typedef struct {
 	double t_s;
 	long frame;
 	double x_m, y_m, heading_rad; /* NaN when absent */
-	unsigned char has_pos;        /* status ok with x_m, y_m */
-	unsigned char has_heading;    /* status ok with heading_rad */
+	unsigned char has_pos;        /* status ok or held, with x_m, y_m */
+	unsigned char has_heading;    /* status ok or held, with heading_rad */
+	unsigned char held;           /* status held: a pose refined where the detector missed */
 	long line;                    /* line in RAW.csv, for messages */
+	/* the time the pose belongs to: t_detect_s when given (rolling-shutter
+	 * correction), else t_s; a lost row takes t_s plus the previous pose's
+	 * t_detect_s - t_s of the same robot */
+	double t_meas_s;
 } wl_clean_raw_sample;
 
 typedef struct {
 	long id;
 	size_t n, cap;
-	wl_clean_raw_sample *s; /* in time order (validated strictly increasing) */
+	wl_clean_raw_sample *s; /* in time order (validated strictly increasing, t_s and t_meas_s) */
+	double t_offset_s;      /* reading: t_detect_s - t_s of the last pose */
 } wl_clean_raw_track;
 
 typedef struct {
@@ -44,7 +50,7 @@ typedef struct {
 #define WL_CLEAN_MAX_ROBOTS 4096
 
 /* Reads RAW.csv through formats/raw.h and checks that per id frames and
- * times increase strictly (so no (frame, id) appears twice).  Errors name the file
+ * times (t_s, and t_meas_s) increase strictly (so no (frame, id) appears twice).  Errors name the file
  * and line.  *out is freed with wl_clean_raw_destroy. */
 wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
 /* Same over a buffer (name is used in messages; checksum of the buffer). */

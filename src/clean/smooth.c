@@ -58,7 +58,7 @@ double clean_mad_sigma(const work *w, const double *z, int angular)
 	for (size_t q = 0; q < w->npieces; q++) {
 		size_t a = (size_t)-1, b = (size_t)-1;
 		for (size_t i = w->pstart[q]; i < w->pstart[q + 1]; i++) {
-			if (!isfinite(z[i]))
+			if (!isfinite(z[i]) || w->rs[i] != 1.0) /* detections only: held poses are noisier */
 				continue;
 			if (a != (size_t)-1 && b != (size_t)-1) {
 				double h1 = w->t[b] - w->t[a], h2 = w->t[i] - w->t[b];
@@ -119,6 +119,8 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 		for (size_t i = a; i < b; i++) {
 			double nu[2], S[2], chi = 0, lls = 0;
 			int have = 1;
+			wl_kin_cfg c = g->cfg; /* a held pose's variance is inflated */
+			c.r *= w->rs[i];
 			for (int k = 0; k < g->naxes; k++) {
 				if (i > a)
 					wl_kin_predict(&g->cfg, &g->st[k][i - 1], w->t[i] - w->t[i - 1],
@@ -131,7 +133,7 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 			if (!have || (mask_in && mask_in[i]))
 				continue;
 			for (int k = 0; k < g->naxes; k++) {
-				wl_kin_innov(&g->cfg, &g->st[k][i], g->z[k][i], &nu[k], &S[k]);
+				wl_kin_innov(&c, &g->st[k][i], g->z[k][i], &nu[k], &S[k]);
 				chi += nu[k] * nu[k] / S[k];
 				lls += log(2 * WL_PI * S[k]);
 			}
@@ -143,7 +145,7 @@ static double group_forward(const work *w, group *g, const unsigned char *mask_i
 			}
 			ll += -0.5 * (lls + chi);
 			for (int k = 0; k < g->naxes; k++)
-				wl_kin_update(&g->cfg, &g->st[k][i], nu[k], S[k]);
+				wl_kin_update(&c, &g->st[k][i], nu[k], S[k]);
 		}
 	}
 	return ll;
@@ -219,7 +221,7 @@ static size_t post_check(const work *w, const group *g, unsigned char *mask, dou
 			e = g->z[k][i] - g->st[k][i].xs[0];
 			if (g->cfg.angular)
 				e = wl_wrap_pi(e);
-			chi += e * e / g->cfg.r;
+			chi += e * e / (g->cfg.r * w->rs[i]);
 		}
 		if (have && chi > gate) {
 			mask[i] = 1;

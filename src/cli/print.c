@@ -14,11 +14,21 @@
 
 void cli_print_track(const char *raw_path, const wl_track_summary *sum)
 {
-	printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%), %lld full-frame and %lld window "
-	       "searches\n",
-	       raw_path, (long long)sum->frames, sum->n_robots, (long long)sum->ok_rows, (long long)sum->rows,
-	       sum->rows ? 100.0 * sum->ok_rows / sum->rows : 0.0, (long long)sum->stats.full_scans,
-	       (long long)sum->stats.window_scans);
+	const wl_track_stats *st = &sum->stats;
+	int64_t det = sum->ok_rows - st->held_rows;
+	printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%) and %lld held (%.1f%%), %lld "
+	       "full-frame and %lld window searches; %lld lost rows: %lld searched, %lld out of view\n",
+	       raw_path, (long long)sum->frames, sum->n_robots, (long long)det, (long long)sum->rows,
+	       sum->rows ? 100.0 * det / sum->rows : 0.0, (long long)st->held_rows,
+	       sum->rows ? 100.0 * st->held_rows / sum->rows : 0.0, (long long)st->full_scans,
+	       (long long)st->window_scans, (long long)st->lost_rows, (long long)st->lost_searched,
+	       (long long)st->lost_out_of_view);
+	if (st->readout_n >= 30 && isfinite(st->readout_se_s))
+		printf("%s: rolling shutter: the shear of %lld moving tags gives a readout of %.1f +- %.1f "
+		       "ms "
+		       "(+- %.1f ms from the tags' corner bias; used: %.1f ms)\n",
+		       raw_path, (long long)st->readout_n, 1000 * st->readout_s, 1000 * st->readout_se_s,
+		       1000 * st->readout_bias_s, 1000 * st->readout_used_s);
 }
 
 void cli_print_clean_robot(const wl_clean_robot *rb)

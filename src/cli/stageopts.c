@@ -86,6 +86,15 @@ static int parse_tank(const char *arg, void *dest, char *msg, size_t cap)
 	return 0;
 }
 
+static int parse_readout_ms(const char *arg, void *dest, char *msg, size_t cap)
+{
+	double *readout_s = dest, ms;
+	if (!cli_parse_double(arg, &ms) || !(ms >= 0 && ms <= 999))
+		return snprintf(msg, cap, "give the readout in ms, from 0 (global shutter) to 999"), 1;
+	*readout_s = ms / 1000.0;
+	return 0;
+}
+
 static void track_table(cli_stages *s)
 {
 	wl_track_opts *t = &s->p.track;
@@ -127,6 +136,17 @@ static void track_table(cli_stages *s)
 		        CLI_OPT_INT("max-hamming", 0, "N", "corrected bits accepted: 0 (default) or 1",
 		                    &t->max_hamming, 0, 1),
 		        margin,
+		        CLI_OPT_NUM("hold-max-s", "S",
+		                    "hold a robot the detector misses for up to S s after its\nlast "
+		                    "detection (status held; default 3; 0: never)",
+		                    &t->hold_max_s, 0, 60),
+		        CLI_OPT_NUM("hold-min-score", "Q", "lowest match quality held, 0-1 (default 0.4)",
+		                    &t->hold_min_score, 0, 1),
+		        CLI_OPT_FN(
+		                "readout-ms", "R",
+		                "rolling shutter: top-to-bottom readout of the coded rows,\nms (default: "
+		                "CAL.json's readout_ms, else 0); each pose is\ntimed by its row (t_detect_s)",
+		                &t->readout_s, parse_readout_ms),
 		        CLI_OPT_INT("threads", 0, "N", "decoder threads (default: all cores)",
 		                    &s->p.decode_threads, 0, 64),
 		        CLI_OPT_END};

@@ -21,7 +21,7 @@ typedef struct {
 	double body_m; /* --body-diameter-m, NaN when not given */
 	double tank[4];
 	int have_tank, margin_seen;
-	cli_opt track[20], clean[24], measure[5], body[2];
+	cli_opt track[24], clean[24], measure[5], body[2];
 } cli_stages;
 
 /* Defaults, and the tables pointing into s (s must not move after this). */

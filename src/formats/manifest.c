@@ -15,10 +15,23 @@
 static const char *const K_CLIP = "clip";
 
 /* The option columns. */
-enum { O_CAL, O_ROBOTS, O_MODE, O_FAMILY, O_PLANE, O_BODY, O_TRIM, O_SMOOTHER, O_COMMANDED, OPT_N };
-static const char *const OPT_COLS[OPT_N] = {"cal",    "robots",         "mode",
-                                            "family", "plane_height_m", "body_diameter_m",
-                                            "trim",   "smoother",       "commanded_period_s"};
+enum {
+	O_CAL,
+	O_ROBOTS,
+	O_MODE,
+	O_FAMILY,
+	O_PLANE,
+	O_BODY,
+	O_TRIM,
+	O_SMOOTHER,
+	O_COMMANDED,
+	O_READOUT,
+	OPT_N
+};
+static const char *const OPT_COLS[OPT_N] = {"cal",       "robots",         "mode",
+                                            "family",    "plane_height_m", "body_diameter_m",
+                                            "trim",      "smoother",       "commanded_period_s",
+                                            "readout_ms"};
 
 typedef struct {
 	wl_manifest *m;
@@ -140,7 +153,7 @@ static wl_status read_opts(const mctx *c, const wl_csv_row *row, wl_manifest_row
 	o->mode = WL_MF_MODE_UNSET;
 	o->trim = WL_MF_TRIM_UNSET;
 	o->smoother = WL_MF_SMOOTHER_UNSET;
-	o->plane_height_m = o->body_diameter_m = o->commanded_period_s = o->trim_s = NAN;
+	o->plane_height_m = o->body_diameter_m = o->commanded_period_s = o->trim_s = o->readout_ms = NAN;
 	for (int i = 0; i < OPT_N; i++)
 		v[i] = c->col[i] >= 0 && r->values[c->col[i]][0] ? r->values[c->col[i]] : NULL;
 	if ((v[O_CAL] && !(r->cal = resolve(c->m->path, v[O_CAL]))) ||
@@ -178,8 +191,11 @@ static wl_status read_opts(const mctx *c, const wl_csv_row *row, wl_manifest_row
 	if ((v[O_PLANE] && (st = num_cell(row, O_PLANE, v[O_PLANE], 0, &o->plane_height_m, err))) ||
 	    (v[O_BODY] && (st = num_cell(row, O_BODY, v[O_BODY], 1, &o->body_diameter_m, err))) ||
 	    (v[O_COMMANDED] &&
-	     (st = num_cell(row, O_COMMANDED, v[O_COMMANDED], 1, &o->commanded_period_s, err))))
+	     (st = num_cell(row, O_COMMANDED, v[O_COMMANDED], 1, &o->commanded_period_s, err))) ||
+	    (v[O_READOUT] && (st = num_cell(row, O_READOUT, v[O_READOUT], 0, &o->readout_ms, err))))
 		return st;
+	if (o->readout_ms < 0 || o->readout_ms > 999)
+		return bad_cell(row, O_READOUT, v[O_READOUT], "a readout from 0 to 999 ms", err);
 	if (o->plane_height_m < -10 || o->plane_height_m > 10)
 		return bad_cell(row, O_PLANE, v[O_PLANE], "a height from -10 to 10 m", err);
 	return WL_OK;

@@ -13,6 +13,8 @@
  *   trim                auto | none | seconds
  *   smoother            rts | sg
  *   commanded_period_s  the commanded oscillation period, seconds (> 0)
+ *   readout_ms          the camera's rolling-shutter readout, ms (0 to 999;
+ *                       instead of CAL.json's readout_ms or --readout-ms)
  * Every such cell is checked when the manifest is read, so a typo stops the
  * batch before any clip runs (errors name the file and line).
  *
@@ -44,7 +46,7 @@ typedef enum {
 typedef struct {
 	const char *cal, *robots, *family;
 	wl_manifest_mode mode;
-	double plane_height_m, body_diameter_m, commanded_period_s;
+	double plane_height_m, body_diameter_m, commanded_period_s, readout_ms;
 	wl_manifest_trim trim;
 	double trim_s; /* WL_MF_TRIM_FIXED */
 	wl_manifest_smoother smoother;

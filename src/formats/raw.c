@@ -15,14 +15,14 @@
 static const wl_format RAW = {"RAW.csv", NULL, 1, "wakeline track"};
 
 /* The columns, in file order. */
-enum { C_T, C_FRAME, C_ID, C_U, C_V, C_X, C_Y, C_H, C_STATUS, C_MARGIN, C_SIZE, C_HS, C_N };
-static const char *const COLS[] = {"t_s", "frame",       "id",     "u_px",   "v_px",    "x_m",
-                                   "y_m", "heading_rad", "status", "margin", "size_px", "heading_source",
-                                   NULL};
+enum { C_T, C_FRAME, C_ID, C_U, C_V, C_X, C_Y, C_H, C_STATUS, C_MARGIN, C_SIZE, C_HS, C_SCORE, C_TDET, C_N };
+static const char *const COLS[] = {
+        "t_s",    "frame",  "id",      "u_px",           "v_px",       "x_m",        "y_m", "heading_rad",
+        "status", "margin", "size_px", "heading_source", "hold_score", "t_detect_s", NULL};
 /* What a reader needs. */
 static const char *const REQUIRED[] = {"t_s", "frame", "id", "x_m", "y_m", "heading_rad", "status", NULL};
 
-static const char *const STATUS[] = {"lost", "ok"};
+static const char *const STATUS[] = {"lost", "ok", "held"};
 static const char *const SOURCES[] = {"", "tag", "caps", "motion"};
 
 const char *wl_heading_source_name(wl_heading_source s)
@@ -71,16 +71,21 @@ void wl_raw_put(wl_raw_writer *w, const wl_raw_row *r)
 	wl_csvw_num(&w->w, r->t_s, 6);
 	wl_csvw_int(&w->w, r->frame);
 	wl_csvw_int(&w->w, r->id);
-	if (r->status == WL_RAW_OK) {
+	if (r->status == WL_RAW_OK || r->status == WL_RAW_HELD) {
 		wl_csvw_num(&w->w, r->u_px, 3);
 		wl_csvw_num(&w->w, r->v_px, 3);
 		wl_csvw_num(&w->w, r->x_m, 6);
 		wl_csvw_num(&w->w, r->y_m, 6);
 		wl_csvw_num(&w->w, r->heading_rad, 6); /* NaN -> empty */
-		wl_csvw_str(&w->w, STATUS[WL_RAW_OK]);
+		wl_csvw_str(&w->w, STATUS[r->status]);
 		wl_csvw_num(&w->w, r->margin, 2);
 		wl_csvw_num(&w->w, r->size_px, 2);
 		wl_csvw_str(&w->w, isnan(r->heading_rad) ? "" : wl_heading_source_name(r->heading_source));
+		if (r->status == WL_RAW_HELD)
+			wl_csvw_num(&w->w, r->hold_score, 3);
+		else
+			wl_csvw_empty(&w->w);
+		wl_csvw_num(&w->w, isnan(r->t_detect_s) ? r->t_s : r->t_detect_s, 6);
 	} else {
 		for (int k = C_U; k < C_STATUS; k++)
 			wl_csvw_empty(&w->w);
@@ -150,6 +155,7 @@ static wl_status parse_row(const rctx *c, const wl_csv_row *row, wl_raw_row *r, 
 	memset(r, 0, sizeof *r);
 	r->line = row->line;
 	r->u_px = r->v_px = r->x_m = r->y_m = r->heading_rad = r->margin = r->size_px = NAN;
+	r->hold_score = r->t_detect_s = NAN;
 	if ((st = wl_csv_get_double(row, c->col[C_T], COLS[C_T], &r->t_s, err)) ||
 	    (st = wl_csv_get_long(row, c->col[C_FRAME], COLS[C_FRAME], &frame, err)) ||
 	    (st = wl_csv_get_long(row, c->col[C_ID], COLS[C_ID], &r->id, err)))
@@ -161,19 +167,31 @@ static wl_status parse_row(const rctx *c, const wl_csv_row *row, wl_raw_row *r, 
 	cell = row->fields[c->col[C_STATUS]];
 	if (word_is(cell, STATUS[WL_RAW_LOST]))
 		return WL_OK;
-	if (!word_is(cell, STATUS[WL_RAW_OK]))
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s': '%.40s' is neither '%s' nor '%s'",
+	if (word_is(cell, STATUS[WL_RAW_OK]))
+		r->status = WL_RAW_OK;
+	else if (word_is(cell, STATUS[WL_RAW_HELD]))
+		r->status = WL_RAW_HELD;
+	else
+		return wl_err_set(err, WL_EFORMAT, "%s:%ld: column '%s': '%.40s' is not '%s', '%s' or '%s'",
 		                  row->path, row->line, COLS[C_STATUS], cell, STATUS[WL_RAW_OK],
-		                  STATUS[WL_RAW_LOST]);
-	r->status = WL_RAW_OK;
+		                  STATUS[WL_RAW_HELD], STATUS[WL_RAW_LOST]);
 	if ((st = wl_csv_get_double(row, c->col[C_X], COLS[C_X], &r->x_m, err)) ||
 	    (st = wl_csv_get_double(row, c->col[C_Y], COLS[C_Y], &r->y_m, err)) ||
 	    (st = opt_num(row, c->col[C_H], C_H, &r->heading_rad, err)) ||
 	    (st = opt_num(row, c->col[C_U], C_U, &r->u_px, err)) ||
 	    (st = opt_num(row, c->col[C_V], C_V, &r->v_px, err)) ||
 	    (st = opt_num(row, c->col[C_MARGIN], C_MARGIN, &r->margin, err)) ||
-	    (st = opt_num(row, c->col[C_SIZE], C_SIZE, &r->size_px, err)))
+	    (st = opt_num(row, c->col[C_SIZE], C_SIZE, &r->size_px, err)) ||
+	    (st = opt_num(row, c->col[C_TDET], C_TDET, &r->t_detect_s, err)))
 		return st;
+	if (r->status == WL_RAW_HELD && (st = opt_num(row, c->col[C_SCORE], C_SCORE, &r->hold_score, err)))
+		return st;
+	if (!isnan(r->t_detect_s) && !(r->t_detect_s >= r->t_s - 1e-6 && r->t_detect_s < r->t_s + 1.0))
+		return wl_err_set(
+		        err, WL_EFORMAT,
+		        "%s:%ld: column '%s': %.6f is not within a second after t_s %.6f: check the "
+		        "rolling-shutter readout given to track",
+		        row->path, row->line, COLS[C_TDET], r->t_detect_s, r->t_s);
 	if (c->col[C_HS] >= 0 && !wl_csv_empty(row, c->col[C_HS])) {
 		size_t k;
 		cell = row->fields[c->col[C_HS]];

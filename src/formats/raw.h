@@ -1,7 +1,10 @@
 /*
  * raw.h: RAW.csv, the tracker's output and the clean stage's input: one row
  * per frame per robot, in frame order (DEVELOPERS.md, "File formats"):
- *   t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source
+ *   t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source,
+ *   hold_score,t_detect_s
+ * status: ok (detected), held (the detector missed; the pose was refined
+ * against the image, hold_score its quality), lost (pose cells empty).
  * This module is the only code that knows the columns: the streaming writer
  * (rows go out as they come, into an atomic file or a stream the caller
  * owns) and the streaming reader
@@ -20,7 +23,7 @@
 
 #include "core/err.h"
 
-typedef enum { WL_RAW_LOST = 0, WL_RAW_OK } wl_raw_status;
+typedef enum { WL_RAW_LOST = 0, WL_RAW_OK, WL_RAW_HELD } wl_raw_status;
 
 /* Where a heading came from: a tag's orientation, the line from the back
  * cap to the front cap, or the direction of motion (one cap). */
@@ -40,6 +43,11 @@ typedef struct {
 	double margin;      /* tag decision margin, or blob area in px */
 	double size_px;     /* tag side, or blob diameter, in px */
 	wl_heading_source heading_source;
+	double hold_score; /* held rows: the match quality, 0..1; NaN otherwise */
+	/* when the row through the pose's centre was exposed (rolling shutter):
+	 * t_s + v_px / height * readout; the writer puts t_s when NaN; NaN
+	 * when lost, and for files without the column */
+	double t_detect_s;
 	long line; /* reader: the row's line in the file */
 } wl_raw_row;
 
@@ -52,7 +60,8 @@ wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err);
  * flushes (not atomic: `wakeline live` records as it goes, flushing each
  * frame's rows with one write).  Commit or abort then only free the writer. */
 wl_status wl_raw_open_fp(FILE *fp, wl_raw_writer **out, wl_err *err);
-/* Appends one row (status lost writes empty pose cells). */
+/* Appends one row (status lost writes empty pose cells; hold_score is
+ * written for held rows only). */
 void wl_raw_put(wl_raw_writer *w, const wl_raw_row *row);
 /* Commits (renames into place) and frees; abort removes the temporary file
  * and frees. */
@@ -63,12 +72,12 @@ void wl_raw_abort(wl_raw_writer *w);
 
 /* Called for each data row; a non-WL_OK return stops the reading and is
  * returned.  Checked before the call: numbers in number cells, a known
- * status and heading source, x_m and y_m on ok rows. */
+ * status and heading source, x_m and y_m on ok and held rows. */
 typedef wl_status (*wl_raw_row_fn)(const wl_raw_row *row, void *ctx, wl_err *err);
 
 /* Reads RAW.csv (required columns t_s, frame, id, x_m, y_m, heading_rad,
  * status; the others are read when present).  A file without data rows is
- * an error. */
+ * an error.  t_detect_s, when given, must lie within a second after t_s. */
 wl_status wl_raw_read(const char *path, wl_raw_row_fn fn, void *ctx, wl_err *err);
 /* Same over a buffer; name is used in messages. */
 wl_status wl_raw_read_mem(const char *name, const char *data, size_t len, wl_raw_row_fn fn, void *ctx,

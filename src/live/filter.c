@@ -182,6 +182,12 @@ static void output(const wl_live_filter *f, wl_live_state *o)
 void wl_live_filter_step(wl_live_filter *f, const wl_live_filter_cfg *c, double t, double x_m, double y_m,
                          double heading_rad, wl_live_state *out)
 {
+	wl_live_filter_step_var(f, c, t, x_m, y_m, heading_rad, 1.0, out);
+}
+
+void wl_live_filter_step_var(wl_live_filter *f, const wl_live_filter_cfg *c, double t, double x_m, double y_m,
+                             double heading_rad, double var_scale, wl_live_state *out)
+{
 	wl_kin_cfg kp, kh;
 	int have_pos = isfinite(x_m) && isfinite(y_m), have_h = isfinite(heading_rad);
 	double gate2 = c->gate_prob > 0 ? chi2_quantile(c->gate_prob, 2) : 0;
@@ -189,6 +195,10 @@ void wl_live_filter_step(wl_live_filter *f, const wl_live_filter_cfg *c, double 
 	double dt;
 
 	kin_cfgs(c, &kp, &kh);
+	if (var_scale > 0) {
+		kp.r *= var_scale;
+		kh.r *= var_scale;
+	}
 	out->accepted = 0;
 	if (f->started && t - f->t_seen > c->max_gap_s)
 		f->started = f->h_started = 0;

@@ -91,6 +91,10 @@ void wl_live_filter_init(wl_live_filter *f);
  * The filter restarts too after max_gap_s without an accepted position. */
 void wl_live_filter_step(wl_live_filter *f, const wl_live_filter_cfg *c, double t, double x_m, double y_m,
                          double heading_rad, wl_live_state *out);
+/* The same with the measurement variances (position and heading) scaled
+ * by var_scale: WL_CLEAN_HELD_VAR_SCALE for a held pose, as offline. */
+void wl_live_filter_step_var(wl_live_filter *f, const wl_live_filter_cfg *c, double t, double x_m, double y_m,
+                             double heading_rad, double var_scale, wl_live_state *out);
 
 /* -------------------------------------------------------------- latencies */
 

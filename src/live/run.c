@@ -32,6 +32,8 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "clean/clean.h"
+
 #define NSLOTS 4
 #define WAIT_STEP_S 0.05 /* the tracking thread looks at the clock this often while idle */
 
@@ -519,8 +521,12 @@ static void publish(tracking *k, const slot *sl, const wl_track_obs *obs, int n)
 		wl_pose p;
 		memset(&p, 0, sizeof p);
 		if (rf) {
-			wl_live_filter_step(&rf->f, &k->lo->filter, sl->t_s, o->ok ? o->x_m : NAN,
-			                    o->ok ? o->y_m : NAN, o->ok ? o->heading_rad : NAN, &ls);
+			/* a pose is filtered at the time its row was exposed (rolling
+			 * shutter), a held one with the offline smoother's larger noise */
+			double t = o->ok && isfinite(o->t_detect_s) ? o->t_detect_s : sl->t_s;
+			wl_live_filter_step_var(&rf->f, &k->lo->filter, t, o->ok ? o->x_m : NAN,
+			                        o->ok ? o->y_m : NAN, o->ok ? o->heading_rad : NAN,
+			                        o->held ? WL_CLEAN_HELD_VAR_SCALE : 1.0, &ls);
 			if (o->ok && !rf->seen) {
 				rf->seen = 1;
 				k->robots_seen++;
@@ -531,7 +537,7 @@ static void publish(tracking *k, const slot *sl, const wl_track_obs *obs, int n)
 		p.seq = k->seq++;
 		p.frame = sl->index;
 		p.id = o->id;
-		p.status = o->ok ? WL_POSE_OK : WL_POSE_LOST;
+		p.status = !o->ok ? WL_POSE_LOST : o->held ? WL_POSE_HELD : WL_POSE_OK;
 		p.t_s = sl->t_s;
 		p.arrival_unix_s = sl->arrival_s + wall_off;
 		p.x_m = o->ok ? o->x_m : NAN;

@@ -39,11 +39,12 @@ static void describe_track(FILE *f, const wl_track_opts *t)
 	        "track mode=%d family=%s plane=%.17g rescan=%.17g decimate=%.9g wdecimate=%.9g sigma=%.9g "
 	        "sharpening=%.17g hamming=%d margin=%.17g margin1=%.17g edge=%d blob=%d..%d fill=%.17g "
 	        "lost=%d "
-	        "motion=%.17g restrict=%d\n",
+	        "motion=%.17g restrict=%d hold=%.17g,%.17g readout=%.17g\n",
 	        (int)t->mode, t->family, t->plane_height_m, t->rescan_s, (double)t->quad_decimate,
 	        (double)t->window_decimate, (double)t->quad_sigma, t->decode_sharpening, t->max_hamming,
 	        t->min_margin, t->min_margin_h1, t->edge_px, t->min_blob_px, t->max_blob_px, t->min_fill,
-	        t->lost_after, t->motion_min_m, t->restrict_ids);
+	        t->lost_after, t->motion_min_m, t->restrict_ids, t->hold_max_s, t->hold_min_score,
+	        t->readout_s);
 	for (int i = 0; i < t->n_robots; i++) {
 		const wl_robot_spec *r = &t->robots[i];
 		fprintf(f, "robot id=%d plane=%.17g offset=%.17g body=%.17g", r->id, r->plane_height_m,

@@ -45,6 +45,8 @@ static void truth_rows(wl_csv_writer *cw, const wl_synth_scene *sc, long k, cons
 		wl_csvw_num(cw, p.y_m, 6);
 		wl_csvw_num(cw, p.heading_rad, 6);
 		wl_csvw_int(cw, p.visible);
+		wl_csvw_num(cw, wl_synth_visible_fraction(sc, i, t), 4);
+		wl_csvw_num(cw, wl_synth_centre_time(sc, i, t), 6);
 		wl_csvw_end(cw);
 	}
 }
@@ -52,8 +54,8 @@ static void truth_rows(wl_csv_writer *cw, const wl_synth_scene *sc, long k, cons
 wl_status wl_synth_write_clip(const wl_synth_scene *sc, const char *mp4_path, wl_synth_progress_fn fn,
                               void *ctx, wl_err *err)
 {
-	static const char *const header[] = {"t_s", "frame",       "id",      "x_m",
-	                                     "y_m", "heading_rad", "visible", NULL};
+	static const char *const header[] = {"t_s",         "frame",   "id",           "x_m",        "y_m",
+	                                     "heading_rad", "visible", "visible_frac", "t_centre_s", NULL};
 	char *truth = side_path(mp4_path, ".truth.csv"), *scene = side_path(mp4_path, ".scene.json");
 	wl_synth_renderer *r = NULL;
 	wl_vwriter *vw = NULL;

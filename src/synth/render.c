@@ -347,55 +347,61 @@ static int shade_robot(const wl_synth_renderer *r, int i, const rpose *p, double
 static int robot_box(const wl_synth_renderer *r, int i, const rpose *poses, int np, int box[4])
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
-	double reach = 0.5 * rb->diameter_m;
-	double lo_u = 1e30, lo_v = 1e30, hi_u = -1e30, hi_v = -1e30;
+	double reach = 0.5 * rb->diameter_m, lohi[4] = {1e30, 1e30, -1e30, -1e30};
 	if (rb->kind == WL_SYNTH_TAG) {
 		double card = 0.5 * rb->tag_size_m * r->robot_tex[i].total / r->robot_tex[i].black * 1.4143;
 		if (card > reach)
 			reach = card;
 	}
-	for (int j = 0; j < np; j++) {
-		for (int a = 0; a < 24; a++) {
-			double ang = 2 * WL_PI * a / 24, X[3], u, v;
-			/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
-			X[0] = poses[j].x + reach * 1.01 * cos(ang);
-			X[1] = poses[j].y + reach * 1.01 * sin(ang);
-			X[2] = rb->height_m;
-			if (!wl_camera_project_water(&r->sc->cam, X, &u, &v))
-				return 0;
-			lo_u = fmin(lo_u, u);
-			hi_u = fmax(hi_u, u);
-			lo_v = fmin(lo_v, v);
-			hi_v = fmax(hi_v, v);
-		}
-	}
-	/* distortion can bend the outline beyond the polygon: a margin */
-	box[0] = (int)floor(lo_u) - 3;
-	box[1] = (int)floor(lo_v) - 3;
-	box[2] = (int)ceil(hi_u) + 3;
-	box[3] = (int)ceil(hi_v) + 3;
-	if (box[0] < 0)
-		box[0] = 0;
-	if (box[1] < 0)
-		box[1] = 0;
-	if (box[2] > r->w - 1)
-		box[2] = r->w - 1;
-	if (box[3] > r->h - 1)
-		box[3] = r->h - 1;
-	return box[0] <= box[2] && box[1] <= box[3];
+	/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
+	for (int j = 0; j < np; j++)
+		if (!synth_project_ellipse(&r->sc->cam, poses[j].x, poses[j].y, rb->height_m, reach * 1.01,
+		                           reach * 1.01, lohi))
+			return 0;
+	return synth_finish_box(lohi, r->w, r->h, box);
 }
 
-/* Renders robot i over the frame for the exposure's sub-frame poses. */
-static void draw_robot(const wl_synth_renderer *r, int i, const rpose *poses, int np, uint8_t *rgb,
-                       int stride)
+/* The sub-frame poses of robot i over an exposure centred on t. */
+static void robot_poses(const wl_synth_renderer *r, int i, double t, int np, rpose *poses)
+{
+	const wl_synth_scene *sc = r->sc;
+	for (int j = 0; j < np; j++) {
+		/* sub-frame times spread evenly over an exposure centred on t */
+		double dt = np > 1 ? sc->exposure_s * ((j + 0.5) / np - 0.5) : 0;
+		wl_synth_pose p;
+		wl_synth_robot_pose(sc, i, t + dt, &p);
+		poses[j].x = p.x_m;
+		poses[j].y = p.y_m;
+		poses[j].ch = cos(p.heading_rad);
+		poses[j].sh = sin(p.heading_rad);
+		poses[j].cu = cos(p.heading_rad + sc->robots[i].tag_offset_rad);
+		poses[j].su = sin(p.heading_rad + sc->robots[i].tag_offset_rad);
+		poses[j].visible = p.visible;
+	}
+}
+
+/* Renders robot i over the frame at time t: np sub-frame poses (motion
+ * blur); with a rolling shutter (readout_s > 0) each coded row v is drawn
+ * with the poses at its own time t + v / height * readout_s. */
+static void draw_robot(const wl_synth_renderer *r, int i, double t, int np, uint8_t *rgb, int stride)
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
-	int box[4], n = r->ss, any = 0;
-	for (int j = 0; j < np; j++)
-		any |= poses[j].visible;
-	if (!any || !robot_box(r, i, poses, np, box))
+	double ro = r->sc->readout_s;
+	rpose poses[32], span[3 * 32];
+	int box[4], n = r->ss, any = 0, nspan = 0;
+	/* the box covers the robot over the whole readout */
+	for (int k = 0; k < (ro > 0 ? 3 : 1); k++) {
+		robot_poses(r, i, t + 0.5 * k * ro, np, span + nspan);
+		nspan += np;
+	}
+	for (int j = 0; j < nspan; j++)
+		any |= span[j].visible;
+	if (!any || !robot_box(r, i, span, nspan, box))
 		return;
+	memcpy(poses, span, (size_t)np * sizeof *poses);
 	for (int v = box[1]; v <= box[3]; v++) {
+		if (ro > 0)
+			robot_poses(r, i, t + ro * v / r->h, np, poses);
 		for (int u = box[0]; u <= box[2]; u++) {
 			float acc[3] = {0, 0, 0}, c[3];
 			int hits = 0, total = n * n * np;
@@ -495,31 +501,17 @@ static void add_noise(const wl_synth_renderer *r, long k, uint8_t *rgb, int stri
 wl_status wl_synth_render_at(wl_synth_renderer *r, double t_s, long k, uint8_t *rgb, int stride, wl_err *err)
 {
 	const wl_synth_scene *sc = r->sc;
-	rpose poses[32];
 	int np = sc->blur_samples < 1 ? 1 : sc->blur_samples > 32 ? 32 : sc->blur_samples;
 	if (stride < 3 * r->w)
 		return wl_err_set(err, WL_EINVAL, "render: stride %d is less than 3 x width %d", stride,
 		                  r->w);
 	for (int v = 0; v < r->h; v++)
 		memcpy(rgb + (size_t)v * stride, r->bg8 + (size_t)v * r->w * 3, (size_t)r->w * 3);
-	for (int oi = 0; oi < sc->n_robots; oi++) {
-		int i = r->order[oi];
-		for (int j = 0; j < np; j++) {
-			/* sub-frame times spread evenly over an exposure centred on t */
-			double dt = np > 1 ? sc->exposure_s * ((j + 0.5) / np - 0.5) : 0;
-			wl_synth_pose p;
-			wl_synth_robot_pose(sc, i, t_s + dt, &p);
-			poses[j].x = p.x_m;
-			poses[j].y = p.y_m;
-			poses[j].ch = cos(p.heading_rad);
-			poses[j].sh = sin(p.heading_rad);
-			poses[j].cu = cos(p.heading_rad + sc->robots[i].tag_offset_rad);
-			poses[j].su = sin(p.heading_rad + sc->robots[i].tag_offset_rad);
-			poses[j].visible = p.visible;
-		}
-		draw_robot(r, i, poses, np, rgb, stride);
-	}
+	for (int oi = 0; oi < sc->n_robots; oi++)
+		draw_robot(r, r->order[oi], t_s, np, rgb, stride);
+	synth_draw_occluders(sc, r->ss, t_s, rgb, stride);
 	add_glare(r, t_s, rgb, stride);
+	synth_add_spots(sc, t_s, rgb, stride);
 	if (sc->noise_sigma > 0)
 		add_noise(r, k, rgb, stride);
 	return WL_OK;

@@ -256,9 +256,23 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	return WL_OK;
 }
 
+/* Rolling shutter: the readout from the first coded row to the last. */
+static wl_status parse_readout(pctx *p, const cJSON *t, wl_synth_scene *sc)
+{
+	double ms;
+	wl_status st;
+	TRY(num(p, t, "readout_ms", 0, 0, 0, 1000, &ms));
+	sc->readout_s = ms / 1000.0;
+	if (sc->readout_s > 0 && sc->readout_s >= 1.0 / sc->fps)
+		return bad(p, "readout_ms",
+		           "is not shorter than a frame interval: give less than 1000 / fps");
+	return WL_OK;
+}
+
 static wl_status parse_timing(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = {"fps", "duration_s", "jitter", "time_base_den", NULL};
+	static const char *const keys[] = {"fps",           "duration_s", "jitter",
+	                                   "time_base_den", "readout_ms", NULL};
 	const cJSON *t = child(root, "timing");
 	static const cJSON empty;
 	wl_status st;
@@ -271,6 +285,7 @@ static wl_status parse_timing(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	TRY(num(p, t, "duration_s", 0, 10, 0.001, 24 * 3600, &sc->duration_s));
 	TRY(num(p, t, "jitter", 0, 0, 0, 0.9, &sc->jitter));
 	TRY(inum(p, t, "time_base_den", 0, 90000, 1, 1000000, &sc->time_base_den));
+	TRY(parse_readout(p, t, sc));
 	if (wl_synth_frame_count(sc) > WL_SYNTH_MAX_FRAMES)
 		return bad(p, "duration_s", "gives more than 1000000 frames: shorten the clip");
 	/* the smallest interval must be at least one tick of the time base */
@@ -420,10 +435,75 @@ static wl_status parse_occlusions(pctx *p, const cJSON *a, wl_synth_robot *r)
 	return WL_OK;
 }
 
+/* robots[].docks: [{"with": id, "offset_m": [along, left], "heading_deg",
+ * "t0_s", "t1_s", "blend_s"}]; `with` holds the id until resolve_docks. */
+static wl_status parse_docks(pctx *p, const cJSON *a, wl_synth_robot *r)
+{
+	static const char *const keys[] = {"with", "offset_m", "heading_deg", "t0_s",
+	                                   "t1_s", "blend_s",  NULL};
+	static const double off_d[2] = {0, 0};
+	const cJSON *it;
+	wl_status st;
+	size_t n = strlen(p->where);
+	int i = 0;
+	r->n_docks = 0;
+	if (!a)
+		return WL_OK;
+	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) > WL_SYNTH_MAX_DOCKS)
+		return bad(p, "docks", "must be an array of at most 4 objects");
+	cJSON_ArrayForEach(it, a)
+	{
+		wl_synth_dock *d = &r->docks[i];
+		double off[2], deg;
+		snprintf(p->where + n, sizeof p->where - n, ".docks[%d]", i);
+		TRY(check_keys(p, it, keys));
+		TRY(inum(p, it, "with", 1, 0, 0, 1000000, &d->with));
+		TRY(vec(p, it, "offset_m", 2, off_d, -100, 100, off));
+		d->along_m = off[0];
+		d->left_m = off[1];
+		TRY(num(p, it, "heading_deg", 0, 0, -360, 360, &deg));
+		d->dheading_rad = deg * WL_DEG;
+		TRY(num(p, it, "t0_s", 1, 0, 0, 1e6, &d->t0_s));
+		TRY(num(p, it, "t1_s", 1, 0, 0, 1e6, &d->t1_s));
+		TRY(num(p, it, "blend_s", 0, 0.5, 0, 1e3, &d->blend_s));
+		if (d->t1_s < d->t0_s)
+			return bad(p, "t1_s", "is before t0_s");
+		i++;
+	}
+	p->where[n] = 0;
+	r->n_docks = i;
+	return WL_OK;
+}
+
+/* Docks name their leader by robot id: turn it into an index; a leader
+ * must not dock itself (one level only, no chains). */
+static wl_status resolve_docks(pctx *p, wl_synth_scene *sc)
+{
+	for (int i = 0; i < sc->n_robots; i++) {
+		wl_synth_robot *r = &sc->robots[i];
+		for (int k = 0; k < r->n_docks; k++) {
+			int id = r->docks[k].with, j;
+			for (j = 0; j < sc->n_robots && sc->robots[j].id != id; j++)
+				;
+			snprintf(p->where, sizeof p->where, "robots[%d].docks[%d]", i, k);
+			if (j == sc->n_robots)
+				return bad(p, "with", "names no robot id of this scene");
+			if (j == i)
+				return bad(p, "with", "names the robot itself");
+			if (sc->robots[j].n_docks > 0)
+				return bad(p, "with",
+				           "names a robot that docks itself: dock to a robot without docks");
+			r->docks[k].with = j;
+		}
+	}
+	p->where[0] = 0;
+	return WL_OK;
+}
+
 static wl_status parse_robots(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = {"id",     "diameter_m", "height_m",   "disc_rgb",
-	                                   "marker", "path",       "occlusions", NULL};
+	static const char *const keys[] = {"id",   "diameter_m", "height_m", "disc_rgb", "marker",
+	                                   "path", "occlusions", "docks",    NULL};
 	static const uint8_t disc_d[3] = {235, 200, 40};
 	const cJSON *a = child(root, "robots"), *o;
 	wl_status st;
@@ -451,18 +531,114 @@ static wl_status parse_robots(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		TRY(parse_marker_kind(p, child(o, "marker"), r));
 		TRY(parse_path(p, child(o, "path"), r, sc));
 		TRY(parse_occlusions(p, child(o, "occlusions"), r));
+		TRY(parse_docks(p, child(o, "docks"), r));
 		i++;
 	}
 	sc->n_robots = i;
+	return resolve_docks(p, sc);
+}
+
+/* glare_spots: [{"robot": id, "start_px", "velocity_pxps", "t0_s", "repeat_s",
+ * "radius_px", "gain"}] */
+static wl_status parse_spots(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = {"robot",    "start_px",  "velocity_pxps", "t0_s",
+	                                   "repeat_s", "radius_px", "gain",          NULL};
+	static const double zero[2] = {0, 0};
+	const cJSON *a = child(root, "glare_spots"), *it;
+	wl_status st;
+	int i = 0;
+	sc->n_spots = 0;
+	if (!a)
+		return WL_OK;
+	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) > WL_SYNTH_MAX_SPOTS)
+		return wl_err_set(p->err, WL_EFORMAT,
+		                  "%s: key 'glare_spots' must be an array of at most %d objects", p->name,
+		                  WL_SYNTH_MAX_SPOTS);
+	cJSON_ArrayForEach(it, a)
+	{
+		wl_synth_spot *g = &sc->spots[i];
+		enter(p, "glare_spots[%d]", i);
+		TRY(check_keys(p, it, keys));
+		g->robot = -1;
+		if (child(it, "robot")) {
+			int id, j;
+			TRY(inum(p, it, "robot", 1, 0, 0, 1000000, &id));
+			for (j = 0; j < sc->n_robots && sc->robots[j].id != id; j++)
+				;
+			if (j == sc->n_robots)
+				return bad(p, "robot", "names no robot id of this scene");
+			g->robot = j;
+		}
+		TRY(vec(p, it, "start_px", 2, zero, -1e5, 1e5, g->start_px));
+		TRY(vec(p, it, "velocity_pxps", 2, zero, -1e5, 1e5, g->velocity_pxps));
+		TRY(num(p, it, "t0_s", 0, 0, 0, 1e6, &g->t0_s));
+		TRY(num(p, it, "repeat_s", 0, 0, 0, 1e6, &g->repeat_s));
+		TRY(num(p, it, "radius_px", 0, 40, 1, 2000, &g->radius_px));
+		TRY(num(p, it, "gain", 0, 120, 0, 255, &g->gain));
+		i++;
+	}
+	sc->n_spots = i;
+	p->where[0] = 0;
+	return WL_OK;
+}
+
+/* occluders: [{"shape", "size_m", "height_m", "rgb", "start_m",
+ * "velocity_mps", "t0_s", "t1_s"}] */
+static wl_status parse_occluders(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = {"shape",        "size_m", "height_m", "rgb", "start_m",
+	                                   "velocity_mps", "t0_s",   "t1_s",     NULL};
+	static const double zero[2] = {0, 0};
+	static const uint8_t grey[3] = {90, 80, 70};
+	const cJSON *a = child(root, "occluders"), *it;
+	wl_status st;
+	int i = 0;
+	sc->n_occluders = 0;
+	if (!a)
+		return WL_OK;
+	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) > WL_SYNTH_MAX_OCCLUDERS)
+		return wl_err_set(p->err, WL_EFORMAT,
+		                  "%s: key 'occluders' must be an array of at most %d objects", p->name,
+		                  WL_SYNTH_MAX_OCCLUDERS);
+	cJSON_ArrayForEach(it, a)
+	{
+		wl_synth_occluder *o = &sc->occluders[i];
+		const cJSON *shape;
+		double top = 0;
+		enter(p, "occluders[%d]", i);
+		TRY(check_keys(p, it, keys));
+		shape = child(it, "shape");
+		if (shape && !(cJSON_IsString(shape) && (strcmp(shape->valuestring, "disc") == 0 ||
+		                                         strcmp(shape->valuestring, "rect") == 0)))
+			return bad(p, "shape", "must be \"disc\" or \"rect\"");
+		o->shape = shape && strcmp(shape->valuestring, "rect") == 0 ? WL_SYNTH_RECT : WL_SYNTH_DISC;
+		TRY(vec(p, it, "size_m", 2, NULL, 0.001, 100, o->size_m));
+		for (int k = 0; k < sc->n_robots; k++)
+			top = fmax(top, sc->robots[k].height_m);
+		TRY(num(p, it, "height_m", 0, top + 0.01, 0, 100, &o->height_m));
+		if (o->height_m >= sc->cam_pos_m[2] - 0.05)
+			return bad(p, "height_m", "puts the occluder at or above the camera");
+		TRY(rgb(p, it, "rgb", grey, o->rgb));
+		TRY(vec(p, it, "start_m", 2, NULL, -1000, 1000, o->start_m));
+		TRY(vec(p, it, "velocity_mps", 2, zero, -100, 100, o->velocity_mps));
+		TRY(num(p, it, "t0_s", 0, 0, 0, 1e6, &o->t0_s));
+		TRY(num(p, it, "t1_s", 0, 1e6, 0, 1e6, &o->t1_s));
+		if (o->t1_s < o->t0_s)
+			return bad(p, "t1_s", "is before t0_s");
+		i++;
+	}
+	sc->n_occluders = i;
+	p->where[0] = 0;
 	return WL_OK;
 }
 
 static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = {"description", "seed",    "tank",   "water_depth_m",
-	                                   "water_index", "markers", "camera", "timing",
-	                                   "encoding",    "effects", "robots", "camera_model",
-	                                   NULL}; /* camera_model: written by us, ignored on input */
+	static const char *const keys[] = {
+	        "description", "seed",      "tank",     "water_depth_m", "water_index", "markers",
+	        "camera",      "timing",    "encoding", "effects",       "robots",      "camera_model",
+	        "glare_spots", "occluders", NULL}; /* camera_model: written by us, ignored on input */
 	double seed;
 	wl_status st;
 	p->where[0] = 0;
@@ -479,6 +655,8 @@ static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	TRY(parse_encoding(p, root, sc));
 	TRY(parse_effects(p, root, sc));
 	TRY(parse_robots(p, root, sc));
+	TRY(parse_spots(p, root, sc));
+	TRY(parse_occluders(p, root, sc));
 	return WL_OK;
 }
 
@@ -553,7 +731,8 @@ static void path_s(const wl_synth_path *w, double t, double *s, double *v)
 	}
 }
 
-void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *o)
+/* The robot's pose on its own path (docks left out). */
+static void own_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *o)
 {
 	const wl_synth_robot *r = &sc->robots[ri];
 	const wl_synth_path *w = &r->path;
@@ -589,12 +768,109 @@ void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_po
 			o->visible = 0;
 }
 
+/* Weight of the docked pose at t: 0 outside [t0 - blend, t1 + blend], 1 in
+ * [t0, t1], a smoothstep between (continuous speed at the ends). */
+static double dock_weight(const wl_synth_dock *d, double t)
+{
+	double x;
+	if (t >= d->t0_s && t <= d->t1_s)
+		return 1;
+	if (d->blend_s <= 0)
+		return 0;
+	x = t < d->t0_s ? 1 - (d->t0_s - t) / d->blend_s : 1 - (t - d->t1_s) / d->blend_s;
+	if (x <= 0)
+		return 0;
+	return x * x * (3 - 2 * x);
+}
+
+void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *o)
+{
+	const wl_synth_robot *r = &sc->robots[ri];
+	own_pose(sc, ri, t, o);
+	for (int k = 0; k < r->n_docks; k++) {
+		const wl_synth_dock *d = &r->docks[k];
+		double w = dock_weight(d, t), ch, sh, dh;
+		wl_synth_pose l;
+		if (w <= 0)
+			continue;
+		own_pose(sc, d->with, t, &l);
+		ch = cos(l.heading_rad);
+		sh = sin(l.heading_rad);
+		l.x_m += d->along_m * ch - d->left_m * sh;
+		l.y_m += d->along_m * sh + d->left_m * ch;
+		dh = wl_wrap_pi(l.heading_rad + d->dheading_rad - o->heading_rad);
+		o->x_m += w * (l.x_m - o->x_m);
+		o->y_m += w * (l.y_m - o->y_m);
+		o->heading_rad = wl_wrap_pi(o->heading_rad + w * dh);
+		o->speed_mps += w * (l.speed_mps - o->speed_mps); /* approximate while blending */
+		break; /* spans do not overlap: the first active one */
+	}
+}
+
 /* ---- saving ---- */
 
 static void add_rgb(cJSON *o, const char *key, const uint8_t c[3])
 {
 	double d[3] = {c[0], c[1], c[2]};
 	wl_json_add_numbers(o, key, d, 3);
+}
+
+static void docks_json(cJSON *m, const wl_synth_scene *sc, const wl_synth_robot *r)
+{
+	cJSON *a;
+	if (r->n_docks == 0)
+		return;
+	a = cJSON_AddArrayToObject(m, "docks");
+	for (int k = 0; k < r->n_docks; k++) {
+		const wl_synth_dock *d = &r->docks[k];
+		cJSON *o = cJSON_CreateObject();
+		double off[2] = {d->along_m, d->left_m};
+		cJSON_AddNumberToObject(o, "with", sc->robots[d->with].id);
+		wl_json_add_numbers(o, "offset_m", off, 2);
+		cJSON_AddNumberToObject(o, "heading_deg", d->dheading_rad / WL_DEG);
+		cJSON_AddNumberToObject(o, "t0_s", d->t0_s);
+		cJSON_AddNumberToObject(o, "t1_s", d->t1_s);
+		cJSON_AddNumberToObject(o, "blend_s", d->blend_s);
+		cJSON_AddItemToArray(a, o);
+	}
+}
+
+/* glare_spots and occluders (written only when there are any) */
+static void extras_json(cJSON *root, const wl_synth_scene *sc)
+{
+	cJSON *a;
+	if (sc->n_spots > 0) {
+		a = cJSON_AddArrayToObject(root, "glare_spots");
+		for (int i = 0; i < sc->n_spots; i++) {
+			const wl_synth_spot *g = &sc->spots[i];
+			cJSON *o = cJSON_CreateObject();
+			if (g->robot >= 0)
+				cJSON_AddNumberToObject(o, "robot", sc->robots[g->robot].id);
+			wl_json_add_numbers(o, "start_px", g->start_px, 2);
+			wl_json_add_numbers(o, "velocity_pxps", g->velocity_pxps, 2);
+			cJSON_AddNumberToObject(o, "t0_s", g->t0_s);
+			cJSON_AddNumberToObject(o, "repeat_s", g->repeat_s);
+			cJSON_AddNumberToObject(o, "radius_px", g->radius_px);
+			cJSON_AddNumberToObject(o, "gain", g->gain);
+			cJSON_AddItemToArray(a, o);
+		}
+	}
+	if (sc->n_occluders > 0) {
+		a = cJSON_AddArrayToObject(root, "occluders");
+		for (int i = 0; i < sc->n_occluders; i++) {
+			const wl_synth_occluder *q = &sc->occluders[i];
+			cJSON *o = cJSON_CreateObject();
+			cJSON_AddStringToObject(o, "shape", q->shape == WL_SYNTH_RECT ? "rect" : "disc");
+			wl_json_add_numbers(o, "size_m", q->size_m, 2);
+			cJSON_AddNumberToObject(o, "height_m", q->height_m);
+			add_rgb(o, "rgb", q->rgb);
+			wl_json_add_numbers(o, "start_m", q->start_m, 2);
+			wl_json_add_numbers(o, "velocity_mps", q->velocity_mps, 2);
+			cJSON_AddNumberToObject(o, "t0_s", q->t0_s);
+			cJSON_AddNumberToObject(o, "t1_s", q->t1_s);
+			cJSON_AddItemToArray(a, o);
+		}
+	}
 }
 
 static cJSON *scene_json(const wl_synth_scene *sc)
@@ -646,6 +922,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 	cJSON_AddNumberToObject(o, "duration_s", sc->duration_s);
 	cJSON_AddNumberToObject(o, "jitter", sc->jitter);
 	cJSON_AddNumberToObject(o, "time_base_den", sc->time_base_den);
+	cJSON_AddNumberToObject(o, "readout_ms", sc->readout_s * 1000.0);
 	o = cJSON_AddObjectToObject(root, "encoding");
 	cJSON_AddNumberToObject(o, "crf", sc->crf);
 	cJSON_AddNumberToObject(o, "bit_rate_bps", sc->bit_rate_bps);
@@ -706,8 +983,10 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 			cJSON_AddItemToArray(pr, cJSON_CreateNumber(d[1]));
 			cJSON_AddItemToArray(oc, pr);
 		}
+		docks_json(m, sc, r);
 		cJSON_AddItemToArray(a, m);
 	}
+	extras_json(root, sc);
 	/* the model actually rendered with (derived, not read back) */
 	o = cJSON_AddObjectToObject(root, "camera_model");
 	wl_json_add_numbers(o, "K", sc->cam.K, 9);

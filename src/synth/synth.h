@@ -31,8 +31,11 @@
 #include "core/err.h"
 
 #define WL_SYNTH_MAX_MARKERS 64
-#define WL_SYNTH_MAX_ROBOTS 16
+#define WL_SYNTH_MAX_ROBOTS 32
 #define WL_SYNTH_MAX_OCCL 16
+#define WL_SYNTH_MAX_SPOTS 16     /* aimed glare spots */
+#define WL_SYNTH_MAX_OCCLUDERS 16 /* opaque shapes above the robots */
+#define WL_SYNTH_MAX_DOCKS 4      /* docking spans per robot */
 #define WL_SYNTH_MAX_SIZE_PX 8192
 #define WL_SYNTH_MAX_FRAMES 1000000L
 
@@ -54,6 +57,41 @@ typedef struct {
 	double pivot_ahead_m;                           /* yaw pivot ahead of the marker (sway); 0: none */
 } wl_synth_path;
 
+/* Docking: for t0 <= t <= t1 the robot rides rigidly beside robot `with`
+ * (an index into robots[]): its marker at along_m ahead of and left_m to
+ * the left of the leader's marker (leader's heading axes), its heading the
+ * leader's + dheading_rad.  Over blend_s before t0 and after t1 the pose
+ * blends (smoothstep) between its own path and the docked pose. */
+typedef struct {
+	int with;
+	double along_m, left_m, dheading_rad;
+	double t0_s, t1_s, blend_s;
+} wl_synth_dock;
+
+/* An aimed glare spot: a soft bright spot (Gaussian, sigma = radius / 2)
+ * whose centre is at start + velocity * tau pixels, tau = t - t0 (modulo
+ * repeat_s when > 0; not drawn for t < t0), measured from the projected
+ * marker centre of robot `robot` (an index; -1: from the image origin). */
+typedef struct {
+	int robot;
+	double start_px[2], velocity_pxps[2];
+	double t0_s, repeat_s;
+	double radius_px, gain;
+} wl_synth_spot;
+
+/* An opaque shape on the horizontal plane height_m (above the robots'
+ * marker planes), present for t0 <= t <= t1, its centre moving from
+ * start_m at velocity_mps: a disc (ellipse with axes size_m along x and y)
+ * or a rectangle (sides size_m along x and y). */
+typedef enum { WL_SYNTH_DISC = 0, WL_SYNTH_RECT } wl_synth_shape;
+typedef struct {
+	wl_synth_shape shape;
+	double size_m[2], height_m;
+	double start_m[2], velocity_mps[2];
+	double t0_s, t1_s;
+	uint8_t rgb[3];
+} wl_synth_occluder;
+
 typedef struct {
 	int id;            /* robot id in the truth CSV */
 	double diameter_m; /* the disc */
@@ -69,6 +107,8 @@ typedef struct {
 	wl_synth_path path;
 	int n_occl;
 	double occl_t0_s[WL_SYNTH_MAX_OCCL], occl_t1_s[WL_SYNTH_MAX_OCCL]; /* hidden for t in [t0, t1] */
+	int n_docks;
+	wl_synth_dock docks[WL_SYNTH_MAX_DOCKS];
 } wl_synth_robot;
 
 typedef struct {
@@ -99,6 +139,14 @@ typedef struct {
 	/* robots */
 	int n_robots;
 	wl_synth_robot robots[WL_SYNTH_MAX_ROBOTS];
+	/* what real water and phones add (docs/synth.md): rolling-shutter
+	 * readout (coded row v is exposed at t + v / height * readout_s),
+	 * aimed glare spots, opaque occluders */
+	double readout_s;
+	int n_spots;
+	wl_synth_spot spots[WL_SYNTH_MAX_SPOTS];
+	int n_occluders;
+	wl_synth_occluder occluders[WL_SYNTH_MAX_OCCLUDERS];
 } wl_synth_scene;
 
 /* One robot's true state at a time. */
@@ -127,6 +175,15 @@ double wl_synth_frame_time(const wl_synth_scene *sc, long k);
 
 /* The true state of robot r at time t_s (see docs/synth.md for the model). */
 void wl_synth_robot_pose(const wl_synth_scene *sc, int r, double t_s, wl_synth_pose *out);
+
+/* The fraction (0..1) of robot r's marker (a tag's black square, or its
+ * caps) seen in the frame at time t_s: not hidden by an occlusion interval,
+ * an occluder or a robot drawn above it, and inside the image. */
+double wl_synth_visible_fraction(const wl_synth_scene *sc, int r, double t_s);
+
+/* The time at which the image row through robot r's marker centre is
+ * exposed in the frame at t_s (t_s itself without rolling shutter). */
+double wl_synth_centre_time(const wl_synth_scene *sc, int r, double t_s);
 
 typedef struct wl_synth_renderer wl_synth_renderer;
 

@@ -33,6 +33,9 @@ void wl_track_opts_init(wl_track_opts *o)
 	o->min_fill = 0.4;
 	o->lost_after = 3;
 	o->motion_min_m = 0.005;
+	o->hold_max_s = 3.0;
+	o->hold_min_score = 0.4;
+	o->readout_s = NAN; /* CAL.json's readout_ms */
 }
 
 wl_robot_spec *wl_track_robot(wl_track_opts *o, int id)

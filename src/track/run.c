@@ -9,6 +9,13 @@
  * the region the tracker asks for (its windows, grown by the motion over
  * the queue's length: wl_tracker_roi); whole frames again when a full-frame
  * search may be needed.
+ *
+ * Deterministic: the region of frame k is the one the tracker asked for
+ * right after frame k - n (n buffers), kept in a ring indexed by frame
+ * number.  The decoder cannot start frame k before frame k - n has left the
+ * queue, so that region is always known by then, and it does not depend on
+ * how far ahead the decoder runs: the same clip gives the same RAW.csv
+ * whatever the thread timing.
  */
 #define _POSIX_C_SOURCE 200809L
 #include "track/track.h"
@@ -20,6 +27,7 @@
 #include <string.h>
 
 #include "core/csvio.h"
+#include "core/diag.h"
 #include "decode/decode.h"
 
 typedef struct {
@@ -42,7 +50,8 @@ typedef struct {
 	wl_decoder *dec;
 	int want_rgb;
 	int64_t damaged;
-	int roi[4]; /* what to copy next (set by the tracking thread) */
+	int64_t produced; /* frames the decoder thread has taken a buffer for */
+	int (*rois)[4];   /* n entries: the region of frame k is rois[k % n] */
 } queue;
 
 static void copy_plane(uint8_t *dst, int dst_stride, const uint8_t *src, int stride, int row_bytes, int h)
@@ -67,7 +76,10 @@ static void *decode_main(void *arg)
 			break;
 		}
 		s = &q->slots[(q->head + q->count) % q->n];
-		memcpy(s->roi, q->roi, sizeof s->roi);
+		/* set by the tracking thread after frame produced - n, which has
+		 * left the queue since this buffer is free */
+		memcpy(s->roi, q->rois[q->produced % q->n], sizeof s->roi);
+		q->produced++;
 		pthread_mutex_unlock(&q->m);
 		wl_err_clear(&e);
 		st = wl_decoder_next(q->dec, &f, &e);
@@ -141,6 +153,7 @@ static void queue_stop(queue *q)
 
 static void free_slots(queue *q)
 {
+	free(q->rois);
 	for (int i = 0; q->slots && i < q->n; i++) {
 		free(q->slots[i].luma);
 		free(q->slots[i].rgb);
@@ -152,7 +165,8 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 {
 	q->n = n;
 	q->slots = calloc((size_t)n, sizeof *q->slots);
-	if (!q->slots)
+	q->rois = calloc((size_t)n, sizeof *q->rois); /* zero: whole frames first */
+	if (!q->slots || !q->rois)
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the frame queue");
 	for (int i = 0; i < n; i++) {
 		slot *s = &q->slots[i];
@@ -165,6 +179,25 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 			                  "out of memory for the frame queue (%d frames of %dx%d)", n, w, h);
 	}
 	return WL_OK;
+}
+
+/* The readout given against the one the moving tags' shear shows: a
+ * warning when they differ by more than 3 standard errors plus the tags'
+ * own corner bias, and by 3 ms, with enough detections to tell. */
+static void readout_check(const wl_track_run_opts *ro, const wl_track_stats *st)
+{
+	double d = st->readout_s - st->readout_used_s,
+	       bias = isfinite(st->readout_bias_s) ? st->readout_bias_s : 0;
+	if (st->readout_n < 50 || !isfinite(st->readout_se_s) ||
+	    fabs(d) <= fmax(3 * st->readout_se_s + bias, 0.003))
+		return;
+	wl_diag_warn(ro->diag, "track",
+	             "%s: the shear of %lld moving tags gives a rolling-shutter readout of %.1f +- %.1f ms "
+	             "(+- %.1f ms from the tags' corner bias), but %.1f ms was used: measure the camera's "
+	             "readout (docs/track.md, \"Measuring the readout\") and give it with --readout-ms or "
+	             "\"readout_ms\" in CAL.json",
+	             ro->clip, (long long)st->readout_n, 1000 * st->readout_s, 1000 * st->readout_se_s,
+	             1000 * bias, 1000 * st->readout_used_s);
 }
 
 /* One warning at the end of a run, the most important: robots past the
@@ -213,7 +246,9 @@ void wl_track_put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_tra
 		wl_raw_row r = {t_s,
 		                frame,
 		                o->id,
-		                o->ok ? WL_RAW_OK : WL_RAW_LOST,
+		                !o->ok    ? WL_RAW_LOST
+		                : o->held ? WL_RAW_HELD
+		                          : WL_RAW_OK,
 		                o->u_px,
 		                o->v_px,
 		                o->x_m,
@@ -222,6 +257,8 @@ void wl_track_put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_tra
 		                o->margin,
 		                o->size_px,
 		                o->heading_source,
+		                o->hold_score,
+		                o->t_detect_s,
 		                0};
 		wl_raw_put(w, &r);
 	}
@@ -269,7 +306,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	q.dec = dec;
 	q.want_rgb = want_rgb;
-	/* frames already queued (or being decoded) when a new region is set */
+	/* a region is set nq frames ahead (one more for a variable rate) */
 	lookahead_s = (nq + 2) / (info->fps_hint > 0 ? info->fps_hint : 30.0);
 	if (pthread_create(&th, NULL, decode_main, &q) != 0) {
 		st = wl_err_set(err, WL_ENOMEM, "cannot start the decoder thread");
@@ -303,12 +340,14 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 			sum->ok_rows += obs[i].ok;
 		if (n > sum->n_robots)
 			sum->n_robots = n;
-		if (!want_rgb) {
-			int roi[4];
-			if (wl_tracker_roi(tr, lookahead_s, roi))
+		{
+			/* the region of frame sum->frames - 1 + nq (its entry held this
+			 * frame's, which is done with) */
+			int roi[4] = {0, 0, 0, 0};
+			if (!want_rgb && wl_tracker_roi(tr, lookahead_s, roi))
 				roi[2] = roi[3] = 0;
 			pthread_mutex_lock(&q.m);
-			memcpy(q.roi, roi, sizeof roi);
+			memcpy(q.rois[(sum->frames - 1) % nq], roi, sizeof roi);
 			pthread_mutex_unlock(&q.m);
 		}
 		queue_pop(&q);
@@ -334,6 +373,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
+	readout_check(ro, &sum->stats);
 	warn_end(ro, opts, dec, sum);
 out:
 	if (started) {

@@ -161,3 +161,36 @@ int wl_tagdet_render_cells(const char *family, int id, unsigned char *cells, int
 	fe->destroy(f);
 	return tw;
 }
+
+int wl_tagdet_border_width(const char *family)
+{
+	const family_entry *fe = find_family(family);
+	apriltag_family_t *f;
+	int wab;
+	if (!fe || !(f = fe->create()))
+		return 0;
+	wab = f->width_at_border;
+	fe->destroy(f);
+	return wab;
+}
+
+int wl_tagdet_data_cells(const char *family, unsigned char *mask, int max_cells)
+{
+	const family_entry *fe = find_family(family);
+	apriltag_family_t *f;
+	int tw, bs;
+	if (!fe || !(f = fe->create()))
+		return 0;
+	tw = f->total_width;
+	if (tw * tw > max_cells) {
+		fe->destroy(f);
+		return 0;
+	}
+	/* the cells apriltag_to_image() puts the code's bits in */
+	memset(mask, 0, (size_t)tw * tw);
+	bs = (tw - f->width_at_border) / 2;
+	for (uint32_t i = 0; i < f->nbits; i++)
+		mask[(f->bit_y[i] + bs) * tw + f->bit_x[i] + bs] = 1;
+	fe->destroy(f);
+	return tw;
+}

@@ -78,6 +78,13 @@ typedef struct {
 	int lost_after;        /* misses before a robot is lost (full-frame search) */
 	double motion_min_m;   /* single cap: displacement needed for a heading */
 	char robots_path[512]; /* the ROBOTS.csv the robots came from ("" if none), for messages */
+	/* holding a robot the detector missed (status held) */
+	double hold_max_s;     /* longest time since the last detection a pose is held; 0: never */
+	double hold_min_score; /* lowest match quality held (tag mode: wl_tagfit.score) */
+	/* rolling shutter: the readout from the first coded row to the last, s
+	 * (0: global shutter; NaN, the default: the calibration's readout_ms);
+	 * a pose's time is t + v / height * readout_s */
+	double readout_s;
 } wl_track_opts;
 
 void wl_track_opts_init(wl_track_opts *o);
@@ -107,13 +114,20 @@ wl_status wl_track_opts_check(const wl_track_opts *o, wl_err *err);
 
 typedef struct {
 	int id;
-	int ok;             /* 0: lost this frame (pose fields NaN) */
+	int ok;             /* 1: a pose this frame (detected, or held); 0: lost (pose fields NaN) */
 	double u_px, v_px;  /* coded pixels, our centre convention */
 	double x_m, y_m;    /* tank frame, on the robot's marker plane */
 	double heading_rad; /* (-pi, pi], NaN when unknown */
 	double margin;      /* tag decision margin, or blob area in px */
 	double size_px;     /* tag side, or blob diameter, in px */
 	wl_heading_source heading_source;
+	/* held (RAW.csv status `held`): the detector missed, and the pose was
+	 * refined against the image from the prediction; ok is 1 too */
+	int held;
+	double hold_score; /* held: match quality, 0..1; NaN otherwise */
+	/* when the row through the pose's centre was exposed: t_s + v_px /
+	 * height * readout (rolling shutter), t_s without; NaN when lost */
+	double t_detect_s;
 } wl_track_obs;
 
 /* A frame as the tracker sees it (borrowed). */
@@ -133,6 +147,24 @@ typedef struct {
 typedef struct {
 	int64_t frames, full_scans, window_scans;
 	int64_t rejected_edge, rejected_quality;
+	/* rows (robot, frame) reported lost: each was searched in its frame (a
+	 * full-frame search, a window, or a hold) or the robot was known to be
+	 * out of view (never found by a full-frame search, predicted outside
+	 * the image, or lost longer than the fast-search time; such robots are
+	 * looked for by the full-frame rescans): lost_rows = lost_searched +
+	 * lost_out_of_view */
+	int64_t lost_rows, lost_searched, lost_out_of_view;
+	int64_t held_rows, hold_tries;
+	/* the rolling-shutter readout estimated from moving tags' shear (tag
+	 * mode): detections used, the estimate and its standard error, s
+	 * (NaN until there are some) */
+	int64_t readout_n;
+	double readout_s, readout_se_s;
+	double readout_used_s; /* the readout the poses were timed with (options or CAL.json) */
+	/* ... and the largest error the tags' own corner shear (without motion)
+	 * can cause: on a straight path at a steady speed it looks like a
+	 * readout, and no fit over the clip tells the two apart, s */
+	double readout_bias_s;
 	/* detections of new ids left out because WL_TRACK_MAX_ROBOTS robots
 	 * were already tracked, and the first such id (-1: none) */
 	int64_t over_limit;
@@ -196,6 +228,69 @@ void wl_tagdet_destroy(wl_tagdet *d);
  * total_width, or 0 for an unknown family or id. */
 int wl_tagdet_render_cells(const char *family, int id, unsigned char *cells, int max_cells);
 
+/* Cells across the black square's outer edge of a family (tag36h11: 8;
+ * AprilTag's width_at_border), or 0 for an unknown family. */
+int wl_tagdet_border_width(const char *family);
+/* The cells that carry the code's bits (1) in the layout of
+ * wl_tagdet_render_cells; returns total_width, 0 for an unknown family. */
+int wl_tagdet_data_cells(const char *family, unsigned char *mask, int max_cells);
+
+/* ---- lower level: holding a tag the detector missed (hold.c) ---- */
+
+/* Maps a point of the marker plane to coded pixels; 0 outside the model. */
+typedef int (*wl_plane_to_px_fn)(const void *ctx, double x_m, double y_m, double *u_px, double *v_px);
+
+/* A tag's printed pattern (its family's code for its id, with the white
+ * border), sampled over the card for aligning it with an image.  One per
+ * robot; it keeps scratch space, so one thread at a time. */
+typedef struct wl_tagmodel wl_tagmodel;
+wl_status wl_tagmodel_create(const char *family, int id, wl_tagmodel **out, wl_err *err);
+void wl_tagmodel_destroy(wl_tagmodel *m);
+
+/* A tag's pose on its marker plane: centre and the direction of its up. */
+typedef struct {
+	double x_m, y_m, up_rad;
+} wl_tagpose;
+
+typedef struct {
+	double score;               /* harmonic mean of frac_dark and frac_light, 0..1 */
+	double frac_dark;           /* fraction of the pattern's dark samples that agree with the fit */
+	double frac_light;          /* ... and of its light ones (the white border included) */
+	double frac;                /* fraction of all samples that agree */
+	double corr;                /* correlation of image and pattern over the agreeing samples */
+	int bits_read;              /* code cells whose centre reads clearly dark or light */
+	int bits_wrong;             /* ... and of them, those that differ from this id's code: */
+	int bits_wrong_dark;        /* light in the code, read dark (a dark occluder does this) */
+	int bits_wrong_light;       /* dark in the code, read light (glare does this) */
+	int bits_total;             /* code cells of the family */
+	int bits_dark;              /* ... dark in this id's code (the others are light) */
+	int bits_ok_dark;           /* dark bits read dark */
+	int bits_ok_light;          /* light bits read light */
+	double contrast;            /* fitted white - black, grey levels */
+	double sigma;               /* robust noise scale of the residuals, grey levels */
+	double u_px, v_px, side_px; /* centre and mean side in coded pixels */
+	double corners_px[4][2];    /* AprilTag's corner order */
+	int iterations;
+} wl_tagfit;
+
+/* Aligns the pattern with the image around *guess.  corners: the tag's
+ * corners in AprilTag's order on the plane, relative to its centre, in the
+ * frame of its up direction (x along up, y to its left).  The image is read
+ * only inside area (x, y, w, h).  ab: the black level and contrast to start
+ * from (wl_tagmodel_levels at the last detection; NULL: fitted at the
+ * guess, which a half-covered tag biases).  search_px: the radius of the
+ * coarse search in pixels (0: none).  Returns 1 with *out and *fit, 0 when
+ * the fit failed (off the image, degenerate, running away). */
+int wl_tagmodel_fit(wl_tagmodel *m, const double corners[4][2], wl_plane_to_px_fn f, const void *ctx,
+                    const uint8_t *img, int stride, const int area[4], const wl_tagpose *guess,
+                    const double ab[2], double search_px, wl_tagpose *out, wl_tagfit *fit);
+
+/* The pattern's black level ab[0] and contrast ab[1] (white - black, grey
+ * levels) in the image at a detection's corners (pixels, AprilTag's
+ * order).  Returns 0 when unreadable. */
+int wl_tagmodel_levels(wl_tagmodel *m, const double corners_px[4][2], const uint8_t *img, int stride,
+                       const int area[4], double ab[2]);
+
 /* ---- lower level: the colour back end ---- */
 
 /* OpenCV's 8-bit RGB -> HSV (H 0-179, S, V 0-255). */
@@ -217,6 +312,26 @@ wl_status wl_blobber_create(wl_blobber **out, wl_err *err);
 int wl_blobber_find(wl_blobber *b, const uint8_t *rgb, int stride, int x0, int y0, int w, int h,
                     const wl_hsv_range *r, int min_px, int max_px, wl_blob *out, int max);
 void wl_blobber_destroy(wl_blobber *b);
+
+/* Holding a cap partly washed out by glare (capfit.c): pixels are cap (in
+ * range), washed (the cap's colour cap_rgb plus white light, clipped),
+ * unknown (every channel clipped) or other; the disc of radius_px is
+ * placed within search_px of (cu0, cv0) where it holds the most cap and
+ * washed pixels and the fewest others, leaving out the fewest cap and
+ * washed ones.  Reads only inside area.  Returns 0 when nothing could be
+ * fitted. */
+typedef struct {
+	double cu, cv; /* the disc's centre, our pixel convention */
+	double score;  /* (cap + washed) / disc */
+	double cap_frac, washed_frac, other_frac, unknown_frac;
+} wl_capfit;
+int wl_cap_fit(const uint8_t *rgb, int stride, const int area[4], const wl_hsv_range *r,
+               const double cap_rgb[3], double radius_px, double cu0, double cv0, double search_px,
+               wl_capfit *out);
+/* The mean colour of the in-range pixels within radius_px of (cu, cv);
+ * 0 when fewer than 3. */
+int wl_cap_colour(const uint8_t *rgb, int stride, const int area[4], const wl_hsv_range *r, double cu,
+                  double cv, double radius_px, double out[3]);
 
 /* HSV statistics of a region (for `wakeline colours`). */
 typedef struct {
@@ -257,9 +372,9 @@ typedef struct {
 	int decode_threads;      /* 0: all cores */
 	int queue_frames;        /* buffers in the pool (>= 2) */
 	/* warnings (a damaged clip, ids past the limit, HDR video in colour
-	 * mode) and progress (stage "track": frames done of the expected
-	 * frames, -1 when unknown, and the frame's time), from the tracking
-	 * thread after each frame; may be NULL */
+	 * mode, a readout that the tags' shear contradicts) and progress (stage
+	 * "track": frames done of the expected frames, -1 when unknown, and the
+	 * frame's time), from the tracking thread after each frame; may be NULL */
 	const wl_diag *diag;
 } wl_track_run_opts;
 

@@ -4,7 +4,9 @@
 # 0.25 m above the floor, H.264 at 10 Mbit/s like a phone): position RMSE
 # <= 2 mm, heading RMSE <= 1 degree, >= 99 % of frames ok against the
 # renderer's truth; the path stays counter-clockwise; numbers keep '.'
-# decimals under a decimal-comma locale; the trail picture is a PNG.
+# decimals under a decimal-comma locale; the trail picture is a PNG; the
+# readout estimated from the tag's shear is within 3 ms of 0 (a global
+# shutter).
 source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
 need_synth
 cat > scene.json <<'JSON'
@@ -22,10 +24,16 @@ JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
 check_exit "track succeeds under LC_ALL=de_DE.UTF-8" 0 \
-	env LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail trail.png --quiet
+	env LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail trail.png
+cp last.out out.txt
+# a global shutter: the readout estimated from the tag's shear is near 0
+read -r est se < <(sed -n 's/.*gives a readout of \([-0-9.]*\) +- \([0-9.]*\) ms.*/\1 \2/p' out.txt)
+note "readout from the tag's shear: $est +- $se ms (global shutter)"
+check "the readout estimated from the tag's shear is within 3 ms of 0" \
+	awk -v e="${est:-nan}" 'BEGIN { exit !(e > -3 && e < 3) }'
 compare raw.csv clip.truth.csv --pos-mm 2 --head-deg 1 --ok 0.99 --ccw 3
 check_grep "raw.csv has rows" '[0-9],[0-9][0-9]*,[0-9]' raw.csv
 check_no_grep "raw.csv has no decimal commas" -E '[0-9],[0-9]{6}[^0-9,]' raw.csv
-check "every row of raw.csv has 12 cells" awk -F, 'NR > 1 && NF != 12 { print "line " NR ": " $0; bad = 1 } END { exit bad }' raw.csv
+check "every row of raw.csv has 14 cells" awk -F, 'NR > 1 && NF != 14 { print "line " NR ": " $0; bad = 1 } END { exit bad }' raw.csv
 check_eq "trail.png starts with the PNG signature" "$(head -c 8 trail.png | od -An -tx1 | tr -s ' ')" " 89 50 4e 47 0d 0a 1a 0a"
 done_testing

@@ -25,7 +25,7 @@ CSV
 check_exit "track --mode colour succeeds" 0 \
 	"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --mode colour --robots robots.csv --quiet
 compare raw.csv clip.truth.csv --pos-mm 5 --head-deg 2 --ok 0.99
-check_grep "heading_source is caps" ',caps$' raw.csv
+check_grep "heading_source is caps" ',caps,' raw.csv
 # the front cap's hue, read back at its first-frame pixel position
 read -r u v < <(awk -F, 'NR == 2 { print $4, $5 }' raw.csv)
 check_exit "colours at the front cap's pixel succeeds" 0 \

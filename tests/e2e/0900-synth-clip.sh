@@ -35,7 +35,7 @@ check_clip() {
 	check_eq "$n: ffprobe decodes $frames frames" \
 		"$(ffprobe -v error -count_frames -select_streams v:0 -show_entries stream=nb_read_frames -of default=nw=1:nk=1 "$n.mp4" | head -1)" "$frames"
 	check_eq "$n: the truth has a row per frame" "$(($(wc -l < "$n.truth.csv") - 1))" "$frames"
-	check_eq "$n: the truth header" "$(head -1 "$n.truth.csv")" "t_s,frame,id,x_m,y_m,heading_rad,visible"
+	check_eq "$n: the truth header" "$(head -1 "$n.truth.csv")" "t_s,frame,id,x_m,y_m,heading_rad,visible,visible_frac,t_centre_s"
 	# tests/data/references.md "Video timestamps": ffprobe's frame pts_time list
 	ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$n.mp4" > "$n.pts"
 	tail -n +2 "$n.truth.csv" | cut -d, -f1 > "$n.truth_t"
@@ -63,7 +63,7 @@ check_num "vfr: more than 10 distinct frame intervals (ms)" \
 	"$(awk -F, 'NR > 2 { printf "%d\n", ($1 - p) * 1000 + 0.5 } { p = $1 }' vfr.truth.csv | sort -u | wc -l)" ">" 10
 # written under a decimal-comma locale: still '.' decimals, 7 cells a row
 check "vfr: truth numbers in '.' decimals, 7 cells a row, under LC_ALL=de_DE.UTF-8" \
-	awk -F, 'NF != 7 || (NR > 1 && $1 !~ /^[0-9]+\.[0-9][0-9][0-9][0-9][0-9][0-9]$/) { print "line " NR ": " $0; exit 1 }' vfr.truth.csv
+	awk -F, 'NF != 9 || (NR > 1 && $1 !~ /^[0-9]+\.[0-9][0-9][0-9][0-9][0-9][0-9]$/) { print "line " NR ": " $0; exit 1 }' vfr.truth.csv
 
 # our own decoder (wakeline probe) reads the same times and rotation
 check_exit "probe --frames vfr.mp4 succeeds" 0 "$WAKELINE" probe -q --frames vfr.frames.csv vfr.mp4

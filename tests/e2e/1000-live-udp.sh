@@ -42,7 +42,7 @@ check_grep "the latency figures are given" -E "latency median [0-9.]+ ms, p99 [0
 check "the poses match offline tracking (0.1 mm) and the speed the truth (0.01 m/s)" \
 	"$PY" "$LIB/live_check.py" offline.csv poses.csv --live-raw live.csv --truth clip.truth.csv \
 	--pos-mm 0.1 --speed-mps 0.01
-whole_lines live.csv 12
+whole_lines live.csv 14
 
 # the recorded RAW.csv goes through the normal pipeline
 check_exit "clean takes the live RAW.csv" 0 "$WAKELINE" clean live.csv -o clean.csv --quiet

@@ -121,7 +121,7 @@ rc=0
 wait "$LP" || rc=$?
 check_eq "TCP sender killed: live exits 0" "$rc" 0
 check_grep "TCP sender killed: the lost connection is said" -E "wakeline live: (the stream ended|the connection dropped)" tcp.err
-whole_lines tcp.csv 12
+whole_lines tcp.csv 14
 rows=$(($(wc -l < tcp.csv) - 1))
 check_num "TCP sender killed: at least 40 rows" "$rows" ">=" 40
 check_num "TCP sender killed: fewer than the clip's 240 rows" "$rows" "<" 240
@@ -139,5 +139,5 @@ kill -9 "$FF" 2>/dev/null || true
 wait "$FF" 2>/dev/null || true
 check_eq "TCP sender hung: live exits 0" "$rc" 0
 check_grep "TCP sender hung: the silence is said" "wakeline live: the stream stopped: no data for 1.0 s" hang.err
-whole_lines hang.csv 12
+whole_lines hang.csv 14
 done_testing

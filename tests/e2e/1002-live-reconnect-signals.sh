@@ -43,7 +43,7 @@ wait "$CLIENT_PID" || fail "the test client failed"
 check_eq "live --reconnect exits 0 on SIGINT" "$rc" 0
 check_grep "reconnect: 'stopped' is said" "wakeline live: stopped" rc.err
 check_grep "the summary counts the reconnection" "1 reconnects" rc.out
-whole_lines rc.csv 12
+whole_lines rc.csv 14
 check_py "RAW.csv across the reconnection is one run: frames and times increasing" <<'PY'
 import csv
 rows = list(csv.DictReader(open("rc.csv")))
@@ -79,7 +79,7 @@ kill "$FF" 2>/dev/null || true
 wait "$FF" 2>/dev/null || true
 check_eq "SIGINT in mid-stream: live exits 0" "$rc" 0
 check_grep "SIGINT: 'stopped' is said" "wakeline live: stopped" int.err
-whole_lines int.csv 12
+whole_lines int.csv 14
 check_exit "clean takes the RAW.csv of an interrupted run" 0 "$WAKELINE" clean int.csv -o int.clean.csv --quiet
 
 # --- SIGKILL at two points
@@ -92,7 +92,7 @@ for at in 20 150; do
 	wait "$LIVE_PID" 2>/dev/null || true
 	kill "$FF" 2>/dev/null || true
 	wait "$FF" 2>/dev/null || true
-	whole_lines "kill$at.csv" 12
+	whole_lines "kill$at.csv" 14
 	note "SIGKILL after $at rows or more: $(($(wc -l < "kill$at.csv") - 1)) whole rows"
 	check_exit "clean takes the RAW.csv of a run killed after $at rows" 0 \
 		"$WAKELINE" clean "kill$at.csv" -o "kill$at.clean.csv" --quiet

@@ -42,6 +42,6 @@ expect 1 "overwrite" clip.mp4 --cal clip.cal.json --raw exists.csv
 check_eq "an existing RAW.csv is left as it was without --overwrite" "$(cat exists.csv)" "keep me"
 check_exit "--overwrite succeeds" 0 \
 	"$WAKELINE" live clip.mp4 --realtime --max-delay-ms 1000 --cal clip.cal.json --raw exists.csv --overwrite -q
-whole_lines exists.csv 12
+whole_lines exists.csv 14
 check_eq "exists.csv holds the clip's 30 frames of 2 robots" "$(($(wc -l < exists.csv) - 1))" 60
 done_testing

@@ -124,8 +124,8 @@ static void test_manifest(void **state)
 	char path[400];
 	const wl_manifest_row *r;
 	(void)state;
-	mkfile("m/ok.csv",
-	       "clip,gain,cal,plane_height_m\n./a.mp4,0.5,cal2.json,0.02\n# a comment\nsub/b.mp4,1,,\n");
+	mkfile("m/ok.csv", "clip,gain,cal,plane_height_m,readout_ms\n./a.mp4,0.5,cal2.json,0.02,25\n# a "
+	                   "comment\nsub/b.mp4,1,,,\n");
 	snprintf(path, sizeof path, "%s/m/ok.csv", root);
 	assert_int_equal(wl_manifest_load(path, &m, &err), WL_OK);
 	assert_int_equal(m.nrows, 2);
@@ -138,12 +138,20 @@ static void test_manifest(void **state)
 	assert_non_null(r->opts.cal);
 	assert_non_null(strstr(r->opts.cal, "/m/cal2.json"));
 	assert_true(fabs(r->opts.plane_height_m - 0.02) < 1e-15);
+	assert_true(fabs(r->opts.readout_ms - 25) < 1e-15);
 	assert_int_equal(r->opts.mode, WL_MF_MODE_UNSET);
+	{
+		/* the row's readout reaches the tracker's options, in seconds */
+		wl_process_opts po;
+		assert_int_equal(wl_batch_clip_opts(NULL, &r->opts, &po, &err), WL_OK);
+		assert_true(fabs(po.track.readout_s - 0.025) < 1e-15);
+	}
 	r = wl_manifest_find(&m, "sub/b.mp4");
 	assert_non_null(r);
 	assert_int_equal(r->line, 4);
 	assert_null(r->opts.cal);
 	assert_true(isnan(r->opts.plane_height_m));
+	assert_true(isnan(r->opts.readout_ms));
 	wl_manifest_release(&m);
 
 	manifest_error("file,gain\na.mp4,1\n", "bad.csv:1:", "no 'clip' column");
@@ -154,6 +162,7 @@ static void test_manifest(void **state)
 	manifest_error("clip,mode\na.mp4,colr\n", "bad.csv:2:", "column 'mode': 'colr' is not tag or colour");
 	manifest_error("clip,trim\na.mp4,soon\n", "bad.csv:2:", "column 'trim'");
 	manifest_error("clip,body_diameter_m\na.mp4,-0.1\n", "bad.csv:2:", "a number > 0");
+	manifest_error("clip,readout_ms\na.mp4,-5\n", "bad.csv:2:", "column 'readout_ms'");
 	manifest_error("clip,gain,gain\n", "bad.csv:1:", "'gain' appears twice");
 	manifest_error("", "bad.csv:1:", "empty manifest");
 }

@@ -94,6 +94,7 @@ static void fill_calib(wl_calib *cal)
 	make_camera(&cal->cam, 20, 1400);
 	cal->cam.dist[0] = -0.05;
 	cal->plane_height_m = 0.25;
+	cal->readout_ms = 24.5;
 	cal->rms_px = 0.4;
 	cal->rms_mm = 0.7;
 	cal->n_outline = 4;
@@ -132,6 +133,7 @@ static void test_calfile_roundtrip(void **state)
 		assert_true(fabs(a.cam.R[i] - b.cam.R[i]) < 1e-15);
 	}
 	assert_true(fabs(b.plane_height_m - 0.25) < 1e-15);
+	assert_true(fabs(b.readout_ms - 24.5) < 1e-12);
 	assert_true(wl_calib_pixel_to_plane(&a, 700, 300, 0.25, &x0, &y0));
 	assert_true(wl_calib_pixel_to_plane(&b, 700, 300, 0.25, &x1, &y1));
 	assert_true(fabs(x0 - x1) < 1e-12 && fabs(y0 - y1) < 1e-12);
@@ -155,6 +157,8 @@ static void test_calfile_validation(void **state)
 	        {"\"camera_position_m\":\t[", "\"camera_position_m\": [5, ", "'camera_position_m'"},
 	        {"\"tank_outline_m\"", "\"outline\"", "'tank_outline_m'"},
 	        {"\"plane_height_m\"", "\"plane_height\"", "'plane_height_m'"},
+	        {"\"readout_ms\":\t24.5", "\"readout_ms\": \"fast\"", "'readout_ms'"},
+	        {"\"readout_ms\":\t24.5", "\"readout_ms\": -3", "'readout_ms'"},
 	};
 	wl_calib a, b;
 	wl_err err;

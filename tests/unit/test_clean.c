@@ -326,7 +326,8 @@ static void expect_raw_error(const char *text, const char *needle)
 		fail_msg("error '%s' lacks '%s'", err.msg, needle);
 }
 
-#define HDR "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n"
+#define HDR_BASE "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source"
+#define HDR HDR_BASE "\n"
 #define ROW(t, f) t "," f ",1,10,10,0.1,0.2,0.3,ok,50,30,tag\n"
 
 static void test_raw_errors(void **state)
@@ -341,7 +342,7 @@ static void test_raw_errors(void **state)
 	expect_raw_error(HDR ROW("0.0", "0") ROW("0.05", "1") ROW("0.06", "1"),
 	                 "RAW.csv:4: frame 1 of robot 1 appears twice");
 	expect_raw_error(HDR ROW("0.0", "0") "0.05,1,1,,,,,,maybe,,,\n",
-	                 "RAW.csv:3: column 'status': 'maybe'");
+	                 "RAW.csv:3: column 'status': 'maybe' is not 'ok', 'held' or 'lost'");
 	expect_raw_error(HDR, "no data rows");
 	expect_raw_error("", "empty");
 }
@@ -360,7 +361,119 @@ static void test_raw_ok(void **state)
 	assert_true(raw->tracks[1].s[0].has_pos);
 	assert_false(raw->tracks[1].s[0].has_heading);
 	assert_int_equal(raw->tracks[0].s[2].line, 5);
+	assert_float_equal(raw->tracks[0].s[2].t_meas_s, 0.08, 1e-12); /* no t_detect_s: t_s */
 	wl_clean_raw_destroy(raw);
+}
+
+/* RAW.csv of issue 17: status held (a pose, flagged), hold_score, and
+ * t_detect_s as the time of the pose; a lost row keeps the last offset. */
+#define HDR17 HDR_BASE ",hold_score,t_detect_s\n"
+static void test_raw_held_and_detect_time(void **state)
+{
+	const char *text = HDR17 "0.0,0,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.004\n"
+	                         "0.04,1,1,10,10,0.11,0.2,0.3,held,,30,tag,0.870,0.0445\n"
+	                         "0.08,2,1,,,,,,lost,,,,,\n"
+	                         "0.12,3,1,10,10,0.13,0.2,0.3,ok,50,30,tag,,0.125\n";
+	wl_clean_raw *raw = NULL;
+	wl_err err = {0};
+	(void)state;
+	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, strlen(text), &raw, &err), WL_OK);
+	assert_int_equal(raw->tracks[0].n, 4);
+	assert_false(raw->tracks[0].s[0].held);
+	assert_true(raw->tracks[0].s[1].held);
+	assert_true(raw->tracks[0].s[1].has_pos);
+	assert_float_equal(raw->tracks[0].s[0].t_meas_s, 0.004, 1e-12);
+	assert_float_equal(raw->tracks[0].s[1].t_meas_s, 0.0445, 1e-12);
+	assert_float_equal(raw->tracks[0].s[2].t_meas_s, 0.08 + 0.0045, 1e-12);
+	assert_float_equal(raw->tracks[0].s[3].t_meas_s, 0.125, 1e-12);
+	wl_clean_raw_destroy(raw);
+	expect_raw_error(HDR17 "0.0,0,1,10,10,0.1,0.2,0.3,held,,30,tag,high,0.0\n",
+	                 "RAW.csv:2: column 'hold_score': 'high' is not a number");
+	expect_raw_error(HDR17 "0.5,0,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.4\n",
+	                 "RAW.csv:2: column 't_detect_s': 0.400000 is not within a second after t_s");
+	expect_raw_error(HDR17 "0.0,0,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.030\n"
+	                       "0.02,1,1,10,10,0.1,0.2,0.3,ok,50,30,tag,,0.021\n",
+	                 "RAW.csv:3: time t_detect_s 0.021000");
+}
+
+/* Issue 17 in the smoother: (a) a held pose counts less than a detection:
+ * 30 frames carrying a 1.5 mm bias pull the smoothed track less when they
+ * are `held` than when they are `ok`; (b) t_detect_s is the time of the
+ * pose: poses exposed at row-dependent times (a rolling shutter) give the
+ * true speed from t_detect_s, and a wrong one from t_s. */
+static void test_stage_held_and_detect_time(void **state)
+{
+	enum { N = 240 };
+	static char text[N * 140 + 300];
+	double pull[2] = {0, 0}, speed[2] = {0, 0};
+	(void)state;
+	for (int pass = 0; pass < 2; pass++) {
+		size_t len = 0;
+		wl_clean_raw *raw = NULL;
+		wl_err err = {0};
+		wl_clean_params p;
+		wl_clean_result res;
+		rng_state = 11;
+		len += (size_t)snprintf(text + len, sizeof text - len, HDR_BASE ",hold_score,t_detect_s\n");
+		for (int i = 0; i < N; i++) {
+			double t = i / 30.0, y = 0.3 + 0.0005 * nrand();
+			int biased = i >= 100 && i < 130;
+			if (biased)
+				y += 0.0015;
+			len += (size_t)snprintf(text + len, sizeof text - len,
+			                        "%.6f,%d,3,0,0,%.6f,%.6f,0,%s,50,30,tag,%s,\n", t, i,
+			                        0.2 + 0.1 * t, y, biased && pass ? "held" : "ok",
+			                        biased && pass ? "0.800" : "");
+		}
+		assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
+		wl_clean_params_init(&p);
+		p.trim = WL_TRIM_NONE;
+		p.sigma_pos_m = 0.0005;
+		assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
+		for (size_t i = 0; i < res.nrows; i++)
+			if (res.rows[i].frame >= 105 && res.rows[i].frame < 125)
+				pull[pass] += (res.rows[i].y_m - 0.3) / 20;
+		wl_clean_result_release(&res);
+		wl_clean_raw_destroy(raw);
+	}
+	printf("30 biased frames (1.5 mm) pull the track %.3f mm as ok, %.3f mm as held\n", 1000 * pull[0],
+	       1000 * pull[1]);
+	assert_true(pull[1] < 0.6 * pull[0]);
+	assert_true(pull[0] > 0.001);
+	for (int pass = 0; pass < 2; pass++) {
+		size_t len = 0, n = 0;
+		wl_clean_raw *raw = NULL;
+		wl_err err = {0};
+		wl_clean_params p;
+		wl_clean_result res;
+		len += (size_t)snprintf(text + len, sizeof text - len, HDR_BASE ",hold_score,t_detect_s\n");
+		for (int i = 0; i < N; i++) {
+			/* the robot's row moves up and down the image: its exposure runs
+			 * 0 .. 25 ms after the frame time; x is the truth at that time */
+			double t = i / 30.0, td = t + 0.0125 * (1 + sin(2 * PI * t / 2.0));
+			len += (size_t)snprintf(text + len, sizeof text - len,
+			                        "%.6f,%d,3,0,0,%.7f,0.3,0,ok,50,30,tag,,%.6f\n", t, i,
+			                        0.2 + 0.45 * td, pass ? td : t);
+		}
+		assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
+		wl_clean_params_init(&p);
+		p.trim = WL_TRIM_NONE;
+		p.sigma_pos_m = 0.0001;
+		assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
+		for (size_t i = 0; i < res.nrows; i++)
+			if (res.rows[i].frame >= 30 && res.rows[i].frame < N - 30) {
+				speed[pass] = fmax(speed[pass], fabs(res.rows[i].speed_mps - 0.45));
+				n++;
+			}
+		if (pass)
+			assert_float_equal(res.rows[50].t_s,
+			                   50 / 30.0 + 0.0125 * (1 + sin(2 * PI * 50 / 60.0)), 1e-6);
+		wl_clean_result_release(&res);
+		wl_clean_raw_destroy(raw);
+	}
+	printf("speed error, largest: %.4f m/s from t_s, %.5f m/s from t_detect_s\n", speed[0], speed[1]);
+	assert_true(speed[1] < 0.0005);
+	assert_true(speed[0] > 0.005);
 }
 
 /* ----------------------------------------------------------- outline */
@@ -445,12 +558,20 @@ static void test_stage_synthetic(void **state)
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-	        cmocka_unit_test(test_sg_published_tables), cmocka_unit_test(test_sg_scipy),
-	        cmocka_unit_test(test_sg_uneven_exact),     cmocka_unit_test(test_rts_statsmodels_cv),
-	        cmocka_unit_test(test_rts_statsmodels_ca),  cmocka_unit_test(test_rts_zero_q_is_ls_line),
-	        cmocka_unit_test(test_rts_heading_unwrap),  cmocka_unit_test(test_sha256_fips),
-	        cmocka_unit_test(test_raw_errors),          cmocka_unit_test(test_raw_ok),
-	        cmocka_unit_test(test_outline_dist),        cmocka_unit_test(test_stage_synthetic),
+	        cmocka_unit_test(test_sg_published_tables),
+	        cmocka_unit_test(test_sg_scipy),
+	        cmocka_unit_test(test_sg_uneven_exact),
+	        cmocka_unit_test(test_rts_statsmodels_cv),
+	        cmocka_unit_test(test_rts_statsmodels_ca),
+	        cmocka_unit_test(test_rts_zero_q_is_ls_line),
+	        cmocka_unit_test(test_rts_heading_unwrap),
+	        cmocka_unit_test(test_sha256_fips),
+	        cmocka_unit_test(test_raw_errors),
+	        cmocka_unit_test(test_raw_ok),
+	        cmocka_unit_test(test_raw_held_and_detect_time),
+	        cmocka_unit_test(test_stage_held_and_detect_time),
+	        cmocka_unit_test(test_outline_dist),
+	        cmocka_unit_test(test_stage_synthetic),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

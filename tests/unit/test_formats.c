@@ -88,33 +88,51 @@ static void test_raw_round_trip(void **state)
 	                .heading_rad = 1.5,
 	                .margin = 80.0,
 	                .size_px = 41.5,
-	                .heading_source = WL_HS_TAG};
-	wl_raw_row b = {.t_s = 0.033367, .frame = 1, .id = 7, .status = WL_RAW_LOST};
+	                .heading_source = WL_HS_TAG,
+	                .hold_score = NAN,
+	                .t_detect_s = 0.0412345};
+	wl_raw_row h = a, b = {.t_s = 0.033367, .frame = 1, .id = 7, .status = WL_RAW_LOST};
 	raw_rows got = {0};
 	wl_err err;
 	char *text, *p = path_of("raw.csv");
 	(void)state;
 	/* numbers keep '.' decimals under a decimal-comma locale */
 	setlocale(LC_NUMERIC, "de_DE.UTF-8");
+	/* held: a pose refined where the detector missed, with its score; no
+	 * rolling-shutter time given, so t_detect_s is t_s */
+	h.id = 5;
+	h.status = WL_RAW_HELD;
+	h.margin = NAN;
+	h.hold_score = 0.87651;
+	h.t_detect_s = NAN;
 	assert_int_equal(wl_raw_open(p, &w, NULL), WL_OK);
 	wl_raw_put(w, &a);
+	wl_raw_put(w, &h);
 	wl_raw_put(w, &b);
 	assert_int_equal(wl_raw_commit(w, NULL), WL_OK);
 	setlocale(LC_NUMERIC, "C");
 	text = slurp(p);
 	assert_string_equal(
-	        text, "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n"
-	              "0.033367,1,3,10.250,20.500,0.125000,-0.500000,1.500000,ok,80.00,41.50,tag\n"
-	              "0.033367,1,7,,,,,,lost,,,\n");
+	        text,
+	        "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source,hold_"
+	        "score,t_detect_s\n"
+	        "0.033367,1,3,10.250,20.500,0.125000,-0.500000,1.500000,ok,80.00,41.50,tag,,0.041235\n"
+	        "0.033367,1,5,10.250,20.500,0.125000,-0.500000,1.500000,held,,41.50,tag,0.877,0.033367\n"
+	        "0.033367,1,7,,,,,,lost,,,,,\n");
 	assert_int_equal(wl_raw_read(p, keep_raw, &got, &err), WL_OK);
-	assert_int_equal(got.n, 2);
+	assert_int_equal(got.n, 3);
+	assert_true(isnan(got.rows[0].hold_score) && got.rows[0].t_detect_s == 0.041235);
+	assert_int_equal(got.rows[1].status, WL_RAW_HELD);
+	assert_true(got.rows[1].hold_score == 0.877 && got.rows[1].x_m == 0.125 && isnan(got.rows[1].margin));
+	assert_true(got.rows[1].t_detect_s == 0.033367);
+	got.rows[1] = got.rows[2];
 	assert_int_equal(got.rows[0].id, 3);
 	assert_int_equal(got.rows[0].status, WL_RAW_OK);
 	assert_int_equal(got.rows[0].heading_source, WL_HS_TAG);
 	assert_true(got.rows[0].u_px == 10.25 && got.rows[0].size_px == 41.5 && got.rows[0].x_m == 0.125);
 	assert_int_equal(got.rows[0].line, 2);
 	assert_int_equal(got.rows[1].status, WL_RAW_LOST);
-	assert_true(isnan(got.rows[1].x_m));
+	assert_true(isnan(got.rows[1].x_m) && isnan(got.rows[1].t_detect_s));
 	free(text);
 	/* abort leaves no file */
 	unlink(p);
@@ -137,6 +155,8 @@ static void test_raw_errors(void **state)
 {
 	static const char H[] =
 	        "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n";
+	static const char H17[] = "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_"
+	                          "source,hold_score,t_detect_s\n";
 	char buf[512];
 	(void)state;
 	/* a table of another format is named as such, with the command that writes RAW.csv */
@@ -145,7 +165,12 @@ static void test_raw_errors(void **state)
 	raw_error("t_s,frame,id,x_m,y_m,segment,status\n",
 	          "is this a RAW.csv? give the table `wakeline track` writes");
 	snprintf(buf, sizeof buf, "%s0,0,1,,,0,0,0,seen,,,\n", H);
-	raw_error(buf, "r.csv:2: column 'status': 'seen' is neither 'ok' nor 'lost'");
+	raw_error(buf, "r.csv:2: column 'status': 'seen' is not 'ok', 'held' or 'lost'");
+	/* issue 17's columns: a score is a number, a detection time within a second after t_s */
+	snprintf(buf, sizeof buf, "%s0,0,1,,,0,0,0,held,,,tag,high,0\n", H17);
+	raw_error(buf, "r.csv:2: column 'hold_score': 'high' is not a number");
+	snprintf(buf, sizeof buf, "%s0.5,0,1,,,0,0,0,ok,,,tag,,0.4\n", H17);
+	raw_error(buf, "r.csv:2: column 't_detect_s': 0.400000 is not within a second after t_s");
 	snprintf(buf, sizeof buf, "%s0,0,1,,,0,0,0,ok,,,sonar\n", H);
 	raw_error(buf, "r.csv:2: column 'heading_source': 'sonar'");
 	snprintf(buf, sizeof buf, "%s0,0,1,,,0,0,0,ok,lots,,tag\n", H);

@@ -23,6 +23,7 @@
 #include <sys/time.h>
 #include <unistd.h>
 
+#include "clean/clean.h"
 #include "live/live.h"
 
 #define IX(i, j) ((i)*3 + (j))
@@ -125,6 +126,38 @@ static void test_filter_steady_state_dare(void **state)
 		assert_near(s.vy_mps, vy, 1e-9);
 		assert_true(s.accepted);
 	}
+}
+
+/* Held poses (WL_CLEAN_HELD_VAR_SCALE): a filter fed only held poses
+ * reaches the steady state of the Riccati equation for 9 times the
+ * measurement variance (scipy.linalg.solve_discrete_are), and one fed a
+ * detection keeps the variance it was given. */
+static void test_filter_held_variance(void **state)
+{
+	const double dt = 1.0 / 30, q = 0.01, r = 4e-6;
+	double ref[5];
+	wl_live_filter_cfg c = cfg_nogate(sqrt(r), q);
+	wl_live_filter f;
+	wl_live_state s;
+	char args[256], *out, *p;
+	(void)state;
+	snprintf(args, sizeof args, "steady %.17g %.17g %.17g", dt, q, WL_CLEAN_HELD_VAR_SCALE * r);
+	out = ref_kf(args);
+	assert_non_null(out);
+	p = out;
+	for (int i = 0; i < 5; i++)
+		ref[i] = strtod(p, &p);
+	free(out);
+	wl_live_filter_init(&f);
+	for (int i = 0; i < 3000; i++)
+		wl_live_filter_step_var(&f, &c, i * dt, 0.3 + 0.2 * i * dt, 0.7, NAN, WL_CLEAN_HELD_VAR_SCALE,
+		                        &s);
+	assert_near(f.x.Pp[IX(0, 0)] / ref[0], 1.0, 1e-6);
+	assert_near(f.x.Pp[IX(1, 1)] / ref[2], 1.0, 1e-6);
+	assert_near(f.x.Pp[IX(0, 0)] / (f.x.Pp[IX(0, 0)] + WL_CLEAN_HELD_VAR_SCALE * r) / ref[3], 1.0, 1e-6);
+	assert_near(s.vx_mps, 0.2, 1e-9);
+	/* the configuration is not changed by a held step */
+	assert_near(c.sigma_pos_m, sqrt(r), 1e-15);
 }
 
 /* Step by step against statsmodels' Kalman filter (forward pass only) on a
@@ -396,6 +429,7 @@ int main(void)
 {
 	const struct CMUnitTest tests[] = {
 	        cmocka_unit_test(test_filter_steady_state_dare),
+	        cmocka_unit_test(test_filter_held_variance),
 	        cmocka_unit_test(test_filter_statsmodels),
 	        cmocka_unit_test(test_filter_is_smoother_forward_pass),
 	        cmocka_unit_test(test_filter_gate_and_restart),

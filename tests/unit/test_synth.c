@@ -551,6 +551,299 @@ static void test_glare_drift(void **state)
 	free(a);
 }
 
+/* ---- what real water and phones add (hazard.c, docks) ---- */
+
+/* Rolling shutter: each coded row of a frame equals that row of a global
+ * shutter frame rendered at the row's own time (t + v / h * readout); and
+ * AprilTag's detector (outside the project) finds the moving tag where the
+ * truth puts it at wl_synth_centre_time, not at the frame time. */
+static void test_rolling_shutter(void **state)
+{
+	static const char base[] =
+	        "{ \"tank\": { \"size_m\": [1.2, 0.8] },"
+	        "  \"camera\": { \"width_px\": 320, \"height_px\": 240, \"hfov_deg\": 60, \"position_m\": "
+	        "[0.6, 0.4, 1.2] },"
+	        "  \"timing\": { \"fps\": 30, \"readout_ms\": %g },"
+	        "  \"effects\": { \"supersample\": 2 },"
+	        "  \"robots\": [ { \"height_m\": 0.1, \"marker\": { \"type\": \"tag\", \"tag_id\": 4, "
+	        "\"size_m\": 0.08 },"
+	        "     \"path\": { \"start_m\": [0.3, 0.4], \"heading_deg\": 0, \"speed_mps\": 1.0 } } ] }";
+	char text[1024];
+	wl_synth_scene rs, gs;
+	wl_synth_renderer *rr = NULL, *rg = NULL;
+	wl_err err = {0};
+	int w = 320, h = 240, rows_checked = 0;
+	uint8_t *a = malloc((size_t)w * h * 3), *b = malloc((size_t)w * h * 3), *y = malloc((size_t)w * h);
+	double t = 0.3, R = 0.025, tc, X[3], u, v, u0, v0, worst = 0;
+	apriltag_family_t *tf = tag36h11_create();
+	apriltag_detector_t *td = make_detector(tf);
+	wl_synth_pose p;
+	(void)state;
+	snprintf(text, sizeof text, base, R * 1000);
+	load(text, &rs);
+	snprintf(text, sizeof text, base, 0.0);
+	load(text, &gs);
+	assert_int_equal(wl_synth_renderer_create(&rs, 2, &rr, &err), WL_OK);
+	assert_int_equal(wl_synth_renderer_create(&gs, 2, &rg, &err), WL_OK);
+	render_rgb(rr, &rs, t, 0, a);
+	for (int v = 60; v < 180; v += 13) {
+		render_rgb(rg, &gs, t + R * v / h, 0, b);
+		for (int k = 0; k < 3 * w; k++)
+			worst = fmax(worst,
+			             fabs((double)a[(size_t)v * 3 * w + k] - b[(size_t)v * 3 * w + k]));
+		rows_checked++;
+	}
+	printf("rolling shutter: %d rows equal the global frame at their own time within %.0f levels\n",
+	       rows_checked, worst);
+	assert_true(worst <= 1.0);
+	/* the detector's centre against the truth at the centre row's time */
+	for (int i = 0; i < w * h; i++)
+		y[i] = (uint8_t)lround(0.299 * a[3 * i] + 0.587 * a[3 * i + 1] + 0.114 * a[3 * i + 2]);
+	zarray_t *dets = detect(td, y, w, h);
+	assert_int_equal(zarray_size(dets), 1);
+	apriltag_detection_t *d;
+	zarray_get(dets, 0, &d);
+	tc = wl_synth_centre_time(&rs, 0, t);
+	wl_synth_robot_pose(&rs, 0, tc, &p);
+	X[0] = p.x_m;
+	X[1] = p.y_m;
+	X[2] = 0.1;
+	wl_camera_project(&rs.cam, X, &u, &v);
+	assert_float_equal(tc, t + v / h * R, 1e-6);
+	wl_synth_robot_pose(&rs, 0, t, &p);
+	X[0] = p.x_m;
+	X[1] = p.y_m;
+	wl_camera_project(&rs.cam, X, &u0, &v0);
+	printf("rolling shutter: centre row time +%.2f ms; detection %.2f px from the truth then, %.2f px "
+	       "from "
+	       "the frame-time truth\n",
+	       1000 * (tc - t), hypot(d->c[0] - 0.5 - u, d->c[1] - 0.5 - v),
+	       hypot(d->c[0] - 0.5 - u0, d->c[1] - 0.5 - v0));
+	assert_true(hypot(d->c[0] - 0.5 - u, d->c[1] - 0.5 - v) <= 0.3);
+	assert_true(hypot(d->c[0] - 0.5 - u0, d->c[1] - 0.5 - v0) >= 2.0);
+	apriltag_detections_destroy(dets);
+	apriltag_detector_destroy(td);
+	tag36h11_destroy(tf);
+	wl_synth_renderer_destroy(rr);
+	wl_synth_renderer_destroy(rg);
+	free(a);
+	free(b);
+	free(y);
+}
+
+/* An occluder crossing a resting tag: its colour where it covers the tag,
+ * and the visible fraction of the tag 1, about 1/2 and 0 as it slides over;
+ * a robot with an occlusion interval is 0; a tag half out of the image 1/2. */
+static void test_occluder_visibility(void **state)
+{
+	static const char text[] =
+	        "{ \"tank\": { \"size_m\": [1.2, 0.8], \"floor_rgb\": [200, 200, 200] },"
+	        "  \"camera\": { \"width_px\": 320, \"height_px\": 240, \"hfov_deg\": 60, \"position_m\": "
+	        "[0.6, 0.4, 1.2] },"
+	        "  \"effects\": { \"supersample\": 2 },"
+	        "  \"robots\": [ { \"height_m\": 0.1, \"marker\": { \"type\": \"tag\", \"tag_id\": 4, "
+	        "\"size_m\": 0.08 },"
+	        "     \"path\": { \"start_m\": [0.6, 0.4], \"speed_mps\": 0 }, \"occlusions\": [ [5, 6] ] } "
+	        "],"
+	        "  \"occluders\": [ { \"shape\": \"rect\", \"size_m\": [0.2, 0.3], \"height_m\": 0.3,"
+	        "     \"rgb\": [10, 200, 10], \"start_m\": [0.3, 0.4], \"velocity_mps\": [0.1, 0], \"t0_s\": "
+	        "0, \"t1_s\": 4 } ] }";
+	wl_synth_scene sc;
+	wl_synth_renderer *r = NULL;
+	wl_err err = {0};
+	uint8_t *rgb = malloc((size_t)320 * 240 * 3);
+	double f0, fh, f1, fo, X[3] = {0.6, 0.4, 0.1}, u, v;
+	(void)state;
+	load(text, &sc);
+	/* the rect's right edge is at x = 0.4 + 0.1 t on its plane (0.3 m); the
+	 * camera is straight above the tag centre (x = 0.6), so the edge crosses
+	 * the centre's line of sight at t = 2 s: half the tag is hidden then */
+	f0 = wl_synth_visible_fraction(&sc, 0, 0.5);
+	fh = wl_synth_visible_fraction(&sc, 0, 2.0);
+	f1 = wl_synth_visible_fraction(&sc, 0, 3.0);
+	fo = wl_synth_visible_fraction(&sc, 0, 5.5);
+	printf("visible fraction: %.3f before, %.3f half-way, %.3f covered, %.3f hidden\n", f0, fh, f1, fo);
+	assert_float_equal(f0, 1.0, 1e-9);
+	assert_float_equal(f1, 0.0, 1e-9);
+	assert_float_equal(fo, 0.0, 1e-9);
+	assert_float_equal(fh, 0.5, 0.01);
+	assert_int_equal(wl_synth_renderer_create(&sc, 2, &r, &err), WL_OK);
+	render_rgb(r, &sc, 3.0, 0, rgb);
+	wl_camera_project(&sc.cam, X, &u, &v);
+	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){10, 200, 10}), 3);
+	render_rgb(r, &sc, 4.5, 0, rgb); /* gone after t1_s */
+	assert_true(px(&sc, rgb, u, v)[1] != 200);
+	wl_synth_renderer_destroy(r);
+	free(rgb);
+	/* half the tag beyond the image's left edge */
+	{
+		static const char edge[] =
+		        "{ \"tank\": { \"size_m\": [1.2, 0.8] },"
+		        "  \"camera\": { \"width_px\": 320, \"height_px\": 240, \"hfov_deg\": 60, "
+		        "\"position_m\": "
+		        "[0.6, 0.4, 1.2] },"
+		        "  \"robots\": [ { \"height_m\": 0.1, \"marker\": { \"type\": \"tag\", \"tag_id\": "
+		        "4, \"size_m\": "
+		        "0.08 }, \"path\": { \"start_m\": [0.0, 0.4], \"speed_mps\": 0 } } ] }";
+		wl_synth_scene se;
+		double Xe[3], ue, ve, fe;
+		load(edge, &se);
+		/* put the tag centre on the image's left edge */
+		wl_camera_pixel_to_plane_water(&se.cam, 0.0, 119.5, 0.1, &Xe[0], &Xe[1]);
+		se.robots[0].path.x0_m = Xe[0];
+		se.robots[0].path.y0_m = Xe[1];
+		Xe[2] = 0.1;
+		wl_camera_project(&se.cam, Xe, &ue, &ve);
+		fe = wl_synth_visible_fraction(&se, 0, 0);
+		printf("visible fraction at the image edge: %.3f (centre at u = %.2f)\n", fe, ue);
+		assert_float_equal(fe, 0.5, 0.05);
+	}
+}
+
+/* An aimed glare spot moves with its robot and sweeps across it once per
+ * repeat_s: its centre (the centroid of the brightness it adds, no pixel
+ * clipped at this gain) is at the robot's projected centre + start +
+ * velocity * ((t - t0) mod repeat). */
+static void test_aimed_spot(void **state)
+{
+	static const char base[] =
+	        "{ \"tank\": { \"size_m\": [1.2, 0.8], \"floor_rgb\": [100, 100, 100] },"
+	        "  \"camera\": { \"width_px\": 320, \"height_px\": 240, \"hfov_deg\": 60, \"position_m\": "
+	        "[0.6, 0.4, 1.2] },"
+	        "  \"robots\": [ { \"id\": 7, \"height_m\": 0.1, \"marker\": { \"type\": \"tag\", "
+	        "\"tag_id\": 4, "
+	        "\"size_m\": 0.08 },"
+	        "     \"path\": { \"start_m\": [0.4, 0.4], \"speed_mps\": 0.1 } } ]%s }";
+	char text[1200];
+	wl_synth_scene s0, s1;
+	wl_synth_renderer *r0 = NULL, *r1 = NULL;
+	wl_err err = {0};
+	uint8_t *a = malloc((size_t)320 * 240 * 3), *b = malloc((size_t)320 * 240 * 3);
+	(void)state;
+	snprintf(text, sizeof text, base, "");
+	load(text, &s0);
+	snprintf(text, sizeof text, base,
+	         ", \"glare_spots\": [ { \"robot\": 7, \"start_px\": [-40, 5], \"velocity_pxps\": [80, 0],"
+	         " \"t0_s\": 0.2, \"repeat_s\": 1, \"radius_px\": 12, \"gain\": 10 } ]");
+	load(text, &s1);
+	assert_int_equal(s1.n_spots, 1);
+	assert_int_equal(wl_synth_renderer_create(&s0, 2, &r0, &err), WL_OK);
+	assert_int_equal(wl_synth_renderer_create(&s1, 2, &r1, &err), WL_OK);
+	for (int k = 0; k < 2; k++) {
+		double t = 0.45 + k * 1.0, sw = 0, su = 0, sv = 0, X[3], u, v;
+		wl_synth_pose p;
+		render_rgb(r0, &s0, t, 0, a);
+		render_rgb(r1, &s1, t, 0, b);
+		for (int y = 0; y < 240; y++)
+			for (int x = 0; x < 320; x++) {
+				double e =
+				        (double)b[((size_t)y * 320 + x) * 3] - a[((size_t)y * 320 + x) * 3];
+				sw += e;
+				su += e * x;
+				sv += e * y;
+			}
+		wl_synth_robot_pose(&s1, 0, t, &p);
+		X[0] = p.x_m;
+		X[1] = p.y_m;
+		X[2] = 0.1;
+		wl_camera_project(&s1.cam, X, &u, &v);
+		printf("aimed spot at t = %.2f: centroid (%.2f, %.2f), expected (%.2f, %.2f)\n", t, su / sw,
+		       sv / sw, u - 40 + 80 * 0.25, v + 5);
+		/* rounding each pixel to whole levels moves the centroid a little */
+		assert_float_equal(su / sw, u - 40 + 80 * 0.25, 0.3);
+		assert_float_equal(sv / sw, v + 5, 0.3);
+	}
+	wl_synth_renderer_destroy(r0);
+	wl_synth_renderer_destroy(r1);
+	free(a);
+	free(b);
+}
+
+/* Docking: inside [t0, t1] the robot rides beside its leader at the given
+ * offset in the leader's axes; outside [t0 - blend, t1 + blend] it is on its
+ * own path; the motion stays continuous (no jump between close times). */
+static void test_docks(void **state)
+{
+	static const char text[] =
+	        "{ \"tank\": { \"size_m\": [2, 2] }, \"camera\": {},"
+	        "  \"robots\": [ { \"id\": 1, \"marker\": { \"type\": \"tag\", \"tag_id\": 1 },"
+	        "     \"path\": { \"start_m\": [0.5, 1.0], \"heading_deg\": 30, \"speed_mps\": 0.2, "
+	        "\"curvature_1pm\": 1 } },"
+	        "   { \"id\": 2, \"marker\": { \"type\": \"tag\", \"tag_id\": 2 },"
+	        "     \"path\": { \"start_m\": [0.5, 0.6], \"heading_deg\": 90, \"speed_mps\": 0.1 },"
+	        "     \"docks\": [ { \"with\": 1, \"offset_m\": [0, -0.12], \"t0_s\": 2, \"t1_s\": 4, "
+	        "\"blend_s\": 1 } ] } ] }";
+	wl_synth_scene sc;
+	wl_synth_pose a, b, own, prev;
+	double worst = 0;
+	(void)state;
+	load(text, &sc);
+	assert_int_equal(sc.robots[1].n_docks, 1);
+	assert_int_equal(sc.robots[1].docks[0].with, 0);
+	wl_synth_robot_pose(&sc, 0, 3.0, &a);
+	wl_synth_robot_pose(&sc, 1, 3.0, &b);
+	assert_float_equal(b.x_m, a.x_m + 0.12 * sin(a.heading_rad), 1e-9);
+	assert_float_equal(b.y_m, a.y_m - 0.12 * cos(a.heading_rad), 1e-9);
+	assert_float_equal(b.heading_rad, a.heading_rad, 1e-9);
+	wl_synth_robot_pose(&sc, 1, 0.9, &b);
+	assert_float_equal(b.x_m, 0.5, 1e-9);
+	assert_float_equal(b.y_m, 0.6 + 0.09, 1e-9);
+	/* a jump would keep its size however small the step: the largest step
+	 * must shrink in proportion (a speed, here below 1.5 m/s while blending
+	 * from 0.6 m away over 1 s) */
+	for (int pass = 0; pass < 2; pass++) {
+		double dt = pass ? 1e-5 : 1e-3;
+		worst = 0;
+		wl_synth_robot_pose(&sc, 1, 0, &prev);
+		for (long k = 1; k * dt <= 6.0; k++) {
+			wl_synth_robot_pose(&sc, 1, k * dt, &own);
+			worst = fmax(worst, hypot(own.x_m - prev.x_m, own.y_m - prev.y_m));
+			prev = own;
+		}
+		printf("docking: largest step in %g s: %.4f mm (%.3f m/s)\n", dt, 1000 * worst, worst / dt);
+		assert_true(worst / dt < 1.5);
+	}
+	check_bad("{ \"tank\": { \"size_m\": [1, 1] }, \"camera\": {}, \"robots\": [ { \"marker\": { "
+	          "\"type\": \"tag\","
+	          " \"tag_id\": 1 }, \"docks\": [ { \"with\": 9, \"t0_s\": 1, \"t1_s\": 2 } ] } ] }",
+	          "robots[0].docks[0]: key 'with' names no robot id");
+	check_bad(
+	        "{ \"tank\": { \"size_m\": [1, 1] }, \"camera\": {}, \"occluders\": [ { \"shape\": \"star\","
+	        " \"size_m\": [0.1, 0.1], \"start_m\": [0, 0] } ] }",
+	        "occluders[0]: key 'shape' must be");
+	check_bad("{ \"tank\": { \"size_m\": [1, 1] }, \"camera\": {}, \"glare_spots\": [ { \"radius\": 3 } "
+	          "] }",
+	          "glare_spots[0]: key 'radius' is not known");
+	check_bad("{ \"tank\": { \"size_m\": [1, 1] }, \"camera\": {}, \"timing\": { \"fps\": 30, "
+	          "\"readout_ms\": 40 } }",
+	          "timing: key 'readout_ms' is not shorter than a frame interval");
+}
+
+/* The renderer takes up to 32 robots (a swarm), and says so beyond. */
+static void test_many_robots(void **state)
+{
+	char text[8192];
+	size_t n;
+	wl_synth_scene sc;
+	(void)state;
+	for (int count = 24; count <= 33; count += 9) {
+		n = (size_t)snprintf(text, sizeof text,
+		                     "{ \"tank\": { \"size_m\": [3, 3] }, \"camera\": {}, \"robots\": [");
+		for (int i = 0; i < count; i++)
+			n += (size_t)snprintf(text + n, sizeof text - n,
+			                      "%s{ \"marker\": { \"type\": \"tag\", \"tag_id\": %d }, "
+			                      "\"path\": { \"start_m\": [%g, 1] } }",
+			                      i ? "," : "", i, 0.1 * i);
+		snprintf(text + n, sizeof text - n, "] }");
+		if (count <= WL_SYNTH_MAX_ROBOTS) {
+			load(text, &sc);
+			assert_int_equal(sc.n_robots, count);
+		} else {
+			check_bad(text, "more than 32 robots");
+		}
+	}
+}
+
 /* The whole chain: render, encode (B-frames, jittered times), decode with
  * Debian's ffmpeg (the reference decoder), detect: every frame comes back
  * in order and the tag centre is within 0.5 px of the projected truth. */
@@ -634,6 +927,11 @@ int main(void)
 	        cmocka_unit_test(test_clip_decoded_by_ffmpeg),
 	        cmocka_unit_test(test_motion_blur),
 	        cmocka_unit_test(test_glare_drift),
+	        cmocka_unit_test(test_rolling_shutter),
+	        cmocka_unit_test(test_occluder_visibility),
+	        cmocka_unit_test(test_aimed_spot),
+	        cmocka_unit_test(test_docks),
+	        cmocka_unit_test(test_many_robots),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -18,6 +18,7 @@
 
 #include "calib/calib.h"
 #include "core/afile.h"
+#include "core/angle.h"
 #include "core/camera.h"
 #include "decode/decode.h"
 #include "track/track.h"
@@ -191,7 +192,315 @@ static void test_tag_families(void **state)
 	assert_int_equal(wl_tagdet_render_cells("tag36h11", 586, cells, sizeof cells), 10);
 }
 
+/* ---- holding a tag: aligning the printed pattern (hold.c) ---- */
+
+/* plane metres = pixels / 1000 (a stand-in calibration) */
+static int px_plane(const void *ctx, double x, double y, double *u, double *v)
+{
+	(void)ctx;
+	*u = x * 1000;
+	*v = y * 1000;
+	return 1;
+}
+
+/* The pose of a tag drawn by draw_tag, and its corners in the frame of its
+ * up direction, on the stand-in plane. */
+static void drawn_pose(double cu, double cv, double side, double theta, wl_tagpose *p, double L[4][2])
+{
+	static const double tc[4][2] = {{-1, 1}, {1, 1}, {1, -1}, {-1, -1}};
+	double c = cos(theta), s = sin(theta);
+	p->x_m = cu / 1000;
+	p->y_m = cv / 1000;
+	p->up_rad = atan2(-c, s); /* tag coordinates (0, -1): pixels (s, -c) */
+	for (int k = 0; k < 4; k++) {
+		double a = tc[k][0] * side / 2, b = tc[k][1] * side / 2;
+		double dx = (c * a - s * b) / 1000, dy = (s * a + c * b) / 1000;
+		L[k][0] = cos(p->up_rad) * dx + sin(p->up_rad) * dy;
+		L[k][1] = -sin(p->up_rad) * dx + cos(p->up_rad) * dy;
+	}
+}
+
+/* From a guess 2.5 px and 5 degrees off, the fit finds a drawn tag within
+ * 0.05 px; under a glare spot (+150 levels, clipped) over a third of it
+ * within 0.3 px with a lower score; half covered by a flat grey patch
+ * within 0.5 px, scoring about 1/2; on an empty floor the score is near 0,
+ * on a random texture below 0.4 (the tracker holds from 0.4 up). */
+static void test_tag_hold_fit(void **state)
+{
+	int w = 200, h = 160, stride = 200, area[4] = {0, 0, 200, 160};
+	double cu = 101.3, cv = 78.6, side = 40, theta = 0.5, L[4][2];
+	wl_tagpose truth, guess, got;
+	wl_tagfit fit;
+	wl_tagmodel *m = NULL;
+	uint8_t *img = grey_image(h, stride);
+	double ab[2], cpx[4][2];
+	(void)state;
+	assert_int_equal(wl_tagmodel_create("tag36h11", 9, &m, NULL), WL_OK);
+	draw_tag(img, w, h, stride, 9, cu, cv, side, theta);
+	drawn_pose(cu, cv, side, theta, &truth, L);
+	/* the levels as a detection would measure them */
+	for (int k = 0; k < 4; k++) {
+		cpx[k][0] = cu + 1000 * (cos(truth.up_rad) * L[k][0] - sin(truth.up_rad) * L[k][1]);
+		cpx[k][1] = cv + 1000 * (sin(truth.up_rad) * L[k][0] + cos(truth.up_rad) * L[k][1]);
+	}
+	assert_int_equal(wl_tagmodel_levels(m, (const double(*)[2])cpx, img, stride, area, ab), 1);
+	printf("hold levels at the drawn corners: black %.1f, contrast %.1f\n", ab[0], ab[1]);
+	guess = truth;
+	guess.x_m += 0.0015;
+	guess.y_m -= 0.002;
+	guess.up_rad += 5 * PI / 180;
+	assert_int_equal(wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess,
+	                                 ab, 4, &got, &fit),
+	                 1);
+	printf("hold fit, clean: %.3f px off, %.3f deg, score %.3f (corr %.3f, frac %.3f), contrast %.1f, %d "
+	       "iterations\n",
+	       1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m), (got.up_rad - truth.up_rad) * 180 / PI,
+	       fit.score, fit.corr, fit.frac, fit.contrast, fit.iterations);
+	assert_true(1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m) < 0.05);
+	assert_true(fabs(got.up_rad - truth.up_rad) < 0.2 * PI / 180);
+	assert_true(fit.score > 0.9);
+	assert_int_equal(fit.bits_total, 36);
+	assert_int_equal(fit.bits_read, 36);
+	assert_int_equal(fit.bits_wrong, 0);
+	/* drawn black 30, white 220: the fit sees the edges a little softer */
+	assert_true(fit.contrast > 170 && fit.contrast < 200);
+	/* glare over a third of it */
+	for (int y = 0; y < h; y++)
+		for (int x = 0; x < w; x++) {
+			double d2 = (x - cu - 12) * (x - cu - 12) + (y - cv + 8) * (y - cv + 8);
+			int v = img[y * stride + x] + (int)(150 * exp(-d2 / (2 * 12.0 * 12.0)));
+			img[y * stride + x] = (uint8_t)(v > 255 ? 255 : v);
+		}
+	assert_int_equal(wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess,
+	                                 ab, 4, &got, &fit),
+	                 1);
+	printf("hold fit, glare: %.3f px off, score %.3f (dark %.3f, light %.3f)\n",
+	       1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m), fit.score, fit.frac_dark,
+	       fit.frac_light);
+	assert_true(1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m) < 0.3);
+	assert_true(fit.score > 0.4 && fit.score < 0.95);
+	/* half covered (left of the centre) by a flat patch */
+	draw_tag(img, w, h, stride, 9, cu, cv, side, theta);
+	for (int y = 0; y < h; y++)
+		for (int x = 0; x < (int)cu; x++)
+			img[y * stride + x] = 90;
+	assert_int_equal(wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess,
+	                                 ab, 4, &got, &fit),
+	                 1);
+	printf("hold fit, half covered: %.3f px off, score %.3f (dark %.3f, light %.3f)\n",
+	       1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m), fit.score, fit.frac_dark,
+	       fit.frac_light);
+	assert_true(1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m) < 0.5);
+	assert_true(fit.score > 0.45 && fit.score < 0.7);
+	/* nothing there */
+	memset(img, 200, (size_t)stride * h);
+	for (size_t i = 0; i < (size_t)stride * h; i++)
+		img[i] = (uint8_t)(200 + (int)((uint32_t)(i * 2654435761u) >> 29) -
+		                   4); /* +-4 levels of fixed noise */
+	if (wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess, ab, 4, &got,
+	                    &fit))
+		printf("hold fit, empty: score %.3f (dark %.3f, light %.3f), contrast %.1f\n", fit.score,
+		       fit.frac_dark, fit.frac_light, fit.contrast);
+	else
+		printf("hold fit, empty: no fit\n");
+	assert_true(fit.score < 0.2);
+	/* a random texture of full range: some agreement by chance, well below
+	 * a half-visible tag's */
+	for (size_t i = 0; i < (size_t)stride * h; i++)
+		img[i] = (uint8_t)((i * 2654435761u) >> 29);
+	if (wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess, ab, 4, &got,
+	                    &fit))
+		printf("hold fit, random texture: score %.3f (dark %.3f, light %.3f)\n", fit.score,
+		       fit.frac_dark, fit.frac_light);
+	assert_true(fit.score < 0.4);
+	wl_tagmodel_destroy(m);
+	free(img);
+}
+
+/* ---- what the footage needs: blur, noise (light), glare ---- */
+
+/* A 64-bit LCG's normal deviates (Box-Muller), for reproducible noise. */
+static uint64_t fl_rng = 1;
+static double fl_normal(void)
+{
+	double u1, u2;
+	fl_rng = fl_rng * 6364136223846793005ULL + 1442695040888963407ULL;
+	u1 = ((fl_rng >> 11) + 0.5) / 9007199254740992.0;
+	fl_rng = fl_rng * 6364136223846793005ULL + 1442695040888963407ULL;
+	u2 = ((fl_rng >> 11) + 0.5) / 9007199254740992.0;
+	return sqrt(-2 * log(u1)) * cos(2 * PI * u2);
+}
+
+/* One trial: tag 5 (side px, turned 0.4 rad) smeared over `blur` px along
+ * 30 degrees, a glare spot of `gain` levels (sigma side / 4) over it,
+ * noise of `sigma` levels; returns 1 when detected (decimate by the
+ * tracker's rule) and sets *hold_err to the hold fit's error in px (from a
+ * guess 1.5 px off; 99 when it fails or is not accepted). */
+static int footage_trial(double side, double blur, double gain, double sigma, double *hold_err)
+{
+	int w = 160, h = 160, stride = 160, n, ok, area[4] = {0, 0, 160, 160};
+	uint8_t *img = grey_image(h, stride);
+	double *acc = calloc((size_t)w * h, sizeof *acc), cu = 80.3, cv = 79.6, L[4][2], ab[2];
+	int steps = blur > 0 ? (int)ceil(blur) + 1 : 1;
+	wl_tagdet *d = NULL;
+	wl_tagdet_hit hits[4];
+	wl_tagmodel *m = NULL;
+	wl_tagpose truth, guess, got;
+	wl_tagfit fit;
+	for (int k = 0; k < steps; k++) {
+		double off = steps > 1 ? blur * ((double)k / (steps - 1) - 0.5) : 0;
+		memset(img, 200, (size_t)stride * h);
+		draw_tag(img, w, h, stride, 5, cu + off * cos(PI / 6), cv - off * sin(PI / 6), side, 0.4);
+		for (int i = 0; i < w * h; i++)
+			acc[i] += img[i] / (double)steps;
+	}
+	for (int y = 0; y < h; y++)
+		for (int x = 0; x < w; x++) {
+			double g = gain *
+			           exp(-((x - cu - side / 4) * (x - cu - side / 4) + (y - cv) * (y - cv)) /
+			               (2 * side * side / 16)),
+			       v = acc[y * w + x] + g + sigma * fl_normal();
+			img[y * stride + x] = (uint8_t)(v < 0 ? 0 : v > 255 ? 255 : v + 0.5);
+		}
+	assert_int_equal(wl_tagdet_create("tag36h11", 1, &d, NULL), WL_OK);
+	wl_tagdet_set(d, side >= 32 ? 2.0f : 1.0f, 0.0f, 0.25);
+	n = wl_tagdet_detect(d, img, stride, 0, 0, w, h, hits, 4);
+	ok = n == 1 && hits[0].id == 5 && hits[0].hamming == 0 && hits[0].margin >= 20;
+	wl_tagdet_destroy(d);
+	/* the hold, with the levels of a clean view of the tag */
+	assert_int_equal(wl_tagmodel_create("tag36h11", 5, &m, NULL), WL_OK);
+	drawn_pose(cu, cv, side, 0.4, &truth, L);
+	ab[0] = 30; /* draw_tag's black, and white - black */
+	ab[1] = 190;
+	guess = truth;
+	guess.x_m += 0.0012;
+	guess.y_m += 0.0009;
+	*hold_err = 99;
+	if (wl_tagmodel_fit(m, (const double(*)[2])L, px_plane, NULL, img, stride, area, &guess, ab, 3, &got,
+	                    &fit) &&
+	    fit.score >= 0.4 && fit.bits_ok_dark >= fit.bits_dark / 4 &&
+	    fit.bits_ok_light >= (fit.bits_total - fit.bits_dark) / 4 &&
+	    !(fit.bits_wrong_dark > 1 && fit.bits_wrong_light > 1))
+		*hold_err = 1000 * hypot(got.x_m - truth.x_m, got.y_m - truth.y_m);
+	wl_tagmodel_destroy(m);
+	free(acc);
+	free(img);
+	return ok;
+}
+
+/* The limits docs/track.md and the README quote ("What the footage
+ * needs"), measured on drawn tags (no compression): the longest motion
+ * smear, the strongest noise and the brightest glare spot at which a 30 px
+ * and a 44 px tag are still detected, and held within 0.5 px. */
+static void test_footage_limits(void **state)
+{
+	static const double sides[2] = {30, 44};
+	(void)state;
+	for (int si = 0; si < 2; si++) {
+		double side = sides[si], e, blur_det = 0, blur_hold = 0, sig_det = 0, sig_hold = 0,
+		       gain_det = 0, gain_hold = 0;
+		for (double b = 0; b <= 24; b += 1) {
+			int det = footage_trial(side, b, 0, 0, &e);
+			if (det && blur_det == b - 1 + (b == 0))
+				blur_det = b;
+			if (det || e < 0.5) {
+				if (blur_hold == b - 1 + (b == 0))
+					blur_hold = b;
+			}
+		}
+		/* noise: every one of 5 trials detected */
+		for (double sg = 4; sg <= 64; sg += 4) {
+			int all = 1, hold_all = 1;
+			fl_rng = 7;
+			for (int k = 0; k < 5; k++) {
+				all &= footage_trial(side, 0, 0, sg, &e);
+				hold_all &= e < 0.5;
+			}
+			if (all && sig_det == sg - 4)
+				sig_det = sg;
+			if ((all || hold_all) && sig_hold == sg - 4)
+				sig_hold = sg;
+		}
+		for (double g = 10; g <= 250; g += 10) {
+			int det = footage_trial(side, 0, g, 0, &e);
+			if (det && gain_det == g - 10)
+				gain_det = g;
+			if ((det || e < 0.5) && gain_hold == g - 10)
+				gain_hold = g;
+		}
+		printf("# footage, %.0f px tag (contrast 190 levels): smear up to %.0f px detected, %.0f px "
+		       "held; noise "
+		       "sigma up to %.0f levels detected, %.0f held; a glare spot (sigma side/4) up to +%.0f "
+		       "levels "
+		       "detected, +%.0f held\n",
+		       side, blur_det, blur_hold, sig_det, sig_hold, gain_det, gain_hold);
+		assert_true(blur_det >= 3 && blur_hold >= blur_det);
+		assert_true(sig_det >= 10 && sig_hold >= sig_det);
+		assert_true(gain_det >= 50 && gain_hold > gain_det);
+	}
+}
+
 /* ---- colour ---- */
+
+/* A red cap (radius 9 px) on a white disc with glare over one side (+g
+ * levels, white light, clipped): the thresholded blob loses the washed part
+ * and its centroid moves away by more than 1 px; the disc fit with washed
+ * pixels counted as cap stays within 0.35 px.  A cap hidden under a grey
+ * patch scores low. */
+static void test_cap_fit_glare(void **state)
+{
+	int w = 80, h = 80, stride = 3 * 80, area[4] = {0, 0, 80, 80};
+	double cu = 40.3, cv = 39.6, R = 9, c[3] = {220, 40, 40};
+	uint8_t *rgb = malloc((size_t)stride * h);
+	wl_hsv_range red = {1, {170, 120, 80}, {8, 255, 255}};
+	wl_blobber *b = NULL;
+	wl_blob blobs[8];
+	wl_capfit f;
+	double mean[3];
+	int nb;
+	(void)state;
+	for (int y = 0; y < h; y++)
+		for (int x = 0; x < w; x++) {
+			double in = 0, g = 170 * exp(-((x - 50.0) * (x - 50.0) + (y - 36.0) * (y - 36.0)) /
+			                             (2 * 6.0 * 6.0));
+			for (int j = 0; j < 4; j++)
+				for (int i = 0; i < 4; i++) {
+					double dx = x - 0.5 + (i + 0.5) / 4 - cu,
+					       dy = y - 0.5 + (j + 0.5) / 4 - cv;
+					in += dx * dx + dy * dy <= R * R;
+				}
+			in /= 16;
+			for (int k = 0; k < 3; k++) {
+				double v = in * c[k] + (1 - in) * 235 + g;
+				rgb[(size_t)y * stride + 3 * x + k] = (uint8_t)(v > 255 ? 255 : v + 0.5);
+			}
+		}
+	assert_int_equal(wl_blobber_create(&b, NULL), WL_OK);
+	nb = wl_blobber_find(b, rgb, stride, 0, 0, w, h, &red, 12, 100000, blobs, 8);
+	assert_true(nb >= 1);
+	printf("cap under glare: blob %.0f px of %.0f, centroid %.2f px off\n", blobs[0].area_px,
+	       WL_PI * R * R, hypot(blobs[0].cu - cu, blobs[0].cv - cv));
+	assert_true(hypot(blobs[0].cu - cu, blobs[0].cv - cv) > 1.0);
+	/* the cap's colour as measured on a clear frame */
+	mean[0] = 218;
+	mean[1] = 42;
+	mean[2] = 42;
+	assert_int_equal(wl_cap_fit(rgb, stride, area, &red, mean, R, blobs[0].cu, blobs[0].cv, R, &f), 1);
+	printf("cap fit: %.2f px off, score %.2f (cap %.2f, washed %.2f, other %.2f, unknown %.2f)\n",
+	       hypot(f.cu - cu, f.cv - cv), f.score, f.cap_frac, f.washed_frac, f.other_frac, f.unknown_frac);
+	assert_true(hypot(f.cu - cu, f.cv - cv) < 0.35);
+	assert_true(f.score > 0.8 && f.washed_frac > 0.1);
+	/* a grey patch over the cap: nothing of it is left */
+	for (int y = 20; y < 60; y++)
+		for (int x = 20; x < 60; x++)
+			for (int k = 0; k < 3; k++)
+				rgb[(size_t)y * stride + 3 * x + k] = 120;
+	if (wl_cap_fit(rgb, stride, area, &red, mean, R, cu, cv, 3, &f))
+		printf("cap fit, covered: score %.2f\n", f.score);
+	assert_true(f.score < 0.2);
+	wl_blobber_destroy(b);
+	free(rgb);
+}
 
 static void test_hsv_matches_opencv(void **state)
 {
@@ -676,7 +985,7 @@ static void test_tracker_edge_and_unseen(void **state)
 	wl_calib cal;
 	wl_tracker *tr = NULL;
 	uint8_t *img;
-	int last_ok = -1;
+	int last_ok = -1, last_held = -1;
 	(void)state;
 	make_scene(&sc, 0);
 	make_cal(&sc, &cal);
@@ -706,14 +1015,29 @@ static void test_tracker_edge_and_unseen(void **state)
 		assert_false(obs[0].ok);
 		assert_true(isnan(obs[0].x_m));
 		assert_int_equal(obs[1].id, 9);
-		if (obs[1].ok) {
+		if (obs[1].ok && !obs[1].held) {
 			last_ok = f;
-			/* accepted only while the whole tag is inside the frame */
+			/* detections accepted only while the whole tag is inside the frame */
 			assert_true(obs[1].u_px - 0.5 * obs[1].size_px > 2.0);
+		} else if (obs[1].ok) {
+			/* then held from the part still in view: where the robot is */
+			double e = 1000 * hypot(obs[1].x_m - rb[0].x, obs[1].y_m - rb[0].y);
+			printf("# frame %d: held at u %.1f px (score %.2f), %.2f mm from the truth\n", f,
+			       obs[1].u_px, obs[1].hold_score, e);
+			assert_true(e < 1.0);
+			last_held = f;
 		}
 	}
 	assert_true(last_ok >= 0 && last_ok < 29);
+	assert_true(last_held < 0 || last_held > last_ok);
 	assert_true(wl_tracker_stats(tr)->rejected_edge > 0);
+	/* 4 (never found) is out of view; 9, after leaving, is searched or out of view */
+	assert_int_equal(wl_tracker_stats(tr)->lost_rows,
+	                 wl_tracker_stats(tr)->lost_searched + wl_tracker_stats(tr)->lost_out_of_view);
+	printf("# lost rows %lld: %lld searched, %lld out of view\n",
+	       (long long)wl_tracker_stats(tr)->lost_rows, (long long)wl_tracker_stats(tr)->lost_searched,
+	       (long long)wl_tracker_stats(tr)->lost_out_of_view);
+	assert_true(wl_tracker_stats(tr)->lost_out_of_view >= 15); /* 4 between full-frame searches */
 	wl_tracker_destroy(tr);
 	free(img);
 }
@@ -831,9 +1155,12 @@ int main(void)
 	        cmocka_unit_test(test_tag_window_and_rotation),
 	        cmocka_unit_test(test_tag_small_sizes),
 	        cmocka_unit_test(test_tag_families),
+	        cmocka_unit_test(test_tag_hold_fit),
+	        cmocka_unit_test(test_footage_limits),
 	        cmocka_unit_test(test_hsv_matches_opencv),
 	        cmocka_unit_test(test_hsv_wrap),
 	        cmocka_unit_test(test_blob_centroid),
+	        cmocka_unit_test(test_cap_fit_glare),
 	        cmocka_unit_test(test_hsv_stats),
 	        cmocka_unit_test(test_ids_and_robots),
 	        cmocka_unit_test(test_tracker_ccw),

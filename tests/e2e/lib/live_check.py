@@ -9,9 +9,11 @@ POSES.csv comes from live_client.py.  Checked:
   - each kind (json, binary): one session; seq 0, 1, 2, ... in arrival
     order (every packet arrived, in order); frames never go back;
   - every (frame, id) row of OFFLINE_RAW.csv has its JSON packet with the
-    same status and t_s, and positions within --pos-mm of offline;
+    same status (ok, held or lost) and t_s, and positions (ok and held)
+    within --pos-mm of offline;
   - binary packets say what the JSON ones say (float32: 1 um, 1e-5 rad);
-  - LIVE_RAW.csv has offline's rows, positions within --pos-mm;
+  - LIVE_RAW.csv has offline's rows, positions within --pos-mm, the same
+    t_detect_s (rolling shutter) within 2 us;
   - with --truth: the filter's speed, after each robot's first 0.5 s,
     against the renderer's true speed (central differences of the truth),
     RMS error <= --speed-mps.
@@ -51,7 +53,7 @@ if a.raw_only:
         if o is None or o["status"] != r["status"] or abs(f(o["t_s"]) - f(r["t_s"])) > 2e-6:
             bad.append(f"{a.raw_only}: frame {r['frame']} id {r['id']}: not offline's row")
             break
-        if r["status"] == "ok":
+        if r["status"] in ("ok", "held"):
             worst = max(worst, math.hypot(f(r["x_m"]) - f(o["x_m"]), f(r["y_m"]) - f(o["y_m"])) * 1e3)
     if len(rows) < a.min_rows:
         bad.append(f"{a.raw_only}: {len(rows)} rows, fewer than {a.min_rows}")
@@ -90,7 +92,7 @@ for key, o in off.items():
         continue
     if abs(f(p["t_s"]) - f(o["t_s"])) > 2e-6:
         bad.append(f"frame {key[0]}: t_s {p['t_s']} != offline {o['t_s']}")
-    if o["status"] == "ok":
+    if o["status"] in ("ok", "held"):
         d = math.hypot(f(p["x_m"]) - f(o["x_m"]), f(p["y_m"]) - f(o["y_m"])) * 1e3
         worst = max(worst, d)
 if worst > a.pos_mm:
@@ -128,8 +130,12 @@ if a.live_raw:
         if r is None or r["status"] != o["status"]:
             bad.append(f"live RAW.csv: frame {key[0]} id {key[1]} missing or of another status")
             break
-        if o["status"] == "ok":
+        if o["status"] in ("ok", "held"):
             w2 = max(w2, math.hypot(f(r["x_m"]) - f(o["x_m"]), f(r["y_m"]) - f(o["y_m"])) * 1e3)
+            if abs(f(r["t_detect_s"]) - f(o["t_detect_s"])) > 2e-6:
+                bad.append(f"live RAW.csv: frame {key[0]} id {key[1]}: t_detect_s {r['t_detect_s']} != "
+                           f"offline {o['t_detect_s']}")
+                break
     if w2 > a.pos_mm:
         bad.append(f"live RAW.csv: largest position difference {w2:.4f} mm > {a.pos_mm} mm")
     if len(lr) != len(off):

@@ -20,7 +20,7 @@ a = ap.parse_args()
 
 raw = list(csv.DictReader(open(a.raw)))
 want = ["t_s", "frame", "id", "u_px", "v_px", "x_m", "y_m", "heading_rad", "status", "margin", "size_px",
-        "heading_source"]
+        "heading_source", "hold_score", "t_detect_s"]
 hdr = open(a.raw).readline().strip().split(",")
 bad = []
 if hdr != want:
