@@ -190,6 +190,71 @@ enum {
 double wl_pose_refine(wl_camera *cam, const double *xyz, const double *uv, const int *used, int n,
                       unsigned flags);
 
+/* ---- the camera fit shared by every route ---------------------------- */
+
+/* The camera's parameters as one vector, in this order: the rotation as a
+ * Rodrigues vector, the translation (Xc = R·X + t), the focal length fx
+ * (fy keeps its ratio to fx), the principal point, the distortion terms in
+ * the order k1 k2 p1 p2 k3 and the water depth. */
+enum {
+	WL_CP_RX,
+	WL_CP_RY,
+	WL_CP_RZ,
+	WL_CP_TX,
+	WL_CP_TY,
+	WL_CP_TZ,
+	WL_CP_F,
+	WL_CP_CX,
+	WL_CP_CY,
+	WL_CP_K1,
+	WL_CP_K2,
+	WL_CP_P1,
+	WL_CP_P2,
+	WL_CP_K3,
+	WL_CP_WATER,
+	WL_CP_N
+};
+#define WL_CP_POSE 0x3fu /* the six pose parameters as a wl_camfit_opts.free mask */
+#define WL_CP_BIT(k) (1u << (k))
+
+/* "rvec_x_rad" ... "t_z_m", "f_px", "cx_px", "cy_px", "k1", "k2", "p1",
+ * "p2", "k3", "water_depth_m" (the names CAL.json's covariance uses);
+ * wl_camparam_index is the inverse (-1 for an unknown name). */
+const char *wl_camparam_name(int k);
+int wl_camparam_index(const char *name);
+void wl_camparam_get(const wl_camera *cam, double p[WL_CP_N]);
+void wl_camparam_set(wl_camera *cam, const double p[WL_CP_N]);
+
+typedef struct {
+	unsigned free;                /* WL_CP_BIT(k) for each parameter fitted */
+	double height_m, height_sd_m; /* height_sd_m > 0: prior on the camera height above the floor */
+	double assumed_sd[WL_CP_N];   /* a fixed parameter's uncertainty (0: exact), carried into cov */
+	int want_cov;                 /* compute the covariance */
+} wl_camfit_opts;
+
+typedef struct {
+	int ok;
+	double rms_px;   /* RMS reprojection error of the used points */
+	double sigma_px; /* residual standard deviation, sqrt(SSR / (2n - p)) */
+	int dof;         /* residuals minus fitted parameters */
+	int n_params;    /* parameters in cov: the fitted ones, then the assumed ones */
+	int param[WL_CP_N];
+	double cov[WL_CP_N * WL_CP_N]; /* n_params x n_params, row-major, in the units of the names */
+} wl_camfit_result;
+
+/* Levenberg-Marquardt on the reprojection error of xyz (n×3, tank metres)
+ * against uv (n×2, observed pixels, distortion included) over the
+ * parameters in o->free, starting from cam; points with used[i] == 0 are
+ * skipped (used may be NULL).  Projects through the water layer when
+ * cam->water_depth_m > 0.  With o->height_sd_m > 0 the camera height is
+ * pulled toward o->height_m with that standard deviation.  With
+ * o->want_cov, res receives the covariance: σ²(JᵀJ)⁻¹ of the fitted
+ * parameters (σ the residual spread), joined with the assumed ones (see
+ * camfit.c).  Returns the RMS in pixels, or a negative value when the fit
+ * is impossible (a point behind the camera, too few points). */
+double wl_camfit(wl_camera *cam, const double *xyz, const double *uv, const int *used, int n,
+                 const wl_camfit_opts *o, wl_camfit_result *res);
+
 /* Rotation matrix <-> Rodrigues vector. */
 void wl_rodrigues(const double r[3], double R[9]);
 void wl_rodrigues_inv(const double R[9], double r[3]);
