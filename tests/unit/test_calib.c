@@ -608,7 +608,7 @@ static void test_distorted_lens(void **state)
 	wl_calib_opts o;
 	wl_calib_report rep;
 	wl_err err;
-	double max_lens, max_none;
+	double max_lens, max_none, max_from_points;
 	int n;
 	(void)state;
 	make_camera(&cam, 20, 1400);
@@ -623,14 +623,23 @@ static void test_distorted_lens(void **state)
 	assert_true(max_lens < 2.0);
 	o.lens = NULL;
 	o.hfov_deg = 2 * atan(960.0 / 1400) / DEG;
+	o.no_distortion = 1;
 	if (wl_calib_solve(pts, n, &o, &cal, &rep, &err) == WL_OK) {
 		mapping_error_mm(&cal, &cam, 0, 0, &max_none);
 		assert_true(max_none > 10 * max_lens);
 	} else {
 		max_none = NAN;
 	}
-	print_message("distorted lens: floor max %.2f mm with the lens, %.1f mm without\n", max_lens,
-	              max_none);
+	/* the same points without the lens: the distortion comes from the
+	 * points themselves (chosen by leave-one-out residual) */
+	o.no_distortion = 0;
+	assert_int_equal(wl_calib_solve(pts, n, &o, &cal, &rep, &err), WL_OK);
+	mapping_error_mm(&cal, &cam, 0, 0, &max_from_points);
+	print_message("distorted lens: floor max %.2f mm with the lens, %.1f mm ignored, %.2f mm from the "
+	              "points (%s)\n",
+	              max_lens, max_none, max_from_points, rep.distortion_note);
+	assert_true(strcmp(cal.distortion_model, "none") != 0);
+	assert_true(max_from_points < 2.0);
 }
 
 int main(void)
