@@ -109,6 +109,19 @@ static void fill_calib(wl_calib *cal)
 	cal->points[0].residual_px = 0.25;
 	cal->points[0].residual_mm = NAN;
 	cal->points[0].used = 1;
+	snprintf(cal->route, sizeof cal->route, "camera_height");
+	cal->n_cov = 3;
+	cal->cov_param[0] = WL_CP_TZ;
+	cal->cov_param[1] = WL_CP_F;
+	cal->cov_param[2] = WL_CP_CX;
+	{
+		static const double c[9] = {1e-4, 0.05, -2e-3, 0.05, 30.0, 0.1, -2e-3, 0.1, 1474.56};
+		memcpy(cal->cov, c, sizeof c);
+	}
+	cal->plane_height_sd_m = 0.002;
+	cal->camera_height_sd_m = 0.01;
+	cal->principal_assumed = 1;
+	cal->principal_sd_px = 38.4;
 }
 
 static void test_calfile_roundtrip(void **state)
@@ -132,6 +145,14 @@ static void test_calfile_roundtrip(void **state)
 		assert_true(fabs(a.cam.R[i] - b.cam.R[i]) < 1e-15);
 	}
 	assert_true(fabs(b.plane_height_m - 0.25) < 1e-15);
+	/* issue 13's keys: route, covariance with named parameters, tolerances */
+	assert_string_equal(b.route, "camera_height");
+	assert_int_equal(b.n_cov, 3);
+	assert_int_equal(b.cov_param[2], WL_CP_CX);
+	for (int i = 0; i < 9; i++)
+		assert_true(fabs(a.cov[i] - b.cov[i]) < 1e-15);
+	assert_true(fabs(b.plane_height_sd_m - 0.002) < 1e-15 && fabs(b.camera_height_sd_m - 0.01) < 1e-15);
+	assert_true(b.principal_assumed && fabs(b.principal_sd_px - 38.4) < 1e-12);
 	assert_true(wl_calib_pixel_to_plane(&a, 700, 300, 0.25, &x0, &y0));
 	assert_true(wl_calib_pixel_to_plane(&b, 700, 300, 0.25, &x1, &y1));
 	assert_true(fabs(x0 - x1) < 1e-12 && fabs(y0 - y1) < 1e-12);
@@ -155,6 +176,8 @@ static void test_calfile_validation(void **state)
 	        {"\"camera_position_m\":\t[", "\"camera_position_m\": [5, ", "'camera_position_m'"},
 	        {"\"tank_outline_m\"", "\"outline\"", "'tank_outline_m'"},
 	        {"\"plane_height_m\"", "\"plane_height\"", "'plane_height_m'"},
+	        {"\"f_px\"", "\"focal\"", "'covariance.parameters'"},
+	        {"\"tolerances\":\t{", "\"tolerances\": 3, \"x\": {", "'tolerances'"},
 	};
 	wl_calib a, b;
 	wl_err err;
