@@ -31,7 +31,13 @@ static const char usage_text[] =
         "  --lens FILE          LENS.json from 'wakeline lens' (intrinsics and distortion)\n"
         "  --hfov-deg A         horizontal field of view, when neither the lens nor the view\n"
         "                       gives the focal length\n"
+        "  --camera-height-m H  the lens's height above the floor (tape measure): fixes the\n"
+        "                       focal length of a view that looks straight down\n"
+        "  --camera-height-tol-m T  its tolerance (default 0.01)\n"
         "  --plane-height-m H   height of the robots' marker plane above the floor (default 0)\n"
+        "  --plane-height-tol-m T   its tolerance, recorded for uncertainty budgets (default 0.002)\n"
+        "  --water-depth-tol-m T    tolerance of --water-depth-m (default 0.003)\n"
+        "  --no-distortion      do not estimate lens distortion from the markers\n"
         "  --water-depth-m D    the floor markers lie under D metres of still water\n"
         "  --water-index N      refractive index of the water (default 1.333)\n"
         "  --family NAME        tag family (default tag36h11)\n"
@@ -41,14 +47,17 @@ static const char usage_text[] =
         "  -q, --quiet          no progress line\n"
         "  -h, --help           this text\n"
         "\n"
-        "Intrinsics come from --lens, else from the markers when the view is oblique\n"
-        "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
+        "Routes to the focal length: --lens; markers at two or more heights (z_m in the\n"
+        "layout, e.g. one on a block: also fixes the principal point); --camera-height-m;\n"
+        "an oblique view; --hfov-deg.  Without --lens, distortion is estimated from the\n"
+        "markers when they cover the image well.  The quality report goes to standard output.\n"
         "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	const char *source, *layout, *points, *out, *lens, *family, *tank;
 	double hfov_deg, plane_m, water_m, water_index, at_s, span_s;
-	int quiet;
+	double cam_h_m, cam_h_tol_m, plane_tol_m, water_tol_m;
+	int quiet, no_distortion;
 } options;
 
 typedef struct {
@@ -299,6 +308,16 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 		       cal->cam.K[0]);
 	if (rep->focal_determined && strcmp(cal->intrinsics_source, "homography"))
 		printf("  (the homography alone gives f %.1f px)\n", rep->focal_from_h_px);
+	printf("  %s\n", rep->route_note);
+	if (cal->principal_assumed && isfinite(cal->principal_offset_mm_per_m))
+		printf("  principal point: assumed at (%.1f, %.1f) px, +- %.0f px: positions on a plane h "
+		       "above "
+		       "the floor may be offset by up to h x %.1f mm/m (%.2f mm at the plane height %.3f m); "
+		       "radii and distances are not affected; a marker raised on a block fixes it\n",
+		       cal->cam.K[2], cal->cam.K[5], cal->principal_sd_px, cal->principal_offset_mm_per_m,
+		       rep->principal_offset_mm, cal->plane_height_m);
+	if (rep->distortion_note[0])
+		printf("  %s\n", rep->distortion_note);
 	printf("  camera: %.3f m above the floor, tilted %.1f deg from nadir, over (%.3f, %.3f) m\n", C[2],
 	       rep->tilt_deg, C[0], C[1]);
 	if (cal->cam.water_depth_m > 0)
@@ -330,6 +349,11 @@ static int parse_args(int argc, char **argv, options *op)
 	        {"tank", required_argument, NULL, 't'},
 	        {"quiet", no_argument, NULL, 'q'},
 	        {"help", no_argument, NULL, 'h'},
+	        {"camera-height-m", required_argument, NULL, 'H'},
+	        {"camera-height-tol-m", required_argument, NULL, 'T'},
+	        {"plane-height-tol-m", required_argument, NULL, 'Z'},
+	        {"water-depth-tol-m", required_argument, NULL, 'W'},
+	        {"no-distortion", no_argument, NULL, 'D'},
 	        {NULL, 0, NULL, 0},
 	};
 	int c;
@@ -387,6 +411,25 @@ static int parse_args(int argc, char **argv, options *op)
 			num = &op->span_s;
 			name = "--span";
 			break;
+		case 'H':
+			num = &op->cam_h_m;
+			name = "--camera-height-m";
+			break;
+		case 'T':
+			num = &op->cam_h_tol_m;
+			name = "--camera-height-tol-m";
+			break;
+		case 'Z':
+			num = &op->plane_tol_m;
+			name = "--plane-height-tol-m";
+			break;
+		case 'W':
+			num = &op->water_tol_m;
+			name = "--water-depth-tol-m";
+			break;
+		case 'D':
+			op->no_distortion = 1;
+			break;
 		case 'h':
 			fputs(usage_text, stdout);
 			return -1;
@@ -408,6 +451,10 @@ static int parse_args(int argc, char **argv, options *op)
 	if (op->water_m < 0 || op->water_index < 1 || op->water_index > 3)
 		return cli_usage_error("calibrate",
 		                       "--water-depth-m must be >= 0 and --water-index in [1, 3]");
+	if (op->cam_h_m < 0 || op->cam_h_tol_m < 0 || op->plane_tol_m < 0 || op->water_tol_m < 0)
+		return cli_usage_error("calibrate", "heights and tolerances must be >= 0");
+	if (op->cam_h_tol_m > 0 && !(op->cam_h_m > 0))
+		return cli_usage_error("calibrate", "--camera-height-tol-m needs --camera-height-m");
 	if (op->span_s <= 0 || op->at_s < 0)
 		return cli_usage_error("calibrate", "--at must be >= 0 and --span > 0");
 	return 0;
@@ -465,6 +512,11 @@ int cmd_calibrate(int argc, char **argv)
 	co.water_index = op.water_index;
 	co.plane_height_m = op.plane_m;
 	co.rotation_deg = rot;
+	co.camera_height_m = op.cam_h_m;
+	co.camera_height_sd_m = op.cam_h_tol_m;
+	co.plane_height_sd_m = op.plane_tol_m;
+	co.water_depth_sd_m = op.water_tol_m;
+	co.no_distortion = op.no_distortion;
 	if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
 		for (int i = 0; i < rep.n_warn; i++)
 			cli_warn("calibrate", "%s", rep.warn[i]);
