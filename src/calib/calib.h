@@ -60,6 +60,7 @@ void wl_camparam_set(wl_camera *cam, const double p[WL_CP_N]);
 typedef struct {
 	unsigned free;                /* WL_CP_BIT(k) for each parameter fitted */
 	double height_m, height_sd_m; /* height_sd_m > 0: prior on the camera height above the floor */
+	double height_cov_sd_m;       /* > 0: the prior's deviation in the covariance (default height_sd_m) */
 	double assumed_sd[WL_CP_N];   /* a fixed parameter's uncertainty (0: exact), carried into cov */
 	int want_cov;                 /* compute the covariance */
 } wl_camfit_opts;
@@ -166,14 +167,16 @@ typedef struct {
 	int displayed, rotation_deg;
 	double outlier_px; /* leave-one-out threshold (default 3 px when 0) */
 	/* what the lab measured, and how well (standard uncertainties; 0: default) */
-	double camera_height_m;    /* > 0: the lens's height above the floor (tape) */
-	double camera_height_sd_m; /* its tolerance (default 0.01 m) */
-	double plane_height_sd_m;  /* tolerance of plane_height_m, recorded (default 0.002 m) */
-	double water_depth_sd_m;   /* tolerance of water_depth_m (default 0.003 m) */
-	double principal_sd_px;    /* an assumed principal point's uncertainty (default 2% of the width) */
-	int no_distortion;         /* 1: do not estimate distortion from the points */
-	const char *height_route;  /* route name when camera_height_m came from elsewhere
-	                            * ("robot_tags"); NULL: the tape measure */
+	double camera_height_m;        /* > 0: the lens's height above the floor (tape) */
+	double camera_height_sd_m;     /* its tolerance (default 0.01 m) */
+	double camera_height_fit_sd_m; /* > 0: weigh the height by this in the fit, and by
+	                                * camera_height_sd_m in the covariance only */
+	double plane_height_sd_m;      /* tolerance of plane_height_m, recorded (default 0.002 m) */
+	double water_depth_sd_m;       /* tolerance of water_depth_m (default 0.003 m) */
+	double principal_sd_px;   /* an assumed principal point's uncertainty (default 2% of the width) */
+	int no_distortion;        /* 1: do not estimate distortion from the points */
+	const char *height_route; /* route name when camera_height_m came from elsewhere
+	                           * ("robot_tags"); NULL: the tape measure */
 } wl_calib_opts;
 
 /* Routes (wl_calib.route): where the focal length and principal point came
@@ -226,6 +229,39 @@ typedef struct {
  * used as 3-D points.  cal is initialised here; warnings go to rep. */
 wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *opts, wl_calib *cal,
                          wl_calib_report *rep, wl_err *err);
+
+/* ---- the camera height from the robots' tags ------------------------ */
+
+/* One sighting of a robot's tag in a frame: its four corners (pixels in
+ * the calibration's orientation, any order around the square), the height
+ * of the tag's plane above the floor and the printed side of its black
+ * square. */
+typedef struct {
+	double p[4][2];
+	double plane_height_m;
+	double size_m;
+} wl_tag_sighting;
+
+typedef struct {
+	int n_sightings, n_used; /* given, and kept after the outlier cut */
+	double height_m;         /* the camera height the tags imply */
+	double sd_m;             /* its standard uncertainty, all sources */
+	double sd_stat_m;        /* from the spread of the sightings (standard error) */
+	double sd_plane_m;       /* from the plane height's tolerance */
+	double sd_size_m;        /* from the printed size's tolerance */
+	double plane_scale;      /* tag side on its plane / the same pixels on the floor (1 - h/Z) */
+} wl_tagscale;
+
+/* Calibrates as wl_calib_solve, with the camera height measured from the
+ * robots' tags: a tag of known printed size seen on a plane of known height
+ * gives the scale between that plane and the floor, (Z - h) / Z, hence the
+ * camera height Z; averaged over the sightings of a run.  The height then
+ * enters the fit as for a tape-measured one (route "robot_tags").  size_sd_m
+ * is the printed size's tolerance (0: 0.2 mm).  WL_ECALIB when fewer than 10
+ * sightings are usable or they do not determine the height. */
+wl_status wl_calib_solve_tags(const wl_calib_point *pts, int n, const wl_calib_opts *opts,
+                              const wl_tag_sighting *s, int ns, double size_sd_m, wl_calib *cal,
+                              wl_calib_report *rep, wl_tagscale *ts, wl_err *err);
 
 /* ---- input tables and markers --------------------------------------- */
 

@@ -87,6 +87,7 @@ typedef struct {
 	int n, m_px, m; /* points, pixel residuals, all residuals */
 	const wl_camfit_opts *o;
 	double w_px;                   /* weight of a pixel residual (1 / sigma_px) */
+	double height_sd;              /* the prior's deviation in use */
 	int np, idx[WL_CP_N];          /* fitted parameters */
 	double full[WL_CP_N];          /* every parameter (fixed ones at their values) */
 	double *r, *rp, *rm, *J, *JtJ; /* m; m; m; WL_CP_N x m; WL_CP_N^2 */
@@ -125,10 +126,10 @@ static int residuals(const fit *F, const double *p, double *r)
 		r[k++] = F->w_px * (u - F->uv[2 * i]);
 		r[k++] = F->w_px * (v - F->uv[2 * i + 1]);
 	}
-	if (F->o && F->o->height_sd_m > 0) {
+	if (F->height_sd > 0) {
 		double C[3];
 		wl_camera_position(&cam, C);
-		r[k++] = (C[2] - F->o->height_m) / F->o->height_sd_m;
+		r[k++] = (C[2] - F->o->height_m) / F->height_sd;
 	}
 	return 1;
 }
@@ -322,6 +323,7 @@ double wl_camfit(wl_camera *cam, const double *xyz, const double *uv, const int 
 	F.o = o;
 	F.m_px = 2 * n_used;
 	F.m = F.m_px + prior;
+	F.height_sd = o->height_sd_m;
 	for (int k = 0; k < WL_CP_N; k++)
 		if (o->free & (1u << k))
 			F.idx[F.np++] = k;
@@ -359,6 +361,8 @@ double wl_camfit(wl_camera *cam, const double *xyz, const double *uv, const int 
 	if (o->want_cov) {
 		double s = isfinite(res->sigma_px) ? fmax(res->sigma_px, 0.02) : 0.5;
 		F.w_px = 1 / s;
+		if (prior && o->height_cov_sd_m > 0)
+			F.height_sd = o->height_cov_sd_m;
 		if (residuals(&F, F.full, F.r))
 			covariance(&F, res);
 	}

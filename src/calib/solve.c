@@ -35,6 +35,7 @@
 typedef struct {
 	unsigned free;
 	double height_m, height_sd_m; /* height_sd_m > 0: prior */
+	double height_cov_sd_m;       /* > 0: the prior's deviation in the covariance */
 	int principal_assumed;
 	double f_sd_px; /* > 0: f assumed (field of view) with this uncertainty */
 } plan;
@@ -296,6 +297,10 @@ static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opt
 		pl->free |= WL_CP_BIT(WL_CP_F);
 		pl->height_m = o->camera_height_m;
 		pl->height_sd_m = o->camera_height_sd_m > 0 ? o->camera_height_sd_m : HEIGHT_SD_DEFAULT_M;
+		if (o->camera_height_fit_sd_m > 0) {
+			pl->height_cov_sd_m = pl->height_sd_m;
+			pl->height_sd_m = o->camera_height_fit_sd_m;
+		}
 		pl->principal_assumed = 1;
 		return WL_OK;
 	}
@@ -495,6 +500,7 @@ static wl_camfit_opts fit_opts(const plan *pl, unsigned extra)
 	fo.free = pl->free | extra;
 	fo.height_m = pl->height_m;
 	fo.height_sd_m = pl->height_sd_m;
+	fo.height_cov_sd_m = pl->height_cov_sd_m;
 	return fo;
 }
 
@@ -783,7 +789,7 @@ static wl_status solve(work *wk, const wl_calib_point *pts, int n, const wl_cali
 	cal->water_depth_sd_m = o->water_depth_m > 0
 	                                ? (o->water_depth_sd_m > 0 ? o->water_depth_sd_m : WATER_SD_DEFAULT_M)
 	                                : 0;
-	cal->camera_height_sd_m = pl.height_sd_m;
+	cal->camera_height_sd_m = pl.height_cov_sd_m > 0 ? pl.height_cov_sd_m : pl.height_sd_m;
 	cal->camera_height_given_m = pl.height_sd_m > 0 ? pl.height_m : 0;
 	cal->principal_assumed = pl.principal_assumed;
 	cal->principal_sd_px =

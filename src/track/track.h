@@ -48,6 +48,8 @@ typedef struct {
 	double plane_height_m;     /* NaN: the run's default plane */
 	double heading_offset_rad; /* added to the measured heading (mounting) */
 	double body_diameter_m;    /* NaN if unknown; sizes the colour search */
+	double tag_size_m;         /* printed side of the tag's black square; NaN if unknown
+	                            * (calibrate --refine-with measures the camera height with it) */
 	wl_hsv_range front, back;  /* colour mode; back unset: one cap */
 } wl_robot_spec;
 
@@ -88,7 +90,7 @@ wl_status wl_track_parse_ids(const char *s, wl_track_opts *o, wl_err *err);
 int wl_track_parse_hsv(const char *s, int out[3]);
 
 /* Loads ROBOTS.csv: id (required), plane_height_m, heading_offset_rad,
- * body_diameter_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
+ * body_diameter_m, tag_size_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
  * (optional columns; empty cells keep defaults).  Sets restrict_ids. */
 wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err);
 

@@ -119,6 +119,7 @@ static robot *robot_by_id(wl_tracker *tr, int id, int create)
 	spec.id = id;
 	spec.plane_height_m = NAN;
 	spec.body_diameter_m = NAN;
+	spec.tag_size_m = NAN;
 	if (tr->n >= WL_TRACK_MAX_ROBOTS) {
 		if (tr->st.over_limit++ == 0)
 			tr->st.first_over_limit_id = id;
