@@ -37,6 +37,9 @@ static const char usage[] =
         "  --trail TRAIL.png       the first frame with each robot's path\n"
         "  --overlay QC.mp4        the clip with poses, ids, trails and tank outline\n"
         "  --threads N             decoder threads (default: all cores)\n"
+        "  --watch-period-s S      look at the floor markers every S s of the clip (default 0.5)\n"
+        "  --watch-threshold-px P  a marker shift above P px is a camera move (default 0.5)\n"
+        "  --no-watch              do not watch the camera (no re-registration on a move)\n"
         "  -q, --quiet             no progress line\n"
         "  -h, --help              this text\n"
         "\n"
@@ -58,8 +61,18 @@ enum {
 	O_MARGIN,
 	O_TRAIL,
 	O_OVERLAY,
-	O_THREADS
+	O_THREADS,
+	O_WPERIOD,
+	O_WTHRESH,
+	O_NOWATCH
 };
+
+/* warnings from the library go to standard error, one line each */
+static void diag_warn(void *ctx, const char *stage, const char *msg)
+{
+	(void)ctx;
+	cli_warn(stage, "%s", msg);
+}
 
 typedef struct {
 	cli_progress p;
@@ -99,11 +112,16 @@ int cmd_track(int argc, char **argv)
 	                                   {"trail", required_argument, NULL, O_TRAIL},
 	                                   {"overlay", required_argument, NULL, O_OVERLAY},
 	                                   {"threads", required_argument, NULL, O_THREADS},
+	                                   {"watch-period-s", required_argument, NULL, O_WPERIOD},
+	                                   {"watch-threshold-px", required_argument, NULL, O_WTHRESH},
+	                                   {"no-watch", no_argument, NULL, O_NOWATCH},
 	                                   {"quiet", no_argument, NULL, 'q'},
 	                                   {"help", no_argument, NULL, 'h'},
 	                                   {NULL, 0, NULL, 0}};
 	wl_track_opts o;
 	wl_track_run_opts ro;
+	wl_watch_opts wo;
+	wl_diag diag = {diag_warn, NULL, NULL};
 	wl_track_summary sum;
 	wl_calib cal;
 	wl_err err;
@@ -112,6 +130,7 @@ int cmd_track(int argc, char **argv)
 	int quiet = 0, c, rc, margin_set = 0;
 	double d;
 	wl_track_opts_init(&o);
+	wl_watch_opts_init(&wo);
 	memset(&ro, 0, sizeof ro);
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:qh", lo, NULL)) != -1) {
@@ -189,6 +208,17 @@ int cmd_track(int argc, char **argv)
 				return cli_usage_error("track", "--threads '%s': give 0 (all cores) to 64",
 				                       optarg);
 			break;
+		case O_WPERIOD:
+			if (parse_float_opt("--watch-period-s", optarg, 0.01, 1e6, &wo.period_s))
+				return WL_EXIT_USAGE;
+			break;
+		case O_WTHRESH:
+			if (parse_float_opt("--watch-threshold-px", optarg, 0.01, 1000, &wo.threshold_px))
+				return WL_EXIT_USAGE;
+			break;
+		case O_NOWATCH:
+			wo.enabled = 0;
+			break;
 		case 'q':
 			quiet = 1;
 			break;
@@ -229,6 +259,9 @@ int cmd_track(int argc, char **argv)
 	cli_progress_init(&pc.p, quiet);
 	ro.progress = on_progress;
 	ro.progress_ctx = &pc;
+	snprintf(wo.family, sizeof wo.family, "%s", o.family);
+	ro.watch = &wo;
+	ro.diag = &diag;
 	rc = wl_track_run(&ro, &o, &cal, cal_path, &sum, &err);
 	cli_progress_done(&pc.p);
 	wl_calib_release(&cal);
@@ -236,6 +269,13 @@ int cmd_track(int argc, char **argv)
 		return cli_fail("track", &err);
 	if (sum.warning[0])
 		cli_warn("track", "%s", sum.warning);
+	if (!quiet && wo.enabled)
+		printf("%s: camera watch: %d checks in %.3f CPU-s, %d move%s%s\n", ro.raw_path,
+		       sum.camera_checks, sum.camera_watch_cpu_s, sum.camera_moves,
+		       sum.camera_moves == 1 ? "" : "s",
+		       isfinite(sum.suspect_from_t_s)
+		               ? " (poses suspect from a move that could not be registered)"
+		               : "");
 	if (!quiet)
 		printf("%s: %lld frames, %d robots, %lld of %lld rows ok (%.1f%%), %lld full-frame and %lld "
 		       "window "

@@ -42,7 +42,8 @@ typedef struct {
 	wl_decoder *dec;
 	int want_rgb;
 	int64_t damaged;
-	int roi[4]; /* what to copy next (set by the tracking thread) */
+	int roi[4];                          /* what to copy next (set by the tracking thread) */
+	double watch_period_s, watch_next_t; /* the camera watch wants a whole frame then */
 } queue;
 
 static void copy_plane(uint8_t *dst, int dst_stride, const uint8_t *src, int stride, int row_bytes, int h)
@@ -85,6 +86,11 @@ static void *decode_main(void *arg)
 			pthread_cond_broadcast(&q->cv);
 			pthread_mutex_unlock(&q->m);
 			break;
+		}
+		if (q->watch_period_s > 0 && f->t_s + 1e-9 >= q->watch_next_t) {
+			/* a frame for the camera watch: whole (it looks all over) */
+			s->roi[2] = s->roi[3] = 0;
+			q->watch_next_t = f->t_s + q->watch_period_s;
 		}
 		if (s->roi[2] > 0) {
 			/* the region only, at its place in the buffer (stride w) */
@@ -167,6 +173,21 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 	return WL_OK;
 }
 
+/* The camera watch's hook: on a whole frame when a check is due, look at
+ * the floor markers; a moved camera is handed to the tracker. */
+static wl_status watch_hook(wl_watch *watch, wl_tracker *tr, const slot *s, wl_err *err)
+{
+	int moved = 0;
+	wl_status st;
+	if (!watch || s->roi[2] > 0 || s->corrupt || !wl_watch_due(watch, s->t_s))
+		return WL_OK;
+	if ((st = wl_watch_frame(watch, s->luma, s->w, s->t_s, s->index, &moved, err)) != WL_OK)
+		return st;
+	if (moved)
+		wl_tracker_set_camera(tr, wl_watch_camera(watch));
+	return WL_OK;
+}
+
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
                        const char *cal_path, wl_track_summary *sum, wl_err *err)
 {
@@ -174,6 +195,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	wl_tracker *tr = NULL;
 	wl_raw_writer *raw = NULL;
 	wl_qc *qc = NULL;
+	wl_watch *watch = NULL;
 	queue q;
 	pthread_t th;
 	int started = 0, want_rgb, nq;
@@ -181,6 +203,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	const wl_video_info *info;
 	wl_status st;
 	memset(sum, 0, sizeof *sum);
+	sum->suspect_from_t_s = NAN;
 	memset(&q, 0, sizeof q);
 	pthread_mutex_init(&q.m, NULL);
 	pthread_cond_init(&q.cv, NULL);
@@ -197,6 +220,13 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		                       info->rotation_deg, info->fps_hint, &qc, err)) != WL_OK)
 			goto out;
 	}
+	if (ro->watch && ro->watch->enabled) {
+		wl_watch_opts wo = *ro->watch;
+		wo.diag = ro->diag;
+		if ((st = wl_watch_create(&wo, cal, info->width_px, info->height_px, info->rotation_deg,
+		                          &watch, err)) != WL_OK)
+			goto out;
+	}
 	if ((st = wl_raw_open(ro->raw_path, &raw, err)) != WL_OK)
 		goto out;
 	nq = ro->queue_frames >= 2 ? ro->queue_frames : 4;
@@ -204,6 +234,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	q.dec = dec;
 	q.want_rgb = want_rgb;
+	q.watch_period_s = watch ? ro->watch->period_s : 0;
 	/* frames already queued (or being decoded) when a new region is set */
 	lookahead_s = (nq + 2) / (info->fps_hint > 0 ? info->fps_hint : 30.0);
 	if (pthread_create(&th, NULL, decode_main, &q) != 0) {
@@ -227,6 +258,8 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		img.t_s = s->t_s;
 		img.index = s->index;
 		memcpy(img.roi, s->roi, sizeof img.roi);
+		if ((st = watch_hook(watch, tr, s, err)) != WL_OK)
+			goto out;
 		if ((st = wl_tracker_frame(tr, &img, &obs, &n, err)) != WL_OK)
 			goto out;
 		wl_raw_put(raw, s->t_s, s->index, obs, n);
@@ -268,6 +301,14 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	}
 	raw = NULL;
+	if (watch) {
+		const wl_camera_move *mv;
+		sum->camera_checks = wl_watch_checks(watch);
+		sum->camera_watch_cpu_s = wl_watch_cpu_s(watch);
+		sum->camera_moves = wl_watch_moves(watch, &mv, &sum->suspect_from_t_s);
+	}
+	if (ro->watch && (st = wl_watch_write_sidecar(watch, ro->raw_path, err)) != WL_OK)
+		goto out;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
 	if (sum->stats.over_limit > 0) {
@@ -305,6 +346,7 @@ out:
 	}
 	wl_raw_abort(raw);
 	wl_qc_destroy(qc);
+	wl_watch_destroy(watch);
 	wl_tracker_destroy(tr);
 	wl_decoder_destroy(dec);
 	free_slots(&q);

@@ -30,7 +30,9 @@
 #include <stdint.h>
 
 #include "calib/calib.h"
+#include "core/diag.h"
 #include "core/err.h"
+#include "track/watch.h"
 
 #define WL_TRACK_MAX_ROBOTS 64
 
@@ -158,6 +160,10 @@ int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4]);
 const wl_track_stats *wl_tracker_stats(const wl_tracker *tr);
 void wl_tracker_destroy(wl_tracker *tr);
 
+/* Replaces the camera model (the camera watch registered a moved camera):
+ * the tank frame and the intrinsics stay, poses from now on use cam. */
+void wl_tracker_set_camera(wl_tracker *tr, const wl_camera *cam);
+
 /* Maps a coded pixel to the plane z_m through the calibration (orientation
  * handled).  Returns 0 outside the model. */
 int wl_tracker_pixel_to_plane(const wl_tracker *tr, double u, double v, double z_m, double *x_m, double *y_m);
@@ -256,6 +262,8 @@ typedef struct {
 	/* called from the tracking thread after each frame (may be NULL) */
 	void (*progress)(void *ctx, int64_t frames, double t_s, double duration_s);
 	void *progress_ctx;
+	const wl_watch_opts *watch; /* the camera watch (watch.h); NULL or not enabled: none */
+	const wl_diag *diag;        /* warnings (may be NULL) */
 } wl_track_run_opts;
 
 typedef struct {
@@ -263,7 +271,11 @@ typedef struct {
 	int n_robots;
 	int64_t damaged; /* frames the decoder flagged */
 	wl_track_stats stats;
-	char warning[256]; /* empty, or one line for the user */
+	char warning[256];         /* empty, or one line for the user */
+	int camera_checks;         /* camera watch: checks made */
+	double camera_watch_cpu_s; /* CPU time the watch took */
+	int camera_moves;          /* moves seen (registered again or not) */
+	double suspect_from_t_s;   /* poses from here on are suspect; NaN if none */
 } wl_track_summary;
 
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,

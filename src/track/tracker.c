@@ -193,6 +193,11 @@ void wl_tracker_destroy(wl_tracker *tr)
 	free(tr);
 }
 
+void wl_tracker_set_camera(wl_tracker *tr, const wl_camera *cam)
+{
+	tr->cal.cam = *cam;
+}
+
 const wl_track_stats *wl_tracker_stats(const wl_tracker *tr)
 {
 	return &tr->st;
