@@ -155,6 +155,39 @@ wl_status wl_calib_check_clip(const wl_calib *cal, const char *cal_path, int wid
 double wl_calib_camera_height_m(const wl_calib *cal);
 double wl_calib_camera_tilt_deg(const wl_calib *cal);
 
+/* ---- uncertainty: a plane point's tank position vs the calibration ---- */
+
+#define WL_CALIB_JAC_MAX (WL_CP_N + 2)
+
+/* The partial derivatives of a pixel's position on a plane with respect to
+ * the calibration's uncertain inputs: first the parameters of CAL.json's
+ * covariance (in its order, names from wl_camparam_name), then
+ * "plane_height_m" (the plane's height), then "water_depth_m" when there is
+ * water and the covariance does not hold it already.  sd[k] is the input's
+ * own standard uncertainty where it is not in the covariance (the
+ * tolerances of the plane height and water depth), else 0. */
+typedef struct {
+	int n;
+	int n_cov; /* the first n_cov entries follow cal->cov */
+	char name[WL_CALIB_JAC_MAX][24];
+	double dx[WL_CALIB_JAC_MAX], dy[WL_CALIB_JAC_MAX]; /* metres per unit of the input */
+	double sd[WL_CALIB_JAC_MAX];
+} wl_calib_jacobian;
+
+/* Fills J for pixel (u, v) (the calibration's orientation, distortion
+ * included) on the plane z_m, by central differences through the full
+ * camera model (refraction included): the first-order propagation of issue
+ * 12's uncertainty budget is cov(x, y) = Jc C Jcᵀ + Σ_k sd_k² j_k j_kᵀ.
+ * WL_ECALIB when the pixel does not meet the plane. */
+wl_status wl_calib_position_jacobian(const wl_calib *cal, double u, double v, double z_m,
+                                     wl_calib_jacobian *J, wl_err *err);
+
+/* That propagation: the 2×2 covariance [xx, xy, yx, yy] (m²) of the
+ * position of pixel (u, v) on plane z_m from the calibration's covariance
+ * and the tolerances of the plane height and water depth. */
+wl_status wl_calib_position_cov(const wl_calib *cal, double u, double v, double z_m, double cov[4],
+                                wl_err *err);
+
 /* ---- solving: correspondences -> wl_calib -------------------------- */
 
 typedef struct {
