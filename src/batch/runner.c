@@ -1,5 +1,6 @@
 /*
- * runner.c: the resumable job runner (see batch.h).
+ * runner.c: the resumable job runner (see batch.h); the resume rule and the
+ * journal are in resume.c, the worker end of the pipe in worker.c.
  *
  * Each clip runs in its own fork()ed worker, so a crash, a leak or a stuck
  * decoder stays in that clip and memory stays flat however many clips there
@@ -12,7 +13,6 @@
 #define _GNU_SOURCE
 #include "batch/batch.h"
 
-#include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <limits.h>
@@ -23,218 +23,15 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/file.h>
-#include <sys/prctl.h>
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <time.h>
 #include <unistd.h>
 
+#include "batch/batch_priv.h"
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
-
-#define MAX_JOBS 256
-
-static double now_s(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
-}
-
-/* ---- settings hash ---------------------------------------------------- */
-
-static unsigned long long fnv(unsigned long long h, const void *p, size_t n)
-{
-	const unsigned char *b = p;
-	size_t i;
-	for (i = 0; i < n; i++) {
-		h ^= b[i];
-		h *= 1099511628211ULL;
-	}
-	return h;
-}
-
-wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
-                                 char out[17], wl_err *err)
-{
-	unsigned long long h = 1469598103934665603ULL;
-	char num[WL_NUMBUF];
-	char *cal = NULL;
-	size_t len = 0;
-	if (settings)
-		h = fnv(h, settings, strlen(settings) + 1);
-	if (cal_path) {
-		wl_status s = wl_read_file(cal_path, WL_JSON_MAX_BYTES, &cal, &len, err);
-		if (s)
-			return s;
-		h = fnv(h, cal, len);
-		free(cal);
-	}
-	h = fnv(h, "\n", 1);
-	if (isfinite(plane_height_m)) {
-		wl_fmt_g(num, plane_height_m, 17);
-		h = fnv(h, num, strlen(num));
-	}
-	snprintf(out, 17, "%016llx", h);
-	return WL_OK;
-}
-
-/* ---- clip.json -------------------------------------------------------- */
-
-static void utc_now(char *buf, size_t cap)
-{
-	time_t t = time(NULL);
-	struct tm tm;
-	gmtime_r(&t, &tm);
-	strftime(buf, cap, "%Y-%m-%dT%H:%M:%SZ", &tm);
-}
-
-static void mtime_text(const struct stat *st, char *buf, size_t cap)
-{
-	snprintf(buf, cap, "%lld.%09ld", (long long)st->st_mtim.tv_sec, (long)st->st_mtim.tv_nsec);
-}
-
-wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char *settings_hash, int ok,
-                        const char *error, double elapsed_s, wl_err *err)
-{
-	char path[PATH_MAX], buf[64];
-	struct stat st;
-	cJSON *root = cJSON_CreateObject(), *params;
-	wl_status s;
-	size_t i;
-	if (!root)
-		return wl_err_set(err, WL_ENOMEM, "out of memory writing clip.json");
-	cJSON_AddStringToObject(root, "clip", job->clip_rel);
-	cJSON_AddStringToObject(root, "status", ok ? "ok" : "failed");
-	cJSON_AddStringToObject(root, "error", ok ? "" : (error ? error : "failed"));
-	if (stat(job->clip_path, &st) == 0) {
-		cJSON_AddNumberToObject(root, "input_size", (double)st.st_size);
-		mtime_text(&st, buf, sizeof buf);
-		cJSON_AddStringToObject(root, "input_mtime", buf);
-	}
-	cJSON_AddStringToObject(root, "settings_hash", settings_hash ? settings_hash : "");
-	cJSON_AddStringToObject(root, "cal", job->cal_path ? job->cal_path : "");
-	params = cJSON_AddObjectToObject(root, "params");
-	for (i = 0; params && i < job->nparams; i++)
-		cJSON_AddStringToObject(params, job->param_names[i], job->param_values[i]);
-	cJSON_AddNumberToObject(root, "elapsed_s", round(elapsed_s * 1000) / 1000);
-	utc_now(buf, sizeof buf);
-	cJSON_AddStringToObject(root, "finished_utc", buf);
-	snprintf(path, sizeof path, "%s/clip.json", out_dir);
-	s = wl_json_save(path, root, err);
-	cJSON_Delete(root);
-	return s;
-}
-
-/* Complete: clip.json says ok for this very input and these settings, and
- * every output exists and is no older than the input. */
-static int is_complete(const char *out_dir, const wl_batch_job *job, const char *hash,
-                       const char *const *outputs, int *params_differ)
-{
-	char path[PATH_MAX], mt[64];
-	cJSON *root = NULL;
-	const cJSON *params;
-	struct stat in, o;
-	int ok = 0;
-	size_t i;
-	*params_differ = 0;
-	snprintf(path, sizeof path, "%s/clip.json", out_dir);
-	if (stat(job->clip_path, &in) != 0 || wl_json_load(path, &root, NULL) != WL_OK)
-		return 0;
-	mtime_text(&in, mt, sizeof mt);
-	if (strcmp(wl_json_string_or(root, "status", ""), "ok") != 0 ||
-	    wl_json_number_or(root, "input_size", -1) != (double)in.st_size ||
-	    strcmp(wl_json_string_or(root, "input_mtime", ""), mt) != 0 ||
-	    strcmp(wl_json_string_or(root, "settings_hash", ""), hash) != 0)
-		goto out;
-	for (i = 0; outputs && outputs[i]; i++) {
-		snprintf(path, sizeof path, "%s/%s", out_dir, outputs[i]);
-		if (stat(path, &o) != 0 || o.st_mtim.tv_sec < in.st_mtim.tv_sec ||
-		    (o.st_mtim.tv_sec == in.st_mtim.tv_sec && o.st_mtim.tv_nsec < in.st_mtim.tv_nsec))
-			goto out;
-	}
-	ok = 1;
-	params = cJSON_GetObjectItemCaseSensitive(root, "params");
-	if (cJSON_GetArraySize(params) != (int)job->nparams) {
-		*params_differ = 1;
-	} else {
-		for (i = 0; i < job->nparams; i++)
-			if (strcmp(wl_json_string_or(params, job->param_names[i], "\x01"),
-			           job->param_values[i]) != 0)
-				*params_differ = 1;
-	}
-out:
-	cJSON_Delete(root);
-	return ok;
-}
-
-/* Leftovers of a worker that was killed: temporary files of afile. */
-static void remove_stale_tmp(const char *dir)
-{
-	DIR *d = opendir(dir);
-	struct dirent *e;
-	char path[PATH_MAX];
-	if (!d)
-		return;
-	while ((e = readdir(d)))
-		if (e->d_name[0] == '.' && strstr(e->d_name, ".tmp-")) {
-			snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
-			unlink(path);
-		}
-	closedir(d);
-}
-
-/* ---- the journal ------------------------------------------------------ */
-
-static void journal(int fd, const char *event, const char *clip, const char *hash, const char *msg)
-{
-	char line[1024], ts[32];
-	int n;
-	if (fd < 0)
-		return;
-	utc_now(ts, sizeof ts);
-	n = snprintf(line, sizeof line, "%s\t%s\t%s\t%s\t%s\n", ts, event, clip ? clip : "", hash ? hash : "",
-	             msg ? msg : "");
-	if (n >= (int)sizeof line) {
-		n = (int)sizeof line;
-		line[n - 1] = '\n';
-	}
-	/* one write() per line: O_APPEND puts it whole at the end */
-	if (write(fd, line, (size_t)n) < 0) {
-		/* the journal is history only; clip.json decides */
-	}
-}
-
-/* ---- jobs ------------------------------------------------------------- */
-
-typedef struct {
-	wl_batch_job job;
-	char rel[PATH_MAX], clip_path[PATH_MAX], out_dir[PATH_MAX], cal[PATH_MAX];
-	char hash[17];
-	char hash_err[512];
-	const char **names, **values;
-	/* running state */
-	pid_t pid;
-	int fd;
-	char buf[1024];
-	size_t blen;
-	char msg[512];
-	long frames, total;
-	double t0;
-} clipjob;
-
-typedef struct {
-	const wl_batch_opts *o;
-	wl_batch_result *res;
-	clipjob *jobs;
-	size_t njobs;
-	size_t finished;
-	size_t running;
-	long frames_done;
-	double t_start, t_last_ev;
-	int journal_fd;
-} runner;
 
 static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char *msg)
 {
@@ -244,7 +41,7 @@ static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char 
 	long frames = r->frames_done;
 	if (!r->o->on_event)
 		return;
-	el = now_s() - r->t_start;
+	el = batch_now_s() - r->t_start;
 	for (i = 0; i < r->njobs; i++) {
 		if (r->jobs[i].pid > 0) {
 			frames += r->jobs[i].frames;
@@ -272,59 +69,12 @@ static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char 
 	r->o->on_event(&ev, r->o->ev_ctx);
 }
 
-typedef struct {
-	int fd;
-	double t_last;
-} child_ctx;
-
-static void child_progress(void *pctx, long done, long total)
-{
-	child_ctx *c = pctx;
-	char b[64];
-	int n;
-	double t = now_s();
-	if (t - c->t_last < 0.1)
-		return;
-	c->t_last = t;
-	n = snprintf(b, sizeof b, "P %ld %ld\n", done, total);
-	if (write(c->fd, b, (size_t)n) < 0) {
-		/* the parent is gone; PR_SET_PDEATHSIG ends us */
-	}
-}
-
-static void child_main(runner *r, clipjob *j, int fd, pid_t parent)
-{
-	child_ctx c = {fd, 0};
-	wl_err err;
-	wl_status s;
-	char line[600];
-	int n;
-	size_t i;
-	prctl(PR_SET_PDEATHSIG, SIGKILL);
-	if (getppid() != parent)
-		_exit(3);
-	wl_err_clear(&err);
-	j->job.progress = child_progress;
-	j->job.progress_ctx = &c;
-	s = r->o->fn(&j->job, r->o->fn_ctx, &err);
-	if (s != WL_OK) {
-		for (i = 0; err.msg[i]; i++)
-			if (err.msg[i] == '\n')
-				err.msg[i] = ' ';
-		n = snprintf(line, sizeof line, "E %s\n", err.msg[0] ? err.msg : wl_status_name(s));
-		if (write(fd, line, (size_t)(n < (int)sizeof line ? n : (int)sizeof line - 1)) < 0)
-			_exit(1);
-	}
-	close(fd);
-	_exit(s == WL_OK ? 0 : 1);
-}
-
 static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 {
 	int p[2];
 	pid_t pid, parent = getpid();
 	size_t i;
-	remove_stale_tmp(j->out_dir);
+	batch_remove_stale_tmp(j->out_dir);
 	/* the old done marker goes first: from here the folder is not complete */
 	{
 		char path[PATH_MAX];
@@ -346,7 +96,7 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	}
 	if (pid == 0) {
 		close(p[0]);
-		child_main(r, j, p[1], parent);
+		batch_worker_main(r, j, p[1], parent);
 	}
 	close(p[1]);
 	fcntl(p[0], F_SETFL, O_NONBLOCK);
@@ -356,33 +106,11 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	j->msg[0] = '\0';
 	j->frames = 0;
 	j->total = -1;
-	j->t0 = now_s();
+	j->t0 = batch_now_s();
 	r->running++;
-	journal(r->journal_fd, "start", j->rel, j->hash, NULL);
+	batch_journal(r->journal_fd, "start", j->rel, j->hash, NULL);
 	emit(r, WL_BATCH_EV_START, j->rel, NULL);
 	return WL_OK;
-}
-
-static void parse_lines(clipjob *j)
-{
-	char *nl;
-	while ((nl = memchr(j->buf, '\n', j->blen))) {
-		size_t len = (size_t)(nl - j->buf);
-		*nl = '\0';
-		if (j->buf[0] == 'P') {
-			long a = 0, b = -1;
-			if (sscanf(j->buf, "P %ld %ld", &a, &b) == 2) {
-				j->frames = a;
-				j->total = b;
-			}
-		} else if (j->buf[0] == 'E' && len > 2) {
-			snprintf(j->msg, sizeof j->msg, "%s", j->buf + 2);
-		}
-		memmove(j->buf, nl + 1, j->blen - len - 1);
-		j->blen -= len + 1;
-	}
-	if (j->blen == sizeof j->buf) /* a line too long: drop it */
-		j->blen = 0;
 }
 
 /* A worker's pipe reached end of file: collect its status, check its files,
@@ -393,7 +121,7 @@ static void finish_job(runner *r, clipjob *j)
 	char msg[600];
 	wl_err err;
 	size_t i;
-	double el = now_s() - j->t0;
+	double el = batch_now_s() - j->t0;
 
 	while (waitpid(j->pid, &ws, 0) < 0 && errno == EINTR)
 		;
@@ -429,11 +157,11 @@ static void finish_job(runner *r, clipjob *j)
 	r->finished++;
 	if (ok) {
 		r->res->done++;
-		journal(r->journal_fd, "done", j->rel, j->hash, NULL);
+		batch_journal(r->journal_fd, "done", j->rel, j->hash, NULL);
 		emit(r, WL_BATCH_EV_DONE, j->rel, NULL);
 	} else {
 		r->res->failed++;
-		journal(r->journal_fd, "fail", j->rel, j->hash, msg);
+		batch_journal(r->journal_fd, "fail", j->rel, j->hash, msg);
 		emit(r, WL_BATCH_EV_FAIL, j->rel, msg);
 	}
 }
@@ -462,7 +190,7 @@ static void pump(runner *r)
 			k = read(j->fd, j->buf + j->blen, sizeof j->buf - j->blen);
 			if (k > 0) {
 				j->blen += (size_t)k;
-				parse_lines(j);
+				batch_worker_parse(j);
 				continue;
 			}
 			if (k < 0 && (errno == EAGAIN || errno == EINTR))
@@ -471,8 +199,8 @@ static void pump(runner *r)
 			break;
 		}
 	}
-	if (now_s() - r->t_last_ev >= 0.2) {
-		r->t_last_ev = now_s();
+	if (batch_now_s() - r->t_last_ev >= 0.2) {
+		r->t_last_ev = batch_now_s();
 		for (i = 0; i < r->njobs; i++)
 			if (r->jobs[i].pid > 0) {
 				emit(r, WL_BATCH_EV_PROGRESS, r->jobs[i].rel, NULL);
@@ -605,7 +333,7 @@ static void warn(runner *r, const char *fmt, const char *a, const char *b)
 {
 	char msg[PATH_MAX * 2];
 	snprintf(msg, sizeof msg, fmt, a, b);
-	journal(r->journal_fd, "warn", NULL, NULL, msg);
+	batch_journal(r->journal_fd, "warn", NULL, NULL, msg);
 	emit(r, WL_BATCH_EV_WARN, NULL, msg);
 }
 
@@ -632,7 +360,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	snprintf(path, sizeof path, "%s/clips", o->out_dir);
 	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock_fd, err)))
 		return s;
-	remove_stale_tmp(o->out_dir);
+	batch_remove_stale_tmp(o->out_dir);
 	if (o->manifest_path) {
 		if ((s = wl_manifest_load(o->manifest_path, &m, err)))
 			goto out;
@@ -650,7 +378,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", cl.n);
 		goto out;
 	}
-	r.t_start = now_s();
+	r.t_start = batch_now_s();
 	for (i = 0; i < cl.n; i++) {
 		wl_manifest_row *row = have_m ? (wl_manifest_row *)wl_manifest_find(&m, cl.rel[i]) : NULL;
 		if (row)
@@ -689,16 +417,17 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 				wl_batch_mark(j->out_dir, &j->job, "", 0, j->hash_err, 0, &e2);
 				res->failed++;
 				r.finished++;
-				journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
+				batch_journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
 				emit(&r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
 				continue;
 			}
-			if (!o->force && is_complete(j->out_dir, &j->job, j->hash, o->outputs, &differ)) {
+			if (!o->force &&
+			    batch_is_complete(j->out_dir, &j->job, j->hash, o->outputs, &differ)) {
 				if (differ) /* new parameter cells only: no need to redo the clip */
 					wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
 				res->skipped++;
 				r.finished++;
-				journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
+				batch_journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
 				emit(&r, WL_BATCH_EV_SKIP, j->rel, NULL);
 				continue;
 			}

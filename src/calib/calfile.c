@@ -10,11 +10,11 @@
 #include <cjson/cJSON.h>
 #include <math.h>
 
-#define WL_PI_ 3.14159265358979323846
 #include <stdio.h>
 #include <string.h>
 #include <time.h>
 
+#include "core/angle.h"
 #include "core/jsonio.h"
 #include "core/linalg.h"
 #include "wl_version.h"
@@ -52,7 +52,7 @@ double wl_calib_camera_tilt_deg(const wl_calib *cal)
 		c = 1;
 	if (c < -1)
 		c = -1;
-	return acos(c) * 180 / WL_PI_;
+	return acos(c) / WL_DEG;
 }
 
 int wl_calib_pixel_to_plane(const wl_calib *cal, double u, double v, double z_m, double *x_m, double *y_m)

@@ -10,10 +10,9 @@
 #include "calib/calib.h"
 
 #include <math.h>
-
-#define WL_PI_ 3.14159265358979323846
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/linalg.h"
 
 /* Views closer to nadir than this leave f undetermined in practice: the
@@ -92,7 +91,7 @@ int wl_focal_from_homography(const double H[9], double cx, double cy, double *f_
 		if (wl_pose_from_homography(Hs, &cam, NULL) != WL_OK)
 			return 0;
 	}
-	return acos(fmin(1, fabs(cam.R[8]))) * 180 / WL_PI_ >= MIN_TILT_FOR_FOCAL_DEG;
+	return acos(fmin(1, fabs(cam.R[8]))) / WL_DEG >= MIN_TILT_FOR_FOCAL_DEG;
 }
 
 wl_status wl_pose_from_homography(const double H[9], wl_camera *cam, wl_err *err)

@@ -15,9 +15,9 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/linalg.h"
 
-#define WL_PI_ 3.14159265358979323846
 #define RESIDUAL_WARN_PX 2.0
 #define FOCAL_SPREAD_MAX 0.05    /* jackknife spread of f beyond which f counts as undetermined */
 #define HEIGHT_SD_DEFAULT_M 0.01 /* a tape-measured camera height: +-1 cm (common practice) */
@@ -284,7 +284,7 @@ static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opt
 	if (o->camera_height_m > 0) {
 		if (!ok) {
 			/* near nadir the homography fixes f / height: scale a guess */
-			double f0 = o->width_px / (2 * tan(30 * WL_PI_ / 180)),
+			double f0 = o->width_px / (2 * tan(30 * WL_DEG)),
 			       z0 = height_with_f(H, f0, cx, cy, o->width_px, o->height_px);
 			if (!(z0 > 0))
 				return wl_err_set(err, WL_ECALIB, "the homography gives no camera pose");
@@ -315,7 +315,7 @@ static wl_status set_intrinsics(wl_calib *cal, const work *w, const wl_calib_opt
 	if (multi)
 		return WL_ECALIB; /* the caller goes on to the projection DLT */
 	if (o->hfov_deg > 0 && o->hfov_deg < 179) {
-		f = (o->width_px / 2.0) / tan(o->hfov_deg * WL_PI_ / 360);
+		f = (o->width_px / 2.0) / tan(o->hfov_deg * WL_DEG / 2);
 		wl_camera_init(&cal->cam, o->width_px, o->height_px, f, f, cx, cy);
 		snprintf(cal->intrinsics_source, sizeof cal->intrinsics_source, "hfov");
 		snprintf(cal->route, sizeof cal->route, WL_CALIB_ROUTE_HFOV);

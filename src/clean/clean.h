@@ -5,14 +5,13 @@
  * start trimmed to steady motion and the end cut at the tank wall -> CLEAN.csv
  * and the CLEAN.json sidecar (formats in DEVELOPERS.md and docs/clean.md).
  *
- * Pieces, in reading order:
- *   wl_clean_raw_* RAW.csv reader with validation (raw.c)
- *   wl_sha256_*   a small SHA-256 for the input checksum (sha256.c)
- *   wl_kin_*      kinematic Kalman filter + Rauch-Tung-Striebel smoother for
- *                 one axis, constant velocity or constant acceleration (kin.c)
- *   wl_sg_*       Savitzky-Golay weights by local least squares in t (sg.c)
- *   wl_clean_*    the stage: per robot gaps, smoothing, outliers, trim, wall,
- *                 segments, resampling, writing (clean.c, cleanio.c)
+ * The module's headers, in reading order:
+ *   clean/raw.h   RAW.csv read and grouped per robot (raw.c)
+ *   clean/kin.h   kinematic Kalman filter + Rauch-Tung-Striebel smoother for
+ *                 one axis (kin.c)
+ *   clean/sg.h    Savitzky-Golay weights by local least squares in t (sg.c)
+ *   clean/clean.h this one: the stage (params.c, clean.c with the private
+ *                 clean_work.h, smooth.c, segment.c, rows.c, cleanio.c)
  *
  * Units: seconds, metres, radians (SI, unit in the name).  Headings are
  * counter-clockwise from +x; written wrapped to (-pi, pi], smoothed unwrapped.
@@ -32,120 +31,8 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "clean/raw.h"
 #include "core/err.h"
-
-/* ---------------------------------------------------------------- RAW.csv */
-
-typedef struct {
-	double t_s;
-	long frame;
-	double x_m, y_m, heading_rad; /* NaN when absent */
-	unsigned char has_pos;        /* status ok with x_m, y_m */
-	unsigned char has_heading;    /* status ok with heading_rad */
-	long line;                    /* line in RAW.csv, for messages */
-} wl_clean_raw_sample;
-
-typedef struct {
-	long id;
-	size_t n, cap;
-	wl_clean_raw_sample *s; /* in time order (validated strictly increasing) */
-} wl_clean_raw_track;
-
-typedef struct {
-	char *path; /* as given (owned) */
-	size_t ntracks;
-	wl_clean_raw_track *tracks; /* in order of first appearance */
-	size_t nrows;
-	uint64_t bytes;      /* size of the file */
-	char sha256_hex[65]; /* SHA-256 of the file's bytes */
-} wl_clean_raw;
-
-#define WL_CLEAN_MAX_ROBOTS 4096
-
-/* Reads and validates RAW.csv (required columns t_s, frame, id, x_m, y_m,
- * heading_rad, status; numbers in number cells; per id frames and times
- * strictly increasing, so no duplicate (frame, id)).  Errors name the file
- * and line.  *out is freed with wl_clean_raw_destroy. */
-wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
-/* Same over a buffer (name is used in messages; checksum of the buffer). */
-wl_status wl_clean_raw_read_mem(const char *name, const char *data, size_t len, wl_clean_raw **out,
-                                wl_err *err);
-void wl_clean_raw_destroy(wl_clean_raw *raw);
-
-/* ---------------------------------------------------------------- SHA-256 */
-
-/* FIPS 180-4.  Streaming: init, update any number of times, final. */
-typedef struct {
-	uint32_t h[8];
-	uint64_t len;
-	unsigned char buf[64];
-	size_t nbuf;
-} wl_sha256;
-void wl_sha256_init(wl_sha256 *s);
-void wl_sha256_update(wl_sha256 *s, const void *data, size_t n);
-void wl_sha256_final(wl_sha256 *s, char hex[65]);
-/* SHA-256 of a file's bytes; *bytes gets its size. */
-wl_status wl_sha256_file(const char *path, char hex[65], uint64_t *bytes, wl_err *err);
-
-/* ------------------------------------------------- kinematic RTS smoother */
-
-/* One axis of a kinematic model: state (p, v) (dim 2, constant velocity) or
- * (p, v, a) (dim 3, constant acceleration), measurement p + white noise of
- * variance r.  Process noise is continuous white acceleration (dim 2) or
- * jerk (dim 3) of spectral density q, integrated exactly over each dt:
- *   dim 2: Q = q [dt^3/3 dt^2/2; dt^2/2 dt]
- *   dim 3: Q = q [dt^5/20 dt^4/8 dt^3/6; dt^4/8 dt^3/3 dt^2/2; dt^3/6 dt^2/2 dt]
- * Angular axes take innovations modulo 2 pi (the state is unwrapped). */
-typedef struct {
-	int dim;      /* 2 or 3 */
-	double q;     /* process noise spectral density (units^2 / s^(2 dim - 1)) */
-	double r;     /* measurement variance (units^2) */
-	int angular;  /* 1: innovation wrapped to (-pi, pi] */
-	double P0[3]; /* prior variances of p, v, a at a track's first sample */
-} wl_kin_cfg;
-
-/* Per-sample storage of the filter and smoother (the caller allocates n). */
-typedef struct {
-	double xp[3], Pp[9]; /* predicted (prior) at this sample */
-	double xs[3], Ps[9]; /* filtered, then smoothed after wl_kin_smooth */
-	double nu, S;        /* innovation and its variance (NaN when none) */
-} wl_kin_step;
-
-/* Filters and smooths one axis over n samples at times t (strictly
- * increasing).  z[i] NaN means no measurement (predicted only).  The prior
- * at t[0] has mean (first finite z, 0, 0) and variances cfg->P0.  Returns the
- * log-likelihood of the innovations in *loglik (may be NULL).  Returns 0 if a
- * covariance became singular.  (Rauch, Tung & Striebel 1965.) */
-int wl_kin_smooth(const wl_kin_cfg *cfg, size_t n, const double *t, const double *z, wl_kin_step *st,
-                  double *loglik);
-
-/* Lower-level steps used by wl_kin_smooth and by the multi-axis gating in
- * clean.c: prior at sample 0, predict from i-1 to i, update, smooth. */
-void wl_kin_start(const wl_kin_cfg *cfg, double z0, wl_kin_step *s0);
-void wl_kin_predict(const wl_kin_cfg *cfg, const wl_kin_step *prev, double dt, wl_kin_step *cur);
-/* Innovation of z at cur (wrapped for angular axes) and its variance. */
-void wl_kin_innov(const wl_kin_cfg *cfg, const wl_kin_step *cur, double z, double *nu, double *S);
-void wl_kin_update(const wl_kin_cfg *cfg, wl_kin_step *cur, double nu, double S);
-/* Skips the update (no measurement or rejected): filtered = predicted. */
-void wl_kin_skip(const wl_kin_cfg *cfg, wl_kin_step *cur);
-/* Backward pass over st[0..n-1]; t as above.  Returns 0 when singular. */
-int wl_kin_backward(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_step *st);
-
-/* --------------------------------------------------------- Savitzky-Golay */
-
-#define WL_SG_MAX_WINDOW 101
-#define WL_SG_MAX_ORDER 6
-
-/* Weights w[0..n-1] such that sum w[i] z[i] is the deriv-th derivative at t0
- * of the least-squares polynomial of the given order through (t[i], z[i]).
- * With t = -m..m and t0 = 0 these are Savitzky & Golay's (1964) convolution
- * weights (as corrected by Steinier et al. 1972), in data order.  Returns 0
- * when the fit is singular (n <= order or repeated times). */
-int wl_sg_weights(const double *t, int n, double t0, int order, int deriv, double *w);
-/* Evenly spaced (unit step) weights of a centred window, in data order. */
-int wl_sg_coeffs(int window, int order, int deriv, double *w);
-
-/* --------------------------------------------------------------- the stage */
 
 typedef enum { WL_CLEAN_RTS = 0, WL_CLEAN_SG = 1 } wl_clean_smoother;
 typedef enum { WL_TRIM_AUTO = 0, WL_TRIM_FIXED, WL_TRIM_NONE } wl_trim_mode;

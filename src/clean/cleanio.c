@@ -15,6 +15,7 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
+#include "core/sha256.h"
 #include "wl_version.h"
 
 wl_status wl_clean_load_outline(const char *cal_path, wl_clean_params *p, char sha_hex[65], wl_err *err)

@@ -12,24 +12,15 @@
  * 2x2 block.  The covariance update uses the Joseph form, which stays
  * symmetric and positive when the prior is much wider than the noise.
  */
-#include "clean/clean.h"
+#include "clean/kin.h"
 
 #include <math.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/linalg.h"
 
-#define WL_PI 3.14159265358979323846
-
 #define IX(i, j) ((i)*3 + (j))
-
-static double wrap_pi(double a)
-{
-	a = fmod(a + WL_PI, 2 * WL_PI);
-	if (a < 0)
-		a += 2 * WL_PI;
-	return a - WL_PI;
-}
 
 static void trans(int d, double dt, double F[9])
 {
@@ -131,7 +122,7 @@ void wl_kin_innov(const wl_kin_cfg *cfg, const wl_kin_step *cur, double z, doubl
 {
 	*nu = z - cur->xp[0];
 	if (cfg->angular)
-		*nu = wrap_pi(*nu);
+		*nu = wl_wrap_pi(*nu);
 	*S = cur->Pp[0] + cfg->r;
 }
 

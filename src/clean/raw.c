@@ -4,13 +4,14 @@
  * and frames strictly increasing per robot) and keeps the rows per robot id.
  */
 #define _POSIX_C_SOURCE 200809L
-#include "clean/clean.h"
+#include "clean/raw.h"
 
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "core/csvio.h"
+#include "core/sha256.h"
 
 enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_STATUS, C_N };
 static const char *const REQUIRED[] = {"t_s", "frame", "id", "x_m", "y_m", "heading_rad", "status", NULL};

@@ -12,7 +12,7 @@
  * uneven spacing (variable frame rate) it is the same local fit in real time,
  * so no resampling is needed.
  */
-#include "clean/clean.h"
+#include "clean/sg.h"
 
 #include <math.h>
 #include <string.h>

@@ -9,6 +9,7 @@
 
 #include "clean/clean.h"
 #include "cli/cli.h"
+#include "core/angle.h"
 
 const char cmd_clean_summary[] =
         "smooth tracks, reject outliers, bridge gaps, trim and segment (RAW.csv -> CLEAN.csv)";
@@ -165,7 +166,7 @@ static void summary(const wl_clean_robot *rb)
 	else
 		printf("end not cut (%s)", rb->end_reason);
 	printf("; %zu segment%s; noise %.2f mm, %.2f deg\n", rb->nsegments, rb->nsegments == 1 ? "" : "s",
-	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad * 180 / 3.14159265358979323846);
+	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad / WL_DEG);
 }
 
 static int set_num(const char *opt, const char *arg, double *out)

@@ -11,9 +11,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/linalg.h"
-
-#define PI 3.14159265358979323846
 
 /* Centred moments used by the Pratt and Taubin fits (Chernov 2010, §5). */
 typedef struct {
@@ -389,7 +388,7 @@ static void geofit_finish(const double *x, const double *y, size_t n, wl_geofit 
 		}
 		if (pass > 0 || !flip)
 			break;
-		f->kappa_per_m = -f->kappa_per_m, f->d_m = -f->d_m, f->phi_rad += PI;
+		f->kappa_per_m = -f->kappa_per_m, f->d_m = -f->d_m, f->phi_rad += WL_PI;
 		f->sway_a_m = -f->sway_a_m, f->sway_b_m = -f->sway_b_m;
 	}
 	f->phi_rad = atan2(sin(f->phi_rad), cos(f->phi_rad));
@@ -434,7 +433,7 @@ wl_status wl_measure_fit_geometric_sway(const double *x, const double *y, const 
 {
 	double p[NP_MAX];
 	wl_geofit first;
-	problem pb = {x, y, t, NULL, n, 0, 0, 2 * PI * freq_hz, 5};
+	problem pb = {x, y, t, NULL, n, 0, 0, 2 * WL_PI * freq_hz, 5};
 	wl_status st = wl_measure_fit_geometric(x, y, n, &first, err);
 	if (st)
 		return st;
@@ -509,7 +508,7 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 	                                                            acov[AR_MAX + 1] = {0}, v[AR_MAX + 1];
 	double phi[AR_MAX + 1][AR_MAX + 1];
 	double *r = NULL, *Z = NULL;
-	problem pb = {x, y, t, NULL, n, f->ref_x_m, f->ref_y_m, 2 * PI * f->sway_freq_hz, 3};
+	problem pb = {x, y, t, NULL, n, f->ref_x_m, f->ref_y_m, 2 * WL_PI * f->sway_freq_hz, 3};
 	wl_status st = WL_OK;
 	int np, order, pmax;
 	if (f->sway_freq_hz > 0) {

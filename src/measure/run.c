@@ -8,10 +8,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/linalg.h"
-
-#define PI 3.14159265358979323846
-#define DEG (180.0 / PI)
 
 void wl_measure_opts_init(wl_measure_opts *o)
 {
@@ -19,11 +17,6 @@ void wl_measure_opts_init(wl_measure_opts *o)
 	o->body_diameter_m = NAN;
 	o->osc_fmin_hz = NAN;
 	o->osc_fmax_hz = NAN;
-}
-
-static double wrap_pi(double a)
-{
-	return atan2(sin(a), cos(a));
 }
 
 /* ---- oscillation ---------------------------------------------------------- */
@@ -57,7 +50,7 @@ static void phasors(const double *t, size_t n, double w, double t0, double *cs)
 static double sine_rss(const double *t, const double *v, size_t n, double f, double t0, double *cs,
                        double coef[3])
 {
-	double A[9] = {0}, b[3] = {0}, rss = 0, w = 2 * PI * f;
+	double A[9] = {0}, b[3] = {0}, rss = 0, w = 2 * WL_PI * f;
 	phasors(t, n, w, t0, cs);
 	for (size_t i = 0; i < n; i++) {
 		double c = cs[2 * i], s = cs[2 * i + 1], r[3] = {1, c, s};
@@ -94,7 +87,7 @@ static void fft(double *re, double *im, size_t n)
 		}
 	}
 	for (size_t len = 2; len <= n; len <<= 1) {
-		double ang = -2 * PI / (double)len, wr = cos(ang), wi = sin(ang);
+		double ang = -2 * WL_PI / (double)len, wr = cos(ang), wi = sin(ang);
 		for (size_t i = 0; i < n; i += len) {
 			double cr = 1, ci = 0;
 			for (size_t k = 0; k < len / 2; k++) {
@@ -131,7 +124,7 @@ static double periodogram_peak(const double *t, const double *v, size_t n, doubl
 	}
 	mean /= (double)n;
 	for (size_t k = 0; k < nfft; k++) {
-		re[k] = k < n ? (re[k] - mean) * 0.5 * (1 - cos(2 * PI * (double)k / (double)(n - 1))) : 0;
+		re[k] = k < n ? (re[k] - mean) * 0.5 * (1 - cos(2 * WL_PI * (double)k / (double)(n - 1))) : 0;
 		im[k] = 0;
 	}
 	fft(re, im, nfft);
@@ -210,7 +203,7 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 	out->freq_hz = f0;
 	out->amp = hypot(coef[1], coef[2]);
 	/* a cos + b sin = amp sin(θ + φ) with φ = atan2(a, b), θ measured from t[0] */
-	out->phase_rad = wrap_pi(atan2(coef[1], coef[2]) - 2 * PI * f0 * t[0]);
+	out->phase_rad = wl_wrap_pi(atan2(coef[1], coef[2]) - 2 * WL_PI * f0 * t[0]);
 	out->r2 = tss > 0 ? 1 - rss / tss : NAN;
 out:
 	free(t);
@@ -261,7 +254,7 @@ static void unwrap(double *a, size_t n)
 		if (!isfinite(a[i]))
 			continue;
 		if (isfinite(prev))
-			off += wrap_pi(a[i] + off - prev) - (a[i] + off - prev);
+			off += wl_wrap_pi(a[i] + off - prev) - (a[i] + off - prev);
 		a[i] += off;
 		prev = a[i];
 	}
@@ -354,12 +347,12 @@ static void path_measures(const wl_measure_input *in, const double *x, const dou
 	if (in->yaw_rate_radps) {
 		double sd;
 		mean_sd(in->yaw_rate_radps, in->n, &r->mean_yaw_rate_degps, &sd);
-		r->mean_yaw_rate_degps *= DEG;
+		r->mean_yaw_rate_degps /= WL_DEG;
 	}
 	for (size_t i = 0; i < in->n; i++)
 		hd[i] = in->heading_rad ? in->heading_rad[i] : NAN;
 	unwrap(hd, in->n);
-	r->heading_drift_degps = slope(in->t_s, hd, in->n) * DEG;
+	r->heading_drift_degps = slope(in->t_s, hd, in->n) / WL_DEG;
 	if (!isfinite(r->mean_yaw_rate_degps)) {
 		double first = NAN, last = NAN, tf = 0, tl = 0;
 		for (size_t i = 0; i < in->n; i++)
@@ -369,7 +362,7 @@ static void path_measures(const wl_measure_input *in, const double *x, const dou
 				last = hd[i], tl = in->t_s[i];
 			}
 		if (tl > tf)
-			r->mean_yaw_rate_degps = (last - first) / (tl - tf) * DEG;
+			r->mean_yaw_rate_degps = (last - first) / (tl - tf) / WL_DEG;
 	}
 }
 
@@ -422,7 +415,7 @@ static void circle_measures(const double *t, const double *x, const double *y, s
 	r->curvature_per_m = gf->kappa_per_m;
 	r->fit_rms_m = gf->rms_m;
 	r->arc_deg =
-	        gf->kappa_per_m != 0 ? fabs(wl_measure_swept_angle(x, y, m, gf->cx_m, gf->cy_m)) * DEG : 0;
+	        gf->kappa_per_m != 0 ? fabs(wl_measure_swept_angle(x, y, m, gf->cx_m, gf->cy_m)) / WL_DEG : 0;
 	if (wl_measure_curvature_se(x, y, t, m, gf, &se, &r->ar_order, NULL) == WL_OK) {
 		double q = 1.959964;
 		r->curvature_se_per_m = se;
@@ -478,9 +471,10 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 			expect = atan2(uy, ux);
 		} else {
 			sway[i] = wl_measure_geofit_offset(gf, X, Y);
-			expect = atan2(Y - gf->cy_m, X - gf->cx_m) + (gf->kappa_per_m > 0 ? PI / 2 : -PI / 2);
+			expect = atan2(Y - gf->cy_m, X - gf->cx_m) +
+			         (gf->kappa_per_m > 0 ? WL_PI / 2 : -WL_PI / 2);
 		}
-		yaw[i] = isfinite(h) ? wrap_pi(h - expect) : NAN;
+		yaw[i] = isfinite(h) ? wl_wrap_pi(h - expect) : NAN;
 	}
 	unwrap(yaw, in->n);
 	detrend_quadratic(in->t_s, yaw, in->n);
@@ -488,7 +482,7 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 	osc_band(opt, r, &f_lo, &f_hi);
 	if (wl_measure_oscillation(in->t_s, yaw, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
 		r->yaw_osc_freq_hz = o.freq_hz;
-		r->yaw_osc_amp_deg = o.amp * DEG;
+		r->yaw_osc_amp_deg = o.amp / WL_DEG;
 		r->yaw_osc_r2 = o.r2;
 	}
 	if (wl_measure_oscillation(in->t_s, sway, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {

@@ -15,12 +15,9 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
-
-#ifndef M_PI
-#define M_PI 3.14159265358979323846
-#endif
 
 #define MAX_IDS 64
 #define MAX_SPANS 512
@@ -152,10 +149,10 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	if (isfinite(h)) {
 		if (tr->have_h) {
 			double d = h - tr->prev_h;
-			if (d > M_PI)
-				tr->off_h -= 2 * M_PI;
-			else if (d < -M_PI)
-				tr->off_h += 2 * M_PI;
+			if (d > WL_PI)
+				tr->off_h -= 2 * WL_PI;
+			else if (d < -WL_PI)
+				tr->off_h += 2 * WL_PI;
 		}
 		tr->prev_h = h;
 		tr->have_h = 1;
@@ -168,8 +165,8 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		tr->t[tr->n] = t;
 		tr->x[tr->n] = cell(row, r->c_x);
 		tr->y[tr->n] = cell(row, r->c_y);
-		tr->hd[tr->n] = isfinite(h) ? (h + tr->off_h) * 180.0 / M_PI : NAN;
-		tr->yr[tr->n] = cell(row, r->c_yr) * 180.0 / M_PI;
+		tr->hd[tr->n] = isfinite(h) ? (h + tr->off_h) / WL_DEG : NAN;
+		tr->yr[tr->n] = cell(row, r->c_yr) / WL_DEG;
 		tr->seg[tr->n] = (int)seg;
 		tr->n++;
 	}
@@ -326,8 +323,8 @@ static wl_status path_plot(const char *dir, const reader *r, const circle *cs, s
 		wl_style cst = {{0.1, 0.1, 0.1}, 1, 1.0, 1, WL_MARK_NONE, 0, 0};
 		wl_style mst = {{0.1, 0.1, 0.1}, 1, 1.4, 0, WL_MARK_CROSS, 10, 0};
 		for (j = 0; j < 181; j++) {
-			cx[j] = cs[i].cx + cs[i].r * cos(2 * M_PI * (double)j / 180.0);
-			cy[j] = cs[i].cy + cs[i].r * sin(2 * M_PI * (double)j / 180.0);
+			cx[j] = cs[i].cx + cs[i].r * cos(2 * WL_PI * (double)j / 180.0);
+			cy[j] = cs[i].cy + cs[i].r * sin(2 * WL_PI * (double)j / 180.0);
 		}
 		if ((s = wl_plot_add_line(p, cx, cy, 181, &cst, i == 0 ? "fitted circle" : NULL, err)) ||
 		    (s = wl_plot_add_scatter(p, &cs[i].cx, &cs[i].cy, 1, &mst,

@@ -17,10 +17,7 @@
 #include <string.h>
 
 #include "core/afile.h"
-
-#ifndef M_PI
-#define M_PI 3.14159265358979323846
-#endif
+#include "core/angle.h"
 
 typedef enum { IT_LINE, IT_SCATTER, IT_ERR, IT_POLY, IT_BAND, IT_CLINE, IT_TEXT } it_kind;
 
@@ -508,7 +505,7 @@ static void draw_mark(cairo_t *cr, wl_mark m, double x, double y, double s, int 
 		break;
 	case WL_MARK_CIRCLE:
 	default:
-		cairo_arc(cr, x, y, r, 0, 2 * M_PI);
+		cairo_arc(cr, x, y, r, 0, 2 * WL_PI);
 		break;
 	}
 	if (fill)
@@ -696,7 +693,7 @@ static void draw_axes(cairo_t *cr, const wl_plot *p, const frame *f)
 	text_at(cr, f->x0 + f->w / 2, f->y0 + f->h + 22, p->ax.label, 10, 0.5, 0);
 	cairo_save(cr);
 	cairo_translate(cr, f->x0 - 50, f->y0 + f->h / 2);
-	cairo_rotate(cr, -M_PI / 2);
+	cairo_rotate(cr, -WL_PI / 2);
 	text_at(cr, 0, 0, p->ay.label, 10, 0.5, 0.5);
 	cairo_restore(cr);
 	cairo_select_font_face(cr, FONT, CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
@@ -818,7 +815,7 @@ static void draw_cbar(cairo_t *cr, const wl_plot *p, const frame *f)
 	}
 	cairo_save(cr);
 	cairo_translate(cr, x + w + 46, f->y0 + f->h / 2);
-	cairo_rotate(cr, -M_PI / 2);
+	cairo_rotate(cr, -WL_PI / 2);
 	text_at(cr, 0, 0, p->cbar, 9.5, 0.5, 0.5);
 	cairo_restore(cr);
 }

@@ -235,7 +235,7 @@ static void noise_table(wl_synth_renderer *r)
 	for (int i = 0; i < NOISE_TAB; i++) {
 		double u1 = synth_unit(synth_mix64(r->sc->seed * 2654435761u + 2 * (uint64_t)i + 11));
 		double u2 = synth_unit(synth_mix64(r->sc->seed * 2654435761u + 2 * (uint64_t)i + 12));
-		g[i] = sqrt(-2 * log(1 - u1)) * cos(2 * M_PI * u2);
+		g[i] = sqrt(-2 * log(1 - u1)) * cos(2 * WL_PI * u2);
 		m += g[i];
 	}
 	m /= NOISE_TAB;
@@ -409,7 +409,7 @@ static int robot_box(const wl_synth_renderer *r, const wl_camera *cam, int i, co
 	}
 	for (int j = 0; j < np; j++) {
 		for (int a = 0; a < 24; a++) {
-			double ang = 2 * M_PI * a / 24, X[3], u, v;
+			double ang = 2 * WL_PI * a / 24, X[3], u, v;
 			/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
 			X[0] = poses[j].x + reach * 1.01 * cos(ang);
 			X[1] = poses[j].y + reach * 1.01 * sin(ang);
@@ -490,7 +490,7 @@ static void add_glare(const wl_synth_renderer *r, double t, uint8_t *rgb, int st
 	double rad = sc->glare_radius_px, sig = 0.5 * rad;
 	for (int g = 0; g < sc->n_glare; g++) {
 		uint64_t h = synth_mix64(sc->seed ^ (0x243f6a8885a308d3ull * (uint64_t)(g + 1)));
-		double ang = 2 * M_PI * synth_unit(synth_mix64(h + 1));
+		double ang = 2 * WL_PI * synth_unit(synth_mix64(h + 1));
 		double spanx = r->w + 4 * rad, spany = r->h + 4 * rad;
 		/* drift in a straight line, wrapping around an enlarged frame */
 		double cx = fmod(synth_unit(h) * spanx + sc->glare_speed_pxps * t * cos(ang), spanx);

@@ -15,8 +15,6 @@
 #include "core/jsonio.h"
 #include "synth/synth_priv.h"
 
-#define DEG (M_PI / 180.0)
-
 /* Where we are in the file, for messages: "scene.json: robots[0].path". */
 typedef struct {
 	const char *name;
@@ -186,7 +184,7 @@ static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		TRY(num(p, m, "z_m", 0, 0, 0, 100, &k->z_m));
 		k->x_m = c[0];
 		k->y_m = c[1];
-		k->yaw_rad = yaw * DEG;
+		k->yaw_rad = yaw * WL_DEG;
 		i++;
 	}
 	sc->n_markers = i;
@@ -218,7 +216,7 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		hfov = 2 * atan(0.5 * w / f);
 	} else {
 		TRY(num(p, c, "hfov_deg", 0, 75, 1, 170, &deg));
-		hfov = deg * DEG;
+		hfov = deg * WL_DEG;
 		f = 0.5 * w / tan(0.5 * hfov);
 	}
 	sc->hfov_rad = hfov;
@@ -236,11 +234,11 @@ static wl_status parse_camera(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	pos_d[2] = 2.0;
 	TRY(vec(p, c, "position_m", 3, pos_d, -1000, 1000, sc->cam_pos_m));
 	TRY(num(p, c, "tilt_deg", 0, 0, 0, 80, &deg));
-	sc->tilt_rad = deg * DEG;
+	sc->tilt_rad = deg * WL_DEG;
 	TRY(num(p, c, "tilt_dir_deg", 0, 90, -360, 360, &deg));
-	sc->tilt_dir_rad = deg * DEG;
+	sc->tilt_dir_rad = deg * WL_DEG;
 	TRY(num(p, c, "yaw_deg", 0, 0, -360, 360, &deg));
-	sc->yaw_rad = deg * DEG;
+	sc->yaw_rad = deg * WL_DEG;
 	if (sc->cam_pos_m[2] <= 0.05)
 		return bad(p, "position_m",
 		           "puts the camera at or below the floor: its z must be above 0.05 m");
@@ -276,9 +274,9 @@ static wl_status parse_camera_move(pctx *p, const cJSON *root, wl_synth_scene *s
 	TRY(check_keys(p, m, keys));
 	TRY(num(p, m, "t_s", 1, 0, 0, 1e6, &sc->move_t_s));
 	TRY(num(p, m, "tilt_deg", 0, 0, -30, 30, &deg));
-	sc->move_tilt_rad = deg * DEG;
+	sc->move_tilt_rad = deg * WL_DEG;
 	TRY(num(p, m, "yaw_deg", 0, 0, -180, 180, &deg));
-	sc->move_yaw_rad = deg * DEG;
+	sc->move_yaw_rad = deg * WL_DEG;
 	TRY(vec(p, m, "shift_m", 3, zero, -10, 10, sc->move_shift_m));
 	sc->has_move = 1;
 	sc->cam_moved = sc->cam;
@@ -411,7 +409,7 @@ static wl_status parse_marker_kind(pctx *p, const cJSON *m, wl_synth_robot *r)
 		TRY(inum(p, m, "tag_id", 1, 0, 0, 586, &r->tag_id));
 		TRY(num(p, m, "size_m", 0, 0.6 * r->diameter_m, 0.001, 100, &r->tag_size_m));
 		TRY(num(p, m, "offset_deg", 0, 0, -360, 360, &deg));
-		r->tag_offset_rad = deg * DEG;
+		r->tag_offset_rad = deg * WL_DEG;
 		if (r->tag_size_m * 10.0 / 8.0 > 1.5 * r->diameter_m)
 			return bad(p, "size_m",
 			           "makes the tag card (10/8 of size_m with its white border) wider than 1.5 "
@@ -449,16 +447,16 @@ static wl_status parse_path(pctx *p, const cJSON *q, wl_synth_robot *r, const wl
 	w->x0_m = s[0];
 	w->y0_m = s[1];
 	TRY(num(p, q, "heading_deg", 0, 0, -3600, 3600, &deg));
-	w->heading0_rad = deg * DEG;
+	w->heading0_rad = deg * WL_DEG;
 	TRY(num(p, q, "speed_mps", 0, 0.1, 0, 100, &w->speed_mps));
 	TRY(num(p, q, "curvature_1pm", 0, 0, -1000, 1000, &w->curvature_1pm));
 	TRY(num(p, q, "rest_s", 0, 0, 0, 1e6, &w->rest_s));
 	TRY(num(p, q, "accel_s", 0, 0, 0, 1e6, &w->accel_s));
 	TRY(num(p, q, "yaw_osc_deg", 0, 0, 0, 90, &deg));
-	w->osc_amp_rad = deg * DEG;
+	w->osc_amp_rad = deg * WL_DEG;
 	TRY(num(p, q, "yaw_osc_hz", 0, 1, 0, 1000, &w->osc_freq_hz));
 	TRY(num(p, q, "yaw_osc_phase_deg", 0, 0, -360, 360, &deg));
-	w->osc_phase_rad = deg * DEG;
+	w->osc_phase_rad = deg * WL_DEG;
 	TRY(num(p, q, "pivot_ahead_m", 0, 0, -10, 10, &w->pivot_ahead_m));
 	p->where[n] = 0;
 	return WL_OK;
@@ -624,16 +622,6 @@ static void path_s(const wl_synth_path *w, double t, double *s, double *v)
 	}
 }
 
-static double wrap_pi(double a)
-{
-	a = fmod(a, 2 * M_PI);
-	if (a <= -M_PI)
-		a += 2 * M_PI;
-	else if (a > M_PI)
-		a -= 2 * M_PI;
-	return a;
-}
-
 void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_pose *o)
 {
 	const wl_synth_robot *r = &sc->robots[ri];
@@ -655,13 +643,14 @@ void wl_synth_robot_pose(const wl_synth_scene *sc, int ri, double t, wl_synth_po
 	g = w->speed_mps > 0 ? v / w->speed_mps : 0;
 	h = psi;
 	if (w->osc_amp_rad > 0 && t > w->rest_s)
-		h += g * w->osc_amp_rad * sin(2 * M_PI * w->osc_freq_hz * (t - w->rest_s) + w->osc_phase_rad);
+		h += g * w->osc_amp_rad *
+		     sin(2 * WL_PI * w->osc_freq_hz * (t - w->rest_s) + w->osc_phase_rad);
 	/* the body turns about a pivot pivot_ahead_m ahead of the marker; the
 	 * pivot follows the path, so the marker sways sideways by about
 	 * -pivot * (h - psi) */
 	o->x_m = px - w->pivot_ahead_m * cos(h);
 	o->y_m = py - w->pivot_ahead_m * sin(h);
-	o->heading_rad = wrap_pi(h);
+	o->heading_rad = wl_wrap_pi(h);
 	o->speed_mps = v;
 	o->visible = 1;
 	for (int i = 0; i < r->n_occl; i++)
@@ -685,8 +674,8 @@ static void add_camera_move(cJSON *root, const wl_synth_scene *sc)
 		return;
 	o = cJSON_AddObjectToObject(root, "camera_move");
 	cJSON_AddNumberToObject(o, "t_s", sc->move_t_s);
-	cJSON_AddNumberToObject(o, "tilt_deg", sc->move_tilt_rad / DEG);
-	cJSON_AddNumberToObject(o, "yaw_deg", sc->move_yaw_rad / DEG);
+	cJSON_AddNumberToObject(o, "tilt_deg", sc->move_tilt_rad / WL_DEG);
+	cJSON_AddNumberToObject(o, "yaw_deg", sc->move_yaw_rad / WL_DEG);
 	wl_json_add_numbers(o, "shift_m", sc->move_shift_m, 3);
 	o = cJSON_AddObjectToObject(root, "camera_model_moved");
 	wl_json_add_numbers(o, "K", sc->cam_moved.K, 9);
@@ -722,7 +711,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 		d[1] = k->y_m;
 		wl_json_add_numbers(m, "center_m", d, 2);
 		cJSON_AddNumberToObject(m, "size_m", k->size_m);
-		cJSON_AddNumberToObject(m, "yaw_deg", k->yaw_rad / DEG);
+		cJSON_AddNumberToObject(m, "yaw_deg", k->yaw_rad / WL_DEG);
 		if (k->z_m != 0)
 			cJSON_AddNumberToObject(m, "z_m", k->z_m);
 		cJSON_AddItemToArray(a, m);
@@ -740,9 +729,9 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 	cJSON_AddNumberToObject(o, "p2", sc->cam.dist[3]);
 	cJSON_AddNumberToObject(o, "k3", sc->cam.dist[4]);
 	wl_json_add_numbers(o, "position_m", sc->cam_pos_m, 3);
-	cJSON_AddNumberToObject(o, "tilt_deg", sc->tilt_rad / DEG);
-	cJSON_AddNumberToObject(o, "tilt_dir_deg", sc->tilt_dir_rad / DEG);
-	cJSON_AddNumberToObject(o, "yaw_deg", sc->yaw_rad / DEG);
+	cJSON_AddNumberToObject(o, "tilt_deg", sc->tilt_rad / WL_DEG);
+	cJSON_AddNumberToObject(o, "tilt_dir_deg", sc->tilt_dir_rad / WL_DEG);
+	cJSON_AddNumberToObject(o, "yaw_deg", sc->yaw_rad / WL_DEG);
 	o = cJSON_AddObjectToObject(root, "timing");
 	cJSON_AddNumberToObject(o, "fps", sc->fps);
 	cJSON_AddNumberToObject(o, "duration_s", sc->duration_s);
@@ -777,7 +766,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 			cJSON_AddStringToObject(mk, "type", "tag");
 			cJSON_AddNumberToObject(mk, "tag_id", r->tag_id);
 			cJSON_AddNumberToObject(mk, "size_m", r->tag_size_m);
-			cJSON_AddNumberToObject(mk, "offset_deg", r->tag_offset_rad / DEG);
+			cJSON_AddNumberToObject(mk, "offset_deg", r->tag_offset_rad / WL_DEG);
 		} else {
 			cJSON_AddStringToObject(mk, "type", r->kind == WL_SYNTH_CAPS ? "caps" : "cap");
 			add_rgb(mk, r->kind == WL_SYNTH_CAPS ? "front_rgb" : "rgb", r->front_rgb);
@@ -790,14 +779,14 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 		d[0] = w->x0_m;
 		d[1] = w->y0_m;
 		wl_json_add_numbers(pa, "start_m", d, 2);
-		cJSON_AddNumberToObject(pa, "heading_deg", w->heading0_rad / DEG);
+		cJSON_AddNumberToObject(pa, "heading_deg", w->heading0_rad / WL_DEG);
 		cJSON_AddNumberToObject(pa, "speed_mps", w->speed_mps);
 		cJSON_AddNumberToObject(pa, "curvature_1pm", w->curvature_1pm);
 		cJSON_AddNumberToObject(pa, "rest_s", w->rest_s);
 		cJSON_AddNumberToObject(pa, "accel_s", w->accel_s);
-		cJSON_AddNumberToObject(pa, "yaw_osc_deg", w->osc_amp_rad / DEG);
+		cJSON_AddNumberToObject(pa, "yaw_osc_deg", w->osc_amp_rad / WL_DEG);
 		cJSON_AddNumberToObject(pa, "yaw_osc_hz", w->osc_freq_hz);
-		cJSON_AddNumberToObject(pa, "yaw_osc_phase_deg", w->osc_phase_rad / DEG);
+		cJSON_AddNumberToObject(pa, "yaw_osc_phase_deg", w->osc_phase_rad / WL_DEG);
 		cJSON_AddNumberToObject(pa, "pivot_ahead_m", w->pivot_ahead_m);
 		oc = cJSON_AddArrayToObject(m, "occlusions");
 		for (int j = 0; j < r->n_occl; j++) {
@@ -818,7 +807,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 	wl_json_add_numbers(o, "t_m", sc->cam.t, 3);
 	wl_camera_position(&sc->cam, d);
 	wl_json_add_numbers(o, "position_m", d, 3);
-	cJSON_AddNumberToObject(o, "hfov_deg", sc->hfov_rad / DEG);
+	cJSON_AddNumberToObject(o, "hfov_deg", sc->hfov_rad / WL_DEG);
 	cJSON_AddNumberToObject(o, "frames", (double)wl_synth_frame_count(sc));
 	cJSON_AddStringToObject(o, "pixels", "coded");
 	add_camera_move(root, sc);

@@ -4,9 +4,7 @@
 
 #include <stdint.h>
 
-#ifndef M_PI
-#define M_PI 3.14159265358979323846
-#endif
+#include "core/angle.h"
 
 /* splitmix64's finaliser (Steele, Lea & Flood 2014) as a counter-based hash. */
 static inline uint64_t synth_mix64(uint64_t z)

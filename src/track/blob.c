@@ -10,12 +10,10 @@
 #include "track/track.h"
 
 #include <math.h>
-
-#ifndef M_PI
-#define M_PI 3.14159265358979323846
-#endif
 #include <stdlib.h>
 #include <string.h>
+
+#include "core/angle.h"
 
 void wl_rgb_to_hsv(int r, int g, int b, int *h, int *s, int *v)
 {
@@ -262,15 +260,15 @@ void wl_hsv_region_stats(const uint8_t *rgb, int stride, int x0, int y0, int w, 
 			ch[0][n] = hh;
 			ch[1][n] = ss;
 			ch[2][n] = vv;
-			sx += cos(hh * M_PI / 90.0);
-			sy += sin(hh * M_PI / 90.0);
+			sx += cos(hh * WL_PI / 90.0);
+			sy += sin(hh * WL_PI / 90.0);
 			st->mean[1] += ss;
 			st->mean[2] += vv;
 			n++;
 		}
 	st->n = n;
 	if (n > 0) {
-		double hm = atan2(sy, sx) * 90.0 / M_PI;
+		double hm = atan2(sy, sx) * 90.0 / WL_PI;
 		if (hm < 0)
 			hm += 180.0;
 		st->mean[0] = hm;

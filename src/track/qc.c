@@ -15,6 +15,7 @@
 #include <cairo.h>
 
 #include "core/afile.h"
+#include "core/angle.h"
 #include "decode/decode.h"
 #include "decode/vwriter.h"
 
@@ -239,7 +240,7 @@ static void draw_poses(wl_qc *qc, cairo_t *cr, const wl_tracker *tr, const wl_tr
 		cairo_set_source_rgb(cr, r, g, b);
 		cairo_set_line_width(cr, 2.0);
 		rad = o->size_px > 4 ? 0.75 * o->size_px : 6.0;
-		cairo_arc(cr, o->u_px + 0.5, o->v_px + 0.5, rad, 0, 2 * 3.14159265358979);
+		cairo_arc(cr, o->u_px + 0.5, o->v_px + 0.5, rad, 0, 2 * WL_PI);
 		cairo_stroke(cr);
 		if (!isnan(o->heading_rad)) {
 			/* a point ahead on the marker plane, back to pixels */

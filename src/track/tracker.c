@@ -23,11 +23,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
 #include "decode/decode.h"
-
-#ifndef M_PI
-#define M_PI 3.14159265358979323846
-#endif
 
 #define MAX_HITS 256
 #define MAX_BLOBS 64
@@ -66,16 +63,6 @@ struct wl_tracker {
 	wl_tagdet_hit hits[MAX_HITS];
 	wl_blob blobs[MAX_BLOBS];
 };
-
-static double wrap_pi(double a)
-{
-	a = fmod(a, 2.0 * M_PI);
-	if (a <= -M_PI)
-		a += 2.0 * M_PI;
-	else if (a > M_PI)
-		a -= 2.0 * M_PI;
-	return a;
-}
 
 int wl_tracker_pixel_to_plane(const wl_tracker *tr, double u, double v, double z_m, double *x_m, double *y_m)
 {
@@ -314,7 +301,7 @@ static int tag_pose(const wl_tracker *tr, const robot *r, const wl_tagdet_hit *h
 	o->v_px = h->c[1];
 	o->x_m = P[0][0] + s * d1x;
 	o->y_m = P[0][1] + s * d1y;
-	o->heading_rad = wrap_pi(atan2(ay, ax) + r->spec.heading_offset_rad);
+	o->heading_rad = wl_wrap_pi(atan2(ay, ax) + r->spec.heading_offset_rad);
 	o->margin = h->margin;
 	o->size_px = side / 4.0;
 	o->heading_source = WL_HS_TAG;
@@ -410,7 +397,7 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 	o.id = r->spec.id;
 	o.ok = 1;
 	o.margin = fb.area_px;
-	size = 2.0 * sqrt(fb.area_px / M_PI);
+	size = 2.0 * sqrt(fb.area_px / WL_PI);
 	if (r->spec.back.set) {
 		/* the back cap nearest the front cap found */
 		if (!best_blob(tr, img, win, &r->spec.back, fb.cu, fb.cv, &bb))
@@ -423,7 +410,7 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 			return; /* caps of two different things */
 		o.x_m = 0.5 * (fx + bx);
 		o.y_m = 0.5 * (fy + by);
-		o.heading_rad = wrap_pi(atan2(fy - by, fx - bx) + r->spec.heading_offset_rad);
+		o.heading_rad = wl_wrap_pi(atan2(fy - by, fx - bx) + r->spec.heading_offset_rad);
 		o.heading_source = WL_HS_CAPS;
 		u = 0.5 * (fb.cu + bb.cu);
 		v = 0.5 * (fb.cv + bb.cv);
@@ -447,12 +434,12 @@ static void colour_robot(wl_tracker *tr, robot *r, const wl_track_image *img, in
 		}
 		o.heading_rad = isnan(r->motion_heading)
 		                        ? NAN
-		                        : wrap_pi(r->motion_heading + r->spec.heading_offset_rad);
+		                        : wl_wrap_pi(r->motion_heading + r->spec.heading_offset_rad);
 		o.heading_source = WL_HS_MOTION;
 	}
 	o.u_px = u;
 	o.v_px = v;
-	o.size_px = 2.0 * sqrt(fb.area_px / M_PI);
+	o.size_px = 2.0 * sqrt(fb.area_px / WL_PI);
 	r->cur = o;
 	found(tr, r, img->t_s, u, v, size);
 }

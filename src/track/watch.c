@@ -33,6 +33,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "core/angle.h"
 #include "core/jsonio.h"
 #include "core/linalg.h"
 #include "decode/decode.h"
@@ -307,7 +308,7 @@ static double turn_deg(const double A[9], const double B[9])
 	for (int i = 0; i < 3; i++)
 		for (int k = 0; k < 3; k++)
 			tr += B[3 * i + k] * A[3 * i + k]; /* trace(B Aᵀ) */
-	return acos(fmax(-1, fmin(1, (tr - 1) / 2))) * 180 / 3.14159265358979323846;
+	return acos(fmax(-1, fmin(1, (tr - 1) / 2))) / WL_DEG;
 }
 
 /* Fits the pose to the markers seen now (intrinsics kept).  Returns the

@@ -19,6 +19,9 @@
 #include <unistd.h>
 
 #include "clean/clean.h"
+#include "clean/kin.h"
+#include "clean/sg.h"
+#include "core/sha256.h"
 
 #define PI 3.14159265358979323846
 

@@ -154,7 +154,7 @@ static void test_round_trip_detection(void **state)
 				assert_true(m >= 0);
 				X[0] = sc.markers[m].x_m;
 				X[1] = sc.markers[m].y_m;
-				yaw_true = sc.markers[m].yaw_rad + M_PI / 2; /* up = right + 90 deg */
+				yaw_true = sc.markers[m].yaw_rad + WL_PI / 2; /* up = right + 90 deg */
 				seen_markers++;
 			}
 			assert_true(wl_camera_project_water(&sc.cam, X, &u, &v));
@@ -172,8 +172,8 @@ static void test_round_trip_detection(void **state)
 			assert_true(wl_camera_pixel_to_plane_water(&sc.cam, d->c[0] - 0.5, d->c[1] - 0.5,
 			                                           X[2], &exu, &exv));
 			double yaw_det = atan2(ey - exv, ex - exu);
-			double dyaw = remainder(yaw_det - yaw_true, 2 * M_PI);
-			assert_true(fabs(dyaw) < 2.0 * M_PI / 180);
+			double dyaw = remainder(yaw_det - yaw_true, 2 * WL_PI);
+			assert_true(fabs(dyaw) < 2.0 * WL_PI / 180);
 		}
 		assert_int_equal(seen_robot, 1);
 		assert_int_equal(seen_markers, sc.n_markers);
@@ -298,10 +298,10 @@ static void test_handedness(void **state)
 	/* one full circle: 2 pi r / v = 2 pi * 0.5 / 0.2 s */
 	for (int i = 0; i <= n; i++) {
 		wl_synth_pose p;
-		double t = (2 * M_PI * 0.5 / 0.2) * i / n, X[3], u, v;
+		double t = (2 * WL_PI * 0.5 / 0.2) * i / n, X[3], u, v;
 		wl_synth_robot_pose(&sc, 0, t, &p);
 		if (i > 0)
-			unwrapped += remainder(p.heading_rad - last, 2 * M_PI);
+			unwrapped += remainder(p.heading_rad - last, 2 * WL_PI);
 		last = p.heading_rad;
 		assert_true(unwrapped > prev);
 		prev = unwrapped;
@@ -318,11 +318,11 @@ static void test_handedness(void **state)
 		x0 = p.x_m;
 		y0 = p.y_m;
 	}
-	assert_float_equal(unwrapped, 2 * M_PI, 1e-9);
+	assert_float_equal(unwrapped, 2 * WL_PI, 1e-9);
 	assert_true(area_m > 0);  /* counter-clockwise in the tank */
 	assert_true(area_px < 0); /* clockwise in pixel axes */
 	/* the circle of radius 1/curvature, area pi r^2 (64-gon: 0.16% less) */
-	assert_float_equal(0.5 * area_m, M_PI * 0.25, 0.0025 * M_PI * 0.25);
+	assert_float_equal(0.5 * area_m, WL_PI * 0.25, 0.0025 * WL_PI * 0.25);
 }
 
 /* The path model: rest, linear speed ramp, cruise; oscillation in heading. */
@@ -341,7 +341,7 @@ static void test_path_model(void **state)
 	load(text, &sc);
 	wl_synth_robot_pose(&sc, 0, 0.5, &p);
 	assert_float_equal(p.x_m, 1, 1e-12);
-	assert_float_equal(p.heading_rad, M_PI / 2, 1e-12);
+	assert_float_equal(p.heading_rad, WL_PI / 2, 1e-12);
 	assert_float_equal(p.speed_mps, 0, 1e-12);
 	wl_synth_robot_pose(&sc, 0, 2, &p);
 	assert_float_equal(p.speed_mps, 0.1, 1e-12); /* half way up the ramp */
@@ -354,8 +354,8 @@ static void test_path_model(void **state)
 	/* cruise at t = 3 + 1.5 s (quarter period of 0.5 Hz past 3 s is 0.5 s):
 	 * s = 0.2 * 2 / 2 + 0.2 * (t - 3); tangent = 90 deg - s;
 	 * oscillation term 10 deg * sin(2 pi 0.5 (t - 1)) */
-	double t = 4.5, s = 0.2 + 0.2 * 1.5, tangent = M_PI / 2 - s;
-	double osc = 10 * M_PI / 180 * sin(2 * M_PI * 0.5 * (t - 1));
+	double t = 4.5, s = 0.2 + 0.2 * 1.5, tangent = WL_PI / 2 - s;
+	double osc = 10 * WL_PI / 180 * sin(2 * WL_PI * 0.5 * (t - 1));
 	wl_synth_robot_pose(&sc, 0, t, &p);
 	assert_float_equal(p.heading_rad, tangent + osc, 1e-12);
 }
@@ -450,7 +450,7 @@ static void test_caps_and_occlusion(void **state)
 	wl_synth_renderer *r = NULL;
 	wl_err err = {0};
 	uint8_t *rgb;
-	double h = 120 * M_PI / 180, X[3], u, v;
+	double h = 120 * WL_PI / 180, X[3], u, v;
 	(void)state;
 	load(text, &sc);
 	rgb = malloc((size_t)640 * 480 * 3);
@@ -465,8 +465,8 @@ static void test_caps_and_occlusion(void **state)
 	X[1] = 0.4 - 0.05 * sin(h);
 	wl_camera_project(&sc.cam, X, &u, &v);
 	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){0, 0, 250}), 3);
-	X[0] = 0.6 + 0.065 * cos(h + M_PI / 2); /* beside the caps: the disc */
-	X[1] = 0.4 + 0.065 * sin(h + M_PI / 2);
+	X[0] = 0.6 + 0.065 * cos(h + WL_PI / 2); /* beside the caps: the disc */
+	X[1] = 0.4 + 0.065 * sin(h + WL_PI / 2);
 	wl_camera_project(&sc.cam, X, &u, &v);
 	assert_memory_equal(px(&sc, rgb, u, v), ((uint8_t[]){30, 30, 30}), 3);
 	/* hidden at t = 1.5 s: the floor colour where the disc was */

@@ -1,9 +1,7 @@
 /*
- * sha256.c: SHA-256 (FIPS 180-4) for the checksum of RAW.csv and CAL.json
- * recorded in the CLEAN.json sidecar, so a result can be traced to the exact
- * input bytes (compare with `sha256sum`).
+ * sha256.c: SHA-256 (FIPS 180-4), see sha256.h.
  */
-#include "clean/clean.h"
+#include "core/sha256.h"
 
 #include <errno.h>
 #include <stdio.h>
