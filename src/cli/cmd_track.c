@@ -269,7 +269,11 @@ int cmd_track(int argc, char **argv)
 		return cli_fail("track", &err);
 	if (sum.warning[0])
 		cli_warn("track", "%s", sum.warning);
-	if (!quiet && wo.enabled)
+	if (!quiet && wo.enabled && sum.camera_markers == 0)
+		printf("%s: camera watch: the calibration names no floor markers (made from --points?): the "
+		       "camera was not watched\n",
+		       ro.raw_path);
+	else if (!quiet && wo.enabled)
 		printf("%s: camera watch: %d checks in %.3f CPU-s, %d move%s%s\n", ro.raw_path,
 		       sum.camera_checks, sum.camera_watch_cpu_s, sum.camera_moves,
 		       sum.camera_moves == 1 ? "" : "s",

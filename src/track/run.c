@@ -220,6 +220,8 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		                       info->rotation_deg, info->fps_hint, &qc, err)) != WL_OK)
 			goto out;
 	}
+	if (ro->watch && (st = wl_watch_sidecar_check(ro->raw_path, err)) != WL_OK)
+		goto out;
 	if (ro->watch && ro->watch->enabled) {
 		wl_watch_opts wo = *ro->watch;
 		wo.diag = ro->diag;
@@ -296,19 +298,24 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	}
 	if (qc && (st = wl_qc_finish(qc, err)) != WL_OK)
 		goto out;
-	if ((st = wl_raw_commit(raw, err)) != WL_OK) {
-		raw = NULL;
-		goto out;
-	}
-	raw = NULL;
 	if (watch) {
 		const wl_camera_move *mv;
 		sum->camera_checks = wl_watch_checks(watch);
+		sum->camera_markers = wl_watch_markers(watch);
 		sum->camera_watch_cpu_s = wl_watch_cpu_s(watch);
 		sum->camera_moves = wl_watch_moves(watch, &mv, &sum->suspect_from_t_s);
 	}
+	/* the sidecar first, then RAW.csv: both or neither */
 	if (ro->watch && (st = wl_watch_write_sidecar(watch, ro->raw_path, err)) != WL_OK)
 		goto out;
+	if ((st = wl_raw_commit(raw, err)) != WL_OK) {
+		char side[4096];
+		raw = NULL;
+		if (ro->watch && wl_watch_sidecar_path(ro->raw_path, side, sizeof side))
+			remove(side);
+		goto out;
+	}
+	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
 	if (sum->stats.over_limit > 0) {

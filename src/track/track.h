@@ -273,6 +273,7 @@ typedef struct {
 	wl_track_stats stats;
 	char warning[256];         /* empty, or one line for the user */
 	int camera_checks;         /* camera watch: checks made */
+	int camera_markers;        /* floor markers the calibration names (0: nothing to watch) */
 	double camera_watch_cpu_s; /* CPU time the watch took */
 	int camera_moves;          /* moves seen (registered again or not) */
 	double suspect_from_t_s;   /* poses from here on are suspect; NaN if none */

@@ -33,6 +33,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "core/afile.h"
 #include "core/angle.h"
 #include "core/jsonio.h"
 #include "core/linalg.h"
@@ -196,12 +197,9 @@ wl_status wl_watch_create(const wl_watch_opts *o, const wl_calib *cal, int width
 	w->last_still_t = -1;
 	w->suspect_from = w->suspect_to = NAN;
 	collect_markers(w);
-	if (w->n == 0)
-		wl_diag_warn(
-		        o->diag, "track",
-		        "camera watch: the calibration names no floor markers (calibrated from --points?): "
-		        "the camera cannot be watched during the run");
-	else if ((st = wl_tagdet_create(o->family, 0, &w->det, err)) != WL_OK) {
+	/* without markers (a calibration from --points) there is nothing to
+	 * watch: the sidecar and the run's summary say so (markers 0) */
+	if (w->n > 0 && (st = wl_tagdet_create(o->family, 0, &w->det, err)) != WL_OK) {
 		wl_watch_destroy(w);
 		return st;
 	}
@@ -232,6 +230,11 @@ const wl_camera *wl_watch_camera(const wl_watch *w)
 int wl_watch_checks(const wl_watch *w)
 {
 	return w ? w->checks : 0;
+}
+
+int wl_watch_markers(const wl_watch *w)
+{
+	return w ? w->n : 0;
 }
 
 int wl_watch_moves(const wl_watch *w, const wl_camera_move **moves, double *suspect_from_t_s)
@@ -591,6 +594,30 @@ int wl_watch_sidecar_path(const char *raw_csv_path, char *buf, size_t cap)
 	const char *slash = strrchr(raw_csv_path, '/'), *dot = strrchr(raw_csv_path, '.');
 	size_t stem = dot && (!slash || dot > slash) ? (size_t)(dot - raw_csv_path) : strlen(raw_csv_path);
 	return (size_t)snprintf(buf, cap, "%.*s.json", (int)stem, raw_csv_path) < cap;
+}
+
+wl_status wl_watch_sidecar_check(const char *raw_csv_path, wl_err *err)
+{
+	char path[4096], *text = NULL;
+	size_t len = 0;
+	cJSON *root = NULL;
+	const char *fmt;
+	wl_status st = WL_OK;
+	wl_err ignore;
+	if (!wl_watch_sidecar_path(raw_csv_path, path, sizeof path))
+		return wl_err_set(err, WL_EINVAL, "'%s': path too long for its sidecar", raw_csv_path);
+	if (wl_read_file(path, 1 << 24, &text, &len, &ignore) != WL_OK)
+		return WL_OK; /* nothing there (or unreadable: the atomic write will say) */
+	root = cJSON_ParseWithLength(text, len);
+	fmt = wl_json_string_or(root, "format", NULL);
+	if (!fmt || strcmp(fmt, "wakeline raw sidecar") != 0)
+		st = wl_err_set(err, WL_EINVAL,
+		                "'%s' exists and is not a RAW sidecar, but it is where the sidecar of '%s' "
+		                "goes (same stem, .json): name the RAW.csv differently",
+		                path, raw_csv_path);
+	cJSON_Delete(root);
+	free(text);
+	return st;
 }
 
 static void add_num_or_null(cJSON *o, const char *key, double v)

@@ -57,8 +57,8 @@ typedef struct wl_watch wl_watch;
 /* A watch for coded frames width×height shown turned by rotation_deg.
  * Markers are the calibration's points named "<id>" and "<id>.c0".."c3"
  * (centre and corners, as `wakeline calibrate --layout` writes them);
- * without any, the watch has nothing to look at and says so (warning),
- * and every call is a no-op. */
+ * without any, the watch has nothing to look at: every call is a no-op
+ * and the sidecar says "markers": 0. */
 wl_status wl_watch_create(const wl_watch_opts *o, const wl_calib *cal, int width_px, int height_px,
                           int rotation_deg, wl_watch **out, wl_err *err);
 void wl_watch_destroy(wl_watch *w);
@@ -78,8 +78,9 @@ const wl_camera *wl_watch_camera(const wl_watch *w);
  * suspect (a move that could not be registered; NaN if none). */
 int wl_watch_moves(const wl_watch *w, const wl_camera_move **moves, double *suspect_from_t_s);
 
-/* Checks made. */
+/* Checks made, and floor markers the calibration names. */
 int wl_watch_checks(const wl_watch *w);
+int wl_watch_markers(const wl_watch *w);
 
 /* CPU time the watch has spent (its thread's), seconds: for benchmarks. */
 double wl_watch_cpu_s(const wl_watch *w);
@@ -88,6 +89,11 @@ double wl_watch_cpu_s(const wl_watch *w);
  * raw.json) atomically: the watch's settings and "camera_moves" (keys:
  * docs/track.md).  With w NULL the sidecar says the watch was off. */
 wl_status wl_watch_write_sidecar(const wl_watch *w, const char *raw_csv_path, wl_err *err);
+
+/* WL_EINVAL when the sidecar's place holds a file that is not a RAW
+ * sidecar (a CAL.json named like the RAW.csv): checked before a run, so
+ * that nothing is overwritten. */
+wl_status wl_watch_sidecar_check(const char *raw_csv_path, wl_err *err);
 
 /* The sidecar's path for a RAW.csv path (into buf); 0 if it does not fit. */
 int wl_watch_sidecar_path(const char *raw_csv_path, char *buf, size_t cap);

@@ -69,10 +69,10 @@ for w in --camera-height-m z_m --refine-with --lens --hfov-deg; do grep -q -- "$
 	--plane-height-m 0.25 -o a.json > a.txt || fail "calibrate (a) exited $?"
 cat a.txt
 grep -q "route: measured camera height" a.txt || fail "(a): route not reported"
-"$WAKELINE" track clip.mp4 --cal a.json --ids 20 -o a.csv -q || fail "track (a) exited $?"
+"$WAKELINE" track clip.mp4 --cal a.json --ids 20 -o raw_a.csv -q || fail "track (a) exited $?"
 $R camera a.json clip.scene.json | tee a.cam
-$R offset a.csv clip.truth.csv 20 | tee a.off
-$R radius a.csv 20 | tee a.rad
+$R offset raw_a.csv clip.truth.csv 20 | tee a.off
+$R radius raw_a.csv 20 | tee a.rad
 $PY - "$(num height a.cam)" "$(num radius a.rad)" "$(sed -n 's/.*|\([0-9.]*\)|.*/\1/p' a.off)" "$(num offset_mm_per_m a.cam)" <<'PY' || fail "(a) out of bounds"
 import sys
 h, r, off, per_m = map(float, sys.argv[1:])
@@ -97,9 +97,9 @@ $PY -c "import sys; h=float(sys.argv[1]); print('(b) height %.4f m' % h); assert
 "$WAKELINE" calibrate clip.mp4 --layout raised.csv --plane-height-m 0.25 -o c.json > c.txt || fail "calibrate (c) exited $?"
 cat c.txt
 grep -q "route: raised markers" c.txt || fail "(c): route not reported"
-"$WAKELINE" track clip.mp4 --cal c.json --ids 20 -o c.csv -q || fail "track (c) exited $?"
+"$WAKELINE" track clip.mp4 --cal c.json --ids 20 -o raw_c.csv -q || fail "track (c) exited $?"
 $R camera c.json clip.scene.json | tee c.cam
-$R offset c.csv clip.truth.csv 20 | tee c.off
+$R offset raw_c.csv clip.truth.csv 20 | tee c.off
 $PY - "$(sed -n 's/.*principal point error \([-0-9.]*\) \([-0-9.]*\).*/\1 \2/p' c.cam)" "$(num rms c.off)" <<'PY' || fail "(c) out of bounds"
 import sys
 ex, ey = map(float, sys.argv[1].split()); rms = float(sys.argv[2])

@@ -95,7 +95,7 @@ PY
 # too few markers to register the pose again: a calibration that names only
 # two of the markers in this clip (the others renamed to ids not shown)
 # still sees the move, cannot register it, and marks the poses suspect
-$PY - cal.json few.json <<'PY'
+$PY - cal.json fewcal.json <<'PY'
 import json, sys
 c = json.load(open(sys.argv[1]))
 for p in c["points"]:
@@ -103,7 +103,7 @@ for p in c["points"]:
         p["id"] = "4" + p["id"]
 json.dump(c, open(sys.argv[2], "w"))
 PY
-"$WAKELINE" track clip.mp4 --cal few.json --ids 20 -o few.csv -q 2> few.err || fail "track (few markers) exited $?"
+"$WAKELINE" track clip.mp4 --cal fewcal.json --ids 20 -o few.csv -q 2> few.err || fail "track (few markers) exited $?"
 cat few.err
 grep -q "positions from .* on are suspect" few.err || fail "no warning of suspect poses"
 $PY -c "
@@ -113,4 +113,14 @@ print('two markers in view:', mv, su)
 assert s['camera_watch']['markers_in_view'] == 2
 assert len(mv) == 1 and mv[0]['reregistered'] is False and 5.0 <= mv[0]['t_s'] <= 6.0
 assert len(su) == 1 and su[0]['from_t_s'] < 5.0 and su[0]['to_t_s'] is None" || fail "suspect poses not recorded"
+# the sidecar never overwrites another file: a RAW.csv named like the
+# calibration (cal.csv -> cal.json) is refused before the run
+cp cal.json cal.keep
+set +e
+"$WAKELINE" track clip.mp4 --cal cal.json --ids 20 -o cal.csv -q 2> clobber.err
+rc=$?; set -e
+cat clobber.err
+[ "$rc" -eq 1 ] && grep -q "is not a RAW sidecar" clobber.err || fail "a sidecar over CAL.json was not refused"
+cmp -s cal.json cal.keep || fail "CAL.json was overwritten"
+[ ! -e cal.csv ] || fail "RAW.csv written although the run was refused"
 echo "ok"
