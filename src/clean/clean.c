@@ -263,19 +263,26 @@ static int cmp_row(const void *a, const void *b)
 	return (x->id > y->id) - (x->id < y->id);
 }
 
-wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, wl_clean_result *out, wl_err *err)
+wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, const wl_diag *diag,
+                       wl_clean_result *out, wl_err *err)
 {
 	wl_status st;
 	size_t cap = 0;
 	memset(out, 0, sizeof *out);
 	if ((st = wl_clean_params_check(p, err)))
 		return st;
+	if (p->n_outline == 0)
+		wl_diag_warn(
+		        diag, "clean",
+		        "%s: no tank outline, so tracks are not cut at the tank wall: give a CAL.json with "
+		        "tank_outline_m (--cal) or the tank rectangle (--tank)",
+		        raw->path);
 	if (!(out->robots = calloc(raw->ntracks ? raw->ntracks : 1, sizeof *out->robots)))
 		return wl_err_set(err, WL_ENOMEM, "out of memory");
 	for (size_t k = 0; k < raw->ntracks; k++) {
 		out->nrobots++;
 		if ((st = clean_robot(&raw->tracks[k], p, &out->robots[k], out, &cap, err)))
-			return wl_err_prefix(err, "%s: robot %ld", raw->path, raw->tracks[k].id);
+			return wl_err_prefix(err, st, "%s: robot %ld", raw->path, raw->tracks[k].id);
 	}
 	if (out->nrows)
 		qsort(out->rows, out->nrows, sizeof *out->rows, cmp_row);
@@ -293,4 +300,13 @@ void wl_clean_result_release(wl_clean_result *res)
 	free(res->robots);
 	free(res->rows);
 	memset(res, 0, sizeof *res);
+}
+
+void wl_clean_source_init(wl_clean_source *src, const wl_clean_raw *raw)
+{
+	memset(src, 0, sizeof *src);
+	src->input_path = raw->path;
+	src->input_bytes = raw->bytes;
+	src->input_sha256 = raw->sha256_hex;
+	src->input_rows = raw->nrows;
 }

@@ -683,7 +683,7 @@ int cmd_calibrate(int argc, char **argv)
 			goto out;
 		printf("  robots' tags: %d sightings in %d frames of %s\n", sight.n, rf, op.refine);
 		if (wl_calib_solve_tags(pts, n, &co, sight.s, sight.n, op.tag_tol_m, &cal, &rep, &ts, &err)) {
-			wl_err_prefix(&err, "%s", op.refine);
+			wl_err_prefix(&err, err.code, "%s", op.refine);
 			goto out;
 		}
 		printf("  camera height from the tags: %.4f +- %.4f m (spread %.4f, plane height %.4f, "
@@ -694,7 +694,7 @@ int cmd_calibrate(int argc, char **argv)
 	} else if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
 		for (int i = 0; i < rep.n_warn; i++)
 			cli_warn("calibrate", "%s", rep.warn[i]);
-		wl_err_prefix(&err, "%s", op.points ? op.points : op.source);
+		wl_err_prefix(&err, err.code, "%s", op.points ? op.points : op.source);
 		goto out;
 	}
 	if (!outline.n_outline)

@@ -398,7 +398,7 @@ static void test_stage_synthetic(void **state)
 	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
 	wl_clean_params_init(&p);
 	p.trim = WL_TRIM_NONE;
-	assert_int_equal(wl_clean_run(raw, &p, &res, &err), WL_OK);
+	assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
 	assert_int_equal(res.nrows, N);
 	for (size_t i = 0; i < res.nrows; i++) {
 		const wl_clean_row *r = &res.rows[i];
