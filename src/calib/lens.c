@@ -137,18 +137,21 @@ static double coverage(const wl_lens_collector *lc)
 
 static const struct {
 	const char *name;
-	int flags;      /* wl_cv_flags */
-	unsigned terms; /* bit 0 k1, 1 k2, 2 k3, 3 tangential */
+	int flags;  /* wl_cv_flags */
+	int parent; /* the model this one extends by one step (-1: the first) */
 } lens_models[] = {
-        {"k1", WL_CV_FIX_K2 | WL_CV_FIX_K3 | WL_CV_ZERO_TANGENT, 1},
-        {"k1k2", WL_CV_FIX_K3 | WL_CV_ZERO_TANGENT, 3},
-        {"k1k2k3", WL_CV_ZERO_TANGENT, 7},
-        {"k1k2p1p2", WL_CV_FIX_K3, 11},
-        {"k1k2p1p2k3", 0, 15},
+        {"k1", WL_CV_FIX_K2 | WL_CV_FIX_K3 | WL_CV_ZERO_TANGENT, -1},
+        {"k1k2", WL_CV_FIX_K3 | WL_CV_ZERO_TANGENT, 0},
+        {"k1k2k3", WL_CV_ZERO_TANGENT, 1},
+        {"k1k2p1p2", WL_CV_FIX_K3, 1},
+        {"k1k2p1p2k3", 0, 3},
 };
 #define MODEL_GAIN 0.03 /* as calibrate's (solve.c), our choice */
 
-/* Calibrates with each model and keeps the one the left-out views prefer. */
+/* Calibrates with each model and keeps the one the left-out views prefer,
+ * one step at a time along the chain (as calibrate's, solve.c): of the
+ * models that extend the one chosen so far, the best predictor is taken
+ * when it predicts the left-out views MODEL_GAIN better. */
 static wl_status choose_model(const wl_lens_collector *lc, const double *obj, int n, int k, wl_lens *lens,
                               double K[9], double dist[5], double *rms, wl_err *err)
 {
@@ -172,11 +175,16 @@ static wl_status choose_model(const wl_lens_collector *lc, const double *obj, in
 	}
 	if (k >= 5) {
 		best = 0;
-		for (int m = 1; m < WL_LENS_MAX_MODELS; m++) {
-			if ((lens_models[m].terms & lens_models[best].terms) != lens_models[best].terms)
-				continue;
-			if (lens->models[m].holdout_px < (1 - MODEL_GAIN) * lens->models[best].holdout_px)
-				best = m;
+		for (;;) {
+			int next = -1;
+			for (int m = 1; m < WL_LENS_MAX_MODELS; m++)
+				if (lens_models[m].parent == best &&
+				    (next < 0 || lens->models[m].holdout_px < lens->models[next].holdout_px))
+					next = m;
+			if (next < 0 || !(lens->models[next].holdout_px <
+			                  (1 - MODEL_GAIN) * lens->models[best].holdout_px))
+				break;
+			best = next;
 		}
 	}
 	snprintf(lens->model, sizeof lens->model, "%s", lens_models[best].name);

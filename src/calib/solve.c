@@ -506,17 +506,20 @@ static wl_camfit_opts fit_opts(const plan *pl, unsigned extra)
 
 /* ---- distortion from the points themselves ---- */
 
+/* The models form a chain, each extending its parent by one step:
+ * none -> k1 -> k1k2 -> k1k2k3 or k1k2p1p2. */
 static const struct {
 	const char *name;
 	unsigned bits;
 	int n;
+	int parent; /* the model this one extends (-1: none) */
 } dist_models[] = {
-        {"none", 0, 0},
-        {"k1", WL_CP_BIT(WL_CP_K1), 1},
-        {"k1k2", WL_CP_BIT(WL_CP_K1) | WL_CP_BIT(WL_CP_K2), 2},
-        {"k1k2k3", WL_CP_BIT(WL_CP_K1) | WL_CP_BIT(WL_CP_K2) | WL_CP_BIT(WL_CP_K3), 3},
-        {"k1k2p1p2", WL_CP_BIT(WL_CP_K1) | WL_CP_BIT(WL_CP_K2) | WL_CP_BIT(WL_CP_P1) | WL_CP_BIT(WL_CP_P2),
-         4},
+        {"none", 0, 0, -1},
+        {"k1", WL_CP_BIT(WL_CP_K1), 1, 0},
+        {"k1k2", WL_CP_BIT(WL_CP_K1) | WL_CP_BIT(WL_CP_K2), 2, 1},
+        {"k1k2k3", WL_CP_BIT(WL_CP_K1) | WL_CP_BIT(WL_CP_K2) | WL_CP_BIT(WL_CP_K3), 3, 2},
+        {"k1k2p1p2", WL_CP_BIT(WL_CP_K1) | WL_CP_BIT(WL_CP_K2) | WL_CP_BIT(WL_CP_P1) | WL_CP_BIT(WL_CP_P2), 4,
+         2},
 };
 #define N_DIST_MODELS ((int)(sizeof dist_models / sizeof dist_models[0]))
 
@@ -606,9 +609,12 @@ static void try_model(const work *w, const int *grp, int ng, const plan *pl, int
 		res->cv_rms_px = sqrt(s / k);
 }
 
-/* Chooses the distortion model by leave-one-marker-out residual: a model
- * with more terms is taken only when it predicts the left-out markers
- * MODEL_GAIN better than the simpler one chosen so far. */
+/* Chooses the distortion model by leave-one-marker-out residual, one step
+ * at a time along the chain: of the models that extend the one chosen so
+ * far, the one that predicts the left-out markers best is taken when it
+ * does so MODEL_GAIN better; otherwise the choice stops.  A term is never
+ * taken on the strength of a richer model alone (with a few markers, k3
+ * can lower the leave-out residual by chance where k1 and k1k2 do not). */
 static void choose_distortion(wl_calib *cal, const work *w, const wl_calib_opts *o, plan *pl,
                               wl_calib_report *rep)
 {
@@ -626,12 +632,16 @@ static void choose_distortion(wl_calib *cal, const work *w, const wl_calib_opts 
 		try_model(w, grp, ng, pl, m, &cal->cam, &rep->models[m], &cams[m]);
 		rep->n_models = m + 1;
 	}
-	for (int m = 1; m < N_DIST_MODELS; m++) {
-		/* compare with the chosen model that m extends */
-		if ((dist_models[m].bits & dist_models[best].bits) != dist_models[best].bits)
-			continue;
-		if (rep->models[m].cv_rms_px < (1 - MODEL_GAIN) * rep->models[best].cv_rms_px)
-			best = m;
+	for (;;) {
+		int next = -1;
+		for (int m = 1; m < N_DIST_MODELS; m++)
+			if (dist_models[m].parent == best &&
+			    (next < 0 || rep->models[m].cv_rms_px < rep->models[next].cv_rms_px))
+				next = m;
+		if (next < 0 ||
+		    !(rep->models[next].cv_rms_px < (1 - MODEL_GAIN) * rep->models[best].cv_rms_px))
+			break;
+		best = next;
 	}
 	if (!isfinite(rep->models[best].cv_rms_px))
 		best = 0;
