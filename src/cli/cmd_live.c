@@ -68,6 +68,11 @@ static const char usage_head[] =
         "  --q-heading Q           process noise, rad^2/s^3 (default 1)\n"
         "  --gate P                chi-square gate probability (default 0.999; 0: none)\n"
         "  --max-gap-s S           a robot unseen this long starts afresh (default 0.5)\n"
+        "Camera watch (as in wakeline track; moves are warned about as they happen and,\n"
+        "with --raw, listed in the RAW sidecar, RAW.csv's stem + .json):\n"
+        "  --watch-period-s S      look at the floor markers every S s (default 0.5)\n"
+        "  --watch-threshold-px P  a marker shift above P px is a camera move (default 0.5)\n"
+        "  --no-watch              do not watch the camera (no re-registration on a move)\n"
         "Tracking (as in wakeline track):\n";
 
 static const char usage_tail[] =
@@ -108,7 +113,10 @@ enum {
 	O_QH,
 	O_GATE,
 	O_GAP,
-	O_STATUS
+	O_STATUS,
+	O_WPERIOD,
+	O_WTHRESH,
+	O_NOWATCH
 };
 
 static const struct option own_opts[] = {{"cal", required_argument, NULL, O_CAL},
@@ -139,6 +147,9 @@ static const struct option own_opts[] = {{"cal", required_argument, NULL, O_CAL}
                                          {"gate", required_argument, NULL, O_GATE},
                                          {"max-gap-s", required_argument, NULL, O_GAP},
                                          {"status-s", required_argument, NULL, O_STATUS},
+                                         {"watch-period-s", required_argument, NULL, O_WPERIOD},
+                                         {"watch-threshold-px", required_argument, NULL, O_WTHRESH},
+                                         {"no-watch", no_argument, NULL, O_NOWATCH},
                                          {"quiet", no_argument, NULL, 'q'},
                                          {"help", no_argument, NULL, 'h'},
                                          {NULL, 0, NULL, 0}};
@@ -236,6 +247,7 @@ typedef struct {
 	wl_live_opts lo;
 	wl_track_opts to;
 	cli_track_extra tx;
+	wl_watch_opts wo;
 	const char *cal_path;
 	const char *publish[MAX_PUBLISH + 1];
 	int npublish;
@@ -371,6 +383,13 @@ static int own_option(live_args *a, int c, const char *arg)
 		return num_opt("--max-gap-s", arg, 1e-3, 3600, &lo->filter.max_gap_s);
 	case O_STATUS:
 		return num_opt("--status-s", arg, 0.1, 3600, &a->status_s);
+	case O_WPERIOD:
+		return num_opt("--watch-period-s", arg, 0.01, 1e6, &a->wo.period_s);
+	case O_WTHRESH:
+		return num_opt("--watch-threshold-px", arg, 0.01, 1000, &a->wo.threshold_px);
+	case O_NOWATCH:
+		a->wo.enabled = 0;
+		return 0;
 	case 'q':
 		a->quiet = 1;
 		return 0;
@@ -414,7 +433,11 @@ static int parse(int argc, char **argv, live_args *a)
 	a->publish[a->npublish] = NULL;
 	a->lo.publish = a->publish;
 	a->lo.input.options = a->nsrcopt ? a->srcopt : NULL;
-	return cli_track_finish("live", &a->to, &a->tx);
+	if ((rc = cli_track_finish("live", &a->to, &a->tx)) != 0)
+		return rc;
+	snprintf(a->wo.family, sizeof a->wo.family, "%s", a->to.family);
+	a->lo.watch = &a->wo;
+	return 0;
 }
 
 static const char *end_text(wl_decode_end e)
@@ -447,6 +470,12 @@ static void summary(const live_args *a, const wl_live_stats *st)
 	       (long long)st->send_failures, st->robots_seen, st->reconnects);
 	if (a->lo.raw_path)
 		printf("%s: %lld frames recorded\n", a->lo.raw_path, (long long)st->frames_tracked);
+	if (a->wo.enabled)
+		printf("camera watch: %d checks, %d move%s%s\n", st->camera_checks, st->camera_moves,
+		       st->camera_moves == 1 ? "" : "s",
+		       isfinite(st->camera_suspect_from_s)
+		               ? " (poses suspect from a move that could not be registered)"
+		               : "");
 }
 
 int cmd_live(int argc, char **argv)
@@ -461,6 +490,7 @@ int cmd_live(int argc, char **argv)
 	memset(&a, 0, sizeof a);
 	wl_live_opts_init(&a.lo);
 	wl_track_opts_init(&a.to);
+	wl_watch_opts_init(&a.wo);
 	a.status_s = -1;
 	if ((rc = parse(argc, argv, &a)) != 0)
 		return rc < 0 ? WL_EXIT_OK : rc;
