@@ -26,7 +26,6 @@
 #define _POSIX_C_SOURCE 200809L
 #include "track/watch.h"
 
-#include <cjson/cJSON.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -38,6 +37,7 @@
 #include "core/jsonio.h"
 #include "core/linalg.h"
 #include "decode/decode.h"
+#include "formats/rawside.h"
 #include "track/track.h"
 
 #define MAX_MARKERS 64
@@ -591,90 +591,48 @@ static wl_status check(wl_watch *w, const uint8_t *luma, int stride, double t_s,
 
 int wl_watch_sidecar_path(const char *raw_csv_path, char *buf, size_t cap)
 {
-	const char *slash = strrchr(raw_csv_path, '/'), *dot = strrchr(raw_csv_path, '.');
-	size_t stem = dot && (!slash || dot > slash) ? (size_t)(dot - raw_csv_path) : strlen(raw_csv_path);
-	return (size_t)snprintf(buf, cap, "%.*s.json", (int)stem, raw_csv_path) < cap;
+	return wl_rawside_path(raw_csv_path, buf, cap);
 }
 
 wl_status wl_watch_sidecar_check(const char *raw_csv_path, wl_err *err)
 {
-	char path[4096], *text = NULL;
-	size_t len = 0;
-	cJSON *root = NULL;
-	const char *fmt;
-	wl_status st = WL_OK;
-	wl_err ignore;
-	if (!wl_watch_sidecar_path(raw_csv_path, path, sizeof path))
-		return wl_err_set(err, WL_EINVAL, "'%s': path too long for its sidecar", raw_csv_path);
-	if (wl_read_file(path, 1 << 24, &text, &len, &ignore) != WL_OK)
-		return WL_OK; /* nothing there (or unreadable: the atomic write will say) */
-	root = cJSON_ParseWithLength(text, len);
-	fmt = wl_json_string_or(root, "format", NULL);
-	if (!fmt || strcmp(fmt, "wakeline raw sidecar") != 0)
-		st = wl_err_set(err, WL_EINVAL,
-		                "'%s' exists and is not a RAW sidecar, but it is where the sidecar of '%s' "
-		                "goes (same stem, .json): name the RAW.csv differently",
-		                path, raw_csv_path);
-	cJSON_Delete(root);
-	free(text);
-	return st;
-}
-
-static void add_num_or_null(cJSON *o, const char *key, double v)
-{
-	if (isfinite(v))
-		cJSON_AddNumberToObject(o, key, v);
-	else
-		cJSON_AddNullToObject(o, key);
+	return wl_rawside_check(raw_csv_path, err);
 }
 
 wl_status wl_watch_write_sidecar(const wl_watch *w, const char *raw_csv_path, wl_err *err)
 {
-	char path[4096];
-	cJSON *root = cJSON_CreateObject(), *o, *a;
+	wl_rawside *s = malloc(sizeof *s);
 	wl_status st;
-	if (!root)
+	if (!s)
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the RAW sidecar");
-	if (!wl_watch_sidecar_path(raw_csv_path, path, sizeof path)) {
-		cJSON_Delete(root);
-		return wl_err_set(err, WL_EINVAL, "'%s': path too long for its sidecar", raw_csv_path);
-	}
-	cJSON_AddStringToObject(root, "format", "wakeline raw sidecar");
-	cJSON_AddNumberToObject(root, "format_version", 1);
-	o = cJSON_AddObjectToObject(root, "camera_watch");
-	cJSON_AddBoolToObject(o, "enabled", w != NULL);
+	wl_rawside_init(s);
 	if (w) {
-		cJSON_AddNumberToObject(o, "period_s", w->o.period_s);
-		cJSON_AddNumberToObject(o, "threshold_px", w->o.threshold_px);
-		cJSON_AddNumberToObject(o, "min_markers", w->o.min_markers);
-		cJSON_AddNumberToObject(o, "markers", w->n);
-		cJSON_AddNumberToObject(o, "markers_in_view", w->first_markers);
-		cJSON_AddNumberToObject(o, "checks", w->checks);
-		cJSON_AddNumberToObject(o, "tag_checks", w->tag_checks);
+		s->enabled = 1;
+		s->period_s = w->o.period_s;
+		s->threshold_px = w->o.threshold_px;
+		s->min_markers = w->o.min_markers;
+		s->markers = w->n;
+		s->markers_in_view = w->first_markers;
+		s->checks = w->checks;
+		s->tag_checks = w->tag_checks;
+		s->n_moves = w->n_moves < WL_RAWSIDE_MAX_MOVES ? w->n_moves : WL_RAWSIDE_MAX_MOVES;
+		for (int i = 0; i < s->n_moves; i++) {
+			const wl_camera_move *mv = &w->moves[i];
+			wl_rawside_move *o = &s->moves[i];
+			o->t_s = mv->t_s;
+			o->frame = (long long)mv->frame;
+			o->last_still_t_s = mv->last_still_t_s >= 0 ? mv->last_still_t_s : NAN;
+			o->shift_px = mv->shift_px;
+			o->markers = mv->markers;
+			o->reregistered = mv->reregistered;
+			o->rms_px = mv->rms_px;
+			o->turn_deg = mv->turn_deg;
+			o->centre_shift_mm = mv->centre_shift_mm;
+		}
+		s->suspect_from_t_s = w->suspect_from;
+		s->suspect_to_t_s = w->suspect_to;
 	}
-	a = cJSON_AddArrayToObject(root, "camera_moves");
-	for (int i = 0; w && i < w->n_moves; i++) {
-		const wl_camera_move *mv = &w->moves[i];
-		cJSON *m = cJSON_CreateObject();
-		cJSON_AddItemToArray(a, m);
-		cJSON_AddNumberToObject(m, "t_s", mv->t_s);
-		cJSON_AddNumberToObject(m, "frame", (double)mv->frame);
-		add_num_or_null(m, "last_still_t_s", mv->last_still_t_s >= 0 ? mv->last_still_t_s : NAN);
-		cJSON_AddNumberToObject(m, "shift_px", mv->shift_px);
-		cJSON_AddBoolToObject(m, "reregistered", mv->reregistered);
-		cJSON_AddNumberToObject(m, "markers", mv->markers);
-		add_num_or_null(m, "rms_px", mv->rms_px);
-		add_num_or_null(m, "turn_deg", mv->turn_deg);
-		add_num_or_null(m, "centre_shift_mm", mv->centre_shift_mm);
-	}
-	a = cJSON_AddArrayToObject(root, "suspect");
-	if (w && isfinite(w->suspect_from)) {
-		cJSON *s = cJSON_CreateObject();
-		cJSON_AddItemToArray(a, s);
-		cJSON_AddNumberToObject(s, "from_t_s", w->suspect_from);
-		add_num_or_null(s, "to_t_s", w->suspect_to);
-	}
-	st = wl_json_save(path, root, err);
-	cJSON_Delete(root);
+	st = wl_rawside_write(raw_csv_path, s, err);
+	free(s);
 	return st;
 }
