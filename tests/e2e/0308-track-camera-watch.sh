@@ -11,7 +11,9 @@
 # --no-watch the sidecar says the watch was off and the positions after the
 # move are off by more than 5 mm (so the scene does test the watch); with only
 # two floor markers known the move cannot be registered and the poses are
-# marked suspect (raw.json "suspect", and a warning).
+# marked suspect (raw.json "suspect", and a warning).  Through clean and
+# measure, the moves reach clean.json ("camera") and summary.json (per run
+# camera_moves and camera_suspect_s; null without a RAW sidecar).
 source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
 need_synth
 scene() { # $1: extra top-level keys
@@ -113,6 +115,35 @@ print('two markers in view:', mv, su)
 assert s['camera_watch']['markers_in_view'] == 2
 assert len(mv) == 1 and mv[0]['reregistered'] is False and 5.0 <= mv[0]['t_s'] <= 6.0
 assert len(su) == 1 and su[0]['from_t_s'] < 5.0 and su[0]['to_t_s'] is None" || fail "suspect poses not recorded"
+# the moves reach clean.json and summary.json: per run, the moves in its
+# span (camera_moves) and the seconds of suspect poses (camera_suspect_s);
+# a RAW.csv without its sidecar gives null (unknown)
+for r in raw few; do
+	"$WAKELINE" clean $r.csv -o ${r}_clean.csv -q --cal cal.json || fail "clean $r exited $?"
+	"$WAKELINE" measure ${r}_clean.csv -o ${r}_summary.json -q || fail "measure $r exited $?"
+done
+cp raw.csv bare.csv
+"$WAKELINE" clean bare.csv -o bare_clean.csv -q --cal cal.json || fail "clean bare exited $?"
+"$WAKELINE" measure bare_clean.csv -o bare_summary.json -q || fail "measure bare exited $?"
+$PY - <<'PY' || fail "the camera moves did not reach summary.json"
+import json
+c = json.load(open("raw_clean.json"))["camera"]
+assert c["watched"] is True and len(c["moves"]) == 1 and c["moves"][0]["reregistered"] is True, c
+assert json.load(open("bare_clean.json"))["camera"] is None
+def runs(f):
+    return [(r["camera_moves"], r["camera_suspect_s"], r["t_start_s"], r["duration_s"]) for r in json.load(open(f))["runs"]]
+ok, few, bare = runs("raw_summary.json"), runs("few_summary.json"), runs("bare_summary.json")
+print("summary camera columns: registered %s; two markers %s; no sidecar %s" % (ok, few, bare))
+for m, s, t0, d in ok:       # a run over 5.0 s holds the move, registered: nothing suspect
+    assert s == 0 and m == (1 if t0 < 5.5 and t0 + d > 4.8 else 0), (m, s, t0, d)
+assert any(m == 1 for m, s, t0, d in ok)
+for m, s, t0, d in few:      # not registered: suspect from the last still check (4.8 s) to the end
+    end = t0 + d
+    assert abs(s - max(0.0, end - max(t0, 4.8))) < 0.1, (s, t0, d)
+assert any(s > 1 for m, s, t0, d in few)
+assert all(m is None and s is None for m, s, t0, d in bare)
+PY
+
 # the sidecar never overwrites another file: a RAW.csv named like the
 # calibration (cal.csv -> cal.json) is refused before the run
 cp cal.json cal.keep
