@@ -17,6 +17,7 @@
 #define WL_CALIB_H
 
 #include "core/camera.h"
+#include "core/diag.h"
 #include "core/err.h"
 #include "formats/cal.h" /* wl_calib_point, the shared keys of CAL.json */
 
@@ -202,6 +203,8 @@ typedef struct {
 	int no_distortion;        /* 1: do not estimate distortion from the points */
 	const char *height_route; /* route name when camera_height_m came from elsewhere
 	                           * ("robot_tags"); NULL: the tape measure */
+	const wl_diag
+	        *diag; /* warnings: points left out or far off, an undetermined focal length (may be NULL) */
 } wl_calib_opts;
 
 /* Routes (wl_calib.route): where the focal length and principal point came
@@ -223,8 +226,6 @@ typedef struct {
 	double cv_rms_px;  /* leave-one-marker-out: each marker predicted by a fit to the others */
 } wl_calib_model;
 
-#define WL_CALIB_MAX_WARN 16
-
 typedef struct {
 	int n_used;                 /* points in the final fit */
 	int outlier;                /* index of the point left out, -1 if none */
@@ -241,8 +242,7 @@ typedef struct {
 	double principal_offset_mm; /* assumed principal point: the offset it can cause at the
 	                             * default plane height (see wl_calib.principal_offset_mm_per_m) */
 	double principal_cx_sd_px, principal_cy_sd_px; /* fitted principal point: its uncertainty */
-	int n_warn;
-	char warn[WL_CALIB_MAX_WARN][200];
+	const wl_diag *diag;                           /* during the call: the options' */
 } wl_calib_report;
 
 /* Calibrates from n >= 4 correspondences: normalised DLT homography and
@@ -251,7 +251,7 @@ typedef struct {
  * oblique enough, else opts->hfov_deg, else WL_ECALIB saying what is
  * needed), the pose (refined by Levenberg-Marquardt through the water model
  * when opts->water_depth_m > 0), and residuals.  Points with z_m != 0 are
- * used as 3-D points.  cal is initialised here; warnings go to rep. */
+ * used as 3-D points.  cal is initialised here; warnings go to opts->diag. */
 wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *opts, wl_calib *cal,
                          wl_calib_report *rep, wl_err *err);
 

@@ -40,14 +40,13 @@ typedef struct {
 	double f_sd_px; /* > 0: f assumed (field of view) with this uncertainty */
 } plan;
 
-static void warn(wl_calib_report *rep, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void warn(wl_calib_report *rep, const char *fmt, ...)
+/* A warning for the user, through the options' wl_diag. */
+static void warn(const wl_calib_report *rep, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void warn(const wl_calib_report *rep, const char *fmt, ...)
 {
 	va_list ap;
-	if (rep->n_warn >= WL_CALIB_MAX_WARN)
-		return;
 	va_start(ap, fmt);
-	vsnprintf(rep->warn[rep->n_warn++], sizeof rep->warn[0], fmt, ap);
+	wl_diag_vwarn(rep->diag, "calibrate", fmt, ap);
 	va_end(ap);
 }
 
@@ -475,7 +474,11 @@ static wl_status initial_camera(wl_calib *cal, work *w, const wl_calib_opts *o, 
 		        "%d points, but only %d at one height: give at least 4 points at one height "
 		        "or 6 spread over several",
 		        w->n, group);
-	memset(rep, 0, sizeof *rep);
+	{
+		const wl_diag *d = rep->diag; /* the planar try's report is dropped, not the channel */
+		memset(rep, 0, sizeof *rep);
+		rep->diag = d;
+	}
 	rep->outlier = rep->worst = -1;
 	memcpy(w->used, saved, sizeof(int) * (size_t)w->n);
 	memset(pl, 0, sizeof *pl);
@@ -774,6 +777,7 @@ static wl_status solve(work *wk, const wl_calib_point *pts, int n, const wl_cali
 	memset(rep, 0, sizeof *rep);
 	memset(&pl, 0, sizeof pl);
 	rep->outlier = rep->worst = -1;
+	rep->diag = o->diag;
 	if (n < 4)
 		return wl_err_set(err, WL_ECALIB,
 		                  "%d usable point%s, calibration needs at least 4: add markers or points", n,
@@ -888,6 +892,7 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the calibration");
 	}
 	st = solve(wk, pts, n, o, cal, rep, err);
+	rep->diag = NULL; /* borrowed for the call only */
 	free(wk);
 	return st;
 }

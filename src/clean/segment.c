@@ -209,75 +209,50 @@ out:
 	free(I);
 }
 
-void clean_cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *rb)
+/* Every sample left out with the same cut. */
+static void cut_all(work *w, wl_clean_cut cut)
 {
-	double *spd = malloc((w->n ? w->n : 1) * sizeof *spd), *tmp = malloc((w->n ? w->n : 1) * sizeof *tmp);
-	double margin = p->wall_margin_m >= 0 ? p->wall_margin_m : 0.5 * p->body_diameter_m;
-	size_t on, end, from, seg = 0, m = 0;
-	rb->onset_s = rb->wall_s = rb->period_s = rb->window_s = NAN;
-	rb->speed_ref_mps = rb->yaw_ref_radps = rb->wall_dist_m = rb->settle_tol_mps = rb->settle_tol_radps =
-	        NAN;
-	rb->trim_s = w->n ? w->t[0] : NAN;
-	rb->trim_reason = "none";
-	rb->end_reason = p->n_outline ? "end-of-track" : "no-outline";
-	if (!spd || !tmp || w->n == 0)
-		goto out;
 	for (size_t i = 0; i < w->n; i++) {
-		spd[i] = hypot(w->vx[i], w->vy[i]);
-		if (isfinite(w->sv[i]))
-			tmp[m++] = w->sv[i];
+		w->cut[i] = cut;
+		w->seg[i] = -1;
 	}
-	rb->speed_sigma_mps = clean_median(tmp, m);
-	/* 5 sigma of one velocity component: a still robot's speed (Rayleigh)
-	 * exceeds it with probability exp(-12.5) */
-	rb->speed_threshold_mps = fmax(p->min_speed_mps, 5 * rb->speed_sigma_mps);
-	{
-		double span = 0;
-		for (size_t q = 0; q < w->npieces; q++)
-			span += w->t[w->pstart[q + 1] - 1] - w->t[w->pstart[q]];
-		if (span < p->min_segment_s) {
-			/* too little to tell moving from still: left out like a short piece */
-			rb->trim_reason = rb->end_reason = "too-short";
-			for (size_t i = 0; i < w->n; i++) {
-				w->cut[i] = WL_CUT_GAP;
-				w->seg[i] = -1;
-			}
-			goto out;
+}
+
+/* Total time covered by the pieces. */
+static double pieces_span(const work *w)
+{
+	double span = 0;
+	for (size_t q = 0; q < w->npieces; q++)
+		span += w->t[w->pstart[q + 1] - 1] - w->t[w->pstart[q]];
+	return span;
+}
+
+/* The first sample closer to the tank wall than the margin, from `from` on
+ * (and not before the trim unless trimming is automatic); sets wall_s and
+ * returns the last sample before it, else the last sample. */
+static size_t find_wall(const work *w, const wl_clean_params *p, wl_clean_robot *rb, size_t from)
+{
+	double margin = p->wall_margin_m >= 0 ? p->wall_margin_m : 0.5 * p->body_diameter_m;
+	for (size_t i = from; p->n_outline && i < w->n; i++) {
+		double d;
+		if (p->trim != WL_TRIM_AUTO && w->t[i] < rb->trim_s)
+			continue;
+		d = wl_clean_outline_dist(p, w->x[i], w->y[i]);
+		if (d < margin) {
+			rb->wall_s = w->t[i];
+			rb->wall_dist_m = d;
+			rb->end_reason = "wall";
+			return i ? i - 1 : 0;
 		}
 	}
-	on = find_onset(w, spd, rb->speed_threshold_mps);
-	if (on == (size_t)-1) {
-		rb->still = 1;
-		rb->trim_reason = rb->end_reason = "still";
-		for (size_t i = 0; i < w->n; i++) {
-			w->cut[i] = WL_CUT_STILL;
-			w->seg[i] = -1;
-		}
-		goto out;
-	}
-	rb->onset_s = w->t[on];
-	if (p->trim == WL_TRIM_FIXED) {
-		rb->trim_s = w->t[0] + p->trim_s;
-		rb->trim_reason = "fixed";
-	}
-	/* the wall: from the motion onset (auto) or the trim (fixed, none) */
-	end = w->n - 1;
-	from = p->trim == WL_TRIM_AUTO ? on : 0;
-	if (p->n_outline)
-		for (size_t i = from; i < w->n; i++) {
-			if (p->trim != WL_TRIM_AUTO && w->t[i] < rb->trim_s)
-				continue;
-			double d = wl_clean_outline_dist(p, w->x[i], w->y[i]);
-			if (d < margin) {
-				rb->wall_s = w->t[i];
-				rb->wall_dist_m = d;
-				rb->end_reason = "wall";
-				end = i ? i - 1 : 0;
-				break;
-			}
-		}
-	if (p->trim == WL_TRIM_AUTO)
-		settle(w, p, rb, spd, on, end > on ? end : on);
+	return w->n - 1;
+}
+
+/* Cuts by time (start, wall), then numbers the pieces that are left and
+ * long enough; shorter ones are cut 'gap'. */
+static void assign_segments(work *w, const wl_clean_params *p, const wl_clean_robot *rb)
+{
+	int seg = 0;
 	for (size_t i = 0; i < w->n; i++) {
 		w->seg[i] = -1;
 		w->cut[i] = w->t[i] < rb->trim_s                              ? WL_CUT_START
@@ -300,9 +275,55 @@ void clean_cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *rb
 			continue;
 		}
 		for (size_t i = a; i <= b; i++)
-			w->seg[i] = (int)seg;
+			w->seg[i] = seg;
 		seg++;
 	}
+}
+
+void clean_cut_and_segment(work *w, const wl_clean_params *p, wl_clean_robot *rb)
+{
+	double *spd = malloc((w->n ? w->n : 1) * sizeof *spd), *tmp = malloc((w->n ? w->n : 1) * sizeof *tmp);
+	size_t on, end, m = 0;
+	rb->onset_s = rb->wall_s = rb->period_s = rb->window_s = NAN;
+	rb->speed_ref_mps = rb->yaw_ref_radps = rb->wall_dist_m = rb->settle_tol_mps = rb->settle_tol_radps =
+	        NAN;
+	rb->trim_s = w->n ? w->t[0] : NAN;
+	rb->trim_reason = "none";
+	rb->end_reason = p->n_outline ? "end-of-track" : "no-outline";
+	if (!spd || !tmp || w->n == 0)
+		goto out;
+	for (size_t i = 0; i < w->n; i++) {
+		spd[i] = hypot(w->vx[i], w->vy[i]);
+		if (isfinite(w->sv[i]))
+			tmp[m++] = w->sv[i];
+	}
+	rb->speed_sigma_mps = clean_median(tmp, m);
+	/* 5 sigma of one velocity component: a still robot's speed (Rayleigh)
+	 * exceeds it with probability exp(-12.5) */
+	rb->speed_threshold_mps = fmax(p->min_speed_mps, 5 * rb->speed_sigma_mps);
+	if (pieces_span(w) < p->min_segment_s) {
+		/* too little to tell moving from still: left out like a short piece */
+		rb->trim_reason = rb->end_reason = "too-short";
+		cut_all(w, WL_CUT_GAP);
+		goto out;
+	}
+	on = find_onset(w, spd, rb->speed_threshold_mps);
+	if (on == (size_t)-1) {
+		rb->still = 1;
+		rb->trim_reason = rb->end_reason = "still";
+		cut_all(w, WL_CUT_STILL);
+		goto out;
+	}
+	rb->onset_s = w->t[on];
+	if (p->trim == WL_TRIM_FIXED) {
+		rb->trim_s = w->t[0] + p->trim_s;
+		rb->trim_reason = "fixed";
+	}
+	/* the wall: from the motion onset (auto) or the trim (fixed, none) */
+	end = find_wall(w, p, rb, p->trim == WL_TRIM_AUTO ? on : 0);
+	if (p->trim == WL_TRIM_AUTO)
+		settle(w, p, rb, spd, on, end > on ? end : on);
+	assign_segments(w, p, rb);
 out:
 	free(spd);
 	free(tmp);

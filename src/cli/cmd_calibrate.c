@@ -1,6 +1,5 @@
 /* cmd_calibrate.c: `wakeline calibrate`: floor markers or hand-picked points -> CAL.json. */
 #define _POSIX_C_SOURCE 200809L
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -17,47 +16,21 @@
 
 const char cmd_calibrate_summary[] = "floor markers or picked points -> camera model (CAL.json)";
 
-static const char usage_text[] =
+static const char HEAD[] =
         "usage: wakeline calibrate SOURCE (--layout LAYOUT.csv | --points POINTS.csv) -o CAL.json [options]\n"
         "\n"
         "Finds the camera over the tank: the floor homography, the focal length, the\n"
         "camera's position and tilt, and (with --water-depth-m) refraction at the\n"
         "water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
         "setting as the runs.\n"
-        "\n"
-        "  --layout FILE        floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\n"
-        "                       markers are found in SOURCE (AprilTag)\n"
-        "  --points FILE        hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]\n"
-        "  -o, --output FILE    CAL.json to write (not written on error)\n"
-        "  --lens FILE          LENS.json from 'wakeline lens' (intrinsics and distortion)\n"
-        "  --hfov-deg A         horizontal field of view, when neither the lens nor the view\n"
-        "                       gives the focal length\n"
-        "  --camera-height-m H  the lens's height above the floor (tape measure): fixes the\n"
-        "                       focal length of a view that looks straight down\n"
-        "  --camera-height-tol-m T  its tolerance (default 0.01)\n"
-        "  --plane-height-m H   height of the robots' marker plane above the floor (default 0)\n"
-        "  --plane-height-tol-m T   its tolerance, recorded for uncertainty budgets (default 0.002)\n"
-        "  --water-depth-tol-m T    tolerance of --water-depth-m (default 0.003)\n"
-        "  --no-distortion      do not estimate lens distortion from the markers\n"
-        "  --refine-with CLIP   measure the camera height from the robots' tags seen in a run\n"
-        "                       (needs their printed size and plane height above the floor)\n"
-        "  --tag-size-m S       printed side of the robots' tags (black square), metres\n"
-        "  --tag-size-tol-m T   its tolerance (default 0.0002)\n"
-        "  --robots ROBOTS.csv  per robot: id, tag_size_m, plane_height_m (other columns ignored)\n"
-        "  --refine-frames N    frames of CLIP searched for tags (default 150, spread over it)\n"
-        "  --water-depth-m D    the floor markers lie under D metres of still water\n"
-        "  --water-index N      refractive index of the water (default 1.333)\n"
-        "  --family NAME        tag family (default tag36h11)\n"
-        "  --at T               clip: start at T seconds (default 0)\n"
-        "  --span S             clip: use S seconds of frames (default 2)\n"
-        "  --tank \"x,y;x,y;...\" tank outline in metres (default: the markers' bounding rectangle)\n"
-        "  -q, --quiet          no progress line\n"
-        "  -h, --help           this text\n"
+        "\n";
+static const char TAIL[] =
         "\n"
         "Routes to the focal length: --lens; markers at two or more heights (z_m in the\n"
         "layout, e.g. one on a block: also fixes the principal point); --camera-height-m;\n"
-        "an oblique view; --hfov-deg.  Without --lens, distortion is estimated from the\n"
-        "markers when they cover the image well.  The quality report goes to standard output.\n"
+        "--refine-with (the robots' tags over a run); an oblique view; --hfov-deg.\n"
+        "Without --lens, distortion is estimated from the markers when they cover the\n"
+        "image well.  The quality report goes to standard output.\n"
         "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
@@ -178,7 +151,7 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 /* Detected markers -> correspondences: centre, and the corners when the
  * layout gives the marker's size. */
 static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *marks, int n_marks,
-                             wl_calib_point *pts, int max, int *n_seen)
+                             wl_calib_point *pts, int max, int *n_seen, const wl_diag *diag)
 {
 	int n = 0;
 	*n_seen = 0;
@@ -186,21 +159,25 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 		wl_tag_obs o;
 		const wl_calib_marker *m = &marks[i];
 		if (!wl_calib_tags_get(tags, m->id, &o)) {
-			printf("  warning: marker %ld (layout line %ld) was not found: check that it is in "
-			       "view, "
-			       "lit and flat\n",
-			       m->id, m->line);
+			wl_diag_warn(diag, "calibrate",
+			             "marker %ld (layout line %ld) was not found: check that it is in view, "
+			             "lit and flat",
+			             m->id, m->line);
 			continue;
 		}
 		(*n_seen)++;
 		if (o.move_px > MOVE_WARN_PX)
-			printf("  warning: marker %ld moves by up to %.1f px between frames: turn image "
-			       "stabilisation off and fix the camera\n",
-			       m->id, o.move_px);
+			wl_diag_warn(diag, "calibrate",
+			             "marker %ld moves by up to %.1f px between frames: turn image "
+			             "stabilisation off "
+			             "and fix the camera",
+			             m->id, o.move_px);
 		if (o.margin < MIN_MARGIN)
-			printf("  warning: marker %ld is weakly detected (decision margin %.0f, below %.0f): "
-			       "more light, less glare, or a larger print\n",
-			       m->id, o.margin, MIN_MARGIN);
+			wl_diag_warn(diag, "calibrate",
+			             "marker %ld is weakly detected (decision margin %.0f, below %.0f): more "
+			             "light, "
+			             "less glare, or a larger print",
+			             m->id, o.margin, MIN_MARGIN);
 		if (n >= max)
 			break;
 		memset(&pts[n], 0, sizeof pts[n]);
@@ -354,7 +331,7 @@ static void bounding_outline(const wl_calib_point *pts, int n, const wl_calib_ma
 }
 
 /* Warns when the outline reaches far beyond the points (extrapolation). */
-static void check_outline(const wl_calib *cal)
+static void check_outline(const wl_calib *cal, const wl_diag *diag)
 {
 	double x0 = INFINITY, y0 = INFINITY, x1 = -INFINITY, y1 = -INFINITY, size, worst = 0;
 	for (int i = 0; i < cal->n_points; i++) {
@@ -372,10 +349,10 @@ static void check_outline(const wl_calib *cal)
 		worst = fmax(worst, hypot(dx, dy));
 	}
 	if (worst > 0.25 * size)
-		printf("  warning: the tank outline reaches %.2f m beyond the markers: positions out there "
-		       "are "
-		       "extrapolated; put markers near the tank's corners\n",
-		       worst);
+		wl_diag_warn(diag, "calibrate",
+		             "the tank outline reaches %.2f m beyond the markers: positions out there are "
+		             "extrapolated; put markers near the tank's corners",
+		             worst);
 	/* the outline must be counter-clockwise */
 }
 
@@ -447,147 +424,78 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 	if (w)
 		printf("; worst point '%s' %.3f px (%.2f mm)", w->id, w->residual_px, w->residual_mm);
 	printf("\n  plane height %.3f m\n", cal->plane_height_m);
-	for (int i = 0; i < rep->n_warn; i++)
-		printf("  warning: %s\n", rep->warn[i]);
-	check_outline(cal);
 }
 
 static int parse_args(int argc, char **argv, options *op)
 {
-	static const struct option opts[] = {
-	        {"layout", required_argument, NULL, 'L'},
-	        {"points", required_argument, NULL, 'P'},
-	        {"output", required_argument, NULL, 'o'},
-	        {"lens", required_argument, NULL, 'l'},
-	        {"hfov-deg", required_argument, NULL, 'f'},
-	        {"plane-height-m", required_argument, NULL, 'z'},
-	        {"water-depth-m", required_argument, NULL, 'd'},
-	        {"water-index", required_argument, NULL, 'n'},
-	        {"family", required_argument, NULL, 'F'},
-	        {"at", required_argument, NULL, 'a'},
-	        {"span", required_argument, NULL, 's'},
-	        {"tank", required_argument, NULL, 't'},
-	        {"quiet", no_argument, NULL, 'q'},
-	        {"help", no_argument, NULL, 'h'},
-	        {"camera-height-m", required_argument, NULL, 'H'},
-	        {"camera-height-tol-m", required_argument, NULL, 'T'},
-	        {"plane-height-tol-m", required_argument, NULL, 'Z'},
-	        {"water-depth-tol-m", required_argument, NULL, 'W'},
-	        {"no-distortion", no_argument, NULL, 'D'},
-	        {"refine-with", required_argument, NULL, 'R'},
-	        {"tag-size-m", required_argument, NULL, 'S'},
-	        {"tag-size-tol-m", required_argument, NULL, 'U'},
-	        {"robots", required_argument, NULL, 'B'},
-	        {"refine-frames", required_argument, NULL, 'N'},
-	        {NULL, 0, NULL, 0},
-	};
-	int c;
+	const cli_opt tab[] = {
+	        CLI_OPT_STR(
+	                "layout", 0, "FILE",
+	                "floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\nmarkers are found in "
+	                "SOURCE (AprilTag)",
+	                &op->layout),
+	        CLI_OPT_STR("points", 0, "FILE", "hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]",
+	                    &op->points),
+	        CLI_OPT_STR("output", 'o', "FILE", "CAL.json to write (not written on error)", &op->out),
+	        CLI_OPT_STR("lens", 0, "FILE", "LENS.json from 'wakeline lens' (intrinsics and distortion)",
+	                    &op->lens),
+	        CLI_OPT_NUM("hfov-deg", "A",
+	                    "horizontal field of view, when neither the lens nor the view\ngives the focal "
+	                    "length",
+	                    &op->hfov_deg, 0, 179),
+	        CLI_OPT_NUM("plane-height-m", "H",
+	                    "height of the robots' marker plane above the floor (default 0)", &op->plane_m,
+	                    -10, 10),
+	        CLI_OPT_NUM("water-depth-m", "D", "the floor markers lie under D metres of still water",
+	                    &op->water_m, 0, 100),
+	        CLI_OPT_NUM("water-index", "N", "refractive index of the water (default 1.333)",
+	                    &op->water_index, 1, 3),
+	        CLI_OPT_STR("family", 0, "NAME", "tag family (default tag36h11)", &op->family),
+	        CLI_OPT_NUM("at", "T", "clip: start at T seconds (default 0)", &op->at_s, 0, 1e9),
+	        CLI_OPT_POS("span", "S", "clip: use S seconds of frames (default 2)", &op->span_s),
+	        CLI_OPT_STR("tank", 0, "\"x,y;x,y;...\"",
+	                    "tank outline in metres (default: the markers' bounding rectangle)", &op->tank),
+	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &op->quiet),
+	        CLI_OPT_SECTION("What the lab measured (routes without a field-of-view guess):"),
+	        CLI_OPT_NUM("camera-height-m", "H",
+	                    "the lens's height above the floor (tape measure): fixes the\nfocal length of a "
+	                    "view that looks straight down",
+	                    &op->cam_h_m, 0, 1000),
+	        CLI_OPT_NUM("camera-height-tol-m", "T", "its tolerance (default 0.01)", &op->cam_h_tol_m, 0,
+	                    100),
+	        CLI_OPT_NUM(
+	                "plane-height-tol-m", "T",
+	                "tolerance of --plane-height-m, recorded for uncertainty\nbudgets (default 0.002)",
+	                &op->plane_tol_m, 0, 100),
+	        CLI_OPT_NUM("water-depth-tol-m", "T", "tolerance of --water-depth-m (default 0.003)",
+	                    &op->water_tol_m, 0, 100),
+	        CLI_OPT_FLAG("no-distortion", 0, "do not estimate lens distortion from the markers",
+	                     &op->no_distortion),
+	        CLI_OPT_STR("refine-with", 0, "CLIP",
+	                    "measure the camera height from the robots' tags seen in a run\n(needs their "
+	                    "printed size and plane height above the floor)",
+	                    &op->refine),
+	        CLI_OPT_NUM("tag-size-m", "S", "printed side of the robots' tags (black square), metres",
+	                    &op->tag_size_m, 0, 10),
+	        CLI_OPT_NUM("tag-size-tol-m", "T", "its tolerance (default 0.0002)", &op->tag_tol_m, 0, 1),
+	        CLI_OPT_STR("robots", 0, "ROBOTS.csv",
+	                    "per robot: id, tag_size_m, plane_height_m (other columns ignored)", &op->robots),
+	        CLI_OPT_INT("refine-frames", 0, "N",
+	                    "frames of CLIP searched for tags (default 150, spread over it)",
+	                    &op->refine_frames, 10, 100000),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	int rc, first;
 	memset(op, 0, sizeof *op);
 	op->family = "tag36h11";
 	op->water_index = 1.333;
 	op->span_s = 2;
 	op->refine_frames = 150;
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
-		double *num = NULL;
-		const char *name = NULL;
-		switch (c) {
-		case 'L':
-			op->layout = optarg;
-			break;
-		case 'P':
-			op->points = optarg;
-			break;
-		case 'o':
-			op->out = optarg;
-			break;
-		case 'l':
-			op->lens = optarg;
-			break;
-		case 'F':
-			op->family = optarg;
-			break;
-		case 't':
-			op->tank = optarg;
-			break;
-		case 'q':
-			op->quiet = 1;
-			break;
-		case 'f':
-			num = &op->hfov_deg;
-			name = "--hfov-deg";
-			break;
-		case 'z':
-			num = &op->plane_m;
-			name = "--plane-height-m";
-			break;
-		case 'd':
-			num = &op->water_m;
-			name = "--water-depth-m";
-			break;
-		case 'n':
-			num = &op->water_index;
-			name = "--water-index";
-			break;
-		case 'a':
-			num = &op->at_s;
-			name = "--at";
-			break;
-		case 's':
-			num = &op->span_s;
-			name = "--span";
-			break;
-		case 'H':
-			num = &op->cam_h_m;
-			name = "--camera-height-m";
-			break;
-		case 'T':
-			num = &op->cam_h_tol_m;
-			name = "--camera-height-tol-m";
-			break;
-		case 'Z':
-			num = &op->plane_tol_m;
-			name = "--plane-height-tol-m";
-			break;
-		case 'W':
-			num = &op->water_tol_m;
-			name = "--water-depth-tol-m";
-			break;
-		case 'D':
-			op->no_distortion = 1;
-			break;
-		case 'R':
-			op->refine = optarg;
-			break;
-		case 'B':
-			op->robots = optarg;
-			break;
-		case 'S':
-			num = &op->tag_size_m;
-			name = "--tag-size-m";
-			break;
-		case 'U':
-			num = &op->tag_tol_m;
-			name = "--tag-size-tol-m";
-			break;
-		case 'N':
-			if (!cli_parse_int(optarg, &op->refine_frames) || op->refine_frames < 10 ||
-			    op->refine_frames > 100000)
-				return cli_usage_error("calibrate", "--refine-frames '%s': give 10 to 100000",
-				                       optarg);
-			break;
-		case 'h':
-			fputs(usage_text, stdout);
-			return -1;
-		default:
-			return cli_usage_error("calibrate", "unknown option");
-		}
-		if (num && !cli_parse_double(optarg, num))
-			return cli_usage_error("calibrate", "%s '%s' is not a number", name, optarg);
-	}
-	if (optind != argc - 1)
+	if ((rc = cli_parse("calibrate", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (first != argc - 1)
 		return cli_usage_error("calibrate", "give one SOURCE (a photo or a clip)");
-	op->source = argv[optind];
+	op->source = argv[first];
 	if (!op->out)
 		return cli_usage_error("calibrate", "-o CAL.json is required");
 	if (!!op->layout == !!op->points)
@@ -611,7 +519,7 @@ static int parse_args(int argc, char **argv, options *op)
 		                       "--robots ROBOTS.csv with a tag_size_m column");
 	if (op->span_s <= 0 || op->at_s < 0)
 		return cli_usage_error("calibrate", "--at must be >= 0 and --span > 0");
-	return 0;
+	return CLI_CONTINUE;
 }
 
 int cmd_calibrate(int argc, char **argv)
@@ -629,10 +537,13 @@ int cmd_calibrate(int argc, char **argv)
 	wl_calib_tags *tags = NULL;
 	outline_t outline = {0};
 	wl_err err = {0};
+	cli_diag cd;
+	const wl_diag *diag;
 	int n = 0, n_marks = 0, w = 0, h = 0, rot = 0, frames = 0, status = WL_EXIT_FAIL, r;
 	wl_track_opts_init(&robots);
-	if ((r = parse_args(argc, argv, &op)) != 0)
-		return r < 0 ? cli_finish("calibrate", WL_EXIT_OK) : r;
+	if ((r = parse_args(argc, argv, &op)) != CLI_CONTINUE)
+		return r;
+	diag = cli_diag_init(&cd, "calibrate", op.quiet);
 	if (op.tank && !parse_tank(op.tank, &outline))
 		return cli_usage_error("calibrate",
 		                       "--tank '%s': give 3 to %d corners as \"x,y;x,y;...\" in metres",
@@ -649,7 +560,7 @@ int cmd_calibrate(int argc, char **argv)
 	printf("calibrate: %s -> %s\n", op.source, op.out);
 	if (tags) {
 		int seen;
-		n = markers_to_points(tags, marks, n_marks, pts, WL_CALIB_MAX_POINTS, &seen);
+		n = markers_to_points(tags, marks, n_marks, pts, WL_CALIB_MAX_POINTS, &seen, diag);
 		printf("  markers: %d of %d found in %d frame%s\n", seen, n_marks, frames,
 		       frames == 1 ? "" : "s");
 		if (seen < 4) {
@@ -675,6 +586,7 @@ int cmd_calibrate(int argc, char **argv)
 	co.plane_height_sd_m = op.plane_tol_m;
 	co.water_depth_sd_m = op.water_tol_m;
 	co.no_distortion = op.no_distortion;
+	co.diag = diag;
 	if (op.refine) {
 		int rf = 0;
 		if (op.robots && wl_track_load_robots(op.robots, &robots, &err))
@@ -692,8 +604,6 @@ int cmd_calibrate(int argc, char **argv)
 		       ts.height_m, ts.sd_m, ts.sd_stat_m, ts.sd_plane_m, ts.sd_size_m, ts.plane_scale,
 		       ts.n_used, ts.n_sightings);
 	} else if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
-		for (int i = 0; i < rep.n_warn; i++)
-			cli_warn("calibrate", "%s", rep.warn[i]);
 		wl_err_prefix(&err, err.code, "%s", op.points ? op.points : op.source);
 		goto out;
 	}
@@ -704,6 +614,7 @@ int cmd_calibrate(int argc, char **argv)
 	make_ccw(&cal);
 	snprintf(cal.source, sizeof cal.source, "%s", op.source);
 	print_report(&op, &cal, &rep, &lens);
+	check_outline(&cal, diag);
 	if (wl_calib_save(op.out, &cal, &err))
 		goto out;
 	status = WL_EXIT_OK;

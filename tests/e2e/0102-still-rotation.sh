@@ -12,8 +12,9 @@ for r in 90 180 270; do
 	echo "rot$r.mp4: ffprobe rotation $(ffprobe -v error -show_entries stream_side_data=rotation -of default=nw=1:nk=1 rot$r.mp4)"
 done
 
-# expected: rotation_deg displayed_w displayed_h (-90 is reported as 270)
-declare -A want=([base]="0 320 240" [rot90]="90 240 320" [rot180]="180 320 240" [rot270]="270 240 320")
+# expected: rotation_deg displayed_w displayed_h; the rotation in (-180, 180] as
+# ffprobe reads the display matrix (rotate=270 is -90, a phone's portrait clip)
+declare -A want=([base]="0 320 240" [rot90]="90 240 320" [rot180]="180 320 240" [rot270]="-90 240 320")
 for c in base rot90 rot180 rot270; do
 	got=$("$WAKELINE" probe -q --json $c.mp4 | $PY -c "
 import json, sys; j = json.load(sys.stdin)

@@ -55,9 +55,11 @@ if grep -Eq '[0-9],[0-9]{6}' CAL.json; then echo "decimal comma in CAL.json"; ex
 
 # six points, one 40 px off: named in the warning and left out
 $scene points six.csv --grid six --bad 4:40 --noise 0.3 --seed 5
-"$WAKELINE" calibrate blank.png --points six.csv -o six.json > six.txt
-cat six.txt
-grep -q "warning: point 'p4' is 4[0-9]\.[0-9] px off the fit of the others: left out" six.txt
+"$WAKELINE" calibrate blank.png --points six.csv -o six.json > six.txt 2> six.err
+cat six.txt six.err
+# warnings go to standard error, the quality report to standard output
+grep -q "wakeline calibrate: warning: point 'p4' is 4[0-9]\.[0-9] px off the fit of the others: left out" six.err
+if grep -q "warning" six.txt; then echo "a warning went to standard output"; exit 1; fi
 /usr/bin/python3 -c "
 import json; c = json.load(open('six.json'))
 used = {p['id']: p['used'] for p in c['points']}

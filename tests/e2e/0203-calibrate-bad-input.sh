@@ -34,7 +34,8 @@ expect_fail few "few.csv: 3 points, calibration needs at least 4" --points few.c
 # markers listed but not in the (blank) image
 printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n3,0,1\n' > ok.csv
 expect_fail missing "only 0 of the 4 layout markers were found" --layout ok.csv
-grep -q "marker 2 (layout line 4) was not found" missing.out
+# the warnings go to standard error (the quality report alone to standard output)
+grep -q "wakeline calibrate: warning: marker 2 (layout line 4) was not found" missing.err
 # an output that cannot be written: the error names it
 printf 'u_px,v_px,x_m,y_m\n100,100,0,1\n500,120,1,1\n450,400,1,0\n80,350,0,0\n' > four.csv
 set +e; "$WAKELINE" calibrate blank.png --points four.csv --hfov-deg 60 -o no/such/dir/CAL.json 2> out.err; rc=$?; set -e

@@ -58,7 +58,7 @@ cat "$T/stdout"
 grep -q "^id 1 segment 1 (30.0 s): radius 0.5" "$T/stdout"
 grep -q "^id 7 segment 0 (25.0 s): straight" "$T/stdout"
 [ "$(wc -l < "$T/stdout")" -eq 2 ]
-! grep -q "[0-9],[0-9]" "$T/SUMMARY.json"
+if grep -q "[0-9],[0-9]" "$T/SUMMARY.json"; then echo "FAIL: a decimal comma in SUMMARY.json"; exit 1; fi
 
 $PY - "$T/SUMMARY.json" "$T/runs.csv" <<'PYEOF'
 import csv, json, math, sys
