@@ -59,7 +59,7 @@ typedef struct {
 	size_t finished;
 	size_t running;
 	double t_start, t_last_ev;
-	int journal_fd;
+	int journal_fd, journal_errno; /* the first failure to write the journal */
 	struct {
 		char path[PATH_MAX];
 		char hash[17];
@@ -88,8 +88,10 @@ wl_status batch_mark(const char *out_dir, const wl_batch_job *job, const char *d
  * them (owner NULL or ""), or only those named for one owner
  * (core/afile.h's wl_afile_set_owner), for folders that others write too. */
 void batch_remove_stale_tmp(const char *dir, const char *owner);
-/* Appends one line to the journal (fd < 0: none). */
-void batch_journal(int fd, const char *event, const char *clip, const char *hash, const char *msg);
+/* Appends one line to the journal (fd < 0: none); a failure is kept in
+ * *failed (the first errno), for the batch to report when it ends. */
+void batch_journal(int fd, int *failed, const char *event, const char *clip, const char *hash,
+                   const char *msg);
 /* A warning: to the journal and the batch's diag. */
 void batch_warn(runner *r, const char *clip, const char *msg);
 

@@ -245,7 +245,8 @@ void batch_remove_stale_tmp(const char *dir, const char *owner)
 
 /* ---- the journal ------------------------------------------------------ */
 
-void batch_journal(int fd, const char *event, const char *clip, const char *hash, const char *msg)
+void batch_journal(int fd, int *failed, const char *event, const char *clip, const char *hash,
+                   const char *msg)
 {
 	char line[1024], ts[32];
 	int n;
@@ -258,8 +259,8 @@ void batch_journal(int fd, const char *event, const char *clip, const char *hash
 		n = (int)sizeof line;
 		line[n - 1] = '\n';
 	}
-	/* one write() per line: O_APPEND puts it whole at the end */
-	if (write(fd, line, (size_t)n) < 0) {
-		/* the journal is history only; clip.json decides */
-	}
+	/* one write() per line: O_APPEND puts it whole at the end; the journal
+	 * is history only (clip.json decides), but a lost line is reported */
+	if (write(fd, line, (size_t)n) != n && !*failed)
+		*failed = errno ? errno : EIO;
 }

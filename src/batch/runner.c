@@ -69,7 +69,7 @@ static void progress(runner *r)
 
 void batch_warn(runner *r, const char *clip, const char *msg)
 {
-	batch_journal(r->journal_fd, "warn", clip, NULL, msg);
+	batch_journal(r->journal_fd, &r->journal_errno, "warn", clip, NULL, msg);
 	if (clip)
 		wl_diag_warn(r->o->diag, "batch", "%s: %s", clip, msg);
 	else
@@ -116,7 +116,7 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	j->runs = 0;
 	j->t0 = batch_now_s();
 	r->running++;
-	batch_journal(r->journal_fd, "start", j->rel, j->hash, NULL);
+	batch_journal(r->journal_fd, &r->journal_errno, "start", j->rel, j->hash, NULL);
 	emit(r, WL_BATCH_EV_START, j->rel, NULL);
 	return WL_OK;
 }
@@ -166,11 +166,11 @@ static void finish_job(runner *r, clipjob *j)
 	r->finished++;
 	if (ok) {
 		r->res->done++;
-		batch_journal(r->journal_fd, "done", j->rel, j->hash, NULL);
+		batch_journal(r->journal_fd, &r->journal_errno, "done", j->rel, j->hash, NULL);
 		emit(r, WL_BATCH_EV_DONE, j->rel, NULL);
 	} else {
 		r->res->failed++;
-		batch_journal(r->journal_fd, "fail", j->rel, j->hash, msg);
+		batch_journal(r->journal_fd, &r->journal_errno, "fail", j->rel, j->hash, msg);
 		emit(r, WL_BATCH_EV_FAIL, j->rel, msg);
 	}
 }
@@ -507,7 +507,7 @@ static void warn_manifest(runner *r, const char *fmt, const char *a, const char 
 {
 	char msg[PATH_MAX * 2];
 	snprintf(msg, sizeof msg, fmt, a, manifest_rel);
-	batch_journal(r->journal_fd, "warn", NULL, NULL, msg);
+	batch_journal(r->journal_fd, &r->journal_errno, "warn", NULL, NULL, msg);
 	snprintf(msg, sizeof msg, fmt, a, manifest);
 	wl_diag_warn(r->o->diag, "batch", "%s", msg);
 }
@@ -609,7 +609,7 @@ static int settle_without_worker(runner *r, clipjob *j)
 		batch_mark(j->out_dir, &j->job, "", -1, "", 0, j->hash_err, 0, &e2);
 		r->res->failed++;
 		r->finished++;
-		batch_journal(r->journal_fd, "fail", j->rel, NULL, j->hash_err);
+		batch_journal(r->journal_fd, &r->journal_errno, "fail", j->rel, NULL, j->hash_err);
 		emit(r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
 		return 1;
 	}
@@ -622,7 +622,7 @@ static int settle_without_worker(runner *r, clipjob *j)
 		batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, 1, NULL, 0, NULL);
 	r->res->skipped++;
 	r->finished++;
-	batch_journal(r->journal_fd, "skip", j->rel, j->hash, NULL);
+	batch_journal(r->journal_fd, &r->journal_errno, "skip", j->rel, j->hash, NULL);
 	emit(r, WL_BATCH_EV_SKIP, j->rel, NULL);
 	return 1;
 }
@@ -660,8 +660,9 @@ static void runner_release(runner *r)
 		free(r->jobs[i].wcal);
 	}
 	free(r->jobs);
-	if (r->journal_fd >= 0)
-		close(r->journal_fd);
+	if (r->journal_fd >= 0 && close(r->journal_fd) != 0 && !r->journal_errno)
+		r->journal_errno = errno;
+	r->journal_fd = -1;
 }
 
 wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
@@ -694,7 +695,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	int jobs, cpus, locked = 0;
 	batch_lock lock;
 	wl_status s;
-	char path[PATH_MAX], owner[32], old_owner[32] = "", started[32];
+	char path[PATH_MAX], jpath[PATH_MAX] = "", owner[32], old_owner[32] = "", started[32];
 	char *man_rel = NULL;
 
 	memset(res, 0, sizeof *res);
@@ -729,10 +730,12 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	snprintf(r.out_abs, sizeof r.out_abs, "%s", su.out_abs);
 	snprintf(r.clip_dir_abs, sizeof r.clip_dir_abs, "%s", su.clip_dir_abs);
 	if (o->shard_count > 1)
-		snprintf(path, sizeof path, "%s/journal-%d.log", o->out_dir, o->shard_index);
+		snprintf(jpath, sizeof jpath, "%s/journal-%d.log", o->out_dir, o->shard_index);
 	else
-		snprintf(path, sizeof path, "%s/journal.log", o->out_dir);
-	r.journal_fd = open(path, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
+		snprintf(jpath, sizeof jpath, "%s/journal.log", o->out_dir);
+	r.journal_fd = open(jpath, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
+	if (r.journal_fd < 0)
+		r.journal_errno = errno;
 	r.t_start = batch_now_s();
 	cpus = wl_batch_cpus();
 	jobs = o->jobs > 0 ? o->jobs : cpus;
@@ -758,6 +761,12 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	}
 out:
 	runner_release(&r);
+	if (s == WL_OK && r.journal_errno)
+		s = wl_err_set(
+		        err, WL_EIO,
+		        "cannot write '%s': %s: the clips' results are complete, their history is not%s",
+		        jpath, strerror(r.journal_errno),
+		        r.journal_errno == ENOSPC ? ": free some space and run again" : "");
 	if (locked) {
 		drop_lock(&lock);
 		wl_afile_set_owner(old_owner);

@@ -59,24 +59,24 @@ R="$PY $LIB/calib_routes.py"
 num() { sed -n "s/.*$1 \([-0-9.e]*\).*/\1/p" "$2" | head -1; }
 
 # no route: refused, naming the routes
-set +e
-"$WAKELINE" calibrate clip.mp4 --layout floor.csv --plane-height-m 0.25 -o none.json > none.out 2> none.err
-rc=$?; set -e
-cat none.err
-[ "$rc" -eq 1 ] || fail "a near-nadir view without a route was accepted"
-for w in --camera-height-m z_m --refine-with --lens --hfov-deg; do grep -q -- "$w" none.err || fail "the refusal does not name $w"; done
-[ ! -e none.json ] || fail "CAL.json written on error"
+check_exit "a near-nadir view without a route is refused (exit 1)" 1 \
+	"$WAKELINE" calibrate clip.mp4 --layout floor.csv --plane-height-m 0.25 -o none.json
+cp last.err none.err
+for w in --camera-height-m z_m --refine-with --lens --hfov-deg; do
+	check_grep "the refusal names $w" -F -- "$w" none.err
+done
+check_no_file "no CAL.json is written on error" none.json
 
 # (a) the measured camera height
 "$WAKELINE" calibrate clip.mp4 --layout floor.csv --camera-height-m 1.604 --camera-height-tol-m 0.01 \
 	--plane-height-m 0.25 -o a.json > a.txt || fail "calibrate (a) exited $?"
 cat a.txt
-grep -q "route: measured camera height" a.txt || fail "(a): route not reported"
+check_grep "(a): the report names the route" "route: measured camera height" a.txt
 "$WAKELINE" track clip.mp4 --cal a.json --ids 20 -o raw_a.csv -q || fail "track (a) exited $?"
 $R camera a.json clip.scene.json | tee a.cam
 $R offset raw_a.csv clip.truth.csv 20 | tee a.off
 $R radius raw_a.csv 20 | tee a.rad
-$PY - "$(num height a.cam)" "$(num radius a.rad)" "$(sed -n 's/.*|\([0-9.]*\)|.*/\1/p' a.off)" "$(num offset_mm_per_m a.cam)" <<'PY' || fail "(a) out of bounds"
+check_py "(a): height within 0.5 %, radius within 0.1 %, the stated offset bound covers the true offset" "$(num height a.cam)" "$(num radius a.rad)" "$(sed -n 's/.*|\([0-9.]*\)|.*/\1/p' a.off)" "$(num offset_mm_per_m a.cam)" <<'PY'
 import sys
 h, r, off, per_m = map(float, sys.argv[1:])
 print("(a) height %.4f m, radius %.5f m, true offset %.2f mm, stated bound %.2f mm" % (h, r, off, per_m * 0.25))
@@ -91,33 +91,33 @@ printf 'id,tag_size_m,plane_height_m\n20,0.06,0.25\n' > robots.csv
 "$WAKELINE" calibrate clip.mp4 --layout floor.csv --refine-with clip.mp4 --robots robots.csv -q \
 	--plane-height-m 0.25 -o b.json > b.txt || fail "calibrate (b) exited $?"
 cat b.txt
-grep -q "camera height from the tags" b.txt || fail "(b): no height from the tags"
+check_grep "(b): the report gives the camera height from the tags" "camera height from the tags" b.txt
 $R camera b.json clip.scene.json | tee b.cam
-$PY -c "import sys; h=float(sys.argv[1]); print('(b) height %.4f m' % h); assert abs(h - 1.6) / 1.6 < 0.005" \
-	"$(num height b.cam)" || fail "(b) camera height off"
+check "(b): camera height within 0.5 %" "$PY" -c "import sys; h=float(sys.argv[1]); print('(b) height %.4f m' % h); assert abs(h - 1.6) / 1.6 < 0.005" \
+	"$(num height b.cam)"
 
 # (c) one marker raised on a block
 "$WAKELINE" calibrate clip.mp4 --layout raised.csv --plane-height-m 0.25 -o c.json > c.txt || fail "calibrate (c) exited $?"
 cat c.txt
-grep -q "route: raised markers" c.txt || fail "(c): route not reported"
+check_grep "(c): the report names the route" "route: raised markers" c.txt
 "$WAKELINE" track clip.mp4 --cal c.json --ids 20 -o raw_c.csv -q || fail "track (c) exited $?"
 $R camera c.json clip.scene.json | tee c.cam
 $R offset raw_c.csv clip.truth.csv 20 | tee c.off
-$PY - "$(sed -n 's/.*principal point error \([-0-9.]*\) \([-0-9.]*\).*/\1 \2/p' c.cam)" "$(num rms c.off)" <<'PY' || fail "(c) out of bounds"
+check_py "(c): principal point within 2 px, positions on the 0.25 m plane within 0.5 mm RMS" "$(sed -n 's/.*principal point error \([-0-9.]*\) \([-0-9.]*\).*/\1 \2/p' c.cam)" "$(num rms c.off)" <<'PY'
 import sys
 ex, ey = map(float, sys.argv[1].split()); rms = float(sys.argv[2])
 print("(c) principal point error %.2f, %.2f px; position RMS %.3f mm" % (ex, ey, rms))
 assert abs(ex) <= 2 and abs(ey) <= 2
 assert rms <= 0.5
 PY
-$PY - a.json b.json c.json <<'PY' || fail "a distortion model chosen for a lens without distortion"
+check_py "every route chooses no distortion for the distortion-free lens" a.json b.json c.json <<'PY'
 import json, sys
 for f in sys.argv[1:]:
     m = json.load(open(f))["distortion_model"]
     print("%s: distortion model %s" % (f, m))
     assert m == "none", (f, m)     # the scene's truth: no distortion
 PY
-$PY - c.json <<'PY' || fail "CAL.json lacks the uncertainty keys"
+check_py "CAL.json carries route, covariance and tolerances" c.json <<'PY'
 import json, sys
 c = json.load(open(sys.argv[1]))
 assert c["route"] == "raised_markers" and c["principal_point_assumed"] is False
@@ -126,4 +126,4 @@ assert "cx_px" in p and "f_px" in p and len(m) == len(p)
 for k in ("plane_height_m", "water_depth_m", "camera_height_m"):
     assert k in c["tolerances"], k
 PY
-echo "ok"
+done_testing

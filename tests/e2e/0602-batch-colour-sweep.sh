@@ -108,7 +108,7 @@ for c in c1 c2 c3 c4; do
 	cmp out/clips/${c}_mp4/raw.csv p/$c/raw.csv || fail "$c: raw.csv of process and batch differ"
 	cmp out/clips/${c}_mp4/clean.csv p/$c/clean.csv || fail "$c: clean.csv of process and batch differ"
 done
-$PY - <<'PYEOF' || fail "process and batch give different runs"
+check_py "process and batch give the same runs for the 4 clips" <<'PYEOF'
 import json
 for c in ("c1", "c2", "c3", "c4"):
     a = json.load(open("p/%s/summary.json" % c))["runs"]
@@ -122,10 +122,10 @@ printf 'clip,robots,mode\nc1.mp4,,\nc3.mp4,caps_gb.csv,tag\n' > contradict.csv
 mkdir -p two && cp clips/c1.mp4 clips/c3.mp4 two/
 rc=0; "$WAKELINE" batch two --cal cal.json --manifest contradict.csv --mode colour --robots caps_rb.csv -o out2 -q \
 	> two.txt 2> two.err || rc=$?
-[ "$rc" -eq 1 ] || fail "a contradicting row: batch exited $rc, wants 1"
-grep -q "2 clips: 1 done, 0 already complete, 1 failed" two.txt || fail "batch said: $(cat two.txt)"
-grep -q "c3.mp4: .*caps_gb.csv: robot 1 has colour ranges .* but the mode is tag: add --mode colour" out2/summary.csv ||
-	fail "no message in summary.csv: $(cat out2/summary.csv)"
+check_eq "a contradicting manifest row: batch exits 1" "$rc" 1
+check_grep "one clip done, the contradicting one failed" "2 clips: 1 done, 0 already complete, 1 failed" two.txt
+check_grep "summary.csv says what to add for the contradicting row" \
+	"c3.mp4: .*caps_gb.csv: robot 1 has colour ranges .* but the mode is tag: add --mode colour" out2/summary.csv
 awk -v a="$t0" -v b="$t1" -v c="$t2" -v d="$t3" \
 	'BEGIN { printf "times: batch of 4 clips %.1f s (-j 2), process one by one %.1f s\n", b - a, d - c }'
-echo ok
+done_testing

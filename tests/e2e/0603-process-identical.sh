@@ -38,16 +38,16 @@ by_hand() {
 }
 same() { # NAME: res/ (from process) against NAME/ (by hand)
 	for f in raw.csv clean.csv clean.json summary.json; do
-		cmp "res/$f" "$1/$f" || fail "$1: $f of process differs from the commands' (diff: $(diff "res/$f" "$1/$f" | head -4))"
+		check "$1: $f of process is byte for byte the commands' one" cmp "res/$f" "$1/$f"
 	done
-	echo "$1: raw.csv, clean.csv, clean.json and summary.json identical ($(wc -l < res/clean.csv) clean rows)"
+	note "$1: $(wc -l < res/clean.csv) clean rows"
 }
 
 by_hand plain
 rm -rf res
 "$WAKELINE" process clip.mp4 --cal cal.json -o res -q || fail "process exited $?"
 same plain
-grep -q '"reason":[[:space:]]*"wall"' res/clean.json || fail "the scene was meant to reach the wall"
+check_grep "the scene reaches the wall (the wall cut is exercised)" '"reason":[[:space:]]*"wall"' res/clean.json
 
 by_hand changed --decimate 1 --min-margin 30 -- --smoother sg --sg-window 9 --trim 0.4 --body-diameter-m 0.14 -- \
 	--body-diameter-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3
@@ -55,11 +55,11 @@ rm -rf res
 "$WAKELINE" process clip.mp4 --cal cal.json -o res -q --decimate 1 --min-margin 30 --smoother sg --sg-window 9 \
 	--trim 0.4 --body-diameter-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 || fail "process exited $?"
 same changed
-grep -q '"smoother":[[:space:]]*"sg"' res/clean.json || fail "the smoother option did not reach clean"
-grep -q '"commanded_period_s":[[:space:]]*0.8' res/summary.json || fail "the commanded period did not reach measure"
+check_grep "the smoother option reached clean" '"smoother":[[:space:]]*"sg"' res/clean.json
+check_grep "the commanded period reached measure" '"commanded_period_s":[[:space:]]*0.8' res/summary.json
 # the old spelling of the robot size is still accepted
 rm -rf res
 "$WAKELINE" process clip.mp4 --cal cal.json -o res -q --decimate 1 --min-margin 30 --smoother sg --sg-window 9 \
 	--trim 0.4 --body-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 || fail "--body-m: process exited $?"
 same changed
-echo ok
+done_testing

@@ -67,7 +67,7 @@ static void make_camera(wl_camera *cam, double tilt_deg, double f_px)
 static void test_heckbert_unit_square(void **state)
 {
 	/* Heckbert (1989), closed-form square -> quadrilateral; values
-	 * recomputed with cv2.getPerspectiveTransform (REFERENCES.md). */
+	 * recomputed with cv2.getPerspectiveTransform (tests/data/references.md). */
 	const double src[8] = {0, 0, 1, 0, 1, 1, 0, 1};
 	const double dst[8] = {100, 100, 500, 120, 450, 400, 80, 350};
 	const double want[9] = {340.62205467,   -14.79736098,   100, 5.7492931197, 272.76154571, 100,
@@ -210,9 +210,9 @@ static void test_calfile_validation(void **state)
 
 static void test_refraction_worked_example(void **state)
 {
-	/* REFERENCES.md worked example (Snell's law): camera 2.0 m above the
-	 * surface, ray 20 deg off nadir, marker 0.30 m deep -> 0.80758 m from
-	 * nadir; ignoring refraction 0.83713 m. */
+	/* tests/data/references.md, "Refraction at a flat water surface", worked example: camera 2.0 m above
+	 * the surface, ray 20 deg off nadir, marker 0.30 m deep -> 0.80758 m from nadir; ignoring refraction
+	 * 0.83713 m. */
 	double n = 1.333, s_air = 2.0 * tan(20 * DEG);
 	double sin_w = sin(20 * DEG) / n, r = s_air + 0.30 * sin_w / sqrt(1 - sin_w * sin_w);
 	double s, u, v, x, y;
