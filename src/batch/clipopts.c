@@ -73,6 +73,10 @@ wl_status batch_pipeline_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 		                job->clip_rel);
 	else if (!(st = wl_calib_load(job->cal_path, cal, err))) {
 		o.diag = job->diag;
+		o.clip_name = job->clip_rel; /* so that run.html is whole before clip.json */
+		o.nparams = job->nparams;
+		o.param_names = job->param_names;
+		o.param_values = job->param_values;
 		st = wl_process_clip(job->clip_path, cal, job->cal_path, job->out_dir, &o, &res, err);
 		batch_worker_result(job, st ? 0 : res.track.frames, st ? 0 : res.summary.nruns);
 		wl_process_result_release(&res);

@@ -26,6 +26,7 @@
 #include "core/csvio.h"
 #include "core/jsonio.h"
 #include "formats/summary.h"
+#include "pipeline/pipeline.h"
 
 typedef struct {
 	size_t n, cap;
@@ -147,6 +148,26 @@ static int cmp_name(const void *a, const void *b)
 	return strcmp(*(const char *const *)a, *(const char *const *)b);
 }
 
+static int newer(const struct timespec *a, const struct timespec *b)
+{
+	return a->tv_sec > b->tv_sec || (a->tv_sec == b->tv_sec && a->tv_nsec > b->tv_nsec);
+}
+
+/* The clip's run.html is missing or older than its summary.json.  Not
+ * clip.json, which the batch writes after every clip: the worker's page has
+ * the clip's name and parameters already (wl_process_opts.clip_name), and
+ * redrawing every page would make a merge of 10,000 clips take minutes. */
+static int run_page_stale(const char *out_dir, const char *folder)
+{
+	char path[PATH_MAX];
+	struct stat page, other;
+	snprintf(path, sizeof path, "%s/%s/run.html", out_dir, folder);
+	if (stat(path, &page) != 0)
+		return 1;
+	snprintf(path, sizeof path, "%s/%s/summary.json", out_dir, folder);
+	return stat(path, &other) == 0 && newer(&other.st_mtim, &page.st_mtim);
+}
+
 /* One clip folder: its rows (one per run, or one for a failure).  Returns
  * 0 when the folder has no done marker (the clip never finished). */
 static int read_clip(prows *p, const char *out_dir, const char *name)
@@ -182,8 +203,11 @@ static int read_clip(prows *p, const char *out_dir, const char *name)
 	}
 	if (strcmp(status, "ok") == 0 && sum.nruns > 0) {
 		struct stat st;
+		int no_plots, stale_page;
 		snprintf(path, sizeof path, "%s/%s/path_m.png", out_dir, folder);
-		if (stat(path, &st) != 0) {
+		no_plots = stat(path, &st) != 0;
+		stale_page = run_page_stale(out_dir, folder);
+		if (no_plots || stale_page) {
 			/* the table can do without the picture: a broken image shows the gap */
 			wl_report_scene_buf *sb = calloc(1, sizeof *sb);
 			const char *cal = wl_json_string_or(cj, "cal", "");
@@ -195,8 +219,13 @@ static int read_clip(prows *p, const char *out_dir, const char *name)
 				snprintf(calp, sizeof calp, "%s/%s", out_dir, cal);
 			if (sb && cal[0])
 				wl_report_scene_load(calp, sb, NULL);
+			if (sb)
+				sb->scene.analyse = wl_process_analyse_run;
 			snprintf(path, sizeof path, "%s/%s", out_dir, folder);
-			wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
+			if (no_plots) /* the plots, then the run page */
+				wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
+			else
+				wl_report_run_page(path, sb ? &sb->scene : NULL, &err);
 			wl_report_scene_release(sb);
 			free(sb);
 		}
@@ -270,7 +299,7 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 				extra[nextra++] = p->r[i].meas.k[j];
 			}
 		}
-	if (nextra) /* qsort wants a real array even for none */
+	if (nextra) /* qsort(NULL, 0) is undefined */
 		qsort(extra, nextra, sizeof *extra, cmp_name);
 	for (i = 0; i < nextra; i++)
 		ADDCOL(extra[i]);
@@ -550,7 +579,8 @@ wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts 
 	s = wl_report_sweep_plots(&t, &so, out_dir, &written, err);
 	{
 		wl_err herr;
-		wl_status hs = wl_report_html(&t, out_dir, "wakeline batch report", written, s ? &herr : err);
+		wl_status hs =
+		        wl_report_html(&t, &so, out_dir, "wakeline batch report", written, s ? &herr : err);
 		if (!s && hs)
 			s = hs;
 	}

@@ -10,6 +10,8 @@
 #include "batch/batch.h"
 
 #include <errno.h>
+#include <limits.h>
+#include <math.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -19,6 +21,7 @@
 
 #include "batch/batch_priv.h"
 #include "core/afile.h"
+#include "pipeline/pipeline.h"
 #include "wl_version.h"
 
 _Static_assert(sizeof(batch_msg) <= PIPE_BUF, "a worker message must fit one atomic pipe write");
@@ -86,6 +89,28 @@ void batch_worker_result(const wl_batch_job *job, int64_t frames, size_t runs)
 		        runs);
 }
 
+/* The clip's run.html again, now that process.log is in place (the page
+ * shows the clip's messages), with the clip's name and parameters; only
+ * when the clip function made one.  A failure fails the clip, so that a
+ * rerun redoes it (the first page, without the messages, stays whole). */
+static wl_status redraw_run_page(const wl_batch_job *job, wl_err *err)
+{
+	char path[PATH_MAX];
+	wl_report_scene sc;
+	snprintf(path, sizeof path, "%s/run.html", job->out_dir);
+	if (access(path, F_OK) != 0)
+		return WL_OK;
+	memset(&sc, 0, sizeof sc); /* the tank from clean.json's calibration */
+	sc.analyse = wl_process_analyse_run;
+	sc.clip_name = job->clip_rel;
+	sc.nparams = job->nparams;
+	sc.param_names = job->param_names;
+	sc.param_values = job->param_values;
+	if (isfinite(job->opts->measure.run.body_diameter_m))
+		sc.body_diameter_m = job->opts->measure.run.body_diameter_m;
+	return wl_report_run_page(job->out_dir, &sc, err);
+}
+
 /* Runs the clip with its options; the log is committed whatever happens.
  * The options are resolved first (a manifest cell's ROBOTS.csv is relative
  * to where the batch was started); then the worker moves into OUT, where
@@ -122,6 +147,8 @@ static wl_status run_clip(runner *r, clipjob *j, worker *w, wl_err *err)
 		fprintf(w->log, "error: %s\n", err && err->msg[0] ? err->msg : wl_status_name(st));
 	w->log = NULL;
 	ls = wl_afile_commit(log, st ? NULL : err);
+	if (!st && !ls && opts->plots)
+		ls = redraw_run_page(&j->job, err);
 	free(opts);
 	return st ? st : ls;
 }

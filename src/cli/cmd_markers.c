@@ -1,23 +1,28 @@
-/* cmd_markers.c: `wakeline markers`: a printable sheet of floor markers at exact scale. */
+/* cmd_markers.c: `wakeline markers`: printable sheets of floor or robot markers at exact scale. */
 #include <cairo.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 
 #include "calib/markers.h"
 #include "cli/cli.h"
 
-const char cmd_markers_summary[] = "printable sheet of floor markers (SVG, PDF or PNG)";
+const char cmd_markers_summary[] = "printable sheets of floor or robot markers (SVG, PDF or PNG)";
 
-static const char HEAD[] = "usage: wakeline markers --ids LIST --size-mm S -o SHEET.(svg|pdf|png) [options]\n"
-                           "\n"
-                           "Draws AprilTag markers at exact scale for the tank floor, each with its id,\n"
-                           "and a 100 mm scale bar to check the print with a ruler.\n"
-                           "\n";
-static const char TAIL[] =
+static const char HEAD[] =
+        "usage: wakeline markers --ids LIST --size-mm S -o SHEET.(svg|pdf|png) [options]\n"
         "\n"
-        "Print at 100 % (no 'fit to page'), then measure the scale bar and a tag; give\n"
-        "the measured size as size_m in the layout.  Exit status: 0 ok, 1 failure, 2 usage.\n";
+        "Draws AprilTag markers at exact scale, each with its id, on pages of the\n"
+        "paper's size, each page with a 100 mm scale bar to check the print with a ruler.\n"
+        "A PDF holds every page; SVG and PNG write one file a page: FILE itself when\n"
+        "one page is enough, else FILE with -1, -2, ... before the extension.\n"
+        "\n";
+static const char TAIL[] = "\n"
+                           "Print at 100 % (no 'fit to page'), then measure the scale bar and a tag; give\n"
+                           "the measured size as size_m in the layout.  Mount a robot tag with its arrow\n"
+                           "toward the robot's front, its centre ticks over the point to track.\n"
+                           "Exit status: 0 ok, 1 failure, 2 usage.\n";
 
 #define MAX_IDS 1000
 
@@ -89,17 +94,22 @@ static int opt_page(const char *arg, void *dest, char *msg, size_t cap)
 int cmd_markers(int argc, char **argv)
 {
 	static long ids[MAX_IDS];
-	wl_markers_opts mo = {"tag36h11", ids, 0, 0, 300, 210, 297};
+	wl_markers_opts mo = {"tag36h11", ids, 0, 0, 300, 210, 297, 0};
 	idlist il = {ids, &mo.n_ids};
 	const char *out = NULL;
 	wl_err err = {0};
-	int c, first;
+	int c, first, pages = 0;
 	const cli_opt tab[] = {
 	        CLI_OPT_FN("ids", "LIST", "ids, e.g. 0-3 or 0,2,5-7", &il, opt_ids),
 	        CLI_OPT_POS("size-mm", "S", "side of each tag's black square in millimetres", &mo.size_mm),
 	        CLI_OPT_STR("output", 'o', "FILE", "the sheet; the format follows the extension", &out),
+	        CLI_OPT_FLAG("robot", 0,
+	                     "robot tags: a cut line, centre ticks and an arrow\n"
+	                     "for the heading the tracker reports (the tag's top)",
+	                     &mo.robot),
 	        CLI_OPT_STR("family", 0, "NAME", "tag family (default tag36h11)", &mo.family),
-	        CLI_OPT_NUM("dpi", "N", "PNG resolution (default 300)", &mo.dpi, 30, 2400),
+	        CLI_OPT_NUM("dpi", "N", "PNG resolution (default 300; written into the PNG)", &mo.dpi, 30,
+	                    2400),
 	        CLI_OPT_FN("page", "NAME", "a4 (default), a3 or letter, portrait", &mo, opt_page),
 	        CLI_OPT_END};
 	const cli_opt *tables[] = {tab, NULL};
@@ -109,7 +119,7 @@ int cmd_markers(int argc, char **argv)
 		return cli_usage_error("markers", "unexpected argument '%s'", argv[first]);
 	if (!mo.n_ids || !(mo.size_mm > 0) || !out)
 		return cli_usage_error("markers", "--ids, --size-mm and -o are required");
-	c = wl_markers_render(out, &mo, &err) ? cli_fail("markers", &err) : WL_EXIT_OK;
+	c = wl_markers_render(out, &mo, &pages, &err) ? cli_fail("markers", &err) : WL_EXIT_OK;
 	/* drop cairo's font caches (fontconfig patterns) so that leak checkers
 	 * see a clean exit; safe here, no cairo object is left */
 	cairo_debug_reset_static_data();
@@ -117,7 +127,17 @@ int cmd_markers(int argc, char **argv)
 		FcFini();
 	if (c != WL_EXIT_OK)
 		return cli_finish("markers", c);
-	printf("markers: %d %s tag%s of %.1f mm -> %s\n", mo.n_ids, mo.family, mo.n_ids == 1 ? "" : "s",
-	       mo.size_mm, out);
+	printf("markers: %d %s %stag%s of %.1f mm on %d page%s -> ", mo.n_ids, mo.family,
+	       mo.robot ? "robot " : "", mo.n_ids == 1 ? "" : "s", mo.size_mm, pages, pages == 1 ? "" : "s");
+	{
+		/* the files: the PDF, or one SVG or PNG a page */
+		const char *dot = strrchr(out, '.');
+		int each = dot && strcasecmp(dot, ".pdf") != 0 ? pages : 1;
+		char file[4200];
+		for (int p = 1; p <= each; p++)
+			printf("%s%s", p > 1 ? " " : "",
+			       wl_markers_page_path(out, p, each, file, sizeof file));
+		putchar('\n');
+	}
 	return cli_finish("markers", WL_EXIT_OK);
 }

@@ -23,7 +23,9 @@ static const char HEAD[] = "usage: wakeline process CLIP --cal CAL.json -o OUTDI
                            "  clean.csv     smoothed, trimmed and segmented (as wakeline clean, with the\n"
                            "  clean.json    tank outline from CAL.json for the wall cut)\n"
                            "  summary.json  the measures of every run (as wakeline measure)\n"
+                           "  trail.png     the first frame with each robot's path (as track --trail)\n"
                            "  path_m.svg/.png, heading.svg/.png   the plots (docs/report.md)\n"
+                           "  run.html      the clip's page: plots, spectrum, circle fit, messages\n"
                            "The options of track, clean and measure apply as in those commands.\n"
                            "\n";
 static const char TAIL[] = "\nExit status: 0 ok, 1 failure (the failing stage says why), 2 usage error.\n";
@@ -72,7 +74,8 @@ int cmd_process(int argc, char **argv)
 		for (size_t i = 0; i < res.summary.nruns; i++)
 			if (res.summary.runs[i].headline)
 				cli_print_headline(&res.summary.runs[i]);
-		printf("process: %s: raw.csv, clean.csv, clean.json, summary.json and plots in %s\n",
+		printf("process: %s: raw.csv, clean.csv, clean.json, summary.json, plots and run.html in "
+		       "%s\n",
 		       argv[first], out);
 	}
 	wl_process_result_release(&res);

@@ -10,6 +10,7 @@
 
 #include "core/angle.h"
 #include "core/csvio.h"
+#include "core/numfmt.h"
 
 void cli_print_track(const char *raw_path, const wl_track_summary *sum)
 {
@@ -70,25 +71,26 @@ void cli_print_clean_robot(const wl_clean_robot *rb)
 	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad / WL_DEG);
 }
 
+/* One line for people: each value rounded to what its 95% interval supports
+ * (core/numfmt.h); the files keep full precision. */
 void cli_print_headline(const wl_summary_run *ro)
 {
 	const wl_summary_measures *r = &ro->m;
-	char a[WL_NUMBUF], b[WL_NUMBUF], c[WL_NUMBUF], d[WL_NUMBUF], e[WL_NUMBUF];
+	const double *ci = r->curvature_ci95_per_m;
+	char a[WL_NUMFMT_BUF], b[WL_NUMFMT_BUF], c[WL_NUMFMT_BUF];
+	double kh = 0.5 * (ci[1] - ci[0]), rh = 0.5 * fabs(1 / ci[0] - 1 / ci[1]);
 	printf("id %ld segment %ld (%s s): ", ro->id, ro->segment, wl_fmt_fixed(a, r->duration_s, 1));
 	if (r->straight)
-		printf("straight (curvature %s /m, 95%% [%s, %s])", wl_fmt_fixed(a, r->curvature_per_m, 4),
-		       wl_fmt_fixed(b, r->curvature_ci95_per_m[0], 4),
-		       wl_fmt_fixed(c, r->curvature_ci95_per_m[1], 4));
+		printf("straight (curvature %s /m at 95%%)", wl_numfmt_pm(a, r->curvature_per_m, kh));
 	else
-		printf("radius %s m %s (curvature %s /m, 95%% [%s, %s], arc %s deg)",
-		       wl_fmt_fixed(a, r->radius_m, 3), r->radius_m > 0 ? "counter-clockwise" : "clockwise",
-		       wl_fmt_fixed(b, r->curvature_per_m, 4), wl_fmt_fixed(c, r->curvature_ci95_per_m[0], 4),
-		       wl_fmt_fixed(d, r->curvature_ci95_per_m[1], 4), wl_fmt_fixed(e, r->arc_deg, 0));
-	printf(", speed %s m/s", wl_fmt_fixed(a, r->mean_speed_mps, 3));
+		printf("radius %s m %s (curvature %s /m at 95%%, arc %s deg)",
+		       wl_numfmt_pm(a, r->radius_m, rh), r->radius_m > 0 ? "counter-clockwise" : "clockwise",
+		       wl_numfmt_pm(b, r->curvature_per_m, kh), wl_fmt_fixed(c, r->arc_deg, 0));
+	printf(", speed %s m/s", wl_numfmt_sig(a, r->mean_speed_mps, 3));
 	if (isfinite(r->yaw_osc_freq_hz))
-		printf(", yaw %s deg at %s Hz", wl_fmt_fixed(a, r->yaw_osc_amp_deg, 1),
-		       wl_fmt_fixed(b, r->yaw_osc_freq_hz, 2));
+		printf(", yaw %s deg at %s Hz", wl_numfmt_sig(a, r->yaw_osc_amp_deg, 3),
+		       wl_numfmt_sig(b, r->yaw_osc_freq_hz, 3));
 	if (isfinite(r->sway_amp_m))
-		printf(", sway %s mm", wl_fmt_fixed(a, 1000 * r->sway_amp_m, 1));
+		printf(", sway %s mm", wl_numfmt_sig(a, 1000 * r->sway_amp_m, 2));
 	printf(", tracked %s%%\n", wl_fmt_fixed(a, 100 * r->tracked_fraction, 0));
 }

@@ -430,12 +430,34 @@ static void text_of(const cJSON *v, char *buf, size_t cap)
 		snprintf(buf, cap, "%s", v->valuestring);
 }
 
-/* A key this version does not know: scalars and pairs are kept as text. */
+/* An array of strings (verdict_reasons) as one text joined with "; ", the
+ * way contracts.md puts it in summary.csv; 0 when v is not one. */
+static int joined_strings(const cJSON *v, char *buf, size_t cap)
+{
+	const cJSON *e;
+	size_t len = 0;
+	buf[0] = '\0';
+	if (cJSON_GetArraySize(v) == 0)
+		return 0;
+	cJSON_ArrayForEach(e, v)
+	{
+		if (!cJSON_IsString(e))
+			return 0;
+		len += (size_t)snprintf(buf + len, len < cap ? cap - len : 0, "%s%s", len ? "; " : "",
+		                        e->valuestring);
+	}
+	return 1;
+}
+
+/* A key this version does not know: scalars, pairs (as key_lo, key_hi) and
+ * lists of strings (joined) are kept as text. */
 static wl_status read_extra(const char *name, const cJSON *v, wl_summary_run *r, wl_err *err)
 {
 	char buf[1024];
 	int ok = 1;
-	if (cJSON_IsArray(v)) {
+	if (cJSON_IsArray(v) && joined_strings(v, buf, sizeof buf)) {
+		ok = extra_add(r, v->string, "", buf);
+	} else if (cJSON_IsArray(v)) {
 		if (cJSON_GetArraySize(v) == 2) {
 			text_of(cJSON_GetArrayItem(v, 0), buf, sizeof buf);
 			ok = extra_add(r, v->string, "_lo", buf);

@@ -121,6 +121,15 @@ typedef struct {
 wl_status wl_measure_oscillation(const double *t_s, const double *v, size_t n, double fmin_hz, double fmax_hz,
                                  wl_osc *out, wl_err *err);
 
+/* The Hann-windowed periodogram that wl_measure_oscillation searches for
+ * its start (v resampled on an even grid of its n usable samples, mean
+ * removed, zero-padded to a power of two >= 2n): power, in squared input
+ * units up to a constant factor, at frequencies k / (nfft dt), k = 1 ..
+ * nfft/2, at most cap bins into f_hz and power; *nbins says how many.  For
+ * plots.  WL_EINVAL when fewer than 16 usable samples. */
+wl_status wl_measure_periodogram(const double *t_s, const double *v, size_t n, double *f_hz, double *power,
+                                 size_t cap, size_t *nbins, wl_err *err);
+
 /* ---- one run ------------------------------------------------------------ */
 
 /* One segment of one robot, rows in time order.  heading_rad, speed_mps and
@@ -151,6 +160,16 @@ typedef wl_summary_measures wl_measure_result;
  * fields instead. */
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *out,
                          wl_err *err);
+
+/* wl_measure_run, and also the series behind the oscillation measures, for
+ * plots: yaw_rad[i], the heading about the mean path (the tangent of the
+ * fitted circle, or the line when straight) unwrapped and detrended as the
+ * yaw measures analyse it, and offset_m[i], the signed distance of row i
+ * from the fitted circle or line (left of travel positive; the circle's
+ * residual, sway included).  Both hold in->n values, NaN where unknown
+ * (every value when the circle could not be fitted). */
+wl_status wl_measure_run_series(const wl_measure_input *in, const wl_measure_opts *opt,
+                                wl_measure_result *out, double *yaw_rad, double *offset_m, wl_err *err);
 
 /* ---- the stage: CLEAN.csv -> the runs of SUMMARY.json -------------------- */
 

@@ -103,15 +103,13 @@ static void fft(double *re, double *im, size_t n)
 	}
 }
 
-/* Frequency of the highest Hann-windowed periodogram ordinate in [f_lo, f_hi]
- * of the series resampled on an even grid of n points, zero-padded to a power
- * of two of at least 2n (bins at most 1/(2T) apart; the window's main lobe
- * is 4/T wide, so the grid maximum lies in the peak's lobe).  g is scratch
- * for nfft_max doubles (real and imaginary halves). */
-static double periodogram_peak(const double *t, const double *v, size_t n, double f_lo, double f_hi,
-                               double *g, size_t nfft)
+/* The Hann-windowed periodogram of the series resampled on an even grid of
+ * n points, zero-padded to nfft (a power of two >= 2n): re[k] receives the
+ * power at frequency k / (nfft dt) for k = 0 .. nfft/2; returns dt.  g is
+ * scratch for 2 nfft doubles (re is its first half). */
+static double periodogram(const double *t, const double *v, size_t n, double *g, size_t nfft)
 {
-	double T = t[n - 1] - t[0], dt = T / (double)(n - 1), mean = 0, best = -1, fbest = NAN;
+	double T = t[n - 1] - t[0], dt = T / (double)(n - 1), mean = 0;
 	double *re = g, *im = g + nfft;
 	size_t j = 0;
 	for (size_t k = 0; k < n; k++) { /* linear interpolation onto the even grid */
@@ -128,14 +126,69 @@ static double periodogram_peak(const double *t, const double *v, size_t n, doubl
 		im[k] = 0;
 	}
 	fft(re, im, nfft);
+	for (size_t k = 0; k <= nfft / 2; k++)
+		re[k] = re[k] * re[k] + im[k] * im[k];
+	return dt;
+}
+
+/* Frequency of the highest periodogram ordinate in [f_lo, f_hi] (bins at
+ * most 1/(2T) apart; the window's main lobe is 4/T wide, so the grid maximum
+ * lies in the peak's lobe). */
+static double periodogram_peak(const double *t, const double *v, size_t n, double f_lo, double f_hi,
+                               double *g, size_t nfft)
+{
+	double dt = periodogram(t, v, n, g, nfft), best = -1, fbest = NAN;
 	for (size_t k = 1; k <= nfft / 2; k++) {
-		double f = (double)k / ((double)nfft * dt), p = re[k] * re[k] + im[k] * im[k];
-		if (f >= f_lo && f <= f_hi && p > best) {
-			best = p;
+		double f = (double)k / ((double)nfft * dt);
+		if (f >= f_lo && f <= f_hi && g[k] > best) {
+			best = g[k];
 			fbest = f;
 		}
 	}
 	return fbest;
+}
+
+/* The finite samples of (t_in, v_in) in increasing time, into t and v. */
+static size_t usable(const double *t_in, const double *v_in, size_t n_in, double *t, double *v)
+{
+	size_t n = 0;
+	for (size_t i = 0; i < n_in; i++)
+		if (isfinite(t_in[i]) && isfinite(v_in[i]) && (n == 0 || t_in[i] > t[n - 1])) {
+			t[n] = t_in[i];
+			v[n++] = v_in[i];
+		}
+	return n;
+}
+
+wl_status wl_measure_periodogram(const double *t_in, const double *v_in, size_t n_in, double *f_hz,
+                                 double *power, size_t cap, size_t *nbins, wl_err *err)
+{
+	double *t = malloc((n_in + 1) * sizeof *t), *v = malloc((n_in + 1) * sizeof *v), *g = NULL, dt;
+	size_t n, nfft = 16, k;
+	wl_status st = WL_OK;
+	*nbins = 0;
+	while (nfft < 2 * n_in)
+		nfft <<= 1;
+	g = malloc(2 * nfft * sizeof *g);
+	if (!t || !v || !g) {
+		st = wl_err_set(err, WL_ENOMEM, "periodogram: out of memory for %zu samples", n_in);
+		goto out;
+	}
+	n = usable(t_in, v_in, n_in, t, v);
+	if (n < 16) {
+		st = wl_err_set(err, WL_EINVAL, "periodogram: %zu usable samples: give at least 16", n);
+		goto out;
+	}
+	dt = periodogram(t, v, n, g, nfft);
+	for (k = 1; k <= nfft / 2 && *nbins < cap; k++) {
+		f_hz[*nbins] = (double)k / ((double)nfft * dt);
+		power[(*nbins)++] = g[k];
+	}
+out:
+	free(t);
+	free(v);
+	free(g);
+	return st;
 }
 
 wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t n_in, double f_lo,
@@ -154,11 +207,7 @@ wl_status wl_measure_oscillation(const double *t_in, const double *v_in, size_t 
 		st = wl_err_set(err, WL_ENOMEM, "oscillation: out of memory for %zu samples", n_in);
 		goto out;
 	}
-	for (size_t i = 0; i < n_in; i++)
-		if (isfinite(t_in[i]) && isfinite(v_in[i]) && (n == 0 || t_in[i] > t[n - 1])) {
-			t[n] = t_in[i];
-			v[n++] = v_in[i];
-		}
+	n = usable(t_in, v_in, n_in, t, v);
 	if (n < 16) {
 		st = wl_err_set(err, WL_EINVAL, "oscillation: %zu usable samples: give at least 16", n);
 		goto out;
@@ -398,12 +447,13 @@ static void circle_measures(const double *t, const double *x, const double *y, s
 	}
 }
 
-/* Yaw and sway oscillation about the mean path (circle, or line when straight). */
-static void oscillation_measures(const wl_measure_input *in, const wl_measure_opts *opt, const wl_geofit *gf,
-                                 wl_measure_result *r, double *sway, double *yaw)
+/* The yaw about the mean path (circle, or line when straight) and the
+ * lateral offset from it, per row, unwrapped and detrended as analysed;
+ * raw_off (may be NULL) receives the offsets before detrending. */
+static void osc_series(const wl_measure_input *in, const wl_geofit *gf, const wl_measure_result *r,
+                       double *sway, double *yaw, double *raw_off)
 {
-	double ux = NAN, uy = NAN, mx = 0, my = 0, f_lo, f_hi, m = 0;
-	wl_osc o;
+	double ux = NAN, uy = NAN, mx = 0, my = 0, m = 0;
 	if (r->straight) { /* total-least-squares line through the positions */
 		double a[4] = {0}, ev[2], vec[4], fx = NAN, fy = NAN, lx = NAN, ly = NAN;
 		for (size_t i = 0; i < in->n; i++)
@@ -441,9 +491,20 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 		}
 		yaw[i] = isfinite(h) ? wl_wrap_pi(h - expect) : NAN;
 	}
+	if (raw_off)
+		memcpy(raw_off, sway, in->n * sizeof *sway);
 	unwrap(yaw, in->n);
 	detrend_quadratic(in->t_s, yaw, in->n);
 	detrend_quadratic(in->t_s, sway, in->n);
+}
+
+/* Yaw and sway oscillation about the mean path. */
+static void oscillation_measures(const wl_measure_input *in, const wl_measure_opts *opt, const wl_geofit *gf,
+                                 wl_measure_result *r, double *sway, double *yaw, double *raw_off)
+{
+	double f_lo, f_hi;
+	wl_osc o;
+	osc_series(in, gf, r, sway, yaw, raw_off);
 	osc_band(opt, r, &f_lo, &f_hi);
 	if (wl_measure_oscillation(in->t_s, yaw, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
 		r->yaw_osc_freq_hz = o.freq_hz;
@@ -456,8 +517,10 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 	}
 }
 
-wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
-                         wl_err *err)
+/* wl_measure_run, and with yaw_out / off_out (in->n values each, may be
+ * NULL) the series behind the oscillation measures. */
+static wl_status run_core(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
+                          double *yaw_out, double *off_out, wl_err *err)
 {
 	double *x = NULL, *y = NULL, *tc = NULL, *hd = NULL, *sway = NULL, *yaw = NULL;
 	size_t m = 0;
@@ -502,8 +565,11 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 	r->tracked_fraction = (double)r->n_measured / (double)in->n;
 	path_measures(in, x, y, m, r, hd);
 	circle_measures(tc, x, y, m, opt, r, &gf, sway);
-	if (isfinite(gf.kappa_per_m))
-		oscillation_measures(in, opt, &gf, r, sway, yaw);
+	if (isfinite(gf.kappa_per_m)) {
+		oscillation_measures(in, opt, &gf, r, sway, yaw, off_out);
+		if (yaw_out)
+			memcpy(yaw_out, yaw, in->n * sizeof *yaw);
+	}
 out:
 	free(x);
 	free(y);
@@ -512,4 +578,18 @@ out:
 	free(sway);
 	free(yaw);
 	return st;
+}
+
+wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
+                         wl_err *err)
+{
+	return run_core(in, opt, r, NULL, NULL, err);
+}
+
+wl_status wl_measure_run_series(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
+                                double *yaw_rad, double *offset_m, wl_err *err)
+{
+	for (size_t i = 0; i < in->n; i++)
+		yaw_rad[i] = offset_m[i] = NAN;
+	return run_core(in, opt, r, yaw_rad, offset_m, err);
 }

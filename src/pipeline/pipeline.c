@@ -102,7 +102,7 @@ void wl_process_result_release(wl_process_result *r)
 }
 
 typedef struct {
-	char raw[PATH_MAX], clean[PATH_MAX], sidecar[PATH_MAX], summary[PATH_MAX];
+	char raw[PATH_MAX], clean[PATH_MAX], sidecar[PATH_MAX], summary[PATH_MAX], trail[PATH_MAX];
 } paths;
 
 static wl_status make_paths(const char *out_dir, paths *p, wl_err *err)
@@ -116,6 +116,7 @@ static wl_status make_paths(const char *out_dir, paths *p, wl_err *err)
 	snprintf(p->clean, sizeof p->clean, "%s/%s", out_dir, WL_PROCESS_CLEAN);
 	snprintf(p->sidecar, sizeof p->sidecar, "%s/%s", out_dir, WL_PROCESS_SIDECAR);
 	snprintf(p->summary, sizeof p->summary, "%s/%s", out_dir, WL_PROCESS_SUMMARY);
+	snprintf(p->trail, sizeof p->trail, "%s/%s", out_dir, WL_PROCESS_TRAIL);
 	return WL_OK;
 }
 
@@ -129,6 +130,7 @@ static wl_status track(const char *clip, const wl_calib *cal, const char *cal_pa
 	ro.watch = &wo;
 	ro.clip = clip;
 	ro.raw_path = p->raw;
+	ro.trail_png = o->plots ? p->trail : NULL; /* the QC picture the run page shows */
 	ro.decode_threads = o->decode_threads;
 	ro.queue_frames = 4;
 	ro.diag = o->diag;
@@ -191,10 +193,37 @@ static wl_status plots(const wl_calib *cal, const char *out_dir, const wl_proces
 	wl_report_scene_from_calib(&outline, cal->points, cal->n_points, sb);
 	if (isfinite(o->measure.run.body_diameter_m))
 		sb->scene.body_diameter_m = o->measure.run.body_diameter_m;
+	sb->scene.analyse = wl_process_analyse_run;
+	sb->scene.clip_name = o->clip_name;
+	sb->scene.nparams = o->nparams;
+	sb->scene.param_names = o->param_names;
+	sb->scene.param_values = o->param_values;
 	st = wl_report_clip_plots(out_dir, &sb->scene, err);
 	wl_report_scene_release(sb);
 	free(sb);
 	return st;
+}
+
+wl_status wl_process_analyse_run(const wl_report_seg *in, wl_report_seg_analysis *out)
+{
+	wl_measure_input mi;
+	wl_measure_opts opt;
+	wl_measure_result res;
+	wl_status st;
+	mi.n = in->n, mi.t_s = in->t_s, mi.x_m = in->x_m, mi.y_m = in->y_m, mi.heading_rad = in->heading_rad;
+	mi.speed_mps = in->speed_mps, mi.yaw_rate_radps = in->yaw_rate_radps, mi.measured = in->measured;
+	wl_measure_opts_init(&opt);
+	if (isfinite(in->min_arc_deg))
+		opt.min_arc_deg = in->min_arc_deg;
+	out->nbins = 0;
+	if ((st = wl_measure_run_series(&mi, &opt, &res, out->yaw_rad, out->offset_m, NULL)))
+		return st;
+	out->n_used = res.n_used;
+	out->yaw_peak_hz = res.yaw_osc_freq_hz;
+	if (wl_measure_periodogram(in->t_s, out->yaw_rad, in->n, out->f_hz, out->power, out->cap, &out->nbins,
+	                           NULL) != WL_OK)
+		out->nbins = 0; /* the residuals without a spectrum */
+	return WL_OK;
 }
 
 wl_status wl_process_clip(const char *clip, const wl_calib *cal, const char *cal_path, const char *out_dir,

@@ -12,7 +12,9 @@
  *
  * Files written into out_dir (created when missing), each atomically:
  *   raw.csv, clean.csv, clean.json, summary.json, and with plots
- *   path_m.svg, path_m.png, heading.svg, heading.png.
+ *   trail.png (track's QC picture: the first frame with each robot's path),
+ *   path_m.svg, path_m.png, heading.svg, heading.png and the clip's page
+ *   run.html (src/report/report.h), which shows them all.
  *
  * Ownership: the calibration is borrowed (the caller loads CAL.json once per
  * clip, wl_calib_load); wl_process_result holds what the stages report and
@@ -28,6 +30,7 @@
 #include "core/diag.h"
 #include "core/err.h"
 #include "measure/measure.h"
+#include "report/report.h"
 #include "track/track.h"
 
 typedef struct {
@@ -39,8 +42,13 @@ typedef struct {
 	int tank_rect;                 /* 1: clean.outline_m is a rectangle given by hand */
 	wl_measure_clean_opts measure; /* min arc, body diameter, commanded period (its diag is o->diag) */
 	int decode_threads;            /* 0: all cores */
-	int plots;                     /* 1 (default): the path and heading plots */
+	int plots;                     /* 1 (default): trail.png, the path and heading plots, run.html */
 	const wl_diag *diag;           /* warnings and progress (may be NULL) */
+	/* for run.html: the clip's name and its manifest parameters (batch sets
+	 * them; NULL / 0: the folder's name, none); borrowed */
+	const char *clip_name;
+	size_t nparams;
+	const char *const *param_names, *const *param_values;
 } wl_process_opts;
 
 /* The documented defaults of every stage, plots on. */
@@ -56,6 +64,7 @@ char *wl_process_opts_describe(const wl_process_opts *o);
 #define WL_PROCESS_CLEAN "clean.csv"
 #define WL_PROCESS_SIDECAR "clean.json"
 #define WL_PROCESS_SUMMARY "summary.json"
+#define WL_PROCESS_TRAIL "trail.png"
 
 typedef struct {
 	wl_track_summary track; /* frames, rows, robots, detector statistics */
@@ -72,5 +81,12 @@ void wl_process_result_release(wl_process_result *r);
  * files of the stages before stay written (each one whole). */
 wl_status wl_process_clip(const char *clip, const wl_calib *cal, const char *cal_path, const char *out_dir,
                           const wl_process_opts *o, wl_process_result *res, wl_err *err);
+
+/* The run page's analysis of one segment (wl_report_analyse_fn) by the
+ * measure module: wl_measure_run_series for the yaw about the path and the
+ * circle's residuals, wl_measure_periodogram for the spectrum.  Callers that
+ * make run pages put it into their wl_report_scene (the plots of
+ * wl_process_clip do; batch's merge does). */
+wl_status wl_process_analyse_run(const wl_report_seg *in, wl_report_seg_analysis *out);
 
 #endif

@@ -374,9 +374,9 @@ wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scen
 	snprintf(path, sizeof path, "%s/summary.json", clip_dir);
 	if ((s = read_circles(path, cs, MAX_IDS * 4, &nc, err)))
 		goto out;
-	if ((s = path_plot(clip_dir, r, cs, nc, scene, err)))
+	if ((s = path_plot(clip_dir, r, cs, nc, scene, err)) || (s = heading_plot(clip_dir, r, err)))
 		goto out;
-	s = heading_plot(clip_dir, r, err);
+	s = wl_report_run_page(clip_dir, scene, err);
 out:
 	if (r && r->tr) {
 		for (i = 0; i < r->ntr; i++)

@@ -1,10 +1,11 @@
 /*
  * html.c: report.html, one self-contained page over a batch's output
- * folder: the sweep plots, a table of every run that sorts on any column
- * (a few lines of inline script), each run's path thumbnail and a link to
- * its folder, and the clips that failed with their messages.  Nothing is
- * loaded from the network; images are referenced relative to the page.
- * Also the run table's own bookkeeping (init, release, column lookup).
+ * folder.  The runs of summary.csv are embedded as JSON and drawn by
+ * src/report/assets/report.js (the runs table with its column chooser,
+ * sort, filter and pages; the groups of replicates; the sweep plots as
+ * inline SVG); the failures are plain HTML.  Nothing is loaded from the
+ * network.  Also the run table's own bookkeeping (init, release, column
+ * lookup).
  */
 #define _POSIX_C_SOURCE 200809L
 #include "report/report.h"
@@ -12,8 +13,14 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <math.h>
+
 #include "core/afile.h"
 #include "core/csvio.h"
+#include "core/numfmt.h"
+#include "formats/summary.h"
+#include "report/page.h"
+#include "wl_version.h"
 
 void wl_report_runs_init(wl_report_runs *t)
 {
@@ -42,6 +49,15 @@ void wl_report_runs_release(wl_report_runs *t)
 	wl_report_runs_init(t);
 }
 
+static double runnum(const wl_report_runs *t, size_t row, const char *name)
+{
+	int c = wl_report_runs_col(t, name);
+	double v;
+	if (c < 0 || !wl_parse_double(t->rows[row].cells[c], &v))
+		return NAN;
+	return v;
+}
+
 int wl_report_runs_col(const wl_report_runs *t, const char *name)
 {
 	size_t i;
@@ -53,183 +69,175 @@ int wl_report_runs_col(const wl_report_runs *t, const char *name)
 	return -1;
 }
 
-static void esc(FILE *fp, const char *s)
+/* "value ± half" of the curvature and of the radius, by core/numfmt's rule
+ * (the radius interval is 1 / the curvature interval); "" when unknown. */
+static void interval_texts(const wl_report_runs *t, size_t i, char *kpm, char *rpm)
 {
-	for (; s && *s; s++) {
-		switch (*s) {
-		case '&':
-			fputs("&amp;", fp);
-			break;
-		case '<':
-			fputs("&lt;", fp);
-			break;
-		case '>':
-			fputs("&gt;", fp);
-			break;
-		case '"':
-			fputs("&quot;", fp);
-			break;
-		case '\'':
-			fputs("&#39;", fp);
-			break;
-		default:
-			fputc(*s, fp);
-		}
-	}
+	double k = runnum(t, i, wl_summary_col_name(WL_SUMCOL_CURVATURE));
+	double lo = runnum(t, i, wl_summary_col_name(WL_SUMCOL_CURVATURE_LO));
+	double hi = runnum(t, i, wl_summary_col_name(WL_SUMCOL_CURVATURE_HI));
+	double r = runnum(t, i, wl_summary_col_name(WL_SUMCOL_RADIUS));
+	int cs = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_STRAIGHT));
+	kpm[0] = rpm[0] = '\0';
+	if (isfinite(k))
+		wl_numfmt_pm(kpm, k, 0.5 * (hi - lo));
+	if (cs >= 0 && strcmp(t->rows[i].cells[cs], "true") == 0)
+		snprintf(rpm, WL_NUMFMT_BUF, "straight");
+	else if (isfinite(r))
+		wl_numfmt_pm(rpm, r, lo * hi > 0 ? 0.5 * fabs(1 / lo - 1 / hi) : NAN);
 }
 
-/* A relative URL: each path segment percent-encoded where needed. */
-static void url(FILE *fp, const char *s)
+/* The page's data: columns, runs (clip, folder, cells, the two interval
+ * texts) and the sweep settings. */
+static cJSON *page_data(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *title)
 {
-	for (; s && *s; s++) {
-		unsigned char c = (unsigned char)*s;
-		if ((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') ||
-		    strchr("-_.~/", c))
-			fputc(c, fp);
-		else
-			fprintf(fp, "%%%02X", c);
+	cJSON *root = cJSON_CreateObject(), *cols, *rows;
+	char kpm[WL_NUMFMT_BUF], rpm[WL_NUMFMT_BUF];
+	double body = wl_report_body_diameter(t, o);
+	size_t i, j;
+	if (!root)
+		return NULL;
+	cJSON_AddStringToObject(root, "title", title);
+	cJSON_AddStringToObject(root, "tool", "wakeline " WL_VERSION);
+	cols = cJSON_AddArrayToObject(root, "cols");
+	for (j = 0; j < t->ncols; j++)
+		cJSON_AddItemToArray(cols, cJSON_CreateString(t->cols[j]));
+	cJSON_AddNumberToObject(root, "nparams", (double)t->nparams);
+	if (o && o->x_col)
+		cJSON_AddStringToObject(root, "x_col", o->x_col);
+	else
+		cJSON_AddNullToObject(root, "x_col");
+	if (o && o->group_col)
+		cJSON_AddStringToObject(root, "group_col", o->group_col);
+	else
+		cJSON_AddNullToObject(root, "group_col");
+	if (body > 0)
+		cJSON_AddNumberToObject(root, "body_m", body);
+	else
+		cJSON_AddNullToObject(root, "body_m");
+	rows = cJSON_AddArrayToObject(root, "rows");
+	for (i = 0; rows && i < t->nrows; i++) {
+		const wl_report_row *r = &t->rows[i];
+		cJSON *a;
+		if (strcmp(r->status, "ok") != 0)
+			continue;
+		a = cJSON_CreateArray();
+		cJSON_AddItemToArray(rows, a);
+		cJSON_AddItemToArray(a, cJSON_CreateString(r->clip));
+		cJSON_AddItemToArray(a, cJSON_CreateString(r->folder));
+		for (j = 0; j < t->ncols; j++)
+			cJSON_AddItemToArray(a, cJSON_CreateString(r->cells[j]));
+		interval_texts(t, i, kpm, rpm);
+		cJSON_AddItemToArray(a, cJSON_CreateString(kpm));
+		cJSON_AddItemToArray(a, cJSON_CreateString(rpm));
 	}
+	return root;
 }
 
-static const char CSS[] = "body{font-family:sans-serif;margin:1.5em;color:#222}"
-                          "h1{font-size:1.4em}h2{font-size:1.15em;margin-top:1.6em}"
-                          ".sweep img{max-width:48%;margin-right:1%;border:1px solid #ddd}"
-                          "table{border-collapse:collapse;font-size:0.85em}"
-                          "th,td{border:1px solid #ccc;padding:2px 6px;text-align:right;white-space:nowrap}"
-                          "td.t,th.t{text-align:left}th{background:#eee;cursor:pointer;position:sticky;top:0}"
-                          "th.asc::after{content:' \\25B2'}th.desc::after{content:' \\25BC'}"
-                          "img.thumb{width:120px;height:auto;display:block}"
-                          ".fail td{text-align:left}.msg{white-space:pre-wrap}";
+static const char BODY[] =
+        "<noscript><p><strong>This page draws its table and plots with JavaScript, which is "
+        "off.</strong> Every number is in summary.csv.</p></noscript>\n"
+        "<h2 id=\"runs-h\">Runs</h2>\n"
+        "<div class=\"bar\"><input type=\"search\" id=\"filter\" aria-label=\"filter the runs\" "
+        "placeholder=\"filter: words, or column=value, e.g. variant=fin curvature&gt;2\">"
+        "<label><input type=\"checkbox\" id=\"headline\" checked> headline runs only</label>"
+        "<details class=\"cols\"><summary>columns (<span id=\"colcount\"></span>)</summary><div>"
+        "<button id=\"view-compact\">compact</button> <button id=\"view-all\">all columns</button>"
+        "<div id=\"colboxes\"></div></div></details>"
+        "<span id=\"filter-note\" class=\"note\"></span></div>\n"
+        "<p class=\"note\">Click a column heading to sort, again to reverse; the clip opens its run page. "
+        "Radius and curvature are shown as value &#177; half their 95% interval, rounded to what the "
+        "interval supports; hover a value for its full precision, a verdict for its reasons. A filter "
+        "term is a word to find, or <code>column</code> with <code>= != &lt; &lt;= &gt; &gt;=</code> "
+        "or <code>~</code> (contains) and a value; terms must all hold.</p>\n"
+        "<p class=\"note\" id=\"verdict-note\"></p>\n"
+        "<div class=\"scroll\"><table id=\"runs\"></table></div>\n"
+        "<div class=\"bar\"><button id=\"prev\">&#8249; previous</button><span id=\"shown\"></span>"
+        "<button id=\"next\">next &#8250;</button><label>rows per page <select id=\"pagesize\">"
+        "<option>50</option><option selected>100</option><option>250</option><option>1000</option>"
+        "</select></label></div>\n"
+        "<h2 id=\"groups-h\">Groups of replicates</h2>\n"
+        "<div class=\"bar\">group the runs shown above by: <span id=\"groupboxes\"></span>"
+        "<span id=\"groupcount\" class=\"note\"></span></div>\n"
+        "<p class=\"note\">Runs with the same values in the chosen columns form a group. For each "
+        "measure: the mean &#177; half the 95% interval of the mean (Student t with n &#8722; 1 "
+        "degrees of freedom, s / &#8730;n), and the sample standard deviation. The radius is 1 / the "
+        "mean curvature, its interval 1 / the curvature's (\"straight\" when that contains 0).</p>\n"
+        "<div class=\"scroll\"><table id=\"groups\"></table></div>\n"
+        "<h2 id=\"sweep-h\">Sweep</h2>\n"
+        "<div class=\"bar\"><label>x: <select id=\"sweep-x\"></select></label>"
+        "<label>variant (colour and marker): <select id=\"sweep-by\"></select></label></div>\n"
+        "<div id=\"sweep-plots\"></div>\n<div id=\"tip\" role=\"tooltip\"></div>\n";
 
-/* Sorting: numbers as numbers, empty cells last, text otherwise.  The load
- * handler records how many images loaded, for checks by a headless browser. */
-static const char JS[] =
-        "(function(){\n"
-        "function key(td){var s=td.getAttribute('data-v');if(s===null)s=td.textContent;return s;}\n"
-        "function cmp(a,b){if(a===''&&b==='')return 0;if(a==='')return 1;if(b==='')return -1;\n"
-        " var x=Number(a),y=Number(b);if(!isNaN(x)&&!isNaN(y))return x-y;return a<b?-1:a>b?1:0;}\n"
-        "var t=document.getElementById('runs');if(t){var hs=t.tHead.rows[0].cells;\n"
-        " for(var i=0;i<hs.length;i++)(function(i){var h=hs[i];if(h.className.indexOf('nosort')>=0)return;\n"
-        "  h.addEventListener('click',function(){var dir=h.classList.contains('asc')?-1:1;\n"
-        "   for(var "
-        "j=0;j<hs.length;j++)hs[j].classList.remove('asc','desc');h.classList.add(dir>0?'asc':'desc');\n"
-        "   var b=t.tBodies[0],rs=Array.prototype.slice.call(b.rows);\n"
-        "   rs.sort(function(p,q){var c=cmp(key(p.cells[i]),key(q.cells[i]));return "
-        "c===0?0:(c<0?-dir:dir);});\n"
-        "   rs.forEach(function(r){b.appendChild(r);});});})(i);\n"
-        /* report.html#sort=COLUMN (or #sort=COLUMN,desc) opens the table sorted */
-        " var m=/^#sort=([^,]+)(,desc)?$/.exec(decodeURIComponent(location.hash));\n"
-        " if(m)for(var "
-        "i2=0;i2<hs.length;i2++)if(hs[i2].textContent===m[1]){hs[i2].click();if(m[2])hs[i2].click();}}\n"
-        "window.addEventListener('load',function(){var im=document.images,ok=0;\n"
-        " for(var k=0;k<im.length;k++)if(im[k].complete&&im[k].naturalWidth>0)ok++;\n"
-        " document.body.setAttribute('data-images-total',String(im.length));\n"
-        " document.body.setAttribute('data-images-loaded',String(ok));});\n"
-        "})();\n";
-
-static int is_text_col(const wl_report_runs *t, size_t c)
-{
-	size_t i;
-	double v;
-	for (i = 0; i < t->nrows; i++) {
-		const char *s = t->rows[i].cells[c];
-		if (s[0] && !wl_parse_double(s, &v))
-			return 1;
-	}
-	return 0;
-}
-
-wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *title, int with_sweep,
-                         wl_err *err)
+wl_status wl_report_html(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
+                         const char *title, int with_sweep, wl_err *err)
 {
 	char path[4200];
 	wl_afile *af = NULL;
 	FILE *fp;
-	size_t i, j, nok = 0, nfail = 0;
-	char *text = NULL;
+	size_t i, nok = 0, nfail = 0;
+	cJSON *data = NULL;
 	wl_status s;
 
-	snprintf(path, sizeof path, "%s/report.html", dir);
-	if ((s = wl_afile_open(path, &af, err)))
-		return s;
-	fp = wl_afile_fp(af);
-	text = calloc(t->ncols ? t->ncols : 1, 1);
-	if (!text) {
-		wl_afile_abort(af);
-		return wl_err_set(err, WL_ENOMEM, "out of memory writing '%s'", path);
-	}
-	for (j = 0; j < t->ncols; j++)
-		text[j] = (char)is_text_col(t, j);
 	for (i = 0; i < t->nrows; i++) {
 		if (strcmp(t->rows[i].status, "ok") == 0)
 			nok++;
 		else
 			nfail++;
 	}
-	fputs("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>", fp);
-	esc(fp, title);
-	fprintf(fp, "</title>\n<style>%s</style>\n</head>\n<body>\n<h1>", CSS);
-	esc(fp, title);
-	fprintf(fp, "</h1>\n<p id=\"counts\">%zu runs, %zu clips failed or missing.</p>\n", nok, nfail);
+	data = page_data(t, o, title);
+	if (!data)
+		return wl_err_set(err, WL_ENOMEM, "out of memory writing '%s/report.html'", dir);
+	snprintf(path, sizeof path, "%s/report.html", dir);
+	if ((s = wl_afile_open(path, &af, err))) {
+		cJSON_Delete(data);
+		return s;
+	}
+	fp = wl_afile_fp(af);
+	wl_page_head(fp, title);
+	fputs("<h1>", fp);
+	wl_page_esc(fp, title);
+	fprintf(fp,
+	        "</h1>\n<p id=\"counts\">%zu runs, %zu clips failed or missing. "
+	        "The whole table at full precision: <a href=\"summary.csv\">summary.csv</a>.</p>\n",
+	        nok, nfail);
+	fputs(BODY, fp);
 	if (with_sweep)
-		fputs("<h2>Sweep</h2>\n<div class=\"sweep\">"
-		      "<img src=\"sweep_curvature.svg\" alt=\"curvature against the sweep column\">"
-		      "<img src=\"sweep_radius.svg\" alt=\"signed radius against the sweep column\"></div>\n",
+		fputs("<p class=\"note\">For papers: the same plots as files, "
+		      "<a href=\"sweep_curvature.svg\">sweep_curvature.svg</a> and "
+		      "<a href=\"sweep_radius.svg\">sweep_radius.svg</a> (and .png), "
+		      "with the batch's --x and --group.</p>\n",
 		      fp);
-	fputs("<h2>Runs</h2>\n<p>Click a column heading to sort (or open the page as "
-	      "report.html#sort=COLUMN).</p>\n<table id=\"runs\">\n<thead><tr>"
-	      "<th class=\"nosort t\">path</th><th class=\"t\">clip</th>",
-	      fp);
-	for (j = 0; j < t->ncols; j++) {
-		fprintf(fp, "<th%s>", text[j] ? " class=\"t\"" : "");
-		esc(fp, t->cols[j]);
-		fputs("</th>", fp);
-	}
-	fputs("</tr></thead>\n<tbody>\n", fp);
-	for (i = 0; i < t->nrows; i++) {
-		const wl_report_row *r = &t->rows[i];
-		if (strcmp(r->status, "ok") != 0)
-			continue;
-		fputs("<tr class=\"run\"><td class=\"t\"><a href=\"", fp);
-		url(fp, r->folder);
-		fputs("/\"><img class=\"thumb\" loading=\"eager\" src=\"", fp);
-		url(fp, r->folder);
-		fputs("/path_m.png\" alt=\"path\"></a></td><td class=\"t\"><a href=\"", fp);
-		url(fp, r->folder);
-		fputs("/\">", fp);
-		esc(fp, r->clip);
-		fputs("</a></td>", fp);
-		for (j = 0; j < t->ncols; j++) {
-			fprintf(fp, "<td%s>", text[j] ? " class=\"t\"" : "");
-			esc(fp, r->cells[j]);
-			fputs("</td>", fp);
-		}
-		fputs("</tr>\n", fp);
-	}
-	fputs("</tbody>\n</table>\n", fp);
-	fprintf(fp, "<h2>Failures</h2>\n");
+	fputs("<h2 id=\"failures-h\">Failures</h2>\n", fp);
 	if (!nfail) {
 		fputs("<p id=\"nofailures\">None.</p>\n", fp);
 	} else {
-		fputs("<table id=\"failures\" "
-		      "class=\"fail\">\n<thead><tr><th>clip</th><th>status</th><th>message</th>"
-		      "</tr></thead>\n<tbody>\n",
+		fputs("<table id=\"failures\" class=\"fail\">\n<thead><tr><th class=\"t\">clip</th>"
+		      "<th class=\"t\">status</th><th class=\"t\">message</th></tr></thead>\n<tbody>\n",
 		      fp);
 		for (i = 0; i < t->nrows; i++) {
 			const wl_report_row *r = &t->rows[i];
 			if (strcmp(r->status, "ok") == 0)
 				continue;
 			fputs("<tr class=\"failure\"><td>", fp);
-			esc(fp, r->clip);
+			wl_page_esc(fp, r->clip);
 			fputs("</td><td>", fp);
-			esc(fp, r->status);
+			wl_page_esc(fp, r->status);
 			fputs("</td><td class=\"msg\">", fp);
-			esc(fp, r->error);
+			wl_page_esc(fp, r->error);
 			fputs("</td></tr>\n", fp);
 		}
 		fputs("</tbody>\n</table>\n", fp);
 	}
-	fprintf(fp, "<script>\n%s</script>\n</body>\n</html>\n", JS);
-	free(text);
+	fputs("<p class=\"note\">Made by wakeline " WL_VERSION ". The page is one file: it loads nothing "
+	      "from the network; thumbnails and run pages are in the clips folder beside it.</p>\n",
+	      fp);
+	s = wl_page_data(fp, data, err);
+	cJSON_Delete(data);
+	if (s) {
+		wl_afile_abort(af);
+		return s;
+	}
+	wl_page_tail(fp, "report.js");
 	return wl_afile_commit(af, err);
 }

@@ -50,9 +50,11 @@ size_t wl_ticks_linear(double lo, double hi, size_t max_ticks, double *out, size
 double wl_symlog(double v, double linthresh);
 double wl_symlog_inv(double s, double linthresh);
 
-/* Ticks of a symmetric-log axis within [lo, hi]: 0 (when inside) and
- * +-linthresh * 10^k; decades are thinned so that at most max_ticks remain.
- * Falls back to linear ticks when the range does not leave the linear part. */
+/* Ticks of a symmetric-log axis within [lo, hi]: 0 (when inside) and the
+ * round decades +-10^k from a third of linthresh up (+-0.1, +-1, +-10 for a
+ * 0.14 m threshold); decades are thinned (keeping 1) so that at most
+ * max_ticks remain.  Falls back to linear ticks when the range does not
+ * leave the linear part. */
 size_t wl_ticks_symlog(double lo, double hi, double linthresh, size_t max_ticks, double *out, size_t cap);
 
 /* The viridis colour map (van der Walt & Smith, 2015, CC0) at t in [0, 1]
@@ -155,6 +157,32 @@ void wl_report_release_caches(void);
 
 /* ---- per-run plots ------------------------------------------------------ */
 
+/* One segment's rows, and what the measure stage computes from them that
+ * the run page shows (the yaw spectrum, the circle's residuals).  report
+ * and measure are stages of one layer and include no one another, so the
+ * function that computes it comes from a caller above both, in the scene:
+ * wl_process_analyse_run (pipeline/pipeline.h) runs the measure module's
+ * own functions, so the page shows what the summary's numbers come from. */
+typedef struct {
+	size_t n;
+	const double *t_s, *x_m, *y_m, *heading_rad, *speed_mps, *yaw_rate_radps;
+	const unsigned char *measured;
+	double min_arc_deg; /* NaN: the measure's default */
+} wl_report_seg;
+
+typedef struct {
+	double *yaw_rad;      /* n (caller's): the heading about the path's direction */
+	double *offset_m;     /* n (caller's): distance from the fitted circle (or line) */
+	double *f_hz, *power; /* cap (caller's): the yaw's periodogram, nbins filled */
+	size_t cap, nbins;
+	size_t n_used;      /* rows the measure used */
+	double yaw_peak_hz; /* the fitted yaw frequency; NaN when none */
+} wl_report_seg_analysis;
+
+/* Fills out for in; WL_OK, or an error when the segment cannot be measured
+ * (the page then shows no spectrum or residuals). */
+typedef wl_status (*wl_report_analyse_fn)(const wl_report_seg *in, wl_report_seg_analysis *out);
+
 /* What the path plot draws besides the track.  Any field may be empty. */
 typedef struct {
 	size_t n_outline; /* tank outline polygon, floor metres */
@@ -163,6 +191,12 @@ typedef struct {
 	const double (*markers_m)[2];
 	const char *const *marker_ids; /* labels (CAL.json's point ids), may be NULL */
 	double body_diameter_m;        /* 0 if unknown */
+	wl_report_analyse_fn analyse;  /* the run page's spectrum and residuals; NULL: none */
+	/* the run page's clip name and parameters when the folder has no clip.json
+	 * yet (a batch writes it after the clip): NULL / 0 for none */
+	const char *clip_name;
+	size_t nparams;
+	const char *const *param_names, *const *param_values;
 } wl_report_scene;
 
 /* A scene from CAL.json's tank outline and floor markers (formats/cal.h),
@@ -186,11 +220,25 @@ void wl_report_scene_release(wl_report_scene_buf *sb);
 
 /* Reads `clip_dir`/clean.csv and `clip_dir`/summary.json (formats/clean.h,
  * formats/summary.h) and writes path_m.svg, path_m.png, heading.svg and
- * heading.png into clip_dir.  Memory stays bounded: long tracks are thinned
+ * heading.png into clip_dir, then the clip's page run.html
+ * (wl_report_run_page).  Memory stays bounded: long tracks are thinned
  * to at most WL_REPORT_MAX_POINTS points per robot for drawing.
  * The fitted circle is drawn for each non-straight run with a centre. */
 #define WL_REPORT_MAX_POINTS 20000
 wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scene, wl_err *err);
+
+/* Writes clip_dir/run.html, the page of one clip folder (docs/report.md):
+ * a section per run of summary.json with its key numbers rounded to what
+ * their intervals support, the path on the tank with the fitted circle,
+ * heading, yaw rate and speed over time with the rows left out shaded, the
+ * yaw spectrum with the fitted peak and the circle's residuals (recomputed
+ * from clean.csv by scene->analyse, none without it), the verdict and uncertainty budget
+ * when the summary has them; then clean.json's account, process.log and
+ * trail.png (embedded).  One self-contained file; a folder without
+ * clean.csv gets the numbers only.  scene may be NULL (the outline then
+ * comes from clean.json).  Fails only on an unreadable summary.json or
+ * clean.csv, or when the page cannot be written. */
+wl_status wl_report_run_page(const char *clip_dir, const wl_report_scene *scene, wl_err *err);
 
 /* ---- the sweep: a table of runs over many clips ------------------------- */
 
@@ -231,11 +279,21 @@ typedef struct {
 wl_status wl_report_sweep_plots(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
                                 int *written, wl_err *err);
 
-/* Writes dir/report.html: the sweep plots (when `with_sweep`), a table of
- * all runs sortable by any column, each run's thumbnail (folder/path_m.png)
- * and a link to its folder, and the failures with their messages.  The page
- * loads nothing from the network; images are referenced relatively. */
-wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *title, int with_sweep,
-                         wl_err *err);
+/* The body diameter the sweep plots use: o->body_diameter_m when > 0, else
+ * the median over the runs of |radius_m| / radius_body_diameters, else 0
+ * (unknown).  o may be NULL. */
+double wl_report_body_diameter(const wl_report_runs *t, const wl_report_sweep_opts *o);
+
+/* Writes dir/report.html, one self-contained file (docs/report.md): the
+ * runs of t (status ok) embedded as JSON and drawn by an inline script as a
+ * runs table (compact view or every column, sort, filter, pages), groups of
+ * replicates with means and 95% intervals, and the sweep plots as inline
+ * SVG (x and variant chosen in the page; o's x_col / group_col are the
+ * defaults, o may be NULL); the failed and missing clips with their
+ * messages; links to summary.csv, each run's page (folder/run.html) and,
+ * when `with_sweep`, the sweep plot files.  The page loads nothing from the
+ * network. */
+wl_status wl_report_html(const wl_report_runs *t, const wl_report_sweep_opts *o, const char *dir,
+                         const char *title, int with_sweep, wl_err *err);
 
 #endif

@@ -83,10 +83,14 @@ double wl_symlog_inv(double s, double c)
 	return copysign(c * pow(10.0, a / c - SYMLOG_A), s);
 }
 
+/* Ticks at round decades (+-0.1, +-1, +-10 m), not at multiples of the
+ * threshold: the threshold is a body diameter such as 0.14 m, and ticks at
+ * 0.14, 1.4, 14 read badly.  Decades below a third of the threshold would
+ * crowd 0 on the linear part and are left out. */
 size_t wl_ticks_symlog(double lo, double hi, double c, size_t max_ticks, double *out, size_t cap)
 {
 	double amax;
-	int kmax, every = 1, k;
+	int kmin, kmax, every = 1, k;
 	size_t n = 0, i, j;
 	double tmp[WL_TICKS_MAX];
 
@@ -102,30 +106,35 @@ size_t wl_ticks_symlog(double lo, double hi, double c, size_t max_ticks, double 
 	amax = fmax(fabs(lo), fabs(hi));
 	if (amax <= c * 1.0000001)
 		return wl_ticks_linear(lo, hi, max_ticks, out, cap);
-	kmax = (int)floor(log10(amax / c) + 1e-9);
+	kmin = (int)ceil(log10(c / 3) - 1e-9);
+	kmax = (int)floor(log10(amax) + 1e-9);
 	if (kmax > 300)
 		kmax = 300;
-	/* count the ticks of a given thinning and thin until they fit */
+	if (kmin < kmax - 300)
+		kmin = kmax - 300;
+	/* count the ticks of a given thinning (decades k with k % every == 0,
+	 * so that 1 stays) and thin until they fit */
 	for (;;) {
 		size_t cnt = (lo <= 0 && hi >= 0) ? 1 : 0;
-		for (k = 0; k <= kmax; k += every) {
-			double v = c * pow(10.0, k);
-			cnt += (v >= lo && v <= hi) + (-v >= lo && -v <= hi);
+		for (k = kmin; k <= kmax; k++) {
+			double v = pow(10.0, k);
+			if (k % every == 0)
+				cnt += (v >= lo && v <= hi) + (-v >= lo && -v <= hi);
 		}
-		if (cnt <= max_ticks || every > kmax)
+		if (cnt <= max_ticks || every > kmax - kmin)
 			break;
 		every++;
 	}
-	for (k = kmax - (kmax % every); k >= 0 && n < WL_TICKS_MAX; k -= every) {
-		double v = -c * pow(10.0, k);
-		if (v >= lo && v <= hi)
+	for (k = kmax; k >= kmin && n < WL_TICKS_MAX; k--) {
+		double v = -pow(10.0, k);
+		if (k % every == 0 && v >= lo && v <= hi)
 			tmp[n++] = v;
 	}
 	if (lo <= 0 && hi >= 0 && n < WL_TICKS_MAX)
 		tmp[n++] = 0.0;
-	for (k = 0; k <= kmax && n < WL_TICKS_MAX; k += every) {
-		double v = c * pow(10.0, k);
-		if (v >= lo && v <= hi)
+	for (k = kmin; k <= kmax && n < WL_TICKS_MAX; k++) {
+		double v = pow(10.0, k);
+		if (k % every == 0 && v >= lo && v <= hi)
 			tmp[n++] = v;
 	}
 	for (i = 0, j = 0; i < n && j < cap; i++)

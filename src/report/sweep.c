@@ -66,6 +66,27 @@ static double body_from_runs(const pt *p, size_t n)
 	return med;
 }
 
+double wl_report_body_diameter(const wl_report_runs *t, const wl_report_sweep_opts *o)
+{
+	int cr = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS));
+	int crb = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS_BODY));
+	pt *p;
+	size_t i, n = 0;
+	double body;
+	if (o && o->body_diameter_m > 0)
+		return o->body_diameter_m;
+	p = calloc(t->nrows ? t->nrows : 1, sizeof *p);
+	if (!p)
+		return 0;
+	for (i = 0; i < t->nrows; i++) {
+		p[n].r = cellnum(t, i, cr);
+		p[n++].rbd = cellnum(t, i, crb);
+	}
+	body = body_from_runs(p, n);
+	free(p);
+	return body;
+}
+
 static size_t index_of(const char **list, size_t n, const char *s)
 {
 	size_t i;

@@ -53,7 +53,9 @@ check_exit "measure under LC_ALL=de_DE.UTF-8 succeeds" 0 env LC_ALL=de_DE.UTF-8 
 	"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/SUMMARY.json" --csv "$T/runs.csv" \
 	--body-diameter-m 0.1 --commanded-period-s 0.8
 cp "$T/last.out" "$T/stdout"
-check_grep "the report: id 1 segment 1 (30.0 s), radius 0.5" "^id 1 segment 1 (30.0 s): radius 0.5" "$T/stdout"
+# rounded to what the interval supports (core/numfmt.h): "radius 0.49991 ± 0.00013 m"
+check_grep "the report: id 1 segment 1 (30.0 s), radius 0.5 ± its 95% half-interval, rounded to it" \
+	"^id 1 segment 1 (30.0 s): radius 0\.\(49\|50\)[0-9]* ± 0\.000[0-9]* m counter-clockwise (curvature [0-9.]* ± [0-9.]* /m at 95%" "$T/stdout"
 check_grep "the report: id 7 segment 0 (25.0 s), straight" "^id 7 segment 0 (25.0 s): straight" "$T/stdout"
 check_eq "the report has two lines (the headline runs)" "$(wc -l < "$T/stdout")" 2
 check_no_grep "no decimal commas in SUMMARY.json" "[0-9],[0-9]" "$T/SUMMARY.json"

@@ -75,6 +75,22 @@ for f in raw.csv clean.csv clean.json summary.json path_m.svg path_m.png heading
 done
 check_file "the sweep has report.html" out/report.html
 check_file "the sweep has sweep_curvature.svg" out/sweep_curvature.svg
+# the worker's run page is whole (name, manifest parameters, the clip's
+# messages, the trail image), so a merge leaves it alone
+check_file "the clip folder has trail.png" out/clips/day2__g2_MOV/trail.png
+check_py "run.html of day2/g2.MOV has the clip's name, parameters, messages, trail and spectrum" <<'PYEOF'
+import json
+h = open("out/clips/day2__g2_MOV/run.html").read()
+a = h.index('<script type="application/json" id="wl-data">') + len('<script type="application/json" id="wl-data">')
+d = json.loads(h[a:h.index("</script>", a)])
+assert d["clip"] == "day2/g2.MOV" and d["params"] == {"gain": "1.0", "fin": "swept"}, (d["clip"], d["params"])
+assert any(" process " in line for line in d["log"]), d.get("log")
+assert d["trail"].startswith("data:image/png;base64,"), d["trail"][:40]
+assert d["runs"] and "spectrum" in d["runs"][0], "no spectrum on the run page"
+PYEOF
+before=$(stat -c %Y.%y out/clips/day2__g2_MOV/run.html)
+"$WAKELINE" merge out > /dev/null 2>&1 || true
+check_eq "a merge after the batch leaves the run page alone" "$(stat -c %Y.%y out/clips/day2__g2_MOV/run.html)" "$before"
 
 # rerun: done clips are skipped, the bad one is tried again
 check_exit "the rerun exits 1 (the bad clip fails again)" 1 \

@@ -20,8 +20,14 @@
 #include <unistd.h>
 
 #include <cmocka.h>
+#include <cjson/cJSON.h>
 
 #include "core/afile.h"
+#include "core/angle.h"
+#include "core/jsonio.h"
+#include "core/numfmt.h"
+#include "measure/measure.h"
+#include "pipeline/pipeline.h"
 #include "report/report.h"
 
 #define PI 3.14159265358979323846
@@ -144,6 +150,15 @@ static void test_symlog_ticks(void **state)
 	assert_true(n <= 9 && n >= 5);
 	for (i = 1; i < n; i++)
 		assert_true(t[i] > t[i - 1]);
+	/* a threshold that is not a power of ten (a body diameter) still gives
+	 * round decades: +-0.1, +-1, +-10, not +-0.14, +-1.4, +-14 */
+	{
+		const double want2[7] = {-10, -1, -0.1, 0, 0.1, 1, 10};
+		n = wl_ticks_symlog(-30, 30, 0.14, 9, t, WL_TICKS_MAX);
+		assert_int_equal(n, 7);
+		for (i = 0; i < n; i++)
+			assert_true(fabs(t[i] - want2[i]) < 1e-12 * fmax(1, fabs(want2[i])));
+	}
 	/* inside the linear part: linear ticks */
 	n = wl_ticks_symlog(-0.4, 0.4, 1, 9, t, WL_TICKS_MAX);
 	assert_true(n >= 3);
@@ -348,7 +363,12 @@ static void test_clip_plots(void **state)
 {
 	double outline[4][2] = {{0, 0}, {2, 0}, {2, 1.2}, {0, 1.2}}, markers[2][2] = {{0.1, 0.1}, {1.9, 1.1}};
 	const char *ids[2] = {"A0", "A1"};
-	wl_report_scene sc = {4, (const double(*)[2])outline, 2, (const double(*)[2])markers, ids, 0.1};
+	wl_report_scene sc = {.n_outline = 4,
+	                      .outline_m = (const double(*)[2])outline,
+	                      .n_markers = 2,
+	                      .markers_m = (const double(*)[2])markers,
+	                      .marker_ids = ids,
+	                      .body_diameter_m = 0.1};
 	char path[400];
 	wl_err err;
 	(void)state;
@@ -373,6 +393,230 @@ static void test_clip_plots(void **state)
 	assert_int_equal(wl_report_clip_plots(tmpdir, NULL, &err), WL_EFORMAT);
 	assert_non_null(strstr(err.msg, "clean.csv:1"));
 	assert_non_null(strstr(err.msg, "x_m"));
+}
+
+/* ---- run page ---- */
+
+/* An invented run: robot 5 circles counter-clockwise on r = 0.5 m about
+ * (1.2, 0.7) at 0.15 m/s for 30 s at 30 fps, its heading oscillating 10 deg
+ * at 0.8 Hz about the tangent, 0.3 mm of seeded noise on the positions; the
+ * first 2 s are left out as "start".  summary.json is written from
+ * wl_measure_run over the segment, as the measure stage would. */
+static void make_run_folder(const char *dir, int with_budget)
+{
+	char path[400];
+	FILE *fp;
+	int i, n = 900, m = 0;
+	static double t[900], x[900], y[900], h[900], v[900], yr[900];
+	static unsigned char meas[900];
+	unsigned long long s = 12345;
+	wl_measure_input in;
+	wl_measure_opts opt;
+	wl_measure_result r;
+	cJSON *root = cJSON_CreateObject(), *runs, *run = cJSON_CreateObject();
+	cJSON_AddStringToObject(root, "format", "wakeline summary");
+	cJSON_AddNumberToObject(root, "format_version", 1);
+	runs = cJSON_AddArrayToObject(root, "runs");
+	snprintf(path, sizeof path, "%s/clean.csv", dir);
+	fp = fopen(path, "w");
+	assert_non_null(fp);
+	fprintf(fp, "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,status,"
+	            "cut\n");
+	for (i = 0; i < n; i++) {
+		double tt = i / 30.0, a = 0.3 * tt, wob = 10 * WL_PI / 180 * sin(2 * WL_PI * 0.8 * tt), nx,
+		       ny;
+		s = s * 6364136223846793005ULL + 1442695040888963407ULL;
+		nx = ((double)(s >> 11) / 9007199254740992.0 - 0.5) * 0.0006;
+		s = s * 6364136223846793005ULL + 1442695040888963407ULL;
+		ny = ((double)(s >> 11) / 9007199254740992.0 - 0.5) * 0.0006;
+		double px = 1.2 + 0.5 * cos(a) + nx, py = 0.7 + 0.5 * sin(a) + ny,
+		       hd = atan2(sin(a + WL_PI / 2 + wob), cos(a + WL_PI / 2 + wob));
+		/* the values as the file holds them, so that the summary is the
+		 * one the measure stage would make from it */
+		tt = round(tt * 1e4) / 1e4, px = round(px * 1e6) / 1e6, py = round(py * 1e6) / 1e6;
+		hd = round(hd * 1e6) / 1e6;
+		fprintf(fp, "%.4f,%d,5,%.6f,%.6f,%.6f,0.15,0.3,0,0,%d,measured,%s\n", tt, i, px, py, hd,
+		        tt < 2 ? -1 : 0, tt < 2 ? "start" : "");
+		if (tt >= 2) {
+			t[m] = tt, x[m] = px, y[m] = py, h[m] = hd, v[m] = 0.15, yr[m] = 0.3, meas[m] = 1;
+			m++;
+		}
+	}
+	fclose(fp);
+	in.n = (size_t)m, in.t_s = t, in.x_m = x, in.y_m = y, in.heading_rad = h, in.speed_mps = v;
+	in.yaw_rate_radps = yr, in.measured = meas;
+	wl_measure_opts_init(&opt);
+	assert_int_equal(wl_measure_run(&in, &opt, &r, NULL), WL_OK);
+	cJSON_AddNumberToObject(run, "id", 5);
+	cJSON_AddNumberToObject(run, "segment", 0);
+	cJSON_AddTrueToObject(run, "headline");
+	cJSON_AddBoolToObject(run, "straight", r.straight);
+	cJSON_AddNumberToObject(run, "curvature_per_m", r.curvature_per_m);
+	wl_json_add_numbers(run, "curvature_ci95_per_m", r.curvature_ci95_per_m, 2);
+	cJSON_AddNumberToObject(run, "radius_m", r.radius_m);
+	cJSON_AddNumberToObject(run, "centre_x_m", r.centre_x_m);
+	cJSON_AddNumberToObject(run, "centre_y_m", r.centre_y_m);
+	cJSON_AddNumberToObject(run, "fit_rms_m", r.fit_rms_m);
+	cJSON_AddNumberToObject(run, "mean_speed_mps", r.mean_speed_mps);
+	cJSON_AddNumberToObject(run, "yaw_osc_freq_hz", r.yaw_osc_freq_hz);
+	cJSON_AddNumberToObject(run, "yaw_osc_amp_deg", r.yaw_osc_amp_deg);
+	cJSON_AddNumberToObject(run, "tracked_fraction", 1);
+	if (with_budget) {
+		cJSON_AddStringToObject(run, "verdict", "check");
+		cJSON *reasons = cJSON_AddArrayToObject(run, "verdict_reasons");
+		cJSON_AddItemToArray(reasons, cJSON_CreateString("camera moved at 4.2 s"));
+		cJSON *b = cJSON_AddObjectToObject(run, "budget"),
+		      *sp = cJSON_AddObjectToObject(b, "mean_speed_mps");
+		cJSON_AddNumberToObject(sp, "total_se", 0.0021);
+	}
+	cJSON_AddItemToArray(runs, run);
+	snprintf(path, sizeof path, "%s/summary.json", dir);
+	assert_int_equal(wl_json_save(path, root, NULL), WL_OK);
+	cJSON_Delete(root);
+}
+
+/* The data block of a page, parsed. */
+static cJSON *page_data(const char *path)
+{
+	char *text = NULL, *a, *b;
+	size_t len;
+	cJSON *d;
+	assert_int_equal(wl_read_file(path, 1 << 26, &text, &len, NULL), WL_OK);
+	a = strstr(text, "<script type=\"application/json\" id=\"wl-data\">");
+	assert_non_null(a);
+	a = strchr(a, '>') + 1;
+	b = strstr(a, "</script>");
+	assert_non_null(b);
+	assert_null(memchr(a, '<', (size_t)(b - a)));
+	assert_non_null(strstr(text, "default-src 'none'"));
+	d = cJSON_ParseWithLength(a, (size_t)(b - a));
+	assert_non_null(d);
+	free(text);
+	return d;
+}
+
+static void test_run_page(void **state)
+{
+	char path[400], want[WL_NUMFMT_BUF];
+	cJSON *d, *run, *sp, *f, *p, *res, *mm, *sum;
+	double best = -1, fbest = NAN, ss = 0, T = 28, k, lo, hi;
+	int i, n;
+	wl_report_scene scene;
+	wl_err err;
+	(void)state;
+	make_run_folder(tmpdir, 1);
+	snprintf(path, sizeof path, "%s/process.log", tmpdir);
+	write_text(path, "wakeline process c.mp4\nwarning: <3> rows rejected\n");
+	/* without the measure's functions: the numbers, no spectrum */
+	assert_int_equal(wl_report_run_page(tmpdir, NULL, &err), WL_OK);
+	snprintf(path, sizeof path, "%s/run.html", tmpdir);
+	d = page_data(path);
+	run = cJSON_GetArrayItem(cJSON_GetObjectItem(d, "runs"), 0);
+	assert_non_null(cJSON_GetObjectItem(run, "numbers"));
+	assert_null(cJSON_GetObjectItem(run, "spectrum"));
+	cJSON_Delete(d);
+	memset(&scene, 0, sizeof scene);
+	scene.analyse = wl_process_analyse_run; /* as process and merge give it */
+	assert_int_equal(wl_report_run_page(tmpdir, &scene, &err), WL_OK);
+	d = page_data(path);
+	run = cJSON_GetArrayItem(cJSON_GetObjectItem(d, "runs"), 0);
+	assert_string_equal(cJSON_GetObjectItem(run, "id")->valuestring, "5");
+	sum = cJSON_GetObjectItem(run, "summary");
+	/* the spectrum peaks at the invented 0.8 Hz (within a bin, 1/(2T)), and
+	 * the recomputed fitted frequency is the summary's */
+	sp = cJSON_GetObjectItem(run, "spectrum");
+	assert_non_null(sp);
+	f = cJSON_GetObjectItem(sp, "f");
+	p = cJSON_GetObjectItem(sp, "p");
+	n = cJSON_GetArraySize(f);
+	assert_true(n > 100 && n == cJSON_GetArraySize(p));
+	for (i = 0; i < n; i++)
+		if (cJSON_GetArrayItem(p, i)->valuedouble > best)
+			best = cJSON_GetArrayItem(p, i)->valuedouble,
+			fbest = cJSON_GetArrayItem(f, i)->valuedouble;
+	assert_true(fabs(fbest - 0.8) <= 0.5 / T + 1e-9);
+	assert_true(fabs(cJSON_GetObjectItem(sp, "peak_hz")->valuedouble -
+	                 cJSON_GetObjectItem(sum, "yaw_osc_freq_hz")->valuedouble) < 1e-9);
+	assert_true(fabs(cJSON_GetObjectItem(sum, "yaw_osc_freq_hz")->valuedouble - 0.8) < 0.01);
+	/* residuals: their RMS is the summary's fit_rms_m */
+	res = cJSON_GetObjectItem(run, "resid");
+	mm = cJSON_GetObjectItem(res, "mm");
+	n = cJSON_GetArraySize(mm);
+	assert_int_equal(n, 840);
+	for (i = 0; i < n; i++)
+		ss += pow(cJSON_GetArrayItem(mm, i)->valuedouble, 2);
+	assert_true(fabs(sqrt(ss / n) / (1000 * cJSON_GetObjectItem(sum, "fit_rms_m")->valuedouble) - 1) <
+	            0.01);
+	/* the numbers: curvature ± half its interval by core/numfmt; the speed
+	 * with the budget's 1.96 x total_se */
+	k = cJSON_GetObjectItem(sum, "curvature_per_m")->valuedouble;
+	/* the page's run object has the per-run table's columns */
+	lo = cJSON_GetObjectItem(sum, "curvature_ci95_per_m_lo")->valuedouble;
+	hi = cJSON_GetObjectItem(sum, "curvature_ci95_per_m_hi")->valuedouble;
+	{
+		cJSON *nums = cJSON_GetObjectItem(run, "numbers"), *row;
+		int seen = 0;
+		cJSON_ArrayForEach(row, nums)
+		{
+			const char *label = cJSON_GetArrayItem(row, 0)->valuestring,
+			           *text = cJSON_GetArrayItem(row, 1)->valuestring;
+			if (!strcmp(label, "curvature (1/m)")) {
+				assert_string_equal(text, wl_numfmt_pm(want, k, 0.5 * (hi - lo)));
+				seen++;
+			} else if (!strcmp(label, "mean speed (m/s)")) {
+				assert_string_equal(text, "0.150 \xc2\xb1 0.004");
+				seen++;
+			}
+		}
+		assert_int_equal(seen, 2);
+	}
+	assert_string_equal(cJSON_GetObjectItem(sum, "verdict")->valuestring, "check");
+	/* the log comes along, the robot's series whole (900 rows, under the cap) */
+	assert_string_equal(cJSON_GetArrayItem(cJSON_GetObjectItem(d, "log"), 1)->valuestring,
+	                    "warning: <3> rows rejected");
+	assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(
+	                         cJSON_GetArrayItem(cJSON_GetObjectItem(d, "robots"), 0), "t")),
+	                 900);
+	cJSON_Delete(d);
+
+	/* without clean.csv: the numbers, no plots' data */
+	snprintf(path, sizeof path, "%s/clean.csv", tmpdir);
+	unlink(path);
+	assert_int_equal(wl_report_run_page(tmpdir, NULL, &err), WL_OK);
+	snprintf(path, sizeof path, "%s/run.html", tmpdir);
+	d = page_data(path);
+	run = cJSON_GetArrayItem(cJSON_GetObjectItem(d, "runs"), 0);
+	assert_non_null(cJSON_GetObjectItem(run, "numbers"));
+	assert_null(cJSON_GetObjectItem(run, "spectrum"));
+	assert_int_equal(cJSON_GetArraySize(cJSON_GetObjectItem(d, "robots")), 0);
+	cJSON_Delete(d);
+	/* a broken summary is an error naming the file */
+	snprintf(path, sizeof path, "%s/summary.json", tmpdir);
+	write_text(path, "{\"runs\": 3}");
+	assert_int_not_equal(wl_report_run_page(tmpdir, NULL, &err), WL_OK);
+	assert_non_null(strstr(err.msg, "summary.json"));
+}
+
+/* wl_measure_periodogram: a sine of 1.25 Hz peaks in its bin; power at
+ * frequencies k / (nfft dt) */
+static void test_periodogram(void **state)
+{
+	static double t[600], v[600], f[1100], p[1100];
+	size_t nb = 0, i, best = 0;
+	(void)state;
+	for (i = 0; i < 600; i++) {
+		t[i] = i / 30.0;
+		v[i] = sin(2 * WL_PI * 1.25 * t[i]) + 0.1;
+	}
+	assert_int_equal(wl_measure_periodogram(t, v, 600, f, p, 1100, &nb, NULL), WL_OK);
+	assert_int_equal(nb, 1024); /* nfft 2048 >= 2n, bins 1 .. nfft/2 */
+	for (i = 0; i < nb; i++)
+		if (p[i] > p[best])
+			best = i;
+	/* dt = 1/30 s: bins 30/2048 Hz apart from the first */
+	assert_true(fabs(f[0] - 30.0 / 2048) < 1e-12 && fabs(f[1] - f[0] - 30.0 / 2048) < 1e-12);
+	assert_true(fabs(f[best] - 1.25) <= 0.5 * 30.0 / 2048 + 1e-12);
+	assert_int_not_equal(wl_measure_periodogram(t, v, 10, f, p, 1100, &nb, NULL), WL_OK);
 }
 
 static void test_scene_load(void **state)
@@ -493,15 +737,44 @@ static void test_sweep_and_html(void **state)
 	o.x_col = "nothere";
 	assert_int_equal(wl_report_sweep_plots(&t, &o, tmpdir, &written, &err), WL_EINVAL);
 	assert_non_null(strstr(err.msg, "nothere"));
-	assert_int_equal(wl_report_html(&t, tmpdir, "sweep <test>", 1, &err), WL_OK);
+	assert_int_equal(wl_report_html(&t, &o, tmpdir, "sweep <test>", 1, &err), WL_OK);
 	snprintf(path, sizeof path, "%s/report.html", tmpdir);
 	assert_int_equal(wl_read_file(path, 1 << 24, &text, &len, NULL), WL_OK);
-	assert_int_equal(count_str(text, "<tr class=\"run\">"), 7);
+	{
+		/* the data block: the 7 runs with the interval texts of core/numfmt */
+		char *a = strstr(text, "<script type=\"application/json\" id=\"wl-data\">"), *b;
+		cJSON *d, *rows;
+		assert_non_null(a);
+		a = strchr(a, '>') + 1;
+		b = strstr(a, "</script>");
+		assert_non_null(b);
+		d = cJSON_ParseWithLength(a, (size_t)(b - a));
+		assert_non_null(d);
+		rows = cJSON_GetObjectItem(d, "rows");
+		assert_int_equal(cJSON_GetArraySize(rows), 7);
+		assert_int_equal(cJSON_GetArraySize(cJSON_GetArrayItem(rows, 0)), 2 + 9 + 2);
+		/* k = -3, interval [-3.3, -2.7]: curvature -3.00 ± 0.30, radius
+		 * -1/3 with half of |1/-3.3 - 1/-2.7| = 0.0337 -> -0.333 ± 0.034 */
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 11)->valuestring,
+		                    "-3.00 \xc2\xb1 0.30");
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 12)->valuestring,
+		                    "-0.333 \xc2\xb1 0.034");
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 3), 12)->valuestring,
+		                    "straight");
+		assert_string_equal(cJSON_GetObjectItem(d, "x_col")->valuestring, "nothere"); /* as given */
+		assert_true(fabs(cJSON_GetObjectItem(d, "body_m")->valuedouble - 0.1) < 1e-9);
+		/* no '<' inside the block: "<disc>" is written \u003cdisc> */
+		assert_null(memchr(a, '<', (size_t)(b - a)));
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 3)->valuestring,
+		                    "<disc>");
+		cJSON_Delete(d);
+	}
 	assert_int_equal(count_str(text, "<tr class=\"failure\">"), 1);
-	assert_non_null(strstr(text, "&lt;disc&gt;"));
 	assert_null(strstr(text, "<disc>"));
 	assert_non_null(strstr(text, "cannot decode &lt;frame 3&gt;"));
-	assert_null(strstr(text, "http://"));
+	assert_non_null(strstr(text, "default-src 'none'"));
+	/* the only URL is the SVG namespace, a name that is never fetched */
+	assert_int_equal(count_str(text, "http://"), count_str(text, "http://www.w3.org/2000/svg"));
 	assert_null(strstr(text, "https://"));
 	free(text);
 	wl_report_runs_release(&t);
@@ -521,6 +794,8 @@ int main(void)
 	        cmocka_unit_test(test_clip_plots),
 	        cmocka_unit_test(test_scene_load),
 	        cmocka_unit_test(test_sweep_and_html),
+	        cmocka_unit_test(test_run_page),
+	        cmocka_unit_test(test_periodogram),
 	};
 	int rc = cmocka_run_group_tests(tests, setup_dir, teardown_dir);
 	wl_report_release_caches();

@@ -45,7 +45,8 @@ import sys
 import xml.etree.ElementTree as ET
 import zlib
 
-TMP = re.compile(r"^\.(.+)\.tmp-\d+-\d+$")
+# core/afile.c: ".NAME.tmp-PID-N", or ".NAME.tmp-OWNER-PID-N" under an owner tag (batch shards)
+TMP = re.compile(r"^\.(.+)\.tmp-(?:[A-Za-z][A-Za-z0-9_]*-)?\d+-\d+$")
 CLIPDIR = re.compile(r"(^|/)clips/[^/]+/")
 
 
