@@ -25,6 +25,7 @@ void wl_calib_init(wl_calib *cal)
 	wl_camera_init(&cal->cam, 0, 0, 1, 1, 0, 0);
 	cal->H_px_to_m[0] = cal->H_px_to_m[4] = cal->H_px_to_m[8] = 1;
 	cal->rms_px = cal->rms_mm = NAN;
+	cal->sigma_px = cal->principal_offset_mm_per_m = NAN;
 }
 
 void wl_calib_release(wl_calib *cal)
@@ -102,6 +103,42 @@ static void get_outline(const wl_calib *cal, wl_cal_outline *o)
 	memcpy(o->xy, cal->outline_m, sizeof o->xy);
 }
 
+/* route, distortion model, covariance and tolerances (issue 13's keys) */
+static int add_uncertainty(cJSON *root, const wl_calib *cal)
+{
+	cJSON *o, *a;
+	if (cal->route[0])
+		cJSON_AddStringToObject(root, "route", cal->route);
+	if (cal->distortion_model[0])
+		cJSON_AddStringToObject(root, "distortion_model", cal->distortion_model);
+	cJSON_AddBoolToObject(root, "principal_point_assumed", cal->principal_assumed);
+	if (cal->principal_assumed && isfinite(cal->principal_offset_mm_per_m))
+		cJSON_AddNumberToObject(root, "principal_offset_mm_per_m", cal->principal_offset_mm_per_m);
+	if (cal->camera_height_given_m > 0)
+		cJSON_AddNumberToObject(root, "camera_height_given_m", cal->camera_height_given_m);
+	if (cal->n_cov > 0) {
+		if (!(o = cJSON_AddObjectToObject(root, "covariance")) ||
+		    !(a = cJSON_AddArrayToObject(o, "parameters")))
+			return 0;
+		for (int i = 0; i < cal->n_cov; i++)
+			cJSON_AddItemToArray(a, cJSON_CreateString(wl_camparam_name(cal->cov_param[i])));
+		if (!(a = cJSON_AddArrayToObject(o, "matrix")))
+			return 0;
+		for (int i = 0; i < cal->n_cov; i++)
+			cJSON_AddItemToArray(a,
+			                     cJSON_CreateDoubleArray(cal->cov + i * cal->n_cov, cal->n_cov));
+		if (isfinite(cal->sigma_px))
+			cJSON_AddNumberToObject(o, "sigma_px", cal->sigma_px);
+	}
+	if (!(o = cJSON_AddObjectToObject(root, "tolerances")))
+		return 0;
+	cJSON_AddNumberToObject(o, "plane_height_m", cal->plane_height_sd_m);
+	cJSON_AddNumberToObject(o, "water_depth_m", cal->water_depth_sd_m);
+	cJSON_AddNumberToObject(o, "camera_height_m", cal->camera_height_sd_m);
+	cJSON_AddNumberToObject(o, "principal_point_px", cal->principal_sd_px);
+	return 1;
+}
+
 static cJSON *build_json(const wl_calib *cal)
 {
 	cJSON *root = wl_cal_new_root(), *o;
@@ -144,6 +181,8 @@ static cJSON *build_json(const wl_calib *cal)
 		cJSON_AddNumberToObject(root, "rms_mm", cal->rms_mm);
 	else
 		cJSON_AddNullToObject(root, "rms_mm");
+	if (!add_uncertainty(root, cal))
+		goto fail;
 	get_outline(cal, &outline);
 	if (!wl_cal_add_outline(root, &outline) || !wl_cal_add_points(root, cal->points, cal->n_points))
 		goto fail;
@@ -221,6 +260,78 @@ static wl_status copy_string(const cJSON *obj, const char *key, const char *name
 		return wl_err_set(err, WL_EFORMAT, "%s: key '%s' %s", name, key,
 		                  v ? "must be a string" : "is missing");
 	snprintf(dst, cap, "%s", v->valuestring);
+	return WL_OK;
+}
+
+/* The optional keys of issue 13: route, covariance, tolerances. */
+static wl_status load_uncertainty(const cJSON *root, const char *name, wl_calib *cal, wl_err *err)
+{
+	const cJSON *cov = cJSON_GetObjectItemCaseSensitive(root, "covariance"), *tol, *par, *mat, *v;
+	wl_status st;
+	if ((st = copy_string(root, "route", name, cal->route, sizeof cal->route, 0, err)) ||
+	    (st = copy_string(root, "distortion_model", name, cal->distortion_model,
+	                      sizeof cal->distortion_model, 0, err)))
+		return st;
+	cal->principal_assumed =
+	        cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(root, "principal_point_assumed"));
+	cal->principal_offset_mm_per_m = wl_json_number_or(root, "principal_offset_mm_per_m", NAN);
+	cal->camera_height_given_m = wl_json_number_or(root, "camera_height_given_m", 0);
+	tol = cJSON_GetObjectItemCaseSensitive(root, "tolerances");
+	if (tol && !cJSON_IsObject(tol))
+		return wl_err_set(err, WL_EFORMAT, "%s: key 'tolerances' must be an object", name);
+	cal->plane_height_sd_m = wl_json_number_or(tol, "plane_height_m", 0);
+	cal->water_depth_sd_m = wl_json_number_or(tol, "water_depth_m", 0);
+	cal->camera_height_sd_m = wl_json_number_or(tol, "camera_height_m", 0);
+	cal->principal_sd_px = wl_json_number_or(tol, "principal_point_px", 0);
+	if (!(cal->plane_height_sd_m >= 0 && cal->water_depth_sd_m >= 0 && cal->camera_height_sd_m >= 0 &&
+	      cal->principal_sd_px >= 0))
+		return wl_err_set(err, WL_EFORMAT, "%s: key 'tolerances': values must be numbers >= 0", name);
+	cal->n_cov = 0;
+	if (!cov)
+		return WL_OK;
+	par = cJSON_GetObjectItemCaseSensitive(cov, "parameters");
+	mat = cJSON_GetObjectItemCaseSensitive(cov, "matrix");
+	if (!cJSON_IsObject(cov) || !cJSON_IsArray(par) || !cJSON_IsArray(mat) ||
+	    cJSON_GetArraySize(par) < 1 || cJSON_GetArraySize(par) > WL_CP_N ||
+	    cJSON_GetArraySize(mat) != cJSON_GetArraySize(par))
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s: key 'covariance' must hold 'parameters' (1 to %d names) and a square "
+		                  "'matrix' of as many rows",
+		                  name, WL_CP_N);
+	cal->n_cov = cJSON_GetArraySize(par);
+	for (int i = 0; i < cal->n_cov; i++) {
+		v = cJSON_GetArrayItem(par, i);
+		if (!cJSON_IsString(v) || (cal->cov_param[i] = wl_camparam_index(v->valuestring)) < 0)
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s: key 'covariance.parameters': item %d is not a parameter name",
+			                  name, i);
+		for (int j = 0; j < i; j++)
+			if (cal->cov_param[j] == cal->cov_param[i])
+				return wl_err_set(err, WL_EFORMAT,
+				                  "%s: key 'covariance.parameters': '%s' appears twice", name,
+				                  v->valuestring);
+	}
+	for (int i = 0; i < cal->n_cov; i++) {
+		const cJSON *row = cJSON_GetArrayItem(mat, i);
+		if (!cJSON_IsArray(row) || cJSON_GetArraySize(row) != cal->n_cov)
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s: key 'covariance.matrix': row %d must hold %d numbers", name, i,
+			                  cal->n_cov);
+		for (int j = 0; j < cal->n_cov; j++) {
+			v = cJSON_GetArrayItem(row, j);
+			if (!cJSON_IsNumber(v) || !isfinite(v->valuedouble))
+				return wl_err_set(
+				        err, WL_EFORMAT,
+				        "%s: key 'covariance.matrix': row %d, column %d is not a number",
+				        name, i, j);
+			cal->cov[i * cal->n_cov + j] = v->valuedouble;
+		}
+	}
+	for (int i = 0; i < cal->n_cov; i++)
+		if (!(cal->cov[i * cal->n_cov + i] >= 0))
+			return wl_err_set(err, WL_EFORMAT,
+			                  "%s: key 'covariance.matrix': a variance is negative", name);
+	cal->sigma_px = wl_json_number_or(cov, "sigma_px", NAN);
 	return WL_OK;
 }
 
@@ -329,6 +440,8 @@ static wl_status parse(const wl_cal_doc *d, wl_calib *cal, wl_err *err)
 	if ((st = copy_string(root, "intrinsics_source", name, cal->intrinsics_source,
 	                      sizeof cal->intrinsics_source, 1, err)) ||
 	    (st = load_shared(d, cal, err)))
+		return st;
+	if ((st = load_uncertainty(root, name, cal, err)))
 		return st;
 	prov = cJSON_GetObjectItemCaseSensitive(root, "provenance");
 	if (cJSON_IsObject(prov)) {

@@ -135,6 +135,65 @@ static double coverage(const wl_lens_collector *lc)
 	return hit / 100.0;
 }
 
+static const struct {
+	const char *name;
+	int flags;  /* wl_cv_flags */
+	int parent; /* the model this one extends by one step (-1: the first) */
+} lens_models[] = {
+        {"k1", WL_CV_FIX_K2 | WL_CV_FIX_K3 | WL_CV_ZERO_TANGENT, -1},
+        {"k1k2", WL_CV_FIX_K3 | WL_CV_ZERO_TANGENT, 0},
+        {"k1k2k3", WL_CV_ZERO_TANGENT, 1},
+        {"k1k2p1p2", WL_CV_FIX_K3, 1},
+        {"k1k2p1p2k3", 0, 3},
+};
+#define MODEL_GAIN 0.03 /* as calibrate's (solve.c), our choice */
+
+/* Calibrates with each model and keeps the one the left-out views prefer,
+ * one step at a time along the chain (as calibrate's, solve.c): of the
+ * models that extend the one chosen so far, the best predictor is taken
+ * when it predicts the left-out views MODEL_GAIN better. */
+static wl_status choose_model(const wl_lens_collector *lc, const double *obj, int n, int k, wl_lens *lens,
+                              double K[9], double dist[5], double *rms, wl_err *err)
+{
+	double Ks[WL_LENS_MAX_MODELS][9], Ds[WL_LENS_MAX_MODELS][5];
+	int best = 1;
+	wl_status st;
+	for (int m = 0; m < WL_LENS_MAX_MODELS; m++) {
+		wl_lens_model *lm = &lens->models[m];
+		int flags = wl_cv_flags(lens_models[m].flags);
+		snprintf(lm->name, sizeof lm->name, "%s", lens_models[m].name);
+		if ((st = wl_cv_calibrate(obj, n, lc->corners, k, lc->width_px, lc->height_px, flags, Ks[m],
+		                          Ds[m], &lm->rms_px, NULL, err)))
+			return st;
+		lm->fx = Ks[m][0];
+		lm->fy = Ks[m][4];
+		lm->holdout_px = INFINITY;
+		if (k >= 5 && (st = wl_cv_holdout_rms(obj, n, lc->corners, k, lc->width_px, lc->height_px,
+		                                      flags, &lm->holdout_px, err)))
+			return st;
+		lens->n_models = m + 1;
+	}
+	if (k >= 5) {
+		best = 0;
+		for (;;) {
+			int next = -1;
+			for (int m = 1; m < WL_LENS_MAX_MODELS; m++)
+				if (lens_models[m].parent == best &&
+				    (next < 0 || lens->models[m].holdout_px < lens->models[next].holdout_px))
+					next = m;
+			if (next < 0 || !(lens->models[next].holdout_px <
+			                  (1 - MODEL_GAIN) * lens->models[best].holdout_px))
+				break;
+			best = next;
+		}
+	}
+	snprintf(lens->model, sizeof lens->model, "%s", lens_models[best].name);
+	memcpy(K, Ks[best], sizeof Ks[best]);
+	memcpy(dist, Ds[best], sizeof Ds[best]);
+	*rms = lens->models[best].rms_px;
+	return WL_OK;
+}
+
 wl_status wl_lens_collector_finish(wl_lens_collector *lc, wl_lens *lens, wl_err *err)
 {
 	int n = lc->cols * lc->rows, k = 0, blurred = 0;
@@ -183,8 +242,7 @@ wl_status wl_lens_collector_finish(wl_lens_collector *lc, wl_lens *lens, wl_err 
 			o[1] = r * lc->square_mm / 1000;
 			o[2] = 0;
 		}
-	st = wl_cv_calibrate(obj, n, lc->corners, k, lc->width_px, lc->height_px, 0, K, dist, &rms, NULL,
-	                     err);
+	st = choose_model(lc, obj, n, k, lens, K, dist, &rms, err);
 	free(obj);
 	if (st)
 		return st;
@@ -217,6 +275,21 @@ wl_status wl_lens_save(const char *path, const wl_lens *lens, wl_err *err)
 	cJSON_AddItemToObject(root, "camera_matrix", mat3(lens->cam.K));
 	wl_json_add_numbers(root, "distortion", lens->cam.dist, 5);
 	cJSON_AddNumberToObject(root, "rms_px", lens->rms_px);
+	if (lens->model[0]) {
+		cJSON *a = cJSON_AddArrayToObject(root, "distortion_models");
+		cJSON_AddStringToObject(root, "distortion_model", lens->model);
+		for (int m = 0; a && m < lens->n_models; m++) {
+			cJSON *e = cJSON_CreateObject();
+			cJSON_AddItemToArray(a, e);
+			cJSON_AddStringToObject(e, "model", lens->models[m].name);
+			cJSON_AddNumberToObject(e, "rms_px", lens->models[m].rms_px);
+			if (isfinite(lens->models[m].holdout_px))
+				cJSON_AddNumberToObject(e, "holdout_rms_px", lens->models[m].holdout_px);
+			else
+				cJSON_AddNullToObject(e, "holdout_rms_px");
+			cJSON_AddNumberToObject(e, "fx_px", lens->models[m].fx);
+		}
+	}
 	o = cJSON_AddObjectToObject(root, "board");
 	if (o) {
 		cJSON_AddNumberToObject(o, "cols", lens->board_cols);
@@ -236,7 +309,9 @@ wl_status wl_lens_save(const char *path, const wl_lens *lens, wl_err *err)
 		cJSON_AddStringToObject(o, "tool", "wakeline");
 		cJSON_AddStringToObject(o, "version", WL_VERSION);
 		cJSON_AddStringToObject(o, "source", lens->source);
-		cJSON_AddStringToObject(o, "method", "OpenCV calibrateCamera (Zhang 2000), 5 coefficients");
+		cJSON_AddStringToObject(o, "method",
+		                        "OpenCV calibrateCamera (Zhang 2000), distortion model chosen by "
+		                        "leave-one-view-out residual");
 	}
 	st = wl_json_save(path, root, err);
 	cJSON_Delete(root);

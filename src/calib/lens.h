@@ -17,8 +17,21 @@
 
 #define WL_LENS_MAX_VIEWS 200
 
+#define WL_LENS_MAX_MODELS 5
+
+/* One distortion model tried (see wl_lens_collector_finish). */
 typedef struct {
-	wl_camera cam; /* K and distortion; identity pose */
+	char name[24];     /* "k1", "k1k2", "k1k2k3", "k1k2p1p2", "k1k2p1p2k3" */
+	double rms_px;     /* fit to every view */
+	double holdout_px; /* leave-one-view-out: each view predicted from the others */
+	double fx, fy;     /* its focal lengths, for the report */
+} wl_lens_model;
+
+typedef struct {
+	wl_camera cam;  /* K and distortion; identity pose */
+	char model[24]; /* the distortion model chosen */
+	int n_models;
+	wl_lens_model models[WL_LENS_MAX_MODELS];
 	double rms_px; /* RMS reprojection error of the board corners */
 	int board_cols, board_rows;
 	double square_mm;
@@ -42,7 +55,13 @@ wl_status wl_lens_collector_add(wl_lens_collector *lc, const uint8_t *gray, int 
                                 int stride, int *kept, wl_err *err);
 
 /* Drops blurred views (Laplacian variance below a quarter of the median
- * of the kept views), then calibrates.  WL_ECALIB with fewer than 3 views. */
+ * of the kept views), then calibrates with each distortion model (k1;
+ * k1 k2; k1 k2 k3; k1 k2 p1 p2; all five) and keeps the one with the
+ * lowest leave-one-view-out residual, a model with more terms only when it
+ * predicts the left-out views 3% better than the simpler one it extends
+ * (fit residual always prefers more terms).  With fewer than 5 views the
+ * models cannot be compared and k1 k2 is taken.  WL_ECALIB with fewer than
+ * 3 views. */
 wl_status wl_lens_collector_finish(wl_lens_collector *lc, wl_lens *lens, wl_err *err);
 
 /* LENS.json: camera_matrix, distortion, image_size_px, rms_px and the

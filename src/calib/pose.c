@@ -271,137 +271,20 @@ wl_status wl_pose_from_points3d(const double *xyz, const double *uv, int n, wl_c
 
 /* ---- Levenberg-Marquardt on the reprojection error ---- */
 
-typedef struct {
-	wl_camera base;
-	const double *xyz, *uv;
-	const int *used;
-	int n;
-	unsigned flags;
-} pose_problem;
-
-static void params_to_cam(const pose_problem *pp, const double *p, wl_camera *cam)
-{
-	*cam = pp->base;
-	wl_rodrigues(p, cam->R);
-	cam->t[0] = p[3];
-	cam->t[1] = p[4];
-	cam->t[2] = p[5];
-	if (pp->flags & WL_POSE_FOCAL) {
-		cam->K[0] = p[6];
-		cam->K[4] = p[6] * pp->base.K[4] / pp->base.K[0];
-	}
-}
-
-/* Residuals (2 per used point); returns 0 if a point is behind the camera. */
-static int residuals(const pose_problem *pp, const double *p, double *r)
-{
-	wl_camera cam;
-	int k = 0;
-	params_to_cam(pp, p, &cam);
-	for (int i = 0; i < pp->n; i++) {
-		double u, v;
-		int ok;
-		if (pp->used && !pp->used[i])
-			continue;
-		ok = (pp->flags & WL_POSE_WATER) ? wl_camera_project_water(&cam, pp->xyz + 3 * i, &u, &v)
-		                                 : wl_camera_project(&cam, pp->xyz + 3 * i, &u, &v);
-		if (!ok)
-			return 0;
-		r[k++] = u - pp->uv[2 * i];
-		r[k++] = v - pp->uv[2 * i + 1];
-	}
-	return 1;
-}
-
-static double sumsq(const double *r, int m)
-{
-	double s = 0;
-	for (int i = 0; i < m; i++)
-		s += r[i] * r[i];
-	return s;
-}
-
 double wl_pose_refine(wl_camera *cam, const double *xyz, const double *uv, const int *used, int n,
                       unsigned flags)
 {
-	enum { MAXP = 7 };
-	static const int max_m = 2 * WL_CALIB_MAX_POINTS;
-	pose_problem pp = {*cam, xyz, uv, used, n, flags};
-	double p[MAXP], r[2 * WL_CALIB_MAX_POINTS], rp[2 * WL_CALIB_MAX_POINTS], rm[2 * WL_CALIB_MAX_POINTS];
-	double J[MAXP][2 * WL_CALIB_MAX_POINTS], lambda = 1e-3, c;
-	int np = (flags & WL_POSE_FOCAL) ? 7 : 6, m = 0;
-	for (int i = 0; i < n; i++)
-		m += used ? used[i] != 0 : 1;
-	m *= 2;
-	if (n > WL_CALIB_MAX_POINTS || m > max_m || m < np)
-		return -1;
-	wl_rodrigues_inv(cam->R, p);
-	p[3] = cam->t[0];
-	p[4] = cam->t[1];
-	p[5] = cam->t[2];
-	p[6] = cam->K[0];
-	if (!residuals(&pp, p, r))
-		return -1;
-	c = sumsq(r, m);
-	for (int it = 0; it < 200; it++) {
-		double JtJ[MAXP * MAXP] = {0}, Jtr[MAXP] = {0};
-		int improved = 0;
-		for (int a = 0; a < np; a++) {
-			double q[MAXP], h = a < 3 ? 1e-6 : a < 6 ? 1e-6 * fmax(1, fabs(p[a])) : 1e-4 * p[6];
-			memcpy(q, p, sizeof q);
-			q[a] = p[a] + h;
-			if (!residuals(&pp, q, rp))
-				return -1;
-			q[a] = p[a] - h;
-			if (!residuals(&pp, q, rm))
-				return -1;
-			for (int k = 0; k < m; k++)
-				J[a][k] = (rp[k] - rm[k]) / (2 * h);
-		}
-		for (int a = 0; a < np; a++) {
-			for (int k = 0; k < m; k++)
-				Jtr[a] -= J[a][k] * r[k];
-			for (int b = 0; b < np; b++) {
-				double s = 0;
-				for (int k = 0; k < m; k++)
-					s += J[a][k] * J[b][k];
-				JtJ[a * np + b] = s;
-			}
-		}
-		for (int tries = 0; tries < 12 && !improved; tries++) {
-			double A[MAXP * MAXP], step[MAXP], q[MAXP], cn;
-			memcpy(A, JtJ, sizeof A);
-			memcpy(step, Jtr, sizeof step);
-			for (int a = 0; a < np; a++)
-				A[a * np + a] += lambda * (JtJ[a * np + a] + 1e-12);
-			if (!wl_solve(A, step, np)) {
-				lambda *= 10;
-				continue;
-			}
-			memcpy(q, p, sizeof q);
-			for (int a = 0; a < np; a++)
-				q[a] += step[a];
-			if (!residuals(&pp, q, rp)) {
-				lambda *= 10;
-				continue;
-			}
-			cn = sumsq(rp, m);
-			if (cn < c) {
-				double rel = (c - cn) / c;
-				memcpy(p, q, sizeof q);
-				memcpy(r, rp, sizeof(double) * (size_t)m);
-				c = cn;
-				lambda = fmax(lambda / 10, 1e-15);
-				improved = 1;
-				if (rel < 1e-15)
-					it = 1000;
-			} else {
-				lambda *= 10;
-			}
-		}
-		if (!improved || c < 1e-24)
-			break;
-	}
-	params_to_cam(&pp, p, cam);
-	return sqrt(c / (m / 2));
+	wl_camfit_opts o;
+	wl_camera c = *cam;
+	double rms;
+	memset(&o, 0, sizeof o);
+	o.free = WL_CP_POSE | ((flags & WL_POSE_FOCAL) ? WL_CP_BIT(WL_CP_F) : 0);
+	if (!(flags & WL_POSE_WATER))
+		c.water_depth_m = 0;
+	rms = wl_camfit(&c, xyz, uv, used, n, &o, NULL);
+	if (rms < 0)
+		return rms;
+	c.water_depth_m = cam->water_depth_m;
+	*cam = c;
+	return rms;
 }

@@ -312,4 +312,5 @@ void wl_clean_source_init(wl_clean_source *src, const wl_clean_raw *raw)
 	src->input_bytes = raw->bytes;
 	src->input_sha256 = raw->sha256_hex;
 	src->input_rows = raw->nrows;
+	src->camera = raw->camera_found ? &raw->camera : NULL;
 }

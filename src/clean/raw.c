@@ -105,6 +105,8 @@ static wl_status on_row(const wl_raw_row *r, void *ctx, wl_err *err)
 static wl_clean_raw *raw_new(const char *name)
 {
 	wl_clean_raw *raw = calloc(1, sizeof *raw);
+	if (raw)
+		wl_rawside_init(&raw->camera);
 	if (raw && !(raw->path = strdup(name))) {
 		free(raw);
 		raw = NULL;
@@ -132,6 +134,8 @@ wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err)
 	st = wl_raw_read(path, on_row, raw, err);
 	if (!st)
 		st = wl_sha256_file(path, raw->sha256_hex, &raw->bytes, err);
+	if (!st)
+		st = wl_rawside_read(path, &raw->camera, &raw->camera_found, err);
 	return finish(raw, st, out);
 }
 

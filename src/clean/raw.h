@@ -16,6 +16,7 @@
 #include <stdint.h>
 
 #include "core/err.h"
+#include "formats/rawside.h"
 
 typedef struct {
 	double t_s;
@@ -45,12 +46,16 @@ typedef struct {
 	size_t nrows;
 	uint64_t bytes;      /* size of the file */
 	char sha256_hex[65]; /* SHA-256 of the file's bytes */
+	int camera_found;    /* 1: RAW.csv came with its RAW sidecar (raw.json) */
+	wl_rawside camera;   /* the camera watch's record from it */
 } wl_clean_raw;
 
 #define WL_CLEAN_MAX_ROBOTS 4096
 
-/* Reads RAW.csv through formats/raw.h and checks that per id frames and
- * times (t_s, and t_meas_s) increase strictly (so no (frame, id) appears twice).  Errors name the file
+/* Reads RAW.csv through formats/raw.h, and its RAW sidecar when there is
+ * one (formats/rawside.h: the camera watch's record), and checks that per
+ * id frames and times (t_s, and t_meas_s) increase strictly (so no (frame,
+ * id) appears twice).  Errors name the file
  * and line.  *out is freed with wl_clean_raw_destroy. */
 wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
 /* Same over a buffer (name is used in messages; checksum of the buffer). */

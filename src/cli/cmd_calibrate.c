@@ -12,6 +12,7 @@
 #include "cli/cli.h"
 #include "cv/cv.h"
 #include "decode/decode.h"
+#include "track/track.h"
 
 const char cmd_calibrate_summary[] = "floor markers or picked points -> camera model (CAL.json)";
 
@@ -23,15 +24,22 @@ static const char HEAD[] =
         "water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
         "setting as the runs.\n"
         "\n";
-static const char TAIL[] = "\n"
-                           "Intrinsics come from --lens, else from the markers when the view is oblique\n"
-                           "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
-                           "Exit status: 0 ok, 1 failure, 2 usage error.\n";
+static const char TAIL[] =
+        "\n"
+        "Routes to the focal length: --lens; markers at two or more heights (z_m in the\n"
+        "layout, e.g. one on a block: also fixes the principal point); --camera-height-m;\n"
+        "--refine-with (the robots' tags over a run); an oblique view; --hfov-deg.\n"
+        "Without --lens, distortion is estimated from the markers when they cover the\n"
+        "image well.  The quality report goes to standard output.\n"
+        "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
-	const char *source, *layout, *points, *out, *lens, *family, *tank;
+	const char *source, *layout, *points, *out, *lens, *family, *tank, *refine, *robots;
+	double tag_size_m, tag_tol_m;
+	int refine_frames;
 	double hfov_deg, plane_m, water_m, water_index, at_s, span_s;
-	int quiet;
+	double cam_h_m, cam_h_tol_m, plane_tol_m, water_tol_m;
+	int quiet, no_distortion;
 } options;
 
 typedef struct {
@@ -197,6 +205,109 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 	return n;
 }
 
+/* ---- the robots' tags over a run (--refine-with) ---- */
+
+typedef struct {
+	wl_tag_sighting *s;
+	int n, cap;
+} sightings;
+
+/* The size and plane of tag id, or 0 when it is not a robot of known size. */
+static int robot_tag(const options *op, const wl_track_opts *ro, const wl_calib_marker *marks, int n_marks,
+                     int id, double *size_m, double *plane_m)
+{
+	for (int i = 0; i < n_marks; i++)
+		if (marks[i].id == id)
+			return 0; /* a floor marker */
+	*size_m = op->tag_size_m;
+	*plane_m = op->plane_m;
+	if (ro->n_robots > 0) {
+		const wl_robot_spec *r = NULL;
+		for (int i = 0; i < ro->n_robots; i++)
+			if (ro->robots[i].id == id)
+				r = &ro->robots[i];
+		if (!r)
+			return 0;
+		if (r->tag_size_m > 0)
+			*size_m = r->tag_size_m;
+		if (!isnan(r->plane_height_m))
+			*plane_m = r->plane_height_m;
+	}
+	return *size_m > 0 && *plane_m > 0;
+}
+
+/* Tags in up to op->refine_frames frames spread over the clip. */
+static wl_status collect_sightings(const options *op, const wl_track_opts *ro, const wl_calib_marker *marks,
+                                   int n_marks, int w, int h, sightings *out, int *frames, wl_err *err)
+{
+	wl_decoder *dec = NULL;
+	wl_tagdet *det = NULL;
+	const wl_frame *fr;
+	wl_tagdet_hit hits[64];
+	const wl_video_info *info;
+	double step_s, next_t = 0;
+	wl_status st;
+	cli_progress prog;
+	*frames = 0;
+	if ((st = wl_decoder_open(op->refine, 0, 0, &dec, err)) ||
+	    (st = wl_tagdet_create(op->family, 0, &det, err)))
+		goto out;
+	info = wl_decoder_info(dec);
+	if (info->width_px != w || info->height_px != h) {
+		st = wl_err_set(err, WL_ECALIB,
+		                "'%s' is %dx%d but the calibration source is %dx%d: use a run of the same "
+		                "camera setting",
+		                op->refine, info->width_px, info->height_px, w, h);
+		goto out;
+	}
+	step_s = info->duration_s > 0 ? info->duration_s / op->refine_frames : 0;
+	wl_tagdet_set(det, 2.0f, 0.0f, 0.25);
+	cli_progress_init(&prog, op->quiet);
+	while (!(st = wl_decoder_next(dec, &fr, err)) && fr) {
+		int nh;
+		if (fr->corrupt || fr->t_s + 1e-9 < next_t)
+			continue;
+		next_t = fr->t_s + step_s;
+		(*frames)++;
+		nh = wl_tagdet_detect(det, fr->luma, fr->luma_stride, 0, 0, fr->width_px, fr->height_px, hits,
+		                      64);
+		for (int i = 0; i < nh; i++) {
+			double size, plane, e = 3;
+			int inside = 1;
+			if (hits[i].hamming != 0 || hits[i].margin < 30 ||
+			    !robot_tag(op, ro, marks, n_marks, hits[i].id, &size, &plane))
+				continue;
+			for (int k = 0; k < 4; k++)
+				inside &= hits[i].p[k][0] >= e && hits[i].p[k][1] >= e &&
+				          hits[i].p[k][0] <= w - 1 - e && hits[i].p[k][1] <= h - 1 - e;
+			if (!inside)
+				continue;
+			if (out->n == out->cap) {
+				int cap = out->cap ? 2 * out->cap : 256;
+				wl_tag_sighting *ns = realloc(out->s, sizeof *ns * (size_t)cap);
+				if (!ns) {
+					st = wl_err_set(err, WL_ENOMEM,
+					                "out of memory for the tag sightings");
+					goto out;
+				}
+				out->s = ns;
+				out->cap = cap;
+			}
+			memcpy(out->s[out->n].p, hits[i].p, sizeof hits[i].p);
+			out->s[out->n].size_m = size;
+			out->s[out->n].plane_height_m = plane;
+			out->n++;
+		}
+		cli_progress_update(&prog, "calibrate: %s %.1f s, %d tag sightings", op->refine, fr->t_s,
+		                    out->n);
+	}
+	cli_progress_done(&prog);
+out:
+	wl_tagdet_destroy(det);
+	wl_decoder_destroy(dec);
+	return st;
+}
+
 static void bounding_outline(const wl_calib_point *pts, int n, const wl_calib_marker *marks, int n_marks,
                              outline_t *o)
 {
@@ -273,6 +384,14 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 	       rep->outlier >= 0 ? " (one left out as an outlier)" : "");
 	if (!strcmp(cal->intrinsics_source, "lens"))
 		printf("  intrinsics: from %s (lens RMS %.3f px)\n", op->lens, lens->rms_px);
+	else if (!strcmp(cal->route, WL_CALIB_ROUTE_HEIGHT) || !strcmp(cal->route, WL_CALIB_ROUTE_TAGS))
+		printf("  intrinsics: focal length from the floor homography and the camera height, refined "
+		       "to %.1f px\n",
+		       cal->cam.K[0]);
+	else if (!strcmp(cal->route, WL_CALIB_ROUTE_RAISED))
+		printf("  intrinsics: from the points at several heights, f %.1f px, principal point (%.1f, "
+		       "%.1f) px\n",
+		       cal->cam.K[0], cal->cam.K[2], cal->cam.K[5]);
 	else if (!strcmp(cal->intrinsics_source, "homography"))
 		printf("  intrinsics: the view is oblique enough: focal length from the homography "
 		       "(Zhang 2000), refined to %.1f px\n",
@@ -286,6 +405,16 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 		       cal->cam.K[0]);
 	if (rep->focal_determined && strcmp(cal->intrinsics_source, "homography"))
 		printf("  (the homography alone gives f %.1f px)\n", rep->focal_from_h_px);
+	printf("  %s\n", rep->route_note);
+	if (cal->principal_assumed && isfinite(cal->principal_offset_mm_per_m))
+		printf("  principal point: assumed at (%.1f, %.1f) px, +- %.0f px: positions on a plane h "
+		       "above "
+		       "the floor may be offset by up to h x %.1f mm/m (%.2f mm at the plane height %.3f m); "
+		       "radii and distances are not affected; a marker raised on a block fixes it\n",
+		       cal->cam.K[2], cal->cam.K[5], cal->principal_sd_px, cal->principal_offset_mm_per_m,
+		       rep->principal_offset_mm, cal->plane_height_m);
+	if (rep->distortion_note[0])
+		printf("  %s\n", rep->distortion_note);
 	printf("  camera: %.3f m above the floor, tilted %.1f deg from nadir, over (%.3f, %.3f) m\n", C[2],
 	       rep->tilt_deg, C[0], C[1]);
 	if (cal->cam.water_depth_m > 0)
@@ -327,6 +456,33 @@ static int parse_args(int argc, char **argv, options *op)
 	        CLI_OPT_STR("tank", 0, "\"x,y;x,y;...\"",
 	                    "tank outline in metres (default: the markers' bounding rectangle)", &op->tank),
 	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &op->quiet),
+	        CLI_OPT_SECTION("What the lab measured (routes without a field-of-view guess):"),
+	        CLI_OPT_NUM("camera-height-m", "H",
+	                    "the lens's height above the floor (tape measure): fixes the\nfocal length of a "
+	                    "view that looks straight down",
+	                    &op->cam_h_m, 0, 1000),
+	        CLI_OPT_NUM("camera-height-tol-m", "T", "its tolerance (default 0.01)", &op->cam_h_tol_m, 0,
+	                    100),
+	        CLI_OPT_NUM(
+	                "plane-height-tol-m", "T",
+	                "tolerance of --plane-height-m, recorded for uncertainty\nbudgets (default 0.002)",
+	                &op->plane_tol_m, 0, 100),
+	        CLI_OPT_NUM("water-depth-tol-m", "T", "tolerance of --water-depth-m (default 0.003)",
+	                    &op->water_tol_m, 0, 100),
+	        CLI_OPT_FLAG("no-distortion", 0, "do not estimate lens distortion from the markers",
+	                     &op->no_distortion),
+	        CLI_OPT_STR("refine-with", 0, "CLIP",
+	                    "measure the camera height from the robots' tags seen in a run\n(needs their "
+	                    "printed size and plane height above the floor)",
+	                    &op->refine),
+	        CLI_OPT_NUM("tag-size-m", "S", "printed side of the robots' tags (black square), metres",
+	                    &op->tag_size_m, 0, 10),
+	        CLI_OPT_NUM("tag-size-tol-m", "T", "its tolerance (default 0.0002)", &op->tag_tol_m, 0, 1),
+	        CLI_OPT_STR("robots", 0, "ROBOTS.csv",
+	                    "per robot: id, tag_size_m, plane_height_m (other columns ignored)", &op->robots),
+	        CLI_OPT_INT("refine-frames", 0, "N",
+	                    "frames of CLIP searched for tags (default 150, spread over it)",
+	                    &op->refine_frames, 10, 100000),
 	        CLI_OPT_END};
 	const cli_opt *tables[] = {tab, NULL};
 	int rc, first;
@@ -334,6 +490,7 @@ static int parse_args(int argc, char **argv, options *op)
 	op->family = "tag36h11";
 	op->water_index = 1.333;
 	op->span_s = 2;
+	op->refine_frames = 150;
 	if ((rc = cli_parse("calibrate", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
 		return rc;
 	if (first != argc - 1)
@@ -343,6 +500,25 @@ static int parse_args(int argc, char **argv, options *op)
 		return cli_usage_error("calibrate", "-o CAL.json is required");
 	if (!!op->layout == !!op->points)
 		return cli_usage_error("calibrate", "give exactly one of --layout and --points");
+	if (op->hfov_deg < 0 || op->hfov_deg >= 179)
+		return cli_usage_error("calibrate", "--hfov-deg must lie between 0 and 179");
+	if (op->water_m < 0 || op->water_index < 1 || op->water_index > 3)
+		return cli_usage_error("calibrate",
+		                       "--water-depth-m must be >= 0 and --water-index in [1, 3]");
+	if (op->cam_h_m < 0 || op->cam_h_tol_m < 0 || op->plane_tol_m < 0 || op->water_tol_m < 0)
+		return cli_usage_error("calibrate", "heights and tolerances must be >= 0");
+	if (op->cam_h_tol_m > 0 && !(op->cam_h_m > 0))
+		return cli_usage_error("calibrate", "--camera-height-tol-m needs --camera-height-m");
+	if (op->tag_size_m < 0 || op->tag_tol_m < 0)
+		return cli_usage_error("calibrate", "--tag-size-m and --tag-size-tol-m must be >= 0");
+	if (op->refine && !op->layout)
+		return cli_usage_error("calibrate", "--refine-with needs --layout (the floor markers)");
+	if (op->refine && !(op->tag_size_m > 0) && !op->robots)
+		return cli_usage_error("calibrate",
+		                       "--refine-with needs the tags' printed size: --tag-size-m S or "
+		                       "--robots ROBOTS.csv with a tag_size_m column");
+	if (op->span_s <= 0 || op->at_s < 0)
+		return cli_usage_error("calibrate", "--at must be >= 0 and --span > 0");
 	return CLI_CONTINUE;
 }
 
@@ -353,6 +529,9 @@ int cmd_calibrate(int argc, char **argv)
 	static wl_calib_point pts[WL_CALIB_MAX_POINTS];
 	static wl_calib_marker marks[WL_CALIB_MAX_POINTS];
 	static wl_lens lens;
+	static wl_track_opts robots;
+	sightings sight = {0};
+	wl_tagscale ts;
 	wl_calib_report rep;
 	wl_calib_opts co;
 	wl_calib_tags *tags = NULL;
@@ -361,6 +540,7 @@ int cmd_calibrate(int argc, char **argv)
 	cli_diag cd;
 	const wl_diag *diag;
 	int n = 0, n_marks = 0, w = 0, h = 0, rot = 0, frames = 0, status = WL_EXIT_FAIL, r;
+	wl_track_opts_init(&robots);
 	if ((r = parse_args(argc, argv, &op)) != CLI_CONTINUE)
 		return r;
 	diag = cli_diag_init(&cd, "calibrate", op.quiet);
@@ -401,8 +581,29 @@ int cmd_calibrate(int argc, char **argv)
 	co.water_index = op.water_index;
 	co.plane_height_m = op.plane_m;
 	co.rotation_deg = rot;
+	co.camera_height_m = op.cam_h_m;
+	co.camera_height_sd_m = op.cam_h_tol_m;
+	co.plane_height_sd_m = op.plane_tol_m;
+	co.water_depth_sd_m = op.water_tol_m;
+	co.no_distortion = op.no_distortion;
 	co.diag = diag;
-	if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
+	if (op.refine) {
+		int rf = 0;
+		if (op.robots && wl_track_load_robots(op.robots, &robots, &err))
+			goto out;
+		if (collect_sightings(&op, &robots, marks, n_marks, w, h, &sight, &rf, &err))
+			goto out;
+		printf("  robots' tags: %d sightings in %d frames of %s\n", sight.n, rf, op.refine);
+		if (wl_calib_solve_tags(pts, n, &co, sight.s, sight.n, op.tag_tol_m, &cal, &rep, &ts, &err)) {
+			wl_err_prefix(&err, err.code, "%s", op.refine);
+			goto out;
+		}
+		printf("  camera height from the tags: %.4f +- %.4f m (spread %.4f, plane height %.4f, "
+		       "printed "
+		       "size %.4f); the tags' plane is %.4f of the floor's scale (%d of %d sightings kept)\n",
+		       ts.height_m, ts.sd_m, ts.sd_stat_m, ts.sd_plane_m, ts.sd_size_m, ts.plane_scale,
+		       ts.n_used, ts.n_sightings);
+	} else if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
 		wl_err_prefix(&err, err.code, "%s", op.points ? op.points : op.source);
 		goto out;
 	}
@@ -421,5 +622,6 @@ out:
 	if (status != WL_EXIT_OK)
 		cli_fail("calibrate", &err);
 	wl_calib_tags_destroy(tags);
+	free(sight.s);
 	return cli_finish("calibrate", status);
 }

@@ -162,6 +162,13 @@ static void print_lens(const char *src, const char *out_path, const wl_lens *len
 	       lens->cam.K[2], lens->cam.K[5], lens->cam.width_px, lens->cam.height_px);
 	printf("  distortion k1 %.6f k2 %.6f p1 %.6f p2 %.6f k3 %.6f\n", lens->cam.dist[0], lens->cam.dist[1],
 	       lens->cam.dist[2], lens->cam.dist[3], lens->cam.dist[4]);
+	printf("  distortion model: %s, chosen by leave-one-view-out residual (a model with more terms must "
+	       "predict the left-out views 3%% better than the one it extends):\n",
+	       lens->model);
+	for (int m = 0; m < lens->n_models; m++)
+		printf("    %-11s fit %.4f px, left-out %.4f px, fx %.2f px%s\n", lens->models[m].name,
+		       lens->models[m].rms_px, lens->models[m].holdout_px, lens->models[m].fx,
+		       strcmp(lens->models[m].name, lens->model) ? "" : "  <- chosen");
 	if (lens->coverage < 0.5)
 		cli_warn("lens",
 		         "the board covered only %.0f%% of the image: add photos with the board near the "

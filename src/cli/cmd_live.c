@@ -311,7 +311,10 @@ static int parse(int argc, char **argv, live_args *a)
 	a->publish[a->npublish] = NULL;
 	lo->publish = a->publish;
 	lo->input.options = a->nsrcopt ? a->srcopt : NULL;
-	return cli_stages_finish("live", &a->st);
+	if ((rc = cli_stages_finish("live", &a->st)) != CLI_CONTINUE)
+		return rc;
+	lo->watch = &a->st.p.watch;
+	return CLI_CONTINUE;
 }
 
 static const char *end_text(wl_decode_end e)
@@ -344,6 +347,12 @@ static void summary(const live_args *a, const wl_live_stats *st)
 	       (long long)st->send_failures, st->robots_seen, st->reconnects);
 	if (a->lo.raw_path)
 		printf("%s: %lld frames recorded\n", a->lo.raw_path, (long long)st->frames_tracked);
+	if (a->st.p.watch.enabled)
+		printf("camera watch: %d checks, %d move%s%s\n", st->camera_checks, st->camera_moves,
+		       st->camera_moves == 1 ? "" : "s",
+		       isfinite(st->camera_suspect_from_s)
+		               ? " (poses suspect from a move that could not be registered)"
+		               : "");
 }
 
 int cmd_live(int argc, char **argv)

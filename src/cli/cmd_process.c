@@ -67,6 +67,7 @@ int cmd_process(int argc, char **argv)
 	if (!quiet) {
 		char raw[4200];
 		snprintf(raw, sizeof raw, "%s/%s", out, WL_PROCESS_RAW);
+		cli_print_watch(raw, &s.p.watch, &res.track);
 		cli_print_track(raw, &res.track);
 		for (size_t k = 0; k < res.clean.nrobots; k++)
 			cli_print_clean_robot(&res.clean.robots[k]);

@@ -54,6 +54,7 @@ int cmd_track(int argc, char **argv)
 	ro.clip = argv[first];
 	ro.queue_frames = 4;
 	ro.decode_threads = s.p.decode_threads;
+	ro.watch = &s.p.watch;
 	wl_err_clear(&err);
 	wl_calib_init(&cal);
 	if (wl_calib_load(cal_path, &cal, &err) != WL_OK) {
@@ -71,7 +72,9 @@ int cmd_track(int argc, char **argv)
 	wl_calib_release(&cal);
 	if (rc != WL_OK)
 		return cli_fail("track", &err);
-	if (!quiet)
+	if (!quiet) {
+		cli_print_watch(ro.raw_path, ro.watch, &sum);
 		cli_print_track(ro.raw_path, &sum);
+	}
 	return cli_finish("track", WL_EXIT_OK);
 }

@@ -31,6 +31,23 @@ void cli_print_track(const char *raw_path, const wl_track_summary *sum)
 		       1000 * st->readout_bias_s, 1000 * st->readout_used_s);
 }
 
+void cli_print_watch(const char *raw_path, const wl_watch_opts *watch, const wl_track_summary *sum)
+{
+	if (!watch || !watch->enabled)
+		return;
+	if (sum->camera_markers == 0)
+		printf("%s: camera watch: the calibration names no floor markers (made from --points?): the "
+		       "camera was not watched\n",
+		       raw_path);
+	else
+		printf("%s: camera watch: %d checks in %.3f CPU-s, %d move%s%s\n", raw_path,
+		       sum->camera_checks, sum->camera_watch_cpu_s, sum->camera_moves,
+		       sum->camera_moves == 1 ? "" : "s",
+		       isfinite(sum->suspect_from_t_s)
+		               ? " (poses suspect from a move that could not be registered)"
+		               : "");
+}
+
 void cli_print_clean_robot(const wl_clean_robot *rb)
 {
 	if (rb->rows_out == 0 && rb->measured == 0) {

@@ -11,6 +11,8 @@
 #include "track/track.h"
 
 void cli_print_track(const char *raw_path, const wl_track_summary *sum);
+/* The camera watch's line (nothing when the watch was off). */
+void cli_print_watch(const char *raw_path, const wl_watch_opts *watch, const wl_track_summary *sum);
 void cli_print_clean_robot(const wl_clean_robot *rb);
 void cli_print_headline(const wl_summary_run *run);
 

@@ -149,7 +149,17 @@ static void track_table(cli_stages *s)
 		                &t->readout_s, parse_readout_ms),
 		        CLI_OPT_INT("threads", 0, "N", "decoder threads (default: all cores)",
 		                    &s->p.decode_threads, 0, 64),
+		        CLI_OPT_SECTION("Camera watch:"),
+		        CLI_OPT_NUM("watch-period-s", "S",
+		                    "look at the floor markers every S s (default 0.5)", &s->p.watch.period_s,
+		                    0.01, 1e6),
+		        CLI_OPT_NUM("watch-threshold-px", "P",
+		                    "a marker shift above P px is a camera move (default 0.5)",
+		                    &s->p.watch.threshold_px, 0.01, 1000),
+		        CLI_OPT_FLAG("no-watch", 0, "do not watch the camera (no re-registration on a move)",
+		                     &s->no_watch),
 		        CLI_OPT_END};
+		_Static_assert(sizeof track <= sizeof s->track, "cli_stages.track is too small");
 		memcpy(s->track, track, sizeof track);
 		for (cli_opt *o = s->track; o->kind != CLI_END; o++)
 			if (o->dest == &t->min_margin)
@@ -269,5 +279,7 @@ int cli_stages_finish(const char *cmd, cli_stages *s)
 		return cli_fail(cmd, &err);
 	if (wl_track_opts_check(t, &err)) /* options that contradict each other */
 		return cli_usage_error(cmd, "%s", err.msg);
+	s->p.watch.enabled = !s->no_watch;
+	snprintf(s->p.watch.family, sizeof s->p.watch.family, "%s", t->family);
 	return CLI_CONTINUE;
 }

@@ -21,7 +21,8 @@ typedef struct {
 	double body_m; /* --body-diameter-m, NaN when not given */
 	double tank[4];
 	int have_tank, margin_seen;
-	cli_opt track[24], clean[24], measure[5], body[2];
+	int no_watch; /* --no-watch */
+	cli_opt track[32], clean[24], measure[5], body[2];
 } cli_stages;
 
 /* Defaults, and the tables pointing into s (s must not move after this). */

@@ -146,3 +146,67 @@ extern "C" wl_status wl_cv_calibrate(const double *object, int n_per_view, const
 		return fail(err, WL_ECALIB, "lens calibration failed", "unknown OpenCV error");
 	}
 }
+
+extern "C" int wl_cv_flags(int ours)
+{
+	int f = 0;
+	if (ours & WL_CV_FIX_K2)
+		f |= cv::CALIB_FIX_K2;
+	if (ours & WL_CV_FIX_K3)
+		f |= cv::CALIB_FIX_K3;
+	if (ours & WL_CV_ZERO_TANGENT)
+		f |= cv::CALIB_ZERO_TANGENT_DIST;
+	return f;
+}
+
+extern "C" wl_status wl_cv_holdout_rms(const double *object, int n_per_view, const double *image, int n_views,
+                                       int width_px, int height_px, int flags, double *cv_rms_px, wl_err *err)
+{
+	try {
+		if (n_views < 4)
+			return wl_err_set(err, WL_ECALIB, "leave-one-out needs at least 4 views");
+		std::vector<cv::Point3f> obj;
+		std::vector<std::vector<cv::Point2f>> img(static_cast<size_t>(n_views));
+		for (int i = 0; i < n_per_view; i++)
+			obj.emplace_back(static_cast<float>(object[3 * i]),
+			                 static_cast<float>(object[3 * i + 1]),
+			                 static_cast<float>(object[3 * i + 2]));
+		for (int v = 0; v < n_views; v++)
+			for (int i = 0; i < n_per_view; i++) {
+				const double *p = image + 2 * (static_cast<size_t>(v) * n_per_view + i);
+				img[static_cast<size_t>(v)].emplace_back(static_cast<float>(p[0]),
+				                                         static_cast<float>(p[1]));
+			}
+		double ss = 0;
+		size_t n = 0;
+		for (int out = 0; out < n_views; out++) {
+			std::vector<std::vector<cv::Point3f>> o2;
+			std::vector<std::vector<cv::Point2f>> i2;
+			for (int v = 0; v < n_views; v++)
+				if (v != out) {
+					o2.push_back(obj);
+					i2.push_back(img[static_cast<size_t>(v)]);
+				}
+			cv::Mat K, D, rv, tv;
+			std::vector<cv::Mat> rvs, tvs;
+			cv::calibrateCamera(o2, i2, cv::Size(width_px, height_px), K, D, rvs, tvs, flags);
+			const std::vector<cv::Point2f> &held = img[static_cast<size_t>(out)];
+			cv::solvePnP(obj, held, K, D, rv, tv, false, cv::SOLVEPNP_EPNP);
+			cv::solvePnP(obj, held, K, D, rv, tv, true, cv::SOLVEPNP_ITERATIVE);
+			std::vector<cv::Point2f> pr;
+			cv::projectPoints(obj, rv, tv, K, D, pr);
+			for (size_t i = 0; i < pr.size(); i++) {
+				double dx = pr[i].x - held[i].x, dy = pr[i].y - held[i].y;
+				ss += dx * dx + dy * dy;
+				n++;
+			}
+		}
+		*cv_rms_px = n ? std::sqrt(ss / static_cast<double>(n)) : 0.0;
+		return WL_OK;
+	} catch (const std::exception &e) {
+		return fail(err, WL_ECALIB, "lens calibration (leave-one-out) failed", e.what());
+	} catch (...) {
+		return fail(err, WL_ECALIB, "lens calibration (leave-one-out) failed",
+		            "unknown OpenCV error");
+	}
+}

@@ -48,6 +48,22 @@ wl_status wl_cv_calibrate(const double *object, int n_per_view, const double *im
                           int width_px, int height_px, int flags, double K[9], double dist[5], double *rms_px,
                           double *per_view_rms, wl_err *err);
 
+/* Leave-one-view-out residual of a calibration with flags: for each view,
+ * calibrateCamera on the other views, the held-out view's pose by solvePnP
+ * with those intrinsics (iterative, from EPnP), and its points reprojected.
+ * *cv_rms_px is the RMS over every held-out point.  Needs n_views >= 4. */
+wl_status wl_cv_holdout_rms(const double *object, int n_per_view, const double *image, int n_views,
+                            int width_px, int height_px, int flags, double *cv_rms_px, wl_err *err);
+
+/* OpenCV's calibration flags used to choose the distortion model. */
+enum {
+	WL_CV_FIX_K2 = 1 << 0,
+	WL_CV_FIX_K3 = 1 << 1,
+	WL_CV_ZERO_TANGENT = 1 << 2,
+};
+/* Our flags -> OpenCV's CALIB_* flags. */
+int wl_cv_flags(int ours);
+
 #ifdef __cplusplus
 }
 #endif

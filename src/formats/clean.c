@@ -180,6 +180,38 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	return o;
 }
 
+static void num_or_null(cJSON *o, const char *key, double v)
+{
+	if (isfinite(v))
+		cJSON_AddNumberToObject(o, key, v);
+	else
+		cJSON_AddNullToObject(o, key);
+}
+
+/* "camera": what the camera watch saw while RAW.csv was tracked (null: no
+ * RAW sidecar) */
+static void add_camera(cJSON *root, const wl_rawside *c)
+{
+	cJSON *o, *a;
+	if (!c) {
+		cJSON_AddNullToObject(root, "camera");
+		return;
+	}
+	o = cJSON_AddObjectToObject(root, "camera");
+	cJSON_AddBoolToObject(o, "watched", c->enabled);
+	a = cJSON_AddArrayToObject(o, "moves");
+	for (int i = 0; i < c->n_moves; i++) {
+		cJSON *m = cJSON_CreateObject();
+		cJSON_AddItemToArray(a, m);
+		cJSON_AddNumberToObject(m, "t_s", c->moves[i].t_s);
+		num_or_null(m, "last_still_t_s", c->moves[i].last_still_t_s);
+		cJSON_AddNumberToObject(m, "shift_px", c->moves[i].shift_px);
+		cJSON_AddBoolToObject(m, "reregistered", c->moves[i].reregistered);
+	}
+	num_or_null(o, "suspect_from_t_s", c->suspect_from_t_s);
+	num_or_null(o, "suspect_to_t_s", c->suspect_to_t_s);
+}
+
 static char *sidecar_text(const wl_clean_params *p, const wl_clean_source *src, const wl_clean_result *res)
 {
 	cJSON *root = cJSON_CreateObject(), *o, *a;
@@ -208,6 +240,7 @@ static char *sidecar_text(const wl_clean_params *p, const wl_clean_source *src, 
 	a = cJSON_AddArrayToObject(o, "tank_outline_m");
 	for (int i = 0; i < p->n_outline; i++)
 		cJSON_AddItemToArray(a, cJSON_CreateDoubleArray(p->outline_m[i], 2));
+	add_camera(root, src->camera);
 	cJSON_AddItemToObject(root, "parameters", params_json(p));
 	a = cJSON_AddArrayToObject(root, "robots");
 	for (size_t k = 0; k < res->nrobots; k++)
@@ -422,6 +455,34 @@ static wl_status sidecar_robot(const char *name, const cJSON *o, size_t k, wl_cl
 	return WL_OK;
 }
 
+static void read_camera(const cJSON *o, wl_clean_sidecar *out)
+{
+	const cJSON *a = cJSON_GetObjectItemCaseSensitive(o, "moves"), *m;
+	wl_rawside *c = &out->camera;
+	wl_rawside_init(c);
+	out->camera_known = cJSON_IsObject(o);
+	if (!out->camera_known)
+		return;
+	c->enabled = cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(o, "watched"));
+	cJSON_ArrayForEach(m, a)
+	{
+		wl_rawside_move *mv = &c->moves[c->n_moves];
+		if (c->n_moves >= WL_RAWSIDE_MAX_MOVES)
+			break;
+		mv->t_s = wl_json_number_or(m, "t_s", NAN);
+		if (!isfinite(mv->t_s))
+			continue;
+		mv->last_still_t_s = wl_json_number_or(m, "last_still_t_s", NAN);
+		mv->shift_px = wl_json_number_or(m, "shift_px", NAN);
+		mv->reregistered = cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(m, "reregistered"));
+		mv->rms_px = mv->turn_deg = mv->centre_shift_mm = NAN;
+		mv->frame = -1;
+		c->n_moves++;
+	}
+	c->suspect_from_t_s = wl_json_number_or(o, "suspect_from_t_s", NAN);
+	c->suspect_to_t_s = wl_json_number_or(o, "suspect_to_t_s", NAN);
+}
+
 wl_status wl_clean_sidecar_parse(const char *name, const char *text, size_t len, wl_clean_sidecar *out,
                                  wl_err *err)
 {
@@ -438,6 +499,7 @@ wl_status wl_clean_sidecar_parse(const char *name, const char *text, size_t len,
 	copy_str(out->input_sha256, sizeof out->input_sha256, in, "sha256");
 	copy_str(out->cal_path, sizeof out->cal_path, cal, "path");
 	copy_str(out->cal_sha256, sizeof out->cal_sha256, cal, "sha256");
+	read_camera(cJSON_GetObjectItemCaseSensitive(root, "camera"), out);
 	robots = cJSON_GetObjectItemCaseSensitive(root, "robots");
 	if (!cJSON_IsArray(robots)) {
 		st = wl_err_set(err, WL_EFORMAT,

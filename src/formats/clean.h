@@ -10,7 +10,9 @@
  *   CLEAN.csv  t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,
  *              vx_mps,vy_mps,segment,status,cut
  *   CLEAN.json {"format": "wakeline clean sidecar", "format_version": 1,
- *              "input", "calibration", "parameters", "robots"}
+ *              "input", "calibration", "camera", "parameters", "robots"}
+ *   ("camera": the camera watch's record from the RAW sidecar, carried on
+ *   for summary.json; null when RAW.csv came without one)
  *
  * Ownership: wl_clean_result's arrays belong to it (the clean stage frees
  * them with wl_clean_result_release); rows handed to a reader's callback are
@@ -25,6 +27,7 @@
 
 #include "core/err.h"
 #include "formats/cal.h"
+#include "formats/rawside.h"
 
 /* ---- the parameters (the sidecar's "parameters") ---- */
 
@@ -130,9 +133,10 @@ typedef struct {
 	uint64_t input_bytes;     /* its size */
 	const char *input_sha256; /* and SHA-256 */
 	size_t input_rows;
-	const char *cal_path;   /* NULL if none */
-	const char *cal_sha256; /* NULL if none */
-	int tank_rect;          /* 1: the outline is a rectangle given by hand (--tank) */
+	const char *cal_path;     /* NULL if none */
+	const char *cal_sha256;   /* NULL if none */
+	int tank_rect;            /* 1: the outline is a rectangle given by hand (--tank) */
+	const wl_rawside *camera; /* the RAW sidecar's camera watch record; NULL: none */
 } wl_clean_source;
 
 /* Writes CLEAN.csv and the sidecar, both atomically; neither is replaced
@@ -170,6 +174,9 @@ typedef struct {
 typedef struct {
 	char input_path[1024], input_sha256[65];
 	char cal_path[1024], cal_sha256[65]; /* "" when none */
+	int camera_known;                    /* 1: the sidecar carries the camera watch's record */
+	wl_rawside camera;                   /* moves (t_s, last_still_t_s, shift_px, reregistered) and the
+	                                      * suspect interval; enabled 0 when the run was not watched */
 	size_t nrobots;
 	wl_clean_sidecar_robot *robots;
 } wl_clean_sidecar;

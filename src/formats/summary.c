@@ -83,6 +83,8 @@ static const field FIELDS[WL_SUMCOL_N] = {
         {"sway_osc_freq_hz", "sway_osc_freq_hz", K_NUM, M(sway_osc_freq_hz)},
         {"commanded_period_s", "commanded_period_s", K_COMMANDED, R(commanded_period_s)},
         {"period_ratio", "period_ratio", K_RATIO, 0},
+        {"camera_moves", "camera_moves", K_NUM, R(camera_moves)},
+        {"camera_suspect_s", "camera_suspect_s", K_NUM, R(camera_suspect_s)},
 };
 #undef R
 #undef M
@@ -521,6 +523,7 @@ static wl_status read_run(const char *name, size_t i, const cJSON *o, wl_summary
 	memset(r, 0, sizeof *r);
 	wl_summary_measures_init(&r->m);
 	r->trim_start_s = r->commanded_period_s = NAN;
+	r->camera_moves = r->camera_suspect_s = NAN;
 	if (!cJSON_IsObject(o))
 		return wl_err_set(err, WL_EFORMAT,
 		                  "%s: runs[%zu] is not an object: rewrite the file with `%s`", name, i,

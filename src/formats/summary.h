@@ -57,6 +57,11 @@ typedef struct {
 	int headline;              /* 1: the robot's longest segment */
 	double trim_start_s;       /* from the robot's first row to the segment's start */
 	double commanded_period_s; /* NaN: none was given */
+	/* the camera watch while the run was filmed (CLEAN.json's "camera", from
+	 * the RAW sidecar): moves whose bracket overlaps the run, and the
+	 * seconds of it whose poses are suspect (a move that could not be
+	 * registered again); NaN when the clip has no such record */
+	double camera_moves, camera_suspect_s;
 	wl_summary_measures m;
 	size_t nextra; /* reader only */
 	wl_summary_extra *extra;
@@ -126,6 +131,8 @@ typedef enum {
 	WL_SUMCOL_SWAY_FREQ,
 	WL_SUMCOL_COMMANDED_PERIOD,
 	WL_SUMCOL_PERIOD_RATIO,
+	WL_SUMCOL_CAMERA_MOVES,
+	WL_SUMCOL_CAMERA_SUSPECT,
 	WL_SUMCOL_N
 } wl_summary_col;
 

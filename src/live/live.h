@@ -158,6 +158,9 @@ typedef struct {
 	int robots_seen;     /* different robots found so far */
 	int64_t packets_sent, send_failures;
 	int reconnects;
+	int camera_checks, camera_moves; /* the camera watch: checks made, moves seen */
+	double camera_suspect_from_s;    /* poses from here on are suspect (a move that could not be
+	                                  * registered again); NaN if none */
 	/* the whole run (filled at the end and in every status) */
 	double run_latency_median_ms, run_latency_p99_ms, run_latency_max_ms;
 	double run_input_lag_max_ms;
@@ -189,9 +192,15 @@ typedef struct {
 	void (*status)(void *ctx, const wl_live_stats *st);
 	void *status_ctx;
 	double status_period_s; /* default 1 s */
+	/* The camera watch (track/watch.h), as in offline tracking: the floor
+	 * markers are looked for again at a low rate, a moved camera is
+	 * registered again and tracking goes on in the same tank frame.  NULL
+	 * or not enabled: none.  With raw_path, the RAW sidecar (raw.json) is
+	 * written beside RAW.csv at the end; the moves are counted in the
+	 * stats and warned about through diag as they happen. */
+	const wl_watch_opts *watch;
 	/* Called for every frame before it is tracked (may be NULL), from the
-	 * tracking thread: the place for a camera watch that re-detects the
-	 * floor markers during tracking, as offline tracking will. */
+	 * tracking thread (after the camera watch's check). */
 	void (*frame_hook)(void *ctx, const wl_track_image *img);
 	void *frame_hook_ctx;
 	const wl_diag *diag; /* warnings: skipping, reconnects, send failures, recording */

@@ -443,8 +443,10 @@ typedef struct {
 	shared *s;
 	wl_tracker *tr;
 	int tr_w, tr_h, tr_rot;
+	wl_watch *watch; /* the camera watch (NULL: none), made with the tracker */
 	wl_publisher *pub;
 	FILE *raw_fp;
+	int raw_opened; /* RAW.csv was created by this run */
 	wl_raw_writer *raw;
 	int raw_failed;
 	char raw_error[256];
@@ -488,6 +490,17 @@ static wl_status ensure_tracker(tracking *k, const slot *sl, wl_err *err)
 	if ((st = wl_tracker_create(k->to, k->cal, k->cal_path, sl->w, sl->h, sl->rotation_deg, &k->tr,
 	                            err)) != WL_OK)
 		return st;
+	if (k->lo->watch && k->lo->watch->enabled) {
+		/* a new frame size starts a new watch from the calibration; the
+		 * moves seen before were warned about as they happened */
+		wl_watch_opts wo = *k->lo->watch;
+		wo.diag = k->lo->diag;
+		wl_watch_destroy(k->watch);
+		k->watch = NULL;
+		if ((st = wl_watch_create(&wo, k->cal, sl->w, sl->h, sl->rotation_deg, &k->watch, err)) !=
+		    WL_OK)
+			return st;
+	}
 	k->tr_w = sl->w;
 	k->tr_h = sl->h;
 	k->tr_rot = sl->rotation_deg;
@@ -568,6 +581,14 @@ static wl_status track_one(tracking *k, const slot *sl, wl_err *err)
 	img.rgb_stride = 3 * sl->w;
 	img.t_s = sl->t_s;
 	img.index = sl->index;
+	if (k->watch && wl_watch_due(k->watch, sl->t_s)) {
+		int moved = 0;
+		if ((st = wl_watch_frame(k->watch, sl->luma, sl->w, sl->t_s, sl->index, &moved, err)) !=
+		    WL_OK)
+			return st;
+		if (moved)
+			wl_tracker_set_camera(k->tr, wl_watch_camera(k->watch));
+	}
 	if (k->lo->frame_hook)
 		k->lo->frame_hook(k->lo->frame_hook_ctx, &img);
 	if ((st = wl_tracker_frame(k->tr, &img, &obs, &n, err)) != WL_OK)
@@ -616,6 +637,14 @@ static void fill_stats(tracking *k, wl_live_stats *st, double now, int period)
 	st->robots_listed = k->robots_listed;
 	st->robots_ok = k->robots_ok;
 	st->robots_seen = k->robots_seen;
+	st->camera_checks = 0;
+	st->camera_moves = 0;
+	st->camera_suspect_from_s = NAN;
+	if (k->watch) {
+		const wl_camera_move *mv;
+		st->camera_checks = wl_watch_checks(k->watch);
+		st->camera_moves = wl_watch_moves(k->watch, &mv, &st->camera_suspect_from_s);
+	}
 	if (k->pub)
 		wl_publisher_counts(k->pub, &st->packets_sent, &st->send_failures, NULL);
 	st->run_latency_median_ms = wl_latency_quantile(&k->run_lat, 0.5) * 1e3;
@@ -654,6 +683,7 @@ static wl_status open_raw(tracking *k, wl_err *err)
 		return wl_err_set(err, WL_EIO, "%s: cannot create RAW.csv: %s%s", lo->raw_path,
 		                  strerror(errno),
 		                  errno == EEXIST ? ": give another name, or --overwrite" : "");
+	k->raw_opened = 1;
 	if (!(k->raw_fp = fdopen(fd, "w"))) {
 		close(fd);
 		return wl_err_set(err, WL_EIO, "%s: %s", lo->raw_path, strerror(errno));
@@ -784,6 +814,8 @@ wl_status wl_live_run(const wl_live_opts *lo, const wl_track_opts *to, const wl_
 	k->t_start = k->t_status = mono_now();
 	if ((rc = check_outputs(lo, err)) != WL_OK || (rc = make_publisher(k, err)) != WL_OK)
 		goto out;
+	if (lo->raw_path && lo->watch && (rc = wl_watch_sidecar_check(lo->raw_path, err)) != WL_OK)
+		goto out;
 	if (lo->raw_path && (rc = open_raw(k, err)) != WL_OK)
 		goto out;
 	{
@@ -810,6 +842,10 @@ out:
 	{
 		wl_err e2;
 		wl_status rc2 = close_raw(k, &e2);
+		/* the RAW sidecar (the watch's settings and moves) beside a RAW.csv
+		 * that holds frames */
+		if (rc2 == WL_OK && k->raw_opened && k->frames_tracked > 0 && lo->watch)
+			rc2 = wl_watch_write_sidecar(k->watch, lo->raw_path, &e2);
 		if (rc == WL_OK && rc2 != WL_OK) {
 			rc = rc2;
 			if (err)
@@ -826,6 +862,7 @@ out:
 	else
 		fill_stats(k, st, mono_now(), 0);
 	wl_tracker_destroy(k->tr);
+	wl_watch_destroy(k->watch);
 	wl_publisher_destroy(k->pub);
 	wl_raw_abort(k->raw);
 	if (k->raw_fp)

@@ -10,6 +10,7 @@
 #include "measure/measure.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -34,6 +35,8 @@ typedef struct {
 	long *first_line; /* of each run, for the message about a repeated segment */
 	size_t caprun;
 	int skipped;
+	int camera_known;   /* CLEAN.json beside the input carries the camera watch's record */
+	wl_rawside *camera; /* that record (owned) */
 } ctx;
 
 void wl_measure_clean_opts_init(wl_measure_clean_opts *o)
@@ -90,6 +93,7 @@ static wl_status add_run(ctx *c, wl_summary_run **o, wl_err *err)
 	}
 	*o = &s->runs[s->nruns];
 	memset(*o, 0, sizeof **o);
+	(*o)->camera_moves = (*o)->camera_suspect_s = NAN;
 	return WL_OK;
 }
 
@@ -122,6 +126,10 @@ static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 		o->segment = r->segment;
 		o->trim_start_s = r->t[0] - r->first_t_s;
 		o->commanded_period_s = c->o->commanded_period_s;
+		if (c->camera_known) {
+			o->camera_moves = wl_rawside_moves_in(c->camera, r->t[0], r->t[r->n - 1]);
+			o->camera_suspect_s = wl_rawside_suspect_s(c->camera, r->t[0], r->t[r->n - 1]);
+		}
 		c->first_line[c->out->nruns] = r->seg_line;
 		c->out->nruns++;
 	}
@@ -204,6 +212,30 @@ static void mark_headlines(wl_summary *s)
 	}
 }
 
+/* The camera watch's record from CLEAN.json beside CLEAN.csv (same stem,
+ * as `wakeline clean` and `process` name it), when there is one; a sidecar
+ * that is missing or unreadable leaves the camera columns unknown. */
+static void camera_record(ctx *c, const char *clean_path)
+{
+	char path[4096];
+	const char *slash = strrchr(clean_path, '/'), *dot = strrchr(clean_path, '.');
+	size_t stem = dot && (!slash || dot > slash) ? (size_t)(dot - clean_path) : strlen(clean_path);
+	wl_clean_sidecar *sc;
+	wl_err ignore;
+	if ((size_t)snprintf(path, sizeof path, "%.*s.json", (int)stem, clean_path) >= sizeof path)
+		return;
+	if (!(sc = malloc(sizeof *sc)))
+		return;
+	if (wl_clean_sidecar_read(path, sc, &ignore) == WL_OK) {
+		if (sc->camera_known && (c->camera = malloc(sizeof *c->camera))) {
+			*c->camera = sc->camera;
+			c->camera_known = 1;
+		}
+		wl_clean_sidecar_release(sc);
+	}
+	free(sc);
+}
+
 static wl_status run(const char *name, const wl_measure_clean_opts *o, wl_summary *out, const char *data,
                      size_t len, wl_err *err)
 {
@@ -221,6 +253,8 @@ static wl_status run(const char *name, const wl_measure_clean_opts *o, wl_summar
 		st = wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", name);
 		goto out;
 	}
+	if (!data)
+		camera_record(&c, name);
 	st = data ? wl_clean_read_mem(name, data, len, on_row, &c, err)
 	          : wl_clean_read(name, on_row, &c, err);
 	for (size_t i = 0; !st && i < c.nrobots; i++)
@@ -239,6 +273,7 @@ out:
 		robot_release(&c.robots[i]);
 	free(c.robots);
 	free(c.first_line);
+	free(c.camera);
 	return st;
 }
 

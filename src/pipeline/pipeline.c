@@ -21,6 +21,7 @@ void wl_process_opts_init(wl_process_opts *o)
 {
 	memset(o, 0, sizeof *o);
 	wl_track_opts_init(&o->track);
+	wl_watch_opts_init(&o->watch);
 	wl_clean_params_init(&o->clean);
 	wl_measure_clean_opts_init(&o->measure);
 	o->plots = 1;
@@ -79,6 +80,8 @@ char *wl_process_opts_describe(const wl_process_opts *o)
 	if (!f)
 		return NULL;
 	describe_track(f, &o->track); /* not the decoder threads: they do not change the outputs */
+	fprintf(f, "watch enabled=%d period=%.17g threshold=%.17g markers=%d\n", o->watch.enabled,
+	        o->watch.period_s, o->watch.threshold_px, o->watch.min_markers);
 	describe_clean(f, &o->clean, o->tank_rect);
 	fprintf(f, "measure arc=%.17g body=%.17g osc=%.17g..%.17g commanded=%.17g plots=%d\n", m->min_arc_deg,
 	        m->body_diameter_m, m->osc_fmin_hz, m->osc_fmax_hz, o->measure.commanded_period_s, o->plots);
@@ -122,7 +125,10 @@ static wl_status track(const char *clip, const wl_calib *cal, const char *cal_pa
                        const wl_process_opts *o, wl_process_result *res, wl_err *err)
 {
 	wl_track_run_opts ro;
+	wl_watch_opts wo = o->watch;
 	memset(&ro, 0, sizeof ro);
+	snprintf(wo.family, sizeof wo.family, "%s", o->track.family);
+	ro.watch = &wo;
 	ro.clip = clip;
 	ro.raw_path = p->raw;
 	ro.trail_png = o->plots ? p->trail : NULL; /* the QC picture the run page shows */

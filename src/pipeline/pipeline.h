@@ -35,6 +35,8 @@
 
 typedef struct {
 	wl_track_opts track;           /* mode, family, robots, plane height, detection */
+	wl_watch_opts watch;           /* the camera watch (track/watch.h; on by default; its family
+	                                  is the tracker's) */
 	wl_clean_params clean;         /* smoothing, gaps, trim, wall; with n_outline == 0 the outline is
 	                                  the calibration's tank_outline_m */
 	int tank_rect;                 /* 1: clean.outline_m is a rectangle given by hand */

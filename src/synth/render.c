@@ -46,10 +46,13 @@ typedef struct {
 struct wl_synth_renderer {
 	const wl_synth_scene *sc;
 	int w, h, ss;
-	float *bg;           /* w x h x 3, the background while it is rendered */
-	uint8_t *bg8;        /* the background rounded to 8 bits */
-	tag_tex *marker_tex; /* one per floor marker */
-	tag_tex *robot_tex;  /* one per robot (unused cells NULL) */
+	float *bg;               /* w x h x 3, the background while it is rendered */
+	uint8_t *bg8;            /* the background rounded to 8 bits */
+	uint8_t *bg8_moved;      /* the same seen by the moved camera (camera_move), or NULL */
+	const wl_camera *bg_cam; /* the camera the background is being rendered with */
+	int raised[WL_SYNTH_MAX_MARKERS], n_raised; /* raised floor markers, highest first */
+	tag_tex *marker_tex;                        /* one per floor marker */
+	tag_tex *robot_tex;                         /* one per robot (unused cells NULL) */
 	int16_t noise[NOISE_TAB];
 	int order[WL_SYNTH_MAX_ROBOTS]; /* robots by marker height, lowest first */
 	double mcos[WL_SYNTH_MAX_MARKERS], msin[WL_SYNTH_MAX_MARKERS]; /* floor marker yaws */
@@ -111,6 +114,8 @@ static void shade_floor(const wl_synth_renderer *r, double x, double y, float ou
 		const wl_synth_marker *m = &sc->markers[i];
 		double dx = x - m->x_m, dy = y - m->y_m, cs = r->mcos[i], sn = r->msin[i];
 		float g;
+		if (m->z_m != 0)
+			continue; /* drawn on its block by shade_raised */
 		/* right = (cos yaw, sin yaw), up = (-sin yaw, cos yaw) */
 		if (tex_sample(&r->marker_tex[i], m->size_m, dx * cs + dy * sn, -dx * sn + dy * cs, &g)) {
 			out[0] = out[1] = out[2] = g;
@@ -129,6 +134,30 @@ static void shade_floor(const wl_synth_renderer *r, double x, double y, float ou
 	out[2] = c[2];
 }
 
+/* A floor marker raised on a block: the ray meets the card's plane z_m
+ * first (highest markers first).  The block's sides are not drawn: the card
+ * floats at its height.  Returns 1 when the sample lands on a card. */
+static int shade_raised(const wl_synth_renderer *r, const wl_camera *cam, double u, double v, float out[3])
+{
+	const wl_synth_scene *sc = r->sc;
+	for (int k = 0; k < r->n_raised; k++) {
+		int i = r->raised[k];
+		const wl_synth_marker *m = &sc->markers[i];
+		double x, y, dx, dy;
+		float g;
+		if (!wl_camera_pixel_to_plane_water(cam, u, v, m->z_m, &x, &y))
+			continue;
+		dx = x - m->x_m;
+		dy = y - m->y_m;
+		if (tex_sample(&r->marker_tex[i], m->size_m, dx * r->mcos[i] + dy * r->msin[i],
+		               -dx * r->msin[i] + dy * r->mcos[i], &g)) {
+			out[0] = out[1] = out[2] = g;
+			return 1;
+		}
+	}
+	return 0;
+}
+
 typedef struct {
 	wl_synth_renderer *r;
 	int y0, y1;
@@ -138,7 +167,7 @@ static void *bg_rows(void *arg)
 {
 	bg_job *j = arg;
 	wl_synth_renderer *r = j->r;
-	const wl_camera *cam = &r->sc->cam;
+	const wl_camera *cam = r->bg_cam;
 	int n = r->ss;
 	float inv = 1.0f / (float)(n * n);
 	for (int v = j->y0; v < j->y1; v++) {
@@ -148,7 +177,9 @@ static void *bg_rows(void *arg)
 				for (int sx = 0; sx < n; sx++) {
 					double uu = u + (sx + 0.5) / n - 0.5, vv = v + (sy + 0.5) / n - 0.5,
 					       x, y;
-					if (wl_camera_pixel_to_plane_water(cam, uu, vv, 0, &x, &y)) {
+					if (r->n_raised && shade_raised(r, cam, uu, vv, c)) {
+						/* on a raised marker */
+					} else if (wl_camera_pixel_to_plane_water(cam, uu, vv, 0, &x, &y)) {
 						shade_floor(r, x, y, c);
 					} else { /* a ray above the horizon: the surround */
 						for (int k = 0; k < 3; k++)
@@ -272,11 +303,31 @@ wl_status wl_synth_renderer_create(const wl_synth_scene *sc, int nthreads, wl_sy
 		r->mcos[i] = cos(sc->markers[i].yaw_rad);
 		r->msin[i] = sin(sc->markers[i].yaw_rad);
 	}
+	for (int i = 0; i < sc->n_markers; i++) { /* raised markers, highest first */
+		int j = r->n_raised;
+		if (sc->markers[i].z_m == 0)
+			continue;
+		while (j > 0 && sc->markers[r->raised[j - 1]].z_m < sc->markers[i].z_m) {
+			r->raised[j] = r->raised[j - 1];
+			j--;
+		}
+		r->raised[j] = i;
+		r->n_raised++;
+	}
 	noise_table(r);
+	r->bg_cam = &sc->cam;
 	render_background(r, nthreads);
 	for (size_t i = 0; i < (size_t)r->w * r->h * 3; i++)
 		r->bg8[i] = clamp8(r->bg[i]);
-	free(r->bg); /* only the 8-bit copy is used from here on */
+	if (sc->has_move) { /* the background again, as the moved camera sees it */
+		if (!(r->bg8_moved = malloc((size_t)r->w * r->h * 3)))
+			goto nomem;
+		r->bg_cam = &sc->cam_moved;
+		render_background(r, nthreads);
+		for (size_t i = 0; i < (size_t)r->w * r->h * 3; i++)
+			r->bg8_moved[i] = clamp8(r->bg[i]);
+	}
+	free(r->bg); /* only the 8-bit copies are used from here on */
 	r->bg = NULL;
 	*out = r;
 	return WL_OK;
@@ -301,6 +352,7 @@ void wl_synth_renderer_destroy(wl_synth_renderer *r)
 	free(r->robot_tex);
 	free(r->bg);
 	free(r->bg8);
+	free(r->bg8_moved);
 	free(r);
 }
 
@@ -344,7 +396,8 @@ static int shade_robot(const wl_synth_renderer *r, int i, const rpose *p, double
 }
 
 /* The pixel box that robot i can cover during the exposure of time t. */
-static int robot_box(const wl_synth_renderer *r, int i, const rpose *poses, int np, int box[4])
+static int robot_box(const wl_synth_renderer *r, const wl_camera *cam, int i, const rpose *poses, int np,
+                     int box[4])
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
 	double reach = 0.5 * rb->diameter_m, lohi[4] = {1e30, 1e30, -1e30, -1e30};
@@ -355,7 +408,7 @@ static int robot_box(const wl_synth_renderer *r, int i, const rpose *poses, int 
 	}
 	/* circumscribe: the 24-gon with vertices at reach/cos(pi/24) */
 	for (int j = 0; j < np; j++)
-		if (!synth_project_ellipse(&r->sc->cam, poses[j].x, poses[j].y, rb->height_m, reach * 1.01,
+		if (!synth_project_ellipse(cam, poses[j].x, poses[j].y, rb->height_m, reach * 1.01,
 		                           reach * 1.01, lohi))
 			return 0;
 	return synth_finish_box(lohi, r->w, r->h, box);
@@ -383,7 +436,8 @@ static void robot_poses(const wl_synth_renderer *r, int i, double t, int np, rpo
 /* Renders robot i over the frame at time t: np sub-frame poses (motion
  * blur); with a rolling shutter (readout_s > 0) each coded row v is drawn
  * with the poses at its own time t + v / height * readout_s. */
-static void draw_robot(const wl_synth_renderer *r, int i, double t, int np, uint8_t *rgb, int stride)
+static void draw_robot(const wl_synth_renderer *r, const wl_camera *cam, int i, double t, int np,
+                       uint8_t *rgb, int stride)
 {
 	const wl_synth_robot *rb = &r->sc->robots[i];
 	double ro = r->sc->readout_s;
@@ -396,7 +450,7 @@ static void draw_robot(const wl_synth_renderer *r, int i, double t, int np, uint
 	}
 	for (int j = 0; j < nspan; j++)
 		any |= span[j].visible;
-	if (!any || !robot_box(r, i, span, nspan, box))
+	if (!any || !robot_box(r, cam, i, span, nspan, box))
 		return;
 	memcpy(poses, span, (size_t)np * sizeof *poses);
 	for (int v = box[1]; v <= box[3]; v++) {
@@ -409,8 +463,8 @@ static void draw_robot(const wl_synth_renderer *r, int i, double t, int np, uint
 				for (int sx = 0; sx < n; sx++) {
 					double uu = u + (sx + 0.5) / n - 0.5, vv = v + (sy + 0.5) / n - 0.5,
 					       x, y;
-					if (!wl_camera_pixel_to_plane_water(&r->sc->cam, uu, vv, rb->height_m,
-					                                    &x, &y))
+					if (!wl_camera_pixel_to_plane_water(cam, uu, vv, rb->height_m, &x,
+					                                    &y))
 						continue;
 					for (int j = 0; j < np; j++) {
 						if (!poses[j].visible)
@@ -502,13 +556,15 @@ wl_status wl_synth_render_at(wl_synth_renderer *r, double t_s, long k, uint8_t *
 {
 	const wl_synth_scene *sc = r->sc;
 	int np = sc->blur_samples < 1 ? 1 : sc->blur_samples > 32 ? 32 : sc->blur_samples;
+	const wl_camera *cam = wl_synth_camera_at(sc, t_s);
+	const uint8_t *bg = cam == &sc->cam ? r->bg8 : r->bg8_moved;
 	if (stride < 3 * r->w)
 		return wl_err_set(err, WL_EINVAL, "render: stride %d is less than 3 x width %d", stride,
 		                  r->w);
 	for (int v = 0; v < r->h; v++)
-		memcpy(rgb + (size_t)v * stride, r->bg8 + (size_t)v * r->w * 3, (size_t)r->w * 3);
+		memcpy(rgb + (size_t)v * stride, bg + (size_t)v * r->w * 3, (size_t)r->w * 3);
 	for (int oi = 0; oi < sc->n_robots; oi++)
-		draw_robot(r, r->order[oi], t_s, np, rgb, stride);
+		draw_robot(r, cam, r->order[oi], t_s, np, rgb, stride);
 	synth_draw_occluders(sc, r->ss, t_s, rgb, stride);
 	add_glare(r, t_s, rgb, stride);
 	synth_add_spots(sc, t_s, rgb, stride);

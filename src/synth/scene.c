@@ -158,7 +158,7 @@ static wl_status parse_tank(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = {"id", "center_m", "size_m", "yaw_deg", NULL};
+	static const char *const keys[] = {"id", "center_m", "size_m", "yaw_deg", "z_m", NULL};
 	const cJSON *a = child(root, "markers"), *m;
 	wl_status st;
 	int i = 0;
@@ -181,6 +181,7 @@ static wl_status parse_markers(pctx *p, const cJSON *root, wl_synth_scene *sc)
 		TRY(vec(p, m, "center_m", 2, NULL, -1000, 1000, c));
 		TRY(num(p, m, "size_m", 0, 0.12, 0.001, 100, &k->size_m));
 		TRY(num(p, m, "yaw_deg", 0, 0, -3600, 3600, &yaw));
+		TRY(num(p, m, "z_m", 0, 0, 0, 100, &k->z_m));
 		k->x_m = c[0];
 		k->y_m = c[1];
 		k->yaw_rad = yaw * WL_DEG;
@@ -267,6 +268,69 @@ static wl_status parse_readout(pctx *p, const cJSON *t, wl_synth_scene *sc)
 		return bad(p, "readout_ms",
 		           "is not shorter than a frame interval: give less than 1000 / fps");
 	return WL_OK;
+}
+
+/* camera_move: the camera turns about its own centre at t_s (tilt about
+ * its x axis, yaw about the vertical) and shifts by shift_m: a bumped
+ * tripod.  Needs the camera parsed first. */
+static wl_status parse_camera_move(pctx *p, const cJSON *root, wl_synth_scene *sc)
+{
+	static const char *const keys[] = {"t_s", "tilt_deg", "yaw_deg", "shift_m", NULL};
+	static const double zero[3] = {0, 0, 0};
+	const cJSON *m = child(root, "camera_move");
+	double deg, Rx[9], Rz[9], tmp[9], C[3];
+	wl_status st;
+	enter(p, "camera_move", 0);
+	sc->has_move = 0;
+	if (!m)
+		return WL_OK;
+	TRY(check_keys(p, m, keys));
+	TRY(num(p, m, "t_s", 1, 0, 0, 1e6, &sc->move_t_s));
+	TRY(num(p, m, "tilt_deg", 0, 0, -30, 30, &deg));
+	sc->move_tilt_rad = deg * WL_DEG;
+	TRY(num(p, m, "yaw_deg", 0, 0, -180, 180, &deg));
+	sc->move_yaw_rad = deg * WL_DEG;
+	TRY(vec(p, m, "shift_m", 3, zero, -10, 10, sc->move_shift_m));
+	sc->has_move = 1;
+	sc->cam_moved = sc->cam;
+	wl_camera_position(&sc->cam, C);
+	{
+		double c = cos(sc->move_tilt_rad), s = sin(sc->move_tilt_rad);
+		double x[9] = {1, 0, 0, 0, c, -s, 0, s, c};
+		memcpy(Rx, x, sizeof x);
+	}
+	{
+		double c = cos(sc->move_yaw_rad), s = sin(sc->move_yaw_rad);
+		double z[9] = {c, -s, 0, s, c, 0, 0, 0, 1};
+		memcpy(Rz, z, sizeof z);
+	}
+	/* R' = Rx · R · Rzᵀ: a turn about the camera's x axis after one about
+	 * the world's vertical; the centre moves by shift */
+	for (int i = 0; i < 3; i++)
+		for (int j = 0; j < 3; j++) {
+			double a = 0;
+			for (int k = 0; k < 3; k++)
+				a += sc->cam.R[3 * i + k] * Rz[3 * j + k];
+			tmp[3 * i + j] = a;
+		}
+	for (int i = 0; i < 3; i++)
+		for (int j = 0; j < 3; j++) {
+			double a = 0;
+			for (int k = 0; k < 3; k++)
+				a += Rx[3 * i + k] * tmp[3 * k + j];
+			sc->cam_moved.R[3 * i + j] = a;
+		}
+	for (int i = 0; i < 3; i++)
+		C[i] += sc->move_shift_m[i];
+	for (int i = 0; i < 3; i++)
+		sc->cam_moved.t[i] = -(sc->cam_moved.R[3 * i] * C[0] + sc->cam_moved.R[3 * i + 1] * C[1] +
+		                       sc->cam_moved.R[3 * i + 2] * C[2]);
+	return WL_OK;
+}
+
+const wl_camera *wl_synth_camera_at(const wl_synth_scene *sc, double t_s)
+{
+	return sc->has_move && t_s >= sc->move_t_s ? &sc->cam_moved : &sc->cam;
 }
 
 static wl_status parse_timing(pctx *p, const cJSON *root, wl_synth_scene *sc)
@@ -635,10 +699,11 @@ static wl_status parse_occluders(pctx *p, const cJSON *root, wl_synth_scene *sc)
 
 static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
 {
-	static const char *const keys[] = {
-	        "description", "seed",      "tank",     "water_depth_m", "water_index", "markers",
-	        "camera",      "timing",    "encoding", "effects",       "robots",      "camera_model",
-	        "glare_spots", "occluders", NULL}; /* camera_model: written by us, ignored on input */
+	static const char *const keys[] = {"description", "seed",      "tank",        "water_depth_m",
+	                                   "water_index", "markers",   "camera",      "timing",
+	                                   "encoding",    "effects",   "robots",      "camera_model",
+	                                   "glare_spots", "occluders", "camera_move", "camera_model_moved",
+	                                   NULL}; /* camera_model*: written by us, ignored on input */
 	double seed;
 	wl_status st;
 	p->where[0] = 0;
@@ -651,6 +716,7 @@ static wl_status parse_root(pctx *p, const cJSON *root, wl_synth_scene *sc)
 	TRY(parse_tank(p, root, sc));
 	TRY(parse_markers(p, root, sc));
 	TRY(parse_camera(p, root, sc));
+	TRY(parse_camera_move(p, root, sc));
 	TRY(parse_timing(p, root, sc));
 	TRY(parse_encoding(p, root, sc));
 	TRY(parse_effects(p, root, sc));
@@ -873,6 +939,26 @@ static void extras_json(cJSON *root, const wl_synth_scene *sc)
 	}
 }
 
+static void add_camera_move(cJSON *root, const wl_synth_scene *sc)
+{
+	cJSON *o;
+	double C[3];
+	if (!sc->has_move)
+		return;
+	o = cJSON_AddObjectToObject(root, "camera_move");
+	cJSON_AddNumberToObject(o, "t_s", sc->move_t_s);
+	cJSON_AddNumberToObject(o, "tilt_deg", sc->move_tilt_rad / WL_DEG);
+	cJSON_AddNumberToObject(o, "yaw_deg", sc->move_yaw_rad / WL_DEG);
+	wl_json_add_numbers(o, "shift_m", sc->move_shift_m, 3);
+	o = cJSON_AddObjectToObject(root, "camera_model_moved");
+	wl_json_add_numbers(o, "K", sc->cam_moved.K, 9);
+	wl_json_add_numbers(o, "dist", sc->cam_moved.dist, 5);
+	wl_json_add_numbers(o, "R", sc->cam_moved.R, 9);
+	wl_json_add_numbers(o, "t_m", sc->cam_moved.t, 3);
+	wl_camera_position(&sc->cam_moved, C);
+	wl_json_add_numbers(o, "position_m", C, 3);
+}
+
 static cJSON *scene_json(const wl_synth_scene *sc)
 {
 	cJSON *root = cJSON_CreateObject(), *o, *a, *m;
@@ -899,6 +985,8 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 		wl_json_add_numbers(m, "center_m", d, 2);
 		cJSON_AddNumberToObject(m, "size_m", k->size_m);
 		cJSON_AddNumberToObject(m, "yaw_deg", k->yaw_rad / WL_DEG);
+		if (k->z_m != 0)
+			cJSON_AddNumberToObject(m, "z_m", k->z_m);
 		cJSON_AddItemToArray(a, m);
 	}
 	o = cJSON_AddObjectToObject(root, "camera");
@@ -998,6 +1086,7 @@ static cJSON *scene_json(const wl_synth_scene *sc)
 	cJSON_AddNumberToObject(o, "hfov_deg", sc->hfov_rad / WL_DEG);
 	cJSON_AddNumberToObject(o, "frames", (double)wl_synth_frame_count(sc));
 	cJSON_AddStringToObject(o, "pixels", "coded");
+	add_camera_move(root, sc);
 	return root;
 }
 

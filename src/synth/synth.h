@@ -42,6 +42,7 @@
 typedef struct {
 	int id;          /* tag36h11 id */
 	double x_m, y_m; /* tag centre on the floor */
+	double z_m;      /* height of the card above the floor (a block); 0: on the floor */
 	double size_m;   /* edge of the black square (AprilTag's "tag size") */
 	double yaw_rad;  /* tag's right edge direction, CCW from +x */
 } wl_synth_marker;
@@ -124,6 +125,11 @@ typedef struct {
 	wl_camera cam;
 	double cam_pos_m[3], tilt_rad, tilt_dir_rad, yaw_rad;
 	double hfov_rad; /* as given, or derived from the focal length */
+	/* a camera that is bumped mid-run (camera_move): from move_t_s on the
+	 * frames are rendered with cam_moved (see wl_synth_camera_at) */
+	int has_move;
+	double move_t_s, move_tilt_rad, move_yaw_rad, move_shift_m[3];
+	wl_camera cam_moved;
 	/* timing */
 	double fps, duration_s, jitter; /* jitter: fraction of a frame interval, [0, 0.9] */
 	int time_base_den;
@@ -172,6 +178,10 @@ wl_status wl_synth_save_scene(const char *path, const wl_synth_scene *sc, wl_err
 long wl_synth_frame_count(const wl_synth_scene *sc);
 int64_t wl_synth_frame_pts(const wl_synth_scene *sc, long k);
 double wl_synth_frame_time(const wl_synth_scene *sc, long k);
+
+/* The camera that frames at time t_s are rendered with: cam, or cam_moved
+ * from the camera move on. */
+const wl_camera *wl_synth_camera_at(const wl_synth_scene *sc, double t_s);
 
 /* The true state of robot r at time t_s (see docs/synth.md for the model). */
 void wl_synth_robot_pose(const wl_synth_scene *sc, int r, double t_s, wl_synth_pose *out);

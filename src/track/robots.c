@@ -1,6 +1,6 @@
 /*
  * robots.c: the tracker's options: defaults, --ids, "h,s,v" triples and
- * ROBOTS.csv (id,plane_height_m,heading_offset_rad,body_diameter_m,
+ * ROBOTS.csv (id,plane_height_m,heading_offset_rad,body_diameter_m,tag_size_m,
  * front_hsv_lo,front_hsv_hi,back_hsv_lo,back_hsv_hi).
  */
 #define _POSIX_C_SOURCE 200809L
@@ -52,6 +52,7 @@ wl_robot_spec *wl_track_robot(wl_track_opts *o, int id)
 	r->plane_height_m = NAN;
 	r->heading_offset_rad = 0.0;
 	r->body_diameter_m = NAN;
+	r->tag_size_m = NAN;
 	return r;
 }
 
@@ -93,7 +94,7 @@ int wl_track_parse_hsv(const char *s, int out[3])
 
 typedef struct {
 	wl_track_opts *o;
-	int c_id, c_plane, c_off, c_diam, c_hsv[4];
+	int c_id, c_plane, c_off, c_diam, c_tag, c_hsv[4];
 } robots_ctx;
 
 static const char *const hsv_cols[4] = {"front_hsv_lo", "front_hsv_hi", "back_hsv_lo", "back_hsv_hi"};
@@ -112,6 +113,7 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 		c->c_plane = wl_csv_col(row, "plane_height_m");
 		c->c_off = wl_csv_col(row, "heading_offset_rad");
 		c->c_diam = wl_csv_col(row, "body_diameter_m");
+		c->c_tag = wl_csv_col(row, "tag_size_m");
 		for (int k = 0; k < 4; k++)
 			c->c_hsv[k] = wl_csv_col(row, hsv_cols[k]);
 		return WL_OK;
@@ -139,6 +141,12 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 	if (!wl_csv_empty(row, c->c_diam) &&
 	    (st = wl_csv_get_double(row, c->c_diam, "body_diameter_m", &r->body_diameter_m, err)) != WL_OK)
 		return st;
+	if (!wl_csv_empty(row, c->c_tag) &&
+	    (st = wl_csv_get_double(row, c->c_tag, "tag_size_m", &r->tag_size_m, err)) != WL_OK)
+		return st;
+	if (!(r->tag_size_m > 0) && !isnan(r->tag_size_m))
+		return wl_err_set(err, WL_EFORMAT, "%s:%ld: tag_size_m must be a positive number of metres",
+		                  row->path, row->line);
 	for (int k = 0; k < 4; k++) {
 		wl_hsv_range *hr = k < 2 ? &r->front : &r->back;
 		int *dst = (k % 2) ? hr->hi : hr->lo;

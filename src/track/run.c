@@ -50,8 +50,9 @@ typedef struct {
 	wl_decoder *dec;
 	int want_rgb;
 	int64_t damaged;
-	int64_t produced; /* frames the decoder thread has taken a buffer for */
-	int (*rois)[4];   /* n entries: the region of frame k is rois[k % n] */
+	int64_t produced;                    /* frames the decoder thread has taken a buffer for */
+	int (*rois)[4];                      /* n entries: the region of frame k is rois[k % n] */
+	double watch_period_s, watch_next_t; /* the camera watch wants a whole frame then */
 } queue;
 
 static void copy_plane(uint8_t *dst, int dst_stride, const uint8_t *src, int stride, int row_bytes, int h)
@@ -97,6 +98,11 @@ static void *decode_main(void *arg)
 			pthread_cond_broadcast(&q->cv);
 			pthread_mutex_unlock(&q->m);
 			break;
+		}
+		if (q->watch_period_s > 0 && f->t_s + 1e-9 >= q->watch_next_t) {
+			/* a frame for the camera watch: whole (it looks all over) */
+			s->roi[2] = s->roi[3] = 0;
+			q->watch_next_t = f->t_s + q->watch_period_s;
 		}
 		if (s->roi[2] > 0) {
 			/* the region only, at its place in the buffer (stride w) */
@@ -200,6 +206,21 @@ static void readout_check(const wl_track_run_opts *ro, const wl_track_stats *st)
 	             1000 * bias, 1000 * st->readout_used_s);
 }
 
+/* The camera watch's hook: on a whole frame when a check is due, look at
+ * the floor markers; a moved camera is handed to the tracker. */
+static wl_status watch_hook(wl_watch *watch, wl_tracker *tr, const slot *s, wl_err *err)
+{
+	int moved = 0;
+	wl_status st;
+	if (!watch || s->roi[2] > 0 || s->corrupt || !wl_watch_due(watch, s->t_s))
+		return WL_OK;
+	if ((st = wl_watch_frame(watch, s->luma, s->w, s->t_s, s->index, &moved, err)) != WL_OK)
+		return st;
+	if (moved)
+		wl_tracker_set_camera(tr, wl_watch_camera(watch));
+	return WL_OK;
+}
+
 /* One warning at the end of a run, the most important: robots past the
  * limit, a damaged clip, frames flagged damaged, HDR video in colour mode. */
 static void warn_end(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_decoder *dec,
@@ -271,6 +292,8 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	wl_tracker *tr = NULL;
 	wl_raw_writer *raw = NULL;
 	wl_qc *qc = NULL;
+	wl_watch *watch = NULL;
+	wl_afile *side = NULL; /* the RAW sidecar, staged */
 	queue q;
 	pthread_t th;
 	int started = 0, want_rgb, nq;
@@ -278,6 +301,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	const wl_video_info *info;
 	wl_status st;
 	memset(sum, 0, sizeof *sum);
+	sum->suspect_from_t_s = NAN;
 	memset(&q, 0, sizeof q);
 	if ((st = wl_track_opts_check(opts, err)))
 		return st;
@@ -299,6 +323,15 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		                       info->rotation_deg, info->fps_hint, &qc, err)) != WL_OK)
 			goto out;
 	}
+	if (ro->watch && (st = wl_watch_sidecar_check(ro->raw_path, err)) != WL_OK)
+		goto out;
+	if (ro->watch && ro->watch->enabled) {
+		wl_watch_opts wo = *ro->watch;
+		wo.diag = ro->diag;
+		if ((st = wl_watch_create(&wo, cal, info->width_px, info->height_px, info->rotation_deg,
+		                          &watch, err)) != WL_OK)
+			goto out;
+	}
 	if ((st = wl_raw_open(ro->raw_path, &raw, err)) != WL_OK)
 		goto out;
 	nq = ro->queue_frames >= 2 ? ro->queue_frames : 4;
@@ -306,6 +339,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		goto out;
 	q.dec = dec;
 	q.want_rgb = want_rgb;
+	q.watch_period_s = watch ? ro->watch->period_s : 0;
 	/* a region is set nq frames ahead (one more for a variable rate) */
 	lookahead_s = (nq + 2) / (info->fps_hint > 0 ? info->fps_hint : 30.0);
 	if (pthread_create(&th, NULL, decode_main, &q) != 0) {
@@ -329,6 +363,8 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		img.t_s = s->t_s;
 		img.index = s->index;
 		memcpy(img.roi, s->roi, sizeof img.roi);
+		if ((st = watch_hook(watch, tr, s, err)) != WL_OK)
+			goto out;
 		if ((st = wl_tracker_frame(tr, &img, &obs, &n, err)) != WL_OK)
 			goto out;
 		wl_track_put_rows(raw, s->t_s, s->index, obs, n);
@@ -366,11 +402,25 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	}
 	if (qc && (st = wl_qc_finish(qc, err)) != WL_OK)
 		goto out;
-	if ((st = wl_raw_commit(raw, err)) != WL_OK) {
-		raw = NULL;
-		goto out;
+	if (watch) {
+		const wl_camera_move *mv;
+		sum->camera_checks = wl_watch_checks(watch);
+		sum->camera_markers = wl_watch_markers(watch);
+		sum->camera_watch_cpu_s = wl_watch_cpu_s(watch);
+		sum->camera_moves = wl_watch_moves(watch, &mv, &sum->suspect_from_t_s);
 	}
+	/* the sidecar staged (written and durable), then RAW.csv, then the
+	 * sidecar renamed into place: a failure leaves the previous pair */
+	if (ro->watch && (st = wl_watch_stage_sidecar(watch, ro->raw_path, &side, err)) != WL_OK)
+		goto out;
+	st = wl_raw_commit(raw, err);
 	raw = NULL;
+	if (st != WL_OK)
+		goto out;
+	st = wl_afile_commit(side, err);
+	side = NULL;
+	if (st != WL_OK)
+		goto out;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
 	readout_check(ro, &sum->stats);
@@ -381,7 +431,9 @@ out:
 		pthread_join(th, NULL);
 	}
 	wl_raw_abort(raw);
+	wl_afile_abort(side);
 	wl_qc_destroy(qc);
+	wl_watch_destroy(watch);
 	wl_tracker_destroy(tr);
 	wl_decoder_destroy(dec);
 	free_slots(&q);

@@ -34,6 +34,7 @@
 #include "core/diag.h"
 #include "core/err.h"
 #include "formats/raw.h"
+#include "track/watch.h"
 
 #define WL_TRACK_MAX_ROBOTS 64
 
@@ -51,6 +52,8 @@ typedef struct {
 	double plane_height_m;     /* NaN: the run's default plane */
 	double heading_offset_rad; /* added to the measured heading (mounting) */
 	double body_diameter_m;    /* NaN if unknown; sizes the colour search */
+	double tag_size_m;         /* printed side of the tag's black square; NaN if unknown
+	                            * (calibrate --refine-with measures the camera height with it) */
 	wl_hsv_range front, back;  /* colour mode; back unset: one cap */
 } wl_robot_spec;
 
@@ -99,7 +102,7 @@ wl_status wl_track_parse_ids(const char *s, wl_track_opts *o, wl_err *err);
 int wl_track_parse_hsv(const char *s, int out[3]);
 
 /* Loads ROBOTS.csv: id (required), plane_height_m, heading_offset_rad,
- * body_diameter_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
+ * body_diameter_m, tag_size_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
  * (optional columns; empty cells keep defaults).  Sets restrict_ids and
  * robots_path. */
 wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err);
@@ -195,6 +198,10 @@ int wl_tracker_roi(const wl_tracker *tr, double lookahead_s, int roi[4]);
 
 const wl_track_stats *wl_tracker_stats(const wl_tracker *tr);
 void wl_tracker_destroy(wl_tracker *tr);
+
+/* Replaces the camera model (the camera watch registered a moved camera):
+ * the tank frame and the intrinsics stay, poses from now on use cam. */
+void wl_tracker_set_camera(wl_tracker *tr, const wl_camera *cam);
 
 /* Maps a coded pixel to the plane z_m through the calibration (orientation
  * handled).  Returns 0 outside the model. */
@@ -372,10 +379,12 @@ typedef struct {
 	int decode_threads;      /* 0: all cores */
 	int queue_frames;        /* buffers in the pool (>= 2) */
 	/* warnings (a damaged clip, ids past the limit, HDR video in colour
-	 * mode, a readout that the tags' shear contradicts) and progress (stage
-	 * "track": frames done of the expected frames, -1 when unknown, and the
-	 * frame's time), from the tracking thread after each frame; may be NULL */
+	 * mode, a readout that the tags' shear contradicts, camera moves) and
+	 * progress (stage "track": frames done of the expected frames, -1 when
+	 * unknown, and the frame's time), from the tracking thread after each
+	 * frame; may be NULL */
 	const wl_diag *diag;
+	const wl_watch_opts *watch; /* the camera watch (watch.h); NULL or not enabled: none */
 } wl_track_run_opts;
 
 typedef struct {
@@ -383,6 +392,11 @@ typedef struct {
 	int n_robots;
 	int64_t damaged; /* frames the decoder flagged */
 	wl_track_stats stats;
+	int camera_checks;         /* camera watch: checks made */
+	int camera_markers;        /* floor markers the calibration names (0: nothing to watch) */
+	double camera_watch_cpu_s; /* CPU time the watch took */
+	int camera_moves;          /* moves seen (registered again or not) */
+	double suspect_from_t_s;   /* poses from here on are suspect; NaN if none */
 } wl_track_summary;
 
 /* Tracks a whole clip into RAW.csv (written atomically).  Checks the

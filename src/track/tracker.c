@@ -164,6 +164,7 @@ static robot *robot_by_id(wl_tracker *tr, int id, int create)
 	spec.id = id;
 	spec.plane_height_m = NAN;
 	spec.body_diameter_m = NAN;
+	spec.tag_size_m = NAN;
 	if (tr->n >= WL_TRACK_MAX_ROBOTS) {
 		if (tr->st.over_limit++ == 0)
 			tr->st.first_over_limit_id = id;
@@ -242,6 +243,11 @@ void wl_tracker_destroy(wl_tracker *tr)
 	wl_tagdet_destroy(tr->det);
 	wl_blobber_destroy(tr->blob);
 	free(tr);
+}
+
+void wl_tracker_set_camera(wl_tracker *tr, const wl_camera *cam)
+{
+	tr->cal.cam = *cam;
 }
 
 const wl_track_stats *wl_tracker_stats(const wl_tracker *tr)

@@ -3,7 +3,7 @@
 # is skipped, exit 77, where mount is not permitted) and filled to leave
 # 0, 4, 12 or 40 kB free; then synth (clip + truth + scene, 31 kB), measure
 # (SUMMARY.json + --csv table), calibrate (CAL.json, 4.5 kB), probe
-# --frames, track (RAW.csv, 22 kB) and clean (CLEAN.csv + sidecar) write
+# --frames, track (RAW.csv, 22 kB, and its sidecar RAW.json) and clean (CLEAN.csv + sidecar) write
 # into it.  Each run must either succeed with every output
 # complete (it parses) or exit 1 with one message naming a file it could not
 # write and "No space left on device", leaving nothing behind (no output, no
@@ -83,7 +83,7 @@ for free in 0 4 12 40; do
 	on_disk $free measure S.json S.csv -- "$WAKELINE" measure CLEAN.csv -o disk/S.json --csv disk/S.csv -q
 	on_disk $free calibrate CAL.json -- "$WAKELINE" calibrate blank.png --points pts.csv -o disk/CAL.json
 	on_disk $free probe f.csv -- "$WAKELINE" probe -q --frames disk/f.csv in.mp4
-	on_disk $free track RAW.csv -- "$WAKELINE" track in.mp4 --cal cal.json -o disk/RAW.csv -q
+	on_disk $free track RAW.csv RAW.json -- "$WAKELINE" track in.mp4 --cal cal.json -o disk/RAW.csv -q
 	on_disk $free clean C.csv C.json -- "$WAKELINE" clean RAW.csv -o disk/C.csv
 done
 note "$nfail runs refused cleanly, $nok completed"

@@ -110,6 +110,19 @@ static void fill_calib(wl_calib *cal)
 	cal->points[0].residual_px = 0.25;
 	cal->points[0].residual_mm = NAN;
 	cal->points[0].used = 1;
+	snprintf(cal->route, sizeof cal->route, "camera_height");
+	cal->n_cov = 3;
+	cal->cov_param[0] = WL_CP_TZ;
+	cal->cov_param[1] = WL_CP_F;
+	cal->cov_param[2] = WL_CP_CX;
+	{
+		static const double c[9] = {1e-4, 0.05, -2e-3, 0.05, 30.0, 0.1, -2e-3, 0.1, 1474.56};
+		memcpy(cal->cov, c, sizeof c);
+	}
+	cal->plane_height_sd_m = 0.002;
+	cal->camera_height_sd_m = 0.01;
+	cal->principal_assumed = 1;
+	cal->principal_sd_px = 38.4;
 }
 
 static void test_calfile_roundtrip(void **state)
@@ -134,6 +147,14 @@ static void test_calfile_roundtrip(void **state)
 	}
 	assert_true(fabs(b.plane_height_m - 0.25) < 1e-15);
 	assert_true(fabs(b.readout_ms - 24.5) < 1e-12);
+	/* issue 13's keys: route, covariance with named parameters, tolerances */
+	assert_string_equal(b.route, "camera_height");
+	assert_int_equal(b.n_cov, 3);
+	assert_int_equal(b.cov_param[2], WL_CP_CX);
+	for (int i = 0; i < 9; i++)
+		assert_true(fabs(a.cov[i] - b.cov[i]) < 1e-15);
+	assert_true(fabs(b.plane_height_sd_m - 0.002) < 1e-15 && fabs(b.camera_height_sd_m - 0.01) < 1e-15);
+	assert_true(b.principal_assumed && fabs(b.principal_sd_px - 38.4) < 1e-12);
 	assert_true(wl_calib_pixel_to_plane(&a, 700, 300, 0.25, &x0, &y0));
 	assert_true(wl_calib_pixel_to_plane(&b, 700, 300, 0.25, &x1, &y1));
 	assert_true(fabs(x0 - x1) < 1e-12 && fabs(y0 - y1) < 1e-12);
@@ -159,6 +180,8 @@ static void test_calfile_validation(void **state)
 	        {"\"plane_height_m\"", "\"plane_height\"", "'plane_height_m'"},
 	        {"\"readout_ms\":\t24.5", "\"readout_ms\": \"fast\"", "'readout_ms'"},
 	        {"\"readout_ms\":\t24.5", "\"readout_ms\": -3", "'readout_ms'"},
+	        {"\"f_px\"", "\"focal\"", "'covariance.parameters'"},
+	        {"\"tolerances\":\t{", "\"tolerances\": 3, \"x\": {", "'tolerances'"},
 	};
 	wl_calib a, b;
 	wl_err err;
@@ -619,7 +642,7 @@ static void test_distorted_lens(void **state)
 	wl_calib_opts o;
 	wl_calib_report rep;
 	wl_err err;
-	double max_lens, max_none;
+	double max_lens, max_none, max_from_points;
 	int n;
 	(void)state;
 	make_camera(&cam, 20, 1400);
@@ -634,14 +657,76 @@ static void test_distorted_lens(void **state)
 	assert_true(max_lens < 2.0);
 	o.lens = NULL;
 	o.hfov_deg = 2 * atan(960.0 / 1400) / DEG;
+	o.no_distortion = 1;
 	if (wl_calib_solve(pts, n, &o, &cal, &rep, &err) == WL_OK) {
 		mapping_error_mm(&cal, &cam, 0, 0, &max_none);
 		assert_true(max_none > 10 * max_lens);
 	} else {
 		max_none = NAN;
 	}
-	print_message("distorted lens: floor max %.2f mm with the lens, %.1f mm without\n", max_lens,
-	              max_none);
+	/* the same points without the lens: the distortion comes from the
+	 * points themselves (chosen by leave-one-out residual) */
+	o.no_distortion = 0;
+	assert_int_equal(wl_calib_solve(pts, n, &o, &cal, &rep, &err), WL_OK);
+	mapping_error_mm(&cal, &cam, 0, 0, &max_from_points);
+	print_message("distorted lens: floor max %.2f mm with the lens, %.1f mm ignored, %.2f mm from the "
+	              "points (%s)\n",
+	              max_lens, max_none, max_from_points, rep.distortion_note);
+	assert_true(strcmp(cal.distortion_model, "none") != 0);
+	assert_true(max_from_points < 2.0);
+}
+
+/* The covariance in CAL.json and wl_calib_position_jacobian: the spread
+ * of a raised-plane position over 60 noisy calibrations (camera 2 m up,
+ * tilt 20 deg, 15 points, sigma 0.5 px) matches the first-order prediction
+ * J C Jᵀ within [0.7, 1.4]; the plane-height derivative equals the ray's
+ * own (x - Cx) / (z - Cz). */
+static void test_covariance_propagation(void **state)
+{
+	static wl_calib cal;
+	wl_calib_point pts[64];
+	wl_camera cam;
+	wl_calib_opts o;
+	wl_calib_report rep;
+	wl_calib_jacobian J;
+	wl_err err;
+	double u = 400, v = 300, z = 0.25, sx = 0, sy = 0, mx = 0, my = 0, pred[4], C[3], x0, y0;
+	int n, runs = 60;
+	(void)state;
+	make_camera(&cam, 20, 1400);
+	default_opts(&o);
+	o.principal_sd_px = 1e-9; /* the principal point is exact here: only the noise is sampled */
+	for (int r = 0; r < runs; r++) {
+		double x, y;
+		n = make_points(&cam, 5, 3, 0, 0.5, 100 + (uint64_t)r, pts);
+		assert_int_equal(wl_calib_solve(pts, n, &o, &cal, &rep, &err), WL_OK);
+		assert_true(wl_calib_pixel_to_plane(&cal, u, v, z, &x, &y));
+		if (r == 0) {
+			cal.plane_height_sd_m = 0;
+			assert_int_equal(wl_calib_position_cov(&cal, u, v, z, pred, &err), WL_OK);
+			assert_int_equal(wl_calib_position_jacobian(&cal, u, v, z, &J, &err), WL_OK);
+		}
+		mx += x / runs;
+		my += y / runs;
+		sx += x * x / runs;
+		sy += y * y / runs;
+	}
+	sx = sqrt(fmax(0, sx - mx * mx) * runs / (runs - 1));
+	sy = sqrt(fmax(0, sy - my * my) * runs / (runs - 1));
+	print_message(
+	        "covariance: position sd (%.3f, %.3f) mm over %d calibrations, predicted (%.3f, %.3f) mm; "
+	        "%d parameters + %s\n",
+	        1e3 * sx, 1e3 * sy, runs, 1e3 * sqrt(pred[0]), 1e3 * sqrt(pred[3]), J.n_cov, J.name[J.n_cov]);
+	assert_true(sx / sqrt(pred[0]) > 0.7 && sx / sqrt(pred[0]) < 1.4);
+	assert_true(sy / sqrt(pred[3]) > 0.7 && sy / sqrt(pred[3]) < 1.4);
+	assert_string_equal(J.name[J.n_cov], "plane_height_m");
+	assert_string_equal(J.name[0], "rvec_x_rad");
+	/* d(position)/d(plane height) along the ray (the last calibration) */
+	assert_int_equal(wl_calib_position_jacobian(&cal, u, v, z, &J, &err), WL_OK);
+	wl_camera_position(&cal.cam, C);
+	assert_true(wl_calib_pixel_to_plane(&cal, u, v, z, &x0, &y0));
+	assert_true(fabs(J.dx[J.n_cov] - (x0 - C[0]) / (z - C[2])) < 1e-6);
+	assert_true(fabs(J.dy[J.n_cov] - (y0 - C[1]) / (z - C[2])) < 1e-6);
 }
 
 int main(void)
@@ -661,6 +746,7 @@ int main(void)
 	        cmocka_unit_test(test_points3d_nadir),
 	        cmocka_unit_test(test_lens_file),
 	        cmocka_unit_test(test_distorted_lens),
+	        cmocka_unit_test(test_covariance_propagation),
 	};
 	return cmocka_run_group_tests(tests, setup_tmp, NULL);
 }

@@ -204,7 +204,8 @@ static void test_clean_round_trip(void **state)
 	wl_clean_robot rb = {0};
 	wl_clean_result res = {rows, 2, &rb, 1};
 	wl_clean_params p = {0};
-	wl_clean_source src = {"r.csv", 123, "ab", 2, "cal.json", "cd", 0};
+	wl_rawside cam;
+	wl_clean_source src = {"r.csv", 123, "ab", 2, "cal.json", "cd", 0, &cam};
 	wl_clean_sidecar sc;
 	clean_rows got = {0};
 	wl_err err;
@@ -220,6 +221,14 @@ static void test_clean_round_trip(void **state)
 	p.body_diameter_m = 0.1;
 	p.wall_margin_m = -1;
 	p.n_outline = 0;
+	/* the camera watch's record: one move registered again, nothing suspect */
+	wl_rawside_init(&cam);
+	cam.enabled = 1;
+	cam.n_moves = 1;
+	cam.moves[0].t_s = 5.25;
+	cam.moves[0].last_still_t_s = 4.75;
+	cam.moves[0].shift_px = 3.5;
+	cam.moves[0].reregistered = 1;
 	assert_int_equal(wl_clean_write(csv, js, &p, &src, &res, &err), WL_OK);
 	text = slurp(csv);
 	assert_string_equal(text,
@@ -247,6 +256,25 @@ static void test_clean_round_trip(void **state)
 	assert_string_equal(sc.robots[0].end_reason, "wall");
 	assert_int_equal(sc.robots[0].nsegments, 1);
 	assert_int_equal(sc.robots[0].segments[0].rows, 1);
+	assert_int_equal(sc.camera_known, 1);
+	assert_int_equal(sc.camera.enabled, 1);
+	assert_int_equal(sc.camera.n_moves, 1);
+	assert_true(sc.camera.moves[0].t_s == 5.25 && sc.camera.moves[0].last_still_t_s == 4.75);
+	assert_true(sc.camera.moves[0].shift_px == 3.5 && sc.camera.moves[0].reregistered == 1);
+	assert_true(isnan(sc.camera.suspect_from_t_s));
+	/* the move's bracket (4.75, 5.25] against a run's span */
+	assert_int_equal(wl_rawside_moves_in(&sc.camera, 5.0, 9.0), 1);
+	assert_int_equal(wl_rawside_moves_in(&sc.camera, 0.0, 4.5), 0);
+	assert_int_equal(wl_rawside_moves_in(&sc.camera, 5.5, 9.0), 0);
+	wl_clean_sidecar_release(&sc);
+	/* without a RAW sidecar the record is null, and reads back unknown */
+	src.camera = NULL;
+	assert_int_equal(wl_clean_write(csv, js, &p, &src, &res, &err), WL_OK);
+	text = slurp(js);
+	assert_non_null(strstr(text, "\"camera\":\tnull"));
+	free(text);
+	assert_int_equal(wl_clean_sidecar_read(js, &sc, &err), WL_OK);
+	assert_int_equal(sc.camera_known, 0);
 	wl_clean_sidecar_release(&sc);
 	/* a RAW.csv given as CLEAN.csv is named */
 	text = "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status\n0,0,1,,,0,0,0,ok\n";

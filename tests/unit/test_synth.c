@@ -187,6 +187,63 @@ static void test_round_trip_detection(void **state)
 	tag36h11_destroy(tf);
 }
 
+/* A marker raised on a block (z_m) and a camera bumped mid-run
+ * (camera_move): the detected centres match the projection through the
+ * camera of the frame's time at the card's height, within 0.5 px. */
+static void test_raised_marker_and_move(void **state)
+{
+	static const char text[] =
+	        "{ \"description\": \"invented test scene\", \"tank\": { \"size_m\": [1.6, 1.0] },"
+	        "  \"markers\": [ { \"id\": 7, \"center_m\": [0.2, 0.2], \"size_m\": 0.1 },"
+	        "                 { \"id\": 8, \"center_m\": [1.4, 0.8], \"size_m\": 0.1, \"z_m\": 0.15 } ],"
+	        "  \"camera\": { \"width_px\": 960, \"height_px\": 640, \"hfov_deg\": 70, \"position_m\": "
+	        "[0.8, 0.5, 1.5], \"principal_px\": [489.5, 312.5] },"
+	        "  \"camera_move\": { \"t_s\": 0.5, \"tilt_deg\": 0.3, \"yaw_deg\": 0.2 },"
+	        "  \"timing\": { \"fps\": 10, \"duration_s\": 1 } }";
+	wl_synth_scene sc;
+	apriltag_family_t *tf = tag36h11_create();
+	apriltag_detector_t *td = make_detector(tf);
+	double worst = 0, moved = 0;
+	wl_synth_renderer *r = NULL;
+	wl_err err = {0};
+	(void)state;
+	load(text, &sc);
+	assert_true(sc.has_move);
+	assert_true(wl_synth_camera_at(&sc, 0.4) == &sc.cam && wl_synth_camera_at(&sc, 0.5) == &sc.cam_moved);
+	assert_int_equal(wl_synth_renderer_create(&sc, 2, &r, &err), WL_OK);
+	for (long k = 0; k < 10; k += 9) {
+		double t = wl_synth_frame_time(&sc, k);
+		const wl_camera *cam = wl_synth_camera_at(&sc, t);
+		uint8_t *y = render_luma_r(r, &sc, k);
+		zarray_t *dets = detect(td, y, sc.cam.width_px, sc.cam.height_px);
+		assert_int_equal(zarray_size(dets), 2);
+		for (int i = 0; i < zarray_size(dets); i++) {
+			apriltag_detection_t *d;
+			const wl_synth_marker *m;
+			double X[3], u, v, u0, v0;
+			zarray_get(dets, i, &d);
+			m = &sc.markers[d->id == 7 ? 0 : 1];
+			X[0] = m->x_m;
+			X[1] = m->y_m;
+			X[2] = m->z_m;
+			assert_true(wl_camera_project(cam, X, &u, &v));
+			assert_true(wl_camera_project(&sc.cam, X, &u0, &v0));
+			worst = fmax(worst, hypot(d->c[0] - 0.5 - u, d->c[1] - 0.5 - v));
+			moved = fmax(moved, hypot(u - u0, v - v0));
+		}
+		apriltag_detections_destroy(dets);
+		free(y);
+	}
+	printf("raised marker and camera move: worst centre error %.3f px, the move shifts markers by %.1f "
+	       "px\n",
+	       worst, moved);
+	assert_true(worst <= 0.5);
+	assert_true(moved > 3); /* 0.3 deg at f = 685 px: ~3.6 px */
+	wl_synth_renderer_destroy(r);
+	apriltag_detector_destroy(td);
+	tag36h11_destroy(tf);
+}
+
 /* (a') submerged markers: refraction through wl_camera_project_water. */
 static void test_round_trip_water(void **state)
 {
@@ -918,6 +975,7 @@ int main(void)
 	        cmocka_unit_test(test_texture_matches_apriltag),
 	        cmocka_unit_test(test_round_trip_detection),
 	        cmocka_unit_test(test_round_trip_water),
+	        cmocka_unit_test(test_raised_marker_and_move),
 	        cmocka_unit_test(test_handedness),
 	        cmocka_unit_test(test_path_model),
 	        cmocka_unit_test(test_vfr_times),

@@ -1,0 +1,157 @@
+#!/usr/bin/env bash
+# The camera watch (issue 13) on an invented scene rendered by `wakeline
+# synth`: the camera (1.6 m up, 2 deg tilt) is bumped at 5.0 s, tilting by
+# 0.3 deg and turning by 0.2 deg (camera_move); a tagged robot circles on a
+# 0.25 m plane.  The calibration comes from the first frame (eight floor
+# markers, --camera-height-m), so it is right before the move and 7-9 mm off
+# after it without the watch.  Checks: the move is reported (raw.json
+# camera_moves, contracts.md) within 1 s of 5.0 s with its time, re-registered
+# from the markers; positions after the report are within 2 mm of the
+# renderer's truth (before the move too); a warning names the move; with
+# --no-watch the sidecar says the watch was off and the positions after the
+# move are off by more than 5 mm (so the scene does test the watch); with only
+# two floor markers known the move cannot be registered and the poses are
+# marked suspect (raw.json "suspect", and a warning).  Through clean and
+# measure, the moves reach clean.json ("camera") and summary.json (per run
+# camera_moves and camera_suspect_s; null without a RAW sidecar).
+source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
+need_synth
+scene() { # $1: extra top-level keys
+cat <<JSON
+{ "description": "invented test scene: a camera bumped at 5 s (0.3 deg tilt, 0.2 deg turn), one tagged robot circling",
+  "seed": 17,
+  "tank": { "size_m": [2.0, 1.2] },
+  "markers": [
+    { "id": 0, "center_m": [0.12, 0.12], "size_m": 0.10 },
+    { "id": 1, "center_m": [1.00, 0.16], "size_m": 0.10 },
+    { "id": 2, "center_m": [1.88, 0.12], "size_m": 0.10 },
+    { "id": 3, "center_m": [1.88, 1.08], "size_m": 0.10, "yaw_deg": 90 },
+    { "id": 4, "center_m": [1.00, 1.04], "size_m": 0.10 },
+    { "id": 5, "center_m": [0.12, 1.08], "size_m": 0.10 },
+    { "id": 6, "center_m": [0.55, 0.60], "size_m": 0.10 },
+    { "id": 7, "center_m": [1.45, 0.60], "size_m": 0.10, "yaw_deg": 180 } ],
+  "camera": { "width_px": 1280, "height_px": 720, "hfov_deg": 70, "position_m": [1.0, 0.6, 1.6], "tilt_deg": 2, "tilt_dir_deg": 60 },
+  "camera_move": { "t_s": 5.0, "tilt_deg": 0.3, "yaw_deg": 0.2 },
+  "timing": { "fps": 15, "duration_s": 10 },
+  "encoding": { "crf": 16 },
+  "effects": { "supersample": 2, "noise_sigma": 1.0 },
+  "robots": [ { "id": 20, "diameter_m": 0.10, "height_m": 0.25,
+                "marker": { "type": "tag", "tag_id": 20, "size_m": 0.06 },
+                "path": { "start_m": [1.0, 0.25], "heading_deg": 0, "speed_mps": 0.2, "curvature_1pm": 2.5 } } ] }
+JSON
+}
+scene > scene.json
+synth scene.json clip.mp4
+"$WAKELINE" synth scene.json --image frame.png --frame 30 > /dev/null || fail "synth --image"
+cat > layout.csv <<'CSV'
+marker_id,x_m,y_m,z_m,size_m,yaw_rad
+0,0.12,0.12,0,0.10,0
+1,1.00,0.16,0,0.10,0
+2,1.88,0.12,0,0.10,0
+3,1.88,1.08,0,0.10,1.5707963267948966
+4,1.00,1.04,0,0.10,0
+5,0.12,1.08,0,0.10,0
+6,0.55,0.60,0,0.10,0
+7,1.45,0.60,0,0.10,3.141592653589793
+CSV
+"$WAKELINE" calibrate frame.png --layout layout.csv --camera-height-m 1.6 --plane-height-m 0.25 -o cal.json -q > /dev/null ||
+	fail "calibrate exited $?"
+"$WAKELINE" track clip.mp4 --cal cal.json --ids 20 -o raw.csv 2> watch.err > watch.out || fail "track exited $?"
+cat watch.out watch.err
+check_grep "a warning names the move" "warning: the camera moved between" watch.err
+"$WAKELINE" track clip.mp4 --cal cal.json --ids 20 -o nowatch.csv --no-watch -q || fail "track --no-watch exited $?"
+check_py "the move is reported within 1 s, registered again; positions within 2 mm before and after it" raw.json raw.csv nowatch.json nowatch.csv clip.truth.csv <<'PY'
+import csv, json, math, sys
+side, raw, side0, raw0, truth = sys.argv[1:]
+s = json.load(open(side))
+assert s["camera_watch"]["enabled"] is True
+mv = s["camera_moves"]
+assert len(mv) == 1, mv
+m = mv[0]
+print("move reported at %.3f s (frame %d), last still %.3f s, shift %.2f px, turn %.3f deg, %d markers, RMS %.2f px"
+      % (m["t_s"], m["frame"], m["last_still_t_s"], m["shift_px"], m["turn_deg"], m["markers"], m["rms_px"]))
+assert m["reregistered"] is True and m["markers"] >= 6
+assert 5.0 <= m["t_s"] <= 6.0, m["t_s"]             # within 1 s of the move (scene: 5.0 s)
+assert m["last_still_t_s"] < 5.0                      # the bracket holds the move
+assert abs(m["turn_deg"] - math.hypot(0.3, 0.2)) < 0.1  # the scene's turn, about 0.36 deg
+assert json.load(open(side0))["camera_watch"]["enabled"] is False
+tr = {int(r["frame"]): r for r in csv.DictReader(open(truth))}
+def errs(path):
+    out = []
+    for r in csv.DictReader(open(path)):
+        if r["status"] != "ok":
+            continue
+        t = tr[int(r["frame"])]
+        out.append((float(r["t_s"]), 1e3 * math.hypot(float(r["x_m"]) - float(t["x_m"]), float(r["y_m"]) - float(t["y_m"]))))
+    return out
+e = errs(raw)
+before = max(x for t, x in e if t < 5.0)
+after = [x for t, x in e if t >= m["t_s"]]
+e0 = [x for t, x in errs(raw0) if t >= m["t_s"]]
+print("positions: before the move max %.2f mm; after the report max %.2f mm (%d rows); without the watch %.2f mm"
+      % (before, max(after), len(after), sum(e0) / len(e0)))
+assert before <= 2 and max(after) <= 2 and len(after) > 60
+assert sum(e0) / len(e0) > 5
+PY
+
+# too few markers to register the pose again: a calibration that names only
+# two of the markers in this clip (the others renamed to ids not shown)
+# still sees the move, cannot register it, and marks the poses suspect
+$PY - cal.json fewcal.json <<'PY'
+import json, sys
+c = json.load(open(sys.argv[1]))
+for p in c["points"]:
+    if p["id"].split(".")[0] not in ("0", "2"):
+        p["id"] = "4" + p["id"]
+json.dump(c, open(sys.argv[2], "w"))
+PY
+"$WAKELINE" track clip.mp4 --cal fewcal.json --ids 20 -o few.csv -q 2> few.err || fail "track (few markers) exited $?"
+cat few.err
+check_grep "two markers: a warning says the poses are suspect" "positions from .* on are suspect" few.err
+check "two markers: the sidecar records the move unregistered and the suspect interval" "$PY" -c "
+import json; s = json.load(open('few.json'))
+mv = s['camera_moves']; su = s['suspect']
+print('two markers in view:', mv, su)
+assert s['camera_watch']['markers_in_view'] == 2
+assert len(mv) == 1 and mv[0]['reregistered'] is False and 5.0 <= mv[0]['t_s'] <= 6.0
+assert len(su) == 1 and su[0]['from_t_s'] < 5.0 and su[0]['to_t_s'] is None"
+# the moves reach clean.json and summary.json: per run, the moves in its
+# span (camera_moves) and the seconds of suspect poses (camera_suspect_s);
+# a RAW.csv without its sidecar gives null (unknown)
+for r in raw few; do
+	"$WAKELINE" clean $r.csv -o ${r}_clean.csv -q --cal cal.json || fail "clean $r exited $?"
+	"$WAKELINE" measure ${r}_clean.csv -o ${r}_summary.json -q || fail "measure $r exited $?"
+done
+cp raw.csv bare.csv
+"$WAKELINE" clean bare.csv -o bare_clean.csv -q --cal cal.json || fail "clean bare exited $?"
+"$WAKELINE" measure bare_clean.csv -o bare_summary.json -q || fail "measure bare exited $?"
+check_py "the moves reach clean.json and each run of summary.json (null without a sidecar)" <<'PY'
+import json
+c = json.load(open("raw_clean.json"))["camera"]
+assert c["watched"] is True and len(c["moves"]) == 1 and c["moves"][0]["reregistered"] is True, c
+assert json.load(open("bare_clean.json"))["camera"] is None
+def runs(f):
+    return [(r["camera_moves"], r["camera_suspect_s"], r["t_start_s"], r["duration_s"]) for r in json.load(open(f))["runs"]]
+ok, few, bare = runs("raw_summary.json"), runs("few_summary.json"), runs("bare_summary.json")
+print("summary camera columns: registered %s; two markers %s; no sidecar %s" % (ok, few, bare))
+for m, s, t0, d in ok:       # a run over 5.0 s holds the move, registered: nothing suspect
+    assert s == 0 and m == (1 if t0 < 5.5 and t0 + d > 4.8 else 0), (m, s, t0, d)
+assert any(m == 1 for m, s, t0, d in ok)
+for m, s, t0, d in few:      # not registered: suspect from the last still check (4.8 s) to the end
+    end = t0 + d
+    assert abs(s - max(0.0, end - max(t0, 4.8))) < 0.1, (s, t0, d)
+assert any(s > 1 for m, s, t0, d in few)
+assert all(m is None and s is None for m, s, t0, d in bare)
+PY
+
+# the sidecar never overwrites another file: a RAW.csv named like the
+# calibration (cal.csv -> cal.json) is refused before the run
+cp cal.json cal.keep
+set +e
+"$WAKELINE" track clip.mp4 --cal cal.json --ids 20 -o cal.csv -q 2> clobber.err
+rc=$?; set -e
+cat clobber.err
+[ "$rc" -eq 1 ] && grep -q "is not a RAW sidecar" clobber.err || fail "a sidecar over CAL.json was not refused"
+cmp -s cal.json cal.keep || fail "CAL.json was overwritten"
+[ ! -e cal.csv ] || fail "RAW.csv written although the run was refused"
+done_testing
