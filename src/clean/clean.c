@@ -55,6 +55,7 @@ void clean_work_free(work *w)
 	free(w->r);
 	free(w->sv);
 	free(w->sr);
+	free(w->sp);
 	free(w->cut);
 	free(w->seg);
 	free(w->pstart);
@@ -84,13 +85,14 @@ int clean_work_alloc(work *w, size_t n, size_t npieces)
 	w->r = calloc(m, sizeof *w->r);
 	w->sv = calloc(m, sizeof *w->sv);
 	w->sr = calloc(m, sizeof *w->sr);
+	w->sp = calloc(m, sizeof *w->sp);
 	w->cut = calloc(m, sizeof *w->cut);
 	w->seg = calloc(m, sizeof *w->seg);
 	w->pstart = calloc(npieces + 1, sizeof *w->pstart);
 	w->phas_h = calloc(npieces + 1, 1);
 	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->mpos && w->mh && w->why && w->x &&
-	       w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg && w->pstart &&
-	       w->phas_h;
+	       w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->sp && w->cut && w->seg &&
+	       w->pstart && w->phas_h;
 }
 
 static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
@@ -193,6 +195,35 @@ out:
 
 /* ---------------------------------------------------------------- driver */
 
+/* Says when the noise model had to be widened or the filter restarted, and
+ * when many detections are rejected all the same: each is a sign that the
+ * track is not what the model expects (a manoeuvre, a wrong noise level, or
+ * the tracker following something else). */
+static void warn_model(const wl_clean_params *p, const wl_clean_robot *rb)
+{
+	size_t ndet = rb->measured + rb->outliers;
+	double frac = ndet ? (double)rb->outliers / (double)ndet : 0;
+	if (rb->widen_pos || rb->widen_heading)
+		wl_diag_warn(p->diag, "clean",
+		             "robot %ld: more than %.0f%% of the detections were beyond the gate with the "
+		             "estimated noise: the model was widened (position %dx, heading %dx: each x4 "
+		             "variance, x10 process noise) and %zu of %zu (%.1f%%) are rejected: check the "
+		             "track (clean.json, robots[].noise)",
+		             rb->id, 100 * p->max_reject_frac, rb->widen_pos, rb->widen_heading, rb->outliers,
+		             ndet, 100 * frac);
+	else if (frac > p->max_reject_frac)
+		wl_diag_warn(
+		        p->diag, "clean",
+		        "robot %ld: %zu of %zu detections (%.1f%%) rejected as outliers: check the track",
+		        rb->id, rb->outliers, ndet, 100 * frac);
+	if (rb->restarts_pos + rb->restarts_heading > 0)
+		wl_diag_warn(p->diag, "clean",
+		             "robot %ld: the smoother restarted %zu times (position) and %zu times (heading) "
+		             "after runs of %d or more detections it could not follow (sudden manoeuvres, or "
+		             "the tracker jumped): see clean.json, robots[].restarts",
+		             rb->id, rb->restarts_pos, rb->restarts_heading, 3);
+}
+
 static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
                              wl_clean_result *res, size_t *cap, wl_err *err)
 {
@@ -233,6 +264,8 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 			rb->sigma_estimated = 2;
 		rb->sigma_heading_rad = fmax(isfinite(s) ? s : 0.035, 1e-4);
 	}
+	rb->sigma_pos_est_m = rb->sigma_pos_m;
+	rb->sigma_heading_est_rad = rb->sigma_heading_rad;
 	st = p->smoother == WL_CLEAN_SG ? clean_smooth_sg(&w, p, rb, err) : clean_smooth_rts(&w, p, rb, err);
 	if (st)
 		goto out;
@@ -244,6 +277,7 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		rb->outliers_pos += (w.why[i] & 1) != 0;
 		rb->outliers_heading += (w.why[i] & 2) != 0;
 	}
+	warn_model(p, rb);
 	clean_cut_and_segment(&w, p, rb);
 	if ((st = clean_list_segments(&w, rb, err)))
 		goto out;

@@ -32,6 +32,7 @@
 #include <stdint.h>
 
 #include "clean/raw.h"
+#include "core/diag.h"
 #include "core/err.h"
 
 typedef enum { WL_CLEAN_RTS = 0, WL_CLEAN_SG = 1 } wl_clean_smoother;
@@ -47,6 +48,8 @@ typedef struct {
 	double q_pos;             /* process noise density m^2/s^3 (CV); <= 0: maximum likelihood */
 	double q_heading;         /* rad^2/s^3 (CV); <= 0: maximum likelihood */
 	double gate_prob;         /* chi-square gate probability, default 0.999 */
+	double max_reject_frac;   /* more rejected detections than this share: the model is
+	                           * widened and the smoothing retried (default 0.03) */
 	int sg_window, sg_order;  /* Savitzky-Golay, default 11 points, order 2 */
 	double max_gap_s;         /* bridge gaps up to this (default 0.5 s) */
 	wl_trim_mode trim;
@@ -60,7 +63,8 @@ typedef struct {
 	double wall_margin_m;        /* < 0: body radius */
 	int n_outline;               /* 0: no wall cut */
 	double outline_m[WL_CLEAN_MAX_OUTLINE][2];
-	double rate_hz; /* > 0: resample evenly at this rate */
+	double rate_hz;      /* > 0: resample evenly at this rate */
+	const wl_diag *diag; /* warnings (may be NULL) */
 } wl_clean_params;
 
 /* Fills the documented defaults. */
@@ -107,6 +111,10 @@ typedef struct {
 	double sigma_pos_m, sigma_heading_rad, q_pos, q_heading; /* used */
 	int sigma_estimated; /* 0 given, 1 estimated, 2 default (too few detections) */
 	int q_estimated;
+	/* before widening (equal to the used values when widen_* is 0) */
+	double sigma_pos_est_m, sigma_heading_est_rad, q_pos_est, q_heading_est;
+	int widen_pos, widen_heading;          /* widening steps (x4 variance, x10 q each) */
+	size_t restarts_pos, restarts_heading; /* filter restarts after runs of rejections */
 	double speed_threshold_mps, speed_sigma_mps;
 	double period_s; /* heading oscillation period, NaN if none found */
 	double window_s; /* settling window used */

@@ -12,7 +12,7 @@
 
 #include "clean/clean.h"
 
-#define MAX_OUTLIER_PASSES 4
+#define MAX_OUTLIER_PASSES 4 /* Savitzky-Golay leave-one-out passes */
 
 /* One robot's samples, kept in pieces split at long gaps. */
 typedef struct {
@@ -24,6 +24,7 @@ typedef struct {
 	unsigned char *why;       /* bit 0: position beyond the gate, bit 1: heading */
 	/* smoothed state */
 	double *x, *y, *h, *vx, *vy, *r, *sv, *sr;
+	double *sp; /* smoothed standard deviation of one position component */
 	wl_clean_cut *cut;
 	int *seg;
 	size_t npieces;

@@ -112,6 +112,7 @@ static cJSON *params_json(const wl_clean_params *p)
 	num(o, "q_pos_given", p->q_pos > 0 ? p->q_pos : NAN);
 	num(o, "q_heading_given", p->q_heading > 0 ? p->q_heading : NAN);
 	num(o, "gate_prob", p->gate_prob);
+	num(o, "max_reject_frac", p->max_reject_frac);
 	if (p->smoother == WL_CLEAN_SG) {
 		cJSON_AddNumberToObject(o, "sg_window", p->sg_window);
 		cJSON_AddNumberToObject(o, "sg_order", p->sg_order);
@@ -161,6 +162,16 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	                        isfinite(rb->q_pos) ? (rb->q_estimated ? "maximum likelihood" : "given")
 	                                            : "not used (Savitzky-Golay)");
 	num(n, "speed_sigma_mps", rb->speed_sigma_mps);
+	/* the estimates before the model's own check widened them */
+	num(n, "sigma_pos_estimated_m", rb->sigma_pos_est_m);
+	num(n, "sigma_heading_estimated_rad", rb->sigma_heading_est_rad);
+	num(n, "q_pos_estimated_m2ps3", rb->q_pos_est);
+	num(n, "q_heading_estimated_rad2ps3", rb->q_heading_est);
+	cJSON_AddNumberToObject(n, "widened_position", rb->widen_pos);
+	cJSON_AddNumberToObject(n, "widened_heading", rb->widen_heading);
+	t = cJSON_AddObjectToObject(o, "restarts");
+	cJSON_AddNumberToObject(t, "position", (double)rb->restarts_pos);
+	cJSON_AddNumberToObject(t, "heading", (double)rb->restarts_heading);
 	num(o, "t_first_s", rb->t_first_s);
 	num(o, "t_last_s", rb->t_last_s);
 	num(o, "speed_threshold_mps", rb->speed_threshold_mps);

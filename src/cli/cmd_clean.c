@@ -36,6 +36,8 @@ static const char USAGE[] =
         "      --q-pos Q              process noise, m^2/s^3 (default: max. likelihood)\n"
         "      --q-heading Q          process noise, rad^2/s^3 (default: max. likelihood)\n"
         "      --gate P               chi-square gate probability (default 0.999)\n"
+        "      --max-reject F         widen the noise model when more than this share\n"
+        "                             of the detections would be rejected (default 0.03)\n"
         "Gaps and trimming:\n"
         "      --max-gap-s S          bridge gaps up to S seconds (default 0.5)\n"
         "      --min-segment-s S      leave out shorter segments (default 1.0)\n"
@@ -63,6 +65,7 @@ enum {
 	O_QP,
 	O_QH,
 	O_GATE,
+	O_MAXREJ,
 	O_GAP,
 	O_MINSEG,
 	O_TRIM,
@@ -86,6 +89,7 @@ static const struct option OPTS[] = {{"output", required_argument, NULL, 'o'},
                                      {"q-pos", required_argument, NULL, O_QP},
                                      {"q-heading", required_argument, NULL, O_QH},
                                      {"gate", required_argument, NULL, O_GATE},
+                                     {"max-reject", required_argument, NULL, O_MAXREJ},
                                      {"max-gap-s", required_argument, NULL, O_GAP},
                                      {"min-segment-s", required_argument, NULL, O_MINSEG},
                                      {"trim", required_argument, NULL, O_TRIM},
@@ -165,8 +169,16 @@ static void summary(const wl_clean_robot *rb)
 		printf("end cut at %.3f s (wall)", rb->wall_s);
 	else
 		printf("end not cut (%s)", rb->end_reason);
-	printf("; %zu segment%s; noise %.2f mm, %.2f deg\n", rb->nsegments, rb->nsegments == 1 ? "" : "s",
-	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad / WL_DEG);
+	printf("; %zu segment%s; noise %.2f mm, %.2f deg%s\n", rb->nsegments, rb->nsegments == 1 ? "" : "s",
+	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad / WL_DEG,
+	       rb->widen_pos || rb->widen_heading ? " (widened)" : "");
+}
+
+/* The library's warnings go to stderr as "wakeline clean: warning: ...". */
+static void warn_stderr(void *ctx, const char *stage, const char *msg)
+{
+	(void)ctx;
+	cli_warn(stage, "%s", msg);
 }
 
 static int set_num(const char *opt, const char *arg, double *out)
@@ -179,6 +191,7 @@ static int set_num(const char *opt, const char *arg, double *out)
 int cmd_clean(int argc, char **argv)
 {
 	wl_clean_params p;
+	wl_diag diag = {warn_stderr, NULL, NULL};
 	wl_clean_source src = {0};
 	wl_clean_result res = {0};
 	wl_clean_raw *raw = NULL;
@@ -187,6 +200,7 @@ int cmd_clean(int argc, char **argv)
 	char *side_alloc = NULL, cal_sha[65] = "";
 	int quiet = 0, c, rc = WL_EXIT_OK, have_tank = 0;
 	wl_clean_params_init(&p);
+	p.diag = &diag;
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:j:qh", OPTS, NULL)) != -1) {
 		double v;
@@ -248,6 +262,9 @@ int cmd_clean(int argc, char **argv)
 			break;
 		case O_GATE:
 			e = set_num("gate", optarg, &p.gate_prob);
+			break;
+		case O_MAXREJ:
+			e = set_num("max-reject", optarg, &p.max_reject_frac);
 			break;
 		case O_GAP:
 			e = set_num("max-gap-s", optarg, &p.max_gap_s);
