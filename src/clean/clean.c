@@ -18,6 +18,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
+
 #include "clean/clean_work.h"
 
 static int cmp_double(const void *a, const void *b)
@@ -204,13 +206,16 @@ static void warn_model(const wl_clean_params *p, const wl_clean_robot *rb)
 	size_t ndet = rb->measured + rb->outliers;
 	double frac = ndet ? (double)rb->outliers / (double)ndet : 0;
 	if (rb->widen_pos || rb->widen_heading)
-		wl_diag_warn(p->diag, "clean",
-		             "robot %ld: more than %.0f%% of the detections were beyond the gate with the "
-		             "estimated noise: the model was widened (position %dx, heading %dx: each x4 "
-		             "variance, x10 process noise) and %zu of %zu (%.1f%%) are rejected: check the "
-		             "track (clean.json, robots[].noise)",
-		             rb->id, 100 * p->max_reject_frac, rb->widen_pos, rb->widen_heading, rb->outliers,
-		             ndet, 100 * frac);
+		wl_diag_warn(
+		        p->diag, "clean",
+		        "robot %ld: the detections did not fit the estimated noise model (more than "
+		        "%.0f%% beyond the gate, or far more than 5%% beyond its 95%% point): the model "
+		        "was widened (position %d, heading %d steps of x4 variance and x10 process "
+		        "noise; noise now %.2f mm, %.2f deg) and %zu of %zu (%.1f%%) are rejected: check "
+		        "the track (clean.json, robots[].noise)",
+		        rb->id, 100 * p->max_reject_frac, rb->widen_pos, rb->widen_heading,
+		        1e3 * rb->sigma_pos_m, rb->sigma_heading_rad / WL_DEG, rb->outliers, ndet,
+		        100 * frac);
 	else if (frac > p->max_reject_frac)
 		wl_diag_warn(
 		        p->diag, "clean",

@@ -408,78 +408,95 @@ static size_t mark_restarts(const work *w, group *g, double far, double gate, co
 	return added;
 }
 
+/* What one rejection leaves: detections, rejected ones, and far ones (beyond
+ * the 95% point of their deletion distance but within the gate). */
+typedef struct {
+	size_t ndet, nrej, nfar, nrestart;
+} reject_count;
+
 /* Rejection of one group: the robust pass, then gating of each detection's
- * deletion distance; runs of rejections restart the filter and the pass is
- * repeated.  Fills mask and returns the number of rejected detections
- * (-1 when singular); *ndet receives the number of detections. */
-static long group_reject(const work *w, group *g, double gate, unsigned char *mask, double *chi, size_t *ndet)
+ * deletion distance; runs of far detections restart the filter and the pass
+ * is repeated.  Fills mask and *rc; returns 0 when singular. */
+static int group_reject(const work *w, group *g, double gate, unsigned char *mask, double *chi,
+                        reject_count *rc)
 {
 	double far = g->naxes == 2 ? chi2_q2(RESTART_PROB) : chi2_q1(RESTART_PROB);
-	long nrej = 0;
 	memset(g->restart, 0, w->n);
 	for (int round = 0; round <= MAX_RESTART_ROUNDS; round++) {
 		if (!robust_pass(w, g, 0, w->n, chi))
-			return -1;
-		nrej = 0;
-		*ndet = 0;
+			return 0;
+		memset(rc, 0, sizeof *rc);
 		for (size_t i = 0; i < w->n; i++) {
 			mask[i] = isfinite(chi[i]) && chi[i] > gate;
-			nrej += mask[i];
-			*ndet += isfinite(chi[i]) != 0;
+			rc->nrej += mask[i];
+			rc->nfar += isfinite(chi[i]) && chi[i] > far && !mask[i];
+			rc->ndet += isfinite(chi[i]) != 0;
 		}
 		if (round == MAX_RESTART_ROUNDS || mark_restarts(w, g, far, gate, chi) == 0)
 			break;
 	}
-	return nrej;
+	for (size_t i = 0; i < w->n; i++)
+		rc->nrestart += g->restart[i];
+	return 1;
+}
+
+/* How far a rejection is from what a fitting model gives: the rejected
+ * detections beyond max_frac of them, plus the far ones beyond what a fitting
+ * model exceeds with probability 0.001 (5% of the detections plus 3.1
+ * binomial standard deviations); 0 when the model fits.  Each restart
+ * counts as the RESTART_RUN far detections that caused it: restarts follow
+ * manoeuvres, but a model with too little noise restarts all the time. */
+static double misfit(const reject_count *rc, double max_frac)
+{
+	double n = (double)rc->ndet, p = 1 - RESTART_PROB;
+	double over_rej = (double)rc->nrej - max_frac * n,
+	       over_far = (double)(rc->nfar + RESTART_RUN * rc->nrestart) -
+	                  (p * n + 3.1 * sqrt(p * (1 - p) * n));
+	if (over_rej <= 0 && over_far <= 0)
+		return 0;
+	return (double)rc->nrej + fmax(over_far, 0);
 }
 
 /* Rejection with the model's own check.  When more than max_frac of the
- * detections would be rejected, either the model is wrong (noise levels too
- * small for this track) or the data hold that many gross outliers.  The
- * model is widened (measurement variance x4, process noise x10) and the
- * rejection repeated: if that rejects at most half as many, the model was
- * wrong, and widening goes on while too many are rejected (at most
- * MAX_WIDEN steps); otherwise the rejections are far from any reasonable
- * track, and the unwidened model's rejections stand.  Returns the number of
- * widening steps kept, -1 when singular. */
+ * detections would be rejected, or far more than 5% of them are far (after
+ * the restarts, which follow manoeuvres), either the model is wrong (noise
+ * levels too small for this track) or the data hold that many gross
+ * outliers.  The model is widened (measurement variance x4, process noise
+ * x10) and the rejection repeated: if that at least halves the misfit
+ * (rejected plus excess far detections), the model was wrong, and widening
+ * goes on while it does not fit (at most MAX_WIDEN steps); otherwise the
+ * rejected detections are far from any reasonable track and the unwidened
+ * model's rejections stand.  Returns the number of widening steps kept, -1
+ * when singular. */
 static int group_reject_widen(const work *w, group *g, double gate, double max_frac, unsigned char *mask,
                               double *chi, size_t *nrej_out)
 {
-	double r0 = g->cfg.r, q0 = g->cfg.q;
-	size_t ndet = 0;
-	long n0 = group_reject(w, g, gate, mask, chi, &ndet), prev = n0;
+	reject_count rc;
+	double prev;
 	int widen = 0;
-	if (n0 < 0)
+	if (!group_reject(w, g, gate, mask, chi, &rc))
 		return -1;
-	*nrej_out = (size_t)n0;
-	while (ndet > 0 && (double)prev > max_frac * (double)ndet && widen < MAX_WIDEN) {
-		long nw;
+	*nrej_out = rc.nrej;
+	prev = misfit(&rc, max_frac);
+	while (rc.ndet > 0 && prev > 0 && widen < MAX_WIDEN) {
+		double m;
 		g->cfg.r *= 4;
 		g->cfg.q *= 10;
-		if ((nw = group_reject(w, g, gate, mask, chi, &ndet)) < 0)
+		if (!group_reject(w, g, gate, mask, chi, &rc))
 			return -1;
-		if (2 * nw > prev) {
-			if (widen == 0)
-				break;
-			/* no further gain: keep the previous step */
+		m = misfit(&rc, max_frac);
+		if (2 * m > prev) {
+			/* no gain: the previous model's rejections stand */
 			g->cfg.r /= 4;
 			g->cfg.q /= 10;
-			if ((nw = group_reject(w, g, gate, mask, chi, &ndet)) < 0)
+			if (!group_reject(w, g, gate, mask, chi, &rc))
 				return -1;
-			*nrej_out = (size_t)nw;
+			*nrej_out = rc.nrej;
 			return widen;
 		}
 		widen++;
-		prev = nw;
-		*nrej_out = (size_t)nw;
-	}
-	if (widen == 0 && (g->cfg.r != r0 || g->cfg.q != q0)) {
-		/* widening did not help: the outliers are real */
-		g->cfg.r = r0;
-		g->cfg.q = q0;
-		if (group_reject(w, g, gate, mask, chi, &ndet) < 0)
-			return -1;
-		*nrej_out = (size_t)n0;
+		prev = m;
+		*nrej_out = rc.nrej;
 	}
 	return widen;
 }
