@@ -119,10 +119,14 @@ typedef struct {
 	double period_s; /* heading oscillation period, NaN if none found */
 	double window_s; /* settling window used */
 	double t_first_s, t_last_s;
-	double onset_s;          /* first sustained motion, NaN if still */
-	double trim_s;           /* rows before this are cut 'start' */
-	const char *trim_reason; /* "settled", "not-settled", "fixed", "none", "still", "too-short",
-	                            "no-detections" */
+	double onset_s;           /* first sustained motion, NaN if still */
+	double trim_s;            /* rows before this are cut 'start' */
+	const char *trim_reason;  /* "settled", "not-settled", "fixed", "none", "still", "too-short",
+	                             "no-detections" */
+	double settle_unjudged_s; /* time from the onset to where the trim was decided whose
+	                           * windows could not be judged (gaps) */
+	const char *turn_source;  /* turning rate of the settling test: "heading",
+	                           * "direction of travel", "none" */
 	double speed_ref_mps, yaw_ref_radps;     /* steady values (mean over the second half) */
 	double settle_tol_mps, settle_tol_radps; /* tolerances used */
 	double wall_s;                           /* rows from here are cut 'wall'; NaN none */

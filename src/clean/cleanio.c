@@ -185,6 +185,16 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	t = cJSON_AddObjectToObject(o, "trim");
 	num(t, "t_s", rb->trim_s);
 	cJSON_AddStringToObject(t, "reason", rb->trim_reason ? rb->trim_reason : "");
+	if (rb->trim_reason &&
+	    (strcmp(rb->trim_reason, "settled") == 0 || strcmp(rb->trim_reason, "not-settled") == 0)) {
+		num(t, "window_s", rb->window_s);
+		num(t, "unjudged_s", rb->settle_unjudged_s);
+		cJSON_AddStringToObject(t, "turn_rate_from", rb->turn_source ? rb->turn_source : "none");
+		num(t, "cut_s", rb->trim_s - rb->t_first_s);
+		num(t, "cut_share",
+		    (rb->trim_s - rb->t_first_s) / (isfinite(rb->wall_s) ? rb->wall_s - rb->t_first_s
+		                                                         : rb->t_last_s - rb->t_first_s));
+	}
 	t = cJSON_AddObjectToObject(o, "end");
 	num(t, "t_s", rb->wall_s);
 	cJSON_AddStringToObject(t, "reason", rb->end_reason ? rb->end_reason : "");

@@ -446,6 +446,52 @@ static void test_stage_synthetic(void **state)
 	wl_clean_raw_destroy(raw);
 }
 
+/* A robot on a straight line at 0.14 m/s from t = 1 s with 3 mm of
+ * position noise and no heading (a colour blob), smoothed with a process
+ * noise given far too large (10 m^2/s^3), so that the smoother's velocity
+ * uncertainty is far above the robot's speed: it is still found moving, at
+ * the right time, because the moving test uses the displacement of the
+ * smoothed position.  The same track without motion is still. */
+static void stage_moving(int move, wl_clean_result *res)
+{
+	enum { N = 240 };
+	static char text[N * 120 + 200];
+	size_t len = 0;
+	wl_clean_raw *raw = NULL;
+	wl_err err = {0};
+	wl_clean_params p;
+	rng_state = 11;
+	len += (size_t)snprintf(text + len, sizeof text - len, HDR);
+	for (int i = 0; i < N; i++) {
+		double t = i / 30.0, s = move && t > 1 ? 0.14 * (t - 1) : 0;
+		len += (size_t)snprintf(text + len, sizeof text - len,
+		                        "%.6f,%d,4,0,0,%.6f,%.6f,,ok,50,30,blob\n", t, i,
+		                        0.5 + s + 0.003 * nrand(), 0.4 + 0.003 * nrand());
+	}
+	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
+	wl_clean_params_init(&p);
+	p.q_pos = 10;
+	assert_int_equal(wl_clean_run(raw, &p, res, &err), WL_OK);
+	wl_clean_raw_destroy(raw);
+}
+
+static void test_moving_not_still(void **state)
+{
+	wl_clean_result res;
+	(void)state;
+	stage_moving(1, &res);
+	print_message("0.14 m/s blob: velocity sigma %.4f m/s, still threshold %.4f m/s, onset %.3f s\n",
+	              res.robots[0].speed_sigma_mps, res.robots[0].speed_threshold_mps,
+	              res.robots[0].onset_s);
+	assert_true(5 * res.robots[0].speed_sigma_mps > 0.14); /* the old rule would call it still */
+	assert_false(res.robots[0].still);
+	assert_true(res.robots[0].onset_s >= 1.0 && res.robots[0].onset_s < 1.4);
+	wl_clean_result_release(&res);
+	stage_moving(0, &res);
+	assert_true(res.robots[0].still);
+	wl_clean_result_release(&res);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -455,6 +501,7 @@ int main(void)
 	        cmocka_unit_test(test_rts_heading_unwrap),  cmocka_unit_test(test_sha256_fips),
 	        cmocka_unit_test(test_raw_errors),          cmocka_unit_test(test_raw_ok),
 	        cmocka_unit_test(test_outline_dist),        cmocka_unit_test(test_stage_synthetic),
+	        cmocka_unit_test(test_moving_not_still),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
