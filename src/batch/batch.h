@@ -33,37 +33,8 @@
 #include <stddef.h>
 
 #include "core/err.h"
+#include "formats/manifest.h"
 #include "report/report.h"
-
-/* ---- manifest ------------------------------------------------------------ */
-
-typedef struct {
-	char *clip;    /* relative to the clip folder, "./" removed */
-	long line;     /* line of the manifest, for messages */
-	char **values; /* one per manifest column ("" when empty) */
-	int found;     /* set by wl_batch_run when the clip exists */
-} wl_manifest_row;
-
-typedef struct {
-	char *path;
-	size_t ncols;
-	char **cols;                /* every column, `clip` included */
-	int c_clip, c_cal, c_plane; /* column indices, -1 when absent */
-	size_t nrows;
-	wl_manifest_row *rows;
-} wl_manifest;
-
-void wl_manifest_init(wl_manifest *m);
-void wl_manifest_release(wl_manifest *m);
-/* Reads a manifest CSV: a header with a `clip` column (required) and any
- * other columns; optional `cal` (a CAL.json path, relative to the manifest's
- * folder unless absolute) and `plane_height_m` (metres) override the batch's
- * per clip.  Errors name file and line: a missing `clip` column, a repeated
- * column name, a row with another number of cells than the header, an empty
- * clip cell, a clip listed twice, a plane_height_m that is not a number. */
-wl_status wl_manifest_load(const char *path, wl_manifest *m, wl_err *err);
-/* The row naming clip (relative path), or NULL. */
-const wl_manifest_row *wl_manifest_find(const wl_manifest *m, const char *clip);
 
 /* ---- discovery ----------------------------------------------------------- */
 

@@ -4,10 +4,10 @@
  * processed by separate jobs (a cluster job array, shards, reruns) come
  * together in one table (see batch.h).
  *
- * summary.csv: clip, folder, status, error, the manifest's columns, then one
- * column per key of summary.json's runs: id, segment, headline and the
- * measures in a fixed order first, any other keys after them sorted by name;
- * a [lo, hi] pair becomes <key>_lo and <key>_hi.
+ * summary.csv: clip, folder, status, error, the manifest's columns, then the
+ * per-run row of formats/summary.h (id, segment, headline and the measures,
+ * a [lo, hi] interval as <key>_lo and <key>_hi), then any keys of the
+ * summaries that this version does not know, sorted by name.
  */
 #define _POSIX_C_SOURCE 200809L
 #include "batch/batch.h"
@@ -22,35 +22,7 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
-
-/* The measure stage's keys in the order the table shows them. */
-static const char *const KNOWN[] = {
-        "id",
-        "segment",
-        "headline",
-        "radius_m",
-        "curvature_per_m",
-        "curvature_ci95_per_m_lo",
-        "curvature_ci95_per_m_hi",
-        "straight",
-        "fit_rms_m",
-        "arc_deg",
-        "radius_body_diameters",
-        "path_length_m",
-        "net_displacement_m",
-        "straightness",
-        "mean_speed_mps",
-        "speed_sd_mps",
-        "mean_yaw_rate_degps",
-        "heading_drift_degps",
-        "yaw_osc_freq_hz",
-        "yaw_osc_amp_deg",
-        "sway_amp_m",
-        "trim_start_s",
-        "duration_s",
-        "tracked_fraction",
-        NULL,
-};
+#include "formats/summary.h"
 
 typedef struct {
 	size_t n, cap;
@@ -152,45 +124,18 @@ static void prows_free(prows *p)
 	free(p->r);
 }
 
-static void value_text(const cJSON *v, char *buf, size_t cap)
+/* A run's cells: the columns of the per-run row, then the keys the reader
+ * did not know. */
+static int add_run_values(kvlist *l, const wl_summary_run *run)
 {
-	char num[WL_NUMBUF];
-	buf[0] = '\0';
-	if (cJSON_IsNumber(v))
-		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 10));
-	else if (cJSON_IsBool(v))
-		snprintf(buf, cap, "%s", cJSON_IsTrue(v) ? "true" : "false");
-	else if (cJSON_IsString(v))
-		snprintf(buf, cap, "%s", v->valuestring);
-}
-
-static int add_run_values(kvlist *l, const cJSON *run)
-{
-	const cJSON *v;
-	char buf[1024], key[300];
-	cJSON_ArrayForEach(v, run)
-	{
-		if (!v->string)
-			continue;
-		if (cJSON_IsArray(v)) {
-			if (cJSON_GetArraySize(v) == 2) {
-				snprintf(key, sizeof key, "%s_lo", v->string);
-				value_text(cJSON_GetArrayItem(v, 0), buf, sizeof buf);
-				if (!kv_add(l, key, buf))
-					return 0;
-				snprintf(key, sizeof key, "%s_hi", v->string);
-				value_text(cJSON_GetArrayItem(v, 1), buf, sizeof buf);
-				if (!kv_add(l, key, buf))
-					return 0;
-			}
-			continue;
-		}
-		if (cJSON_IsObject(v))
-			continue;
-		value_text(v, buf, sizeof buf);
-		if (!kv_add(l, v->string, buf))
+	char cell[WL_SUMMARY_CELL];
+	for (size_t c = 0; c < WL_SUMCOL_N; c++)
+		if (!kv_add(l, wl_summary_col_name((wl_summary_col)c),
+		            wl_summary_cell(run, (wl_summary_col)c, cell, sizeof cell)))
 			return 0;
-	}
+	for (size_t i = 0; i < run->nextra; i++)
+		if (!kv_add(l, run->extra[i].key, run->extra[i].value))
+			return 0;
 	return 1;
 }
 
@@ -203,9 +148,11 @@ static int cmp_name(const void *a, const void *b)
 static void read_clip(prows *p, const char *out_dir, const char *name)
 {
 	char path[PATH_MAX], folder[PATH_MAX], msg[PATH_MAX + 300];
-	cJSON *cj = NULL, *sj = NULL;
-	const cJSON *params, *runs, *run, *v;
+	cJSON *cj = NULL;
+	const cJSON *params, *v;
 	const char *clip, *status;
+	wl_summary sum;
+	int have_sum = 0;
 	wl_err err;
 	prow *first = NULL;
 	size_t before = p->n;
@@ -219,15 +166,17 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 	clip = wl_json_string_or(cj, "clip", name);
 	status = wl_json_string_or(cj, "status", "failed");
 	params = cJSON_GetObjectItemCaseSensitive(cj, "params");
+	wl_summary_init(&sum);
 	if (strcmp(status, "ok") == 0) {
 		snprintf(path, sizeof path, "%s/%s/summary.json", out_dir, folder);
-		if (wl_json_load(path, &sj, &err) != WL_OK) {
+		if (wl_summary_read(path, &sum, &err) != WL_OK) {
 			status = "failed";
 			snprintf(msg, sizeof msg, "%s", err.msg);
+		} else {
+			have_sum = 1;
 		}
 	}
-	runs = sj ? cJSON_GetObjectItemCaseSensitive(sj, "runs") : NULL;
-	if (strcmp(status, "ok") == 0 && cJSON_IsArray(runs) && cJSON_GetArraySize(runs) > 0) {
+	if (strcmp(status, "ok") == 0 && sum.nruns > 0) {
 		struct stat st;
 		snprintf(path, sizeof path, "%s/%s/path_m.png", out_dir, folder);
 		if (stat(path, &st) != 0) {
@@ -241,15 +190,14 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 			wl_report_scene_release(sb);
 			free(sb);
 		}
-		cJSON_ArrayForEach(run, runs)
-		{
+		for (size_t i = 0; i < sum.nruns; i++) {
 			prow *r = prow_new(p, clip, folder, "ok", NULL);
-			if (!r || !add_run_values(&r->meas, run))
+			if (!r || !add_run_values(&r->meas, &sum.runs[i]))
 				p->oom = 1;
 		}
 	} else if (strcmp(status, "ok") == 0) {
 		prow_new(p, clip, folder, "failed",
-		         cJSON_IsArray(runs) ? "no runs: nothing was tracked long enough to measure" : msg);
+		         have_sum ? "no runs: nothing was tracked long enough to measure" : msg);
 	} else {
 		prow_new(p, clip, folder, "failed", msg[0] ? msg : wl_json_string_or(cj, "error", "failed"));
 	}
@@ -258,7 +206,7 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 		                                  !kv_add(&first->params, v->string, v->valuestring)) p->oom =
 		        1;
 	cJSON_Delete(cj);
-	cJSON_Delete(sj);
+	wl_summary_release(&sum);
 }
 
 static int has(char **list, size_t n, const char *s)
@@ -296,8 +244,8 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 			if (!has(t->cols, t->ncols, p->r[i].params.k[j]))
 				ADDCOL(p->r[i].params.k[j]);
 	t->nparams = t->ncols;
-	for (k = 0; KNOWN[k]; k++)
-		ADDCOL(KNOWN[k]);
+	for (k = 0; k < WL_SUMCOL_N; k++)
+		ADDCOL(wl_summary_col_name((wl_summary_col)k));
 	for (i = 0; i < p->n; i++)
 		for (j = 0; j < p->r[i].meas.n; j++) {
 			const char *key = p->r[i].meas.k[j];

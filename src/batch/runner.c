@@ -217,16 +217,6 @@ static int ncores(void)
 	return n > 0 ? (int)n : 1;
 }
 
-static void resolve_cal(const wl_manifest *m, const char *cell, char *out, size_t cap)
-{
-	const char *slash;
-	if (cell[0] == '/' || !m->path || !(slash = strrchr(m->path, '/'))) {
-		snprintf(out, cap, "%s", cell);
-		return;
-	}
-	snprintf(out, cap, "%.*s/%s", (int)(slash - m->path), m->path, cell);
-}
-
 static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, clipjob *j, wl_err *err)
 {
 	const wl_batch_opts *o = r->o;
@@ -249,15 +239,15 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 		if (!j->names || !j->values)
 			return wl_err_set(err, WL_ENOMEM, "out of memory preparing the batch");
 		for (i = 0; i < m->ncols; i++) {
-			if ((int)i == m->c_clip)
+			if (wl_manifest_is_clip_col(m, i))
 				continue;
 			j->names[k] = m->cols[i];
 			j->values[k++] = row ? row->values[i] : "";
 		}
-		if (row && m->c_cal >= 0 && row->values[m->c_cal][0])
-			resolve_cal(m, row->values[m->c_cal], j->cal, sizeof j->cal);
-		if (row && m->c_plane >= 0 && row->values[m->c_plane][0])
-			wl_parse_double(row->values[m->c_plane], &plane);
+		if (row && row->opts.cal)
+			snprintf(j->cal, sizeof j->cal, "%s", row->opts.cal);
+		if (row)
+			plane = row->opts.plane_height_m;
 	}
 	j->job.clip_path = j->clip_path;
 	j->job.clip_rel = j->rel;

@@ -19,9 +19,6 @@
 #include "core/linalg.h"
 #include "wl_version.h"
 
-#define CAL_FORMAT "wakeline-calibration"
-#define CAL_FORMAT_VERSION 1
-
 void wl_calib_init(wl_calib *cal)
 {
 	memset(cal, 0, sizeof *cal);
@@ -98,44 +95,24 @@ static void utc_now(char buf[32])
 		snprintf(buf, 32, "unknown");
 }
 
-static int add_points(cJSON *root, const wl_calib *cal)
+/* The outline of a calibration in the shared type. */
+static void get_outline(const wl_calib *cal, wl_cal_outline *o)
 {
-	cJSON *a = cJSON_AddArrayToObject(root, "points");
-	if (!a)
-		return 0;
-	for (int i = 0; i < cal->n_points; i++) {
-		const wl_calib_point *p = &cal->points[i];
-		cJSON *o = cJSON_CreateObject();
-		if (!o)
-			return 0;
-		cJSON_AddItemToArray(a, o);
-		cJSON_AddStringToObject(o, "id", p->id);
-		cJSON_AddNumberToObject(o, "u_px", p->u_px);
-		cJSON_AddNumberToObject(o, "v_px", p->v_px);
-		cJSON_AddNumberToObject(o, "x_m", p->x_m);
-		cJSON_AddNumberToObject(o, "y_m", p->y_m);
-		cJSON_AddNumberToObject(o, "z_m", p->z_m);
-		if (isfinite(p->residual_px))
-			cJSON_AddNumberToObject(o, "residual_px", p->residual_px);
-		if (isfinite(p->residual_mm))
-			cJSON_AddNumberToObject(o, "residual_mm", p->residual_mm);
-		cJSON_AddBoolToObject(o, "used", p->used);
-	}
-	return 1;
+	o->n = cal->n_outline;
+	memcpy(o->xy, cal->outline_m, sizeof o->xy);
 }
 
 static cJSON *build_json(const wl_calib *cal)
 {
-	cJSON *root = cJSON_CreateObject(), *o;
+	cJSON *root = wl_cal_new_root(), *o;
 	const wl_camera *c = &cal->cam;
 	double pos[3], rvec[3], size[2] = {c->width_px, c->height_px};
 	char when[32];
+	wl_cal_outline outline;
 	if (!root)
 		return NULL;
 	wl_camera_position(c, pos);
 	wl_rodrigues_inv(c->R, rvec);
-	cJSON_AddStringToObject(root, "format", CAL_FORMAT);
-	cJSON_AddNumberToObject(root, "format_version", CAL_FORMAT_VERSION);
 	wl_json_add_numbers(root, "image_size_px", size, 2);
 	cJSON_AddStringToObject(root, "pixels", cal->displayed ? "displayed" : "coded");
 	cJSON_AddNumberToObject(root, "rotation_deg", cal->rotation_deg);
@@ -165,10 +142,8 @@ static cJSON *build_json(const wl_calib *cal)
 		cJSON_AddNumberToObject(root, "rms_mm", cal->rms_mm);
 	else
 		cJSON_AddNullToObject(root, "rms_mm");
-	o = cJSON_AddArrayToObject(root, "tank_outline_m");
-	for (int i = 0; o && i < cal->n_outline; i++)
-		cJSON_AddItemToArray(o, cJSON_CreateDoubleArray(cal->outline_m[i], 2));
-	if (!add_points(root, cal))
+	get_outline(cal, &outline);
+	if (!wl_cal_add_outline(root, &outline) || !wl_cal_add_points(root, cal->points, cal->n_points))
 		goto fail;
 	o = cJSON_AddObjectToObject(root, "provenance");
 	if (!o)
@@ -247,69 +222,6 @@ static wl_status copy_string(const cJSON *obj, const char *key, const char *name
 	return WL_OK;
 }
 
-static wl_status load_points(const cJSON *root, const char *name, wl_calib *cal, wl_err *err)
-{
-	const cJSON *a = cJSON_GetObjectItemCaseSensitive(root, "points"), *o;
-	int i = 0;
-	if (!a)
-		return WL_OK;
-	if (!cJSON_IsArray(a))
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'points' must be an array", name);
-	cJSON_ArrayForEach(o, a)
-	{
-		wl_calib_point *p;
-		char key[48];
-		if (i >= WL_CALIB_MAX_POINTS)
-			return wl_err_set(err, WL_ELIMIT, "%s: key 'points': more than %d points", name,
-			                  WL_CALIB_MAX_POINTS);
-		p = &cal->points[i];
-		snprintf(key, sizeof key, "points[%d]", i);
-		if (!cJSON_IsObject(o))
-			return wl_err_set(err, WL_EFORMAT, "%s: key '%s' must be an object", name, key);
-		snprintf(p->id, sizeof p->id, "%s", wl_json_string_or(o, "id", ""));
-		p->u_px = wl_json_number_or(o, "u_px", NAN);
-		p->v_px = wl_json_number_or(o, "v_px", NAN);
-		p->x_m = wl_json_number_or(o, "x_m", NAN);
-		p->y_m = wl_json_number_or(o, "y_m", NAN);
-		p->z_m = wl_json_number_or(o, "z_m", 0);
-		p->residual_px = wl_json_number_or(o, "residual_px", NAN);
-		p->residual_mm = wl_json_number_or(o, "residual_mm", NAN);
-		p->used = !cJSON_IsFalse(cJSON_GetObjectItemCaseSensitive(o, "used"));
-		if (!isfinite(p->u_px) || !isfinite(p->v_px) || !isfinite(p->x_m) || !isfinite(p->y_m))
-			return wl_err_set(err, WL_EFORMAT,
-			                  "%s: key '%s': u_px, v_px, x_m and y_m must be numbers", name, key);
-		i++;
-	}
-	cal->n_points = i;
-	return WL_OK;
-}
-
-static wl_status load_outline(const cJSON *root, const char *name, wl_calib *cal, wl_err *err)
-{
-	const cJSON *a = cJSON_GetObjectItemCaseSensitive(root, "tank_outline_m"), *pt;
-	int i = 0;
-	if (!a)
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'tank_outline_m' is missing", name);
-	if (!cJSON_IsArray(a) || cJSON_GetArraySize(a) < 3 || cJSON_GetArraySize(a) > WL_CALIB_MAX_OUTLINE)
-		return wl_err_set(err, WL_EFORMAT,
-		                  "%s: key 'tank_outline_m' must be an array of 3 to %d [x, y] points", name,
-		                  WL_CALIB_MAX_OUTLINE);
-	cJSON_ArrayForEach(pt, a)
-	{
-		const cJSON *x = cJSON_GetArrayItem(pt, 0), *y = cJSON_GetArrayItem(pt, 1);
-		if (!cJSON_IsArray(pt) || cJSON_GetArraySize(pt) != 2 || !cJSON_IsNumber(x) ||
-		    !cJSON_IsNumber(y) || !isfinite(x->valuedouble) || !isfinite(y->valuedouble))
-			return wl_err_set(err, WL_EFORMAT,
-			                  "%s: key 'tank_outline_m': item %d must be [x, y] in metres", name,
-			                  i);
-		cal->outline_m[i][0] = x->valuedouble;
-		cal->outline_m[i][1] = y->valuedouble;
-		i++;
-	}
-	cal->n_outline = i;
-	return WL_OK;
-}
-
 static wl_status check_model(const wl_calib *cal, const double pos[3], const char *name, wl_err *err)
 {
 	const wl_camera *c = &cal->cam;
@@ -345,19 +257,27 @@ static wl_status check_model(const wl_calib *cal, const double pos[3], const cha
 	return WL_OK;
 }
 
-static wl_status parse(const cJSON *root, const char *name, wl_calib *cal, wl_err *err)
+/* The outline and the points: the parts of CAL.json other stages share. */
+static wl_status load_shared(const wl_cal_doc *d, wl_calib *cal, wl_err *err)
 {
+	wl_cal_outline o;
+	wl_status st;
+	if ((st = wl_cal_get_outline(d, &o, err)) ||
+	    (st = wl_cal_get_points(d, cal->points, WL_CALIB_MAX_POINTS, &cal->n_points, err)))
+		return st;
+	cal->n_outline = o.n;
+	memcpy(cal->outline_m, o.xy, sizeof cal->outline_m);
+	return WL_OK;
+}
+
+static wl_status parse(const wl_cal_doc *d, wl_calib *cal, wl_err *err)
+{
+	const cJSON *root = d->root;
+	const char *name = d->path;
 	double size[2], pos[3], v;
-	const char *pix = NULL, *fmt;
+	const char *pix = NULL;
 	const cJSON *water, *prov;
 	wl_status st;
-	if (!cJSON_IsObject(root))
-		return wl_err_set(err, WL_EFORMAT, "%s: not a calibration file (expected a JSON object)",
-		                  name);
-	fmt = wl_json_string_or(root, "format", NULL);
-	if (fmt && strcmp(fmt, CAL_FORMAT) != 0)
-		return wl_err_set(err, WL_EFORMAT, "%s: key 'format' is '%s', not '%s': is this a CAL.json?",
-		                  name, fmt, CAL_FORMAT);
 	if ((st = wl_json_numbers(root, "image_size_px", name, size, 2, err)))
 		return st;
 	if (!(size[0] >= 1 && size[1] >= 1 && size[0] == floor(size[0]) && size[1] == floor(size[1]) &&
@@ -397,7 +317,7 @@ static wl_status parse(const cJSON *root, const char *name, wl_calib *cal, wl_er
 	cal->rms_mm = wl_json_number_or(root, "rms_mm", NAN);
 	if ((st = copy_string(root, "intrinsics_source", name, cal->intrinsics_source,
 	                      sizeof cal->intrinsics_source, 1, err)) ||
-	    (st = load_outline(root, name, cal, err)) || (st = load_points(root, name, cal, err)))
+	    (st = load_shared(d, cal, err)))
 		return st;
 	prov = cJSON_GetObjectItemCaseSensitive(root, "provenance");
 	if (cJSON_IsObject(prov)) {
@@ -412,14 +332,15 @@ static wl_status parse(const cJSON *root, const char *name, wl_calib *cal, wl_er
 
 wl_status wl_calib_load(const char *path, wl_calib *cal, wl_err *err)
 {
-	cJSON *root = NULL;
+	wl_cal_doc d;
 	wl_status st;
 	wl_calib_init(cal);
-	st = wl_json_load(path, &root, err);
-	if (st)
+	if ((st = wl_cal_doc_read(path, &d, err)))
 		return st;
-	st = parse(root, path, cal, err);
-	cJSON_Delete(root);
+	st = parse(&d, cal, err);
+	if (!st)
+		snprintf(cal->sha256_hex, sizeof cal->sha256_hex, "%s", d.sha256_hex);
+	wl_cal_doc_release(&d);
 	if (st)
 		wl_calib_init(cal);
 	return st;

@@ -18,19 +18,10 @@
 
 #include "core/camera.h"
 #include "core/err.h"
+#include "formats/cal.h" /* wl_calib_point, the shared keys of CAL.json */
 
-#define WL_CALIB_MAX_OUTLINE 64
-#define WL_CALIB_MAX_POINTS 256
-
-/* One correspondence used to calibrate, with its residual after the fit. */
-typedef struct {
-	char id[32];          /* "7" (marker centre), "7.c0".."7.c3" (corners) or "row 4" */
-	double u_px, v_px;    /* observed pixel (distortion included) */
-	double x_m, y_m, z_m; /* tank position */
-	double residual_px;   /* |projected - observed| through the final camera model */
-	double residual_mm;   /* observed pixel mapped to the plane z_m, distance to (x, y), mm */
-	int used;             /* 0: left out of the fit as an outlier */
-} wl_calib_point;
+#define WL_CALIB_MAX_OUTLINE WL_CAL_MAX_OUTLINE
+#define WL_CALIB_MAX_POINTS WL_CAL_MAX_POINTS
 
 typedef struct {
 	wl_camera cam;         /* intrinsics, distortion, pose, water layer */
@@ -48,6 +39,7 @@ typedef struct {
 	wl_calib_point points[WL_CALIB_MAX_POINTS];
 	char created_utc[32];  /* "2026-12-02T03:04:05Z"; filled by save when empty */
 	char tool_version[64]; /* the wakeline version that wrote the file (on load) */
+	char sha256_hex[65];   /* SHA-256 of the CAL.json it was loaded from ("" otherwise) */
 } wl_calib;
 
 void wl_calib_init(wl_calib *cal);

@@ -201,13 +201,13 @@ out:
  * when many detections are rejected all the same: each is a sign that the
  * track is not what the model expects (a manoeuvre, a wrong noise level, or
  * the tracker following something else). */
-static void warn_model(const wl_clean_params *p, const wl_clean_robot *rb)
+static void warn_model(const wl_clean_params *p, const wl_diag *diag, const wl_clean_robot *rb)
 {
 	size_t ndet = rb->measured + rb->outliers;
 	double frac = ndet ? (double)rb->outliers / (double)ndet : 0;
 	if (rb->widen_pos || rb->widen_heading)
 		wl_diag_warn(
-		        p->diag, "clean",
+		        diag, "clean",
 		        "robot %ld: the detections did not fit the estimated noise model (more than "
 		        "%.0f%% beyond the gate, or far more than 5%% beyond its 95%% point): the model "
 		        "was widened (position %d, heading %d steps of x4 variance and x10 process "
@@ -218,19 +218,19 @@ static void warn_model(const wl_clean_params *p, const wl_clean_robot *rb)
 		        100 * frac);
 	else if (frac > p->max_reject_frac)
 		wl_diag_warn(
-		        p->diag, "clean",
+		        diag, "clean",
 		        "robot %ld: %zu of %zu detections (%.1f%%) rejected as outliers: check the track",
 		        rb->id, rb->outliers, ndet, 100 * frac);
 	if (rb->restarts_pos + rb->restarts_heading > 0)
-		wl_diag_warn(p->diag, "clean",
+		wl_diag_warn(diag, "clean",
 		             "robot %ld: the smoother restarted %zu times (position) and %zu times (heading) "
 		             "after runs of %d or more detections it could not follow (sudden manoeuvres, or "
 		             "the tracker jumped): see clean.json, robots[].restarts",
 		             rb->id, rb->restarts_pos, rb->restarts_heading, 3);
 }
 
-static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
-                             wl_clean_result *res, size_t *cap, wl_err *err)
+static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, const wl_diag *diag,
+                             wl_clean_robot *rb, wl_clean_result *res, size_t *cap, wl_err *err)
 {
 	work w = {0};
 	wl_status st;
@@ -282,7 +282,7 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		rb->outliers_pos += (w.why[i] & 1) != 0;
 		rb->outliers_heading += (w.why[i] & 2) != 0;
 	}
-	warn_model(p, rb);
+	warn_model(p, diag, rb);
 	clean_cut_and_segment(&w, p, rb);
 	if ((st = clean_list_segments(&w, rb, err)))
 		goto out;
@@ -302,19 +302,26 @@ static int cmp_row(const void *a, const void *b)
 	return (x->id > y->id) - (x->id < y->id);
 }
 
-wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, wl_clean_result *out, wl_err *err)
+wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, const wl_diag *diag,
+                       wl_clean_result *out, wl_err *err)
 {
 	wl_status st;
 	size_t cap = 0;
 	memset(out, 0, sizeof *out);
 	if ((st = wl_clean_params_check(p, err)))
 		return st;
+	if (p->n_outline == 0)
+		wl_diag_warn(
+		        diag, "clean",
+		        "%s: no tank outline, so tracks are not cut at the tank wall: give a CAL.json with "
+		        "tank_outline_m (--cal) or the tank rectangle (--tank)",
+		        raw->path);
 	if (!(out->robots = calloc(raw->ntracks ? raw->ntracks : 1, sizeof *out->robots)))
 		return wl_err_set(err, WL_ENOMEM, "out of memory");
 	for (size_t k = 0; k < raw->ntracks; k++) {
 		out->nrobots++;
-		if ((st = clean_robot(&raw->tracks[k], p, &out->robots[k], out, &cap, err)))
-			return wl_err_prefix(err, "%s: robot %ld", raw->path, raw->tracks[k].id);
+		if ((st = clean_robot(&raw->tracks[k], p, diag, &out->robots[k], out, &cap, err)))
+			return wl_err_prefix(err, st, "%s: robot %ld", raw->path, raw->tracks[k].id);
 	}
 	if (out->nrows)
 		qsort(out->rows, out->nrows, sizeof *out->rows, cmp_row);
@@ -332,4 +339,13 @@ void wl_clean_result_release(wl_clean_result *res)
 	free(res->robots);
 	free(res->rows);
 	memset(res, 0, sizeof *res);
+}
+
+void wl_clean_source_init(wl_clean_source *src, const wl_clean_raw *raw)
+{
+	memset(src, 0, sizeof *src);
+	src->input_path = raw->path;
+	src->input_bytes = raw->bytes;
+	src->input_sha256 = raw->sha256_hex;
+	src->input_rows = raw->nrows;
 }

@@ -1,7 +1,7 @@
 /*
- * params.c: the clean stage's parameters (defaults and range checks), the
- * names of the row status and cut values, and the distance to the tank
- * outline that the wall cut uses (see clean.h; defaults in docs/clean.md).
+ * params.c: the clean stage's parameters (defaults and range checks) and the
+ * distance to the tank outline that the wall cut uses (see clean.h; defaults
+ * in docs/clean.md).
  */
 #include "clean/clean.h"
 
@@ -63,18 +63,6 @@ wl_status wl_clean_params_check(const wl_clean_params *p, wl_err *err)
 	if (!(p->settle_tol > 0) || !(p->default_window_s > 0) || !(p->min_segment_s >= 0))
 		return wl_err_set(err, WL_EINVAL, "settling parameters must be positive");
 	return WL_OK;
-}
-
-const char *wl_clean_status_name(wl_clean_status s)
-{
-	static const char *const n[] = {"measured", "filled", "outlier"};
-	return n[s];
-}
-
-const char *wl_clean_cut_name(wl_clean_cut c)
-{
-	static const char *const n[] = {"", "start", "wall", "gap", "still"};
-	return n[c];
 }
 
 double wl_clean_outline_dist(const wl_clean_params *p, double x, double y)

@@ -1,7 +1,8 @@
 /*
- * raw.h: RAW.csv (the tracker's output) as the clean stage reads it: the
- * rows validated and grouped per robot id, in time order, with the file's
- * size and SHA-256 for the sidecar (raw.c).
+ * raw.h: RAW.csv (the tracker's output, formats/raw.h) as the clean stage
+ * needs it: the rows grouped per robot id, each robot's rows checked to be in
+ * frame and time order, with the file's size and SHA-256 for the sidecar
+ * (raw.c).
  *
  * Ownership: wl_clean_raw_read returns an object that wl_clean_raw_destroy
  * frees.  Memory: every row is kept (about 64 bytes each), since the
@@ -42,9 +43,8 @@ typedef struct {
 
 #define WL_CLEAN_MAX_ROBOTS 4096
 
-/* Reads and validates RAW.csv (required columns t_s, frame, id, x_m, y_m,
- * heading_rad, status; numbers in number cells; per id frames and times
- * strictly increasing, so no duplicate (frame, id)).  Errors name the file
+/* Reads RAW.csv through formats/raw.h and checks that per id frames and
+ * times increase strictly (so no (frame, id) appears twice).  Errors name the file
  * and line.  *out is freed with wl_clean_raw_destroy. */
 wl_status wl_clean_raw_read(const char *path, wl_clean_raw **out, wl_err *err);
 /* Same over a buffer (name is used in messages; checksum of the buffer). */

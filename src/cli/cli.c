@@ -3,6 +3,7 @@
 #include "cli/cli.h"
 
 #include <errno.h>
+#include <math.h>
 #include <stdarg.h>
 #include <string.h>
 #include <time.h>
@@ -96,4 +97,46 @@ void cli_progress_done(cli_progress *p)
 {
 	if (p->enabled && p->t_last > 0)
 		fputs("\r\033[K", stderr);
+}
+
+static void diag_warn(void *ctx, const char *stage, const char *msg)
+{
+	cli_diag *cd = ctx;
+	cli_progress_done(&cd->prog);
+	cd->prog.t_last = 0;
+	if (stage && strcmp(stage, cd->cmd) != 0)
+		cli_warn(cd->cmd, "%s: %s", stage, msg);
+	else
+		cli_warn(cd->cmd, "%s", msg);
+}
+
+static void diag_progress(void *ctx, const char *stage, double done, double total, double t_s)
+{
+	cli_diag *cd = ctx;
+	int frames = stage && strcmp(stage, "track") == 0;
+	double el = cli_now_s() - cd->prog.t_start, rate = el > 0 ? done / el : 0;
+	(void)t_s;
+	if (total > 0 && rate > 0)
+		cli_progress_update(&cd->prog, "%s: %.0f of %.0f%s, %.0f%s, %.0f s left", stage, done, total,
+		                    frames ? " frames" : "", rate, frames ? " fps" : "/s",
+		                    (total - done) / rate);
+	else
+		cli_progress_update(&cd->prog, "%s: %.0f%s, %.0f%s", stage, done, frames ? " frames" : "",
+		                    rate, frames ? " fps" : "/s");
+}
+
+const wl_diag *cli_diag_init(cli_diag *cd, const char *cmd, int quiet)
+{
+	memset(cd, 0, sizeof *cd);
+	cd->cmd = cmd;
+	cd->d.warn = diag_warn;
+	cd->d.progress = diag_progress;
+	cd->d.ctx = cd;
+	cli_progress_init(&cd->prog, quiet);
+	return &cd->d;
+}
+
+void cli_diag_done(cli_diag *cd)
+{
+	cli_progress_done(&cd->prog);
 }

@@ -12,6 +12,7 @@
 
 #include <stdio.h>
 
+#include "core/diag.h"
 #include "core/err.h"
 
 /* Every command's entry point and summary (the list is generated). */
@@ -48,5 +49,18 @@ void cli_progress_init(cli_progress *p, int quiet);
 void cli_progress_update(cli_progress *p, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 void cli_progress_done(cli_progress *p);
 double cli_now_s(void);
+
+/* The CLI's wl_diag (core/diag.h): warnings go to stderr as
+ * "wakeline <cmd>: warning: [<stage>: ]<msg>" (the stage named when it is
+ * not the command), progress is the redrawn line of cli_progress (on a
+ * terminal, not when quiet).  cli_diag_init returns the wl_diag to put in a
+ * stage's options; cli_diag_done ends the progress line. */
+typedef struct {
+	wl_diag d;
+	const char *cmd;
+	cli_progress prog;
+} cli_diag;
+const wl_diag *cli_diag_init(cli_diag *cd, const char *cmd, int quiet);
+void cli_diag_done(cli_diag *cd);
 
 #endif

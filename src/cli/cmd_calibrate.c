@@ -468,7 +468,7 @@ int cmd_calibrate(int argc, char **argv)
 	if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
 		for (int i = 0; i < rep.n_warn; i++)
 			cli_warn("calibrate", "%s", rep.warn[i]);
-		wl_err_prefix(&err, "%s", op.points ? op.points : op.source);
+		wl_err_prefix(&err, err.code, "%s", op.points ? op.points : op.source);
 		goto out;
 	}
 	if (!outline.n_outline)

@@ -10,6 +10,7 @@
 #include "clean/clean.h"
 #include "cli/cli.h"
 #include "core/angle.h"
+#include "formats/cal.h"
 
 const char cmd_clean_summary[] =
         "smooth tracks, reject outliers, bridge gaps, trim and segment (RAW.csv -> CLEAN.csv)";
@@ -174,13 +175,6 @@ static void summary(const wl_clean_robot *rb)
 	       rb->widen_pos || rb->widen_heading ? " (widened)" : "");
 }
 
-/* The library's warnings go to stderr as "wakeline clean: warning: ...". */
-static void warn_stderr(void *ctx, const char *stage, const char *msg)
-{
-	(void)ctx;
-	cli_warn(stage, "%s", msg);
-}
-
 static int set_num(const char *opt, const char *arg, double *out)
 {
 	if (!cli_parse_double(arg, out))
@@ -191,16 +185,18 @@ static int set_num(const char *opt, const char *arg, double *out)
 int cmd_clean(int argc, char **argv)
 {
 	wl_clean_params p;
-	wl_diag diag = {warn_stderr, NULL, NULL};
 	wl_clean_source src = {0};
 	wl_clean_result res = {0};
 	wl_clean_raw *raw = NULL;
+	wl_cal_doc doc = {0};
+	wl_cal_outline outline;
 	wl_err err = {0};
+	cli_diag cd;
+	const wl_diag *diag;
 	const char *out = NULL, *side = NULL, *cal = NULL;
-	char *side_alloc = NULL, cal_sha[65] = "";
+	char *side_alloc = NULL;
 	int quiet = 0, c, rc = WL_EXIT_OK, have_tank = 0;
 	wl_clean_params_init(&p);
-	p.diag = &diag;
 	optind = 1;
 	while ((c = getopt_long(argc, argv, "o:j:qh", OPTS, NULL)) != -1) {
 		double v;
@@ -329,24 +325,24 @@ int cmd_clean(int argc, char **argv)
 		free(side_alloc);
 		return cli_usage_error("clean", "%s", err.msg);
 	}
+	diag = cli_diag_init(&cd, "clean", quiet);
 	if (cal) {
-		if (wl_clean_load_outline(cal, &p, cal_sha, &err)) {
+		if (wl_cal_doc_read(cal, &doc, &err) || wl_cal_get_outline(&doc, &outline, &err)) {
 			rc = cli_fail("clean", &err);
 			goto done;
 		}
-		src.cal_path = cal;
-		src.cal_sha256 = cal_sha;
-		if (!p.n_outline)
-			cli_warn("clean",
-			         "%s has no tank outline ('tank_outline_m' absent or empty): no wall cut",
-			         cal);
-	} else if (have_tank) {
-		src.tank_rect = 1;
-	} else if (!quiet) {
-		printf("note: no tank outline given (--cal or --tank): no wall cut\n");
+		p.n_outline = outline.n;
+		memcpy(p.outline_m, outline.xy, sizeof p.outline_m);
 	}
-	if (wl_clean_raw_read(argv[optind], &raw, &err) || wl_clean_run(raw, &p, &res, &err) ||
-	    wl_clean_write(out, side, raw, &p, &src, &res, &err)) {
+	if (wl_clean_raw_read(argv[optind], &raw, &err) || wl_clean_run(raw, &p, diag, &res, &err)) {
+		rc = cli_fail("clean", &err);
+		goto done;
+	}
+	wl_clean_source_init(&src, raw);
+	src.cal_path = cal;
+	src.cal_sha256 = cal ? doc.sha256_hex : NULL;
+	src.tank_rect = have_tank;
+	if (wl_clean_write(out, side, &p, &src, &res, &err)) {
 		rc = cli_fail("clean", &err);
 		goto done;
 	}
@@ -354,6 +350,7 @@ int cmd_clean(int argc, char **argv)
 		for (size_t k = 0; k < res.nrobots; k++)
 			summary(&res.robots[k]);
 done:
+	wl_cal_doc_release(&doc);
 	wl_clean_result_release(&res);
 	wl_clean_raw_destroy(raw);
 	free(side_alloc);

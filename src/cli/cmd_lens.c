@@ -114,7 +114,7 @@ static wl_status lens_from_clip(const char *src, double every_s, wl_lens_collect
 		(*offered)++;
 		if ((st = wl_lens_collector_add(lc, fr->luma, fr->width_px, fr->height_px, fr->luma_stride,
 		                                &kept, err))) {
-			wl_err_prefix(err, "%s: frame at %.3f s", src, fr->t_s);
+			wl_err_prefix(err, st, "%s: frame at %.3f s", src, fr->t_s);
 			break;
 		}
 		cli_progress_update(prog, "lens: %.1f s, %d frames offered", fr->t_s, *offered);
@@ -208,7 +208,7 @@ int cmd_lens(int argc, char **argv)
 			st = wl_lens_collector_add(lc, px, w, h, w, &kept, &err);
 		free(px);
 		if (st) {
-			wl_err_prefix(&err, "%s", files[i]);
+			wl_err_prefix(&err, st, "%s", files[i]);
 			goto out;
 		}
 		cli_progress_update(&prog, "lens: %d/%d photos", i + 1, n_files);

@@ -22,18 +22,19 @@ wl_status wl_err_set(wl_err *err, wl_status code, const char *fmt, ...)
 	return code;
 }
 
-wl_status wl_err_prefix(wl_err *err, const char *fmt, ...)
+wl_status wl_err_prefix(wl_err *err, wl_status code, const char *fmt, ...)
 {
 	char pre[256], old[sizeof err->msg];
 	va_list ap;
 	if (!err)
-		return WL_OK;
+		return code;
 	va_start(ap, fmt);
 	vsnprintf(pre, sizeof pre, fmt, ap);
 	va_end(ap);
 	memcpy(old, err->msg, sizeof old);
 	snprintf(err->msg, sizeof err->msg, "%s: %s", pre, old);
-	return err->code;
+	err->code = code;
+	return code;
 }
 
 void wl_err_clear(wl_err *err)

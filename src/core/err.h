@@ -33,8 +33,11 @@ typedef struct {
 wl_status wl_err_set(wl_err *err, wl_status code, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
 wl_status wl_err_vset(wl_err *err, wl_status code, const char *fmt, va_list ap);
 
-/* Prefixes an existing message: "prefix: old message".  Returns err->code. */
-wl_status wl_err_prefix(wl_err *err, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+/* Prefixes an existing message ("prefix: old message") and sets err->code to
+ * code.  Returns code, also when err is NULL, so that
+ * `return wl_err_prefix(err, st, "...")` keeps the failure. */
+wl_status wl_err_prefix(wl_err *err, wl_status code, const char *fmt, ...)
+        __attribute__((format(printf, 3, 4)));
 
 /* Resets err to WL_OK with an empty message. */
 void wl_err_clear(wl_err *err);

@@ -91,7 +91,7 @@ wl_status wl_png_write(const char *path, const uint8_t *data, int width, int hei
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
 	st = encode_png(data, width, height, stride, channels, pkt, err);
 	if (st != WL_OK)
-		wl_err_prefix(err, "%s", path);
+		wl_err_prefix(err, st, "%s", path);
 	else
 		st = wl_write_file_atomic(path, pkt->data, (size_t)pkt->size, err);
 	av_packet_free(&pkt);

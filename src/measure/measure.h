@@ -1,8 +1,10 @@
 /*
  * measure.h: stage 5 of the pipeline (clean -> measure -> report).  Pure
  * functions over one cleaned track segment: circle fits, the curvature and
- * its uncertainty, path measures and the yaw / sway oscillation.  No I/O:
- * src/cli/cmd_measure.c reads CLEAN.csv and writes SUMMARY.json.
+ * its uncertainty, path measures and the yaw / sway oscillation (circle.c,
+ * run.c); and the stage's driver (driver.c), which streams CLEAN.csv one
+ * segment at a time through formats/clean.h into the runs of SUMMARY.json
+ * (formats/summary.h), the only part that reads a file.
  *
  * Units are SI and in the names (x_m, t_s, heading_rad); angles that reach
  * the user are in degrees and say so (arc_deg).  Signs follow the tank frame
@@ -23,7 +25,9 @@
 
 #include <stddef.h>
 
+#include "core/diag.h"
 #include "core/err.h"
+#include "formats/summary.h"
 
 /* ---- circle fits ------------------------------------------------------ */
 
@@ -137,31 +141,38 @@ typedef struct {
 
 void wl_measure_opts_init(wl_measure_opts *o);
 
-/* Every value is NaN when it could not be computed (too few points, no
- * heading column...); the CLI writes those as null. */
-typedef struct {
-	size_t n_rows, n_measured, n_used; /* n_used: rows with a position */
-	double t_start_s, duration_s, tracked_fraction;
-	double path_length_m, net_displacement_m, straightness;
-	double mean_speed_mps, speed_sd_mps, mean_yaw_rate_degps, heading_drift_degps;
-	/* circle */
-	double curvature_per_m, curvature_se_per_m, curvature_ci95_per_m[2];
-	int straight;                  /* 1: radius_m is NaN */
-	double radius_m;               /* signed, NaN when straight */
-	double radius_body_diameters;  /* |radius| / body diameter, NaN when straight */
-	double centre_x_m, centre_y_m; /* NaN when straight */
-	double arc_deg, fit_rms_m;
-	double radius_taubin_m, radius_kasa_m; /* unsigned, for comparison */
-	int ar_order;                          /* order of the residual model behind the interval */
-	/* oscillation */
-	double yaw_osc_freq_hz, yaw_osc_amp_deg, yaw_osc_r2;
-	double sway_osc_freq_hz, sway_amp_m;
-} wl_measure_result;
+/* The measures of one run: the type SUMMARY.json carries (formats/summary.h).
+ * Every value is NaN when it could not be computed (too few points, no
+ * heading column...); the file has null there. */
+typedef wl_summary_measures wl_measure_result;
 
 /* Computes every measure of one run.  Fails (WL_EINVAL) only when fewer than
  * 5 rows have a position or times are not increasing; weaker data gives NaN
  * fields instead. */
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *out,
                          wl_err *err);
+
+/* ---- the stage: CLEAN.csv -> the runs of SUMMARY.json -------------------- */
+
+typedef struct {
+	wl_measure_opts run;       /* for every run */
+	double commanded_period_s; /* NaN: none; recorded and compared with the yaw period */
+	const wl_diag *diag;       /* a segment too short to measure is a warning */
+} wl_measure_clean_opts;
+
+void wl_measure_clean_opts_init(wl_measure_clean_opts *o);
+
+/* Measures every analysed segment (segment >= 0) of every robot in a
+ * CLEAN.csv, streaming: memory holds the open segment of each robot, not the
+ * file.  Each robot's rows must be in time order and each of its segments
+ * one block of rows.  *out (initialised here, released by the caller with
+ * wl_summary_release, also after a failure) gets one run per robot per
+ * segment sorted by id and segment, the longest segment of each robot marked
+ * headline.  No measurable segment at all is an error (WL_EFORMAT). */
+wl_status wl_measure_clean(const char *clean_path, const wl_measure_clean_opts *o, wl_summary *out,
+                           wl_err *err);
+/* Same over a buffer (name is used in messages). */
+wl_status wl_measure_clean_mem(const char *name, const char *data, size_t len, const wl_measure_clean_opts *o,
+                               wl_summary *out, wl_err *err);
 
 #endif

@@ -296,41 +296,6 @@ static void mean_sd(const double *v, size_t n, double *mean, double *sd)
 	*sd = m > 1 ? sqrt(ss / (m - 1)) : NAN;
 }
 
-static void result_init(wl_measure_result *r)
-{
-	double *d[] = {&r->t_start_s,
-	               &r->duration_s,
-	               &r->tracked_fraction,
-	               &r->path_length_m,
-	               &r->net_displacement_m,
-	               &r->straightness,
-	               &r->mean_speed_mps,
-	               &r->speed_sd_mps,
-	               &r->mean_yaw_rate_degps,
-	               &r->heading_drift_degps,
-	               &r->curvature_per_m,
-	               &r->curvature_se_per_m,
-	               &r->curvature_ci95_per_m[0],
-	               &r->curvature_ci95_per_m[1],
-	               &r->radius_m,
-	               &r->radius_body_diameters,
-	               &r->centre_x_m,
-	               &r->centre_y_m,
-	               &r->arc_deg,
-	               &r->fit_rms_m,
-	               &r->radius_taubin_m,
-	               &r->radius_kasa_m,
-	               &r->yaw_osc_freq_hz,
-	               &r->yaw_osc_amp_deg,
-	               &r->yaw_osc_r2,
-	               &r->sway_osc_freq_hz,
-	               &r->sway_amp_m};
-	memset(r, 0, sizeof *r);
-	for (size_t i = 0; i < sizeof d / sizeof d[0]; i++)
-		*d[i] = NAN;
-	r->straight = 1;
-}
-
 /* Path length, net displacement, straightness, speed, yaw rate, drift. */
 static void path_measures(const wl_measure_input *in, const double *x, const double *y, size_t m,
                           wl_measure_result *r, double *hd)
@@ -498,7 +463,7 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
 	size_t m = 0;
 	wl_geofit gf;
 	wl_status st = WL_OK;
-	result_init(r);
+	wl_summary_measures_init(r);
 	r->n_rows = in->n;
 	if (in->n < 5)
 		return wl_err_set(err, WL_EINVAL, "run of %zu rows: give at least 5", in->n);

@@ -3,7 +3,7 @@
  * the tank floor coloured by time (path_m.svg/.png) and heading and yaw
  * rate over time with the left-out parts shaded (heading.svg/.png).
  * Inputs are the files of the clean and measure stages (clean.csv,
- * summary.json), read through their formats only.
+ * summary.json), read through their readers in src/formats/.
  *
  * clean.csv is read twice: once to count the rows of each robot, once to
  * keep every k-th row, so memory stays bounded whatever the clip length.
@@ -12,12 +12,13 @@
 #include "report/report.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "core/angle.h"
-#include "core/csvio.h"
-#include "core/jsonio.h"
+#include "formats/clean.h"
+#include "formats/summary.h"
 
 #define MAX_IDS 64
 #define MAX_SPANS 512
@@ -43,7 +44,6 @@ typedef struct {
 typedef struct {
 	const char *path;
 	int pass;
-	int c_t, c_id, c_x, c_y, c_h, c_yr, c_seg;
 	track *tr;
 	size_t ntr;
 	double tmin, tmax;
@@ -65,14 +65,6 @@ static track *find_track(reader *r, const char *id, int create, wl_err *err, lon
 	memset(&r->tr[r->ntr], 0, sizeof r->tr[0]);
 	snprintf(r->tr[r->ntr].id, sizeof r->tr[0].id, "%s", id);
 	return &r->tr[r->ntr++];
-}
-
-static double cell(const wl_csv_row *row, int col)
-{
-	double v;
-	if (col < 0 || wl_csv_empty(row, col) || !wl_parse_double(row->fields[col], &v))
-		return NAN;
-	return v;
 }
 
 static wl_status alloc_track(track *t, wl_err *err)
@@ -99,36 +91,17 @@ static void track_free(track *t)
 	free(t->seg);
 }
 
-static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
+static wl_status on_row(const wl_clean_row *row, void *ctx, wl_err *err)
 {
-	static const char *const req[] = {"t_s", "id", "x_m", "y_m", "heading_rad", "segment", NULL};
 	reader *r = ctx;
 	track *tr;
-	double t, h;
-	long seg = -1;
-	if (row->index == 0) {
-		wl_status s = wl_csv_require(row, req, err);
-		if (s)
-			return wl_err_prefix(err, "%s:%ld", row->path, row->line);
-		r->c_t = wl_csv_col(row, "t_s");
-		r->c_id = wl_csv_col(row, "id");
-		r->c_x = wl_csv_col(row, "x_m");
-		r->c_y = wl_csv_col(row, "y_m");
-		r->c_h = wl_csv_col(row, "heading_rad");
-		r->c_yr = wl_csv_col(row, "yaw_rate_radps");
-		r->c_seg = wl_csv_col(row, "segment");
-		return WL_OK;
-	}
-	if ((size_t)r->c_id >= row->nfields)
-		return wl_err_set(err, WL_EFORMAT, "%s:%ld: row has no 'id' cell: check the file", row->path,
-		                  row->line);
-	tr = find_track(r, row->fields[r->c_id], r->pass == 0, err, row->line);
+	char id[64];
+	double t = row->t_s, h = row->heading_rad;
+	long seg = row->segment;
+	snprintf(id, sizeof id, "%ld", row->id);
+	tr = find_track(r, id, r->pass == 0, err, row->line);
 	if (!tr)
 		return r->pass == 0 ? err->code : WL_OK;
-	if (wl_csv_get_double(row, r->c_t, "t_s", &t, err))
-		return err->code;
-	if (!wl_csv_empty(row, r->c_seg) && wl_csv_get_long(row, r->c_seg, "segment", &seg, err))
-		return err->code;
 	if (r->pass == 0) {
 		tr->count++;
 		r->tmin = fmin(r->tmin, t);
@@ -145,7 +118,6 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 	}
 	tr->last_t = t;
 	/* heading unwrapped on every row, so that thinning cannot miss a wrap */
-	h = cell(row, r->c_h);
 	if (isfinite(h)) {
 		if (tr->have_h) {
 			double d = h - tr->prev_h;
@@ -163,10 +135,10 @@ static wl_status on_row(const wl_csv_row *row, void *ctx, wl_err *err)
 		if (tr->n >= m) /* segment changes past the budget: drop */
 			return WL_OK;
 		tr->t[tr->n] = t;
-		tr->x[tr->n] = cell(row, r->c_x);
-		tr->y[tr->n] = cell(row, r->c_y);
+		tr->x[tr->n] = row->x_m;
+		tr->y[tr->n] = row->y_m;
 		tr->hd[tr->n] = isfinite(h) ? (h + tr->off_h) / WL_DEG : NAN;
-		tr->yr[tr->n] = cell(row, r->c_yr) / WL_DEG;
+		tr->yr[tr->n] = row->yaw_rate_radps / WL_DEG;
 		tr->seg[tr->n] = (int)seg;
 		tr->n++;
 	}
@@ -178,58 +150,25 @@ typedef struct {
 	double cx, cy, r;
 } circle;
 
-static void id_text(const cJSON *v, char *buf, size_t cap)
-{
-	char num[WL_NUMBUF];
-	if (cJSON_IsString(v))
-		snprintf(buf, cap, "%s", v->valuestring);
-	else if (cJSON_IsNumber(v))
-		snprintf(buf, cap, "%s", wl_fmt_g(num, v->valuedouble, 12));
-	else
-		buf[0] = '\0';
-}
-
-static double num_or_nan(const cJSON *o, const char *k)
-{
-	const cJSON *v = cJSON_GetObjectItemCaseSensitive(o, k);
-	return cJSON_IsNumber(v) ? v->valuedouble : NAN;
-}
-
 /* Fitted circles of the non-straight runs that give a centre. */
 static wl_status read_circles(const char *path, circle *c, size_t cap, size_t *n, wl_err *err)
 {
-	cJSON *root = NULL;
-	const cJSON *runs, *run;
-	wl_status s = wl_json_load(path, &root, err);
+	wl_summary sum;
+	wl_status s = wl_summary_read(path, &sum, err);
 	*n = 0;
-	if (s)
-		return s;
-	runs = cJSON_GetObjectItemCaseSensitive(root, "runs");
-	if (!cJSON_IsArray(runs)) {
-		cJSON_Delete(root);
-		return wl_err_set(err, WL_EFORMAT,
-		                  "%s: no \"runs\" array: is this a summary.json of the measure stage?",
-		                  path);
-	}
-	cJSON_ArrayForEach(run, runs)
-	{
-		double cx = num_or_nan(run, "centre_x_m"), cy = num_or_nan(run, "centre_y_m");
-		double r = num_or_nan(run, "radius_m");
-		if (!isfinite(cx))
-			cx = num_or_nan(run, "center_x_m");
-		if (!isfinite(cy))
-			cy = num_or_nan(run, "center_y_m");
-		if (cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(run, "straight")) || !isfinite(cx) ||
-		    !isfinite(cy) || !isfinite(r) || *n == cap)
+	for (size_t i = 0; !s && i < sum.nruns && *n < cap; i++) {
+		const wl_summary_run *run = &sum.runs[i];
+		if (run->m.straight || !isfinite(run->m.centre_x_m) || !isfinite(run->m.centre_y_m) ||
+		    !isfinite(run->m.radius_m))
 			continue;
-		id_text(cJSON_GetObjectItemCaseSensitive(run, "id"), c[*n].id, sizeof c[*n].id);
-		c[*n].cx = cx;
-		c[*n].cy = cy;
-		c[*n].r = fabs(r);
+		snprintf(c[*n].id, sizeof c[*n].id, "%ld", run->id);
+		c[*n].cx = run->m.centre_x_m;
+		c[*n].cy = run->m.centre_y_m;
+		c[*n].r = fabs(run->m.radius_m);
 		(*n)++;
 	}
-	cJSON_Delete(root);
-	return WL_OK;
+	wl_summary_release(&sum);
+	return s;
 }
 
 static const wl_style GREY = {{0.55, 0.55, 0.55}, 1, 0.8, 0, WL_MARK_NONE, 0, 0};
@@ -415,7 +354,7 @@ wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scen
 	r->path = path;
 	r->tmin = INFINITY;
 	r->tmax = -INFINITY;
-	if ((s = wl_csv_read(path, on_row, r, err)))
+	if ((s = wl_clean_read(path, on_row, r, err)))
 		goto out;
 	if (r->ntr == 0) {
 		s = wl_err_set(err, WL_EFORMAT,
@@ -430,7 +369,7 @@ wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scen
 			goto out;
 	}
 	r->pass = 1;
-	if ((s = wl_csv_read(path, on_row, r, err)))
+	if ((s = wl_clean_read(path, on_row, r, err)))
 		goto out;
 	snprintf(path, sizeof path, "%s/summary.json", clip_dir);
 	if ((s = read_circles(path, cs, MAX_IDS * 4, &nc, err)))
@@ -449,41 +388,24 @@ out:
 	return s;
 }
 
-wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl_err *err)
+wl_status wl_report_scene_from_calib(const wl_cal_outline *outline, const wl_calib_point *pts, int npts,
+                                     wl_report_scene_buf *sb)
 {
-	cJSON *root = NULL;
-	const cJSON *a, *p;
-	size_t nout = 0, nmark = 0;
-	wl_status s;
+	size_t nmark = 0;
 	memset(sb, 0, sizeof *sb);
-	if ((s = wl_json_load(cal_path, &root, err)))
-		return s;
-	a = cJSON_GetObjectItemCaseSensitive(root, "tank_outline_m");
-	cJSON_ArrayForEach(p, a)
-	{
-		const cJSON *x = cJSON_GetArrayItem(p, 0), *y = cJSON_GetArrayItem(p, 1);
-		if (nout < 64 && cJSON_IsNumber(x) && cJSON_IsNumber(y)) {
-			sb->outline[nout][0] = x->valuedouble;
-			sb->outline[nout++][1] = y->valuedouble;
-		}
-	}
-	a = cJSON_GetObjectItemCaseSensitive(root, "points");
-	cJSON_ArrayForEach(p, a)
-	{
-		double x = wl_json_number_or(p, "x_m", NAN), y = wl_json_number_or(p, "y_m", NAN);
-		const char *id = wl_json_string_or(p, "id", NULL);
+	sb->scene.n_outline = (size_t)outline->n;
+	memcpy(sb->outline, outline->xy, sizeof sb->outline);
+	for (int i = 0; i < npts && nmark < WL_CAL_MAX_POINTS; i++) {
 		/* a marker's corners ("7.c0".."7.c3") would only clutter the map:
 		 * the plot shows marker centres with their ids */
-		if (id && strchr(id, '.'))
+		if (!wl_cal_point_is_centre(&pts[i]) || !isfinite(pts[i].x_m) || !isfinite(pts[i].y_m))
 			continue;
-		if (nmark < 256 && isfinite(x) && isfinite(y)) {
-			sb->markers[nmark][0] = x;
-			sb->markers[nmark][1] = y;
-			sb->ids[nmark++] = wl_json_string_or(p, "id", NULL);
-		}
+		sb->markers[nmark][0] = pts[i].x_m;
+		sb->markers[nmark][1] = pts[i].y_m;
+		snprintf(sb->idtext[nmark], sizeof sb->idtext[nmark], "%s", pts[i].id);
+		sb->ids[nmark] = sb->idtext[nmark];
+		nmark++;
 	}
-	sb->json = root;
-	sb->scene.n_outline = nout;
 	sb->scene.outline_m = (const double(*)[2])sb->outline;
 	sb->scene.n_markers = nmark;
 	sb->scene.markers_m = (const double(*)[2])sb->markers;
@@ -491,10 +413,26 @@ wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl
 	return WL_OK;
 }
 
+wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl_err *err)
+{
+	wl_cal_doc d;
+	wl_cal_outline o;
+	wl_calib_point *pts = malloc(WL_CAL_MAX_POINTS * sizeof *pts);
+	int n = 0;
+	wl_status s;
+	memset(sb, 0, sizeof *sb);
+	if (!pts)
+		return wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", cal_path);
+	s = wl_cal_doc_read(cal_path, &d, err);
+	if (!s && !(s = wl_cal_get_outline(&d, &o, err)) &&
+	    !(s = wl_cal_get_points(&d, pts, WL_CAL_MAX_POINTS, &n, err)))
+		wl_report_scene_from_calib(&o, pts, n, sb);
+	wl_cal_doc_release(&d);
+	free(pts);
+	return s;
+}
+
 void wl_report_scene_release(wl_report_scene_buf *sb)
 {
-	if (!sb)
-		return;
-	cJSON_Delete(sb->json);
-	sb->json = NULL;
+	(void)sb; /* nothing on the heap; kept so that callers need no change when there is */
 }

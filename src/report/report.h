@@ -6,7 +6,8 @@
  * many clips, and the self-contained report.html.
  *
  * Pipeline position: after measure (reads CLEAN.csv and SUMMARY.json through
- * their file formats, see DEVELOPERS.md), before batch (which calls it).
+ * their readers in src/formats/), before the pipeline and batch (which call
+ * it).
  *
  * Ownership: wl_plot_create returns a plot that wl_plot_destroy frees
  * (NULL is fine).  Every wl_plot_add_* copies the arrays it is given.
@@ -28,6 +29,7 @@
 #include <stddef.h>
 
 #include "core/err.h"
+#include "formats/cal.h"
 
 /* ---- ticks, scales, colours (pure functions) ---------------------------- */
 
@@ -163,27 +165,30 @@ typedef struct {
 	double body_diameter_m;        /* 0 if unknown */
 } wl_report_scene;
 
-/* A scene read from CAL.json (keys "tank_outline_m": [[x, y], ...] and
- * "points": [{"id", "x_m", "y_m"}, ...]), with the storage it points into.
- * wl_report_scene_load fills sb->scene; a missing or unreadable file gives an
- * empty scene (the plots do without) and returns the error for the caller
- * to show or ignore.  wl_report_scene_release frees what load kept. */
+/* A scene from CAL.json's tank outline and floor markers (formats/cal.h),
+ * with the storage it points into.  wl_report_scene_load reads the file and
+ * fills sb->scene; a missing or unreadable file gives an empty scene (the
+ * plots do without) and returns the error for the caller to show or ignore.
+ * wl_report_scene_from_calib builds it from parts already read (a loaded
+ * calibration), so that a clip's CAL.json is read once.
+ * wl_report_scene_release frees what they keep. */
 typedef struct {
 	wl_report_scene scene;
-	double outline[64][2], markers[256][2];
-	const char *ids[256];
-	void *json; /* the parsed file the id strings live in */
+	double outline[WL_CAL_MAX_OUTLINE][2], markers[WL_CAL_MAX_POINTS][2];
+	char idtext[WL_CAL_MAX_POINTS][32];
+	const char *ids[WL_CAL_MAX_POINTS];
 } wl_report_scene_buf;
 
 wl_status wl_report_scene_load(const char *cal_path, wl_report_scene_buf *sb, wl_err *err);
+wl_status wl_report_scene_from_calib(const wl_cal_outline *outline, const wl_calib_point *pts, int npts,
+                                     wl_report_scene_buf *sb);
 void wl_report_scene_release(wl_report_scene_buf *sb);
 
-/* Reads `clip_dir`/clean.csv and `clip_dir`/summary.json (the formats in
- * DEVELOPERS.md) and writes path_m.svg, path_m.png, heading.svg and
+/* Reads `clip_dir`/clean.csv and `clip_dir`/summary.json (formats/clean.h,
+ * formats/summary.h) and writes path_m.svg, path_m.png, heading.svg and
  * heading.png into clip_dir.  Memory stays bounded: long tracks are thinned
  * to at most WL_REPORT_MAX_POINTS points per robot for drawing.
- * The fitted circle is drawn for each non-straight run whose summary gives a
- * centre (keys centre_x_m / centre_y_m, or center_x_m / center_y_m). */
+ * The fitted circle is drawn for each non-straight run with a centre. */
 #define WL_REPORT_MAX_POINTS 20000
 wl_status wl_report_clip_plots(const char *clip_dir, const wl_report_scene *scene, wl_err *err);
 

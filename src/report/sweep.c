@@ -13,6 +13,7 @@
 #include <string.h>
 
 #include "core/csvio.h"
+#include "formats/summary.h"
 
 #define MAX_GROUPS 32
 #define MAX_CATS 256
@@ -89,11 +90,13 @@ static wl_status collect(const wl_report_runs *t, const wl_report_sweep_opts *o,
 {
 	int cx = wl_report_runs_col(t, o->x_col),
 	    cg = o->group_col ? wl_report_runs_col(t, o->group_col) : -1;
-	int ck = wl_report_runs_col(t, "curvature_per_m"),
-	    clo = wl_report_runs_col(t, "curvature_ci95_per_m_lo");
-	int chi = wl_report_runs_col(t, "curvature_ci95_per_m_hi"), cr = wl_report_runs_col(t, "radius_m");
-	int crb = wl_report_runs_col(t, "radius_body_diameters"), ch = wl_report_runs_col(t, "headline");
-	int cs = wl_report_runs_col(t, "straight");
+	int ck = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_CURVATURE)),
+	    clo = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_CURVATURE_LO));
+	int chi = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_CURVATURE_HI)),
+	    cr = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS));
+	int crb = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS_BODY)),
+	    ch = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_HEADLINE));
+	int cs = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_STRAIGHT));
 	size_t i, numeric = 1;
 
 	if (cx < 0)

@@ -104,7 +104,7 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 	wl_status st;
 	if (row->index == 0) {
 		if ((st = wl_csv_require(row, req, err)) != WL_OK)
-			return wl_err_prefix(err, "%s", row->path);
+			return wl_err_prefix(err, st, "%s", row->path);
 		c->c_id = wl_csv_col(row, "id");
 		c->c_plane = wl_csv_col(row, "plane_height_m");
 		c->c_off = wl_csv_col(row, "heading_offset_rad");
@@ -172,18 +172,4 @@ wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err)
 		return wl_err_set(err, WL_EFORMAT, "%s: no robots listed: add rows id,...", path);
 	o->restrict_ids = 1;
 	return WL_OK;
-}
-
-const char *wl_heading_source_name(wl_heading_source s)
-{
-	switch (s) {
-	case WL_HS_TAG:
-		return "tag";
-	case WL_HS_CAPS:
-		return "caps";
-	case WL_HS_MOTION:
-		return "motion";
-	default:
-		return "";
-	}
 }

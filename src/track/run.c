@@ -167,6 +167,28 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 	return WL_OK;
 }
 
+/* One frame's observations as RAW.csv rows. */
+static void put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)
+{
+	for (int i = 0; i < n; i++) {
+		const wl_track_obs *o = &obs[i];
+		wl_raw_row r = {t_s,
+		                frame,
+		                o->id,
+		                o->ok ? WL_RAW_OK : WL_RAW_LOST,
+		                o->u_px,
+		                o->v_px,
+		                o->x_m,
+		                o->y_m,
+		                o->heading_rad,
+		                o->margin,
+		                o->size_px,
+		                o->heading_source,
+		                0};
+		wl_raw_put(w, &r);
+	}
+}
+
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
                        const char *cal_path, wl_track_summary *sum, wl_err *err)
 {
@@ -229,7 +251,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		memcpy(img.roi, s->roi, sizeof img.roi);
 		if ((st = wl_tracker_frame(tr, &img, &obs, &n, err)) != WL_OK)
 			goto out;
-		wl_raw_put(raw, s->t_s, s->index, obs, n);
+		put_rows(raw, s->t_s, s->index, obs, n);
 		if (qc && (st = wl_qc_frame(qc, tr, &img, obs, n, err)) != WL_OK)
 			goto out;
 		sum->frames++;

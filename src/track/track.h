@@ -31,6 +31,7 @@
 
 #include "calib/calib.h"
 #include "core/err.h"
+#include "formats/raw.h"
 
 #define WL_TRACK_MAX_ROBOTS 64
 
@@ -93,9 +94,6 @@ int wl_track_parse_hsv(const char *s, int out[3]);
 wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err);
 
 /* ---- one frame's detection result ---- */
-
-typedef enum { WL_HS_NONE = 0, WL_HS_TAG, WL_HS_CAPS, WL_HS_MOTION } wl_heading_source;
-const char *wl_heading_source_name(wl_heading_source s);
 
 typedef struct {
 	int id;
@@ -218,16 +216,6 @@ typedef struct {
 } wl_hsv_stats;
 void wl_hsv_region_stats(const uint8_t *rgb, int stride, int x0, int y0, int w, int h, const uint8_t *mask,
                          wl_hsv_stats *st);
-
-/* ---- RAW.csv ---- */
-
-typedef struct wl_raw_writer wl_raw_writer;
-/* Opens RAW.csv atomically and writes the header. */
-wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err);
-void wl_raw_put(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n);
-/* Commits (renames into place) and frees; abort removes the temp and frees. */
-wl_status wl_raw_commit(wl_raw_writer *w, wl_err *err);
-void wl_raw_abort(wl_raw_writer *w);
 
 /* ---- quality-control pictures: the trail PNG and the overlay clip ---- */
 

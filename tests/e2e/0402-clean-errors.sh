@@ -42,7 +42,7 @@ rc=0; "$WAKELINE" clean "$T/dup.csv" -o "$T/o.csv" --smoother sg --sg-window 4 2
 rc=0; "$WAKELINE" clean "$T/dup.csv" -o "$T/o.csv" --tank 1,1,0,0 2>/dev/null || rc=$?; [ "$rc" -eq 2 ] || fail "bad --tank: exit $rc"
 "$WAKELINE" clean --help | grep -q "usage: wakeline clean" || fail "--help"
 # a CAL.json with a broken outline is an error too
-echo '{"tank_outline_m": [[0,0],[1,0]]}' > "$T/cal.json"
+echo '{"format": "wakeline-calibration", "format_version": 1, "tank_outline_m": [[0,0],[1,0]]}' > "$T/cal.json"
 { echo "$H"; good 0.0 0; good 0.1 1; } > "$T/ok.csv"
 rc=0; "$WAKELINE" clean "$T/ok.csv" -o "$T/o.csv" --cal "$T/cal.json" 2> "$T/err.txt" || rc=$?
 [ "$rc" -eq 1 ] && grep -q "tank_outline_m" "$T/err.txt" || fail "bad outline accepted"

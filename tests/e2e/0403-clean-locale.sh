@@ -8,7 +8,7 @@ fail() { echo "FAIL: $*" >&2; exit 1; }
 locale -a 2>/dev/null | grep -qi '^de_DE\.utf-\?8$' || fail "locale de_DE.UTF-8 missing: run scripts/setup"
 /usr/bin/python3 "$WL_SOURCE_DIR/tests/clean/synth_raw.py" --seed 11 --outliers 0.02 --gap 5,0.2 \
 	--out "$T/raw.csv" --truth "$T/truth.csv" > /dev/null
-echo '{"tank_outline_m": [[0, 0], [1.0, 0], [1.0, 1.2], [0, 1.2]], "other": 1}' > "$T/cal.json"
+echo '{"format": "wakeline-calibration", "format_version": 1, "tank_outline_m": [[0, 0], [1.0, 0], [1.0, 1.2], [0, 1.2]], "other": 1}' > "$T/cal.json"
 for smoother in rts sg; do
 	LC_ALL=C "$WAKELINE" clean -q "$T/raw.csv" -o "$T/c.csv" --cal "$T/cal.json" --smoother $smoother --rate 25
 	LC_ALL=de_DE.UTF-8 "$WAKELINE" clean -q "$T/raw.csv" -o "$T/de.csv" -j "$T/de.json" --cal "$T/cal.json" \

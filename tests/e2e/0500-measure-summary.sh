@@ -104,7 +104,7 @@ near(s["trim_start_s"], 0.0, 1e-9, "straight trim")
 near(s["yaw_osc_freq_hz"], 1.2, 0.02, "straight yaw frequency")
 near(s["tracked_fraction"], 1.0, 1e-12, "straight tracked")
 rows = list(csv.DictReader(open(sys.argv[2])))
-assert len(rows) == 3 and rows[1]["headline"] == "1" and rows[2]["straight"] == "1", rows
+assert len(rows) == 3 and rows[1]["headline"] == "true" and rows[2]["straight"] == "true", rows
 near(float(rows[1]["radius_m"]), c1["radius_m"], 1e-8, "csv radius")
 assert rows[2]["radius_m"] == ""
 print("summary ok")

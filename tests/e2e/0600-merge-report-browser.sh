@@ -34,7 +34,7 @@ def clip(name, rel, gain, shape, robots):
         runs.append({"id": rid, "segment": 0, "headline": True, "radius_m": r, "curvature_per_m": k,
                      "curvature_ci95_per_m": [k * 0.95, k * 1.05], "straight": False, "fit_rms_m": 0.001,
                      "arc_deg": 515.0, "radius_body_diameters": r / 0.08, "centre_x_m": 1, "centre_y_m": 0.6})
-    json.dump({"runs": runs}, open(d + "/summary.json", "w"))
+    json.dump({"format": "wakeline summary", "format_version": 1, "runs": runs}, open(d + "/summary.json", "w"))
     json.dump({"clip": rel, "status": "ok", "error": "", "params": {"gain": gain, "shape": shape}},
               open(d + "/clip.json", "w"))
 clip("g1_mp4", "g1.mp4", "0.25", "round", [(3, 0.9)])

@@ -1,71 +1,27 @@
-/* fuzz_clean.c: libFuzzer target for the CLEAN.csv reader of the measure
- * stage.  That reader is part of the command (src/cli/cmd_measure.c, which
- * streams the file one segment at a time), so the target includes the
- * command's source and runs `measure FILE -o OUT -q` on a memfd, with the
- * CLI helpers of src/cli/cli.c replaced by silent ones (the real cli_finish
- * closes stdout).  The summary goes to a scratch file in /dev/shm. */
-#define _GNU_SOURCE
-#include <stdarg.h>
+/* fuzz_clean.c: libFuzzer target for the CLEAN.csv reader (formats/clean.h)
+ * and the measure stage's driver over whatever it accepts
+ * (wl_measure_clean_mem, src/measure/driver.c), then the SUMMARY.json it
+ * would write, read back (formats/summary.h).  Library code only. */
 #include <stddef.h>
 #include <stdint.h>
-#include <stdio.h>
-#include <unistd.h>
 
-#include "../../src/cli/cmd_measure.c"
-#include "fuzz_file.h"
-
-int cli_fail(const char *cmd, const wl_err *err)
-{
-	(void)cmd;
-	(void)err;
-	return WL_EXIT_FAIL;
-}
-
-int cli_usage_error(const char *cmd, const char *fmt, ...)
-{
-	(void)cmd;
-	(void)fmt;
-	return WL_EXIT_USAGE;
-}
-
-void cli_warn(const char *cmd, const char *fmt, ...)
-{
-	(void)cmd;
-	(void)fmt;
-}
-
-int cli_parse_double(const char *s, double *out)
-{
-	return wl_parse_double(s, out);
-}
-
-int cli_finish(const char *cmd, int status)
-{
-	(void)cmd;
-	return status;
-}
+#include "measure/measure.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
-	char path[64], out[64], csv[64];
-	char *argv[8];
-	int fd = fuzz_memfile(data, size, path, sizeof path);
-	if (fd < 0)
+	wl_measure_clean_opts o;
+	wl_summary s;
+	wl_err err;
+	char cell[WL_SUMMARY_CELL];
+	if (size > 65536)
 		return 0;
-	snprintf(out, sizeof out, "/dev/shm/wl-fuzz-measure-%d.json", (int)getpid());
-	snprintf(csv, sizeof csv, "/dev/shm/wl-fuzz-measure-%d.csv", (int)getpid());
-	argv[0] = "measure";
-	argv[1] = path;
-	argv[2] = "-o";
-	argv[3] = out;
-	argv[4] = "--csv";
-	argv[5] = csv;
-	argv[6] = "-q";
-	argv[7] = NULL;
-	(void)cmd_measure(7, argv);
-	close(fd);
-	unlink(out);
-	unlink(csv);
+	wl_measure_clean_opts_init(&o);
+	o.commanded_period_s = 0.8;
+	if (wl_measure_clean_mem("CLEAN.csv", (const char *)data, size, &o, &s, &err) == WL_OK)
+		for (size_t i = 0; i < s.nruns; i++)
+			for (int c = 0; c < WL_SUMCOL_N; c++)
+				(void)wl_summary_cell(&s.runs[i], (wl_summary_col)c, cell, sizeof cell);
+	wl_summary_release(&s);
 	return 0;
 }

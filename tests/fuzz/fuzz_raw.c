@@ -17,7 +17,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 	if (wl_clean_raw_read_mem("RAW.csv", (const char *)data, size, &raw, &err) != WL_OK)
 		return 0;
 	wl_clean_params_init(&p);
-	(void)wl_clean_run(raw, &p, &res, &err);
+	(void)wl_clean_run(raw, &p, NULL, &res, &err);
 	wl_clean_result_release(&res);
 	wl_clean_raw_destroy(raw);
 	return 0;

@@ -130,15 +130,20 @@ static void test_manifest(void **state)
 	assert_int_equal(wl_manifest_load(path, &m, &err), WL_OK);
 	assert_int_equal(m.nrows, 2);
 	assert_int_equal(m.c_clip, 0);
-	assert_int_equal(m.c_cal, 2);
-	assert_int_equal(m.c_plane, 3);
 	r = wl_manifest_find(&m, "a.mp4");
 	assert_non_null(r);
 	assert_int_equal(r->line, 2);
 	assert_string_equal(r->values[1], "0.5");
+	/* option columns: paths relative to the manifest's folder, numbers read */
+	assert_non_null(r->opts.cal);
+	assert_non_null(strstr(r->opts.cal, "/m/cal2.json"));
+	assert_true(fabs(r->opts.plane_height_m - 0.02) < 1e-15);
+	assert_int_equal(r->opts.mode, WL_MF_MODE_UNSET);
 	r = wl_manifest_find(&m, "sub/b.mp4");
 	assert_non_null(r);
 	assert_int_equal(r->line, 4);
+	assert_null(r->opts.cal);
+	assert_true(isnan(r->opts.plane_height_m));
 	wl_manifest_release(&m);
 
 	manifest_error("file,gain\na.mp4,1\n", "bad.csv:1:", "no 'clip' column");
@@ -146,6 +151,9 @@ static void test_manifest(void **state)
 	manifest_error("clip,gain\na.mp4,1\nb.mp4\n", "bad.csv:3:", "1 cells but the header has 2");
 	manifest_error("clip,plane_height_m\na.mp4,abc\n", "bad.csv:2", "plane_height_m");
 	manifest_error("clip,gain\n,1\n", "bad.csv:2:", "empty 'clip'");
+	manifest_error("clip,mode\na.mp4,colr\n", "bad.csv:2:", "column 'mode': 'colr' is not tag or colour");
+	manifest_error("clip,trim\na.mp4,soon\n", "bad.csv:2:", "column 'trim'");
+	manifest_error("clip,body_diameter_m\na.mp4,-0.1\n", "bad.csv:2:", "a number > 0");
 	manifest_error("clip,gain,gain\n", "bad.csv:1:", "'gain' appears twice");
 	manifest_error("", "bad.csv:1:", "empty manifest");
 }
@@ -237,7 +245,7 @@ static wl_status fake_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	}
 	fclose(fp);
 	snprintf(buf, sizeof buf,
-	         "{\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_per_m\":%"
+	         "{\"format\":\"wakeline summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_per_m\":%"
 	         "s,"
 	         "\"curvature_ci95_per_m\":[1.9,2.1],\"straight\":false,\"centre_x_m\":0,\"centre_y_m\":0}]}"
 	         "\n",

@@ -407,7 +407,7 @@ static void test_stage_synthetic(void **state)
 	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
 	wl_clean_params_init(&p);
 	p.trim = WL_TRIM_NONE;
-	assert_int_equal(wl_clean_run(raw, &p, &res, &err), WL_OK);
+	assert_int_equal(wl_clean_run(raw, &p, NULL, &res, &err), WL_OK);
 	assert_int_equal(res.nrows, N);
 	for (size_t i = 0; i < res.nrows; i++) {
 		const wl_clean_row *r = &res.rows[i];
@@ -464,14 +464,13 @@ static void stage_moving(int move, wl_clean_result *res)
 	len += (size_t)snprintf(text + len, sizeof text - len, HDR);
 	for (int i = 0; i < N; i++) {
 		double t = i / 30.0, s = move && t > 1 ? 0.14 * (t - 1) : 0;
-		len += (size_t)snprintf(text + len, sizeof text - len,
-		                        "%.6f,%d,4,0,0,%.6f,%.6f,,ok,50,30,blob\n", t, i,
-		                        0.5 + s + 0.003 * nrand(), 0.4 + 0.003 * nrand());
+		len += (size_t)snprintf(text + len, sizeof text - len, "%.6f,%d,4,0,0,%.6f,%.6f,,ok,50,30,\n",
+		                        t, i, 0.5 + s + 0.003 * nrand(), 0.4 + 0.003 * nrand());
 	}
 	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
 	wl_clean_params_init(&p);
 	p.q_pos = 10;
-	assert_int_equal(wl_clean_run(raw, &p, res, &err), WL_OK);
+	assert_int_equal(wl_clean_run(raw, &p, NULL, res, &err), WL_OK);
 	wl_clean_raw_destroy(raw);
 }
 

@@ -337,7 +337,7 @@ static void make_clip_folder(const char *dir, int nrows)
 	}
 	fclose(fp);
 	snprintf(path, sizeof path, "%s/summary.json", dir);
-	write_text(path, "{\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
+	write_text(path, "{\"format\":\"wakeline summary\",\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
 	                 "\"curvature_per_m\":2.5,\"curvature_ci95_per_m\":[2.4,2.6],\"straight\":false,"
 	                 "\"centre_x_m\":1,\"centre_y_m\":0.5}]}\n");
 }
@@ -380,16 +380,22 @@ static void test_scene_load(void **state)
 	wl_err err;
 	(void)state;
 	snprintf(path, sizeof path, "%s/cal.json", tmpdir);
-	write_text(
-	        path,
-	        "{\"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
-	        " \"points\": [{\"id\": \"M1\", \"x_m\": 0.1, \"y_m\": 0.2}, {\"id\": \"M2\", \"x_m\": 2.3,"
-	        " \"y_m\": 1.3}, {\"id\": \"bad\"}]}\n");
+	write_text(path, "{\"format\": \"wakeline-calibration\", \"format_version\": 1,"
+	                 " \"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
+	                 " \"points\": [{\"id\": \"M1\", \"u_px\": 10, \"v_px\": 20, \"x_m\": 0.1, \"y_m\": 0.2},"
+	                 " {\"id\": \"M2\", \"u_px\": 900, \"v_px\": 500, \"x_m\": 2.3, \"y_m\": 1.3},"
+	                 " {\"id\": \"M2.c0\", \"u_px\": 905, \"v_px\": 505, \"x_m\": 2.32, \"y_m\": 1.32}]}\n");
 	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
 	assert_int_equal(sb.scene.n_outline, 4);
 	assert_true(sb.scene.outline_m[2][0] == 2.4 && sb.scene.outline_m[2][1] == 1.4);
 	assert_int_equal(sb.scene.n_markers, 2);
-	assert_string_equal(sb.scene.marker_ids[1], "M2");
+	assert_string_equal(sb.scene.marker_ids[1], "M2"); /* the corner point is left out */
+	wl_report_scene_release(&sb);
+	/* a point without its numbers breaks CAL.json's one rule (formats/cal.h) */
+	write_text(path, "{\"format\": \"wakeline-calibration\", \"tank_outline_m\": [],"
+	                 " \"points\": [{\"id\": \"bad\"}]}\n");
+	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_EFORMAT);
+	assert_non_null(strstr(err.msg, "points[0]"));
 	wl_report_scene_release(&sb);
 	snprintf(path, sizeof path, "%s/nope.json", tmpdir);
 	assert_int_not_equal(wl_report_scene_load(path, &sb, &err), WL_OK);

@@ -4,7 +4,6 @@
  * against OpenCV, blob centroids, options and RAW.csv.
  */
 #define _POSIX_C_SOURCE 200809L
-#include <locale.h>
 #include <math.h>
 #include <setjmp.h>
 #include <stdarg.h>
@@ -360,45 +359,6 @@ static void test_ids_and_robots(void **state)
 	assert_int_equal(wl_track_load_robots(path, &o, &e), WL_EFORMAT);
 	assert_non_null(strstr(e.msg, "twice"));
 	unlink(path);
-}
-
-static void test_raw_writer(void **state)
-{
-	char path[512], *text = NULL;
-	size_t len;
-	wl_raw_writer *w = NULL;
-	wl_track_obs obs[2];
-	(void)state;
-	/* numbers must keep '.' decimals under a decimal-comma locale */
-	setlocale(LC_NUMERIC, "de_DE.UTF-8");
-	snprintf(path, sizeof path, "%s/raw.csv", tmpdir);
-	memset(obs, 0, sizeof obs);
-	obs[0] = (wl_track_obs){.id = 3,
-	                        .ok = 1,
-	                        .u_px = 10.25,
-	                        .v_px = 20.5,
-	                        .x_m = 0.125,
-	                        .y_m = -0.5,
-	                        .heading_rad = 1.5,
-	                        .margin = 80.0,
-	                        .size_px = 41.5,
-	                        .heading_source = WL_HS_TAG};
-	obs[1] = (wl_track_obs){.id = 7, .ok = 0};
-	assert_int_equal(wl_raw_open(path, &w, NULL), WL_OK);
-	wl_raw_put(w, 0.033367, 1, obs, 2);
-	assert_int_equal(wl_raw_commit(w, NULL), WL_OK);
-	setlocale(LC_NUMERIC, "C");
-	assert_int_equal(wl_read_file(path, 1 << 20, &text, &len, NULL), WL_OK);
-	assert_string_equal(
-	        text, "t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source\n"
-	              "0.033367,1,3,10.250,20.500,0.125000,-0.500000,1.500000,ok,80.00,41.50,tag\n"
-	              "0.033367,1,7,,,,,,lost,,,\n");
-	free(text);
-	/* abort leaves no file */
-	unlink(path);
-	assert_int_equal(wl_raw_open(path, &w, NULL), WL_OK);
-	wl_raw_abort(w);
-	assert_int_equal(access(path, F_OK), -1);
 }
 
 /* ---- the tracker on rendered sequences ---- */
@@ -875,7 +835,6 @@ int main(void)
 	        cmocka_unit_test(test_blob_centroid),
 	        cmocka_unit_test(test_hsv_stats),
 	        cmocka_unit_test(test_ids_and_robots),
-	        cmocka_unit_test(test_raw_writer),
 	        cmocka_unit_test(test_tracker_ccw),
 	        cmocka_unit_test(test_tracker_rotation_metadata),
 	        cmocka_unit_test(test_tracker_close_pass),

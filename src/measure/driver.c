@@ -1,0 +1,255 @@
+/*
+ * driver.c: the measure stage's driver (see measure.h, wl_measure_clean).
+ * Streams CLEAN.csv through formats/clean.h, takes the rows of segment >= 0,
+ * gathers one segment of one robot at a time, hands it to wl_measure_run as
+ * soon as it ends, and returns one run per robot per segment, the longest
+ * segment of each robot marked headline.  Memory holds the open segment of
+ * each robot, not the whole file.
+ */
+#define _POSIX_C_SOURCE 200809L
+#include "measure/measure.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "formats/clean.h"
+
+/* The rows of one open segment of one robot. */
+typedef struct {
+	long id;
+	double first_t_s, last_t_s;
+	long seg_line, segment;
+	size_t n, cap;
+	double *t, *x, *y, *h, *sp, *yr;
+	unsigned char *meas;
+} robot;
+
+typedef struct {
+	const char *path;
+	const wl_measure_clean_opts *o;
+	robot *robots;
+	size_t nrobots;
+	wl_summary *out;
+	long *first_line; /* of each run, for the message about a repeated segment */
+	size_t caprun;
+	int skipped;
+} ctx;
+
+void wl_measure_clean_opts_init(wl_measure_clean_opts *o)
+{
+	memset(o, 0, sizeof *o);
+	wl_measure_opts_init(&o->run);
+	o->commanded_period_s = NAN;
+}
+
+static void robot_release(robot *r)
+{
+	free(r->t);
+	free(r->x);
+	free(r->y);
+	free(r->h);
+	free(r->sp);
+	free(r->yr);
+	free(r->meas);
+}
+
+static wl_status robot_grow(robot *r, wl_err *err)
+{
+	size_t cap = r->cap ? 2 * r->cap : 1024;
+	double **arr[] = {&r->t, &r->x, &r->y, &r->h, &r->sp, &r->yr};
+	unsigned char *m;
+	for (size_t i = 0; i < sizeof arr / sizeof arr[0]; i++) {
+		double *p = realloc(*arr[i], cap * sizeof **arr[i]);
+		if (!p)
+			return wl_err_set(err, WL_ENOMEM, "out of memory for a segment of %zu rows", cap);
+		*arr[i] = p;
+	}
+	m = realloc(r->meas, cap);
+	if (!m)
+		return wl_err_set(err, WL_ENOMEM, "out of memory for a segment of %zu rows", cap);
+	r->meas = m;
+	r->cap = cap;
+	return WL_OK;
+}
+
+static wl_status add_run(ctx *c, wl_summary_run **o, wl_err *err)
+{
+	wl_summary *s = c->out;
+	if (s->nruns == c->caprun) {
+		size_t cap = c->caprun ? 2 * c->caprun : 16;
+		wl_summary_run *p = realloc(s->runs, cap * sizeof *p);
+		long *l;
+		if (!p)
+			return wl_err_set(err, WL_ENOMEM, "out of memory for %zu runs", cap);
+		s->runs = p;
+		if (!(l = realloc(c->first_line, cap * sizeof *l)))
+			return wl_err_set(err, WL_ENOMEM, "out of memory for %zu runs", cap);
+		c->first_line = l;
+		c->caprun = cap;
+	}
+	*o = &s->runs[s->nruns];
+	memset(*o, 0, sizeof **o);
+	return WL_OK;
+}
+
+/* Measures the open segment of r and empties it.  A segment too short to
+ * measure is skipped with a warning; a repeated (id, segment) is an error. */
+static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
+{
+	wl_measure_input in = {r->n, r->t, r->x, r->y, r->h, r->sp, r->yr, r->meas};
+	wl_summary_run *o = NULL;
+	wl_status st;
+	wl_err e2;
+	if (r->n == 0)
+		return WL_OK;
+	for (size_t i = 0; i < c->out->nruns; i++)
+		if (c->out->runs[i].id == r->id && c->out->runs[i].segment == r->segment)
+			return wl_err_set(
+			        err, WL_EFORMAT,
+			        "%s:%ld: segment %ld of id %ld starts again after other rows "
+			        "(first at line %ld): give each segment of a robot one block of rows",
+			        c->path, r->seg_line, r->segment, r->id, c->first_line[i]);
+	if ((st = add_run(c, &o, err)))
+		return st;
+	wl_err_clear(&e2);
+	if (wl_measure_run(&in, &c->o->run, &o->m, &e2) != WL_OK) {
+		wl_diag_warn(c->o->diag, "measure", "%s:%ld: id %ld segment %ld not measured: %s", c->path,
+		             r->seg_line, r->id, r->segment, e2.msg);
+		c->skipped++;
+	} else {
+		o->id = r->id;
+		o->segment = r->segment;
+		o->trim_start_s = r->t[0] - r->first_t_s;
+		o->commanded_period_s = c->o->commanded_period_s;
+		c->first_line[c->out->nruns] = r->seg_line;
+		c->out->nruns++;
+	}
+	r->n = 0;
+	return WL_OK;
+}
+
+static robot *find_robot(ctx *c, long id, wl_err *err)
+{
+	robot *p;
+	for (size_t i = 0; i < c->nrobots; i++)
+		if (c->robots[i].id == id)
+			return &c->robots[i];
+	p = realloc(c->robots, (c->nrobots + 1) * sizeof *p);
+	if (!p) {
+		wl_err_set(err, WL_ENOMEM, "out of memory for robot %ld", id);
+		return NULL;
+	}
+	c->robots = p;
+	p = &c->robots[c->nrobots++];
+	memset(p, 0, sizeof *p);
+	p->id = id;
+	p->first_t_s = NAN;
+	p->last_t_s = -INFINITY;
+	p->segment = -1;
+	return p;
+}
+
+static wl_status on_row(const wl_clean_row *row, void *vctx, wl_err *err)
+{
+	ctx *c = vctx;
+	robot *r;
+	wl_status st;
+	size_t k;
+	if (!(r = find_robot(c, row->id, err)))
+		return WL_ENOMEM;
+	if (!(row->t_s > r->last_t_s))
+		return wl_err_set(
+		        err, WL_EFORMAT,
+		        "%s:%ld: t_s %.6f of id %ld is not after its previous row's %.6f: sort the rows "
+		        "by time",
+		        c->path, row->line, row->t_s, row->id, r->last_t_s);
+	r->last_t_s = row->t_s;
+	if (isnan(r->first_t_s))
+		r->first_t_s = row->t_s;
+	if (r->n > 0 && row->segment != r->segment && (st = finish_segment(c, r, err)))
+		return st;
+	if (row->segment < 0)
+		return WL_OK;
+	if (r->n == 0) {
+		r->segment = row->segment;
+		r->seg_line = row->line;
+	}
+	if (r->n == r->cap && (st = robot_grow(r, err)))
+		return st;
+	k = r->n++;
+	r->t[k] = row->t_s, r->x[k] = row->x_m, r->y[k] = row->y_m, r->h[k] = row->heading_rad;
+	r->sp[k] = row->speed_mps, r->yr[k] = row->yaw_rate_radps;
+	r->meas[k] = row->status == WL_ST_MEASURED;
+	return WL_OK;
+}
+
+static int run_cmp(const void *pa, const void *pb)
+{
+	const wl_summary_run *a = pa, *b = pb;
+	if (a->id != b->id)
+		return a->id < b->id ? -1 : 1;
+	return a->segment < b->segment ? -1 : a->segment > b->segment;
+}
+
+static void mark_headlines(wl_summary *s)
+{
+	for (size_t i = 0; i < s->nruns;) {
+		size_t j = i, best = i;
+		for (; j < s->nruns && s->runs[j].id == s->runs[i].id; j++)
+			if (s->runs[j].m.duration_s > s->runs[best].m.duration_s)
+				best = j;
+		s->runs[best].headline = 1;
+		i = j;
+	}
+}
+
+static wl_status run(const char *name, const wl_measure_clean_opts *o, wl_summary *out, const char *data,
+                     size_t len, wl_err *err)
+{
+	ctx c;
+	wl_status st;
+	memset(&c, 0, sizeof c);
+	c.path = name;
+	c.o = o;
+	c.out = out;
+	wl_summary_init(out);
+	out->body_diameter_m = o->run.body_diameter_m;
+	out->commanded_period_s = o->commanded_period_s;
+	out->min_arc_deg = o->run.min_arc_deg;
+	if (!(out->input = strdup(name))) {
+		st = wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", name);
+		goto out;
+	}
+	st = data ? wl_clean_read_mem(name, data, len, on_row, &c, err)
+	          : wl_clean_read(name, on_row, &c, err);
+	for (size_t i = 0; !st && i < c.nrobots; i++)
+		st = finish_segment(&c, &c.robots[i], err);
+	if (!st && out->nruns == 0)
+		st = wl_err_set(
+		        err, WL_EFORMAT,
+		        "%s: no segment could be measured (%d skipped): check the clean stage's segments",
+		        name, c.skipped);
+	if (!st) {
+		qsort(out->runs, out->nruns, sizeof *out->runs, run_cmp);
+		mark_headlines(out);
+	}
+out:
+	for (size_t i = 0; i < c.nrobots; i++)
+		robot_release(&c.robots[i]);
+	free(c.robots);
+	free(c.first_line);
+	return st;
+}
+
+wl_status wl_measure_clean(const char *clean_path, const wl_measure_clean_opts *o, wl_summary *out,
+                           wl_err *err)
+{
+	return run(clean_path, o, out, NULL, 0, err);
+}
+
+wl_status wl_measure_clean_mem(const char *name, const char *data, size_t len, const wl_measure_clean_opts *o,
+                               wl_summary *out, wl_err *err)
+{
+	return run(name, o, out, data ? data : "", len, err);
+}
