@@ -146,11 +146,18 @@ void wl_measure_opts_init(wl_measure_opts *o);
  * heading column...); the file has null there. */
 typedef wl_summary_measures wl_measure_result;
 
-/* Computes every measure of one run.  Fails (WL_EINVAL) only when fewer than
+/* Computes every measure of one run, with each interval's measure the fit's
+ * standard error (the "fit" entry of the budget; wl_measure_budget adds the
+ * systematic sources).  Fails (WL_EINVAL) only when fewer than
  * 5 rows have a position or times are not increasing; weaker data gives NaN
  * fields instead. */
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *out,
                          wl_err *err);
+
+/* Sets every 95% interval from the budget's totals (curvature_se_per_m
+ * becomes the curvature's total): value ± 1.96 total_se, the radius's the
+ * curvature's inverted. */
+void wl_measure_set_intervals(wl_measure_result *r);
 
 /* ---- the stage: CLEAN.csv -> the runs of SUMMARY.json -------------------- */
 
