@@ -424,6 +424,16 @@ static wl_status sidecar_robot(const char *name, const cJSON *o, size_t k, wl_cl
 	r->end_s = wl_json_number_or(e, "t_s", NAN);
 	copy_str(r->trim_reason, sizeof r->trim_reason, t, "reason");
 	copy_str(r->end_reason, sizeof r->end_reason, e, "reason");
+	{
+		const cJSON *n = cJSON_GetObjectItemCaseSensitive(o, "noise"),
+		            *ol = cJSON_GetObjectItemCaseSensitive(o, "outliers");
+		double tot = wl_json_number_or(ol, "total", 0), meas = wl_json_number_or(o, "measured", 0);
+		r->sigma_pos_m = wl_json_number_or(n, "sigma_pos_m", NAN);
+		r->widened = wl_json_number_or(n, "widened_position", 0) > 0 ||
+		             wl_json_number_or(n, "widened_heading", 0) > 0;
+		r->outliers = tot >= 0 && tot < 1e15 ? (size_t)tot : 0;
+		r->measured = meas >= 0 && meas < 1e15 ? (size_t)meas : 0;
+	}
 	if (!cJSON_IsArray(segs) || cJSON_GetArraySize(segs) == 0)
 		return WL_OK;
 	r->segments = calloc((size_t)cJSON_GetArraySize(segs), sizeof *r->segments);

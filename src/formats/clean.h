@@ -173,6 +173,9 @@ typedef struct {
 	int still;
 	double trim_s, end_s;                 /* NaN when none */
 	char trim_reason[24], end_reason[24]; /* as written */
+	double sigma_pos_m;                   /* the position noise used; NaN when absent */
+	int widened;                          /* the noise model was widened (position or heading) */
+	size_t outliers, measured;            /* detections rejected and used */
 	size_t nsegments;
 	wl_clean_segment *segments;
 } wl_clean_sidecar_robot;
