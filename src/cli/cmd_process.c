@@ -31,6 +31,7 @@ static const char USAGE[] =
         "  -o, --out OUTDIR        output folder (required)\n"
         "  --robots ROBOTS.csv     robots for the tracker (see `wakeline track --help`)\n"
         "  --plane-height-m Z      marker plane height above the floor (default: CAL.json's)\n"
+        "  --plane-height-tol-m T  its tolerance, for the uncertainty budget (default 0.002)\n"
         "  --body-diameter-m D     robot size for the wall cut and radius_body_diameters\n"
         "  --threads N             decoder threads (default: all cores)\n"
         "  -q, --quiet             only errors\n"
@@ -63,14 +64,15 @@ int cmd_process(int argc, char **argv)
 	        {"out", required_argument, NULL, 'o'},
 	        {"robots", required_argument, NULL, 'r'},
 	        {"plane-height-m", required_argument, NULL, 'z'},
+	        {"plane-height-tol-m", required_argument, NULL, 'T'},
 	        {"body-diameter-m", required_argument, NULL, 'b'},
 	        {"threads", required_argument, NULL, 't'},
 	        {"quiet", no_argument, NULL, 'q'},
 	        {"help", no_argument, NULL, 'h'},
 	        {NULL, 0, NULL, 0},
 	};
-	const char *cal = NULL, *out = NULL, *robots = NULL, *plane = NULL, *body = NULL, *threads = NULL,
-	           *clip;
+	const char *cal = NULL, *out = NULL, *robots = NULL, *plane = NULL, *plane_tol = NULL, *body = NULL,
+	           *threads = NULL, *clip;
 	char raw[4200], clean[4200], side[4200], sum[4200];
 	const char *args[40];
 	int quiet = 0, c, n, rc;
@@ -95,6 +97,13 @@ int cmd_process(int argc, char **argv)
 				return cli_usage_error("process", "--plane-height-m wants metres, not '%s'",
 				                       optarg);
 			plane = optarg;
+			break;
+		case 'T':
+			if (!cli_parse_double(optarg, &dummy) || !(dummy >= 0))
+				return cli_usage_error("process",
+				                       "--plane-height-tol-m wants metres >= 0, not '%s'",
+				                       optarg);
+			plane_tol = optarg;
 			break;
 		case 'b':
 			if (!cli_parse_double(optarg, &dummy) || !(dummy > 0))
@@ -158,7 +167,15 @@ int cmd_process(int argc, char **argv)
 		return rc == WL_EXIT_USAGE ? WL_EXIT_FAIL : rc;
 
 	n = 0;
-	args[n++] = "measure", args[n++] = clean, args[n++] = "-o", args[n++] = sum;
+	/* the same calibration and planes as the track: the uncertainty budget */
+	args[n++] = "measure", args[n++] = clean, args[n++] = "-o", args[n++] = sum, args[n++] = "--cal",
+	args[n++] = cal, args[n++] = "--clean-sidecar", args[n++] = side;
+	if (robots)
+		args[n++] = "--robots", args[n++] = robots;
+	if (plane)
+		args[n++] = "--plane-height-m", args[n++] = plane;
+	if (plane_tol)
+		args[n++] = "--plane-height-tol-m", args[n++] = plane_tol;
 	if (body)
 		args[n++] = "--body-diameter-m", args[n++] = body;
 	if (quiet)
