@@ -166,10 +166,10 @@ void wl_measure_set_intervals(wl_measure_result *r);
  * in docs/measure.md): the marker plane's height (a robot's own, from
  * ROBOTS.csv, overrides it), the water depth, a focal length assumed from
  * --hfov-deg (relative), a principal point assumed at the image centre
- * (fraction of the width), and the calibration's own relative scale (NaN:
- * from its residuals). */
+ * (fraction of the width). */
 typedef struct {
-	double plane_height_sd_m, water_depth_sd_m, focal_sd_frac, principal_sd_frac, calib_scale_sd;
+	double plane_height_sd_m, water_depth_sd_m, focal_sd_frac, principal_sd_frac;
+	int calib_jackknife; /* 1 (default): the calibration's own uncertainty by the jackknife */
 } wl_measure_tolerances;
 
 void wl_measure_tolerances_init(wl_measure_tolerances *t);
@@ -181,7 +181,7 @@ void wl_measure_tolerances_init(wl_measure_tolerances *t);
  * wl_measure_sys_destroy. */
 typedef struct wl_measure_sys wl_measure_sys;
 
-#define WL_SYS_MAX_DIR 8
+#define WL_SYS_MAX_DIR 24
 
 wl_status wl_measure_sys_create(const wl_calib *cal, const wl_measure_tolerances *tol, wl_measure_sys **out,
                                 wl_err *err);
@@ -216,7 +216,8 @@ typedef struct {
 	double outlier_share;  /* the run's rows rejected as outliers / its rows; NaN: unknown */
 	double trim_share;     /* the robot's track cut at its start / the track's length; NaN: unknown */
 	int not_settled;       /* the clean stage found no steady motion */
-	int widened;           /* the clean stage widened its noise model */
+	int widened;           /* the clean stage widened its noise model (recorded, not a reason:
+	                        * a tracker's slowly varying errors often make it) */
 	double noise_pos_m;    /* the track's position noise; NaN: unknown (1 mm is assumed) */
 	int camera_moves;      /* camera moves up to the run's end, registered again */
 	int camera_moves_lost; /* ... and not */

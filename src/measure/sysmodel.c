@@ -7,9 +7,12 @@
  * assumed focal length or principal point and the water depth (the
  * calibration solved again from its own points, through the camera model,
  * with the input at ± sd and the rest as before), and the calibration's own
- * statistical uncertainty, read from its residuals as a relative scale of
- * the floor map (the points' tank positions scaled by 1 ± sd about their
- * centroid and the calibration solved again).  A tank point is projected to
+ * statistical uncertainty by the jackknife over its markers: the
+ * calibration solved again without each marker in turn, by the same route
+ * (so a focal length found from the homography is found again), each
+ * replicate's map less their mean, times sqrt((g - 1) / g) for g
+ * replicates, is a direction (Quenouille 1956, Tukey 1958: the jackknife
+ * estimate of variance; cited from memory).  A tank point is projected to
  * its pixel with the calibration's camera and that pixel mapped back
  * through each perturbed calibration; half the difference of the + and -
  * maps is the displacement per standard deviation (central differences).
@@ -24,7 +27,9 @@
 #include <string.h>
 
 #include "calib/calib.h"
+#include "core/angle.h"
 #include "core/camera.h"
+#include "core/linalg.h"
 #include "measure/measure.h"
 
 /* Defaults (standard uncertainties), stated in docs/measure.md: a plane
@@ -42,12 +47,13 @@ void wl_measure_tolerances_init(wl_measure_tolerances *t)
 	t->water_depth_sd_m = DEF_WATER_SD_M;
 	t->focal_sd_frac = DEF_FOCAL_SD;
 	t->principal_sd_frac = DEF_PRINCIPAL_SD;
-	t->calib_scale_sd = NAN;
+	t->calib_jackknife = 1;
 }
 
 struct wl_measure_sys {
 	wl_calib base; /* the calibration the positions came from */
 	int ndir;
+	int jk0, njk; /* directions jk0 .. jk0 + njk - 1 are jackknife replicates (cal[k][1]) */
 	wl_budget_source src[WL_SYS_MAX_DIR];
 	char name[WL_SYS_MAX_DIR][24];
 	double sd[WL_SYS_MAX_DIR];        /* the input's standard uncertainty, in its unit */
@@ -55,17 +61,27 @@ struct wl_measure_sys {
 	wl_calib *cal[WL_SYS_MAX_DIR][2]; /* - and + (NULL: the base) */
 };
 
-/* The calibration solved again from the base's used points with the
- * intrinsics of cam (the lens route), the points' tank positions scaled by
+/* The marker a calibration point belongs to: its id up to a '.' ("7.c0"
+ * belongs to "7"). */
+static int same_marker(const char *a, const char *b)
+{
+	size_t la = strcspn(a, "."), lb = strcspn(b, ".");
+	return la == lb && strncmp(a, b, la) == 0;
+}
+
+/* The calibration solved again from the base's used points, without those
+ * of marker `skip` (NULL: all), with the intrinsics of cam (the lens route;
+ * NULL: the base's own route, the focal length found again from the
+ * homography or the field of view), the points' tank positions scaled by
  * 1 + scale about their centroid, and the water depth water_m. */
-static wl_status resolve(const wl_measure_sys *s, const wl_camera *cam, double scale, double water_m,
-                         wl_calib **out, wl_err *err)
+static wl_status resolve(const wl_measure_sys *s, const wl_camera *cam, const char *skip, double scale,
+                         double water_m, wl_calib **out, wl_err *err)
 {
 	const wl_calib *b = &s->base;
 	wl_calib_point *pts = malloc(WL_CALIB_MAX_POINTS * sizeof *pts);
 	wl_calib_report *rep = malloc(sizeof *rep);
 	wl_calib_opts o;
-	wl_camera lens = *cam;
+	wl_camera lens = cam ? *cam : s->base.cam;
 	double mx = 0, my = 0;
 	int n = 0;
 	wl_status st = WL_OK;
@@ -75,7 +91,7 @@ static wl_status resolve(const wl_measure_sys *s, const wl_camera *cam, double s
 		goto out;
 	}
 	for (int i = 0; i < b->n_points; i++)
-		if (b->points[i].used) {
+		if (b->points[i].used && !(skip && same_marker(b->points[i].id, skip))) {
 			pts[n++] = b->points[i];
 			mx += b->points[i].x_m;
 			my += b->points[i].y_m;
@@ -94,7 +110,12 @@ static wl_status resolve(const wl_measure_sys *s, const wl_camera *cam, double s
 	o.width_px = b->cam.width_px;
 	o.height_px = b->cam.height_px;
 	lens.water_depth_m = 0;
-	o.lens = &lens;
+	if (cam)
+		o.lens = &lens;
+	else if (strcmp(b->intrinsics_source, "hfov") == 0)
+		o.hfov_deg = 2 * atan(0.5 * b->cam.width_px / b->cam.K[0]) / WL_DEG;
+	else if (strcmp(b->intrinsics_source, "lens") == 0)
+		o.lens = &lens;
 	o.water_depth_m = water_m;
 	o.water_index = b->cam.water_index > 0 ? b->cam.water_index : WL_WATER_INDEX;
 	o.plane_height_m = b->plane_height_m;
@@ -122,8 +143,8 @@ static wl_status add_solved(wl_measure_sys *s, wl_budget_source src, const char 
 	wl_status st;
 	if (k >= WL_SYS_MAX_DIR)
 		return WL_OK;
-	if ((st = resolve(s, cam_m, sc_m, w_m, &s->cal[k][0], err)) ||
-	    (st = resolve(s, cam_p, sc_p, w_p, &s->cal[k][1], err)))
+	if ((st = resolve(s, cam_m, NULL, sc_m, w_m, &s->cal[k][0], err)) ||
+	    (st = resolve(s, cam_p, NULL, sc_p, w_p, &s->cal[k][1], err)))
 		return wl_err_prefix(err, st, "uncertainty budget, %s", name);
 	s->src[k] = src;
 	snprintf(s->name[k], sizeof s->name[k], "%s", name);
@@ -133,29 +154,52 @@ static wl_status add_solved(wl_measure_sys *s, wl_budget_source src, const char 
 	return WL_OK;
 }
 
-/* The relative scale uncertainty of the floor map from the calibration's
- * residuals: a least-squares scale about the centroid of n points with
- * independent errors of sd sigma per coordinate has the standard error
- * sigma / sqrt(sum |p - centroid|^2); sigma = rms distance / sqrt 2. */
-static double scale_sd(const wl_calib *b)
+/* The calibration's own uncertainty: one jackknife replicate per marker
+ * (per point when the points have no marker ids in common), solved by the
+ * base's route.  A replicate that cannot be solved (too few points left, a
+ * focal length no longer determined) is left out; with fewer than three
+ * the source is left out. */
+static void add_jackknife(wl_measure_sys *s)
 {
-	double mx = 0, my = 0, ss = 0, sig;
-	int n = 0;
-	for (int i = 0; i < b->n_points; i++)
-		if (b->points[i].used)
-			mx += b->points[i].x_m, my += b->points[i].y_m, n++;
-	if (n < 4 || !isfinite(b->rms_mm))
-		return NAN;
-	mx /= n, my /= n;
-	for (int i = 0; i < b->n_points; i++)
-		if (b->points[i].used)
-			ss += (b->points[i].x_m - mx) * (b->points[i].x_m - mx) +
-			      (b->points[i].y_m - my) * (b->points[i].y_m - my);
-	sig = 1e-3 * b->rms_mm / sqrt(2.0);
-	/* the fit has used up degrees of freedom: the residual rms understates sigma */
-	if (n > 4)
-		sig *= sqrt((double)n / (double)(n - 4));
-	return ss > 0 ? sig / sqrt(ss) : NAN;
+	const wl_calib *b = &s->base;
+	char(*seen)[32] = malloc(WL_CALIB_MAX_POINTS * sizeof *seen);
+	int ng = 0;
+	if (!seen)
+		return;
+	s->jk0 = s->ndir;
+	s->njk = 0;
+	for (int i = 0; i < b->n_points; i++) {
+		int dup = 0;
+		if (!b->points[i].used)
+			continue;
+		for (int j = 0; j < ng && !dup; j++)
+			dup = same_marker(seen[j], b->points[i].id);
+		if (!dup)
+			snprintf(seen[ng++], sizeof seen[0], "%s", b->points[i].id);
+	}
+	for (int g = 0; g < ng && s->ndir < WL_SYS_MAX_DIR; g++) {
+		int k = s->ndir;
+		wl_err e2;
+		char skip[32];
+		snprintf(skip, sizeof skip, "%s", seen[g]);
+		if (resolve(s, NULL, skip, 0, b->cam.water_depth_m, &s->cal[k][1], &e2) != WL_OK)
+			continue;
+		s->src[k] = WL_BS_CALIBRATION;
+		snprintf(s->name[k], sizeof s->name[k], "without %.14s", skip);
+		s->sd[k] = NAN;
+		s->dz[k] = 0;
+		s->ndir++;
+		s->njk++;
+	}
+	if (s->njk < 3) {
+		for (int k = s->jk0; k < s->ndir; k++) {
+			free(s->cal[k][1]);
+			s->cal[k][1] = NULL;
+		}
+		s->ndir = s->jk0;
+		s->njk = 0;
+	}
+	free(seen);
 }
 
 wl_status wl_measure_sys_create(const wl_calib *cal, const wl_measure_tolerances *tol, wl_measure_sys **out,
@@ -164,18 +208,15 @@ wl_status wl_measure_sys_create(const wl_calib *cal, const wl_measure_tolerances
 	wl_measure_sys *s = calloc(1, sizeof *s);
 	const char *route;
 	wl_camera c_m, c_p;
-	double sd;
 	wl_status st = WL_OK;
 	*out = NULL;
 	if (!s)
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the uncertainty budget");
 	s->base = *cal;
 	route = cal->intrinsics_source;
-	/* the calibration's own uncertainty: the floor map's scale */
-	sd = isfinite(tol->calib_scale_sd) ? tol->calib_scale_sd : scale_sd(cal);
-	if (sd > 0 && (st = add_solved(s, WL_BS_CALIBRATION, "floor_scale", sd, &cal->cam, &cal->cam, -sd, sd,
-	                               cal->cam.water_depth_m, cal->cam.water_depth_m, err)))
-		goto out;
+	/* the calibration's own uncertainty: the jackknife over its markers */
+	if (tol->calib_jackknife)
+		add_jackknife(s);
 	/* the plane height: the same calibration, the plane moved */
 	if (tol->plane_height_sd_m > 0 && s->ndir < WL_SYS_MAX_DIR) {
 		int k = s->ndir++;
@@ -195,10 +236,27 @@ wl_status wl_measure_sys_create(const wl_calib *cal, const wl_measure_tolerances
 	/* an assumed principal point (every route but a lens or 3-D points) */
 	if (strcmp(route, "lens") != 0 && strcmp(route, "points3d") != 0 && tol->principal_sd_frac > 0) {
 		double d = tol->principal_sd_frac * cal->cam.width_px;
+		double Hm[9];
+		int refocus = strcmp(route, "homography") == 0 && wl_inv3(cal->H_px_to_m, Hm);
 		for (int axis = 0; axis < 2; axis++) {
 			c_m = c_p = cal->cam;
 			c_m.K[axis ? 5 : 2] -= d;
 			c_p.K[axis ? 5 : 2] += d;
+			/* where the focal length came from the homography, it depends on
+			 * the principal point assumed: found again for the moved one */
+			if (refocus) {
+				double fm, fp;
+				if (wl_focal_from_homography(Hm, c_m.K[2], c_m.K[5], &fm) &&
+				    wl_focal_from_homography(Hm, c_p.K[2], c_p.K[5], &fp)) {
+					double f0;
+					if (wl_focal_from_homography(Hm, cal->cam.K[2], cal->cam.K[5], &f0) &&
+					    f0 > 0) {
+						/* the ratio, applied to the refined focal length */
+						c_m.K[0] *= fm / f0, c_m.K[4] *= fm / f0;
+						c_p.K[0] *= fp / f0, c_p.K[4] *= fp / f0;
+					}
+				}
+			}
 			if ((st = add_solved(s, WL_BS_INTRINSICS, axis ? "cy_px" : "cx_px", d, &c_m, &c_p, 0,
 			                     0, cal->cam.water_depth_m, cal->cam.water_depth_m, err)))
 				goto out;
@@ -261,11 +319,25 @@ int wl_measure_sys_displace(const wl_measure_sys *s, double x_m, double y_m, dou
 		double xm, ym, xp, yp;
 		const wl_calib *cm = s->cal[k][0] ? s->cal[k][0] : &s->base,
 		               *cp = s->cal[k][1] ? s->cal[k][1] : &s->base;
+		if (k >= s->jk0 && k < s->jk0 + s->njk) {
+			if (!wl_calib_pixel_to_plane(cp, u, v, z_m, &dx[k], &dy[k]))
+				return 0;
+			continue;
+		}
 		if (!wl_calib_pixel_to_plane(cm, u, v, z_m - s->dz[k], &xm, &ym) ||
 		    !wl_calib_pixel_to_plane(cp, u, v, z_m + s->dz[k], &xp, &yp))
 			return 0;
 		dx[k] = 0.5 * (xp - xm);
 		dy[k] = 0.5 * (yp - ym);
+	}
+	if (s->njk > 0) {
+		/* the replicates about their mean, scaled to the jackknife variance */
+		double mx = 0, my = 0, f = sqrt((s->njk - 1.0) / s->njk);
+		for (int k = s->jk0; k < s->jk0 + s->njk; k++)
+			mx += dx[k], my += dy[k];
+		mx /= s->njk, my /= s->njk;
+		for (int k = s->jk0; k < s->jk0 + s->njk; k++)
+			dx[k] = f * (dx[k] - mx), dy[k] = f * (dy[k] - my);
 	}
 	return 1;
 }
