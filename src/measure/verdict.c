@@ -71,10 +71,6 @@ void wl_measure_verdict(const wl_verdict_input *v, wl_measure_result *r)
 		reason(r, WL_VERDICT_REJECT, "%.0f%% of rows rejected as outliers", 100 * v->outlier_share);
 	else if (v->outlier_share > OUTLIER_CHECK)
 		reason(r, WL_VERDICT_CHECK, "%.1f%% of rows rejected as outliers", 100 * v->outlier_share);
-	if (v->widened)
-		reason(r, WL_VERDICT_CHECK,
-		       "the cleaning widened its noise model: the track is noisier than the "
-		       "detections suggest");
 	if (r->tracked_fraction < TRACKED_REJECT)
 		reason(r, WL_VERDICT_REJECT, "tracked in only %.0f%% of the rows", 100 * r->tracked_fraction);
 	else if (r->tracked_fraction < TRACKED_CHECK)
