@@ -30,6 +30,8 @@ a = ap.parse_args()
 
 scenes = robots = runs = covered = 0
 speed_runs = speed_cov = 0
+yaw_runs = yaw_cov = 0
+why_missing = {}
 verdicts = {"ok": 0, "check": 0, "reject": 0}
 not_measured = 0
 worst_ok = (0.0, None)
@@ -61,6 +63,13 @@ for d in a.dirs:
         mine = [r for r in summ["runs"] if r["id"] == rt["id"] and r.get("headline")]
         if not mine:
             not_measured += 1
+            cj = os.path.join(d, "clean.json")
+            why = "no detections"
+            if os.path.exists(cj):
+                for cr in json.load(open(cj))["robots"]:
+                    if cr["id"] == rt["id"]:
+                        why = cr["trim"]["reason"]
+            why_missing[why] = why_missing.get(why, 0) + 1
             continue
         r = mine[0]
         runs += 1
@@ -94,11 +103,19 @@ for d in a.dirs:
         if s_ci and s_ci[0] is not None:
             speed_runs += 1
             speed_cov += s_ci[0] <= rt["speed_mps"] <= s_ci[1]
+        # the yaw amplitude where there is one to measure: 3 deg or more, at
+        # least 3 cycles in the run and under 0.8 of the Nyquist frequency
+        y_ci = r.get("yaw_osc_amp_ci95_deg")
+        if (y_ci and y_ci[0] is not None and rt["yaw_osc_deg"] >= 3 and
+                rt["yaw_osc_hz"] * r["duration_s"] >= 3):
+            yaw_runs += 1
+            yaw_cov += y_ci[0] <= rt["yaw_osc_deg"] <= y_ci[1]
 
 coverage = covered / runs if runs else float("nan")
 fig = {
     "scenes": scenes, "robots": robots, "runs": runs, "not_measured": not_measured,
     "coverage_curvature_95": coverage, "coverage_speed_95": speed_cov / speed_runs if speed_runs else None,
+    "coverage_yaw_amp_95": yaw_cov / yaw_runs if yaw_runs else None, "why_not_measured": why_missing,
     "worst_ok_radius_error": worst_ok[0], "worst_ok_run": worst_ok[1], "verdicts": verdicts,
     "reasons": reasons, "cpu_s": {k: round(v, 1) for k, v in cpu.items()}, "failures": failures,
     "errors": errors,
@@ -109,6 +126,11 @@ print("  95%% curvature interval covers the truth in %d of %d runs: %.1f%%" % (c
 if speed_runs:
     print("  95%% speed interval covers the cruise speed in %d of %d runs: %.1f%%" %
           (speed_cov, speed_runs, 100.0 * speed_cov / speed_runs))
+if yaw_runs:
+    print("  95%% yaw amplitude interval covers the truth in %d of %d runs: %.1f%%" %
+          (yaw_cov, yaw_runs, 100.0 * yaw_cov / yaw_runs))
+if why_missing:
+    print("  robots without a run: " + ", ".join("%s %d" % kv for kv in sorted(why_missing.items())))
 print("  worst radius error of an ok run: %.2f%% (%s)" % (100 * worst_ok[0], worst_ok[1]))
 print("  verdicts: " + ", ".join("%s %d" % kv for kv in sorted(verdicts.items())))
 print("  reasons: " + "; ".join("%s (%d)" % kv for kv in sorted(reasons.items(), key=lambda kv: -kv[1])))
