@@ -70,6 +70,8 @@ typedef struct {
 	size_t nparams;        /* manifest columns other than clip */
 	const char *const *param_names;
 	const char *const *param_values;
+	int threads; /* decoder threads for this clip (wl_batch_opts.threads or the
+	                CPUs the process may use / jobs; at least 1) */
 	wl_batch_progress_fn progress;
 	void *progress_ctx;
 } wl_batch_job;
@@ -102,13 +104,24 @@ typedef struct {
 
 typedef void (*wl_batch_event_fn)(const wl_batch_event *ev, void *ctx);
 
+/* How a run keeps a second run of the same shard out of OUT. */
+typedef enum {
+	WL_BATCH_LOCK_FLOCK = 0, /* flock() on OUT/.lock-<shard> (released by the kernel when the run dies) */
+	WL_BATCH_LOCK_DIR,       /* a directory OUT/.lock-<shard>.d made with mkdir, for file systems
+	                            without flock; left behind by a killed run (taken over on the same
+	                            host when its pid is gone, else to be removed by hand) */
+	WL_BATCH_LOCK_NONE       /* no lock: the caller makes sure runs do not overlap */
+} wl_batch_lock_mode;
+
 typedef struct {
 	const char *clip_dir;       /* DIR: where the clips are */
 	const char *out_dir;        /* OUT: created when missing */
 	const char *cal_path;       /* the default CAL.json (may be NULL if every row has `cal`) */
 	const char *manifest_path;  /* NULL: no manifest */
-	int jobs;                   /* parallel workers; <= 0: number of cores */
+	int jobs;                   /* parallel workers; <= 0: wl_batch_cpus() */
+	int threads;                /* decoder threads per clip; <= 0: wl_batch_cpus() / jobs, at least 1 */
 	int force;                  /* 1: redo complete clips */
+	wl_batch_lock_mode lock;    /* default: flock */
 	const char *settings;       /* text naming every setting that changes outputs (hashed) */
 	const char *const *outputs; /* NULL-terminated file names each clip folder must hold */
 	wl_batch_clip_fn fn;
@@ -127,7 +140,16 @@ typedef struct {
 	size_t missing;  /* manifest rows whose clip does not exist */
 	size_t unlisted; /* clips without a manifest row (processed) */
 	size_t runs;     /* rows of summary.csv with status ok */
+	int cpus;        /* CPUs this process may use (wl_batch_cpus) */
+	int jobs;        /* workers at once */
+	int threads;     /* decoder threads per clip */
 } wl_batch_result;
+
+/* The CPUs this process may use: those of its affinity mask
+ * (sched_getaffinity, which taskset and Slurm's task binding set), fewer
+ * when SLURM_CPUS_PER_TASK says so (Slurm without task binding leaves the
+ * mask whole), never the machine's count regardless of the allocation. */
+int wl_batch_cpus(void);
 
 /* Runs the batch: discovers clips, reads the manifest, skips complete clips,
  * runs the rest in up to o->jobs workers, records each in clip.json and the
@@ -136,6 +158,13 @@ typedef struct {
  * running it again finishes the rest.  Returns WL_OK when the batch ran, even
  * if clips failed (see res). */
 wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err);
+
+/* What a run would do, without running: reads the manifest, finds the
+ * clips and writes OUT/batch.json (the sweep, o->shard_count shards) so
+ * that merge and `batch --status` know every clip even of shards that never
+ * start.  res gets clips (all of them), missing and unlisted.  For job
+ * submitters (`batch --slurm`). */
+wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *err);
 
 /* Rebuilds OUT/summary.csv, the sweep plots and OUT/report.html from
  * OUT/clips/<name>/clip.json and summary.json (and OUT/batch.json for the
@@ -146,10 +175,66 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
                          wl_err *err);
 
+/* Called by wl_batch_merge_report for every clip that failed (status
+ * "failed") or has no result (status "missing"), with its message. */
+typedef void (*wl_batch_problem_fn)(const char *clip, const char *status, const char *msg, void *ctx);
+
+/* wl_batch_merge, telling on_problem (may be NULL) about each failed or
+ * missing clip.  A clip is missing when OUT/batch.json lists it (the
+ * sweep as planned or as any shard saw it) and its folder has no
+ * clip.json, when its folder has no clip.json (an interrupted run), or
+ * when a manifest row names a clip that does not exist; each gets a row in
+ * summary.csv and report.html saying which shard to run again.  Failed and
+ * missing clips are counted in res; they are not an error of the merge. */
+wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts *sweep,
+                                wl_batch_problem_fn on_problem, void *ctx, wl_batch_result *res, wl_err *err);
+
+/* ---- status ---------------------------------------------------------------- */
+
+typedef enum {
+	WL_BATCH_DONE = 0,    /* clip.json says ok */
+	WL_BATCH_FAILED,      /* clip.json says failed: msg */
+	WL_BATCH_RUNNING,     /* started (journal) and its shard's lock is held */
+	WL_BATCH_INTERRUPTED, /* started, not ended, and no run holds its shard's lock */
+	WL_BATCH_NOT_STARTED, /* no marker, never started */
+	WL_BATCH_MISSING,     /* a manifest row names a clip that does not exist: msg */
+	WL_BATCH_NSTATES
+} wl_batch_state;
+
+typedef struct {
+	char *clip; /* relative to the clip folder */
+	wl_batch_state state;
+	int shard; /* its shard (0 unsharded), -1 for missing clips */
+	char *msg; /* failed / missing: the message; else NULL */
+} wl_batch_clip_status;
+
+typedef struct {
+	size_t n;
+	wl_batch_clip_status *e; /* the sweep's clips in shard order, then the missing ones */
+	int shard_count;
+	int *shard_running; /* per shard: 1 when a run holds its lock */
+	size_t count[WL_BATCH_NSTATES];
+} wl_batch_status_report;
+
+/* Where the sweep in out_dir stands: every clip of batch.json with its
+ * state, from the clip folders' done markers, the journals' last event per
+ * clip and the shards' locks.  Only reads; works while shards run (on any
+ * node that sees OUT; "running" needs locks that work across nodes, else
+ * such clips show as interrupted).  wl_batch_status_release frees st. */
+wl_status wl_batch_status(const char *out_dir, wl_batch_status_report *st, wl_err *err);
+void wl_batch_status_release(wl_batch_status_report *st);
+const char *wl_batch_state_name(wl_batch_state s);
+
 /* Settings hash of the resume rule (FNV-1a, 64 bits, as 16 hex digits):
  * over `settings`, the CAL.json's bytes and the plane height. */
 wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
                                  char out[17], wl_err *err);
+
+/* The resume rule's key of an input file: SHA-256 (hex) over its size and
+ * three 64 KiB blocks of its content (the first, one from the middle and
+ * the last; the whole file when it is smaller than 192 KiB).  Fast on
+ * large clips, blind to file times.  *size gets the size in bytes. */
+wl_status wl_batch_input_digest(const char *path, char hex[65], long long *size, wl_err *err);
 
 /* Writes clip.json into a clip folder (atomically): for commands that
  * process one clip outside a batch so that merge can pick it up. */

@@ -9,15 +9,18 @@
  * a [lo, hi] interval as <key>_lo and <key>_hi), then any keys of the
  * summaries that this version does not know, sorted by name.
  */
-#define _POSIX_C_SOURCE 200809L
+#define _GNU_SOURCE
 #include "batch/batch.h"
 
 #include <dirent.h>
+#include <fcntl.h>
 #include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/file.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "core/afile.h"
 #include "core/csvio.h"
@@ -144,8 +147,9 @@ static int cmp_name(const void *a, const void *b)
 	return strcmp(*(const char *const *)a, *(const char *const *)b);
 }
 
-/* One clip folder: its rows (one per run, or one for a failure). */
-static void read_clip(prows *p, const char *out_dir, const char *name)
+/* One clip folder: its rows (one per run, or one for a failure).  Returns
+ * 0 when the folder has no done marker (the clip never finished). */
+static int read_clip(prows *p, const char *out_dir, const char *name)
 {
 	char path[PATH_MAX], folder[PATH_MAX], msg[PATH_MAX + 300];
 	cJSON *cj = NULL;
@@ -162,7 +166,7 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 	snprintf(path, sizeof path, "%s/%s/clip.json", out_dir, folder);
 	wl_err_clear(&err);
 	if (wl_json_load(path, &cj, &err) != WL_OK)
-		return; /* no marker: the clip never finished; it is not a run */
+		return 0; /* no marker: the clip never finished; the caller lists it */
 	clip = wl_json_string_or(cj, "clip", name);
 	status = wl_json_string_or(cj, "status", "failed");
 	params = cJSON_GetObjectItemCaseSensitive(cj, "params");
@@ -183,8 +187,14 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 			/* the table can do without the picture: a broken image shows the gap */
 			wl_report_scene_buf *sb = calloc(1, sizeof *sb);
 			const char *cal = wl_json_string_or(cj, "cal", "");
+			char calp[PATH_MAX * 2];
+			/* stored relative to OUT (older batches: as typed) */
+			if (cal[0] == '/')
+				snprintf(calp, sizeof calp, "%s", cal);
+			else
+				snprintf(calp, sizeof calp, "%s/%s", out_dir, cal);
 			if (sb && cal[0])
-				wl_report_scene_load(cal, sb, NULL);
+				wl_report_scene_load(calp, sb, NULL);
 			snprintf(path, sizeof path, "%s/%s", out_dir, folder);
 			wl_report_clip_plots(path, sb ? &sb->scene : NULL, &err);
 			wl_report_scene_release(sb);
@@ -207,6 +217,7 @@ static void read_clip(prows *p, const char *out_dir, const char *name)
 		        1;
 	cJSON_Delete(cj);
 	wl_summary_release(&sum);
+	return 1;
 }
 
 static int has(char **list, size_t n, const char *s)
@@ -259,7 +270,8 @@ static wl_status build_table(prows *p, wl_report_runs *t, wl_err *err)
 				extra[nextra++] = p->r[i].meas.k[j];
 			}
 		}
-	qsort(extra, nextra, sizeof *extra, cmp_name);
+	if (nextra) /* qsort wants a real array even for none */
+		qsort(extra, nextra, sizeof *extra, cmp_name);
 	for (i = 0; i < nextra; i++)
 		ADDCOL(extra[i]);
 #undef ADDCOL
@@ -327,10 +339,63 @@ static int cmp_cstr(const void *a, const void *b)
 	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
+/* A clip the sweep expects (batch.json's list): its folder name, path and
+ * shard, and whether its folder had a done marker. */
+typedef struct {
+	char *name;
+	const char *clip;
+	int shard;
+	int seen;
+} expect;
+
+static int cmp_expect(const void *a, const void *b)
+{
+	return strcmp(((const expect *)a)->name, ((const expect *)b)->name);
+}
+
+static expect *find_expect(expect *e, size_t n, const char *name)
+{
+	expect key;
+	key.name = (char *)name;
+	return n ? bsearch(&key, e, n, sizeof *e, cmp_expect) : NULL;
+}
+
+/* Takes the merge lock when it can (an unsharded batch merges under its
+ * own lock and owner tag) and removes what a killed merge left. */
+static int merge_lock(const char *out_dir, char *old_owner, size_t cap)
+{
+	char path[PATH_MAX];
+	int fd;
+	snprintf(old_owner, cap, "%s", wl_afile_owner());
+	if (old_owner[0])
+		return -1;
+	wl_afile_set_owner("merge");
+	snprintf(path, sizeof path, "%s/.lock-merge", out_dir);
+	fd = open(path, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
+	if (fd >= 0 && flock(fd, LOCK_EX | LOCK_NB) == 0) {
+		DIR *d = opendir(out_dir);
+		struct dirent *e;
+		while (d && (e = readdir(d)))
+			if (e->d_name[0] == '.' && strstr(e->d_name, ".tmp-merge-")) {
+				snprintf(path, sizeof path, "%s/%s", out_dir, e->d_name);
+				unlink(path);
+			}
+		if (d)
+			closedir(d);
+	}
+	return fd;
+}
+
 wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep, wl_batch_result *res,
                          wl_err *err)
 {
-	char path[PATH_MAX];
+	return wl_batch_merge_report(out_dir, sweep, NULL, NULL, res, err);
+}
+
+wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts *sweep,
+                                wl_batch_problem_fn on_problem, void *ctx, wl_batch_result *res, wl_err *err)
+{
+	char path[PATH_MAX], msg[PATH_MAX * 2], old_owner[32] = "";
 	prows p;
 	wl_report_runs t;
 	wl_report_sweep_opts so = {NULL, NULL, 0};
@@ -338,8 +403,9 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	DIR *d;
 	struct dirent *e;
 	char **names = NULL;
-	size_t nn = 0, i;
-	int written = 0;
+	expect *ex = NULL;
+	size_t nn = 0, cap = 0, nex = 0, i;
+	int written = 0, shards = 1, lock_fd;
 	wl_status s = WL_OK;
 	wl_batch_result dummy;
 
@@ -353,39 +419,104 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	if (!d)
 		return wl_err_set(err, WL_EIO, "'%s' has no clips folder: is it the -o folder of a batch?",
 		                  out_dir);
+	lock_fd = merge_lock(out_dir, old_owner, sizeof old_owner);
 	while ((e = readdir(d))) {
-		char **nn2;
 		if (e->d_name[0] == '.')
 			continue;
-		nn2 = realloc(names, (nn + 1) * sizeof *nn2);
-		if (!nn2 || !(nn2[nn] = strdup(e->d_name))) {
-			names = nn2 ? nn2 : names;
-			closedir(d);
-			s = wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
-			goto out;
+		if (nn == cap) {
+			size_t nc = cap ? 2 * cap : 256;
+			char **nn2 = realloc(names, nc * sizeof *nn2);
+			if (!nn2)
+				break;
+			names = nn2;
+			cap = nc;
 		}
-		names = nn2;
+		if (!(names[nn] = strdup(e->d_name)))
+			break;
 		nn++;
 	}
 	closedir(d);
-	qsort(names, nn, sizeof *names, cmp_cstr);
-	for (i = 0; i < nn && !p.oom; i++)
-		read_clip(&p, out_dir, names[i]);
+	if (e) {
+		s = wl_err_set(err, WL_ENOMEM, "out of memory listing '%s'", path);
+		goto out;
+	}
+	if (nn)
+		qsort(names, nn, sizeof *names, cmp_cstr);
+	/* the sweep: every clip it holds, even of shards that never ran */
 	snprintf(path, sizeof path, "%s/batch.json", out_dir);
 	if (wl_json_load(path, &bj, NULL) == WL_OK) {
+		const cJSON *clips = cJSON_GetObjectItemCaseSensitive(bj, "clips"), *c;
+		const char *x = wl_json_string_or(bj, "x_col", ""),
+		           *g = wl_json_string_or(bj, "group_col", "");
+		int k = 0;
+		so.x_col = x[0] ? x : NULL;
+		so.group_col = g[0] ? g : NULL;
+		so.body_diameter_m = wl_json_number_or(bj, "body_diameter_m", 0);
+		shards = (int)wl_json_number_or(bj, "shard_count", 1);
+		if (shards < 1)
+			shards = 1;
+		ex = calloc((size_t)(cJSON_GetArraySize(clips) > 0 ? cJSON_GetArraySize(clips) : 1),
+		            sizeof *ex);
+		if (!ex) {
+			s = wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", path);
+			goto out;
+		}
+		cJSON_ArrayForEach(c, clips)
+		{
+			char name[PATH_MAX];
+			if (!cJSON_IsString(c))
+				continue;
+			ex[nex].clip = c->valuestring;
+			ex[nex].shard = k++ % shards;
+			if (!(ex[nex].name = strdup(wl_batch_clip_name(c->valuestring, name, sizeof name)))) {
+				s = wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", path);
+				goto out;
+			}
+			nex++;
+		}
+		qsort(ex, nex, sizeof *ex, cmp_expect);
+	}
+	for (i = 0; i < nn && !p.oom; i++) {
+		expect *x = find_expect(ex, nex, names[i]);
+		if (read_clip(&p, out_dir, names[i])) {
+			if (x)
+				x->seen = 1;
+			continue;
+		}
+		if (x)
+			continue; /* listed below with its shard */
+		/* a folder without a marker: its clip was started and never finished */
+		snprintf(path, sizeof path, "clips/%s", names[i]);
+		snprintf(msg, sizeof msg,
+		         "%s: not finished (the run that started it was interrupted): run the batch or its "
+		         "shard again",
+		         path);
+		prow_new(&p, names[i], path, "missing", msg);
+	}
+	for (i = 0; i < nex && !p.oom; i++) {
+		if (ex[i].seen)
+			continue;
+		snprintf(path, sizeof path, "clips/%s", ex[i].name);
+		if (shards > 1)
+			snprintf(msg, sizeof msg,
+			         "%s: no result in %s/ (shard %d/%d did not run or did not finish it): run "
+			         "that "
+			         "shard again (batch ... --shard %d/%d), then merge",
+			         ex[i].clip, path, ex[i].shard, shards, ex[i].shard, shards);
+		else
+			snprintf(msg, sizeof msg,
+			         "%s: no result in %s/ (the batch did not run or did not finish it): run the "
+			         "batch again, then merge",
+			         ex[i].clip, path);
+		prow_new(&p, ex[i].clip, path, "missing", msg);
+	}
+	if (bj) {
 		const cJSON *m, *miss = cJSON_GetObjectItemCaseSensitive(bj, "missing");
 		cJSON_ArrayForEach(m, miss)
 		{
 			if (!prow_new(&p, wl_json_string_or(m, "clip", "?"), "", "missing",
 			              wl_json_string_or(m, "error", "")))
 				break;
-		}
-		{
-			const char *x = wl_json_string_or(bj, "x_col", ""),
-			           *g = wl_json_string_or(bj, "group_col", "");
-			so.x_col = x[0] ? x : NULL;
-			so.group_col = g[0] ? g : NULL;
-			so.body_diameter_m = wl_json_number_or(bj, "body_diameter_m", 0);
 		}
 	}
 	/* what the caller gives wins; what it leaves out comes from batch.json */
@@ -402,12 +533,17 @@ wl_status wl_batch_merge(const char *out_dir, const wl_report_sweep_opts *sweep,
 	if ((s = build_table(&p, &t, err)) || (s = write_summary_csv(&t, out_dir, err)))
 		goto out;
 	for (i = 0; i < t.nrows; i++) {
-		if (strcmp(t.rows[i].status, "ok") == 0)
+		const wl_report_row *r = &t.rows[i];
+		if (strcmp(r->status, "ok") == 0) {
 			res->runs++;
-		else if (strcmp(t.rows[i].status, "missing") == 0)
+			continue;
+		}
+		if (strcmp(r->status, "missing") == 0)
 			res->missing++;
 		else
 			res->failed++;
+		if (on_problem)
+			on_problem(r->clip, r->status, r->error, ctx);
 	}
 	res->clips = nn;
 	/* a bad sweep column is an error, but the table is still worth a page */
@@ -422,8 +558,16 @@ out:
 	for (i = 0; i < nn; i++)
 		free(names[i]);
 	free(names);
+	for (i = 0; i < nex; i++)
+		free(ex[i].name);
+	free(ex);
 	cJSON_Delete(bj);
 	prows_free(&p);
 	wl_report_runs_release(&t);
+	if (lock_fd != -1) {
+		if (lock_fd >= 0)
+			close(lock_fd);
+		wl_afile_set_owner(old_owner);
+	}
 	return s;
 }

@@ -8,6 +8,8 @@
 #include "batch/batch.h"
 
 #include <dirent.h>
+#include <errno.h>
+#include <fcntl.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -19,6 +21,7 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
+#include "core/sha256.h"
 
 double batch_now_s(void)
 {
@@ -75,16 +78,77 @@ void batch_utc_now(char *buf, size_t cap)
 	strftime(buf, cap, "%Y-%m-%dT%H:%M:%SZ", &tm);
 }
 
-static void mtime_text(const struct stat *st, char *buf, size_t cap)
+/* ---- the input's content key ----------------------------------------- */
+
+#define SAMPLE_BLOCK 65536
+
+static int read_at(int fd, unsigned char *buf, size_t n, off_t at)
 {
-	snprintf(buf, cap, "%lld.%09ld", (long long)st->st_mtim.tv_sec, (long)st->st_mtim.tv_nsec);
+	size_t got = 0;
+	while (got < n) {
+		ssize_t k = pread(fd, buf + got, n - got, at + (off_t)got);
+		if (k < 0 && errno == EINTR)
+			continue;
+		if (k <= 0)
+			return -1;
+		got += (size_t)k;
+	}
+	return 0;
 }
 
-wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char *settings_hash, int ok,
-                        const char *error, double elapsed_s, wl_err *err)
+wl_status wl_batch_input_digest(const char *path, char hex[65], long long *size, wl_err *err)
+{
+	unsigned char *buf;
+	struct stat st;
+	wl_sha256 h;
+	char num[32];
+	int fd, bad = 0;
+	hex[0] = '\0';
+	*size = -1;
+	fd = open(path, O_RDONLY | O_CLOEXEC);
+	if (fd < 0 || fstat(fd, &st) != 0) {
+		wl_status s = wl_err_set(err, WL_EIO, "cannot read '%s': %s", path, strerror(errno));
+		if (fd >= 0)
+			close(fd);
+		return s;
+	}
+	buf = malloc(SAMPLE_BLOCK);
+	if (!buf) {
+		close(fd);
+		return wl_err_set(err, WL_ENOMEM, "out of memory reading '%s'", path);
+	}
+	wl_sha256_init(&h);
+	snprintf(num, sizeof num, "%lld\n", (long long)st.st_size);
+	wl_sha256_update(&h, num, strlen(num));
+	if (st.st_size <= 3 * SAMPLE_BLOCK) {
+		off_t at;
+		for (at = 0; !bad && at < st.st_size; at += SAMPLE_BLOCK) {
+			size_t n = (size_t)(st.st_size - at < SAMPLE_BLOCK ? st.st_size - at : SAMPLE_BLOCK);
+			bad = read_at(fd, buf, n, at);
+			wl_sha256_update(&h, buf, n);
+		}
+	} else {
+		const off_t at[3] = {0, (st.st_size / 2) & ~(off_t)(SAMPLE_BLOCK - 1),
+		                     st.st_size - SAMPLE_BLOCK};
+		int i;
+		for (i = 0; !bad && i < 3; i++) {
+			bad = read_at(fd, buf, SAMPLE_BLOCK, at[i]);
+			wl_sha256_update(&h, buf, SAMPLE_BLOCK);
+		}
+	}
+	free(buf);
+	close(fd);
+	if (bad)
+		return wl_err_set(err, WL_EIO, "cannot read '%s': it changed or could not be read", path);
+	wl_sha256_final(&h, hex);
+	*size = (long long)st.st_size;
+	return WL_OK;
+}
+
+wl_status batch_mark(const char *out_dir, const wl_batch_job *job, const char *digest, long long size,
+                     const char *settings_hash, int ok, const char *error, double elapsed_s, wl_err *err)
 {
 	char path[PATH_MAX], buf[64];
-	struct stat st;
 	cJSON *root = cJSON_CreateObject(), *params;
 	wl_status s;
 	size_t i;
@@ -93,13 +157,14 @@ wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char
 	cJSON_AddStringToObject(root, "clip", job->clip_rel);
 	cJSON_AddStringToObject(root, "status", ok ? "ok" : "failed");
 	cJSON_AddStringToObject(root, "error", ok ? "" : (error ? error : "failed"));
-	if (stat(job->clip_path, &st) == 0) {
-		cJSON_AddNumberToObject(root, "input_size", (double)st.st_size);
-		mtime_text(&st, buf, sizeof buf);
-		cJSON_AddStringToObject(root, "input_mtime", buf);
+	if (digest && digest[0] && size >= 0) {
+		cJSON_AddNumberToObject(root, "input_size", (double)size);
+		cJSON_AddStringToObject(root, "input_digest", digest);
 	}
 	cJSON_AddStringToObject(root, "settings_hash", settings_hash ? settings_hash : "");
 	cJSON_AddStringToObject(root, "cal", job->cal_path ? job->cal_path : "");
+	if (job->threads > 0)
+		cJSON_AddNumberToObject(root, "threads", job->threads);
 	params = cJSON_AddObjectToObject(root, "params");
 	for (i = 0; params && i < job->nparams; i++)
 		cJSON_AddStringToObject(params, job->param_names[i], job->param_values[i]);
@@ -112,31 +177,43 @@ wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char
 	return s;
 }
 
-/* Complete: clip.json says ok for this very input and these settings, and
- * every output exists and is no older than the input. */
-int batch_is_complete(const char *out_dir, const wl_batch_job *job, const char *hash,
-                      const char *const *outputs, int *params_differ)
+wl_status wl_batch_mark(const char *out_dir, const wl_batch_job *job, const char *settings_hash, int ok,
+                        const char *error, double elapsed_s, wl_err *err)
 {
-	char path[PATH_MAX], mt[64];
+	char digest[65];
+	long long size;
+	if (wl_batch_input_digest(job->clip_path, digest, &size, NULL) != WL_OK)
+		digest[0] = '\0';
+	return batch_mark(out_dir, job, digest, size, settings_hash, ok, error, elapsed_s, err);
+}
+
+/* Complete: clip.json says ok for this very input (its size and the digest
+ * of its content) and these settings, and every output exists.  Times play
+ * no part: a clip copied to node scratch without its times is still the
+ * same clip. */
+int batch_is_complete(const char *out_dir, const wl_batch_job *job, const char *digest, long long size,
+                      const char *hash, const char *const *outputs, int *params_differ)
+{
+	char path[PATH_MAX];
 	cJSON *root = NULL;
 	const cJSON *params;
-	struct stat in, o;
+	struct stat o;
 	int ok = 0;
 	size_t i;
 	*params_differ = 0;
-	snprintf(path, sizeof path, "%s/clip.json", out_dir);
-	if (stat(job->clip_path, &in) != 0 || wl_json_load(path, &root, NULL) != WL_OK)
+	if (!digest || !digest[0] || size < 0)
 		return 0;
-	mtime_text(&in, mt, sizeof mt);
+	snprintf(path, sizeof path, "%s/clip.json", out_dir);
+	if (wl_json_load(path, &root, NULL) != WL_OK)
+		return 0;
 	if (strcmp(wl_json_string_or(root, "status", ""), "ok") != 0 ||
-	    wl_json_number_or(root, "input_size", -1) != (double)in.st_size ||
-	    strcmp(wl_json_string_or(root, "input_mtime", ""), mt) != 0 ||
+	    wl_json_number_or(root, "input_size", -1) != (double)size ||
+	    strcmp(wl_json_string_or(root, "input_digest", ""), digest) != 0 ||
 	    strcmp(wl_json_string_or(root, "settings_hash", ""), hash) != 0)
 		goto out;
 	for (i = 0; outputs && outputs[i]; i++) {
 		snprintf(path, sizeof path, "%s/%s", out_dir, outputs[i]);
-		if (stat(path, &o) != 0 || o.st_mtim.tv_sec < in.st_mtim.tv_sec ||
-		    (o.st_mtim.tv_sec == in.st_mtim.tv_sec && o.st_mtim.tv_nsec < in.st_mtim.tv_nsec))
+		if (stat(path, &o) != 0)
 			goto out;
 	}
 	ok = 1;
@@ -154,16 +231,18 @@ out:
 	return ok;
 }
 
-/* Leftovers of a worker that was killed: temporary files of afile. */
-void batch_remove_stale_tmp(const char *dir)
+/* Leftovers of a worker that was killed: temporary files of afile
+ * (".<name>.tmp-..."); with an owner tag, only ".<name>.tmp-<owner>-...". */
+void batch_remove_stale_tmp(const char *dir, const char *owner)
 {
 	DIR *d = opendir(dir);
 	struct dirent *e;
-	char path[PATH_MAX];
+	char path[PATH_MAX], pat[64];
 	if (!d)
 		return;
+	snprintf(pat, sizeof pat, ".tmp-%s%s", owner ? owner : "", owner && owner[0] ? "-" : "");
 	while ((e = readdir(d)))
-		if (e->d_name[0] == '.' && strstr(e->d_name, ".tmp-")) {
+		if (e->d_name[0] == '.' && strstr(e->d_name, pat)) {
 			snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
 			unlink(path);
 		}

@@ -18,6 +18,7 @@
 #include <limits.h>
 #include <math.h>
 #include <poll.h>
+#include <sched.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -74,7 +75,7 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	int p[2];
 	pid_t pid, parent = getpid();
 	size_t i;
-	batch_remove_stale_tmp(j->out_dir);
+	batch_remove_stale_tmp(j->out_dir, NULL); /* the clip's folder is this run's alone */
 	/* the old done marker goes first: from here the folder is not complete */
 	{
 		char path[PATH_MAX];
@@ -96,6 +97,9 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	}
 	if (pid == 0) {
 		close(p[0]);
+		/* the worker's paths are relative to OUT (see prepare_job) */
+		if (chdir(r->out_abs) != 0)
+			_exit(4);
 		batch_worker_main(r, j, p[1], parent);
 	}
 	close(p[1]);
@@ -150,7 +154,7 @@ static void finish_job(runner *r, clipjob *j)
 		}
 	}
 	wl_err_clear(&err);
-	if (wl_batch_mark(j->out_dir, &j->job, j->hash, ok, msg, el, &err) != WL_OK) {
+	if (batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, ok, msg, el, &err) != WL_OK) {
 		ok = 0;
 		snprintf(msg, sizeof msg, "%s", err.msg);
 	}
@@ -211,17 +215,57 @@ static void pump(runner *r)
 
 /* ---- set-up ----------------------------------------------------------- */
 
-static int ncores(void)
+int wl_batch_cpus(void)
 {
-	long n = sysconf(_SC_NPROCESSORS_ONLN);
-	return n > 0 ? (int)n : 1;
+	cpu_set_t set;
+	const char *env = getenv("SLURM_CPUS_PER_TASK");
+	long n = 0;
+	CPU_ZERO(&set);
+	if (sched_getaffinity(0, sizeof set, &set) == 0)
+		n = CPU_COUNT(&set);
+	if (n <= 0) {
+		n = sysconf(_SC_NPROCESSORS_ONLN);
+		if (n <= 0)
+			n = 1;
+	}
+	/* Slurm without task binding (TaskPlugin=task/none) leaves the mask
+	 * whole: the allocation is then only in the environment */
+	if (env && env[0]) {
+		char *end;
+		long k = strtol(env, &end, 10);
+		if (*end == '\0' && k > 0 && k < n)
+			n = k;
+	}
+	return n > 4096 ? 4096 : (int)n;
 }
 
-static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, clipjob *j, wl_err *err)
+/* The manifest's rows sorted by clip, for lookups in O(log n). */
+static int cmp_row(const void *a, const void *b)
+{
+	return strcmp((*(wl_manifest_row *const *)a)->clip, (*(wl_manifest_row *const *)b)->clip);
+}
+
+static wl_manifest_row *find_row(wl_manifest_row **idx, size_t n, const char *clip)
+{
+	size_t lo = 0, hi = n;
+	while (lo < hi) {
+		size_t mid = lo + (hi - lo) / 2;
+		int c = strcmp(idx[mid]->clip, clip);
+		if (c == 0)
+			return idx[mid];
+		if (c < 0)
+			lo = mid + 1;
+		else
+			hi = mid;
+	}
+	return NULL;
+}
+
+static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_row *row, const char *rel,
+                             clipjob *j, wl_err *err)
 {
 	const wl_batch_opts *o = r->o;
-	const wl_manifest_row *row = m ? wl_manifest_find(m, rel) : NULL;
-	char name[PATH_MAX];
+	char name[PATH_MAX], abs[PATH_MAX * 2];
 	size_t i, k = 0;
 	double plane = NAN;
 	wl_err herr;
@@ -230,8 +274,8 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	j->fd = -1;
 	snprintf(j->rel, sizeof j->rel, "%s", rel);
 	snprintf(j->clip_path, sizeof j->clip_path, "%s/%s", o->clip_dir, rel);
-	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir,
-	         wl_batch_clip_name(rel, name, sizeof name));
+	wl_batch_clip_name(rel, name, sizeof name);
+	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir, name);
 	snprintf(j->cal, sizeof j->cal, "%s", o->cal_path ? o->cal_path : "");
 	if (m) {
 		j->names = calloc(m->ncols ? m->ncols : 1, sizeof *j->names);
@@ -249,14 +293,25 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 		if (row)
 			plane = row->opts.plane_height_m;
 	}
-	j->job.clip_path = j->clip_path;
+	/* the worker runs in OUT and sees every path relative to it, so that
+	 * what it writes (clean.json, summary.json, messages) names no folder
+	 * of this node */
+	snprintf(abs, sizeof abs, "%s/%s", r->clip_dir_abs, rel);
+	j->wclip = batch_rel_to(r->out_abs, abs);
+	j->wout = malloc(strlen(name) + 8);
+	j->wcal = batch_rel_to(r->out_abs, j->cal);
+	if (!j->wclip || !j->wout || !j->wcal)
+		return wl_err_set(err, WL_ENOMEM, "out of memory preparing the batch");
+	sprintf(j->wout, "clips/%s", name);
+	j->job.clip_path = j->wclip;
 	j->job.clip_rel = j->rel;
-	j->job.out_dir = j->out_dir;
-	j->job.cal_path = j->cal[0] ? j->cal : NULL;
+	j->job.out_dir = j->wout;
+	j->job.cal_path = j->wcal[0] ? j->wcal : NULL;
 	j->job.plane_height_m = plane;
 	j->job.nparams = k;
 	j->job.param_names = j->names;
 	j->job.param_values = j->values;
+	j->job.threads = r->threads;
 	wl_err_clear(&herr);
 	if (!j->cal[0])
 		snprintf(j->hash_err, sizeof j->hash_err,
@@ -266,137 +321,311 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const char *rel, c
 	return wl_mkdirs(j->out_dir, err);
 }
 
-static wl_status write_batch_json(const wl_batch_opts *o, const wl_manifest *m, wl_err *err)
+/* The lock of one shard (or of the unsharded batch) on OUT. */
+typedef struct {
+	int fd;                 /* flock: the open lock file, else -1 */
+	char dir[PATH_MAX + 8]; /* mkdir: the lock directory, else "" */
+} batch_lock;
+
+static void lock_name(const wl_batch_opts *o, char *buf, size_t cap, const char *suffix)
 {
-	char path[PATH_MAX], msg[PATH_MAX + 256];
-	cJSON *root = cJSON_CreateObject(), *miss;
-	wl_status s;
-	size_t i;
-	if (!root)
-		return wl_err_set(err, WL_ENOMEM, "out of memory writing batch.json");
-	cJSON_AddStringToObject(root, "clip_dir", o->clip_dir);
-	cJSON_AddStringToObject(root, "manifest", o->manifest_path ? o->manifest_path : "");
-	cJSON_AddStringToObject(root, "cal", o->cal_path ? o->cal_path : "");
-	cJSON_AddStringToObject(root, "x_col", o->sweep.x_col ? o->sweep.x_col : "");
-	cJSON_AddStringToObject(root, "group_col", o->sweep.group_col ? o->sweep.group_col : "");
-	cJSON_AddNumberToObject(root, "body_diameter_m", o->sweep.body_diameter_m);
-	miss = cJSON_AddArrayToObject(root, "missing");
-	for (i = 0; m && miss && i < m->nrows; i++) {
-		cJSON *e;
-		if (m->rows[i].found)
-			continue;
-		e = cJSON_CreateObject();
-		if (!e)
-			break;
-		snprintf(msg, sizeof msg,
-		         "%s:%ld: clip '%s' is not under '%s': check the name in the manifest", m->path,
-		         m->rows[i].line, m->rows[i].clip, o->clip_dir);
-		cJSON_AddStringToObject(e, "clip", m->rows[i].clip);
-		cJSON_AddStringToObject(e, "error", msg);
-		cJSON_AddItemToArray(miss, e);
-	}
-	snprintf(path, sizeof path, "%s/batch.json", o->out_dir);
-	s = wl_json_save(path, root, err);
-	cJSON_Delete(root);
-	return s;
+	snprintf(buf, cap, "%s/.lock-%d%s", o->out_dir, o->shard_count > 1 ? o->shard_index : 0, suffix);
 }
 
-static wl_status take_lock(const wl_batch_opts *o, int *fd, wl_err *err)
+static wl_status take_flock(const wl_batch_opts *o, batch_lock *l, wl_err *err)
 {
-	char path[PATH_MAX];
-	snprintf(path, sizeof path, "%s/.lock-%d", o->out_dir, o->shard_count > 1 ? o->shard_index : 0);
-	*fd = open(path, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
-	if (*fd < 0)
+	char path[PATH_MAX + 8];
+	lock_name(o, path, sizeof path, "");
+	l->fd = open(path, O_RDWR | O_CREAT | O_CLOEXEC, 0644);
+	if (l->fd < 0)
 		return wl_err_set(err, WL_EIO, "cannot create '%s': %s: check that the folder is writable",
 		                  path, strerror(errno));
-	if (flock(*fd, LOCK_EX | LOCK_NB) != 0) {
-		close(*fd);
-		*fd = -1;
-		return wl_err_set(err, WL_EINVAL,
-		                  "another batch is writing into '%s': wait for it to end or use another -o",
-		                  o->out_dir);
+	if (flock(l->fd, LOCK_EX | LOCK_NB) != 0) {
+		int e = errno;
+		close(l->fd);
+		l->fd = -1;
+		if (e == EWOULDBLOCK)
+			return wl_err_set(
+			        err, WL_EINVAL,
+			        "another batch is writing into '%s' (it holds '%s'): wait for it to "
+			        "end or use another -o",
+			        o->out_dir, path);
+		return wl_err_set(err, WL_EIO,
+		                  "cannot lock '%s': flock failed: %s (errno %d): the file system may not "
+		                  "support locks; run with --lock dir (a lock directory made with mkdir) "
+		                  "or --lock none (no protection: then make sure no two runs of the same "
+		                  "shard write into '%s' at once)",
+		                  path, strerror(e), e, o->out_dir);
 	}
 	return WL_OK;
 }
 
-static void warn(runner *r, const char *fmt, const char *a, const char *b)
+/* mkdir is atomic on every file system, network ones included; the
+ * directory holds "owner": host, pid and time.  A directory left by a
+ * killed run on this host (its pid gone) is taken over; one from another
+ * host is not: its run may still be going. */
+static wl_status take_dirlock(const wl_batch_opts *o, batch_lock *l, wl_err *err)
+{
+	char owner[PATH_MAX + 16], host[256] = "", line[512], utc[32];
+	int attempt;
+	lock_name(o, l->dir, sizeof l->dir, ".d");
+	snprintf(owner, sizeof owner, "%s/owner", l->dir);
+	gethostname(host, sizeof host - 1);
+	for (attempt = 0; attempt < 2; attempt++) {
+		char *text = NULL, ohost[256] = "", outc[64] = "";
+		size_t len;
+		long opid = 0;
+		if (mkdir(l->dir, 0755) == 0) {
+			batch_utc_now(utc, sizeof utc);
+			snprintf(line, sizeof line, "%s %ld %s\n", host, (long)getpid(), utc);
+			if (wl_write_file_atomic(owner, line, strlen(line), err) != WL_OK) {
+				rmdir(l->dir);
+				l->dir[0] = '\0';
+				return err ? err->code : WL_EIO;
+			}
+			return WL_OK;
+		}
+		if (errno != EEXIST) {
+			wl_status s = wl_err_set(err, WL_EIO, "cannot create the lock directory '%s': %s",
+			                         l->dir, strerror(errno));
+			l->dir[0] = '\0';
+			return s;
+		}
+		if (wl_read_file(owner, 4096, &text, &len, NULL) == WL_OK) {
+			if (sscanf(text, "%255s %ld %63s", ohost, &opid, outc) < 2)
+				ohost[0] = '\0';
+			free(text);
+		}
+		if (attempt == 0 && ohost[0] && strcmp(ohost, host) == 0 && opid > 0 &&
+		    kill((pid_t)opid, 0) != 0 && errno == ESRCH) {
+			unlink(owner); /* its run is gone: a killed batch on this host */
+			rmdir(l->dir);
+			continue;
+		}
+		{
+			char who[400];
+			wl_status s;
+			if (ohost[0])
+				snprintf(who, sizeof who, "host %s pid %ld%s%s", ohost, opid,
+				         outc[0] ? " since " : "", outc);
+			else
+				snprintf(who, sizeof who, "a run that did not say who it is");
+			s = wl_err_set(
+			        err, WL_EINVAL,
+			        "another batch is writing into '%s': the lock directory '%s' belongs to "
+			        "%s: wait for it to end; if it is no longer running (killed, node "
+			        "lost), remove that directory",
+			        o->out_dir, l->dir, who);
+			l->dir[0] = '\0';
+			return s;
+		}
+	}
+	l->dir[0] = '\0';
+	return wl_err_set(err, WL_EIO, "cannot take the lock directory for '%s'", o->out_dir);
+}
+
+static wl_status take_lock(const wl_batch_opts *o, batch_lock *l, wl_err *err)
+{
+	l->fd = -1;
+	l->dir[0] = '\0';
+	switch (o->lock) {
+	case WL_BATCH_LOCK_NONE:
+		return WL_OK;
+	case WL_BATCH_LOCK_DIR:
+		return take_dirlock(o, l, err);
+	default:
+		return take_flock(o, l, err);
+	}
+}
+
+static void drop_lock(batch_lock *l)
+{
+	if (l->fd >= 0)
+		close(l->fd);
+	l->fd = -1;
+	if (l->dir[0]) {
+		char owner[PATH_MAX + 16];
+		snprintf(owner, sizeof owner, "%s/owner", l->dir);
+		unlink(owner);
+		rmdir(l->dir);
+		l->dir[0] = '\0';
+	}
+}
+
+/* A warning about the manifest: on screen with its path as typed, in the
+ * journal (a file in OUT) with its path relative to OUT. */
+static void warn(runner *r, const char *fmt, const char *a, const char *manifest, const char *manifest_rel)
 {
 	char msg[PATH_MAX * 2];
-	snprintf(msg, sizeof msg, fmt, a, b);
+	snprintf(msg, sizeof msg, fmt, a, manifest_rel);
 	batch_journal(r->journal_fd, "warn", NULL, NULL, msg);
+	snprintf(msg, sizeof msg, fmt, a, manifest);
 	emit(r, WL_BATCH_EV_WARN, NULL, msg);
+}
+
+/* The set-up both a run and a plan need: OUT and its absolute path, the
+ * manifest, the clips (rows found marked), the manifest's sorted index. */
+typedef struct {
+	wl_manifest m;
+	int have_m;
+	wl_cliplist cl;
+	wl_manifest_row **idx;
+	char out_abs[PATH_MAX], clip_dir_abs[PATH_MAX];
+	char cal_sha256[65];
+} setup;
+
+static void setup_release(setup *su)
+{
+	free(su->idx);
+	wl_cliplist_release(&su->cl);
+	wl_manifest_release(&su->m);
+}
+
+static wl_status setup_sweep(const wl_batch_opts *o, setup *su, wl_err *err)
+{
+	wl_status s;
+	size_t i;
+	if (o->manifest_path) {
+		if ((s = wl_manifest_load(o->manifest_path, &su->m, err)))
+			return s;
+		su->have_m = 1;
+		su->idx = malloc((su->m.nrows ? su->m.nrows : 1) * sizeof *su->idx);
+		if (!su->idx)
+			return wl_err_set(err, WL_ENOMEM, "out of memory reading the manifest");
+		for (i = 0; i < su->m.nrows; i++)
+			su->idx[i] = &su->m.rows[i];
+		qsort(su->idx, su->m.nrows, sizeof *su->idx, cmp_row);
+	}
+	if ((s = wl_batch_discover(o->clip_dir, o->out_dir, &su->cl, err)))
+		return s;
+	for (i = 0; su->have_m && i < su->cl.n; i++) {
+		wl_manifest_row *row = find_row(su->idx, su->m.nrows, su->cl.rel[i]);
+		if (row)
+			row->found = 1;
+	}
+	if (batch_abspath(o->out_dir, su->out_abs, sizeof su->out_abs) != 0 ||
+	    batch_abspath(o->clip_dir, su->clip_dir_abs, sizeof su->clip_dir_abs) != 0)
+		return wl_err_set(err, WL_EIO, "cannot resolve the folders '%s' and '%s': %s", o->out_dir,
+		                  o->clip_dir, strerror(errno));
+	return batch_cal_digest(o->cal_path, su->cal_sha256, err);
+}
+
+wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
+{
+	setup su;
+	wl_status s;
+	char path[PATH_MAX];
+	size_t i;
+	memset(res, 0, sizeof *res);
+	memset(&su, 0, sizeof su);
+	wl_manifest_init(&su.m);
+	snprintf(path, sizeof path, "%s/clips", o->out_dir);
+	if ((s = wl_mkdirs(o->out_dir, err)) || (s = wl_mkdirs(path, err)) || (s = setup_sweep(o, &su, err)))
+		goto out;
+	res->clips = su.cl.n;
+	for (i = 0; su.have_m && i < su.m.nrows; i++)
+		res->missing += !su.m.rows[i].found;
+	for (i = 0; su.have_m && i < su.cl.n; i++)
+		res->unlisted += !find_row(su.idx, su.m.nrows, su.cl.rel[i]);
+	s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err);
+out:
+	setup_release(&su);
+	return s;
 }
 
 wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
 {
-	wl_manifest m;
-	wl_cliplist cl = {0, NULL};
+	setup su;
 	runner r;
-	int lock_fd = -1, have_m = 0, jobs;
-	size_t i, next = 0;
+	int jobs, cpus, locked = 0;
+	batch_lock lock;
+	size_t i, next = 0, mine = 0;
 	wl_status s;
-	char path[PATH_MAX];
+	char path[PATH_MAX], owner[32], old_owner[32] = "", started[32];
+	char *man_rel = NULL;
 
 	memset(res, 0, sizeof *res);
 	memset(&r, 0, sizeof r);
+	memset(&su, 0, sizeof su);
 	r.o = o;
 	r.res = res;
 	r.journal_fd = -1;
-	wl_manifest_init(&m);
+	wl_manifest_init(&su.m);
 	if (!o->fn)
 		return wl_err_set(err, WL_EINVAL, "no clip function given to the batch");
 	if ((s = wl_mkdirs(o->out_dir, err)))
 		return s;
 	snprintf(path, sizeof path, "%s/clips", o->out_dir);
-	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock_fd, err)))
+	if ((s = wl_mkdirs(path, err)) || (s = take_lock(o, &lock, err)))
 		return s;
-	batch_remove_stale_tmp(o->out_dir);
-	if (o->manifest_path) {
-		if ((s = wl_manifest_load(o->manifest_path, &m, err)))
-			goto out;
-		have_m = 1;
-	}
-	if ((s = wl_batch_discover(o->clip_dir, o->out_dir, &cl, err)))
+	locked = 1;
+	batch_utc_now(started, sizeof started);
+	/* OUT's top is shared with the other shards (each writes batch.json):
+	 * name this run's temporaries and remove only those a killed run of the
+	 * same shard left, never another shard's half-written file */
+	snprintf(old_owner, sizeof old_owner, "%s", wl_afile_owner());
+	if (o->shard_count > 1)
+		snprintf(owner, sizeof owner, "shard%d", o->shard_index);
+	else
+		snprintf(owner, sizeof owner, "batch");
+	wl_afile_set_owner(owner);
+	batch_remove_stale_tmp(o->out_dir, owner);
+	if ((s = setup_sweep(o, &su, err)))
 		goto out;
+	man_rel = batch_rel_to(su.out_abs, o->manifest_path);
+	if (!(su.have_m && batch_manifest_has_cal(&su.m)) && (s = batch_check_cal(o, su.cal_sha256, err)))
+		goto out;
+	snprintf(r.out_abs, sizeof r.out_abs, "%s", su.out_abs);
+	snprintf(r.clip_dir_abs, sizeof r.clip_dir_abs, "%s", su.clip_dir_abs);
 	if (o->shard_count > 1)
 		snprintf(path, sizeof path, "%s/journal-%d.log", o->out_dir, o->shard_index);
 	else
 		snprintf(path, sizeof path, "%s/journal.log", o->out_dir);
 	r.journal_fd = open(path, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
-	r.jobs = calloc(cl.n ? cl.n : 1, sizeof *r.jobs);
+	for (i = 0; i < su.cl.n; i++)
+		mine += !(o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index);
+	r.jobs = calloc(mine ? mine : 1, sizeof *r.jobs);
 	if (!r.jobs) {
-		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", cl.n);
+		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", mine);
 		goto out;
 	}
 	r.t_start = batch_now_s();
-	for (i = 0; i < cl.n; i++) {
-		wl_manifest_row *row = have_m ? (wl_manifest_row *)wl_manifest_find(&m, cl.rel[i]) : NULL;
-		if (row)
-			row->found = 1;
-		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
-			continue;
-		if (have_m && !row) {
-			res->unlisted++;
-			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
-			     cl.rel[i], o->manifest_path);
-		}
-		if ((s = prepare_job(&r, have_m ? &m : NULL, cl.rel[i], &r.jobs[r.njobs], err)))
-			goto out;
-		r.njobs++;
-	}
-	for (i = 0; have_m && i < m.nrows; i++) {
-		if (m.rows[i].found)
-			continue;
-		res->missing++;
-		snprintf(path, sizeof path, "%s:%ld", m.path, m.rows[i].line);
-		warn(&r, "%s: clip '%s' is not under the clip folder: check the name", path, m.rows[i].clip);
-	}
-	if ((s = write_batch_json(o, have_m ? &m : NULL, err)))
-		goto out;
-	res->clips = r.njobs;
-	jobs = o->jobs > 0 ? o->jobs : ncores();
+	cpus = wl_batch_cpus();
+	jobs = o->jobs > 0 ? o->jobs : cpus;
 	if (jobs > MAX_JOBS)
 		jobs = MAX_JOBS;
+	r.threads = o->threads > 0 ? o->threads : (cpus / jobs > 1 ? cpus / jobs : 1);
+	res->jobs = jobs;
+	res->threads = r.threads;
+	res->cpus = cpus;
+	for (i = 0; i < su.cl.n; i++) {
+		const wl_manifest_row *row = su.have_m ? find_row(su.idx, su.m.nrows, su.cl.rel[i]) : NULL;
+		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
+			continue;
+		if (su.have_m && !row) {
+			res->unlisted++;
+			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
+			     su.cl.rel[i], o->manifest_path, man_rel ? man_rel : "");
+		}
+		if ((s = prepare_job(&r, su.have_m ? &su.m : NULL, row, su.cl.rel[i], &r.jobs[r.njobs],
+		                     err))) {
+			r.njobs++; /* what it allocated is freed below */
+			goto out;
+		}
+		r.njobs++;
+	}
+	for (i = 0; su.have_m && i < su.m.nrows; i++) {
+		if (su.m.rows[i].found)
+			continue;
+		res->missing++;
+		snprintf(path, sizeof path, "%s' on line %ld", su.m.rows[i].clip, su.m.rows[i].line);
+		warn(&r, "clip '%s of the manifest '%s' is not under the clip folder: check the name", path,
+		     su.m.path, man_rel ? man_rel : "");
+	}
+	if ((s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err)) ||
+	    (s = batch_shard_record(o, su.cal_sha256, r.njobs, 0, started, err)))
+		goto out;
+	res->clips = r.njobs;
 	while (next < r.njobs || r.running) {
 		while (next < r.njobs && (int)r.running < jobs) {
 			clipjob *j = &r.jobs[next++];
@@ -404,17 +633,20 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 			if (j->hash_err[0]) {
 				wl_err e2;
 				wl_err_clear(&e2);
-				wl_batch_mark(j->out_dir, &j->job, "", 0, j->hash_err, 0, &e2);
+				batch_mark(j->out_dir, &j->job, "", -1, "", 0, j->hash_err, 0, &e2);
 				res->failed++;
 				r.finished++;
 				batch_journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
 				emit(&r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
 				continue;
 			}
-			if (!o->force &&
-			    batch_is_complete(j->out_dir, &j->job, j->hash, o->outputs, &differ)) {
+			if (wl_batch_input_digest(j->clip_path, j->digest, &j->size, NULL) != WL_OK)
+				j->digest[0] = '\0'; /* unreadable: the worker says why */
+			if (!o->force && batch_is_complete(j->out_dir, &j->job, j->digest, j->size, j->hash,
+			                                   o->outputs, &differ)) {
 				if (differ) /* new parameter cells only: no need to redo the clip */
-					wl_batch_mark(j->out_dir, &j->job, j->hash, 1, NULL, 0, NULL);
+					batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, 1, NULL,
+					           0, NULL);
 				res->skipped++;
 				r.finished++;
 				batch_journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
@@ -426,6 +658,7 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		}
 		pump(&r);
 	}
+	batch_shard_record(o, su.cal_sha256, r.njobs, 1, started, NULL);
 	if (o->shard_count <= 1) {
 		wl_batch_result mr;
 		if ((s = wl_batch_merge(o->out_dir, &o->sweep, &mr, err)))
@@ -443,13 +676,18 @@ out:
 	for (i = 0; i < r.njobs; i++) {
 		free(r.jobs[i].names);
 		free(r.jobs[i].values);
+		free(r.jobs[i].wclip);
+		free(r.jobs[i].wout);
+		free(r.jobs[i].wcal);
 	}
 	free(r.jobs);
 	if (r.journal_fd >= 0)
 		close(r.journal_fd);
-	if (lock_fd >= 0)
-		close(lock_fd);
-	wl_cliplist_release(&cl);
-	wl_manifest_release(&m);
+	if (locked) {
+		drop_lock(&lock);
+		wl_afile_set_owner(old_owner);
+	}
+	free(man_rel);
+	setup_release(&su);
 	return s;
 }

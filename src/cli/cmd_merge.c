@@ -11,34 +11,46 @@
 
 const char cmd_merge_summary[] = "rebuild summary.csv and report.html from a batch's clip folders";
 
-static const char USAGE[] = "usage: wakeline merge OUTDIR [--x COLUMN] [--group COLUMN] [--body-m D]\n"
-                            "\n"
-                            "Reads OUTDIR/clips/*/clip.json and summary.json (written by `wakeline batch`,\n"
-                            "possibly by several shards or cluster jobs) and writes OUTDIR/summary.csv,\n"
-                            "OUTDIR/report.html and the sweep plots.  Clip folders without plots get them\n"
-                            "drawn from their clean.csv and summary.json.\n"
-                            "\n"
-                            "  --x COLUMN      manifest column on the sweep plots' x axis\n"
-                            "                  (default: the one the batch was given)\n"
-                            "  --group COLUMN  manifest column that groups the sweep points\n"
-                            "  --body-m D      body diameter in metres for the shaded band\n"
-                            "                  (default: from the runs' radius_body_diameters)\n"
-                            "  -h, --help      this text\n"
-                            "\n"
-                            "Exit status: 0 every clip has runs, 1 a clip failed or is missing (or an\n"
-                            "error), 2 usage error.\n";
+static const char USAGE[] =
+        "usage: wakeline merge OUTDIR [--partial] [--x COLUMN] [--group COLUMN] [--body-m D]\n"
+        "\n"
+        "Reads OUTDIR/clips/*/clip.json and summary.json (written by `wakeline batch`,\n"
+        "possibly by several shards or cluster jobs) and writes OUTDIR/summary.csv,\n"
+        "OUTDIR/report.html and the sweep plots.  Clip folders without plots get them\n"
+        "drawn from their clean.csv and summary.json.\n"
+        "\n"
+        "Every clip of the sweep that failed or has no result is listed, with its\n"
+        "message, here, in summary.csv (status failed or missing) and in the report:\n"
+        "OUTDIR/batch.json names every clip of the sweep, so the clips of a shard that\n"
+        "never ran are listed too, with the shard to run again.\n"
+        "\n"
+        "  --partial       exit 0 even when clips failed or are missing (a look at a\n"
+        "                  sweep that is still running, or a report despite them)\n"
+        "  --x COLUMN      manifest column on the sweep plots' x axis\n"
+        "                  (default: the one the batch was given)\n"
+        "  --group COLUMN  manifest column that groups the sweep points\n"
+        "  --body-m D      body diameter in metres for the shaded band\n"
+        "                  (default: from the runs' radius_body_diameters)\n"
+        "  -h, --help      this text\n"
+        "\n"
+        "Exit status: 0 every clip has runs (or --partial), 1 a clip failed or is\n"
+        "missing (or an error), 2 usage error.\n";
+
+static void on_problem(const char *clip, const char *status, const char *msg, void *ctx)
+{
+	(void)ctx;
+	printf("merge: %-7s %s: %s\n", status, clip, msg);
+}
 
 int cmd_merge(int argc, char **argv)
 {
 	static const struct option opts[] = {
-	        {"x", required_argument, NULL, 'x'},
-	        {"group", required_argument, NULL, 'g'},
-	        {"body-m", required_argument, NULL, 'b'},
-	        {"help", no_argument, NULL, 'h'},
-	        {NULL, 0, NULL, 0},
+	        {"x", required_argument, NULL, 'x'},      {"group", required_argument, NULL, 'g'},
+	        {"body-m", required_argument, NULL, 'b'}, {"partial", no_argument, NULL, 'p'},
+	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
 	};
 	wl_report_sweep_opts so = {NULL, NULL, 0};
-	int use_so = 0, c;
+	int use_so = 0, partial = 0, c;
 	wl_batch_result res;
 	wl_err err;
 
@@ -59,6 +71,9 @@ int cmd_merge(int argc, char **argv)
 				        "merge", "--body-m wants a length in metres > 0, not '%s'", optarg);
 			use_so = 1;
 			break;
+		case 'p':
+			partial = 1;
+			break;
 		case 'h':
 			fputs(USAGE, stdout);
 			return cli_finish("merge", WL_EXIT_OK);
@@ -69,11 +84,17 @@ int cmd_merge(int argc, char **argv)
 	if (argc - optind != 1)
 		return cli_usage_error("merge", "wants one OUTDIR (the -o folder of a batch)");
 	wl_err_clear(&err);
-	c = wl_batch_merge(argv[optind], use_so ? &so : NULL, &res, &err);
+	c = wl_batch_merge_report(argv[optind], use_so ? &so : NULL, on_problem, NULL, &res, &err);
 	wl_report_release_caches();
 	if (c != WL_OK)
 		return cli_fail("merge", &err);
 	printf("merge: %zu runs from %zu clip folders, %zu failed, %zu missing; see %s/report.html\n",
 	       res.runs, res.clips, res.failed, res.missing, argv[optind]);
-	return cli_finish("merge", res.failed || res.missing ? WL_EXIT_FAIL : WL_EXIT_OK);
+	if ((res.failed || res.missing) && !partial)
+		fprintf(stderr,
+		        "wakeline merge: %zu clips failed and %zu are missing (listed above, in summary.csv "
+		        "and "
+		        "the report): run their shards again, or give --partial to accept a partial sweep\n",
+		        res.failed, res.missing);
+	return cli_finish("merge", (res.failed || res.missing) && !partial ? WL_EXIT_FAIL : WL_EXIT_OK);
 }

@@ -17,13 +17,29 @@ struct wl_afile {
 };
 
 static atomic_uint tmp_counter;
+static char owner_tag[32];
+
+void wl_afile_set_owner(const char *tag)
+{
+	size_t i, n = 0;
+	for (i = 0; tag && tag[i] && n + 1 < sizeof owner_tag; i++)
+		if ((tag[i] >= 'a' && tag[i] <= 'z') || (tag[i] >= 'A' && tag[i] <= 'Z') ||
+		    (tag[i] >= '0' && tag[i] <= '9'))
+			owner_tag[n++] = tag[i];
+	owner_tag[n] = '\0';
+}
+
+const char *wl_afile_owner(void)
+{
+	return owner_tag;
+}
 
 wl_status wl_afile_open(const char *path, wl_afile **out, wl_err *err)
 {
 	wl_afile *af = NULL;
 	const char *slash = strrchr(path, '/');
 	size_t dirlen = slash ? (size_t)(slash - path + 1) : 0;
-	size_t n = strlen(path) + 64;
+	size_t n = strlen(path) + 96;
 	int fd = -1;
 
 	*out = NULL;
@@ -34,8 +50,12 @@ wl_status wl_afile_open(const char *path, wl_afile **out, wl_err *err)
 	af->tmp = malloc(n);
 	if (!af->path || !af->tmp)
 		goto nomem;
-	snprintf(af->tmp, n, "%.*s.%s.tmp-%ld-%u", (int)dirlen, path, path + dirlen, (long)getpid(),
-	         atomic_fetch_add(&tmp_counter, 1));
+	if (owner_tag[0])
+		snprintf(af->tmp, n, "%.*s.%s.tmp-%s-%ld-%u", (int)dirlen, path, path + dirlen, owner_tag,
+		         (long)getpid(), atomic_fetch_add(&tmp_counter, 1));
+	else
+		snprintf(af->tmp, n, "%.*s.%s.tmp-%ld-%u", (int)dirlen, path, path + dirlen, (long)getpid(),
+		         atomic_fetch_add(&tmp_counter, 1));
 	fd = open(af->tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
 	if (fd < 0) {
 		wl_err_set(err, WL_EIO,

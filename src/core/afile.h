@@ -17,6 +17,17 @@
 
 typedef struct wl_afile wl_afile;
 
+/* Names the owner of the temporary files this process makes from now on:
+ * ".<name>.tmp-<tag>-<pid>-<n>" instead of ".<name>.tmp-<pid>-<n>", so that
+ * a program sharing a folder with others (the shards of a batch) can find
+ * and remove its own leftovers and no one else's.  Only letters and digits
+ * of tag are kept (at most 31); NULL or "" gives the plain names again.
+ * Process-wide and not thread-safe: set it before threads start (forked
+ * children inherit it). */
+void wl_afile_set_owner(const char *tag);
+/* The tag in force ("" when none). */
+const char *wl_afile_owner(void);
+
 /* Opens a temporary file for `path`.  Fails with WL_EIO naming the path. */
 wl_status wl_afile_open(const char *path, wl_afile **out, wl_err *err);
 

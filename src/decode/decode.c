@@ -5,18 +5,23 @@
  * gray, through libswscale otherwise (10-bit, RGB sources).  Packed RGB24 is
  * made only when WL_DECODE_RGB is asked for.  See decode.h for the contract.
  */
+#define _POSIX_C_SOURCE 200809L
 #include "decode/decode.h"
 
 #include "core/csvio.h"
+#include "decode/record.h"
 
 #include <errno.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <time.h>
 
 #include <libavcodec/avcodec.h>
+#include <libavdevice/avdevice.h>
 #include <libavformat/avformat.h>
 #include <libavutil/display.h>
 #include <libavutil/imgutils.h>
@@ -27,6 +32,10 @@
 /* After this many receive errors in a row the stream is given up (a decoder
  * that keeps failing would otherwise spin). */
 #define MAX_ERRORS_IN_A_ROW 1000
+
+/* Packets whose arrival is remembered to time the frames they become (a
+ * frame comes out of the decoder after its packet, later with reordering). */
+#define ARRIVAL_KEEP 64
 
 /* A swscale conversion and its output frame, remade when the input changes. */
 struct conv {
@@ -66,7 +75,45 @@ struct wl_decoder {
 	int errors_in_a_row;
 
 	struct conv *luma_conv, *rgb_conv;
+
+	/* live sources (wl_decode_opts) */
+	wl_decode_opts o;
+	char source[1024];
+	double t_last_read;      /* monotonic time of the last packet (or of the open) */
+	int opening;             /* in the open: open_timeout_s applies */
+	double last_arrival;     /* arrival of the last packet of our stream */
+	double arrival_origin_s; /* live without timestamps: the first frame's arrival (t_s 0) */
+	int no_timestamps;       /* live, and the container has none (AVFMT_NOTIMESTAMPS) */
+	struct {
+		int64_t pts;
+		double t, lag;
+	} arrival[ARRIVAL_KEEP];
+	int narrival;
+	int rt_started; /* realtime: the first packet's time and wall clock are set */
+	double rt_wall0, rt_ts0;
+	int have_off; /* max_lag_s: the least (arrival - timestamp) seen */
+	double min_off;
+	int skipping; /* dropping packets up to a key frame on time */
+	int seen_key; /* the demuxer marks key frames */
+	int64_t skipped;
+	wl_rec *rec;
+	int rec_failed;
+	char rec_error[160];
+	wl_decode_end end;
+	char end_what[256];
 };
+
+static double mono_now(void)
+{
+	struct timespec ts;
+	clock_gettime(CLOCK_MONOTONIC, &ts);
+	return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+void wl_decode_opts_init(wl_decode_opts *o)
+{
+	memset(o, 0, sizeof *o);
+}
 
 /* ---- orientation ------------------------------------------------------ */
 
@@ -261,11 +308,41 @@ static wl_status check_sizes(const AVFormatContext *fmt, const char *path, wl_er
 	return WL_OK;
 }
 
-static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
+/* Polled by FFmpeg while it waits for input: stops on request, and for a
+ * live source when nothing arrived for timeout_s. */
+static int interrupt_cb(void *ctx)
+{
+	wl_decoder *dec = ctx;
+	double limit = dec->opening && dec->o.open_timeout_s > 0 ? dec->o.open_timeout_s : dec->o.timeout_s;
+	if (dec->o.interrupt && dec->o.interrupt(dec->o.interrupt_ctx)) {
+		dec->end = WL_END_STOPPED;
+		snprintf(dec->end_what, sizeof dec->end_what, "stopped");
+		return 1;
+	}
+	if (dec->o.live && limit > 0 && mono_now() - dec->t_last_read > limit) {
+		char b[WL_NUMBUF];
+		dec->end = WL_END_TIMEOUT;
+		snprintf(dec->end_what, sizeof dec->end_what, "no data for %s s", wl_fmt_fixed(b, limit, 1));
+		return 1;
+	}
+	return 0;
+}
+
+static int is_url(const char *s)
+{
+	return strstr(s, "://") != NULL;
+}
+
+static pthread_once_t devices_once = PTHREAD_ONCE_INIT;
+static void register_devices(void)
+{
+	avdevice_register_all();
+}
+
+/* A file given by path: the checks that give clearer messages than FFmpeg's. */
+static wl_status check_file(const char *path, wl_err *err)
 {
 	struct stat sb;
-	int ret;
-
 	if (stat(path, &sb) != 0)
 		return wl_err_set(err, WL_EIO, "%s: cannot open video: %s: check the path", path,
 		                  strerror(errno));
@@ -275,18 +352,114 @@ static wl_status open_input(wl_decoder *dec, const char *path, wl_err *err)
 	if (S_ISREG(sb.st_mode) && sb.st_size == 0)
 		return wl_err_set(err, WL_EFORMAT,
 		                  "%s: the file is empty: copy the clip again from the camera", path);
-	ret = avformat_open_input(&dec->fmt, path, NULL, NULL);
-	if (ret < 0)
-		return av_fail(err, path, "cannot read as video", ret,
-		               "check that it is a video file (MP4, MOV, MKV...) and not truncated");
+	return WL_OK;
+}
+
+/* The demuxer options: the caller's, and for a live source short probing
+ * without frame-rate analysis (it would hold frames back at the start). */
+static AVDictionary *input_options(const char *path, const wl_decode_opts *o)
+{
+	AVDictionary *d = NULL;
+	for (const char *const *kv = o->options; kv && kv[0] && kv[1]; kv += 2)
+		av_dict_set(&d, kv[0], kv[1], 0);
+	if (o->live && (strncmp(path, "udp://", 6) == 0 || strncmp(path, "rtp://", 6) == 0))
+		/* a reader that fell behind catches up (skipping) rather than
+		 * failing when FFmpeg's receive buffer fills */
+		av_dict_set(&d, "overrun_nonfatal", "1", AV_DICT_DONT_OVERWRITE);
+	if (o->live) {
+		av_dict_set(&d, "probesize", "500000", AV_DICT_DONT_OVERWRITE);
+		av_dict_set(&d, "analyzeduration", "1000000", AV_DICT_DONT_OVERWRITE);
+		av_dict_set(&d, "fpsprobesize", "0", AV_DICT_DONT_OVERWRITE);
+	}
+	return d;
+}
+
+static wl_status open_failed(wl_decoder *dec, const char *path, int ret, wl_err *err)
+{
+	char b[WL_NUMBUF];
+	if (dec->end == WL_END_STOPPED)
+		return wl_err_set(err, WL_EIO, "%s: stopped before the stream opened", path);
+	if (dec->end == WL_END_TIMEOUT)
+		return wl_err_set(
+		        err, WL_EIO,
+		        "%s: no data for %s s: check that the camera or sender is running and "
+		        "sends to this address",
+		        path,
+		        wl_fmt_fixed(b, dec->o.open_timeout_s > 0 ? dec->o.open_timeout_s : dec->o.timeout_s,
+		                     1));
+	if (is_url(path) || dec->o.format)
+		return av_fail(err, path, "cannot open the source", ret,
+		               "check the address or device, and that the sender or camera is running");
+	return av_fail(err, path, "cannot read as video", ret,
+	               "check that it is a video file (MP4, MOV, MKV...) and not truncated");
+}
+
+static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_opts *o, wl_err *err)
+{
+	const AVInputFormat *ifmt = NULL;
+	const char *fname = o->format;
+	AVDictionary *opts, *opts_given = NULL;
+	const AVDictionaryEntry *e = NULL;
+	int ret;
+	wl_status st;
+
+	if (!fname && strncmp(path, "/dev/video", 10) == 0)
+		fname = "v4l2"; /* a V4L2 device is not probed as a file */
+	if (!fname && !is_url(path) && (st = check_file(path, err)) != WL_OK)
+		return st;
+	if (fname) {
+		pthread_once(&devices_once, register_devices);
+		if (!(ifmt = av_find_input_format(fname)))
+			return wl_err_set(
+			        err, WL_EINVAL,
+			        "input format '%s' is not known to this FFmpeg: see 'ffmpeg -formats' "
+			        "and 'ffmpeg -devices'",
+			        fname);
+	}
+	if (!(dec->fmt = avformat_alloc_context()))
+		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
+	dec->fmt->interrupt_callback.callback = interrupt_cb;
+	dec->fmt->interrupt_callback.opaque = dec;
+	opts = input_options(path, o);
+	av_dict_copy(&opts_given, opts, 0);
+	dec->t_last_read = mono_now();
+	dec->opening = 1;
+	ret = avformat_open_input(&dec->fmt, path, ifmt, &opts);
+	if (ret < 0) {
+		av_dict_free(&opts);
+		av_dict_free(&opts_given);
+		return open_failed(dec, path, ret, err);
+	}
+	while ((e = av_dict_get(opts, "", e, AV_DICT_IGNORE_SUFFIX)))
+		wl_diag_warn(o->diag, "decode", "%s: option '%s' was not used by this source: check its name",
+		             path, e->key);
+	/* MPEG-TS: each PES holds one whole frame (as FFmpeg, GStreamer and
+	 * cameras write it), so the parser, which holds every frame back until
+	 * the next one starts, is left out: that saves a frame interval of delay.
+	 * fflags given by the user decide instead. */
+	if (o->live && !av_dict_get(opts_given, "fflags", NULL, 0) &&
+	    strcmp(dec->fmt->iformat->name, "mpegts") == 0)
+		dec->fmt->flags |= AVFMT_FLAG_NOPARSE;
+	av_dict_free(&opts);
+	av_dict_free(&opts_given);
+	/* MJPEG over HTTP and the like carry no times: frames are timed by
+	 * their arrival (emit), and no lag can be told */
+	dec->no_timestamps = o->live && (dec->fmt->iformat->flags & AVFMT_NOTIMESTAMPS);
+	/* a device hands out frames as they are captured: nothing to buffer */
+	if (o->live && dec->fmt->iformat->priv_class &&
+	    dec->fmt->iformat->priv_class->category == AV_CLASS_CATEGORY_DEVICE_VIDEO_INPUT)
+		dec->fmt->flags |= AVFMT_FLAG_NOBUFFER;
 	/* checked before and after reading the first packets: some demuxers
 	 * (raw video, Y4M) read whole frames of the announced size */
 	if (check_sizes(dec->fmt, path, err) != WL_OK)
 		return WL_EFORMAT;
 	ret = avformat_find_stream_info(dec->fmt, NULL);
 	if (ret < 0)
-		return av_fail(err, path, "cannot read the stream headers", ret,
-		               "the file may be damaged; try re-exporting it");
+		return dec->end != WL_END_NONE ? open_failed(dec, path, ret, err)
+		                               : av_fail(err, path, "cannot read the stream headers", ret,
+		                                         "the file may be damaged; try re-exporting it");
+	dec->opening = 0;
+	dec->t_last_read = mono_now();
 	return check_sizes(dec->fmt, path, err);
 }
 
@@ -302,7 +475,7 @@ static int stream_unknown(const AVFormatContext *fmt)
 	return 0;
 }
 
-static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_err *err)
+static wl_status open_codec(wl_decoder *dec, const char *path, wl_err *err)
 {
 	const AVCodec *codec = NULL;
 	int ret = av_find_best_stream(dec->fmt, AVMEDIA_TYPE_VIDEO, -1, -1, &codec, 0);
@@ -333,8 +506,10 @@ static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_e
 		               "the stream headers may be damaged");
 	dec->cc->pkt_timebase = dec->st->time_base;
 	dec->cc->max_pixels = WL_DECODE_MAX_PIXELS; /* FFmpeg refuses larger frames mid-stream */
-	dec->cc->thread_type = FF_THREAD_FRAME;
-	dec->cc->thread_count = threads > 0 ? threads : 0;
+	/* frame threads hold back a frame per thread: a live source uses slice
+	 * threads only (which help when the stream has several slices) */
+	dec->cc->thread_type = dec->o.live ? FF_THREAD_SLICE : FF_THREAD_FRAME;
+	dec->cc->thread_count = dec->o.threads > 0 ? dec->o.threads : 0;
 	ret = avcodec_open2(dec->cc, codec, NULL);
 	if (ret < 0)
 		return av_fail(err, path, "cannot open the decoder", ret,
@@ -342,7 +517,7 @@ static wl_status open_codec(wl_decoder *dec, const char *path, int threads, wl_e
 	return WL_OK;
 }
 
-wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_decoder **out, wl_err *err)
+wl_status wl_decoder_open_ex(const char *path, const wl_decode_opts *o, wl_decoder **out, wl_err *err)
 {
 	wl_decoder *dec;
 	wl_status st;
@@ -354,16 +529,25 @@ wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_deco
 	dec = calloc(1, sizeof *dec);
 	if (!dec)
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
-	dec->flags = flags;
-	st = open_input(dec, path, err);
+	dec->o = *o;
+	dec->flags = o->flags;
+	snprintf(dec->source, sizeof dec->source, "%s", path);
+	st = open_input(dec, path, o, err);
 	if (st == WL_OK)
-		st = open_codec(dec, path, threads, err);
+		st = open_codec(dec, path, err);
 	if (st == WL_OK) {
 		dec->pkt = av_packet_alloc();
 		dec->frame = av_frame_alloc();
 		if (!dec->pkt || !dec->frame)
 			st = wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
 	}
+	if (st == WL_OK && o->record_path)
+		st = wl_rec_open(o->record_path, dec->st, &dec->rec, err);
+	/* borrowed for the open only (diag.h); the rest are not needed later */
+	dec->o.diag = NULL;
+	dec->o.format = NULL;
+	dec->o.options = NULL;
+	dec->o.record_path = NULL;
 	if (st != WL_OK) {
 		wl_decoder_destroy(dec);
 		return st;
@@ -371,6 +555,15 @@ wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_deco
 	fill_info(dec, path);
 	*out = dec;
 	return WL_OK;
+}
+
+wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_decoder **out, wl_err *err)
+{
+	wl_decode_opts o;
+	wl_decode_opts_init(&o);
+	o.flags = flags;
+	o.threads = threads;
+	return wl_decoder_open_ex(path, &o, out, err);
 }
 
 const wl_video_info *wl_decoder_info(const wl_decoder *dec)
@@ -531,6 +724,31 @@ static wl_status make_planes(wl_decoder *dec, wl_err *err)
 
 /* ---- the decoding loop -------------------------------------------------- */
 
+/* The recording stops at its first error; the stream goes on. */
+static void rec_error(wl_decoder *dec, int averr)
+{
+	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
+	av_strerror(averr, buf, sizeof buf);
+	dec->rec_failed = 1;
+	snprintf(dec->rec_error, sizeof dec->rec_error, "cannot write the recording: %s", buf);
+}
+
+/* The arrival time and input lag of the packet with presentation time pts
+ * (the last packet's when it is no longer remembered). */
+static void arrival_of(const wl_decoder *dec, int64_t pts, wl_frame *o)
+{
+	int n = dec->narrival < ARRIVAL_KEEP ? dec->narrival : ARRIVAL_KEEP;
+	o->arrival_s = dec->last_arrival;
+	o->lag_s = NAN;
+	if (pts != AV_NOPTS_VALUE)
+		for (int i = 0; i < n; i++)
+			if (dec->arrival[i].pts == pts) {
+				o->arrival_s = dec->arrival[i].t;
+				o->lag_s = dec->arrival[i].lag;
+				return;
+			}
+}
+
 /* Times the frame just received and fills dec->out. */
 static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 {
@@ -546,14 +764,28 @@ static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 		dec->origin_offset_s = dec->have_last ? dec->last_t_s + dec->guess_dt_s : 0.0;
 		dec->info.first_pts_s = (double)ts * dec->tb_s - dec->origin_offset_s;
 	}
+	arrival_of(dec, f->pts != AV_NOPTS_VALUE ? f->pts : ts, o);
+	if (dec->no_timestamps)
+		ts = AV_NOPTS_VALUE; /* libavformat's are made up at a nominal rate */
 	if (ts != AV_NOPTS_VALUE) {
 		o->t_s = ts_to_t(dec, ts);
+	} else if (dec->o.live) {
+		/* A live source without timestamps (HTTP MJPEG): the arrival is
+		 * the best clock there is, and says so. */
+		if (!dec->have_last)
+			dec->arrival_origin_s = o->arrival_s;
+		o->t_s = o->arrival_s - dec->arrival_origin_s;
+		if (dec->have_last && o->t_s <= dec->last_t_s)
+			o->t_s = dec->last_t_s + 1e-6;
+		o->time_guessed = 1;
 	} else {
 		/* No timestamp: continue from the last frame at the nominal rate, and say so. */
 		o->t_s = dec->have_last ? dec->last_t_s + dec->guess_dt_s : 0.0;
 		o->time_guessed = 1;
 	}
-	o->index = next_index(dec);
+	/* frames skipped to catch up keep their numbers: the index counts
+	 * every frame of the stream seen so far */
+	o->index = dec->after_seek ? -1 : dec->nframes + dec->skipped;
 	o->width_px = f->width;
 	o->height_px = f->height;
 	o->corrupt = (f->flags & AV_FRAME_FLAG_CORRUPT) || f->decode_error_flags;
@@ -562,11 +794,166 @@ static wl_status emit(wl_decoder *dec, const wl_frame **frame, wl_err *err)
 	dec->last_t_s = o->t_s;
 	dec->have_last = 1;
 	dec->nframes++;
+	if (dec->rec && !dec->rec_failed) {
+		int ret = wl_rec_ready(dec->rec, dec->cc, dec->st);
+		if (ret < 0)
+			rec_error(dec, ret);
+	}
 	st = make_planes(dec, err);
 	if (st != WL_OK)
 		return st;
 	*frame = o;
 	return WL_OK;
+}
+
+/* --realtime: waits until the packet's time has come on the wall clock
+ * (measured from the first packet), in short sleeps that watch for a stop. */
+static void pace(wl_decoder *dec, double ts_s)
+{
+	double wait;
+	if (!dec->rt_started) {
+		dec->rt_started = 1;
+		dec->rt_wall0 = mono_now();
+		dec->rt_ts0 = ts_s;
+		return;
+	}
+	while ((wait = dec->rt_wall0 + (ts_s - dec->rt_ts0) - mono_now()) > 0) {
+		struct timespec ts;
+		if (dec->o.interrupt && dec->o.interrupt(dec->o.interrupt_ctx))
+			return;
+		if (wait > 0.02)
+			wait = 0.02;
+		ts.tv_sec = 0;
+		ts.tv_nsec = (long)(wait * 1e9);
+		nanosleep(&ts, NULL);
+	}
+}
+
+/* A timestamp jump larger than this is a new time line (a sender that
+ * restarted), not a decoder that fell behind. */
+#define LAG_DISCONTINUITY_S 10.0
+
+/*
+ * max_lag_s: how far the input runs behind the stream's own clock is
+ * (arrival - timestamp) less its least value so far (the least transport
+ * delay seen); a burst of packets that were held back at the start reads
+ * as no lag, since the least offset is taken as they come.  Past max_lag_s
+ * packets are dropped up to a key frame that is back within half of it,
+ * and the decoder starts again from there.  Returns 0 to drop the packet.
+ */
+static double input_lag(wl_decoder *dec, double ts_s, double now)
+{
+	double off = now - ts_s, lag;
+	if (!dec->have_off || off < dec->min_off) {
+		dec->min_off = off;
+		dec->have_off = 1;
+	}
+	lag = off - dec->min_off;
+	if (lag > LAG_DISCONTINUITY_S) {
+		dec->min_off = off;
+		lag = 0;
+	}
+	return lag;
+}
+
+static int catch_up(wl_decoder *dec, double lag)
+{
+	if (!dec->skipping && lag > dec->o.max_lag_s)
+		dec->skipping = 1;
+	if (!dec->skipping)
+		return 1;
+	/* a stream whose demuxer marks no key frames resumes when on time */
+	if ((!dec->seen_key || (dec->pkt->flags & AV_PKT_FLAG_KEY)) && lag <= 0.5 * dec->o.max_lag_s) {
+		dec->skipping = 0;
+		avcodec_flush_buffers(dec->cc);
+		return 1;
+	}
+	dec->skipped++;
+	return 0;
+}
+
+/* True when an H.264 or HEVC packet in Annex B form (start codes, as in
+ * MPEG-TS and raw streams) holds an IDR picture (H.264 NAL type 5; HEVC
+ * types 16-21, the random access points).  MPEG-TS read without the parser
+ * leaves key flags unset; the recording and the catching up need them. */
+static int annexb_key(enum AVCodecID id, const uint8_t *d, int n)
+{
+	for (int i = 0; i + 3 < n; i++) {
+		int t;
+		if (d[i] != 0 || d[i + 1] != 0 || d[i + 2] != 1)
+			continue;
+		if (id == AV_CODEC_ID_H264 && (d[i + 3] & 0x1f) == 5)
+			return 1;
+		t = (d[i + 3] >> 1) & 0x3f;
+		if (id == AV_CODEC_ID_HEVC && t >= 16 && t <= 21)
+			return 1;
+		i += 2;
+	}
+	return 0;
+}
+
+/* Marks key frames the demuxer left unmarked: intra-only codecs always,
+ * H.264 and HEVC by their NAL units. */
+static void mark_key(wl_decoder *dec, AVPacket *p)
+{
+	const AVCodecDescriptor *cd = avcodec_descriptor_get(dec->cc->codec_id);
+	if (p->flags & AV_PKT_FLAG_KEY)
+		return;
+	if ((cd && (cd->props & AV_CODEC_PROP_INTRA_ONLY)) || annexb_key(dec->cc->codec_id, p->data, p->size))
+		p->flags |= AV_PKT_FLAG_KEY;
+}
+
+/* A packet of our stream came in: paced (realtime), recorded, its arrival
+ * remembered, and dropped when catching up.  Returns 0 to drop it. */
+static int arrive(wl_decoder *dec)
+{
+	AVPacket *p = dec->pkt;
+	int64_t ts = p->dts != AV_NOPTS_VALUE ? p->dts : p->pts;
+	double ts_s = ts != AV_NOPTS_VALUE && !dec->no_timestamps ? (double)ts * dec->tb_s : NAN;
+	double now, lag;
+	if (dec->o.realtime && isfinite(ts_s))
+		pace(dec, ts_s);
+	now = mono_now();
+	dec->last_arrival = now;
+	if (dec->o.live)
+		mark_key(dec, p);
+	if (dec->rec && !dec->rec_failed) {
+		int ret = wl_rec_packet(dec->rec, p, dec->st);
+		if (ret < 0)
+			rec_error(dec, ret);
+	}
+	/* what a demuxer flushes after the end waited for the end, not in a
+	 * buffer: no lag for it */
+	lag = dec->o.live && isfinite(ts_s) && dec->end == WL_END_NONE ? input_lag(dec, ts_s, now) : NAN;
+	dec->arrival[dec->narrival % ARRIVAL_KEEP].pts = p->pts != AV_NOPTS_VALUE ? p->pts : p->dts;
+	dec->arrival[dec->narrival % ARRIVAL_KEEP].t = now;
+	dec->arrival[dec->narrival % ARRIVAL_KEEP].lag = lag;
+	dec->narrival++;
+	if (p->flags & AV_PKT_FLAG_KEY)
+		dec->seen_key = 1;
+	/* the packets a demuxer flushes after the end (a stop or a timeout)
+	 * are late by then, but they are the stream's last frames: kept */
+	if (dec->o.live && dec->o.max_lag_s > 0 && isfinite(ts_s) && dec->end == WL_END_NONE)
+		return catch_up(dec, lag);
+	return 1;
+}
+
+/* Why reading stopped (a stop or timeout is set by interrupt_cb). */
+static void note_end(wl_decoder *dec, int ret)
+{
+	char buf[AV_ERROR_MAX_STRING_SIZE] = "";
+	if (dec->end == WL_END_STOPPED || dec->end == WL_END_TIMEOUT)
+		return;
+	/* a demuxer that meets the end of its input in mid-packet (MJPEG over
+	 * HTTP when the server closes) says invalid data: an end all the same */
+	if (ret == AVERROR_EOF || (dec->fmt->pb && dec->fmt->pb->eof_reached && !dec->fmt->pb->error)) {
+		dec->end = WL_END_EOF;
+		snprintf(dec->end_what, sizeof dec->end_what, "end of stream");
+		return;
+	}
+	av_strerror(ret, buf, sizeof buf);
+	dec->end = WL_END_ERROR;
+	snprintf(dec->end_what, sizeof dec->end_what, "%s", buf);
 }
 
 /* Feeds the decoder one packet of our stream, or the NULL packet at the end. */
@@ -577,6 +964,7 @@ static void feed(wl_decoder *dec)
 	if (!dec->pkt_pending) {
 		ret = av_read_frame(dec->fmt, dec->pkt);
 		if (ret < 0) {
+			note_end(dec, ret);
 			if (ret != AVERROR_EOF)
 				add_damage(dec, next_index(dec), dec->have_last ? dec->last_t_s : NAN,
 				           "read error, stream ends here", ret);
@@ -584,7 +972,8 @@ static void feed(wl_decoder *dec)
 			dec->draining = 1;
 			return;
 		}
-		if (dec->pkt->stream_index != dec->sidx) {
+		dec->t_last_read = mono_now();
+		if (dec->pkt->stream_index != dec->sidx || !arrive(dec)) {
 			av_packet_unref(dec->pkt);
 			return;
 		}
@@ -728,6 +1117,30 @@ wl_status wl_decoder_seek(wl_decoder *dec, double t_s, wl_err *err)
 	return WL_OK;
 }
 
+wl_decode_end wl_decoder_end(const wl_decoder *dec, const char **what)
+{
+	if (what)
+		*what = dec->end_what;
+	return dec->end;
+}
+
+int64_t wl_decoder_skipped(const wl_decoder *dec)
+{
+	return dec->skipped;
+}
+
+const char *wl_decoder_record_error(const wl_decoder *dec)
+{
+	return dec->rec_failed ? dec->rec_error : NULL;
+}
+
+wl_status wl_decoder_close_record(wl_decoder *dec, wl_err *err)
+{
+	wl_status st = wl_rec_close(dec->rec, err);
+	dec->rec = NULL;
+	return st;
+}
+
 int64_t wl_decoder_frames(const wl_decoder *dec)
 {
 	return dec->nframes;
@@ -748,6 +1161,7 @@ void wl_decoder_destroy(wl_decoder *dec)
 {
 	if (!dec)
 		return;
+	wl_rec_close(dec->rec, NULL);
 	conv_free(dec->luma_conv);
 	conv_free(dec->rgb_conv);
 	av_frame_free(&dec->frame);

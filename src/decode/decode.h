@@ -22,6 +22,7 @@
 
 #include <stdint.h>
 
+#include "core/diag.h"
 #include "core/err.h"
 
 typedef struct wl_decoder wl_decoder;
@@ -63,7 +64,14 @@ typedef struct {
 	const uint8_t *rgb;      /* packed RGB24 when WL_DECODE_RGB, else NULL */
 	int rgb_stride;
 	int corrupt;      /* the decoder flagged this frame (concealed errors) */
-	int time_guessed; /* no timestamp: t_s extrapolated from the frame rate */
+	int time_guessed; /* no timestamp: t_s extrapolated from the frame rate (a live source: from
+	                   * the arrival, since the first frame's) */
+	double arrival_s; /* CLOCK_MONOTONIC seconds at which the demuxer handed over this frame's
+	                   * packet (for a --realtime file: when its time came) */
+	double lag_s;     /* live: how late that was against the stream's own clock (arrival less
+	                   * timestamp, less the least such offset seen): time the packet waited
+	                   * in buffers before wakeline read it, which arrival_s does not show;
+	                   * NaN when unknown */
 } wl_frame;
 
 /* One reported damage: a packet or frame that failed or was flagged. */
@@ -78,6 +86,81 @@ typedef struct {
  * WL_EFORMAT) name the file: cannot open, not a video, no video stream, a
  * frame size past the bounds above. */
 wl_status wl_decoder_open(const char *path, unsigned flags, int threads, wl_decoder **out, wl_err *err);
+
+/* ---- live sources ----
+ *
+ * wl_decoder_open_ex opens anything FFmpeg reads: a file, a device (V4L2
+ * webcam: format "v4l2", source "/dev/video0") or a network URL (rtsp://,
+ * udp://, rtp://, srt://, http://, tcp://).  With `live` set it decodes for
+ * low delay: no frame threads (each adds a frame of delay; slice threads
+ * only), short probing (no frame-rate analysis), no demuxer buffering for
+ * devices, and it watches the input:
+ *   - timeout_s: no packet for this long ends the stream (a sender that
+ *     stopped or a dropped connection on UDP, which has no end of its own);
+ *     open_timeout_s is the wait for the first data, while opening;
+ *   - max_lag_s: when the input runs this far behind the stream's own clock
+ *     (estimated from packet arrival against timestamps: the decoder cannot
+ *     keep up), packets are skipped up to the next key frame that is on
+ *     time again; skipped frames are counted (wl_decoder_skipped);
+ *   - interrupt: polled while waiting; non-zero stops the stream (SIGINT).
+ * `realtime` reads a file no faster than its timestamps (a rehearsal of a
+ * live source).  `record_path` copies the video stream's packets, as they
+ * arrive and without re-encoding, to a file (container from its extension;
+ * MP4/MOV are written fragmented so that a killed run leaves a playable
+ * file; MPEG-TS (.ts) and Matroska (.mkv) need nothing special); the
+ * recording starts at the first key frame.
+ * `options` are FFmpeg options for the demuxer, device or protocol, as
+ * NULL-terminated key, value pairs (e.g. "video_size", "1280x720",
+ * "framerate", "30", "input_format", "mjpeg", "rtsp_transport", "tcp"); an
+ * option that nothing used is reported through diag. */
+typedef struct {
+	unsigned flags;              /* WL_DECODE_RGB */
+	int threads;                 /* decoder threads; <= 0 all cores */
+	int live;                    /* see above */
+	const char *format;          /* FFmpeg input format or device ("v4l2", "mpegts"); NULL: guessed */
+	const char *const *options;  /* NULL or key, value, ..., NULL */
+	int realtime;                /* read no faster than the timestamps */
+	double timeout_s;            /* live: <= 0 waits for ever */
+	double open_timeout_s;       /* live: the wait for the stream to start; <= 0: timeout_s */
+	double max_lag_s;            /* live: <= 0 never skips */
+	const char *record_path;     /* NULL: no recording */
+	int (*interrupt)(void *ctx); /* NULL, or polled while waiting: non-zero stops */
+	void *interrupt_ctx;
+	const wl_diag *diag; /* warnings during the open (options nothing used); may be NULL */
+} wl_decode_opts;
+
+/* Defaults: no flags, all cores, not live, no timeout. */
+void wl_decode_opts_init(wl_decode_opts *o);
+
+/* Opens a file, device or URL with options.  Errors as wl_decoder_open,
+ * and WL_EIO for a source that cannot be reached or sent nothing before
+ * the timeout ("no data ... for N s").  wl_decoder_open(path, f, t) is
+ * wl_decoder_open_ex with flags f and threads t. */
+wl_status wl_decoder_open_ex(const char *source, const wl_decode_opts *o, wl_decoder **out, wl_err *err);
+
+/* Why the stream ended (after wl_decoder_next handed out NULL or failed). */
+typedef enum {
+	WL_END_NONE = 0, /* not ended */
+	WL_END_EOF,      /* the source said so: end of file, or the sender closed the connection */
+	WL_END_TIMEOUT,  /* nothing arrived for timeout_s */
+	WL_END_ERROR,    /* a read error: connection reset, device gone, ... */
+	WL_END_STOPPED   /* the interrupt callback asked to stop */
+} wl_decode_end;
+
+/* The reason, and in *what (may be NULL) a line for the user ("connection
+ * reset by peer", "no data for 2.0 s"); the string lives with dec. */
+wl_decode_end wl_decoder_end(const wl_decoder *dec, const char **what);
+
+/* Frames skipped to catch up with a live source (max_lag_s). */
+int64_t wl_decoder_skipped(const wl_decoder *dec);
+
+/* NULL, or what went wrong with the recording (it stopped there; the
+ * stream goes on).  The string lives with dec. */
+const char *wl_decoder_record_error(const wl_decoder *dec);
+
+/* Finishes the recording (trailer, close); later packets are not recorded.
+ * WL_EIO names the file.  wl_decoder_destroy also finishes it, silently. */
+wl_status wl_decoder_close_record(wl_decoder *dec, wl_err *err);
 
 const wl_video_info *wl_decoder_info(const wl_decoder *dec);
 

@@ -33,9 +33,21 @@ const char *wl_heading_source_name(wl_heading_source s)
 /* ---- writing ---- */
 
 struct wl_raw_writer {
-	wl_afile *af;
+	wl_afile *af; /* NULL when writing to the caller's stream */
 	wl_csv_writer w;
 };
+
+wl_status wl_raw_open_fp(FILE *fp, wl_raw_writer **out, wl_err *err)
+{
+	wl_raw_writer *w = calloc(1, sizeof *w);
+	*out = NULL;
+	if (!w)
+		return wl_err_set(err, WL_ENOMEM, "out of memory opening RAW.csv");
+	wl_csvw_init(&w->w, fp);
+	wl_csvw_header(&w->w, COLS);
+	*out = w;
+	return WL_OK;
+}
 
 wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err)
 {
@@ -84,7 +96,7 @@ wl_status wl_raw_commit(wl_raw_writer *w, wl_err *err)
 	wl_status st;
 	if (!w)
 		return WL_OK;
-	st = wl_afile_commit(w->af, err);
+	st = w->af ? wl_afile_commit(w->af, err) : WL_OK;
 	free(w);
 	return st;
 }
@@ -93,7 +105,8 @@ void wl_raw_abort(wl_raw_writer *w)
 {
 	if (!w)
 		return;
-	wl_afile_abort(w->af);
+	if (w->af)
+		wl_afile_abort(w->af);
 	free(w);
 }
 

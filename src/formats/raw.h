@@ -3,7 +3,8 @@
  * per frame per robot, in frame order (DEVELOPERS.md, "File formats"):
  *   t_s,frame,id,u_px,v_px,x_m,y_m,heading_rad,status,margin,size_px,heading_source
  * This module is the only code that knows the columns: the streaming writer
- * (rows go out as they come, into an atomic file) and the streaming reader
+ * (rows go out as they come, into an atomic file or a stream the caller
+ * owns) and the streaming reader
  * (one validated row at a time through a callback, from a file or from
  * memory).  A file is known by its header; see format.h.
  *
@@ -15,6 +16,7 @@
 #define WL_FORMATS_RAW_H
 
 #include <stddef.h>
+#include <stdio.h>
 
 #include "core/err.h"
 
@@ -46,6 +48,10 @@ typedef struct {
 typedef struct wl_raw_writer wl_raw_writer;
 /* Opens RAW.csv atomically and writes the header. */
 wl_status wl_raw_open(const char *path, wl_raw_writer **out, wl_err *err);
+/* Writes the header and then the rows to fp, a stream the caller owns and
+ * flushes (not atomic: `wakeline live` records as it goes, flushing each
+ * frame's rows with one write).  Commit or abort then only free the writer. */
+wl_status wl_raw_open_fp(FILE *fp, wl_raw_writer **out, wl_err *err);
 /* Appends one row (status lost writes empty pose cells). */
 void wl_raw_put(wl_raw_writer *w, const wl_raw_row *row);
 /* Commits (renames into place) and frees; abort removes the temporary file

@@ -167,8 +167,7 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 	return WL_OK;
 }
 
-/* One frame's observations as RAW.csv rows. */
-static void put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)
+void wl_track_put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)
 {
 	for (int i = 0; i < n; i++) {
 		const wl_track_obs *o = &obs[i];
@@ -251,7 +250,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 		memcpy(img.roi, s->roi, sizeof img.roi);
 		if ((st = wl_tracker_frame(tr, &img, &obs, &n, err)) != WL_OK)
 			goto out;
-		put_rows(raw, s->t_s, s->index, obs, n);
+		wl_track_put_rows(raw, s->t_s, s->index, obs, n);
 		if (qc && (st = wl_qc_frame(qc, tr, &img, obs, n, err)) != WL_OK)
 			goto out;
 		sum->frames++;

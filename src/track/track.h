@@ -28,6 +28,7 @@
 #define WL_TRACK_H
 
 #include <stdint.h>
+#include <stdio.h>
 
 #include "calib/calib.h"
 #include "core/err.h"
@@ -217,6 +218,13 @@ typedef struct {
 } wl_hsv_stats;
 void wl_hsv_region_stats(const uint8_t *rgb, int stride, int x0, int y0, int w, int h, const uint8_t *mask,
                          wl_hsv_stats *st);
+
+/* ---- RAW.csv rows (the format is formats/raw.h's) ---- */
+
+/* Appends a frame's observations as RAW.csv rows (lost ones with empty
+ * pose cells): the one mapping of wl_track_obs to wl_raw_row, for track and
+ * live. */
+void wl_track_put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n);
 
 /* ---- quality-control pictures: the trail PNG and the overlay clip ---- */
 

@@ -419,16 +419,50 @@ static void test_run_resume_and_failures(void **state)
 	read_summary(out, &sc);
 	assert_string_equal(sc.gain_of_a, "1.75");
 
-	/* a touched input is redone, and only that one */
+	/* a touched input (new times, same bytes, as a copy to node scratch
+	 * without its times gives) is not redone ... */
 	snprintf(path, sizeof path, "%s/c.mp4", clips);
 	clock_gettime(CLOCK_REALTIME, &ts[0]);
-	ts[0].tv_sec -= 100; /* in the past: the new outputs are newer */
+	ts[0].tv_sec += 100; /* newer than every output */
 	ts[1] = ts[0];
 	assert_int_equal(utimensat(AT_FDCWD, path, ts, 0), 0);
+	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
+	assert_int_equal(res.skipped, 3);
+	assert_int_equal(count_calls("c.mp4"), 1);
+	/* ... but new content of the same size is, and only that clip */
+	mkfile("r/clips/c.mp4", "FINE");
 	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
 	assert_int_equal(res.skipped, 2);
 	assert_int_equal(count_calls("c.mp4"), 2);
 	assert_int_equal(count_calls("a.mp4"), 1);
+	/* the digest samples head, middle and tail of a large file: a change in
+	 * the middle block is seen, and the whole-file size always */
+	{
+		char big[300], d1[65], d2[65], d3[65];
+		long long n1, n2, n3;
+		FILE *fp;
+		long k;
+		snprintf(big, sizeof big, "%s/r/big.bin", root);
+		fp = fopen(big, "wb");
+		assert_non_null(fp);
+		for (k = 0; k < 1000000; k++)
+			fputc((int)(k * 7 % 251), fp);
+		fclose(fp);
+		assert_int_equal(wl_batch_input_digest(big, d1, &n1, &err), WL_OK);
+		assert_int_equal(n1, 1000000);
+		fp = fopen(big, "r+b");
+		fseek(fp, 500000, SEEK_SET);
+		fputc('X', fp);
+		fclose(fp);
+		assert_int_equal(wl_batch_input_digest(big, d2, &n2, &err), WL_OK);
+		assert_string_not_equal(d1, d2);
+		fp = fopen(big, "ab");
+		fputc('Y', fp);
+		fclose(fp);
+		assert_int_equal(wl_batch_input_digest(big, d3, &n3, &err), WL_OK);
+		assert_int_equal(n3, 1000001);
+		assert_string_not_equal(d2, d3);
+	}
 
 	/* changed calibration bytes redo everything; so does force */
 	mkfile("r/cal.json", "{\"v\":2}\n");

@@ -1,0 +1,47 @@
+#!/usr/bin/env bash
+# wakeline live's usage and its refusals: --help; usage errors (exit 2)
+# that name what to give; failures (exit 1) that name the file, device or
+# URL: a V4L2 device that does not exist, an input format FFmpeg does not
+# know, a malformed --publish URL, an existing RAW.csv without --overwrite
+# (left as it was), a calibration that does not exist; a source that never
+# opened leaves no RAW.csv; a file without --realtime is warned about.
+source "$WL_SOURCE_DIR/tests/e2e/lib/live.bash"
+need_synth
+live_scene clip 30 1
+
+"$WAKELINE" live --help > help.txt || fail "--help exited $?"
+for o in --publish --packet --lcm --raw --record --realtime --reconnect --timeout-s --max-delay-ms \
+	--video-size --pixel-format --q-pos --ids; do
+	grep -q -- "$o" help.txt || fail "--help does not mention $o"
+done
+
+# expect STATUS TEXT ARGS...: wakeline live ARGS exits STATUS with TEXT on stderr
+expect() {
+	local want=$1 text=$2 rc=0
+	shift 2
+	"$WAKELINE" live "$@" > out.txt 2> err.txt || rc=$?
+	[ "$rc" -eq "$want" ] || { cat err.txt; fail "live $* exited $rc, not $want"; }
+	grep -q -- "$text" err.txt || { cat err.txt; fail "live $*: no '$text' in the message"; }
+}
+expect 2 "give the SOURCE" --cal clip.cal.json --raw r.csv
+expect 2 "give the calibration" clip.mp4 --raw r.csv
+expect 2 "nothing to do" clip.mp4 --cal clip.cal.json
+expect 2 "give json or binary" clip.mp4 --cal clip.cal.json --packet xml --raw r.csv
+expect 2 "give KEY=VALUE" clip.mp4 --cal clip.cal.json --source-option novalue --raw r.csv
+expect 2 "--max-delay-ms" clip.mp4 --cal clip.cal.json --max-delay-ms -5 --raw r.csv
+expect 1 "/dev/video93" /dev/video93 --cal clip.cal.json --raw r.csv --wait-s 1
+expect 1 "nosuchformat" clip.mp4 --source-format nosuchformat --cal clip.cal.json --raw r.csv
+expect 1 "udp://127.0.0.1:99999" clip.mp4 --cal clip.cal.json --publish udp://127.0.0.1:99999
+expect 1 "nosuch.json" clip.mp4 --cal nosuch.json --raw r.csv
+[ ! -e r.csv ] || fail "a run that never opened its source left r.csv"
+# a file without --realtime is read as fast as it decodes: said so
+"$WAKELINE" live clip.mp4 --cal clip.cal.json --raw fast.csv -q 2> fast.err || fail "live on a file exited $?"
+grep -q "warning: clip.mp4 is a file: .*--realtime" fast.err || { cat fast.err; fail "no warning for a file without --realtime"; }
+echo "keep me" > exists.csv
+expect 1 "overwrite" clip.mp4 --cal clip.cal.json --raw exists.csv
+[ "$(cat exists.csv)" = "keep me" ] || fail "an existing RAW.csv was changed without --overwrite"
+"$WAKELINE" live clip.mp4 --realtime --max-delay-ms 1000 --cal clip.cal.json --raw exists.csv --overwrite -q ||
+	fail "--overwrite exited $?"
+whole_lines exists.csv 12
+[ "$(($(wc -l < exists.csv) - 1))" -eq 60 ] || fail "exists.csv does not hold the clip's 30 frames of 2 robots"
+echo "ok"
