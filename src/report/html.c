@@ -14,6 +14,7 @@
 
 #include "core/afile.h"
 #include "core/csvio.h"
+#include "formats/summary.h"
 
 void wl_report_runs_init(wl_report_runs *t)
 {
@@ -99,7 +100,10 @@ static const char CSS[] = "body{font-family:sans-serif;margin:1.5em;color:#222}"
                           "td.t,th.t{text-align:left}th{background:#eee;cursor:pointer;position:sticky;top:0}"
                           "th.asc::after{content:' \\25B2'}th.desc::after{content:' \\25BC'}"
                           "img.thumb{width:120px;height:auto;display:block}"
-                          ".fail td{text-align:left}.msg{white-space:pre-wrap}";
+                          ".fail td{text-align:left}.msg{white-space:pre-wrap}"
+                          "td.v-check{background:#ffe08a;font-weight:bold}"
+                          "td.v-reject{background:#f4a3a3;font-weight:bold}"
+                          "td.rej{color:#999;text-decoration:line-through}";
 
 /* Sorting: numbers as numbers, empty cells last, text otherwise.  The load
  * handler records how many images loaded, for checks by a headless browser. */
@@ -147,6 +151,7 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 	FILE *fp;
 	size_t i, j, nok = 0, nfail = 0;
 	char *text = NULL;
+	int cv, cr;
 	wl_status s;
 
 	snprintf(path, sizeof path, "%s/report.html", dir);
@@ -160,6 +165,8 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 	}
 	for (j = 0; j < t->ncols; j++)
 		text[j] = (char)is_text_col(t, j);
+	cv = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_VERDICT));
+	cr = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_VERDICT_REASONS));
 	for (i = 0; i < t->nrows; i++) {
 		if (strcmp(t->rows[i].status, "ok") == 0)
 			nok++;
@@ -188,6 +195,8 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 	fputs("</tr></thead>\n<tbody>\n", fp);
 	for (i = 0; i < t->nrows; i++) {
 		const wl_report_row *r = &t->rows[i];
+		const char *v = cv >= 0 ? r->cells[cv] : "";
+		int reject = strcmp(v, "reject") == 0;
 		if (strcmp(r->status, "ok") != 0)
 			continue;
 		fputs("<tr class=\"run\"><td class=\"t\"><a href=\"", fp);
@@ -200,7 +209,15 @@ wl_status wl_report_html(const wl_report_runs *t, const char *dir, const char *t
 		esc(fp, r->clip);
 		fputs("</a></td>", fp);
 		for (j = 0; j < t->ncols; j++) {
-			fprintf(fp, "<td%s>", text[j] ? " class=\"t\"" : "");
+			/* the verdict highlighted; a rejected run's numbers struck through */
+			if ((int)j == cv && (reject || strcmp(v, "check") == 0))
+				fprintf(fp, "<td class=\"t v-%s\">", v);
+			else if ((int)j == cr && reject)
+				fputs("<td class=\"t v-reject\">", fp);
+			else if (reject && !text[j] && r->cells[j][0])
+				fputs("<td class=\"rej\">", fp);
+			else
+				fprintf(fp, "<td%s>", text[j] ? " class=\"t\"" : "");
 			esc(fp, r->cells[j]);
 			fputs("</td>", fp);
 		}

@@ -337,7 +337,8 @@ static void make_clip_folder(const char *dir, int nrows)
 	}
 	fclose(fp);
 	snprintf(path, sizeof path, "%s/summary.json", dir);
-	write_text(path, "{\"format\":\"wakeline summary\",\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
+	write_text(path, "{\"format\":\"wakeline "
+	                 "summary\",\"runs\":[{\"id\":7,\"segment\":0,\"headline\":true,\"radius_m\":0.4,"
 	                 "\"curvature_per_m\":2.5,\"curvature_ci95_per_m\":[2.4,2.6],\"straight\":false,"
 	                 "\"centre_x_m\":1,\"centre_y_m\":0.5}]}\n");
 }
@@ -380,11 +381,12 @@ static void test_scene_load(void **state)
 	wl_err err;
 	(void)state;
 	snprintf(path, sizeof path, "%s/cal.json", tmpdir);
-	write_text(path, "{\"format\": \"wakeline-calibration\", \"format_version\": 1,"
-	                 " \"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
-	                 " \"points\": [{\"id\": \"M1\", \"u_px\": 10, \"v_px\": 20, \"x_m\": 0.1, \"y_m\": 0.2},"
-	                 " {\"id\": \"M2\", \"u_px\": 900, \"v_px\": 500, \"x_m\": 2.3, \"y_m\": 1.3},"
-	                 " {\"id\": \"M2.c0\", \"u_px\": 905, \"v_px\": 505, \"x_m\": 2.32, \"y_m\": 1.32}]}\n");
+	write_text(path,
+	           "{\"format\": \"wakeline-calibration\", \"format_version\": 1,"
+	           " \"tank_outline_m\": [[0, 0], [2.4, 0], [2.4, 1.4], [0, 1.4]],"
+	           " \"points\": [{\"id\": \"M1\", \"u_px\": 10, \"v_px\": 20, \"x_m\": 0.1, \"y_m\": 0.2},"
+	           " {\"id\": \"M2\", \"u_px\": 900, \"v_px\": 500, \"x_m\": 2.3, \"y_m\": 1.3},"
+	           " {\"id\": \"M2.c0\", \"u_px\": 905, \"v_px\": 505, \"x_m\": 2.32, \"y_m\": 1.32}]}\n");
 	assert_int_equal(wl_report_scene_load(path, &sb, &err), WL_OK);
 	assert_int_equal(sb.scene.n_outline, 4);
 	assert_true(sb.scene.outline_m[2][0] == 2.4 && sb.scene.outline_m[2][1] == 1.4);
@@ -423,18 +425,20 @@ static void make_runs(wl_report_runs *t, size_t n)
 	                      "curvature_ci95_per_m_lo",
 	                      "curvature_ci95_per_m_hi",
 	                      "straight",
-	                      "radius_body_diameters"};
+	                      "radius_body_diameters",
+	                      "verdict",
+	                      "verdict_reasons"};
 	size_t i, j;
 	wl_report_runs_init(t);
-	t->ncols = 9;
+	t->ncols = 11;
 	t->nparams = 2;
-	t->cols = calloc(9, sizeof *t->cols);
-	for (j = 0; j < 9; j++)
+	t->cols = calloc(11, sizeof *t->cols);
+	for (j = 0; j < 11; j++)
 		t->cols[j] = xs(cols[j]);
 	t->rows = calloc(n + 1, sizeof *t->rows);
 	for (i = 0; i <= n; i++) {
 		wl_report_row *r = &t->rows[t->nrows++];
-		char b[9][64];
+		char b[11][64];
 		double k = -3 + (double)i;
 		snprintf(b[0], 64, "%g", 0.1 * (double)i);
 		snprintf(b[1], 64, "%s", i % 2 ? "fin" : "<disc>");
@@ -445,14 +449,20 @@ static void make_runs(wl_report_runs *t, size_t n)
 		snprintf(b[6], 64, "%g", k + 0.3);
 		snprintf(b[7], 64, "%s", k == 0 ? "true" : "false");
 		snprintf(b[8], 64, "%g", k != 0 ? 1 / k / 0.1 : 0);
+		/* run 1 needs a check, run 2 was rejected */
+		snprintf(b[9], 64, "%s", i == 1 ? "check" : i == 2 ? "reject" : "ok");
+		snprintf(b[10], 64, "%s",
+		         i == 1   ? "1.5% of rows rejected as outliers"
+		         : i == 2 ? "tracked in only 40% of the rows"
+		                  : "");
 		if (k == 0)
 			b[3][0] = b[8][0] = '\0';
 		r->clip = xs(i == n ? "broken.mp4" : "c.mp4");
 		r->folder = xs("clips/c_mp4");
 		r->status = xs(i == n ? "failed" : "ok");
 		r->error = xs(i == n ? "broken.mp4: cannot decode <frame 3>" : "");
-		r->cells = calloc(9, sizeof *r->cells);
-		for (j = 0; j < 9; j++)
+		r->cells = calloc(11, sizeof *r->cells);
+		for (j = 0; j < 11; j++)
 			r->cells[j] = xs(b[j]);
 	}
 }
@@ -495,6 +505,14 @@ static void test_sweep_and_html(void **state)
 	assert_int_equal(wl_read_file(path, 1 << 24, &text, &len, NULL), WL_OK);
 	assert_int_equal(count_str(text, "<tr class=\"run\">"), 7);
 	assert_int_equal(count_str(text, "<tr class=\"failure\">"), 1);
+	/* the verdicts highlighted: run 1's "check", run 2's "reject" and its
+	 * reasons; run 2's six numbers (gain, radius, curvature and its
+	 * interval, radius in body diameters) struck through, no other */
+	assert_int_equal(count_str(text, "<td class=\"t v-check\">check</td>"), 1);
+	assert_int_equal(count_str(text, "<td class=\"t v-reject\">reject</td>"), 1);
+	assert_non_null(strstr(text, "<td class=\"t v-reject\">tracked in only 40% of the rows</td>"));
+	assert_int_equal(count_str(text, "<td class=\"rej\">"), 6);
+	assert_non_null(strstr(text, "<td class=\"rej\">-1</td>"));
 	assert_non_null(strstr(text, "&lt;disc&gt;"));
 	assert_null(strstr(text, "<disc>"));
 	assert_non_null(strstr(text, "cannot decode &lt;frame 3&gt;"));
