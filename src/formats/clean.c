@@ -26,10 +26,10 @@ static const wl_format CLEAN_CSV = {"CLEAN.csv", NULL, 1, "wakeline clean"};
 static const wl_format SIDECAR = {"CLEAN.json", "wakeline clean sidecar", 1, "wakeline clean"};
 
 /* The columns, in file order. */
-enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_SPEED, C_YAW, C_VX, C_VY, C_SEG, C_STATUS, C_CUT, C_N };
+enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_SPEED, C_YAW, C_VX, C_VY, C_SEG, C_STATUS, C_CUT, C_HM, C_N };
 static const char *const HEADER[] = {
-        "t_s",    "frame",  "id",      "x_m",    "y_m", "heading_rad", "speed_mps", "yaw_rate_radps",
-        "vx_mps", "vy_mps", "segment", "status", "cut", NULL};
+        "t_s",    "frame",  "id",      "x_m",    "y_m", "heading_rad",      "speed_mps", "yaw_rate_radps",
+        "vx_mps", "vy_mps", "segment", "status", "cut", "heading_meas_rad", NULL};
 /* What a reader needs. */
 static const char *const REQUIRED[] = {"t_s", "id", "x_m", "y_m", "segment", "status", NULL};
 
@@ -69,6 +69,7 @@ static void write_csv(FILE *fp, const wl_clean_result *res)
 			wl_csvw_empty(&w);
 		else
 			wl_csvw_str(&w, wl_clean_cut_name(r->cut));
+		wl_csvw_num(&w, r->heading_meas_rad, 6);
 		wl_csvw_end(&w);
 	}
 }
@@ -355,7 +356,8 @@ static wl_status parse_row(const rctx *c, const wl_csv_row *row, wl_clean_row *r
 	    (st = opt_num(row, c->col[C_SPEED], C_SPEED, &r->speed_mps, err)) ||
 	    (st = opt_num(row, c->col[C_YAW], C_YAW, &r->yaw_rate_radps, err)) ||
 	    (st = opt_num(row, c->col[C_VX], C_VX, &r->vx_mps, err)) ||
-	    (st = opt_num(row, c->col[C_VY], C_VY, &r->vy_mps, err)))
+	    (st = opt_num(row, c->col[C_VY], C_VY, &r->vy_mps, err)) ||
+	    (st = opt_num(row, c->col[C_HM], C_HM, &r->heading_meas_rad, err)))
 		return st;
 	return WL_OK;
 }

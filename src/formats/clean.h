@@ -72,6 +72,12 @@ typedef struct {
 	long id;
 	double x_m, y_m, heading_rad; /* heading wrapped to (-pi, pi] */
 	double speed_mps, yaw_rate_radps, vx_mps, vy_mps;
+	/* the detection's own heading (not smoothed; the tag's mounting angle
+	 * removed), moved to t_s along the smoothed heading when the row was
+	 * resampled; NaN where none was detected or it was an outlier.  Measure
+	 * fits the yaw oscillation to it: the smoother attenuates fast
+	 * oscillations, the detections do not. */
+	double heading_meas_rad;
 	int segment; /* >= 0 analysed, -1 left out (see cut) */
 	wl_clean_status status;
 	wl_clean_cut cut;

@@ -172,9 +172,10 @@ static wl_status keep_clean(const wl_clean_row *r, void *ctx, wl_err *err)
 
 static void test_clean_round_trip(void **state)
 {
-	wl_clean_row rows[2] = {
-	        {0.5, 15, 4, 1.25, -0.75, 3.0, 0.2, 0.1, 0.2, 0.0, 0, WL_ST_MEASURED, WL_CUT_NONE, 0, 0, 0},
-	        {0.6, 18, 4, 1.5, -0.5, -3.0, 0.3, NAN, NAN, NAN, -1, WL_ST_FILLED, WL_CUT_WALL, 0, 0, 0}};
+	wl_clean_row rows[2] = {{0.5, 15, 4, 1.25, -0.75, 3.0, 0.2, 0.1, 0.2, 0.0, 2.9, 0, WL_ST_MEASURED,
+	                         WL_CUT_NONE, 0, 0, 0},
+	                        {0.6, 18, 4, 1.5, -0.5, -3.0, 0.3, NAN, NAN, NAN, NAN, -1, WL_ST_FILLED,
+	                         WL_CUT_WALL, 0, 0, 0}};
 	wl_clean_segment seg = {0.5, 0.5, 1};
 	wl_clean_robot rb = {0};
 	wl_clean_result res = {rows, 2, &rb, 1};
@@ -199,10 +200,10 @@ static void test_clean_round_trip(void **state)
 	text = slurp(csv);
 	assert_string_equal(text,
 	                    "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,"
-	                    "status,cut\n"
+	                    "status,cut,heading_meas_rad\n"
 	                    "0.500000,15,4,1.250000,-0.750000,3.000000,0.200000,0.100000,0.200000,0.000000,0,"
-	                    "measured,\n"
-	                    "0.600000,18,4,1.500000,-0.500000,-3.000000,0.300000,,,,-1,filled,wall\n");
+	                    "measured,,2.900000\n"
+	                    "0.600000,18,4,1.500000,-0.500000,-3.000000,0.300000,,,,-1,filled,wall,\n");
 	free(text);
 	assert_int_equal(wl_clean_read(csv, keep_clean, &got, &err), WL_OK);
 	assert_int_equal(got.n, 2);
@@ -212,6 +213,7 @@ static void test_clean_round_trip(void **state)
 	assert_int_equal(got.rows[1].status, WL_ST_FILLED);
 	assert_int_equal(got.rows[1].cut, WL_CUT_WALL);
 	assert_true(isnan(got.rows[1].yaw_rate_radps) && got.rows[0].heading_rad == 3.0);
+	assert_true(got.rows[0].heading_meas_rad == 2.9 && isnan(got.rows[1].heading_meas_rad));
 	/* the sidecar reads back */
 	assert_int_equal(wl_clean_sidecar_read(js, &sc, &err), WL_OK);
 	assert_string_equal(sc.input_path, "r.csv");
