@@ -34,7 +34,7 @@ typedef struct {
 	int ndir;
 	double *d;       /* per row, per direction: dx, dy, and the Jacobian dxx, dxy, dyx, dyy (6 values) */
 	double *ux, *uy; /* per row: the direction of travel from the neighbouring positions */
-	double *x, *y, *h, *sp; /* a perturbed copy of the input */
+	double *x, *y, *h, *hm, *sp; /* a perturbed copy of the input */
 } work;
 
 static void work_free(work *w)
@@ -45,6 +45,7 @@ static void work_free(work *w)
 	free(w->x);
 	free(w->y);
 	free(w->h);
+	free(w->hm);
 	free(w->sp);
 }
 
@@ -85,6 +86,13 @@ static void fields(const wl_measure_input *in, const wl_measure_sys *sys, double
 	}
 }
 
+/* A heading h turned by the map's local Jacobian I + s·D (d[2..5]). */
+static double turn_heading(double h, const double *d, double s)
+{
+	double c = cos(h), sn = sin(h);
+	return atan2(sn + s * (d[4] * c + d[5] * sn), c + s * (d[2] * c + d[3] * sn));
+}
+
 /* The input moved along direction k by s standard deviations: positions by
  * the displacement, speeds and headings through the map's local Jacobian
  * I + s·D (a speed along u becomes |(I + sD) u| times itself, a heading h
@@ -101,10 +109,10 @@ static void perturb(const wl_measure_input *in, const work *w, int k, double s, 
 			       vy = uy + s * (d[4] * ux + d[5] * uy);
 			w->sp[i] = ux != 0 || uy != 0 ? in->speed_mps[i] * hypot(vx, vy) : in->speed_mps[i];
 		}
-		if (in->heading_rad) {
-			double c = cos(in->heading_rad[i]), sn = sin(in->heading_rad[i]);
-			w->h[i] = atan2(sn + s * (d[4] * c + d[5] * sn), c + s * (d[2] * c + d[3] * sn));
-		}
+		if (in->heading_rad)
+			w->h[i] = turn_heading(in->heading_rad[i], d, s);
+		if (in->heading_meas_rad)
+			w->hm[i] = turn_heading(in->heading_meas_rad[i], d, s);
 	}
 	out->x_m = w->x;
 	out->y_m = w->y;
@@ -112,6 +120,8 @@ static void perturb(const wl_measure_input *in, const work *w, int k, double s, 
 		out->speed_mps = w->sp;
 	if (in->heading_rad)
 		out->heading_rad = w->h;
+	if (in->heading_meas_rad)
+		out->heading_meas_rad = w->hm;
 }
 
 wl_status wl_measure_budget(const wl_measure_input *in, const wl_measure_opts *opt, const wl_measure_sys *sys,
@@ -132,8 +142,9 @@ wl_status wl_measure_budget(const wl_measure_input *in, const wl_measure_opts *o
 	w.x = malloc(in->n * sizeof *w.x);
 	w.y = malloc(in->n * sizeof *w.y);
 	w.h = malloc(in->n * sizeof *w.h);
+	w.hm = malloc(in->n * sizeof *w.hm);
 	w.sp = malloc(in->n * sizeof *w.sp);
-	if (!w.d || !w.ux || !w.uy || !w.x || !w.y || !w.h || !w.sp) {
+	if (!w.d || !w.ux || !w.uy || !w.x || !w.y || !w.h || !w.hm || !w.sp) {
 		st = wl_err_set(err, WL_ENOMEM, "out of memory for the uncertainty budget of %zu rows",
 		                in->n);
 		goto out;

@@ -21,7 +21,7 @@ typedef struct {
 	double first_t_s, last_t_s;
 	long seg_line, segment;
 	size_t n, cap, nout; /* rows; of them rejected as outliers */
-	double *t, *x, *y, *h, *sp, *yr;
+	double *t, *x, *y, *h, *sp, *yr, *hm;
 	unsigned char *meas;
 } robot;
 
@@ -70,6 +70,7 @@ static void robot_release(robot *r)
 	free(r->x);
 	free(r->y);
 	free(r->h);
+	free(r->hm);
 	free(r->sp);
 	free(r->yr);
 	free(r->meas);
@@ -78,7 +79,7 @@ static void robot_release(robot *r)
 static wl_status robot_grow(robot *r, wl_err *err)
 {
 	size_t cap = r->cap ? 2 * r->cap : 1024;
-	double **arr[] = {&r->t, &r->x, &r->y, &r->h, &r->sp, &r->yr};
+	double **arr[] = {&r->t, &r->x, &r->y, &r->h, &r->sp, &r->yr, &r->hm};
 	unsigned char *m;
 	for (size_t i = 0; i < sizeof arr / sizeof arr[0]; i++) {
 		double *p = realloc(*arr[i], cap * sizeof **arr[i]);
@@ -124,7 +125,7 @@ static wl_status add_run(ctx *c, wl_summary_run **o, wl_err *err)
  * measure is skipped with a warning; a repeated (id, segment) is an error. */
 static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 {
-	wl_measure_input in = {r->n, r->t, r->x, r->y, r->h, r->sp, r->yr, r->meas};
+	wl_measure_input in = {r->n, r->t, r->x, r->y, r->h, r->sp, r->yr, r->meas, r->hm};
 	wl_summary_run *o = NULL;
 	wl_status st, rs;
 	wl_err e2;
@@ -216,7 +217,7 @@ static wl_status on_row(const wl_clean_row *row, void *vctx, wl_err *err)
 		return st;
 	k = r->n++;
 	r->t[k] = row->t_s, r->x[k] = row->x_m, r->y[k] = row->y_m, r->h[k] = row->heading_rad;
-	r->sp[k] = row->speed_mps, r->yr[k] = row->yaw_rate_radps;
+	r->sp[k] = row->speed_mps, r->yr[k] = row->yaw_rate_radps, r->hm[k] = row->heading_meas_rad;
 	r->meas[k] = row->status == WL_ST_MEASURED;
 	r->nout += row->status == WL_ST_OUTLIER;
 	return WL_OK;

@@ -131,6 +131,11 @@ typedef struct {
 	size_t n;
 	const double *t_s, *x_m, *y_m, *heading_rad, *speed_mps, *yaw_rate_radps;
 	const unsigned char *measured;
+	/* the detections' own headings (CLEAN.csv heading_meas_rad), NaN where
+	 * none; may be NULL.  When they cover at least half the rows with a
+	 * heading, the yaw oscillation is fitted to them (the smoothed heading
+	 * attenuates oscillations near the smoother's bandwidth). */
+	const double *heading_meas_rad;
 } wl_measure_input;
 
 typedef struct {

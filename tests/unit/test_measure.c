@@ -193,7 +193,7 @@ static void synth_default(synth_cfg *c, double R, int dir)
 
 static void run_synth(const synth_run *s, wl_measure_result *res)
 {
-	wl_measure_input in = {s->n, s->t, s->x, s->y, s->h, s->sp, s->yr, s->meas};
+	wl_measure_input in = {s->n, s->t, s->x, s->y, s->h, s->sp, s->yr, s->meas, NULL};
 	wl_measure_opts o;
 	wl_err err;
 	wl_measure_opts_init(&o);
@@ -426,7 +426,7 @@ static void test_errors(void **state)
 	wl_circle c;
 	wl_geofit f;
 	wl_err err;
-	wl_measure_input in = {5, t, x, y, NULL, NULL, NULL, NULL};
+	wl_measure_input in = {5, t, x, y, NULL, NULL, NULL, NULL, NULL};
 	wl_measure_opts o;
 	wl_measure_result r;
 	(void)state;
@@ -576,7 +576,7 @@ static void mc_measure(const mc_data *d, const wl_calib *cal, double h, const wl
                        double *y, double *sp, double *hd, wl_measure_result *r)
 {
 	wl_measure_opts o;
-	wl_measure_input in = {MC_N, d->t, x, y, hd, sp, NULL, NULL};
+	wl_measure_input in = {MC_N, d->t, x, y, hd, sp, NULL, NULL, NULL};
 	wl_err err;
 	for (int i = 0; i < MC_N; i++) {
 		double fx, fy;
