@@ -60,6 +60,6 @@ rc=0; "$WAKELINE" clean "$T/ok.csv" -o "$T/no/such/dir/o.csv" 2> "$T/err.txt" ||
 { echo "$H"; good 0.0 0; echo "0.0,0,2,,,,,,lost,,,"; echo "0.1,1,2,,,,,,lost,,,"; } > "$T/edge.csv"
 "$WAKELINE" clean "$T/edge.csv" -o "$T/edge_out.csv" > "$T/edge.txt"
 grep -q "robot 1: too short" "$T/edge.txt" && grep -q "robot 2: no detections in 2 rows" "$T/edge.txt" || fail "edge summary"
-[ "$(tail -n +2 "$T/edge_out.csv")" = "0.000000,0,1,0.000000,0.200000,0.300000,0.000000,0.000000,0.000000,0.000000,-1,measured,gap" ] \
+[ "$(tail -n +2 "$T/edge_out.csv")" = "0.000000,0,1,0.000000,0.200000,0.300000,0.000000,0.000000,0.000000,0.000000,-1,measured,gap,0.300000" ] \
 	|| fail "edge output: $(cat "$T/edge_out.csv")"
 echo "0402-clean-errors: ok"
