@@ -1,11 +1,12 @@
 /*
- * batch.h: the sixth stage's running side: the manifest of a sweep, clip
- * discovery under a folder, a resumable job runner that processes clips in
- * forked worker processes, and the merge that rebuilds summary.csv and
- * report.html from the clip folders alone.
+ * batch.h: a whole sweep: clip discovery under a folder, each clip's options
+ * from the batch's and its manifest row (formats/manifest.h), a resumable
+ * job runner that processes clips in forked worker processes, and the merge
+ * that rebuilds summary.csv and report.html from the clip folders alone.
  *
- * Pipeline position: last library stage (uses report; the CLI gives it the
- * per-clip function that runs track, clean and measure).
+ * Pipeline position: above the pipeline (each worker calls wl_process_clip
+ * with the clip's options) and report (summary.csv, report.html); below the
+ * command line.
  *
  * Output folder layout (OUT = the batch's -o):
  *   OUT/clips/<name>/        one folder per clip: the clip function's files
@@ -33,7 +34,9 @@
 #include <stddef.h>
 
 #include "core/err.h"
+#include "core/diag.h"
 #include "formats/manifest.h"
+#include "pipeline/pipeline.h"
 #include "report/report.h"
 
 /* ---- discovery ----------------------------------------------------------- */
@@ -57,49 +60,46 @@ char *wl_batch_clip_name(const char *rel, char *buf, size_t cap);
 
 /* ---- jobs ---------------------------------------------------------------- */
 
-/* Called by a clip function now and then: frames done so far and the
- * expected total (-1 when unknown). */
-typedef void (*wl_batch_progress_fn)(void *pctx, long frames_done, long frames_total);
-
 typedef struct {
-	const char *clip_path; /* the video file (clip folder + rel) */
-	const char *clip_rel;  /* relative to the clip folder */
-	const char *out_dir;   /* the clip's output folder; exists */
-	const char *cal_path;  /* the manifest's `cal` or the batch's */
-	double plane_height_m; /* the manifest's plane_height_m, NaN when not given */
-	size_t nparams;        /* manifest columns other than clip */
+	const char *clip_path;       /* the video file (clip folder + rel) */
+	const char *clip_rel;        /* relative to the clip folder */
+	const char *out_dir;         /* the clip's output folder; exists */
+	const char *cal_path;        /* the manifest's `cal` or the batch's */
+	const wl_manifest_row *row;  /* the clip's manifest row, NULL when none */
+	const wl_process_opts *opts; /* the clip's options: the batch's with the row's option cells
+	                                applied and its robots loaded (wl_batch_clip_opts) */
+	size_t nparams;              /* manifest columns other than clip */
 	const char *const *param_names;
 	const char *const *param_values;
-	int threads; /* decoder threads for this clip (wl_batch_opts.threads or the
-	                CPUs the process may use / jobs; at least 1) */
-	wl_batch_progress_fn progress;
-	void *progress_ctx;
+	const wl_diag *diag; /* in the worker: warnings and progress, forwarded to the parent */
+	int threads;         /* decoder threads for this clip when its options leave them at 0
+	                        (wl_batch_opts.threads or the CPUs the process may use / jobs; at least 1) */
 } wl_batch_job;
 
 /* The per-clip work.  Runs in a forked worker process (so a crash or a leak
  * stays in that clip); must write every file of wl_batch_opts.outputs into
- * job->out_dir, atomically.  Returns WL_OK or an error with a message. */
+ * job->out_dir, atomically.  Returns WL_OK or an error with a message.  The
+ * default (wl_batch_opts.fn NULL) loads the clip's CAL.json once and calls
+ * wl_process_clip. */
 typedef wl_status (*wl_batch_clip_fn)(const wl_batch_job *job, void *ctx, wl_err *err);
 
+/* What happened to a clip; warnings and progress go through the batch's
+ * wl_diag instead. */
 typedef enum {
-	WL_BATCH_EV_START,    /* a clip was handed to a worker */
-	WL_BATCH_EV_PROGRESS, /* frames were reported (at most ~5 times a second) */
-	WL_BATCH_EV_DONE,     /* a clip finished well */
-	WL_BATCH_EV_SKIP,     /* a clip was complete already */
-	WL_BATCH_EV_FAIL,     /* a clip failed: msg says why */
-	WL_BATCH_EV_WARN      /* something the user should know: msg */
+	WL_BATCH_EV_START, /* a clip was handed to a worker */
+	WL_BATCH_EV_DONE,  /* a clip finished well */
+	WL_BATCH_EV_SKIP,  /* a clip was complete already */
+	WL_BATCH_EV_FAIL   /* a clip failed: msg says why */
 } wl_batch_ev_kind;
 
 typedef struct {
 	wl_batch_ev_kind kind;
-	const char *clip; /* relative path, or NULL */
-	const char *msg;  /* for FAIL and WARN */
+	const char *clip; /* relative path */
+	const char *msg;  /* for FAIL */
 	size_t finished;  /* clips done, skipped or failed so far */
 	size_t total;     /* clips of this run */
 	size_t failed;
 	size_t running;
-	double fps;   /* frames per second over all workers since start */
-	double eta_s; /* estimated time left, NaN when unknown */
 } wl_batch_event;
 
 typedef void (*wl_batch_event_fn)(const wl_batch_event *ev, void *ctx);
@@ -114,23 +114,39 @@ typedef enum {
 } wl_batch_lock_mode;
 
 typedef struct {
-	const char *clip_dir;       /* DIR: where the clips are */
-	const char *out_dir;        /* OUT: created when missing */
-	const char *cal_path;       /* the default CAL.json (may be NULL if every row has `cal`) */
-	const char *manifest_path;  /* NULL: no manifest */
-	int jobs;                   /* parallel workers; <= 0: wl_batch_cpus() */
-	int threads;                /* decoder threads per clip; <= 0: wl_batch_cpus() / jobs, at least 1 */
-	int force;                  /* 1: redo complete clips */
-	wl_batch_lock_mode lock;    /* default: flock */
-	const char *settings;       /* text naming every setting that changes outputs (hashed) */
-	const char *const *outputs; /* NULL-terminated file names each clip folder must hold */
-	wl_batch_clip_fn fn;
+	const char *clip_dir;        /* DIR: where the clips are */
+	const char *out_dir;         /* OUT: created when missing */
+	const char *cal_path;        /* the default CAL.json (may be NULL if every row has `cal`) */
+	const char *manifest_path;   /* NULL: no manifest */
+	int jobs;                    /* parallel workers; <= 0: wl_batch_cpus() */
+	int threads;                 /* decoder threads per clip; <= 0: wl_batch_cpus() / jobs, at least 1 */
+	int force;                   /* 1: redo complete clips */
+	wl_batch_lock_mode lock;     /* default: flock */
+	const wl_process_opts *proc; /* every clip's options (NULL: the defaults); a manifest row's
+	                                option cells override them for its clip; proc->diag is not
+	                                used (the workers report through `diag`) */
+	const char *settings; /* more text that changes outputs, hashed with the options (may be NULL) */
+	const char *const *outputs; /* NULL-terminated file names each clip folder must hold
+	                               (NULL: wl_batch_outputs, the pipeline's) */
+	wl_batch_clip_fn fn;        /* NULL: the pipeline */
 	void *fn_ctx;
 	wl_batch_event_fn on_event; /* may be NULL */
 	void *ev_ctx;
+	const wl_diag *diag;          /* warnings (the manifest, each clip's stages: "clip: stage: ...") and
+	                                 progress (stage "batch": clips done, counting the parts of running
+	                                 ones, of the clips to run); may be NULL */
 	int shard_index, shard_count; /* process clips i with i % count == index; count <= 1: all */
 	wl_report_sweep_opts sweep;   /* for the report */
 } wl_batch_opts;
+
+/* The files the pipeline writes into a clip folder (and process.log). */
+extern const char *const wl_batch_outputs[];
+
+/* A clip's options: base (NULL: the defaults) with the row's option cells
+ * applied (row may be NULL) and the row's ROBOTS.csv loaded.  Errors name
+ * the robots file. */
+wl_status wl_batch_clip_opts(const wl_process_opts *base, const wl_manifest_opts *row, wl_process_opts *out,
+                             wl_err *err);
 
 typedef struct {
 	size_t clips;   /* clips of this run (after sharding) */
@@ -226,9 +242,9 @@ void wl_batch_status_release(wl_batch_status_report *st);
 const char *wl_batch_state_name(wl_batch_state s);
 
 /* Settings hash of the resume rule (FNV-1a, 64 bits, as 16 hex digits):
- * over `settings`, the CAL.json's bytes and the plane height. */
-wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
-                                 char out[17], wl_err *err);
+ * over `settings` and the bytes of each file of the NULL-terminated list
+ * (the clip's CAL.json). */
+wl_status wl_batch_settings_hash(const char *settings, const char *const *files, char out[17], wl_err *err);
 
 /* The resume rule's key of an input file: SHA-256 (hex) over its size and
  * three 64 KiB blocks of its content (the first, one from the middle and

@@ -9,12 +9,25 @@
 #define WL_BATCH_PRIV_H
 
 #include <limits.h>
+#include <stdint.h>
 #include <sys/stat.h>
 #include <sys/types.h>
 
 #include "batch/batch.h"
 
 #define MAX_JOBS 256
+#define BATCH_LOG "process.log" /* a clip's log: its warnings and how it ended */
+
+/* One message from a worker to the parent.  Fixed size and smaller than
+ * PIPE_BUF, so that each goes in one write() and arrives whole. */
+enum { BATCH_MSG_PROGRESS = 1, BATCH_MSG_WARN, BATCH_MSG_RESULT, BATCH_MSG_ERROR };
+typedef struct {
+	uint32_t kind;
+	int32_t status;     /* ERROR: the wl_status */
+	double done, total; /* PROGRESS: frames done and expected (-1 unknown); RESULT: frames, runs */
+	char stage[16];     /* PROGRESS, WARN: the stage */
+	char text[480];     /* WARN, ERROR: the message */
+} batch_msg;
 
 /* One clip of the run: its job, and while a worker runs it, the worker. */
 typedef struct {
@@ -29,10 +42,11 @@ typedef struct {
 	/* running state */
 	pid_t pid;
 	int fd;
-	char buf[1024];
+	unsigned char buf[2 * sizeof(batch_msg)];
 	size_t blen;
-	char msg[512];
-	long frames, total;
+	char msg[512];        /* the worker's error message */
+	double frames, total; /* reported by the worker */
+	size_t runs;
 	double t0;
 } clipjob;
 
@@ -44,9 +58,13 @@ typedef struct {
 	size_t njobs;
 	size_t finished;
 	size_t running;
-	long frames_done;
 	double t_start, t_last_ev;
-	int journal_fd;
+	int journal_fd, journal_errno; /* the first failure to write the journal */
+	struct {
+		char path[PATH_MAX];
+		char hash[17];
+	} cal[8]; /* the CAL.json hashes read so far */
+	size_t ncal;
 	int threads; /* decoder threads of each clip */
 	char out_abs[PATH_MAX], clip_dir_abs[PATH_MAX];
 } runner;
@@ -70,8 +88,12 @@ wl_status batch_mark(const char *out_dir, const wl_batch_job *job, const char *d
  * them (owner NULL or ""), or only those named for one owner
  * (core/afile.h's wl_afile_set_owner), for folders that others write too. */
 void batch_remove_stale_tmp(const char *dir, const char *owner);
-/* Appends one line to the journal (fd < 0: none). */
-void batch_journal(int fd, const char *event, const char *clip, const char *hash, const char *msg);
+/* Appends one line to the journal (fd < 0: none); a failure is kept in
+ * *failed (the first errno), for the batch to report when it ends. */
+void batch_journal(int fd, int *failed, const char *event, const char *clip, const char *hash,
+                   const char *msg);
+/* A warning: to the journal and the batch's diag. */
+void batch_warn(runner *r, const char *clip, const char *msg);
 
 /* ---- sweep.c: batch.json, shard-K.json, the calibration check ---- */
 
@@ -106,10 +128,19 @@ char *batch_rel_to(const char *base_abs, const char *path);
 
 /* ---- worker.c: the worker side of the pipe ---- */
 
-/* Runs in the forked child: the clip function, its progress and its error
- * sent to fd; never returns. */
+/* Runs in the forked child: the clip's options resolved, the clip function
+ * with a wl_diag that sends warnings and progress to fd (and writes them to
+ * the clip's process.log), its error sent last; never returns. */
 void batch_worker_main(runner *r, clipjob *j, int fd, pid_t parent) __attribute__((noreturn));
-/* In the parent: decodes the whole lines a worker sent into j. */
-void batch_worker_parse(clipjob *j);
+/* In the worker: tells the parent how many frames and runs the clip gave. */
+void batch_worker_result(const wl_batch_job *job, int64_t frames, size_t runs);
+/* In the parent: takes the whole messages a worker sent (progress into j,
+ * warnings to the batch's diag and journal, the error into j->msg). */
+void batch_worker_parse(clipjob *j, runner *r);
+
+/* ---- clipopts.c ---- */
+
+/* The default clip function: CAL.json loaded once, then wl_process_clip. */
+wl_status batch_pipeline_clip(const wl_batch_job *job, void *ctx, wl_err *err);
 
 #endif

@@ -114,7 +114,8 @@ wl_status wl_batch_discover(const char *dir, const char *skip_dir, wl_cliplist *
 		wl_cliplist_release(out);
 		return s;
 	}
-	qsort(out->rel, out->n, sizeof *out->rel, cmp_rel);
+	if (out->n)
+		qsort(out->rel, out->n, sizeof *out->rel, cmp_rel);
 	return WL_OK;
 }
 

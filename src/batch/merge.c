@@ -400,9 +400,9 @@ wl_status wl_batch_merge_report(const char *out_dir, const wl_report_sweep_opts 
 	wl_report_runs t;
 	wl_report_sweep_opts so = {NULL, NULL, 0};
 	cJSON *bj = NULL;
+	char **names = NULL;
 	DIR *d;
 	struct dirent *e;
-	char **names = NULL;
 	expect *ex = NULL;
 	size_t nn = 0, cap = 0, nex = 0, i;
 	int written = 0, shards = 1, lock_fd;

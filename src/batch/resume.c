@@ -43,26 +43,20 @@ static unsigned long long fnv(unsigned long long h, const void *p, size_t n)
 	return h;
 }
 
-wl_status wl_batch_settings_hash(const char *settings, const char *cal_path, double plane_height_m,
-                                 char out[17], wl_err *err)
+wl_status wl_batch_settings_hash(const char *settings, const char *const *files, char out[17], wl_err *err)
 {
 	unsigned long long h = 1469598103934665603ULL;
-	char num[WL_NUMBUF];
-	char *cal = NULL;
-	size_t len = 0;
 	if (settings)
 		h = fnv(h, settings, strlen(settings) + 1);
-	if (cal_path) {
-		wl_status s = wl_read_file(cal_path, WL_JSON_MAX_BYTES, &cal, &len, err);
+	for (size_t i = 0; files && files[i]; i++) {
+		char *data = NULL;
+		size_t len = 0;
+		wl_status s = wl_read_file(files[i], WL_JSON_MAX_BYTES, &data, &len, err);
 		if (s)
 			return s;
-		h = fnv(h, cal, len);
-		free(cal);
-	}
-	h = fnv(h, "\n", 1);
-	if (isfinite(plane_height_m)) {
-		wl_fmt_g(num, plane_height_m, 17);
-		h = fnv(h, num, strlen(num));
+		h = fnv(h, data, len);
+		h = fnv(h, "\n", 1);
+		free(data);
 	}
 	snprintf(out, 17, "%016llx", h);
 	return WL_OK;
@@ -251,7 +245,8 @@ void batch_remove_stale_tmp(const char *dir, const char *owner)
 
 /* ---- the journal ------------------------------------------------------ */
 
-void batch_journal(int fd, const char *event, const char *clip, const char *hash, const char *msg)
+void batch_journal(int fd, int *failed, const char *event, const char *clip, const char *hash,
+                   const char *msg)
 {
 	char line[1024], ts[32];
 	int n;
@@ -264,8 +259,8 @@ void batch_journal(int fd, const char *event, const char *clip, const char *hash
 		n = (int)sizeof line;
 		line[n - 1] = '\n';
 	}
-	/* one write() per line: O_APPEND puts it whole at the end */
-	if (write(fd, line, (size_t)n) < 0) {
-		/* the journal is history only; clip.json decides */
-	}
+	/* one write() per line: O_APPEND puts it whole at the end; the journal
+	 * is history only (clip.json decides), but a lost line is reported */
+	if (write(fd, line, (size_t)n) != n && !*failed)
+		*failed = errno ? errno : EIO;
 }

@@ -33,24 +33,18 @@
 #include "core/afile.h"
 #include "core/csvio.h"
 #include "core/jsonio.h"
+#include "wl_version.h"
+
+static const char *const *outputs(const runner *r)
+{
+	return r->o->outputs ? r->o->outputs : wl_batch_outputs;
+}
 
 static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char *msg)
 {
 	wl_batch_event ev;
-	double el, units = 0, rate;
-	size_t i;
-	long frames = r->frames_done;
 	if (!r->o->on_event)
 		return;
-	el = batch_now_s() - r->t_start;
-	for (i = 0; i < r->njobs; i++) {
-		if (r->jobs[i].pid > 0) {
-			frames += r->jobs[i].frames;
-			if (r->jobs[i].total > 0)
-				units += fmin(1.0, (double)r->jobs[i].frames / (double)r->jobs[i].total);
-		}
-	}
-	units += (double)(r->res->done + r->res->failed);
 	memset(&ev, 0, sizeof ev);
 	ev.kind = kind;
 	ev.clip = clip;
@@ -59,15 +53,27 @@ static void emit(runner *r, wl_batch_ev_kind kind, const char *clip, const char 
 	ev.total = r->njobs;
 	ev.failed = r->res->failed;
 	ev.running = r->running;
-	ev.fps = el > 0 ? (double)frames / el : 0;
-	rate = el > 0.5 ? units / el : 0;
-	ev.eta_s = rate > 0 ? ((double)(r->njobs - r->finished) -
-	                       (units - (double)(r->res->done + r->res->failed))) /
-	                              rate
-	                    : NAN;
-	if (ev.eta_s < 0)
-		ev.eta_s = 0;
 	r->o->on_event(&ev, r->o->ev_ctx);
+}
+
+/* Progress: clips finished in this run (not the skipped ones), counting the
+ * part of each running clip that its worker reported, of the clips to run. */
+static void progress(runner *r)
+{
+	double units = (double)(r->res->done + r->res->failed), todo = (double)(r->njobs - r->res->skipped);
+	for (size_t i = 0; i < r->njobs; i++)
+		if (r->jobs[i].pid > 0 && r->jobs[i].total > 0)
+			units += fmin(1.0, r->jobs[i].frames / r->jobs[i].total);
+	wl_diag_progress(r->o->diag, "batch", units, todo, NAN);
+}
+
+void batch_warn(runner *r, const char *clip, const char *msg)
+{
+	batch_journal(r->journal_fd, &r->journal_errno, "warn", clip, NULL, msg);
+	if (clip)
+		wl_diag_warn(r->o->diag, "batch", "%s: %s", clip, msg);
+	else
+		wl_diag_warn(r->o->diag, "batch", "%s", msg);
 }
 
 static wl_status start_job(runner *r, clipjob *j, wl_err *err)
@@ -81,8 +87,8 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 		char path[PATH_MAX];
 		snprintf(path, sizeof path, "%s/clip.json", j->out_dir);
 		unlink(path);
-		for (i = 0; r->o->outputs && r->o->outputs[i]; i++) {
-			snprintf(path, sizeof path, "%s/%s", j->out_dir, r->o->outputs[i]);
+		for (i = 0; outputs(r)[i]; i++) {
+			snprintf(path, sizeof path, "%s/%s", j->out_dir, outputs(r)[i]);
 			unlink(path);
 		}
 	}
@@ -97,9 +103,6 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	}
 	if (pid == 0) {
 		close(p[0]);
-		/* the worker's paths are relative to OUT (see prepare_job) */
-		if (chdir(r->out_abs) != 0)
-			_exit(4);
 		batch_worker_main(r, j, p[1], parent);
 	}
 	close(p[1]);
@@ -110,9 +113,10 @@ static wl_status start_job(runner *r, clipjob *j, wl_err *err)
 	j->msg[0] = '\0';
 	j->frames = 0;
 	j->total = -1;
+	j->runs = 0;
 	j->t0 = batch_now_s();
 	r->running++;
-	batch_journal(r->journal_fd, "start", j->rel, j->hash, NULL);
+	batch_journal(r->journal_fd, &r->journal_errno, "start", j->rel, j->hash, NULL);
 	emit(r, WL_BATCH_EV_START, j->rel, NULL);
 	return WL_OK;
 }
@@ -133,7 +137,8 @@ static void finish_job(runner *r, clipjob *j)
 	j->pid = 0;
 	j->fd = -1;
 	r->running--;
-	r->frames_done += j->frames;
+	/* a worker that crashed leaves the temporary files of what it was writing */
+	batch_remove_stale_tmp(j->out_dir, NULL);
 	ok = WIFEXITED(ws) && WEXITSTATUS(ws) == 0;
 	msg[0] = '\0';
 	if (WIFSIGNALED(ws))
@@ -142,14 +147,14 @@ static void finish_job(runner *r, clipjob *j)
 		         j->rel, WTERMSIG(ws), strsignal(WTERMSIG(ws)));
 	else if (!ok)
 		snprintf(msg, sizeof msg, "%s", j->msg[0] ? j->msg : "the clip failed without a message");
-	for (i = 0; ok && r->o->outputs && r->o->outputs[i]; i++) {
+	for (i = 0; ok && outputs(r)[i]; i++) {
 		char path[PATH_MAX];
 		struct stat st;
-		snprintf(path, sizeof path, "%s/%s", j->out_dir, r->o->outputs[i]);
+		snprintf(path, sizeof path, "%s/%s", j->out_dir, outputs(r)[i]);
 		if (stat(path, &st) != 0) {
 			snprintf(msg, sizeof msg,
 			         "%s: the clip's processing wrote no '%s': a bug; please report it", j->rel,
-			         r->o->outputs[i]);
+			         outputs(r)[i]);
 			ok = 0;
 		}
 	}
@@ -161,11 +166,11 @@ static void finish_job(runner *r, clipjob *j)
 	r->finished++;
 	if (ok) {
 		r->res->done++;
-		batch_journal(r->journal_fd, "done", j->rel, j->hash, NULL);
+		batch_journal(r->journal_fd, &r->journal_errno, "done", j->rel, j->hash, NULL);
 		emit(r, WL_BATCH_EV_DONE, j->rel, NULL);
 	} else {
 		r->res->failed++;
-		batch_journal(r->journal_fd, "fail", j->rel, j->hash, msg);
+		batch_journal(r->journal_fd, &r->journal_errno, "fail", j->rel, j->hash, msg);
 		emit(r, WL_BATCH_EV_FAIL, j->rel, msg);
 	}
 }
@@ -194,7 +199,7 @@ static void pump(runner *r)
 			k = read(j->fd, j->buf + j->blen, sizeof j->buf - j->blen);
 			if (k > 0) {
 				j->blen += (size_t)k;
-				batch_worker_parse(j);
+				batch_worker_parse(j, r);
 				continue;
 			}
 			if (k < 0 && (errno == EAGAIN || errno == EINTR))
@@ -205,11 +210,7 @@ static void pump(runner *r)
 	}
 	if (batch_now_s() - r->t_last_ev >= 0.2) {
 		r->t_last_ev = batch_now_s();
-		for (i = 0; i < r->njobs; i++)
-			if (r->jobs[i].pid > 0) {
-				emit(r, WL_BATCH_EV_PROGRESS, r->jobs[i].rel, NULL);
-				break;
-			}
+		progress(r);
 	}
 }
 
@@ -237,6 +238,57 @@ int wl_batch_cpus(void)
 			n = k;
 	}
 	return n > 4096 ? 4096 : (int)n;
+}
+
+/* The hash of a CAL.json's bytes, read once per distinct path in a run. */
+static wl_status cal_hash(runner *r, const char *path, char out[17], wl_err *err)
+{
+	const char *files[] = {path, NULL};
+	wl_status st;
+	for (size_t i = 0; i < r->ncal; i++)
+		if (strcmp(r->cal[i].path, path) == 0) {
+			memcpy(out, r->cal[i].hash, 17);
+			return WL_OK;
+		}
+	if ((st = wl_batch_settings_hash(NULL, files, out, err)))
+		return st;
+	if (r->ncal < sizeof r->cal / sizeof r->cal[0]) {
+		snprintf(r->cal[r->ncal].path, sizeof r->cal[r->ncal].path, "%s", path);
+		memcpy(r->cal[r->ncal].hash, out, 17);
+		r->ncal++;
+	}
+	return WL_OK;
+}
+
+/* The clip's settings hash: this version, the batch's settings text, every
+ * option of the clip (the row applied) and its calibration's bytes.  A row
+ * whose options cannot be applied (a bad ROBOTS.csv, colour ranges in tag
+ * mode) fails its clip with the message, before any work. */
+static void job_hash(runner *r, clipjob *j)
+{
+	wl_process_opts *po = malloc(sizeof *po);
+	char ch[17], *desc = NULL, *text = NULL;
+	size_t n;
+	wl_err e;
+	wl_err_clear(&e);
+	if (!po || wl_batch_clip_opts(r->o->proc, j->job.row ? &j->job.row->opts : NULL, po, &e) ||
+	    wl_track_opts_check(&po->track, &e) || cal_hash(r, j->cal, ch, &e)) {
+		snprintf(j->hash_err, sizeof j->hash_err, "%s: %s", j->rel, po ? e.msg : "out of memory");
+		goto out;
+	}
+	desc = wl_process_opts_describe(po);
+	n = (desc ? strlen(desc) : 0) + (r->o->settings ? strlen(r->o->settings) : 0) + 128;
+	if (!desc || !(text = malloc(n))) {
+		snprintf(j->hash_err, sizeof j->hash_err, "%s: out of memory", j->rel);
+		goto out;
+	}
+	snprintf(text, n, "wakeline %s\n%s\n%s\ncal %s\n", WL_VERSION, r->o->settings ? r->o->settings : "",
+	         desc, ch);
+	wl_batch_settings_hash(text, NULL, j->hash, NULL);
+out:
+	free(text);
+	free(desc);
+	free(po);
 }
 
 /* The manifest's rows sorted by clip, for lookups in O(log n). */
@@ -267,8 +319,6 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_
 	const wl_batch_opts *o = r->o;
 	char name[PATH_MAX], abs[PATH_MAX * 2];
 	size_t i, k = 0;
-	double plane = NAN;
-	wl_err herr;
 
 	memset(j, 0, sizeof *j);
 	j->fd = -1;
@@ -276,7 +326,10 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_
 	snprintf(j->clip_path, sizeof j->clip_path, "%s/%s", o->clip_dir, rel);
 	wl_batch_clip_name(rel, name, sizeof name);
 	snprintf(j->out_dir, sizeof j->out_dir, "%s/clips/%s", o->out_dir, name);
-	snprintf(j->cal, sizeof j->cal, "%s", o->cal_path ? o->cal_path : "");
+	snprintf(j->cal, sizeof j->cal, "%s",
+	         row && row->opts.cal ? row->opts.cal
+	         : o->cal_path        ? o->cal_path
+	                              : "");
 	if (m) {
 		j->names = calloc(m->ncols ? m->ncols : 1, sizeof *j->names);
 		j->values = calloc(m->ncols ? m->ncols : 1, sizeof *j->values);
@@ -288,10 +341,6 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_
 			j->names[k] = m->cols[i];
 			j->values[k++] = row ? row->values[i] : "";
 		}
-		if (row && row->opts.cal)
-			snprintf(j->cal, sizeof j->cal, "%s", row->opts.cal);
-		if (row)
-			plane = row->opts.plane_height_m;
 	}
 	/* the worker runs in OUT and sees every path relative to it, so that
 	 * what it writes (clean.json, summary.json, messages) names no folder
@@ -307,17 +356,16 @@ static wl_status prepare_job(runner *r, const wl_manifest *m, const wl_manifest_
 	j->job.clip_rel = j->rel;
 	j->job.out_dir = j->wout;
 	j->job.cal_path = j->wcal[0] ? j->wcal : NULL;
-	j->job.plane_height_m = plane;
+	j->job.row = row;
 	j->job.nparams = k;
 	j->job.param_names = j->names;
 	j->job.param_values = j->values;
 	j->job.threads = r->threads;
-	wl_err_clear(&herr);
 	if (!j->cal[0])
 		snprintf(j->hash_err, sizeof j->hash_err,
 		         "%s: no calibration: give --cal, or a 'cal' cell in the manifest row", rel);
-	else if (wl_batch_settings_hash(o->settings, j->cal, plane, j->hash, &herr) != WL_OK)
-		snprintf(j->hash_err, sizeof j->hash_err, "%s: %s", rel, herr.msg);
+	else
+		job_hash(r, j);
 	return wl_mkdirs(j->out_dir, err);
 }
 
@@ -454,13 +502,14 @@ static void drop_lock(batch_lock *l)
 
 /* A warning about the manifest: on screen with its path as typed, in the
  * journal (a file in OUT) with its path relative to OUT. */
-static void warn(runner *r, const char *fmt, const char *a, const char *manifest, const char *manifest_rel)
+static void warn_manifest(runner *r, const char *fmt, const char *a, const char *manifest,
+                          const char *manifest_rel)
 {
 	char msg[PATH_MAX * 2];
 	snprintf(msg, sizeof msg, fmt, a, manifest_rel);
-	batch_journal(r->journal_fd, "warn", NULL, NULL, msg);
+	batch_journal(r->journal_fd, &r->journal_errno, "warn", NULL, NULL, msg);
 	snprintf(msg, sizeof msg, fmt, a, manifest);
-	emit(r, WL_BATCH_EV_WARN, NULL, msg);
+	wl_diag_warn(r->o->diag, "batch", "%s", msg);
 }
 
 /* The set-up both a run and a plan need: OUT and its absolute path, the
@@ -510,6 +559,112 @@ static wl_status setup_sweep(const wl_batch_opts *o, setup *su, wl_err *err)
 	return batch_cal_digest(o->cal_path, su->cal_sha256, err);
 }
 
+/* The clips of this run (this shard), each with its job; warnings for clips
+ * without a manifest row and rows without a clip. */
+static wl_status prepare_jobs(runner *r, setup *su, const char *man_rel, wl_err *err)
+{
+	const wl_batch_opts *o = r->o;
+	const wl_manifest *m = su->have_m ? &su->m : NULL;
+	char path[PATH_MAX];
+	size_t i, mine = 0;
+	wl_status s;
+	for (i = 0; i < su->cl.n; i++)
+		mine += !(o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index);
+	if (!(r->jobs = calloc(mine ? mine : 1, sizeof *r->jobs)))
+		return wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", mine);
+	for (i = 0; i < su->cl.n; i++) {
+		const wl_manifest_row *row = m ? find_row(su->idx, su->m.nrows, su->cl.rel[i]) : NULL;
+		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
+			continue;
+		if (m && !row) {
+			r->res->unlisted++;
+			warn_manifest(r,
+			              "%s: no row in the manifest '%s': processed with empty parameter cells",
+			              su->cl.rel[i], o->manifest_path, man_rel ? man_rel : "");
+		}
+		s = prepare_job(r, m, row, su->cl.rel[i], &r->jobs[r->njobs], err);
+		r->njobs++; /* what it allocated is freed by runner_release, also on failure */
+		if (s)
+			return s;
+	}
+	for (i = 0; m && i < m->nrows; i++) {
+		if (m->rows[i].found)
+			continue;
+		r->res->missing++;
+		snprintf(path, sizeof path, "%s' on line %ld", m->rows[i].clip, m->rows[i].line);
+		warn_manifest(r, "clip '%s of the manifest '%s' is not under the clip folder: check the name",
+		              path, m->path, man_rel ? man_rel : "");
+	}
+	return WL_OK;
+}
+
+/* A clip that needs no worker: its options failed (the message is the
+ * result) or it is complete.  Returns 1 when the clip is settled here. */
+static int settle_without_worker(runner *r, clipjob *j)
+{
+	int differ = 0;
+	if (j->hash_err[0]) {
+		wl_err e2;
+		wl_err_clear(&e2);
+		batch_mark(j->out_dir, &j->job, "", -1, "", 0, j->hash_err, 0, &e2);
+		r->res->failed++;
+		r->finished++;
+		batch_journal(r->journal_fd, &r->journal_errno, "fail", j->rel, NULL, j->hash_err);
+		emit(r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
+		return 1;
+	}
+	if (wl_batch_input_digest(j->clip_path, j->digest, &j->size, NULL) != WL_OK)
+		j->digest[0] = '\0'; /* unreadable: the worker says why */
+	if (r->o->force ||
+	    !batch_is_complete(j->out_dir, &j->job, j->digest, j->size, j->hash, outputs(r), &differ))
+		return 0;
+	if (differ) /* new parameter cells only: no need to redo the clip */
+		batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, 1, NULL, 0, NULL);
+	r->res->skipped++;
+	r->finished++;
+	batch_journal(r->journal_fd, &r->journal_errno, "skip", j->rel, j->hash, NULL);
+	emit(r, WL_BATCH_EV_SKIP, j->rel, NULL);
+	return 1;
+}
+
+/* Runs the jobs, at most `jobs` workers at a time. */
+static wl_status schedule(runner *r, int jobs, wl_err *err)
+{
+	size_t next = 0;
+	wl_status s;
+	while (next < r->njobs || r->running) {
+		while (next < r->njobs && (int)r->running < jobs) {
+			clipjob *j = &r->jobs[next++];
+			if (!settle_without_worker(r, j) && (s = start_job(r, j, err)))
+				return s;
+		}
+		pump(r);
+	}
+	return WL_OK;
+}
+
+static void runner_release(runner *r)
+{
+	/* on a set-up error while workers run, stop them: their clips are redone */
+	for (size_t i = 0; i < r->njobs; i++)
+		if (r->jobs[i].pid > 0) {
+			kill(r->jobs[i].pid, SIGKILL);
+			waitpid(r->jobs[i].pid, NULL, 0);
+			close(r->jobs[i].fd);
+		}
+	for (size_t i = 0; i < r->njobs; i++) {
+		free(r->jobs[i].names);
+		free(r->jobs[i].values);
+		free(r->jobs[i].wclip);
+		free(r->jobs[i].wout);
+		free(r->jobs[i].wcal);
+	}
+	free(r->jobs);
+	if (r->journal_fd >= 0 && close(r->journal_fd) != 0 && !r->journal_errno)
+		r->journal_errno = errno;
+	r->journal_fd = -1;
+}
+
 wl_status wl_batch_plan(const wl_batch_opts *o, wl_batch_result *res, wl_err *err)
 {
 	setup su;
@@ -539,9 +694,8 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	runner r;
 	int jobs, cpus, locked = 0;
 	batch_lock lock;
-	size_t i, next = 0, mine = 0;
 	wl_status s;
-	char path[PATH_MAX], owner[32], old_owner[32] = "", started[32];
+	char path[PATH_MAX], jpath[PATH_MAX] = "", owner[32], old_owner[32] = "", started[32];
 	char *man_rel = NULL;
 
 	memset(res, 0, sizeof *res);
@@ -551,8 +705,6 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	r.res = res;
 	r.journal_fd = -1;
 	wl_manifest_init(&su.m);
-	if (!o->fn)
-		return wl_err_set(err, WL_EINVAL, "no clip function given to the batch");
 	if ((s = wl_mkdirs(o->out_dir, err)))
 		return s;
 	snprintf(path, sizeof path, "%s/clips", o->out_dir);
@@ -578,17 +730,12 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	snprintf(r.out_abs, sizeof r.out_abs, "%s", su.out_abs);
 	snprintf(r.clip_dir_abs, sizeof r.clip_dir_abs, "%s", su.clip_dir_abs);
 	if (o->shard_count > 1)
-		snprintf(path, sizeof path, "%s/journal-%d.log", o->out_dir, o->shard_index);
+		snprintf(jpath, sizeof jpath, "%s/journal-%d.log", o->out_dir, o->shard_index);
 	else
-		snprintf(path, sizeof path, "%s/journal.log", o->out_dir);
-	r.journal_fd = open(path, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
-	for (i = 0; i < su.cl.n; i++)
-		mine += !(o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index);
-	r.jobs = calloc(mine ? mine : 1, sizeof *r.jobs);
-	if (!r.jobs) {
-		s = wl_err_set(err, WL_ENOMEM, "out of memory for %zu clips", mine);
-		goto out;
-	}
+		snprintf(jpath, sizeof jpath, "%s/journal.log", o->out_dir);
+	r.journal_fd = open(jpath, O_WRONLY | O_APPEND | O_CREAT | O_CLOEXEC, 0644);
+	if (r.journal_fd < 0)
+		r.journal_errno = errno;
 	r.t_start = batch_now_s();
 	cpus = wl_batch_cpus();
 	jobs = o->jobs > 0 ? o->jobs : cpus;
@@ -598,66 +745,13 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 	res->jobs = jobs;
 	res->threads = r.threads;
 	res->cpus = cpus;
-	for (i = 0; i < su.cl.n; i++) {
-		const wl_manifest_row *row = su.have_m ? find_row(su.idx, su.m.nrows, su.cl.rel[i]) : NULL;
-		if (o->shard_count > 1 && (int)(i % (size_t)o->shard_count) != o->shard_index)
-			continue;
-		if (su.have_m && !row) {
-			res->unlisted++;
-			warn(&r, "%s: no row in the manifest '%s': processed with empty parameter cells",
-			     su.cl.rel[i], o->manifest_path, man_rel ? man_rel : "");
-		}
-		if ((s = prepare_job(&r, su.have_m ? &su.m : NULL, row, su.cl.rel[i], &r.jobs[r.njobs],
-		                     err))) {
-			r.njobs++; /* what it allocated is freed below */
-			goto out;
-		}
-		r.njobs++;
-	}
-	for (i = 0; su.have_m && i < su.m.nrows; i++) {
-		if (su.m.rows[i].found)
-			continue;
-		res->missing++;
-		snprintf(path, sizeof path, "%s' on line %ld", su.m.rows[i].clip, su.m.rows[i].line);
-		warn(&r, "clip '%s of the manifest '%s' is not under the clip folder: check the name", path,
-		     su.m.path, man_rel ? man_rel : "");
-	}
-	if ((s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err)) ||
+	if ((s = prepare_jobs(&r, &su, man_rel, err)) ||
+	    (s = batch_sweep_save(o, su.out_abs, su.have_m ? &su.m : NULL, &su.cl, su.cal_sha256, err)) ||
 	    (s = batch_shard_record(o, su.cal_sha256, r.njobs, 0, started, err)))
 		goto out;
 	res->clips = r.njobs;
-	while (next < r.njobs || r.running) {
-		while (next < r.njobs && (int)r.running < jobs) {
-			clipjob *j = &r.jobs[next++];
-			int differ = 0;
-			if (j->hash_err[0]) {
-				wl_err e2;
-				wl_err_clear(&e2);
-				batch_mark(j->out_dir, &j->job, "", -1, "", 0, j->hash_err, 0, &e2);
-				res->failed++;
-				r.finished++;
-				batch_journal(r.journal_fd, "fail", j->rel, NULL, j->hash_err);
-				emit(&r, WL_BATCH_EV_FAIL, j->rel, j->hash_err);
-				continue;
-			}
-			if (wl_batch_input_digest(j->clip_path, j->digest, &j->size, NULL) != WL_OK)
-				j->digest[0] = '\0'; /* unreadable: the worker says why */
-			if (!o->force && batch_is_complete(j->out_dir, &j->job, j->digest, j->size, j->hash,
-			                                   o->outputs, &differ)) {
-				if (differ) /* new parameter cells only: no need to redo the clip */
-					batch_mark(j->out_dir, &j->job, j->digest, j->size, j->hash, 1, NULL,
-					           0, NULL);
-				res->skipped++;
-				r.finished++;
-				batch_journal(r.journal_fd, "skip", j->rel, j->hash, NULL);
-				emit(&r, WL_BATCH_EV_SKIP, j->rel, NULL);
-				continue;
-			}
-			if ((s = start_job(&r, j, err)))
-				goto out;
-		}
-		pump(&r);
-	}
+	if ((s = schedule(&r, jobs, err)))
+		goto out;
 	batch_shard_record(o, su.cal_sha256, r.njobs, 1, started, NULL);
 	if (o->shard_count <= 1) {
 		wl_batch_result mr;
@@ -666,23 +760,13 @@ wl_status wl_batch_run(const wl_batch_opts *o, wl_batch_result *res, wl_err *err
 		res->runs = mr.runs;
 	}
 out:
-	/* on a set-up error while workers run, stop them: their clips are redone */
-	for (i = 0; i < r.njobs; i++)
-		if (r.jobs[i].pid > 0) {
-			kill(r.jobs[i].pid, SIGKILL);
-			waitpid(r.jobs[i].pid, NULL, 0);
-			close(r.jobs[i].fd);
-		}
-	for (i = 0; i < r.njobs; i++) {
-		free(r.jobs[i].names);
-		free(r.jobs[i].values);
-		free(r.jobs[i].wclip);
-		free(r.jobs[i].wout);
-		free(r.jobs[i].wcal);
-	}
-	free(r.jobs);
-	if (r.journal_fd >= 0)
-		close(r.journal_fd);
+	runner_release(&r);
+	if (s == WL_OK && r.journal_errno)
+		s = wl_err_set(
+		        err, WL_EIO,
+		        "cannot write '%s': %s: the clips' results are complete, their history is not%s",
+		        jpath, strerror(r.journal_errno),
+		        r.journal_errno == ENOSPC ? ": free some space and run again" : "");
 	if (locked) {
 		drop_lock(&lock);
 		wl_afile_set_owner(old_owner);

@@ -17,6 +17,7 @@
 #define WL_CALIB_H
 
 #include "core/camera.h"
+#include "core/diag.h"
 #include "core/err.h"
 #include "formats/cal.h" /* wl_calib_point, the shared keys of CAL.json */
 
@@ -77,9 +78,9 @@ typedef struct {
 	double plane_height_m;   /* default tracked plane height to record */
 	int displayed, rotation_deg;
 	double outlier_px; /* leave-one-out threshold (default 3 px when 0) */
+	const wl_diag
+	        *diag; /* warnings: points left out or far off, an undetermined focal length (may be NULL) */
 } wl_calib_opts;
-
-#define WL_CALIB_MAX_WARN 16
 
 typedef struct {
 	int n_used;                 /* points in the final fit */
@@ -90,8 +91,7 @@ typedef struct {
 	double focal_from_h_px;     /* that estimate (0 when not determined) */
 	double focal_spread;        /* relative jackknife spread of it (0 if n < 7) */
 	double height_m, tilt_deg;  /* camera above the floor, optical axis from nadir */
-	int n_warn;
-	char warn[WL_CALIB_MAX_WARN][200];
+	const wl_diag *diag;        /* during the call: the options' */
 } wl_calib_report;
 
 /* Calibrates from n >= 4 correspondences: normalised DLT homography and
@@ -100,7 +100,7 @@ typedef struct {
  * oblique enough, else opts->hfov_deg, else WL_ECALIB saying what is
  * needed), the pose (refined by Levenberg-Marquardt through the water model
  * when opts->water_depth_m > 0), and residuals.  Points with z_m != 0 are
- * used as 3-D points.  cal is initialised here; warnings go to rep. */
+ * used as 3-D points.  cal is initialised here; warnings go to opts->diag. */
 wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *opts, wl_calib *cal,
                          wl_calib_report *rep, wl_err *err);
 

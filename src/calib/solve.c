@@ -19,14 +19,13 @@
 #define RESIDUAL_WARN_PX 2.0
 #define FOCAL_SPREAD_MAX 0.05 /* jackknife spread of f beyond which f counts as undetermined */
 
-static void warn(wl_calib_report *rep, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void warn(wl_calib_report *rep, const char *fmt, ...)
+/* A warning for the user, through the options' wl_diag. */
+static void warn(const wl_calib_report *rep, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+static void warn(const wl_calib_report *rep, const char *fmt, ...)
 {
 	va_list ap;
-	if (rep->n_warn >= WL_CALIB_MAX_WARN)
-		return;
 	va_start(ap, fmt);
-	vsnprintf(rep->warn[rep->n_warn++], sizeof rep->warn[0], fmt, ap);
+	wl_diag_vwarn(rep->diag, "calibrate", fmt, ap);
 	va_end(ap);
 }
 
@@ -413,6 +412,7 @@ static wl_status solve(work *wk, const wl_calib_point *pts, int n, const wl_cali
 	wl_calib_init(cal);
 	memset(rep, 0, sizeof *rep);
 	rep->outlier = rep->worst = -1;
+	rep->diag = o->diag;
 	if (n < 4)
 		return wl_err_set(err, WL_ECALIB,
 		                  "%d usable point%s, calibration needs at least 4: add markers or points", n,
@@ -482,6 +482,7 @@ wl_status wl_calib_solve(const wl_calib_point *pts, int n, const wl_calib_opts *
 		return wl_err_set(err, WL_ENOMEM, "out of memory for the calibration");
 	}
 	st = solve(wk, pts, n, o, cal, rep, err);
+	rep->diag = NULL; /* borrowed for the call only */
 	free(wk);
 	return st;
 }

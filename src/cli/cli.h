@@ -10,6 +10,7 @@
 #ifndef WL_CLI_H
 #define WL_CLI_H
 
+#include <math.h>
 #include <stdio.h>
 
 #include "core/diag.h"
@@ -38,6 +39,90 @@ int cli_finish(const char *cmd, int status);
 /* Strict option parsing: the whole argument must be a number. */
 int cli_parse_double(const char *s, double *out);
 int cli_parse_int(const char *s, int *out);
+
+/* ---- option tables (opt.c) ----
+ * A command lists its options once, in a table; cli_parse parses argv by it
+ * (getopt_long underneath), checks every value, prints the usage error that
+ * names the option and what to give, and prints --help from the same table,
+ * so that the help, the parsing and the messages cannot drift apart.  Tables
+ * are arrays ending with an entry of kind CLI_END; a command may pass several
+ * (the option groups of opts.c shared by track, clean, measure, process and
+ * batch). */
+typedef enum {
+	CLI_END = 0,
+	CLI_SECTION, /* a heading in --help: help is its text */
+	CLI_FLAG,    /* *(int *)dest = 1 */
+	CLI_STR,     /* *(const char **)dest = the argument */
+	CLI_DOUBLE,  /* *(double *)dest, checked against lo/hi when hi > lo */
+	CLI_INT,     /* *(int *)dest, likewise */
+	CLI_FLOAT,   /* *(float *)dest, likewise */
+	CLI_FN       /* fn parses: returns 0, or 1 with msg saying what to give */
+} cli_kind;
+
+typedef struct {
+	cli_kind kind;
+	const char *name; /* long name without "--" */
+	const char *arg;  /* the value's name in --help ("S", "tag|colour") */
+	const char *help; /* text in --help (NULL: left out) */
+	void *dest;
+	double lo, hi; /* CLI_DOUBLE, CLI_INT: allowed range when hi > lo */
+	int above_lo;  /* 1: the value must be above lo, not equal */
+	int (*fn)(const char *arg, void *dest, char *msg, size_t cap);
+	int *seen;         /* set to 1 when the option is given (may be NULL) */
+	const char *alias; /* an older spelling still accepted for one release (may be NULL) */
+	char letter;       /* a short option besides the long name (0: none) */
+} cli_opt;
+
+/* Table entries, in the manner of git's OPT_* macros (every field given, so
+ * that a table reads as a list and the compiler checks the types). */
+#define CLI_OPT_END                                                                                          \
+	{                                                                                                    \
+		CLI_END, NULL, NULL, NULL, NULL, 0, 0, 0, NULL, NULL, NULL, 0                                \
+	}
+#define CLI_OPT_SECTION(text)                                                                                \
+	{                                                                                                    \
+		CLI_SECTION, NULL, NULL, text, NULL, 0, 0, 0, NULL, NULL, NULL, 0                            \
+	}
+#define CLI_OPT_FLAG(name, letter, help, dest)                                                               \
+	{                                                                                                    \
+		CLI_FLAG, name, NULL, help, dest, 0, 0, 0, NULL, NULL, NULL, letter                          \
+	}
+#define CLI_OPT_STR(name, letter, arg, help, dest)                                                           \
+	{                                                                                                    \
+		CLI_STR, name, arg, help, dest, 0, 0, 0, NULL, NULL, NULL, letter                            \
+	}
+/* a number in [lo, hi] (any number when hi <= lo) */
+#define CLI_OPT_NUM(name, arg, help, dest, lo, hi)                                                           \
+	{                                                                                                    \
+		CLI_DOUBLE, name, arg, help, dest, lo, hi, 0, NULL, NULL, NULL, 0                            \
+	}
+/* a number above 0 */
+#define CLI_OPT_POS(name, arg, help, dest)                                                                   \
+	{                                                                                                    \
+		CLI_DOUBLE, name, arg, help, dest, 0, INFINITY, 1, NULL, NULL, NULL, 0                       \
+	}
+#define CLI_OPT_FLOAT(name, arg, help, dest, lo, hi)                                                         \
+	{                                                                                                    \
+		CLI_FLOAT, name, arg, help, dest, lo, hi, 0, NULL, NULL, NULL, 0                             \
+	}
+#define CLI_OPT_INT(name, letter, arg, help, dest, lo, hi)                                                   \
+	{                                                                                                    \
+		CLI_INT, name, arg, help, dest, lo, hi, 0, NULL, NULL, NULL, letter                          \
+	}
+#define CLI_OPT_FN(name, arg, help, dest, fn)                                                                \
+	{                                                                                                    \
+		CLI_FN, name, arg, help, dest, 0, 0, 0, fn, NULL, NULL, 0                                    \
+	}
+
+enum { CLI_CONTINUE = -1 };
+
+/* Parses argv[1..argc-1] by the NULL-terminated list of tables.  Returns
+ * CLI_CONTINUE with *first set to the index of the first argument that is
+ * not an option, or the exit status to return at once: WL_EXIT_OK after
+ * --help (head, the options, then tail, on stdout) or WL_EXIT_USAGE after a
+ * usage error (on stderr). */
+int cli_parse(const char *cmd, const char *head, const char *tail, const cli_opt *const *tables, int argc,
+              char **argv, int *first);
 
 /* A progress line on stderr, only when stderr is a terminal and not quiet.
  * Redrawn at most 5 times a second; cli_progress_done ends the line. */

@@ -1,9 +1,9 @@
 /* cmd_batch.c: `wakeline batch DIR --cal CAL.json -o OUT`: every clip under
- * DIR through track, clean, measure and the plots, in parallel worker
- * processes, resumable, then summary.csv and report.html. */
+ * DIR through the pipeline (wl_process_clip) in parallel worker processes,
+ * resumable, then summary.csv and report.html (src/batch/batch.h); also
+ * `batch --status OUT` and `batch --slurm` (src/batch/slurm.h). */
 #define _GNU_SOURCE
 #include <errno.h>
-#include <getopt.h>
 #include <limits.h>
 #include <math.h>
 #include <stdio.h>
@@ -14,172 +14,40 @@
 #include "batch/batch.h"
 #include "batch/slurm.h"
 #include "cli/cli.h"
+#include "cli/stageopts.h"
 #include "core/afile.h"
 #include "core/csvio.h"
-#include "wl_version.h"
 
 const char cmd_batch_summary[] =
         "process every clip of a folder (resumable), then summary.csv and report.html";
 
-static const char USAGE[] =
-        "usage: wakeline batch DIR --cal CAL.json -o OUTDIR [options]\n"
-        "       wakeline batch --status OUTDIR\n"
-        "\n"
-        "Finds the video clips under DIR (mp4 mov m4v avi mkv webm, any case, in\n"
-        "sub-folders too; names starting with '.' are left out), runs each through\n"
-        "track, clean and measure with its plots in OUTDIR/clips/<name>/, then writes\n"
-        "OUTDIR/summary.csv, the sweep plots and OUTDIR/report.html.  Run it again\n"
-        "after an interruption: clips that are complete for the same input, the same\n"
-        "calibration and the same settings are skipped, the rest are done.\n"
-        "\n"
-        "  --cal CAL.json        the calibration (a manifest's `cal` cell overrides it)\n"
-        "  --manifest FILE.csv   one row per clip: a `clip` column (path relative to DIR)\n"
-        "                        and any parameter columns; optional `cal` and\n"
-        "                        `plane_height_m` override per clip\n"
-        "  --robots ROBOTS.csv   the robots (ids, plane heights, colours): see `wakeline track --help`\n"
-        "  -o, --out OUTDIR      where everything goes (created)\n"
-        "  -j, --jobs N          clips processed at once (default: the CPUs this process\n"
-        "                        may use: its affinity mask, or SLURM_CPUS_PER_TASK)\n"
-        "  --threads N           decoder threads per clip (default: those CPUs / -j)\n"
-        "  --force               redo clips that are complete\n"
-        "  --lock MODE           how a second run of the same shard is kept out of OUTDIR:\n"
-        "                        flock (default), dir (a lock directory made with mkdir,\n"
-        "                        for file systems without locks; a killed run leaves it:\n"
-        "                        remove it by hand when the run was on another host),\n"
-        "                        none (no protection: two runs of one shard at once\n"
-        "                        would spoil each other's clips)\n"
-        "  --no-lock             the same as --lock none\n"
-        "  --x COLUMN            manifest column on the sweep plots' x axis\n"
-        "  --group COLUMN        manifest column that groups the sweep points\n"
-        "  --body-m D            body diameter (m): the wall cut, radius_body_diameters\n"
-        "                        and the sweep plots' shaded band\n"
-        "  --shard K/N           process only clips K, K+N, K+2N... (0 <= K < N) of the\n"
-        "                        sorted list, for job arrays; run `wakeline merge OUTDIR`\n"
-        "                        when all shards are done\n"
-        "  -q, --quiet           no progress line\n"
-        "  --status OUTDIR       where the sweep in OUTDIR stands (also while shards run):\n"
-        "                        clips done, failed (with their messages), running,\n"
-        "                        interrupted and not started; exit 0 when every clip is\n"
-        "                        done, else 1\n"
-        "\n"
-        "On a Slurm cluster (see docs/cluster.md):\n"
-        "  --slurm               plan the sweep (OUTDIR/batch.json), write a job array of\n"
-        "                        shard tasks and a merge job (OUTDIR/slurm/*.sbatch) and\n"
-        "                        submit them with sbatch, the merge after every task has\n"
-        "                        ended (afterany); prints the job ids and what to run next\n"
-        "  --shards N            tasks in the array (default: one per clip, at most 32)\n"
-        "  --partition P, --time T, --cpus-per-task C, --mem M, --account A\n"
-        "                        the #SBATCH options of the tasks (--time also of the merge)\n"
-        "  --merge-time T        the merge job's --time\n"
-        "  --sbatch-lines FILE   extra '#SBATCH ...' lines for both scripts\n"
-        "  --dry-run             write the scripts, submit nothing\n"
-        "  -h, --help            this text\n"
-        "\n"
-        "Exit status: 0 every clip done, 1 a clip failed, a manifest row names a\n"
-        "missing clip, or an error, 2 usage error.  Failed clips are listed in\n"
-        "summary.csv and report.html with their messages; the others are not affected.\n";
+static const char HEAD[] = "usage: wakeline batch DIR --cal CAL.json -o OUTDIR [options]\n"
+                           "       wakeline batch --status OUTDIR\n"
+                           "       wakeline batch DIR --cal CAL.json -o OUTDIR --slurm [slurm options]\n"
+                           "\n"
+                           "Finds the video clips under DIR (mp4 mov m4v avi mkv webm, any case, in\n"
+                           "sub-folders too; names starting with '.' are left out), runs each through\n"
+                           "track, clean and measure with its plots in OUTDIR/clips/<name>/ (as\n"
+                           "`wakeline process` would), then writes OUTDIR/summary.csv, the sweep plots\n"
+                           "and OUTDIR/report.html.  Run it again after an interruption: clips that are\n"
+                           "complete for the same input, calibration and settings are skipped.\n"
+                           "\n"
+                           "A manifest row may set these options for its clip (an empty cell keeps the\n"
+                           "batch's): cal, robots, mode, family, plane_height_m, body_diameter_m, trim,\n"
+                           "smoother, commanded_period_s (docs/batch.md).  On a Slurm cluster see\n"
+                           "docs/cluster.md.\n"
+                           "\n";
+static const char TAIL[] = "\nExit status: 0 every clip done, 1 a clip failed, a manifest row names a\n"
+                           "missing clip, or an error, 2 usage error.  Failed clips are listed in\n"
+                           "summary.csv and report.html with their messages; the others are not affected.\n";
 
+/* The progress line: clip counts from the events, the share done from the
+ * batch's progress. */
 typedef struct {
-	cli_progress prog;
-	int quiet;
+	cli_diag cd;
+	wl_diag d;
+	wl_batch_event last;
 } ui;
-
-/* What every clip folder holds when its clip is done. */
-static const char *const OUTPUTS[] = {"raw.csv",     "clean.csv",  "clean.json",  "summary.json",
-                                      "path_m.svg",  "path_m.png", "heading.svg", "heading.png",
-                                      "process.log", NULL};
-
-typedef struct {
-	const char *robots, *body;
-} proc_opts;
-
-/* The last "error:" line of a log (else its last line), for the clip's
- * message. */
-static void last_error(const char *log, char *out, size_t cap)
-{
-	char *text = NULL, *p, *best = NULL, *last = NULL;
-	size_t len = 0;
-	out[0] = '\0';
-	if (wl_read_file(log, 1 << 24, &text, &len, NULL) != WL_OK)
-		return;
-	for (p = text; (p = strstr(p, "error: ")); p++)
-		best = p + 7;
-	for (p = text; *p; p++)
-		if ((p == text || p[-1] == '\n') && *p != '\n')
-			last = p;
-	if (!best)
-		best = last;
-	if (best)
-		snprintf(out, cap, "%.*s", (int)strcspn(best, "\n"), best);
-	free(text);
-}
-
-/* One clip, in a batch worker: `wakeline process` with the clip's
- * calibration and plane height, its output going to process.log. */
-static wl_status batch_clip(const wl_batch_job *job, void *ctx, wl_err *err)
-{
-	const proc_opts *po = ctx;
-	char log[4200], plane[WL_NUMBUF], msg[400], threads[16];
-	const char *args[24];
-	char *argv[24];
-	wl_afile *af = NULL;
-	int n = 0, rc, i;
-	wl_status s;
-
-	if (!job->cal_path)
-		return wl_err_set(err, WL_EINVAL, "%s: no calibration: give --cal or a 'cal' cell",
-		                  job->clip_rel);
-	snprintf(log, sizeof log, "%s/process.log", job->out_dir);
-	if ((s = wl_afile_open(log, &af, err)))
-		return s;
-	fflush(stdout);
-	fflush(stderr);
-	dup2(fileno(wl_afile_fp(af)), STDOUT_FILENO);
-	dup2(fileno(wl_afile_fp(af)), STDERR_FILENO);
-	args[n++] = "process", args[n++] = job->clip_path, args[n++] = "--cal", args[n++] = job->cal_path;
-	snprintf(threads, sizeof threads, "%d", job->threads > 0 ? job->threads : 1);
-	args[n++] = "-o", args[n++] = job->out_dir, args[n++] = "-q", args[n++] = "--threads",
-	args[n++] = threads;
-	if (isfinite(job->plane_height_m))
-		args[n++] = "--plane-height-m", args[n++] = wl_fmt_g(plane, job->plane_height_m, 17);
-	if (po->robots)
-		args[n++] = "--robots", args[n++] = po->robots;
-	if (po->body)
-		args[n++] = "--body-diameter-m", args[n++] = po->body;
-	for (i = 0; i < n; i++)
-		argv[i] = (char *)args[i]; /* cmd_process's getopt does not write into its arguments */
-	argv[n] = NULL;
-	printf("wakeline %s process %s\n", WL_VERSION, job->clip_path);
-	rc = cmd_process(n, argv);
-	fflush(stdout);
-	fflush(stderr);
-	if ((s = wl_afile_commit(af, err)))
-		return s;
-	if (rc != WL_EXIT_OK) {
-		last_error(log, msg, sizeof msg);
-		return wl_err_set(err, WL_EIO, "%s", msg[0] ? msg : "the clip failed: see its process.log");
-	}
-	{
-		/* frames of the clip, for the frames-per-second figure */
-		char raw[4200];
-		FILE *fp;
-		int ch, last = '\n';
-		snprintf(raw, sizeof raw, "%s/raw.csv", job->out_dir);
-		fp = fopen(raw, "r");
-		if (fp) {
-			long lines = 0;
-			while ((ch = getc(fp)) != EOF) {
-				lines += ch == '\n';
-				last = ch;
-			}
-			lines += last != '\n';
-			fclose(fp);
-			if (job->progress && lines > 1)
-				job->progress(job->progress_ctx, lines - 1, lines - 1);
-		}
-	}
-	return WL_OK;
-}
 
 static void fmt_time(char *buf, size_t cap, double s)
 {
@@ -191,23 +59,76 @@ static void fmt_time(char *buf, size_t cap, double s)
 		snprintf(buf, cap, "%dm%02ds", (int)(s / 60), (int)fmod(s, 60));
 }
 
-static void on_event(const wl_batch_event *ev, void *ctx)
+static void on_progress(void *ctx, const char *stage, double done, double total, double t_s)
 {
 	ui *u = ctx;
 	char eta[32];
-	if (ev->kind == WL_BATCH_EV_FAIL || ev->kind == WL_BATCH_EV_WARN) {
-		cli_progress_done(&u->prog);
-		u->prog.t_last = 0;
-		if (ev->kind == WL_BATCH_EV_FAIL)
-			fprintf(stderr, "wakeline batch: clip failed: %s\n", ev->msg ? ev->msg : "");
-		else
-			cli_warn("batch", "%s", ev->msg ? ev->msg : "");
-		return;
+	double el = cli_now_s() - u->cd.prog.t_start;
+	(void)stage;
+	(void)t_s;
+	fmt_time(eta, sizeof eta, done > 0 && el > 0.5 ? el * (total - done) / done : NAN);
+	cli_progress_update(&u->cd.prog, "[%zu/%zu done, %zu failed, %zu running] %s left", u->last.finished,
+	                    u->last.total, u->last.failed, u->last.running, eta);
+}
+
+/* Warnings as every command prints them (cli.h, cli_diag). */
+static void on_warn(void *ctx, const char *stage, const char *msg)
+{
+	ui *u = ctx;
+	u->cd.d.warn(&u->cd, stage, msg);
+}
+
+static void on_event(const wl_batch_event *ev, void *ctx)
+{
+	ui *u = ctx;
+	u->last = *ev;
+	if (ev->kind == WL_BATCH_EV_FAIL) {
+		cli_progress_done(&u->cd.prog);
+		u->cd.prog.t_last = 0;
+		fprintf(stderr, "wakeline batch: clip failed: %s\n", ev->msg ? ev->msg : "");
 	}
-	fmt_time(eta, sizeof eta, ev->eta_s);
-	cli_progress_update(&u->prog, "[%zu/%zu done, %zu failed, %zu running] %s  %.0f fps  %s left",
-	                    ev->finished, ev->total, ev->failed, ev->running, ev->clip ? ev->clip : "",
-	                    ev->fps, eta);
+}
+
+static int parse_shard(const char *s, void *dest, char *msg, size_t cap)
+{
+	wl_batch_opts *o = dest;
+	char tail;
+	if (sscanf(s, "%d/%d%c", &o->shard_index, &o->shard_count, &tail) == 2 && o->shard_count >= 1 &&
+	    o->shard_index >= 0 && o->shard_index < o->shard_count)
+		return 0;
+	snprintf(msg, cap, "give K/N with 0 <= K < N");
+	return 1;
+}
+
+static int parse_lock(const char *s, void *dest, char *msg, size_t cap)
+{
+	wl_batch_lock_mode *m = dest;
+	if (strcmp(s, "flock") == 0)
+		*m = WL_BATCH_LOCK_FLOCK;
+	else if (strcmp(s, "dir") == 0)
+		*m = WL_BATCH_LOCK_DIR;
+	else if (strcmp(s, "none") == 0)
+		*m = WL_BATCH_LOCK_NONE;
+	else
+		return snprintf(msg, cap, "give flock, dir or none"), 1;
+	return 0;
+}
+
+static int report(const wl_batch_opts *o, const wl_batch_result *res)
+{
+	printf("batch: %zu clips: %zu done, %zu already complete, %zu failed; %zu manifest rows name missing "
+	       "clips; %zu without a manifest row\n",
+	       res->clips, res->done, res->skipped, res->failed, res->missing, res->unlisted);
+	printf("batch: %d worker%s at once, %d decoder thread%s each (%d CPU%s this process may use)\n",
+	       res->jobs, res->jobs == 1 ? "" : "s", res->threads, res->threads == 1 ? "" : "s", res->cpus,
+	       res->cpus == 1 ? "" : "s");
+	if (o->shard_count > 1)
+		printf("batch: shard %d/%d finished; run `wakeline merge %s` when every shard is done\n",
+		       o->shard_index, o->shard_count, o->out_dir);
+	else
+		printf("batch: %zu runs; see %s/summary.csv and %s/report.html\n", res->runs, o->out_dir,
+		       o->out_dir);
+	return cli_finish("batch", res->failed || res->missing ? WL_EXIT_FAIL : WL_EXIT_OK);
 }
 
 /* `batch --status OUT`: where the sweep stands. */
@@ -250,9 +171,15 @@ static int show_status(const char *out)
 	return cli_finish("batch", k ? WL_EXIT_OK : WL_EXIT_FAIL);
 }
 
+/* ---- --slurm ---------------------------------------------------------------- */
+
 typedef struct {
 	int on, dry;
 	wl_slurm_opts o;
+	const char *args[160]; /* the shard tasks' batch arguments */
+	size_t nargs;
+	char *owned[16]; /* absolute paths made for args (freed by the caller) */
+	size_t nowned;
 } slurm_cli;
 
 /* An absolute path of an existing file or folder, for the job scripts. */
@@ -264,14 +191,68 @@ static int abs_arg(const char *what, const char *p, char *out)
 	return 0;
 }
 
-/* `batch --slurm`: plan the sweep, write the job scripts, submit them. */
-static int submit_slurm(slurm_cli *sl, wl_batch_opts *o, const proc_opts *po)
+static const cli_opt *stage_opt(const cli_stages *s, const char *name, size_t len)
 {
-	static char dir[PATH_MAX], cal[PATH_MAX], man[PATH_MAX], rob[PATH_MAX], out[PATH_MAX], prog[PATH_MAX];
-	char shard_script[PATH_MAX + 32], merge_script[PATH_MAX + 32], jobs[16], threads[16];
+	const cli_opt *const tables[] = {s->body, s->track, s->clean, s->measure};
+	for (size_t t = 0; t < sizeof tables / sizeof tables[0]; t++)
+		for (const cli_opt *o = tables[t]; o->kind != CLI_END; o++)
+			if (o->kind != CLI_SECTION &&
+			    ((strlen(o->name) == len && strncmp(o->name, name, len) == 0) ||
+			     (o->alias && strlen(o->alias) == len && strncmp(o->alias, name, len) == 0)))
+				return o;
+	return NULL;
+}
+
+/* The options of track, clean and measure as given (argv[1..first-1], which
+ * cli_parse left in order), for the shard tasks: the same spelling, with
+ * --robots made an absolute path.  0, or 1 with the message printed. */
+static int forward_stage_args(slurm_cli *sl, const cli_stages *s, int first, char **argv)
+{
+	for (int i = 1; i < first; i++) {
+		const char *a = argv[i], *eq;
+		const cli_opt *o;
+		if (strncmp(a, "--", 2) != 0)
+			continue;
+		eq = strchr(a, '=');
+		o = stage_opt(s, a + 2, eq ? (size_t)(eq - a - 2) : strlen(a + 2));
+		if (!o)
+			continue; /* the batch's own option */
+		if (sl->nargs + 2 >= sizeof sl->args / sizeof sl->args[0] ||
+		    sl->nowned >= sizeof sl->owned / sizeof sl->owned[0]) {
+			fprintf(stderr, "wakeline batch: too many options for --slurm\n");
+			return 1;
+		}
+		if (o->kind != CLI_FLAG && !eq && i + 1 < first) {
+			const char *v = argv[++i];
+			sl->args[sl->nargs++] = a;
+			if (o->dest == &s->robots) {
+				char *p = malloc(PATH_MAX);
+				if (!p || !abs_arg("--robots", v, p)) {
+					free(p);
+					return 1;
+				}
+				sl->owned[sl->nowned++] = p;
+				v = p;
+			}
+			sl->args[sl->nargs++] = v;
+		} else if (o->dest == &s->robots) {
+			fprintf(stderr,
+			        "wakeline batch: with --slurm give --robots FILE (not --robots=FILE)\n");
+			return 1;
+		} else
+			sl->args[sl->nargs++] = a;
+	}
+	return 0;
+}
+
+/* `batch --slurm`: plan the sweep, write the job scripts, submit them. */
+static int submit_slurm(slurm_cli *sl, wl_batch_opts *o, const cli_stages *s, int first, char **argv)
+{
+	static char dir[PATH_MAX], cal[PATH_MAX], man[PATH_MAX], out[PATH_MAX], prog[PATH_MAX];
+	char shard_script[PATH_MAX + 32], merge_script[PATH_MAX + 32], jobs[16], threads[16], body[64];
 	char array_id[64], merge_id[64], dep[96];
-	const char *bargs[40], *margs[12];
-	size_t nb = 0, nm = 0;
+	const char *margs[12];
+	size_t nm = 0;
 	wl_batch_result res;
 	wl_err err;
 	ssize_t n;
@@ -281,8 +262,7 @@ static int submit_slurm(slurm_cli *sl, wl_batch_opts *o, const proc_opts *po)
 		return cli_usage_error("batch", "--slurm makes the shards itself: leave out --shard");
 	if (!abs_arg("the clip folder", o->clip_dir, dir) ||
 	    (o->cal_path && !abs_arg("--cal", o->cal_path, cal)) ||
-	    (o->manifest_path && !abs_arg("--manifest", o->manifest_path, man)) ||
-	    (po->robots && !abs_arg("--robots", po->robots, rob)))
+	    (o->manifest_path && !abs_arg("--manifest", o->manifest_path, man)))
 		return cli_finish("batch", WL_EXIT_FAIL);
 	if (wl_mkdirs(o->out_dir, &err) != WL_OK)
 		return cli_fail("batch", &err);
@@ -310,46 +290,48 @@ static int submit_slurm(slurm_cli *sl, wl_batch_opts *o, const proc_opts *po)
 	if (wl_batch_plan(o, &res, &err) != WL_OK)
 		return cli_fail("batch", &err);
 
-	bargs[nb++] = dir;
+	sl->args[sl->nargs++] = dir;
 	if (o->cal_path)
-		bargs[nb++] = "--cal", bargs[nb++] = cal;
+		sl->args[sl->nargs++] = "--cal", sl->args[sl->nargs++] = cal;
 	if (o->manifest_path)
-		bargs[nb++] = "--manifest", bargs[nb++] = man;
-	bargs[nb++] = "-o", bargs[nb++] = out;
-	if (po->robots)
-		bargs[nb++] = "--robots", bargs[nb++] = rob;
-	if (po->body)
-		bargs[nb++] = "--body-m", bargs[nb++] = po->body;
+		sl->args[sl->nargs++] = "--manifest", sl->args[sl->nargs++] = man;
+	sl->args[sl->nargs++] = "-o", sl->args[sl->nargs++] = out;
+	if (forward_stage_args(sl, s, first, argv))
+		return cli_finish("batch", WL_EXIT_FAIL);
+	if (sl->nargs + 16 >= sizeof sl->args / sizeof sl->args[0])
+		return cli_usage_error("batch", "too many options for --slurm");
 	if (o->sweep.x_col)
-		bargs[nb++] = "--x", bargs[nb++] = o->sweep.x_col;
+		sl->args[sl->nargs++] = "--x", sl->args[sl->nargs++] = o->sweep.x_col;
 	if (o->sweep.group_col)
-		bargs[nb++] = "--group", bargs[nb++] = o->sweep.group_col;
+		sl->args[sl->nargs++] = "--group", sl->args[sl->nargs++] = o->sweep.group_col;
 	if (o->jobs > 0) {
 		snprintf(jobs, sizeof jobs, "%d", o->jobs);
-		bargs[nb++] = "-j", bargs[nb++] = jobs;
+		sl->args[sl->nargs++] = "-j", sl->args[sl->nargs++] = jobs;
 	}
 	if (o->threads > 0) {
 		snprintf(threads, sizeof threads, "%d", o->threads);
-		bargs[nb++] = "--threads", bargs[nb++] = threads;
+		sl->args[sl->nargs++] = "--threads", sl->args[sl->nargs++] = threads;
 	}
 	if (o->force)
-		bargs[nb++] = "--force";
+		sl->args[sl->nargs++] = "--force";
 	if (o->lock == WL_BATCH_LOCK_DIR)
-		bargs[nb++] = "--lock", bargs[nb++] = "dir";
+		sl->args[sl->nargs++] = "--lock", sl->args[sl->nargs++] = "dir";
 	else if (o->lock == WL_BATCH_LOCK_NONE)
-		bargs[nb++] = "--lock", bargs[nb++] = "none";
-	bargs[nb++] = "-q";
+		sl->args[sl->nargs++] = "--lock", sl->args[sl->nargs++] = "none";
+	sl->args[sl->nargs++] = "-q";
 	margs[nm++] = out;
 	if (o->sweep.x_col)
 		margs[nm++] = "--x", margs[nm++] = o->sweep.x_col;
 	if (o->sweep.group_col)
 		margs[nm++] = "--group", margs[nm++] = o->sweep.group_col;
-	if (po->body)
-		margs[nm++] = "--body-m", margs[nm++] = po->body;
+	if (o->sweep.body_diameter_m > 0) {
+		wl_fmt_g(body, o->sweep.body_diameter_m, 17);
+		margs[nm++] = "--body-diameter-m", margs[nm++] = body;
+	}
 	sl->o.program = prog;
 	sl->o.out_dir = out;
-	sl->o.batch_args = bargs;
-	sl->o.nbatch_args = nb;
+	sl->o.batch_args = sl->args;
+	sl->o.nbatch_args = sl->nargs;
 	sl->o.merge_args = margs;
 	sl->o.nmerge_args = nm;
 	if (wl_slurm_write(&sl->o, shard_script, merge_script, PATH_MAX + 32, &err) != WL_OK)
@@ -391,223 +373,133 @@ static int submit_slurm(slurm_cli *sl, wl_batch_opts *o, const proc_opts *po)
 	return cli_finish("batch", WL_EXIT_OK);
 }
 
-enum { O_SLURM = 1000, O_SHARDS, O_PARTITION, O_TIME, O_CPUS, O_MEM, O_ACCOUNT, O_LINES, O_MTIME, O_DRY };
-
-static int parse_shard(const char *s, int *k, int *n)
+static int run_batch(wl_batch_opts *o, cli_stages *s, int quiet)
 {
-	char tail;
-	return sscanf(s, "%d/%d%c", k, n, &tail) == 2 && *n >= 1 && *k >= 0 && *k < *n;
+	wl_batch_result res;
+	ui u;
+	wl_err err;
+	int rc;
+	memset(&u, 0, sizeof u);
+	if (isfinite(s->body_m))
+		o->sweep.body_diameter_m = s->body_m;
+	o->threads = s->p.decode_threads;
+	o->proc = &s->p;
+	o->on_event = on_event;
+	o->ev_ctx = &u;
+	cli_diag_init(&u.cd, "batch", quiet);
+	u.d = (wl_diag){on_warn, on_progress, &u};
+	o->diag = &u.d;
+	wl_err_clear(&err);
+	rc = wl_batch_run(o, &res, &err);
+	cli_diag_done(&u.cd);
+	wl_report_release_caches();
+	if (rc != WL_OK)
+		return cli_fail("batch", &err);
+	return report(o, &res);
 }
 
 int cmd_batch(int argc, char **argv)
 {
-	/* clang-format off */
-	static const struct option opts[] = {
-	        {"cal", required_argument, NULL, 'c'},
-	        {"manifest", required_argument, NULL, 'm'},
-	        {"robots", required_argument, NULL, 'r'},
-	        {"out", required_argument, NULL, 'o'},
-	        {"jobs", required_argument, NULL, 'j'},
-	        {"threads", required_argument, NULL, 'T'},
-	        {"force", no_argument, NULL, 'f'},
-	        {"lock", required_argument, NULL, 'L'},
-	        {"no-lock", no_argument, NULL, 'N'},
-	        {"x", required_argument, NULL, 'x'},
-	        {"group", required_argument, NULL, 'g'},
-	        {"body-m", required_argument, NULL, 'b'},
-	        {"shard", required_argument, NULL, 's'},
-	        {"quiet", no_argument, NULL, 'q'},
-	        {"status", no_argument, NULL, 'S'},
-	        {"slurm", no_argument, NULL, O_SLURM},
-	        {"shards", required_argument, NULL, O_SHARDS},
-	        {"partition", required_argument, NULL, O_PARTITION},
-	        {"time", required_argument, NULL, O_TIME},
-	        {"cpus-per-task", required_argument, NULL, O_CPUS},
-	        {"mem", required_argument, NULL, O_MEM},
-	        {"account", required_argument, NULL, O_ACCOUNT},
-	        {"sbatch-lines", required_argument, NULL, O_LINES},
-	        {"merge-time", required_argument, NULL, O_MTIME},
-	        {"dry-run", no_argument, NULL, O_DRY},
-	        {"help", no_argument, NULL, 'h'},
-	        {NULL, 0, NULL, 0},
-	};
-	/* clang-format on */
+	static cli_stages s; /* large; the tables point into it */
+	static slurm_cli sl;
 	wl_batch_opts o;
-	proc_opts po;
-	wl_batch_result res;
-	char settings[2048];
-	ui u;
-	wl_err err;
-	int c, status = 0;
-	slurm_cli sl;
-
+	int quiet = 0, status = 0, no_lock = 0, rc, first;
+	const cli_opt own[] = {
+	        CLI_OPT_STR("cal", 0, "CAL.json", "the calibration (a manifest's `cal` cell overrides it)",
+	                    &o.cal_path),
+	        CLI_OPT_STR("manifest", 0, "FILE.csv",
+	                    "one row per clip: a `clip` column (path relative to DIR),\nparameter columns, "
+	                    "and option columns (above)",
+	                    &o.manifest_path),
+	        CLI_OPT_STR("out", 'o', "OUTDIR", "where everything goes (created)", &o.out_dir),
+	        CLI_OPT_INT("jobs", 'j', "N",
+	                    "clips processed at once (default: the CPUs this process\nmay use: its "
+	                    "affinity mask, or SLURM_CPUS_PER_TASK)",
+	                    &o.jobs, 1, 256),
+	        CLI_OPT_FLAG("force", 0, "redo clips that are complete", &o.force),
+	        CLI_OPT_FN("lock", "MODE",
+	                   "how a second run of the same shard is kept out of OUTDIR:\nflock (default), "
+	                   "dir (a lock directory made with mkdir,\nfor file systems without locks; a "
+	                   "killed run leaves it:\nremove it by hand when the run was on another host),\n"
+	                   "none (no protection: two runs of one shard at once\nwould spoil each other's "
+	                   "clips)",
+	                   &o.lock, parse_lock),
+	        CLI_OPT_FLAG("no-lock", 0, "the same as --lock none", &no_lock),
+	        CLI_OPT_STR("x", 0, "COLUMN", "manifest column on the sweep plots' x axis", &o.sweep.x_col),
+	        CLI_OPT_STR("group", 0, "COLUMN", "manifest column that groups the sweep points",
+	                    &o.sweep.group_col),
+	        CLI_OPT_FN("shard", "K/N",
+	                   "process only clips K, K+N, K+2N... (0 <= K < N) of the\nsorted list, for job "
+	                   "arrays; run `wakeline merge OUTDIR`\nwhen all shards are done",
+	                   &o, parse_shard),
+	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &quiet),
+	        CLI_OPT_FLAG("status", 0,
+	                     "where the sweep in OUTDIR stands (also while shards run):\nclips done, "
+	                     "failed (with their messages), running,\ninterrupted and not started; exit 0 "
+	                     "when every clip is\ndone, else 1",
+	                     &status),
+	        CLI_OPT_SECTION("On a Slurm cluster (docs/cluster.md):"),
+	        CLI_OPT_FLAG("slurm", 0,
+	                     "plan the sweep (OUTDIR/batch.json), write a job array of\nshard tasks and a "
+	                     "merge job (OUTDIR/slurm/*.sbatch) and\nsubmit them with sbatch, the merge "
+	                     "after every task has\nended (afterany); prints the job ids and what to run "
+	                     "next",
+	                     &sl.on),
+	        CLI_OPT_INT("shards", 0, "N", "tasks in the array (default: one per clip, at most 32)",
+	                    &sl.o.shards, 1, 100000),
+	        CLI_OPT_STR("partition", 0, "P", "#SBATCH --partition of the tasks and the merge",
+	                    &sl.o.partition),
+	        CLI_OPT_STR("time", 0, "T", "#SBATCH --time of the tasks (and of the merge)", &sl.o.time),
+	        CLI_OPT_INT("cpus-per-task", 0, "C", "#SBATCH --cpus-per-task of the tasks",
+	                    &sl.o.cpus_per_task, 1, 4096),
+	        CLI_OPT_STR("mem", 0, "M", "#SBATCH --mem of the tasks", &sl.o.mem),
+	        CLI_OPT_STR("account", 0, "A", "#SBATCH --account", &sl.o.account),
+	        CLI_OPT_STR("merge-time", 0, "T", "the merge job's --time", &sl.o.merge_time),
+	        CLI_OPT_STR("sbatch-lines", 0, "FILE", "extra '#SBATCH ...' lines for both scripts",
+	                    &sl.o.extra_path),
+	        CLI_OPT_FLAG("dry-run", 0, "write the scripts, submit nothing", &sl.dry),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {own, s.body, s.track, s.clean, s.measure, NULL};
 	memset(&o, 0, sizeof o);
-	memset(&u, 0, sizeof u);
-	memset(&po, 0, sizeof po);
 	memset(&sl, 0, sizeof sl);
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:j:qh", opts, NULL)) != -1) {
-		switch (c) {
-		case 'c':
-			o.cal_path = optarg;
-			break;
-		case 'm':
-			o.manifest_path = optarg;
-			break;
-		case 'r':
-			po.robots = optarg;
-			break;
-		case 'o':
-			o.out_dir = optarg;
-			break;
-		case 'j':
-			if (!cli_parse_int(optarg, &o.jobs) || o.jobs < 1 || o.jobs > 256)
-				return cli_usage_error("batch",
-				                       "-j wants a number of clips from 1 to 256, not '%s'",
-				                       optarg);
-			break;
-		case 'T':
-			if (!cli_parse_int(optarg, &o.threads) || o.threads < 1 || o.threads > 64)
-				return cli_usage_error(
-				        "batch", "--threads wants a number of threads from 1 to 64, not '%s'",
-				        optarg);
-			break;
-		case 'f':
-			o.force = 1;
-			break;
-		case 'L':
-			if (strcmp(optarg, "flock") == 0)
-				o.lock = WL_BATCH_LOCK_FLOCK;
-			else if (strcmp(optarg, "dir") == 0)
-				o.lock = WL_BATCH_LOCK_DIR;
-			else if (strcmp(optarg, "none") == 0)
-				o.lock = WL_BATCH_LOCK_NONE;
-			else
-				return cli_usage_error("batch", "--lock wants flock, dir or none, not '%s'",
-				                       optarg);
-			break;
-		case 'N':
-			o.lock = WL_BATCH_LOCK_NONE;
-			break;
-		case 'x':
-			o.sweep.x_col = optarg;
-			break;
-		case 'g':
-			o.sweep.group_col = optarg;
-			break;
-		case 'b':
-			if (!cli_parse_double(optarg, &o.sweep.body_diameter_m) ||
-			    !(o.sweep.body_diameter_m > 0))
-				return cli_usage_error(
-				        "batch", "--body-m wants a length in metres > 0, not '%s'", optarg);
-			po.body = optarg;
-			break;
-		case 's':
-			if (!parse_shard(optarg, &o.shard_index, &o.shard_count))
-				return cli_usage_error("batch", "--shard wants K/N with 0 <= K < N, not '%s'",
-				                       optarg);
-			break;
-		case 'q':
-			u.quiet = 1;
-			break;
-		case 'S':
-			status = 1;
-			break;
-		case O_SLURM:
-			sl.on = 1;
-			break;
-		case O_SHARDS:
-			if (!cli_parse_int(optarg, &sl.o.shards) || sl.o.shards < 1 || sl.o.shards > 100000)
-				return cli_usage_error("batch",
-				                       "--shards wants a number from 1 to 100000, not '%s'",
-				                       optarg);
-			break;
-		case O_PARTITION:
-			sl.o.partition = optarg;
-			break;
-		case O_TIME:
-			sl.o.time = optarg;
-			break;
-		case O_MTIME:
-			sl.o.merge_time = optarg;
-			break;
-		case O_CPUS:
-			if (!cli_parse_int(optarg, &sl.o.cpus_per_task) || sl.o.cpus_per_task < 1 ||
-			    sl.o.cpus_per_task > 4096)
-				return cli_usage_error(
-				        "batch", "--cpus-per-task wants a number from 1, not '%s'", optarg);
-			break;
-		case O_MEM:
-			sl.o.mem = optarg;
-			break;
-		case O_ACCOUNT:
-			sl.o.account = optarg;
-			break;
-		case O_LINES:
-			sl.o.extra_path = optarg;
-			break;
-		case O_DRY:
-			sl.dry = 1;
-			break;
-		case 'h':
-			fputs(USAGE, stdout);
-			return cli_finish("batch", WL_EXIT_OK);
-		default:
-			return cli_usage_error("batch", "unknown option");
+	cli_stages_init(&s);
+	for (cli_opt *t = s.track; t->kind != CLI_END; t++)
+		if (t->kind != CLI_SECTION && strcmp(t->name, "threads") == 0) {
+			t->help = "decoder threads per clip (default: the CPUs this\nprocess may use / -j)";
+			t->lo = 1;
 		}
-	}
+	if ((rc = cli_parse("batch", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (no_lock)
+		o.lock = WL_BATCH_LOCK_NONE;
 	if (status) {
-		if (argc - optind > 1 || (argc - optind == 1 && o.out_dir) || (argc == optind && !o.out_dir))
+		if (argc - first > 1 || (argc - first == 1 && o.out_dir) || (argc == first && !o.out_dir))
 			return cli_usage_error("batch", "--status wants one OUTDIR (batch --status OUTDIR)");
-		return show_status(o.out_dir ? o.out_dir : argv[optind]);
+		return show_status(o.out_dir ? o.out_dir : argv[first]);
 	}
-	if (argc - optind != 1)
+	if (argc - first != 1)
 		return cli_usage_error("batch", "wants one DIR (the folder of clips)");
 	if (!o.out_dir)
 		return cli_usage_error("batch", "-o OUTDIR is required");
 	if (!o.cal_path && !o.manifest_path)
 		return cli_usage_error("batch",
 		                       "--cal CAL.json is required (or a manifest with a `cal` column)");
-	o.clip_dir = argv[optind];
-	wl_err_clear(&err);
-	if (sl.on)
-		return submit_slurm(&sl, &o, &po);
+	if ((rc = cli_stages_finish("batch", &s)) != CLI_CONTINUE)
+		return rc;
+	o.clip_dir = argv[first];
+	if (sl.on) {
+		if (isfinite(s.body_m))
+			o.sweep.body_diameter_m = s.body_m;
+		o.threads = s.p.decode_threads;
+		o.proc = &s.p;
+		rc = submit_slurm(&sl, &o, &s, first, argv);
+		for (size_t i = 0; i < sl.nowned; i++)
+			free(sl.owned[i]);
+		return rc;
+	}
 	if (sl.o.shards || sl.dry || sl.o.partition || sl.o.time || sl.o.merge_time || sl.o.cpus_per_task ||
 	    sl.o.mem || sl.o.account || sl.o.extra_path)
 		return cli_usage_error("batch", "--shards, --partition, --time, --cpus-per-task, --mem, "
 		                                "--account, --sbatch-lines and --dry-run go with --slurm");
-	{
-		/* what changes the outputs besides the clip and its calibration */
-		char rh[17] = "";
-		if (po.robots && wl_batch_settings_hash(NULL, po.robots, NAN, rh, &err) != WL_OK)
-			return cli_fail("batch", &err);
-		snprintf(settings, sizeof settings, "wakeline %s process; robots %s; body %s", WL_VERSION, rh,
-		         po.body ? po.body : "");
-	}
-	o.settings = settings;
-	o.outputs = OUTPUTS;
-	o.fn = batch_clip;
-	o.fn_ctx = &po;
-	o.on_event = on_event;
-	o.ev_ctx = &u;
-	cli_progress_init(&u.prog, u.quiet);
-	c = wl_batch_run(&o, &res, &err);
-	cli_progress_done(&u.prog);
-	wl_report_release_caches();
-	if (c != WL_OK)
-		return cli_fail("batch", &err);
-	printf("batch: %zu clips: %zu done, %zu already complete, %zu failed; %zu manifest rows name missing "
-	       "clips; "
-	       "%zu without a manifest row\n",
-	       res.clips, res.done, res.skipped, res.failed, res.missing, res.unlisted);
-	printf("batch: %d worker%s at once, %d decoder thread%s each (%d CPU%s this process may use)\n",
-	       res.jobs, res.jobs == 1 ? "" : "s", res.threads, res.threads == 1 ? "" : "s", res.cpus,
-	       res.cpus == 1 ? "" : "s");
-	if (o.shard_count > 1)
-		printf("batch: shard %d/%d finished; run `wakeline merge %s` when every shard is done\n",
-		       o.shard_index, o.shard_count, o.out_dir);
-	else
-		printf("batch: %zu runs; see %s/summary.csv and %s/report.html\n", res.runs, o.out_dir,
-		       o.out_dir);
-	return cli_finish("batch", res.failed || res.missing ? WL_EXIT_FAIL : WL_EXIT_OK);
+	return run_batch(&o, &s, quiet);
 }

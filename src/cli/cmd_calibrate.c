@@ -1,6 +1,5 @@
 /* cmd_calibrate.c: `wakeline calibrate`: floor markers or hand-picked points -> CAL.json. */
 #define _POSIX_C_SOURCE 200809L
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -16,34 +15,18 @@
 
 const char cmd_calibrate_summary[] = "floor markers or picked points -> camera model (CAL.json)";
 
-static const char usage_text[] =
+static const char HEAD[] =
         "usage: wakeline calibrate SOURCE (--layout LAYOUT.csv | --points POINTS.csv) -o CAL.json [options]\n"
         "\n"
         "Finds the camera over the tank: the floor homography, the focal length, the\n"
         "camera's position and tilt, and (with --water-depth-m) refraction at the\n"
         "water surface.  SOURCE is a photo (PNG/JPEG) or a clip from the same camera\n"
         "setting as the runs.\n"
-        "\n"
-        "  --layout FILE        floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\n"
-        "                       markers are found in SOURCE (AprilTag)\n"
-        "  --points FILE        hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]\n"
-        "  -o, --output FILE    CAL.json to write (not written on error)\n"
-        "  --lens FILE          LENS.json from 'wakeline lens' (intrinsics and distortion)\n"
-        "  --hfov-deg A         horizontal field of view, when neither the lens nor the view\n"
-        "                       gives the focal length\n"
-        "  --plane-height-m H   height of the robots' marker plane above the floor (default 0)\n"
-        "  --water-depth-m D    the floor markers lie under D metres of still water\n"
-        "  --water-index N      refractive index of the water (default 1.333)\n"
-        "  --family NAME        tag family (default tag36h11)\n"
-        "  --at T               clip: start at T seconds (default 0)\n"
-        "  --span S             clip: use S seconds of frames (default 2)\n"
-        "  --tank \"x,y;x,y;...\" tank outline in metres (default: the markers' bounding rectangle)\n"
-        "  -q, --quiet          no progress line\n"
-        "  -h, --help           this text\n"
-        "\n"
-        "Intrinsics come from --lens, else from the markers when the view is oblique\n"
-        "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
-        "Exit status: 0 ok, 1 failure, 2 usage error.\n";
+        "\n";
+static const char TAIL[] = "\n"
+                           "Intrinsics come from --lens, else from the markers when the view is oblique\n"
+                           "enough, else from --hfov-deg.  The quality report goes to standard output.\n"
+                           "Exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	const char *source, *layout, *points, *out, *lens, *family, *tank;
@@ -160,7 +143,7 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 /* Detected markers -> correspondences: centre, and the corners when the
  * layout gives the marker's size. */
 static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *marks, int n_marks,
-                             wl_calib_point *pts, int max, int *n_seen)
+                             wl_calib_point *pts, int max, int *n_seen, const wl_diag *diag)
 {
 	int n = 0;
 	*n_seen = 0;
@@ -168,21 +151,25 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 		wl_tag_obs o;
 		const wl_calib_marker *m = &marks[i];
 		if (!wl_calib_tags_get(tags, m->id, &o)) {
-			printf("  warning: marker %ld (layout line %ld) was not found: check that it is in "
-			       "view, "
-			       "lit and flat\n",
-			       m->id, m->line);
+			wl_diag_warn(diag, "calibrate",
+			             "marker %ld (layout line %ld) was not found: check that it is in view, "
+			             "lit and flat",
+			             m->id, m->line);
 			continue;
 		}
 		(*n_seen)++;
 		if (o.move_px > MOVE_WARN_PX)
-			printf("  warning: marker %ld moves by up to %.1f px between frames: turn image "
-			       "stabilisation off and fix the camera\n",
-			       m->id, o.move_px);
+			wl_diag_warn(diag, "calibrate",
+			             "marker %ld moves by up to %.1f px between frames: turn image "
+			             "stabilisation off "
+			             "and fix the camera",
+			             m->id, o.move_px);
 		if (o.margin < MIN_MARGIN)
-			printf("  warning: marker %ld is weakly detected (decision margin %.0f, below %.0f): "
-			       "more light, less glare, or a larger print\n",
-			       m->id, o.margin, MIN_MARGIN);
+			wl_diag_warn(diag, "calibrate",
+			             "marker %ld is weakly detected (decision margin %.0f, below %.0f): more "
+			             "light, "
+			             "less glare, or a larger print",
+			             m->id, o.margin, MIN_MARGIN);
 		if (n >= max)
 			break;
 		memset(&pts[n], 0, sizeof pts[n]);
@@ -233,7 +220,7 @@ static void bounding_outline(const wl_calib_point *pts, int n, const wl_calib_ma
 }
 
 /* Warns when the outline reaches far beyond the points (extrapolation). */
-static void check_outline(const wl_calib *cal)
+static void check_outline(const wl_calib *cal, const wl_diag *diag)
 {
 	double x0 = INFINITY, y0 = INFINITY, x1 = -INFINITY, y1 = -INFINITY, size, worst = 0;
 	for (int i = 0; i < cal->n_points; i++) {
@@ -251,10 +238,10 @@ static void check_outline(const wl_calib *cal)
 		worst = fmax(worst, hypot(dx, dy));
 	}
 	if (worst > 0.25 * size)
-		printf("  warning: the tank outline reaches %.2f m beyond the markers: positions out there "
-		       "are "
-		       "extrapolated; put markers near the tank's corners\n",
-		       worst);
+		wl_diag_warn(diag, "calibrate",
+		             "the tank outline reaches %.2f m beyond the markers: positions out there are "
+		             "extrapolated; put markers near the tank's corners",
+		             worst);
 	/* the outline must be counter-clockwise */
 }
 
@@ -308,109 +295,55 @@ static void print_report(const options *op, const wl_calib *cal, const wl_calib_
 	if (w)
 		printf("; worst point '%s' %.3f px (%.2f mm)", w->id, w->residual_px, w->residual_mm);
 	printf("\n  plane height %.3f m\n", cal->plane_height_m);
-	for (int i = 0; i < rep->n_warn; i++)
-		printf("  warning: %s\n", rep->warn[i]);
-	check_outline(cal);
 }
 
 static int parse_args(int argc, char **argv, options *op)
 {
-	static const struct option opts[] = {
-	        {"layout", required_argument, NULL, 'L'},
-	        {"points", required_argument, NULL, 'P'},
-	        {"output", required_argument, NULL, 'o'},
-	        {"lens", required_argument, NULL, 'l'},
-	        {"hfov-deg", required_argument, NULL, 'f'},
-	        {"plane-height-m", required_argument, NULL, 'z'},
-	        {"water-depth-m", required_argument, NULL, 'd'},
-	        {"water-index", required_argument, NULL, 'n'},
-	        {"family", required_argument, NULL, 'F'},
-	        {"at", required_argument, NULL, 'a'},
-	        {"span", required_argument, NULL, 's'},
-	        {"tank", required_argument, NULL, 't'},
-	        {"quiet", no_argument, NULL, 'q'},
-	        {"help", no_argument, NULL, 'h'},
-	        {NULL, 0, NULL, 0},
-	};
-	int c;
+	const cli_opt tab[] = {
+	        CLI_OPT_STR(
+	                "layout", 0, "FILE",
+	                "floor markers: marker_id,x_m,y_m[,z_m,size_m,yaw_rad]; the\nmarkers are found in "
+	                "SOURCE (AprilTag)",
+	                &op->layout),
+	        CLI_OPT_STR("points", 0, "FILE", "hand-picked points instead: u_px,v_px,x_m,y_m[,z_m][,id]",
+	                    &op->points),
+	        CLI_OPT_STR("output", 'o', "FILE", "CAL.json to write (not written on error)", &op->out),
+	        CLI_OPT_STR("lens", 0, "FILE", "LENS.json from 'wakeline lens' (intrinsics and distortion)",
+	                    &op->lens),
+	        CLI_OPT_NUM("hfov-deg", "A",
+	                    "horizontal field of view, when neither the lens nor the view\ngives the focal "
+	                    "length",
+	                    &op->hfov_deg, 0, 179),
+	        CLI_OPT_NUM("plane-height-m", "H",
+	                    "height of the robots' marker plane above the floor (default 0)", &op->plane_m,
+	                    -10, 10),
+	        CLI_OPT_NUM("water-depth-m", "D", "the floor markers lie under D metres of still water",
+	                    &op->water_m, 0, 100),
+	        CLI_OPT_NUM("water-index", "N", "refractive index of the water (default 1.333)",
+	                    &op->water_index, 1, 3),
+	        CLI_OPT_STR("family", 0, "NAME", "tag family (default tag36h11)", &op->family),
+	        CLI_OPT_NUM("at", "T", "clip: start at T seconds (default 0)", &op->at_s, 0, 1e9),
+	        CLI_OPT_POS("span", "S", "clip: use S seconds of frames (default 2)", &op->span_s),
+	        CLI_OPT_STR("tank", 0, "\"x,y;x,y;...\"",
+	                    "tank outline in metres (default: the markers' bounding rectangle)", &op->tank),
+	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &op->quiet),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	int rc, first;
 	memset(op, 0, sizeof *op);
 	op->family = "tag36h11";
 	op->water_index = 1.333;
 	op->span_s = 2;
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
-		double *num = NULL;
-		const char *name = NULL;
-		switch (c) {
-		case 'L':
-			op->layout = optarg;
-			break;
-		case 'P':
-			op->points = optarg;
-			break;
-		case 'o':
-			op->out = optarg;
-			break;
-		case 'l':
-			op->lens = optarg;
-			break;
-		case 'F':
-			op->family = optarg;
-			break;
-		case 't':
-			op->tank = optarg;
-			break;
-		case 'q':
-			op->quiet = 1;
-			break;
-		case 'f':
-			num = &op->hfov_deg;
-			name = "--hfov-deg";
-			break;
-		case 'z':
-			num = &op->plane_m;
-			name = "--plane-height-m";
-			break;
-		case 'd':
-			num = &op->water_m;
-			name = "--water-depth-m";
-			break;
-		case 'n':
-			num = &op->water_index;
-			name = "--water-index";
-			break;
-		case 'a':
-			num = &op->at_s;
-			name = "--at";
-			break;
-		case 's':
-			num = &op->span_s;
-			name = "--span";
-			break;
-		case 'h':
-			fputs(usage_text, stdout);
-			return -1;
-		default:
-			return cli_usage_error("calibrate", "unknown option");
-		}
-		if (num && !cli_parse_double(optarg, num))
-			return cli_usage_error("calibrate", "%s '%s' is not a number", name, optarg);
-	}
-	if (optind != argc - 1)
+	if ((rc = cli_parse("calibrate", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (first != argc - 1)
 		return cli_usage_error("calibrate", "give one SOURCE (a photo or a clip)");
-	op->source = argv[optind];
+	op->source = argv[first];
 	if (!op->out)
 		return cli_usage_error("calibrate", "-o CAL.json is required");
 	if (!!op->layout == !!op->points)
 		return cli_usage_error("calibrate", "give exactly one of --layout and --points");
-	if (op->hfov_deg < 0 || op->hfov_deg >= 179)
-		return cli_usage_error("calibrate", "--hfov-deg must lie between 0 and 179");
-	if (op->water_m < 0 || op->water_index < 1 || op->water_index > 3)
-		return cli_usage_error("calibrate",
-		                       "--water-depth-m must be >= 0 and --water-index in [1, 3]");
-	if (op->span_s <= 0 || op->at_s < 0)
-		return cli_usage_error("calibrate", "--at must be >= 0 and --span > 0");
-	return 0;
+	return CLI_CONTINUE;
 }
 
 int cmd_calibrate(int argc, char **argv)
@@ -425,9 +358,12 @@ int cmd_calibrate(int argc, char **argv)
 	wl_calib_tags *tags = NULL;
 	outline_t outline = {0};
 	wl_err err = {0};
+	cli_diag cd;
+	const wl_diag *diag;
 	int n = 0, n_marks = 0, w = 0, h = 0, rot = 0, frames = 0, status = WL_EXIT_FAIL, r;
-	if ((r = parse_args(argc, argv, &op)) != 0)
-		return r < 0 ? cli_finish("calibrate", WL_EXIT_OK) : r;
+	if ((r = parse_args(argc, argv, &op)) != CLI_CONTINUE)
+		return r;
+	diag = cli_diag_init(&cd, "calibrate", op.quiet);
 	if (op.tank && !parse_tank(op.tank, &outline))
 		return cli_usage_error("calibrate",
 		                       "--tank '%s': give 3 to %d corners as \"x,y;x,y;...\" in metres",
@@ -444,7 +380,7 @@ int cmd_calibrate(int argc, char **argv)
 	printf("calibrate: %s -> %s\n", op.source, op.out);
 	if (tags) {
 		int seen;
-		n = markers_to_points(tags, marks, n_marks, pts, WL_CALIB_MAX_POINTS, &seen);
+		n = markers_to_points(tags, marks, n_marks, pts, WL_CALIB_MAX_POINTS, &seen, diag);
 		printf("  markers: %d of %d found in %d frame%s\n", seen, n_marks, frames,
 		       frames == 1 ? "" : "s");
 		if (seen < 4) {
@@ -465,9 +401,8 @@ int cmd_calibrate(int argc, char **argv)
 	co.water_index = op.water_index;
 	co.plane_height_m = op.plane_m;
 	co.rotation_deg = rot;
+	co.diag = diag;
 	if (wl_calib_solve(pts, n, &co, &cal, &rep, &err)) {
-		for (int i = 0; i < rep.n_warn; i++)
-			cli_warn("calibrate", "%s", rep.warn[i]);
 		wl_err_prefix(&err, err.code, "%s", op.points ? op.points : op.source);
 		goto out;
 	}
@@ -478,6 +413,7 @@ int cmd_calibrate(int argc, char **argv)
 	make_ccw(&cal);
 	snprintf(cal.source, sizeof cal.source, "%s", op.source);
 	print_report(&op, &cal, &rep, &lens);
+	check_outline(&cal, diag);
 	if (wl_calib_save(op.out, &cal, &err))
 		goto out;
 	status = WL_EXIT_OK;

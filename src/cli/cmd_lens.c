@@ -1,7 +1,6 @@
 /* cmd_lens.c: `wakeline lens`: lens intrinsics from chessboard photos -> LENS.json. */
 #define _POSIX_C_SOURCE 200809L
 #include <dirent.h>
-#include <getopt.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -15,21 +14,15 @@
 
 const char cmd_lens_summary[] = "lens intrinsics from photos of a chessboard -> LENS.json";
 
-static const char usage_text[] =
+static const char HEAD[] =
         "usage: wakeline lens SOURCE --board COLSxROWS --square-mm S -o LENS.json [options]\n"
         "\n"
         "Finds the camera's focal length, principal point and lens distortion from\n"
         "photos of a flat printed chessboard taken with the same camera setting as\n"
         "the tank videos.  SOURCE is a folder of PNG/JPEG photos, one photo, or a clip\n"
         "(one frame every --every-s seconds is offered; move the board slowly).\n"
-        "\n"
-        "  --board COLSxROWS   inner corners of the board (a 10x7-square board is 9x6)\n"
-        "  --square-mm S       side of one square in millimetres\n"
-        "  -o, --output FILE   LENS.json to write\n"
-        "  --subpix-win N      corner refinement window: N is half the side (default 5: 11x11 px)\n"
-        "  --every-s T         clip: seconds between frames offered (default 0.5)\n"
-        "  -q, --quiet         no progress line\n"
-        "  -h, --help          this text\n"
+        "\n";
+static const char TAIL[] =
         "\n"
         "Frames without the whole board, frames too alike to one already kept and\n"
         "blurred frames are skipped and counted.  Exit status: 0 ok, 1 failure, 2 usage.\n";
@@ -130,16 +123,62 @@ static void free_list(char **v, int n)
 	free(v);
 }
 
+static int parse_board(const char *arg, void *dest, char *msg, size_t cap)
+{
+	int *cr = dest;
+	char tail;
+	if (sscanf(arg, "%dx%d%c", &cr[0], &cr[1], &tail) == 2 && cr[0] >= 3 && cr[1] >= 3)
+		return 0;
+	snprintf(msg, cap, "give inner corners as COLSxROWS, e.g. 9x6");
+	return 1;
+}
+
+/* The photos of a folder (or one) offered to the collector. */
+static wl_status add_photos(char **files, int n, wl_lens_collector *lc, cli_progress *prog, wl_err *err)
+{
+	for (int i = 0; i < n; i++) {
+		uint8_t *px = NULL;
+		int w, h, kept;
+		wl_status st = wl_cv_imread(files[i], 1, &px, &w, &h, err);
+		if (!st)
+			st = wl_lens_collector_add(lc, px, w, h, w, &kept, err);
+		free(px);
+		if (st)
+			return wl_err_prefix(err, st, "%s", files[i]);
+		cli_progress_update(prog, "lens: %d/%d photos", i + 1, n);
+	}
+	return WL_OK;
+}
+
+static void print_lens(const char *src, const char *out_path, const wl_lens *lens, int offered)
+{
+	printf("lens: %s -> %s\n", src, out_path);
+	printf("  views used %d of %d (no board %d, too alike %d, blurred %d); coverage %.0f%% of the "
+	       "image\n",
+	       lens->views_used, offered, lens->views_no_board, lens->views_alike, lens->views_blurred,
+	       100 * lens->coverage);
+	printf("  RMS reprojection error %.4f px\n", lens->rms_px);
+	printf("  fx %.3f  fy %.3f  cx %.3f  cy %.3f  (image %dx%d)\n", lens->cam.K[0], lens->cam.K[4],
+	       lens->cam.K[2], lens->cam.K[5], lens->cam.width_px, lens->cam.height_px);
+	printf("  distortion k1 %.6f k2 %.6f p1 %.6f p2 %.6f k3 %.6f\n", lens->cam.dist[0], lens->cam.dist[1],
+	       lens->cam.dist[2], lens->cam.dist[3], lens->cam.dist[4]);
+	if (lens->coverage < 0.5)
+		cli_warn("lens",
+		         "the board covered only %.0f%% of the image: add photos with the board near the "
+		         "edges and "
+		         "corners",
+		         100 * lens->coverage);
+	if (lens->rms_px > 1)
+		cli_warn("lens", "RMS %.2f px is high: check the --board size, focus and blur", lens->rms_px);
+	if (lens->views_used < 10)
+		cli_warn("lens", "only %d views: 10-20 from different angles give steadier results",
+		         lens->views_used);
+}
+
 int cmd_lens(int argc, char **argv)
 {
-	static const struct option opts[] = {
-	        {"board", required_argument, NULL, 'b'},   {"square-mm", required_argument, NULL, 's'},
-	        {"output", required_argument, NULL, 'o'},  {"subpix-win", required_argument, NULL, 'w'},
-	        {"quiet", no_argument, NULL, 'q'},         {"help", no_argument, NULL, 'h'},
-	        {"every-s", required_argument, NULL, 'e'}, {NULL, 0, NULL, 0},
-	};
 	const char *out_path = NULL, *src;
-	int cols = 0, rows = 0, win = 5, quiet = 0, c, n_files = 0, status = WL_EXIT_FAIL;
+	int board[2] = {0, 0}, win = 5, quiet = 0, n_files = 0, status = WL_EXIT_FAIL, rc, first;
 	double square_mm = 0, every_s = 0.5;
 	struct stat sb;
 	char **files = NULL;
@@ -147,71 +186,34 @@ int cmd_lens(int argc, char **argv)
 	static wl_lens lens;
 	wl_err err = {0};
 	cli_progress prog;
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
-		switch (c) {
-		case 'b':
-			if (sscanf(optarg, "%dx%d", &cols, &rows) != 2 || cols < 3 || rows < 3)
-				return cli_usage_error(
-				        "lens", "--board '%s': give inner corners as COLSxROWS, e.g. 9x6",
-				        optarg);
-			break;
-		case 's':
-			if (!cli_parse_double(optarg, &square_mm) || !(square_mm > 0))
-				return cli_usage_error("lens", "--square-mm '%s' is not a positive number",
-				                       optarg);
-			break;
-		case 'o':
-			out_path = optarg;
-			break;
-		case 'w':
-			if (!cli_parse_int(optarg, &win) || win < 1 || win > 50)
-				return cli_usage_error("lens",
-				                       "--subpix-win '%s': give a whole number from 1 to 50",
-				                       optarg);
-			break;
-		case 'q':
-			quiet = 1;
-			break;
-		case 'e':
-			if (!cli_parse_double(optarg, &every_s) || !(every_s > 0))
-				return cli_usage_error("lens", "--every-s '%s' is not a positive number",
-				                       optarg);
-			break;
-		case 'h':
-			fputs(usage_text, stdout);
-			return cli_finish("lens", WL_EXIT_OK);
-		default:
-			return cli_usage_error("lens", "unknown option");
-		}
-	}
-	if (optind != argc - 1)
+	const cli_opt tab[] = {
+	        CLI_OPT_FN("board", "COLSxROWS", "inner corners of the board (a 10x7-square board is 9x6)",
+	                   board, parse_board),
+	        CLI_OPT_POS("square-mm", "S", "side of one square in millimetres", &square_mm),
+	        CLI_OPT_STR("output", 'o', "FILE", "LENS.json to write", &out_path),
+	        CLI_OPT_INT("subpix-win", 0, "N",
+	                    "corner refinement window: N is half the side (default 5: 11x11 px)", &win, 1,
+	                    50),
+	        CLI_OPT_POS("every-s", "T", "clip: seconds between frames offered (default 0.5)", &every_s),
+	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &quiet),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	if ((rc = cli_parse("lens", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (first != argc - 1)
 		return cli_usage_error("lens", "give one SOURCE (a folder of photos or a photo)");
-	if (!cols || !(square_mm > 0) || !out_path)
+	if (!board[0] || !(square_mm > 0) || !out_path)
 		return cli_usage_error("lens", "--board, --square-mm and -o are required");
-	src = argv[optind];
-	if (wl_lens_collector_create(cols, rows, square_mm, win, &lc, &err))
+	src = argv[first];
+	if (wl_lens_collector_create(board[0], board[1], square_mm, win, &lc, &err))
 		goto out;
 	cli_progress_init(&prog, quiet);
 	if (stat(src, &sb) == 0 && !S_ISDIR(sb.st_mode) && !is_image_name(src)) {
 		if (lens_from_clip(src, every_s, lc, &n_files, &prog, &err))
 			goto out;
 		n_files = -n_files; /* frames, not files: nothing to free */
-	} else if (list_images(src, &files, &n_files, &err)) {
+	} else if (list_images(src, &files, &n_files, &err) || add_photos(files, n_files, lc, &prog, &err)) {
 		goto out;
-	}
-	for (int i = 0; i < n_files; i++) {
-		uint8_t *px = NULL;
-		int w, h, kept;
-		wl_status st = wl_cv_imread(files[i], 1, &px, &w, &h, &err);
-		if (!st)
-			st = wl_lens_collector_add(lc, px, w, h, w, &kept, &err);
-		free(px);
-		if (st) {
-			wl_err_prefix(&err, st, "%s", files[i]);
-			goto out;
-		}
-		cli_progress_update(&prog, "lens: %d/%d photos", i + 1, n_files);
 	}
 	cli_progress_done(&prog);
 	if (wl_lens_collector_finish(lc, &lens, &err))
@@ -219,26 +221,7 @@ int cmd_lens(int argc, char **argv)
 	snprintf(lens.source, sizeof lens.source, "%s", src);
 	if (wl_lens_save(out_path, &lens, &err))
 		goto out;
-	printf("lens: %s -> %s\n", src, out_path);
-	printf("  views used %d of %d (no board %d, too alike %d, blurred %d); coverage %.0f%% of the "
-	       "image\n",
-	       lens.views_used, n_files < 0 ? -n_files : n_files, lens.views_no_board, lens.views_alike,
-	       lens.views_blurred, 100 * lens.coverage);
-	printf("  RMS reprojection error %.4f px\n", lens.rms_px);
-	printf("  fx %.3f  fy %.3f  cx %.3f  cy %.3f  (image %dx%d)\n", lens.cam.K[0], lens.cam.K[4],
-	       lens.cam.K[2], lens.cam.K[5], lens.cam.width_px, lens.cam.height_px);
-	printf("  distortion k1 %.6f k2 %.6f p1 %.6f p2 %.6f k3 %.6f\n", lens.cam.dist[0], lens.cam.dist[1],
-	       lens.cam.dist[2], lens.cam.dist[3], lens.cam.dist[4]);
-	if (lens.coverage < 0.5)
-		cli_warn("lens",
-		         "the board covered only %.0f%% of the image: add photos with the board near the "
-		         "edges and corners",
-		         100 * lens.coverage);
-	if (lens.rms_px > 1)
-		cli_warn("lens", "RMS %.2f px is high: check the --board size, focus and blur", lens.rms_px);
-	if (lens.views_used < 10)
-		cli_warn("lens", "only %d views: 10-20 from different angles give steadier results",
-		         lens.views_used);
+	print_lens(src, out_path, &lens, n_files < 0 ? -n_files : n_files);
 	status = WL_EXIT_OK;
 out:
 	if (status != WL_EXIT_OK)

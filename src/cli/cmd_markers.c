@@ -1,6 +1,5 @@
 /* cmd_markers.c: `wakeline markers`: a printable sheet of floor markers at exact scale. */
 #include <cairo.h>
-#include <getopt.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -10,19 +9,12 @@
 
 const char cmd_markers_summary[] = "printable sheet of floor markers (SVG, PDF or PNG)";
 
-static const char usage_text[] =
-        "usage: wakeline markers --ids LIST --size-mm S -o SHEET.(svg|pdf|png) [options]\n"
-        "\n"
-        "Draws AprilTag markers at exact scale for the tank floor, each with its id,\n"
-        "and a 100 mm scale bar to check the print with a ruler.\n"
-        "\n"
-        "  --ids LIST        ids, e.g. 0-3 or 0,2,5-7\n"
-        "  --size-mm S       side of each tag's black square in millimetres\n"
-        "  -o, --output FILE the sheet; the format follows the extension\n"
-        "  --family NAME     tag family (default tag36h11)\n"
-        "  --dpi N           PNG resolution (default 300)\n"
-        "  --page NAME       a4 (default), a3 or letter, portrait\n"
-        "  -h, --help        this text\n"
+static const char HEAD[] = "usage: wakeline markers --ids LIST --size-mm S -o SHEET.(svg|pdf|png) [options]\n"
+                           "\n"
+                           "Draws AprilTag markers at exact scale for the tank floor, each with its id,\n"
+                           "and a 100 mm scale bar to check the print with a ruler.\n"
+                           "\n";
+static const char TAIL[] =
         "\n"
         "Print at 100 % (no 'fit to page'), then measure the scale bar and a tag; give\n"
         "the measured size as size_m in the layout.  Exit status: 0 ok, 1 failure, 2 usage.\n";
@@ -63,67 +55,58 @@ static int parse_ids(const char *s, long *ids, int *n)
 	return *n > 0;
 }
 
+typedef struct {
+	long *ids;
+	int *n;
+} idlist;
+
+static int opt_ids(const char *arg, void *dest, char *msg, size_t cap)
+{
+	idlist *l = dest;
+	if (parse_ids(arg, l->ids, l->n))
+		return 0;
+	snprintf(msg, cap, "give ids like 0-3 or 0,2,5-7 (at most %d)", MAX_IDS);
+	return 1;
+}
+
+static int opt_page(const char *arg, void *dest, char *msg, size_t cap)
+{
+	wl_markers_opts *mo = dest;
+	static const struct {
+		const char *name;
+		double w, h;
+	} pages[] = {{"a4", 210, 297}, {"a3", 297, 420}, {"letter", 215.9, 279.4}};
+	for (size_t i = 0; i < sizeof pages / sizeof pages[0]; i++)
+		if (strcmp(arg, pages[i].name) == 0) {
+			mo->page_w_mm = pages[i].w;
+			mo->page_h_mm = pages[i].h;
+			return 0;
+		}
+	snprintf(msg, cap, "use a4, a3 or letter");
+	return 1;
+}
+
 int cmd_markers(int argc, char **argv)
 {
-	static const struct option opts[] = {
-	        {"ids", required_argument, NULL, 'i'},    {"size-mm", required_argument, NULL, 's'},
-	        {"output", required_argument, NULL, 'o'}, {"family", required_argument, NULL, 'f'},
-	        {"dpi", required_argument, NULL, 'd'},    {"page", required_argument, NULL, 'p'},
-	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
-	};
 	static long ids[MAX_IDS];
 	wl_markers_opts mo = {"tag36h11", ids, 0, 0, 300, 210, 297};
+	idlist il = {ids, &mo.n_ids};
 	const char *out = NULL;
 	wl_err err = {0};
-	int c;
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'i':
-			if (!parse_ids(optarg, ids, &mo.n_ids))
-				return cli_usage_error(
-				        "markers", "--ids '%s': give ids like 0-3 or 0,2,5-7 (at most %d)",
-				        optarg, MAX_IDS);
-			break;
-		case 's':
-			if (!cli_parse_double(optarg, &mo.size_mm) || !(mo.size_mm > 0))
-				return cli_usage_error("markers", "--size-mm '%s' is not a positive number",
-				                       optarg);
-			break;
-		case 'o':
-			out = optarg;
-			break;
-		case 'f':
-			mo.family = optarg;
-			break;
-		case 'd':
-			if (!cli_parse_double(optarg, &mo.dpi) || mo.dpi < 30 || mo.dpi > 2400)
-				return cli_usage_error("markers", "--dpi '%s': give 30 to 2400", optarg);
-			break;
-		case 'p':
-			if (!strcmp(optarg, "a4")) {
-				mo.page_w_mm = 210;
-				mo.page_h_mm = 297;
-			} else if (!strcmp(optarg, "a3")) {
-				mo.page_w_mm = 297;
-				mo.page_h_mm = 420;
-			} else if (!strcmp(optarg, "letter")) {
-				mo.page_w_mm = 215.9;
-				mo.page_h_mm = 279.4;
-			} else {
-				return cli_usage_error("markers", "--page '%s': use a4, a3 or letter",
-				                       optarg);
-			}
-			break;
-		case 'h':
-			fputs(usage_text, stdout);
-			return cli_finish("markers", WL_EXIT_OK);
-		default:
-			return cli_usage_error("markers", "unknown option");
-		}
-	}
-	if (optind != argc)
-		return cli_usage_error("markers", "unexpected argument '%s'", argv[optind]);
+	int c, first;
+	const cli_opt tab[] = {
+	        CLI_OPT_FN("ids", "LIST", "ids, e.g. 0-3 or 0,2,5-7", &il, opt_ids),
+	        CLI_OPT_POS("size-mm", "S", "side of each tag's black square in millimetres", &mo.size_mm),
+	        CLI_OPT_STR("output", 'o', "FILE", "the sheet; the format follows the extension", &out),
+	        CLI_OPT_STR("family", 0, "NAME", "tag family (default tag36h11)", &mo.family),
+	        CLI_OPT_NUM("dpi", "N", "PNG resolution (default 300)", &mo.dpi, 30, 2400),
+	        CLI_OPT_FN("page", "NAME", "a4 (default), a3 or letter, portrait", &mo, opt_page),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	if ((c = cli_parse("markers", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return c;
+	if (first != argc)
+		return cli_usage_error("markers", "unexpected argument '%s'", argv[first]);
 	if (!mo.n_ids || !(mo.size_mm > 0) || !out)
 		return cli_usage_error("markers", "--ids, --size-mm and -o are required");
 	c = wl_markers_render(out, &mo, &err) ? cli_fail("markers", &err) : WL_EXIT_OK;

@@ -1,7 +1,6 @@
 /* cmd_merge.c: `wakeline merge OUTDIR`: rebuilds summary.csv, the sweep
  * plots and report.html from the clip folders of a batch's output folder
  * (after shards or cluster jobs wrote them separately). */
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -11,8 +10,8 @@
 
 const char cmd_merge_summary[] = "rebuild summary.csv and report.html from a batch's clip folders";
 
-static const char USAGE[] =
-        "usage: wakeline merge OUTDIR [--partial] [--x COLUMN] [--group COLUMN] [--body-m D]\n"
+static const char HEAD[] =
+        "usage: wakeline merge OUTDIR [--partial] [--x COLUMN] [--group COLUMN] [--body-diameter-m D]\n"
         "\n"
         "Reads OUTDIR/clips/*/clip.json and summary.json (written by `wakeline batch`,\n"
         "possibly by several shards or cluster jobs) and writes OUTDIR/summary.csv,\n"
@@ -23,18 +22,9 @@ static const char USAGE[] =
         "message, here, in summary.csv (status failed or missing) and in the report:\n"
         "OUTDIR/batch.json names every clip of the sweep, so the clips of a shard that\n"
         "never ran are listed too, with the shard to run again.\n"
-        "\n"
-        "  --partial       exit 0 even when clips failed or are missing (a look at a\n"
-        "                  sweep that is still running, or a report despite them)\n"
-        "  --x COLUMN      manifest column on the sweep plots' x axis\n"
-        "                  (default: the one the batch was given)\n"
-        "  --group COLUMN  manifest column that groups the sweep points\n"
-        "  --body-m D      body diameter in metres for the shaded band\n"
-        "                  (default: from the runs' radius_body_diameters)\n"
-        "  -h, --help      this text\n"
-        "\n"
-        "Exit status: 0 every clip has runs (or --partial), 1 a clip failed or is\n"
-        "missing (or an error), 2 usage error.\n";
+        "\n";
+static const char TAIL[] = "\nExit status: 0 every clip has runs (or --partial), 1 a clip failed or is\n"
+                           "missing (or an error), 2 usage error.\n";
 
 static void on_problem(const char *clip, const char *status, const char *msg, void *ctx)
 {
@@ -44,57 +34,45 @@ static void on_problem(const char *clip, const char *status, const char *msg, vo
 
 int cmd_merge(int argc, char **argv)
 {
-	static const struct option opts[] = {
-	        {"x", required_argument, NULL, 'x'},      {"group", required_argument, NULL, 'g'},
-	        {"body-m", required_argument, NULL, 'b'}, {"partial", no_argument, NULL, 'p'},
-	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0},
-	};
 	wl_report_sweep_opts so = {NULL, NULL, 0};
-	int use_so = 0, partial = 0, c;
+	int use_so = 0, partial = 0, rc, first;
 	wl_batch_result res;
 	wl_err err;
-
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'x':
-			so.x_col = optarg;
-			use_so = 1;
-			break;
-		case 'g':
-			so.group_col = optarg;
-			use_so = 1;
-			break;
-		case 'b':
-			if (!cli_parse_double(optarg, &so.body_diameter_m) || !(so.body_diameter_m > 0))
-				return cli_usage_error(
-				        "merge", "--body-m wants a length in metres > 0, not '%s'", optarg);
-			use_so = 1;
-			break;
-		case 'p':
-			partial = 1;
-			break;
-		case 'h':
-			fputs(USAGE, stdout);
-			return cli_finish("merge", WL_EXIT_OK);
-		default:
-			return cli_usage_error("merge", "unknown option");
-		}
-	}
-	if (argc - optind != 1)
+	cli_opt tab[] = {
+	        CLI_OPT_FLAG("partial", 0,
+	                     "exit 0 even when clips failed or are missing (a look at a\nsweep that is "
+	                     "still running, or a report despite them)",
+	                     &partial),
+	        CLI_OPT_STR(
+	                "x", 0, "COLUMN",
+	                "manifest column on the sweep plots' x axis\n(default: the one the batch was given)",
+	                &so.x_col),
+	        CLI_OPT_STR("group", 0, "COLUMN", "manifest column that groups the sweep points",
+	                    &so.group_col),
+	        CLI_OPT_POS("body-diameter-m", "D",
+	                    "body diameter in metres for the shaded band\n(default: from the runs' "
+	                    "radius_body_diameters)",
+	                    &so.body_diameter_m),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	tab[1].seen = tab[2].seen = tab[3].seen = &use_so;
+	tab[3].alias = "body-m";
+	if ((rc = cli_parse("merge", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (argc - first != 1)
 		return cli_usage_error("merge", "wants one OUTDIR (the -o folder of a batch)");
 	wl_err_clear(&err);
-	c = wl_batch_merge_report(argv[optind], use_so ? &so : NULL, on_problem, NULL, &res, &err);
+	rc = wl_batch_merge_report(argv[first], use_so ? &so : NULL, on_problem, NULL, &res, &err);
 	wl_report_release_caches();
-	if (c != WL_OK)
+	if (rc != WL_OK)
 		return cli_fail("merge", &err);
 	printf("merge: %zu runs from %zu clip folders, %zu failed, %zu missing; see %s/report.html\n",
-	       res.runs, res.clips, res.failed, res.missing, argv[optind]);
+	       res.runs, res.clips, res.failed, res.missing, argv[first]);
 	if ((res.failed || res.missing) && !partial)
 		fprintf(stderr,
 		        "wakeline merge: %zu clips failed and %zu are missing (listed above, in summary.csv "
-		        "and "
-		        "the report): run their shards again, or give --partial to accept a partial sweep\n",
+		        "and the report): run their shards again, or give --partial to accept a partial "
+		        "sweep\n",
 		        res.failed, res.missing);
 	return cli_finish("merge", (res.failed || res.missing) && !partial ? WL_EXIT_FAIL : WL_EXIT_OK);
 }

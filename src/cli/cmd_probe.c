@@ -3,7 +3,6 @@
  * every frame: codec, sizes, pixel format, rotation, frame count, frame
  * intervals (variable frame rate), and any damage with its times.
  */
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -17,27 +16,22 @@
 
 const char cmd_probe_summary[] = "decode a clip and report its format, frame times and damage";
 
-static const char usage_text[] =
-        "usage: wakeline probe [options] CLIP\n"
-        "\n"
-        "Decodes every frame of CLIP and reports the codec, coded and displayed size,\n"
-        "pixel format and range, rotation, the container's duration, the number of\n"
-        "frames decoded, the mean/min/max interval between frames, whether the frame\n"
-        "rate is variable, and any damage (packets or frames the decoder rejected or\n"
-        "flagged) with its frame and time.  Times are seconds since the first frame.\n"
-        "\n"
-        "options:\n"
-        "  --json           print the report as JSON on standard output\n"
-        "  --frames FILE    also write one CSV row per frame: frame,t_s,corrupt,time_guessed\n"
-        "  --threads N      decoding threads (default 0: every core)\n"
-        "  -q, --quiet      no progress line\n"
-        "  -h, --help       this text\n"
-        "\n"
-        "The frame rate is called variable when the longest and shortest intervals\n"
-        "differ by more than 1.5 ms or 2% of the mean interval.\n"
-        "\n"
-        "exit status: 0 the clip decoded without damage; 1 damage was found (the\n"
-        "report is still printed) or the clip cannot be read; 2 usage error.\n";
+static const char HEAD[] = "usage: wakeline probe [options] CLIP\n"
+                           "\n"
+                           "Decodes every frame of CLIP and reports the codec, coded and displayed size,\n"
+                           "pixel format and range, rotation, the container's duration, the number of\n"
+                           "frames decoded, the mean/min/max interval between frames, whether the frame\n"
+                           "rate is variable, and any damage (packets or frames the decoder rejected or\n"
+                           "flagged) with its frame and time.  Times are seconds since the first frame;\n"
+                           "the rotation is in degrees counter-clockwise, in (-180, 180] as ffprobe\n"
+                           "shows the display matrix (a phone's portrait clip is -90).\n"
+                           "\n";
+static const char TAIL[] = "\n"
+                           "The frame rate is called variable when the longest and shortest intervals\n"
+                           "differ by more than 1.5 ms or 2% of the mean interval.\n"
+                           "\n"
+                           "exit status: 0 the clip decoded without damage; 1 damage was found (the\n"
+                           "report is still printed) or the clip cannot be read; 2 usage error.\n";
 
 typedef struct {
 	int64_t n;
@@ -78,6 +72,14 @@ static int is_vfr(const stats *s)
 	return s->max_dt - s->min_dt > tol;
 }
 
+/* The display rotation as the display matrix means it and ffprobe shows
+ * it: counter-clockwise degrees in (-180, 180], so that a phone's portrait
+ * clip is -90 (the decoder keeps 0, 90, 180, 270). */
+static int display_rotation(int rotation_deg)
+{
+	return rotation_deg > 180 ? rotation_deg - 360 : rotation_deg;
+}
+
 /* Rounds to the microsecond so that the JSON does not show binary noise. */
 static double us(double t)
 {
@@ -98,7 +100,7 @@ static cJSON *json_report(const wl_decoder *dec, const stats *s)
 	cJSON_AddNumberToObject(root, "height_px", in->height_px);
 	cJSON_AddNumberToObject(root, "displayed_width_px", wd);
 	cJSON_AddNumberToObject(root, "displayed_height_px", hd);
-	cJSON_AddNumberToObject(root, "rotation_deg", in->rotation_deg);
+	cJSON_AddNumberToObject(root, "rotation_deg", display_rotation(in->rotation_deg));
 	cJSON_AddStringToObject(root, "pix_fmt", in->pix_fmt);
 	cJSON_AddNumberToObject(root, "bit_depth", in->bit_depth);
 	cJSON_AddBoolToObject(root, "full_range", in->full_range);
@@ -167,7 +169,8 @@ static void text_report(const wl_decoder *dec, const stats *s)
 	printf("pixel format   %s (%d-bit, %s range)\n", in->pix_fmt, in->bit_depth,
 	       in->full_range ? "full" : "limited");
 	printf("coded size     %dx%d px\n", in->width_px, in->height_px);
-	printf("rotation       %d deg counter-clockwise (displayed %dx%d px)\n", in->rotation_deg, wd, hd);
+	printf("rotation       %d deg counter-clockwise (displayed %dx%d px)\n",
+	       display_rotation(in->rotation_deg), wd, hd);
 	printf("duration       %s s (container)\n", fx(b1, in->duration_s, 3));
 	printf("frames         %lld decoded (container lists %lld)\n", (long long)s->n,
 	       (long long)in->frames_hint);
@@ -269,42 +272,21 @@ out:
 
 int cmd_probe(int argc, char **argv)
 {
-	static const struct option opts[] = {
-	        {"json", no_argument, NULL, 'j'},          {"frames", required_argument, NULL, 'f'},
-	        {"threads", required_argument, NULL, 't'}, {"quiet", no_argument, NULL, 'q'},
-	        {"help", no_argument, NULL, 'h'},          {NULL, 0, NULL, 0},
-	};
 	const char *frames_csv = NULL;
-	int json = 0, quiet = 0, threads = 0, damaged = 0, c;
+	int json = 0, quiet = 0, threads = 0, damaged = 0, rc, first;
 	wl_err err = {0};
-
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "qh", opts, NULL)) != -1) {
-		switch (c) {
-		case 'j':
-			json = 1;
-			break;
-		case 'f':
-			frames_csv = optarg;
-			break;
-		case 't':
-			if (!cli_parse_int(optarg, &threads) || threads < 0)
-				return cli_usage_error(
-				        "probe", "--threads wants a whole number >= 0, not '%s'", optarg);
-			break;
-		case 'q':
-			quiet = 1;
-			break;
-		case 'h':
-			fputs(usage_text, stdout);
-			return WL_EXIT_OK;
-		default:
-			return cli_usage_error("probe", "unknown option");
-		}
-	}
-	if (argc - optind != 1)
+	const cli_opt tab[] = {
+	        CLI_OPT_FLAG("json", 0, "print the report as JSON on standard output", &json),
+	        CLI_OPT_STR("frames", 0, "FILE",
+	                    "also write one CSV row per frame: frame,t_s,corrupt,time_guessed", &frames_csv),
+	        CLI_OPT_INT("threads", 0, "N", "decoding threads (default 0: every core)", &threads, 0, 1024),
+	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &quiet), CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	if ((rc = cli_parse("probe", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (argc - first != 1)
 		return cli_usage_error("probe", "wants exactly one CLIP");
-	if (run(argv[optind], frames_csv, threads, quiet, json, &damaged, &err) != WL_OK)
+	if (run(argv[first], frames_csv, threads, quiet, json, &damaged, &err) != WL_OK)
 		return cli_fail("probe", &err);
 	if (damaged) {
 		fflush(stdout);

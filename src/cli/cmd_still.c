@@ -3,7 +3,6 @@
  * nearest a time, written as PNG in its displayed orientation.  Seeks to the
  * key frame before the time and decodes forward.
  */
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -16,25 +15,16 @@
 
 const char cmd_still_summary[] = "write the frame nearest a time as PNG";
 
-static const char usage_text[] =
-        "usage: wakeline still [options] CLIP --at SECONDS -o FRAME.png\n"
-        "\n"
-        "Writes the frame of CLIP whose time is nearest SECONDS (seconds since the\n"
-        "first frame, as `wakeline probe` counts them; a tie goes to the earlier\n"
-        "frame) as an 8-bit PNG, turned as the clip is meant to be shown (its\n"
-        "rotation metadata applied).  A time past the last frame gives the last\n"
-        "frame, with a warning.\n"
-        "\n"
-        "options:\n"
-        "  --at SECONDS     the time wanted (>= 0)\n"
-        "  -o, --output F   the PNG to write\n"
-        "  --coded          keep the coded orientation (no rotation), as later stages see pixels\n"
-        "  --luma           write the 8-bit luma plane (gray) the tracker uses, instead of RGB\n"
-        "  --threads N      decoding threads (default 0: every core)\n"
-        "  -h, --help       this text\n"
-        "\n"
-        "Prints one line: the file written, the frame's time and its size.\n"
-        "exit status: 0 ok, 1 failure, 2 usage error.\n";
+static const char HEAD[] = "usage: wakeline still [options] CLIP --at SECONDS -o FRAME.png\n"
+                           "\n"
+                           "Writes the frame of CLIP whose time is nearest SECONDS (seconds since the\n"
+                           "first frame, as `wakeline probe` counts them; a tie goes to the earlier\n"
+                           "frame) as an 8-bit PNG, turned as the clip is meant to be shown (its\n"
+                           "rotation metadata applied).  A time past the last frame gives the last\n"
+                           "frame, with a warning.\n"
+                           "\n";
+static const char TAIL[] = "\nPrints one line: the file written, the frame's time and its size.\n"
+                           "exit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	uint8_t *px;
@@ -180,55 +170,29 @@ out:
 
 int cmd_still(int argc, char **argv)
 {
-	static const struct option opts[] = {
-	        {"at", required_argument, NULL, 'a'},
-	        {"output", required_argument, NULL, 'o'},
-	        {"coded", no_argument, NULL, 'c'},
-	        {"luma", no_argument, NULL, 'l'},
-	        {"threads", required_argument, NULL, 't'},
-	        {"help", no_argument, NULL, 'h'},
-	        {NULL, 0, NULL, 0},
-	};
 	const char *out_png = NULL;
 	double at_s = NAN;
-	int coded = 0, luma = 0, threads = 0, c;
+	int coded = 0, luma = 0, threads = 0, rc, first;
 	wl_err err = {0};
-
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'a':
-			if (!cli_parse_double(optarg, &at_s) || !(at_s >= 0))
-				return cli_usage_error("still", "--at wants seconds >= 0, not '%s'", optarg);
-			break;
-		case 'o':
-			out_png = optarg;
-			break;
-		case 'c':
-			coded = 1;
-			break;
-		case 'l':
-			luma = 1;
-			break;
-		case 't':
-			if (!cli_parse_int(optarg, &threads) || threads < 0)
-				return cli_usage_error(
-				        "still", "--threads wants a whole number >= 0, not '%s'", optarg);
-			break;
-		case 'h':
-			fputs(usage_text, stdout);
-			return WL_EXIT_OK;
-		default:
-			return cli_usage_error("still", "unknown option");
-		}
-	}
-	if (argc - optind != 1)
+	const cli_opt tab[] = {
+	        CLI_OPT_NUM("at", "SECONDS", "the time wanted (>= 0)", &at_s, 0, 1e12),
+	        CLI_OPT_STR("output", 'o', "F", "the PNG to write", &out_png),
+	        CLI_OPT_FLAG("coded", 0,
+	                     "keep the coded orientation (no rotation), as later stages see pixels", &coded),
+	        CLI_OPT_FLAG("luma", 0, "write the 8-bit luma plane (gray) the tracker uses, instead of RGB",
+	                     &luma),
+	        CLI_OPT_INT("threads", 0, "N", "decoding threads (default 0: every core)", &threads, 0, 1024),
+	        CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	if ((rc = cli_parse("still", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return rc;
+	if (argc - first != 1)
 		return cli_usage_error("still", "wants exactly one CLIP");
 	if (isnan(at_s))
 		return cli_usage_error("still", "--at SECONDS is required");
 	if (!out_png)
 		return cli_usage_error("still", "-o FRAME.png is required");
-	if (run(argv[optind], at_s, out_png, coded, luma, threads, &err) != WL_OK)
+	if (run(argv[first], at_s, out_png, coded, luma, threads, &err) != WL_OK)
 		return cli_fail("still", &err);
 	return WL_EXIT_OK;
 }

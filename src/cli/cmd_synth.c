@@ -1,6 +1,5 @@
 /* cmd_synth.c: `wakeline synth`: renders a scene file into a test clip, its
  * truth table and the scene used (src/synth/synth.h, docs/synth.md). */
-#include <getopt.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -9,27 +8,20 @@
 
 const char cmd_synth_summary[] = "render a synthetic test clip from a scene file";
 
-static const char usage[] = "usage: wakeline synth SCENE.json -o CLIP.mp4 [--quiet]\n"
-                            "       wakeline synth SCENE.json --image FRAME.png [--frame N]\n"
-                            "\n"
-                            "Renders the invented scene described in SCENE.json (tank, floor markers,\n"
-                            "camera, robots and their paths; see docs/synth.md) and writes:\n"
-                            "  CLIP.mp4          H.264 video with exact (also variable) frame times\n"
-                            "  CLIP.truth.csv    t_s,frame,id,x_m,y_m,heading_rad,visible for every\n"
-                            "                    frame and robot (marker centre, tank frame)\n"
-                            "  CLIP.scene.json   every parameter used, defaults included, and the\n"
-                            "                    camera model (K, distortion, R, t, position)\n"
-                            "With --image, writes one frame as a PNG instead (for calibrating from a\n"
-                            "still image).\n"
-                            "\n"
-                            "options:\n"
-                            "  -o, --output CLIP.mp4   the clip to write\n"
-                            "      --image FRAME.png   write one frame as PNG\n"
-                            "      --frame N           the frame for --image (default 0)\n"
-                            "  -q, --quiet             no progress line\n"
-                            "  -h, --help              this text\n"
-                            "\n"
-                            "Exit status: 0 ok, 1 failure, 2 usage error.\n";
+static const char HEAD[] = "usage: wakeline synth SCENE.json -o CLIP.mp4 [--quiet]\n"
+                           "       wakeline synth SCENE.json --image FRAME.png [--frame N]\n"
+                           "\n"
+                           "Renders the invented scene described in SCENE.json (tank, floor markers,\n"
+                           "camera, robots and their paths; see docs/synth.md) and writes:\n"
+                           "  CLIP.mp4          H.264 video with exact (also variable) frame times\n"
+                           "  CLIP.truth.csv    t_s,frame,id,x_m,y_m,heading_rad,visible for every\n"
+                           "                    frame and robot (marker centre, tank frame)\n"
+                           "  CLIP.scene.json   every parameter used, defaults included, and the\n"
+                           "                    camera model (K, distortion, R, t, position)\n"
+                           "With --image, writes one frame as a PNG instead (for calibrating from a\n"
+                           "still image).\n"
+                           "\n";
+static const char TAIL[] = "\nExit status: 0 ok, 1 failure, 2 usage error.\n";
 
 typedef struct {
 	cli_progress prog;
@@ -46,44 +38,24 @@ static int on_progress(long done, long total, void *ctx)
 
 int cmd_synth(int argc, char **argv)
 {
-	static const struct option opts[] = {
-	        {"output", required_argument, NULL, 'o'}, {"image", required_argument, NULL, 'i'},
-	        {"frame", required_argument, NULL, 'f'},  {"quiet", no_argument, NULL, 'q'},
-	        {"help", no_argument, NULL, 'h'},         {NULL, 0, NULL, 0}};
 	const char *out = NULL, *image = NULL;
-	int quiet = 0, frame = 0, c;
+	int quiet = 0, frame = 0, c, first;
 	wl_synth_scene sc;
 	wl_err err = {0};
 	progress_ctx pc;
-
-	optind = 1;
-	while ((c = getopt_long(argc, argv, "o:qh", opts, NULL)) != -1) {
-		switch (c) {
-		case 'o':
-			out = optarg;
-			break;
-		case 'i':
-			image = optarg;
-			break;
-		case 'f':
-			if (!cli_parse_int(optarg, &frame) || frame < 0)
-				return cli_usage_error("synth", "--frame '%s' is not a frame number", optarg);
-			break;
-		case 'q':
-			quiet = 1;
-			break;
-		case 'h':
-			fputs(usage, stdout);
-			return cli_finish("synth", WL_EXIT_OK);
-		default:
-			return cli_usage_error("synth", "unknown option");
-		}
-	}
-	if (optind != argc - 1)
+	const cli_opt tab[] = {
+	        CLI_OPT_STR("output", 'o', "CLIP.mp4", "the clip to write", &out),
+	        CLI_OPT_STR("image", 0, "FRAME.png", "write one frame as PNG", &image),
+	        CLI_OPT_INT("frame", 0, "N", "the frame for --image (default 0)", &frame, 0, 2147483647),
+	        CLI_OPT_FLAG("quiet", 'q', "no progress line", &quiet), CLI_OPT_END};
+	const cli_opt *tables[] = {tab, NULL};
+	if ((c = cli_parse("synth", HEAD, TAIL, tables, argc, argv, &first)) != CLI_CONTINUE)
+		return c;
+	if (first != argc - 1)
 		return cli_usage_error("synth", "give exactly one scene file");
 	if (!out && !image)
 		return cli_usage_error("synth", "give -o CLIP.mp4 or --image FRAME.png");
-	if (wl_synth_load(argv[optind], &sc, &err))
+	if (wl_synth_load(argv[first], &sc, &err))
 		return cli_fail("synth", &err);
 	if (image) {
 		if (frame >= wl_synth_frame_count(&sc))

@@ -97,34 +97,58 @@ static void afile_free(wl_afile *af)
 	free(af);
 }
 
-wl_status wl_afile_commit(wl_afile *af, wl_err *err)
+/* Flushes, syncs and closes af's stream (once).  Returns 1 on a failure,
+ * with its errno (0 if unknown) in *saved. */
+static int afile_close(wl_afile *af, int *saved)
 {
-	wl_status st = WL_OK;
-	int bad = 0, saved = 0;
-	if (!af)
-		return WL_OK;
+	int bad = 0;
+	*saved = 0;
+	if (!af->fp)
+		return 0;
 	if (ferror(af->fp) || fflush(af->fp) != 0) {
 		bad = 1;
-		saved = errno;
+		*saved = errno;
 	} else if (fsync(fileno(af->fp)) != 0) {
 		bad = 1;
-		saved = errno;
+		*saved = errno;
 	}
 	if (fclose(af->fp) != 0 && !bad) {
 		bad = 1;
-		saved = errno;
+		*saved = errno;
 	}
 	af->fp = NULL;
+	return bad;
+}
+
+static wl_status afile_error(const wl_afile *af, int saved, wl_err *err)
+{
+	unlink(af->tmp);
+	return wl_err_set(err, WL_EIO, "cannot write '%s': %s%s", af->path,
+	                  saved ? strerror(saved) : "write error",
+	                  saved == ENOSPC ? ": free some space and run again" : "");
+}
+
+wl_status wl_afile_sync(wl_afile *af, wl_err *err)
+{
+	int saved;
+	if (!af)
+		return WL_OK;
+	return afile_close(af, &saved) ? afile_error(af, saved, err) : WL_OK;
+}
+
+wl_status wl_afile_commit(wl_afile *af, wl_err *err)
+{
+	wl_status st = WL_OK;
+	int saved, bad;
+	if (!af)
+		return WL_OK;
+	bad = afile_close(af, &saved);
 	if (!bad && rename(af->tmp, af->path) != 0) {
 		bad = 1;
 		saved = errno;
 	}
-	if (bad) {
-		unlink(af->tmp);
-		st = wl_err_set(err, WL_EIO, "cannot write '%s': %s%s", af->path,
-		                saved ? strerror(saved) : "write error",
-		                saved == ENOSPC ? ": free some space and run again" : "");
-	}
+	if (bad)
+		st = afile_error(af, saved, err);
 	afile_free(af);
 	return st;
 }

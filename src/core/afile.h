@@ -31,7 +31,7 @@ const char *wl_afile_owner(void);
 /* Opens a temporary file for `path`.  Fails with WL_EIO naming the path. */
 wl_status wl_afile_open(const char *path, wl_afile **out, wl_err *err);
 
-/* The stream to write to (binary mode).  Valid until commit or abort. */
+/* The stream to write to (binary mode).  Valid until sync, commit or abort. */
 FILE *wl_afile_fp(wl_afile *af);
 
 /* The temporary file's path (for libraries that want a file name). */
@@ -41,6 +41,13 @@ const char *wl_afile_tmp_path(const wl_afile *af);
  * (a full disk is reported as "no space left on device") the temporary file
  * is removed, the target is left as it was, and WL_EIO names the target. */
 wl_status wl_afile_commit(wl_afile *af, wl_err *err);
+
+/* Flushes, syncs and closes the temporary file without renaming it, so that
+ * the outputs of one step can all be made durable before any of them
+ * replaces its target (then commit only renames).  On failure the temporary
+ * file is removed and WL_EIO names the target; af stays the caller's, to
+ * abort.  NULL is fine. */
+wl_status wl_afile_sync(wl_afile *af, wl_err *err);
 
 /* Removes the temporary file and frees af.  The target is untouched. */
 void wl_afile_abort(wl_afile *af);

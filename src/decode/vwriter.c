@@ -96,7 +96,7 @@ static wl_status check_opts(const char *path, const wl_vwriter_opts *o, wl_err *
  * builds a CLOCKWISE rotation while av_display_rotation_get (what ffprobe
  * prints and the decoder reads) returns the COUNTER-CLOCKWISE angle; so a
  * counter-clockwise rotation_deg is stored as set(-rotation_deg).  Checked
- * with ffprobe against `ffmpeg -metadata:s:v:0 rotate=90` (REFERENCES.md):
+ * with ffprobe against `ffmpeg -metadata:s:v:0 rotate=90` (tests/data/references.md):
  * both report rotation 90 (tests/e2e/0900-synth-clip.sh). */
 static wl_status add_rotation(wl_vwriter *w, wl_err *err)
 {

@@ -252,8 +252,11 @@ wl_status wl_clean_write(const char *csv_path, const char *json_path, const wl_c
 	write_csv(wl_afile_fp(fc), res);
 	fputs(text, wl_afile_fp(fj));
 	fputc('\n', wl_afile_fp(fj));
-	/* commit the table first: a sidecar never describes a table that was
-	 * not written */
+	/* both on disk before either replaces a previous output (a failure up to
+	 * here leaves the previous pair as it was), then the table first: a
+	 * sidecar never describes a table that was not written */
+	if ((st = wl_afile_sync(fc, err)) || (st = wl_afile_sync(fj, err)))
+		goto fail;
 	st = wl_afile_commit(fc, err);
 	fc = NULL;
 	if (st)

@@ -444,17 +444,19 @@ wl_status wl_summary_write(const char *json_path, const char *csv_path, const wl
 		write_csv(wl_afile_fp(fc), s);
 	fputs(text, wl_afile_fp(fj));
 	fputc('\n', wl_afile_fp(fj));
-	/* the table first, so that SUMMARY.json exists only when both were written */
-	if (fc) {
-		st = wl_afile_commit(fc, err);
-		fc = NULL;
-		if (st)
-			goto out;
-	}
+	/* both on disk before either replaces a previous output: a failure up to
+	 * here leaves the previous table and summary as they were */
+	if ((st = wl_afile_sync(fc, err)) || (st = wl_afile_sync(fj, err)))
+		goto out;
+	/* the table first, so that SUMMARY.json exists only when both were
+	 * written; should the last rename fail, the new table stays (it is
+	 * complete, and removing it would lose the previous one too) */
+	st = wl_afile_commit(fc, err);
+	fc = NULL;
+	if (st)
+		goto out;
 	st = wl_afile_commit(fj, err);
 	fj = NULL;
-	if (st && csv_path)
-		(void)remove(csv_path); /* the table alone would pass for a result */
 out:
 	wl_afile_abort(fc);
 	wl_afile_abort(fj);

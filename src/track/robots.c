@@ -180,5 +180,21 @@ wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err)
 	if (o->n_robots == 0)
 		return wl_err_set(err, WL_EFORMAT, "%s: no robots listed: add rows id,...", path);
 	o->restrict_ids = 1;
+	snprintf(o->robots_path, sizeof o->robots_path, "%s", path);
+	return WL_OK;
+}
+
+wl_status wl_track_opts_check(const wl_track_opts *o, wl_err *err)
+{
+	if (o->mode != WL_TRACK_TAG)
+		return WL_OK;
+	for (int i = 0; i < o->n_robots; i++)
+		if (o->robots[i].front.set || o->robots[i].back.set)
+			return wl_err_set(
+			        err, WL_EINVAL,
+			        "%s: robot %d has colour ranges (front_hsv_lo/hi) but the mode is tag: "
+			        "add --mode colour (in a batch, or a 'mode' column set to colour in the "
+			        "manifest), or give a ROBOTS.csv without colours to track tags",
+			        o->robots_path[0] ? o->robots_path : "ROBOTS.csv", o->robots[i].id);
 	return WL_OK;
 }

@@ -167,6 +167,45 @@ static wl_status alloc_slots(queue *q, int n, int w, int h, int rgb, wl_err *err
 	return WL_OK;
 }
 
+/* One warning at the end of a run, the most important: robots past the
+ * limit, a damaged clip, frames flagged damaged, HDR video in colour mode. */
+static void warn_end(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_decoder *dec,
+                     const wl_track_summary *sum)
+{
+	const wl_video_info *info = wl_decoder_info(dec);
+	const char *stage = "track";
+	if (sum->stats.over_limit > 0) {
+		wl_diag_warn(ro->diag, stage,
+		             "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) "
+		             "were left out; "
+		             "list the robots with --ids or --robots",
+		             ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit,
+		             sum->stats.first_over_limit_id);
+	} else if (wl_decoder_damage_count(dec) > 0) {
+		/* packets lost, a cut file: not only frames flagged corrupt */
+		int nd = 0;
+		const wl_damage *d = wl_decoder_damage(dec, &nd);
+		char tb[WL_NUMBUF];
+		wl_diag_warn(ro->diag, stage,
+		             "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld "
+		             "frames flagged); "
+		             "see wakeline probe",
+		             ro->clip, (long long)wl_decoder_damage_count(dec),
+		             wl_decoder_damage_count(dec) > 1 ? "s" : "",
+		             nd ? (long long)d[0].frame_index : -1LL,
+		             nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?",
+		             nd ? d[0].what : "?", (long long)sum->damaged);
+	} else if (sum->damaged > 0) {
+		wl_diag_warn(ro->diag, stage,
+		             "%lld frames were flagged as damaged by the decoder; their poses may be off",
+		             (long long)sum->damaged);
+	} else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8) {
+		wl_diag_warn(ro->diag, stage,
+		             "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
+		             ro->clip, info->bit_depth);
+	}
+}
+
 void wl_track_put_rows(wl_raw_writer *w, double t_s, int64_t frame, const wl_track_obs *obs, int n)
 {
 	for (int i = 0; i < n; i++) {
@@ -198,11 +237,13 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	queue q;
 	pthread_t th;
 	int started = 0, want_rgb, nq;
-	double lookahead_s;
+	double lookahead_s, total;
 	const wl_video_info *info;
 	wl_status st;
 	memset(sum, 0, sizeof *sum);
 	memset(&q, 0, sizeof q);
+	if ((st = wl_track_opts_check(opts, err)))
+		return st;
 	pthread_mutex_init(&q.m, NULL);
 	pthread_cond_init(&q.cv, NULL);
 	want_rgb = opts->mode == WL_TRACK_COLOUR || ro->overlay_mp4;
@@ -210,6 +251,9 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	    WL_OK)
 		goto out;
 	info = wl_decoder_info(dec);
+	total = info->frames_hint > 0                        ? (double)info->frames_hint
+	        : info->duration_s > 0 && info->fps_hint > 0 ? floor(info->duration_s * info->fps_hint + 0.5)
+	                                                     : -1;
 	if ((st = wl_tracker_create(opts, cal, cal_path, info->width_px, info->height_px, info->rotation_deg,
 	                            &tr, err)) != WL_OK)
 		goto out;
@@ -268,8 +312,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 			pthread_mutex_unlock(&q.m);
 		}
 		queue_pop(&q);
-		if (ro->progress)
-			ro->progress(ro->progress_ctx, sum->frames, img.t_s, info->duration_s);
+		wl_diag_progress(ro->diag, "track", (double)sum->frames, total, img.t_s);
 	}
 	if (q.st != WL_OK) {
 		st = q.st;
@@ -291,34 +334,7 @@ wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, c
 	raw = NULL;
 	sum->damaged = q.damaged;
 	sum->stats = *wl_tracker_stats(tr);
-	if (sum->stats.over_limit > 0) {
-		snprintf(sum->warning, sizeof sum->warning,
-		         "%s: more than %d tag ids seen: %lld detections of new ids (the first id %d) were "
-		         "left out; "
-		         "list the robots with --ids or --robots",
-		         ro->clip, WL_TRACK_MAX_ROBOTS, (long long)sum->stats.over_limit,
-		         sum->stats.first_over_limit_id);
-	} else if (wl_decoder_damage_count(dec) > 0) {
-		/* packets lost, a cut file: not only frames flagged corrupt */
-		int nd = 0;
-		const wl_damage *d = wl_decoder_damage(dec, &nd);
-		char tb[WL_NUMBUF];
-		snprintf(sum->warning, sizeof sum->warning,
-		         "%s: damaged clip: %lld problem%s, the first at frame %lld, %s s: %s (%lld frames "
-		         "flagged); "
-		         "see wakeline probe",
-		         ro->clip, (long long)wl_decoder_damage_count(dec),
-		         wl_decoder_damage_count(dec) > 1 ? "s" : "", nd ? (long long)d[0].frame_index : -1LL,
-		         nd && isfinite(d[0].t_s) ? wl_fmt_fixed(tb, d[0].t_s, 3) : "?", nd ? d[0].what : "?",
-		         (long long)q.damaged);
-	} else if (q.damaged > 0)
-		snprintf(sum->warning, sizeof sum->warning,
-		         "%lld frames were flagged as damaged by the decoder; their poses may be off",
-		         (long long)q.damaged);
-	else if (opts->mode == WL_TRACK_COLOUR && info->bit_depth > 8)
-		snprintf(sum->warning, sizeof sum->warning,
-		         "%s is %d-bit (HDR?) video: colour ranges need an SDR recording or tone-mapping",
-		         ro->clip, info->bit_depth);
+	warn_end(ro, opts, dec, sum);
 out:
 	if (started) {
 		queue_stop(&q);

@@ -31,6 +31,7 @@
 #include <stdio.h>
 
 #include "calib/calib.h"
+#include "core/diag.h"
 #include "core/err.h"
 #include "formats/raw.h"
 
@@ -75,8 +76,9 @@ typedef struct {
 	int min_blob_px, max_blob_px; /* accepted blob areas, px */
 	double min_fill;              /* blob area / bounding-box area, a shape test */
 	/* search */
-	int lost_after;      /* misses before a robot is lost (full-frame search) */
-	double motion_min_m; /* single cap: displacement needed for a heading */
+	int lost_after;        /* misses before a robot is lost (full-frame search) */
+	double motion_min_m;   /* single cap: displacement needed for a heading */
+	char robots_path[512]; /* the ROBOTS.csv the robots came from ("" if none), for messages */
 } wl_track_opts;
 
 void wl_track_opts_init(wl_track_opts *o);
@@ -92,8 +94,15 @@ int wl_track_parse_hsv(const char *s, int out[3]);
 
 /* Loads ROBOTS.csv: id (required), plane_height_m, plane_height_tol_m, heading_offset_rad,
  * body_diameter_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
- * (optional columns; empty cells keep defaults).  Sets restrict_ids. */
+ * (optional columns; empty cells keep defaults).  Sets restrict_ids and
+ * robots_path. */
 wl_status wl_track_load_robots(const char *path, wl_track_opts *o, wl_err *err);
+
+/* Checks options that only make sense together: colour ranges for robots
+ * in tag mode (a ROBOTS.csv meant for --mode colour) are an error that says
+ * what to add, never a silent fallback to tags.  (What colour mode needs is
+ * checked when the tracker is created.) */
+wl_status wl_track_opts_check(const wl_track_opts *o, wl_err *err);
 
 /* ---- one frame's detection result ---- */
 
@@ -248,9 +257,11 @@ typedef struct {
 	const char *overlay_mp4; /* NULL: none */
 	int decode_threads;      /* 0: all cores */
 	int queue_frames;        /* buffers in the pool (>= 2) */
-	/* called from the tracking thread after each frame (may be NULL) */
-	void (*progress)(void *ctx, int64_t frames, double t_s, double duration_s);
-	void *progress_ctx;
+	/* warnings (a damaged clip, ids past the limit, HDR video in colour
+	 * mode) and progress (stage "track": frames done of the expected
+	 * frames, -1 when unknown, and the frame's time), from the tracking
+	 * thread after each frame; may be NULL */
+	const wl_diag *diag;
 } wl_track_run_opts;
 
 typedef struct {
@@ -258,9 +269,10 @@ typedef struct {
 	int n_robots;
 	int64_t damaged; /* frames the decoder flagged */
 	wl_track_stats stats;
-	char warning[256]; /* empty, or one line for the user */
 } wl_track_summary;
 
+/* Tracks a whole clip into RAW.csv (written atomically).  Checks the
+ * options first (wl_track_opts_check). */
 wl_status wl_track_run(const wl_track_run_opts *ro, const wl_track_opts *opts, const wl_calib *cal,
                        const char *cal_path, wl_track_summary *sum, wl_err *err);
 

@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # probe: decoded frame count and every frame's time agree with ffprobe
-# (Debian ffmpeg 5.1, REFERENCES.md "Video timestamps") to within 1 ms on a
+# (Debian ffmpeg 5.1, tests/data/references.md "Video timestamps") to within 1 ms on a
 # constant-rate clip, the variable-frame-rate recipe, clips with B-frames and
 # clips whose first timestamp is not zero.
 source "$WL_SOURCE_DIR/tests/e2e/lib/decode.bash"
@@ -20,8 +20,8 @@ ff "${src[@]}" -c:v libx264 -pix_fmt yuv420p -bf 2 clip.ts
 
 # The B-frame clips must really hold B-frames, or the check proves nothing.
 for c in bf3.mp4 vfr-bf3.mp4; do
-	types=$(ffprobe -v error -select_streams v:0 -show_entries frame=pict_type -of default=nw=1:nk=1 $c)
-	grep -q B <<<"$types" || fail "$c has no B-frames"
+	ffprobe -v error -select_streams v:0 -show_entries frame=pict_type -of default=nw=1:nk=1 $c > $c.types
+	check_grep "$c holds B-frames (ffprobe)" B $c.types
 done
 
 for c in cfr.mp4 vfr.mp4 vfr-bf3.mp4 bf3.mp4 offset.mp4 offset.mkv setpts.mp4 clip.ts; do
@@ -30,32 +30,35 @@ done
 
 # The summary: constant vs variable rate and the intervals of the recipe
 # (25 frames 40 ms apart, then 25 frames 100 ms apart; the step between is 40 ms).
-grep -q '^frame rate     constant' cfr.mp4.probe.txt || fail "cfr.mp4 not reported constant"
-grep -q '^frame rate     variable' vfr.mp4.probe.txt || fail "vfr.mp4 not reported variable"
-grep -q '^interval       mean 0.040000 s, min 0.040000 s, max 0.040000 s' cfr.mp4.probe.txt ||
-	fail "cfr.mp4 intervals: $(grep interval cfr.mp4.probe.txt)"
+check_grep "cfr.mp4 is reported constant rate" '^frame rate     constant' cfr.mp4.probe.txt
+check_grep "vfr.mp4 is reported variable rate" '^frame rate     variable' vfr.mp4.probe.txt
+check_grep "cfr.mp4 intervals: all 40 ms" \
+	'^interval       mean 0.040000 s, min 0.040000 s, max 0.040000 s' cfr.mp4.probe.txt
 # mean = (1000 + 24*100 ms) / 49 = 69.387755 ms
-grep -q '^interval       mean 0.069388 s, min 0.040000 s, max 0.100000 s' vfr.mp4.probe.txt ||
-	fail "vfr.mp4 intervals: $(grep interval vfr.mp4.probe.txt)"
-grep -q '^frames         50 decoded' vfr.mp4.probe.txt || fail "vfr.mp4 frame count"
+check_grep "vfr.mp4 intervals: mean 69.388 ms, 40 to 100 ms" \
+	'^interval       mean 0.069388 s, min 0.040000 s, max 0.100000 s' vfr.mp4.probe.txt
+check_grep "vfr.mp4: 50 frames decoded" '^frames         50 decoded' vfr.mp4.probe.txt
 # The container time of the first frame is reported (ffprobe's first time).
-grep -q '"first_pts_s":	10,' <<<"$("$WAKELINE" probe -q --json offset.mp4)" || fail "offset.mp4 first_pts_s is not 10"
+"$WAKELINE" probe -q --json offset.mp4 > offset.json || fail "probe --json offset.mp4 exited $?"
+check_grep "offset.mp4: first_pts_s is 10" '"first_pts_s":	10,' offset.json
 first_ts=$(ffprobe_times clip.ts | sed -n 1p)
-"$WAKELINE" probe -q --json clip.ts | $PY -c "
+"$WAKELINE" probe -q --json clip.ts > clip.ts.json || fail "probe --json clip.ts exited $?"
+check "clip.ts: first_pts_s is ffprobe's first time ($first_ts s) and 50 frames" "$PY" -c "
 import json, sys
-j = json.load(sys.stdin)
+j = json.load(open('clip.ts.json'))
 sys.exit(0 if abs(j['first_pts_s'] - float('$first_ts')) < 1e-6 and j['frames'] == 50 else 'clip.ts: %s' % j)"
 # A raw H.264 stream has no timestamps (ffprobe prints N/A): the times are
 # extrapolated at the stream's nominal rate and every frame says so.
 ff "${src[@]}" -c:v libx264 -pix_fmt yuv420p -bf 2 raw.h264
-[ "$(ffprobe_times raw.h264 | sort -u)" = "N/A" ] || fail "raw.h264 has timestamps after all"
-"$WAKELINE" probe -q --frames raw.csv raw.h264 > raw.txt || fail "probe raw.h264"
-grep -q '^timestamps     50 frames had none' raw.txt || fail "raw.h264: guessed times not reported"
-$PY - <<'PYEOF' || fail "raw.h264 guessed times"
+check_eq "raw.h264 has no timestamps (ffprobe: N/A)" "$(ffprobe_times raw.h264 | sort -u)" "N/A"
+check_exit "probe --frames raw.h264 succeeds" 0 "$WAKELINE" probe -q --frames raw.csv raw.h264
+cp last.out raw.txt
+check_grep "raw.h264: the 50 guessed times are reported" '^timestamps     50 frames had none' raw.txt
+check_py "raw.h264: 50 rows at 40 ms steps, each marked time_guessed" <<'PYEOF'
 import csv, sys
 rows = list(csv.DictReader(open("raw.csv")))
 ok = len(rows) == 50 and all(r["time_guessed"] == "1" and abs(float(r["t_s"]) - 0.04 * i) < 1e-6
                              for i, r in enumerate(rows))
 sys.exit(0 if ok else "raw.h264: %d rows, first %s" % (len(rows), rows[:2]))
 PYEOF
-echo "0100-probe-times: ok"
+done_testing

@@ -7,22 +7,23 @@ ff -f lavfi -i "testsrc2=size=320x240:rate=25" -frames:v 50 \
 	-c:v libx264 -pix_fmt yuv420p -bf 0 -video_track_timescale 1000 vfr.mp4
 
 if ! locale -a 2>/dev/null | grep -qi '^de_DE\.utf-\?8$'; then
-	echo "SKIP: the de_DE.UTF-8 locale is not generated (scripts/setup makes it)"
-	exit 0
+	skip_all "the de_DE.UTF-8 locale is not generated (scripts/setup makes it)"
 fi
-LC_ALL=C "$WAKELINE" probe -q --json vfr.mp4 > c.json || fail "probe under C exited $?"
-LC_ALL=de_DE.UTF-8 "$WAKELINE" probe -q --json vfr.mp4 > de.json || fail "probe under de_DE exited $?"
+check_exit "probe --json under LC_ALL=C succeeds" 0 env LC_ALL=C "$WAKELINE" probe -q --json vfr.mp4
+cp last.out c.json
+check_exit "probe --json under LC_ALL=de_DE.UTF-8 succeeds" 0 env LC_ALL=de_DE.UTF-8 "$WAKELINE" probe -q --json vfr.mp4
+cp last.out de.json
 LC_ALL=C "$WAKELINE" probe -q vfr.mp4 > c.txt
 LC_ALL=de_DE.UTF-8 "$WAKELINE" probe -q vfr.mp4 > de.txt
-cmp c.json de.json || fail "JSON differs between LC_ALL=C and LC_ALL=de_DE.UTF-8"
-cmp c.txt de.txt || fail "text report differs between LC_ALL=C and LC_ALL=de_DE.UTF-8"
+check "the JSON is byte-identical under LC_ALL=C and LC_ALL=de_DE.UTF-8" cmp c.json de.json
+check "the text report is byte-identical under both locales" cmp c.txt de.txt
 # the locale really writes decimal commas (else this test proves nothing)
-[ "$(LC_ALL=de_DE.UTF-8 /usr/bin/printf '%.1f' 0.5)" = "0,5" ] || fail "de_DE.UTF-8 does not use a decimal comma here"
+check_eq "de_DE.UTF-8 writes a decimal comma here (printf)" "$(LC_ALL=de_DE.UTF-8 /usr/bin/printf '%.1f' 0.5)" "0,5"
 
-$PY - <<'PYEOF' || fail "JSON values"
+check_py "the JSON holds the values of the variable-rate recipe" <<'PYEOF'
 import json, sys
 j = json.load(open("c.json"))
-# VFR recipe of REFERENCES.md: 25 frames 40 ms apart, then 25 frames 100 ms apart
+# VFR recipe of tests/data/references.md: 25 frames 40 ms apart, then 25 frames 100 ms apart
 want = {"codec": "h264", "width_px": 320, "height_px": 240, "rotation_deg": 0, "pix_fmt": "yuv420p",
         "bit_depth": 8, "full_range": False, "frames": 50, "first_pts_s": 0, "last_t_s": 3.4,
         "interval_min_s": 0.04, "interval_max_s": 0.1, "variable_frame_rate": True,
@@ -33,5 +34,5 @@ if abs(j["interval_mean_s"] - 3.4 / 49) > 1e-6:
 if bad:
     sys.exit("wrong values (got, want): %s" % bad)
 PYEOF
-grep -q '"interval_min_s":	0.04,' c.json || fail "numbers are not written with '.'"
-echo "0101-probe-json-locale: ok"
+check_grep "numbers are written with '.'" '"interval_min_s":	0.04,' c.json
+done_testing

@@ -14,12 +14,14 @@ ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 50 \
 ff -f lavfi -i testsrc2=size=320x240:rate=25 -frames:v 50 -c:v libx264 -pix_fmt yuv420p -g 10 -bf 3 raw.h264
 for c in gop.mp4 vfr.mp4 raw.h264; do ff -i $c -fps_mode passthrough "ref-$c-%04d.png"; done
 
-# still_is CLIP AT N T: `still --at AT` writes frame N, at time T.  The
-# pixel comparisons are made at the end (checks.txt), in one python run.
+# still_is CLIP AT N T: checks that `still --at AT` succeeds and writes the
+# frame at time T; queues the check that it is frame N: the pixel
+# comparisons are made at the end (checks.txt), in one python run.
 still_is() {
 	local clip=$1 at=$2 n=$3 t=$4 out="$1-$2.png"
-	"$WAKELINE" still "$clip" --at "$at" -o "$out" > "$out.txt" 2> "$out.err" || fail "still $clip --at $at"
-	grep -q "t_s $t " "$out.txt" || fail "$clip --at $at: $(cat "$out.txt"), want t_s $t"
+	check_exit "still $clip --at $at succeeds" 0 "$WAKELINE" still "$clip" --at "$at" -o "$out"
+	cp last.out "$out.txt"
+	check_grep "still $clip --at $at: the frame at $t s" "t_s $t " "$out.txt"
 	echo "$clip $at $n" >> checks.txt
 }
 : > checks.txt
@@ -33,10 +35,10 @@ still_is gop.mp4 2.79 70 2.800000 # a key frame
 still_is gop.mp4 2.77 69 2.760000 # the frame before a key frame
 still_is gop.mp4 3.96 99 3.960000
 # past the end: the last frame, with a warning
-"$WAKELINE" still gop.mp4 --at 10 -o end.png > end.txt 2> end.err || fail "still --at 10"
-grep -q 't_s 3.960000' end.txt || fail "past the end: $(cat end.txt)"
-grep -q 'past the last frame' end.err || fail "no warning past the end"
-# variable frame rate (REFERENCES.md recipe): frame N at N*40 ms for N < 25, then 1 s + (N-25)*100 ms
+check_exit "still --at 10 (past the end) succeeds" 0 "$WAKELINE" still gop.mp4 --at 10 -o end.png
+check_grep "past the end: the last frame (3.96 s)" 't_s 3.960000' last.out
+check_grep "past the end: a warning" 'past the last frame' last.err
+# variable frame rate (tests/data/references.md recipe): frame N at N*40 ms for N < 25, then 1 s + (N-25)*100 ms
 still_is vfr.mp4 1.03 25 1.000000
 still_is vfr.mp4 2.0 35 2.000000
 still_is vfr.mp4 3.36 49 3.400000
@@ -44,10 +46,12 @@ still_is vfr.mp4 3.36 49 3.400000
 still_is raw.h264 1.465 37 1.480000
 still_is raw.h264 0 0 0.000000
 
-$PY - <<'PYEOF' || fail "a still is not the frame wanted"
+check_py "each still is its frame, closer to ffmpeg's frame than to the neighbours ($(wc -l < checks.txt) stills)" <<'PYEOF'
 import os, sys, cv2, numpy as np
 bad = 0
-for line in open("checks.txt"):
+lines = open("checks.txt").readlines()
+assert len(lines) == 12, "%d stills queued, 12 expected" % len(lines)
+for line in lines:
     clip, at, n = line.split(); n = int(n)
     got = cv2.imread("%s-%s.png" % (clip, at)).astype(float)
     d = {}
@@ -65,10 +69,9 @@ sys.exit(bad)
 PYEOF
 
 # usage errors
-set +e
-"$WAKELINE" still gop.mp4 -o x.png 2> /dev/null; [ $? -eq 2 ] || fail "missing --at is not a usage error"
-"$WAKELINE" still gop.mp4 --at -1 -o x.png 2> /dev/null; [ $? -eq 2 ] || fail "--at -1 is not a usage error"
-"$WAKELINE" still gop.mp4 --at 1 2> /dev/null; [ $? -eq 2 ] || fail "missing -o is not a usage error"
-"$WAKELINE" still --help > help.txt; [ $? -eq 0 ] && grep -q -- '--at SECONDS' help.txt || fail "--help"
-set -e
-echo "0103-still-seek: ok"
+check_exit "a missing --at is a usage error (exit 2)" 2 "$WAKELINE" still gop.mp4 -o x.png
+check_exit "--at -1 is a usage error (exit 2)" 2 "$WAKELINE" still gop.mp4 --at -1 -o x.png
+check_exit "a missing -o is a usage error (exit 2)" 2 "$WAKELINE" still gop.mp4 --at 1
+check_exit "still --help exits 0" 0 "$WAKELINE" still --help
+check_grep "still --help lists --at SECONDS" -- '--at SECONDS' last.out
+done_testing

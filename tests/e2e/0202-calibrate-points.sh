@@ -7,18 +7,17 @@
 # homography maps the points within 2 mm, and a six-point file with one
 # point 40 px off has that point named and left out.  Numbers are written
 # with '.' decimals under a decimal-comma locale.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_SOURCE_DIR:?}" "${WL_TEST_TMP:?}"
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-scene="/usr/bin/python3 $WL_SOURCE_DIR/tests/e2e/lib/calib_scene.py"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+scene() { "$PY" "$WL_SOURCE_DIR/tests/e2e/lib/calib_scene.py" "$@" || fail "calib_scene.py $1 exited $?"; }
 
-$scene points pts.csv blank.png --tilt 20 --noise 0.3 --seed 3
-LC_ALL=de_DE.UTF-8 "$WAKELINE" calibrate blank.png --points pts.csv --plane-height-m 0.25 -o CAL.json > report.txt
-cat report.txt
-grep -q "oblique enough: focal length from the homography" report.txt
-grep -q "RMS 0\.[0-9]* px" report.txt
+scene points pts.csv blank.png --tilt 20 --noise 0.3 --seed 3
+check_exit "calibrate --points under LC_ALL=de_DE.UTF-8 succeeds" 0 \
+	env LC_ALL=de_DE.UTF-8 "$WAKELINE" calibrate blank.png --points pts.csv --plane-height-m 0.25 -o CAL.json
+cp last.out report.txt
+check_grep "the view is oblique enough for the focal length" "oblique enough: focal length from the homography" report.txt
+check_grep "the report gives the RMS" "RMS 0\.[0-9]* px" report.txt
 
-/usr/bin/python3 - <<'PY'
+check_py "CAL.json: keys, height within 1 %, tilt within 0.5 deg, homography within 2 mm" <<'PY'
 import json, math
 import numpy as np
 cal = json.load(open("CAL.json"))
@@ -51,14 +50,17 @@ assert len(o) == 4 and area > 0
 assert cal["provenance"]["tool"] == "wakeline" and cal["provenance"]["created_utc"].endswith("Z")
 PY
 # no decimal commas anywhere in the file
-if grep -Eq '[0-9],[0-9]{6}' CAL.json; then echo "decimal comma in CAL.json"; exit 1; fi
+check_no_grep "no decimal commas in CAL.json" -E '[0-9],[0-9]{6}' CAL.json
 
 # six points, one 40 px off: named in the warning and left out
-$scene points six.csv --grid six --bad 4:40 --noise 0.3 --seed 5
-"$WAKELINE" calibrate blank.png --points six.csv -o six.json > six.txt
-cat six.txt
-grep -q "warning: point 'p4' is 4[0-9]\.[0-9] px off the fit of the others: left out" six.txt
-/usr/bin/python3 -c "
+scene points six.csv --grid six --bad 4:40 --noise 0.3 --seed 5
+check_exit "calibrate with one bad point of six succeeds" 0 "$WAKELINE" calibrate blank.png --points six.csv -o six.json
+cp last.out six.txt
+# warnings go to standard error, the quality report to standard output
+check_grep "the warning (on standard error) names p4, about 40 px off, left out" \
+	"wakeline calibrate: warning: point 'p4' is 4[0-9]\.[0-9] px off the fit of the others: left out" last.err
+check_no_grep "no warning on standard output" "warning" six.txt
+check "p4 is marked unused, the other five used, height within 1 %" "$PY" -c "
 import json; c = json.load(open('six.json'))
 used = {p['id']: p['used'] for p in c['points']}
 assert used['p4'] is False and sum(used.values()) == 5, used
@@ -66,12 +68,13 @@ assert abs(c['camera_position_m'][2] - 2.0) < 0.02
 "
 
 # a nadir view does not give the focal length: clear message, no file
-$scene points nadir.csv --tilt 1
-if "$WAKELINE" calibrate blank.png --points nadir.csv -o nadir.json 2> nadir.err; then
-  echo "nadir view without intrinsics should fail"; exit 1
-fi
-cat nadir.err
-grep -q -- "--lens LENS.json" nadir.err && grep -q -- "--hfov-deg" nadir.err
-test ! -e nadir.json
-"$WAKELINE" calibrate blank.png --points nadir.csv --hfov-deg 68.9 -o nadir.json | grep -q "from --hfov-deg"
-echo "0202-calibrate-points: ok"
+scene points nadir.csv --tilt 1
+check_exit "a nadir view without intrinsics fails (exit 1)" 1 \
+	"$WAKELINE" calibrate blank.png --points nadir.csv -o nadir.json
+check_grep "the message suggests --lens LENS.json" -- "--lens LENS.json" last.err
+check_grep "the message suggests --hfov-deg" -- "--hfov-deg" last.err
+check_no_file "no CAL.json is written for the nadir view" nadir.json
+check_exit "the nadir view with --hfov-deg succeeds" 0 \
+	"$WAKELINE" calibrate blank.png --points nadir.csv --hfov-deg 68.9 -o nadir.json
+check_grep "the report says the focal length is from --hfov-deg" "from --hfov-deg" last.out
+done_testing

@@ -1,18 +1,19 @@
 #!/usr/bin/env bash
 # calibrate refuses bad layouts and points files with an error naming the
 # file and the row, exits 1 and writes no CAL.json.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_SOURCE_DIR:?}" "${WL_TEST_TMP:?}"
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-/usr/bin/python3 -c "import cv2, numpy as np; cv2.imwrite('blank.png', np.full((480, 640), 128, np.uint8))"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+"$PY" -c "import cv2, numpy as np; cv2.imwrite('blank.png', np.full((480, 640), 128, np.uint8))"
 
-expect_fail() { # name, expected text, args...
-  local name=$1 want=$2; shift 2
-  set +e; "$WAKELINE" calibrate blank.png "$@" -o "$name.json" > "$name.out" 2> "$name.err"; local rc=$?; set -e
-  cat "$name.err"
-  [ "$rc" -eq 1 ] || { echo "$name: exit $rc, wanted 1"; exit 1; }
-  grep -qF -- "$want" "$name.err" || { echo "$name: message lacks '$want'"; exit 1; }
-  [ ! -e "$name.json" ] || { echo "$name: CAL.json was written"; exit 1; }
+# expect_fail NAME TEXT ARGS...: calibrate exits 1, its message holds TEXT
+# (fixed string), and no NAME.json is written.
+expect_fail() {
+	local name=$1 want=$2
+	shift 2
+	check_exit "$name: calibrate fails (exit 1)" 1 "$WAKELINE" calibrate blank.png "$@" -o "$name.json"
+	cp last.out "$name.out"
+	cp last.err "$name.err"
+	check_grep "$name: the message says '$want'" -F -- "$want" last.err
+	check_no_file "$name: no CAL.json is written" "$name.json"
 }
 
 printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n1,0,1\n' > dup.csv
@@ -34,16 +35,17 @@ expect_fail few "few.csv: 3 points, calibration needs at least 4" --points few.c
 # markers listed but not in the (blank) image
 printf 'marker_id,x_m,y_m\n0,0,0\n1,1,0\n2,1,1\n3,0,1\n' > ok.csv
 expect_fail missing "only 0 of the 4 layout markers were found" --layout ok.csv
-grep -q "marker 2 (layout line 4) was not found" missing.out
+# the warnings go to standard error (the quality report alone to standard output)
+check_grep "the warning (on standard error) names marker 2 (layout line 4) as not found" \
+	"wakeline calibrate: warning: marker 2 (layout line 4) was not found" missing.err
 # an output that cannot be written: the error names it
 printf 'u_px,v_px,x_m,y_m\n100,100,0,1\n500,120,1,1\n450,400,1,0\n80,350,0,0\n' > four.csv
-set +e; "$WAKELINE" calibrate blank.png --points four.csv --hfov-deg 60 -o no/such/dir/CAL.json 2> out.err; rc=$?; set -e
-cat out.err
-[ "$rc" -eq 1 ] && grep -q "no/such/dir/CAL.json" out.err
+check_exit "an output in a missing folder fails (exit 1)" 1 \
+	"$WAKELINE" calibrate blank.png --points four.csv --hfov-deg 60 -o no/such/dir/CAL.json
+check_grep "the error names the output" "no/such/dir/CAL.json" last.err
 # a mirrored layout (y measured the other way): the camera would be under the floor
 printf 'u_px,v_px,x_m,y_m\n100,100,0,0\n500,120,1,0\n450,400,1,1\n80,350,0,1\n' > mirrored.csv
 expect_fail mirrored "the layout looks mirrored" --points mirrored.csv --hfov-deg 60
 # usage errors exit 2
-set +e; "$WAKELINE" calibrate blank.png -o x.json 2>/dev/null; rc=$?; set -e
-[ "$rc" -eq 2 ]
-echo "0203-calibrate-bad-input: ok"
+check_exit "neither --layout nor --points is a usage error (exit 2)" 2 "$WAKELINE" calibrate blank.png -o x.json
+done_testing

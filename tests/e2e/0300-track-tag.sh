@@ -21,11 +21,11 @@ cat > scene.json <<'JSON'
 JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
-LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail trail.png --quiet ||
-	fail "track exited $?"
+check_exit "track succeeds under LC_ALL=de_DE.UTF-8" 0 \
+	env LC_ALL=de_DE.UTF-8 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --trail trail.png --quiet
 compare raw.csv clip.truth.csv --pos-mm 2 --head-deg 1 --ok 0.99 --ccw 3
-grep -q '[0-9],[0-9][0-9]*,[0-9]' raw.csv || fail "no rows"
-if grep -Eq '[0-9],[0-9]{6}[^0-9,]' raw.csv; then fail "decimal commas in raw.csv"; fi
-awk -F, 'NR > 1 && NF != 12 { exit 1 }' raw.csv || fail "a row of raw.csv has not 12 cells"
-head -c 8 trail.png | od -An -tx1 | grep -q '89 50 4e 47 0d 0a 1a 0a' || fail "trail.png is not a PNG"
-echo "ok"
+check_grep "raw.csv has rows" '[0-9],[0-9][0-9]*,[0-9]' raw.csv
+check_no_grep "raw.csv has no decimal commas" -E '[0-9],[0-9]{6}[^0-9,]' raw.csv
+check "every row of raw.csv has 12 cells" awk -F, 'NR > 1 && NF != 12 { print "line " NR ": " $0; bad = 1 } END { exit bad }' raw.csv
+check_eq "trail.png starts with the PNG signature" "$(head -c 8 trail.png | od -An -tx1 | tr -s ' ')" " 89 50 4e 47 0d 0a 1a 0a"
+done_testing

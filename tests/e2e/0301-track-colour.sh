@@ -22,13 +22,14 @@ cat > robots.csv <<'CSV'
 id,body_diameter_m,front_hsv_lo,front_hsv_hi,back_hsv_lo,back_hsv_hi
 1,0.12,"170,120,80","8,255,255","105,120,80","125,255,255"
 CSV
-"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --mode colour --robots robots.csv --quiet ||
-	fail "track exited $?"
+check_exit "track --mode colour succeeds" 0 \
+	"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --mode colour --robots robots.csv --quiet
 compare raw.csv clip.truth.csv --pos-mm 5 --head-deg 2 --ok 0.99
-grep -q ',caps$' raw.csv || fail "heading_source is not caps"
+check_grep "heading_source is caps" ',caps$' raw.csv
 # the front cap's hue, read back at its first-frame pixel position
 read -r u v < <(awk -F, 'NR == 2 { print $4, $5 }' raw.csv)
-"$WAKELINE" colours clip.mp4 --at 0 --box "$(printf '%.0f,%.0f,3,3' "$u" "$v")" > colours.txt ||
-	fail "colours exited $?"
-grep -q '^hue,' colours.txt || fail "no hue line: $(cat colours.txt)"
-echo "ok"
+check_exit "colours at the front cap's pixel succeeds" 0 \
+	"$WAKELINE" colours clip.mp4 --at 0 --box "$(printf '%.0f,%.0f,3,3' "$u" "$v")"
+cp last.out colours.txt
+check_grep "colours prints a hue line" '^hue,' colours.txt
+done_testing

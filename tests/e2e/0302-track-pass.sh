@@ -19,6 +19,6 @@ cat > scene.json <<'JSON'
 JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
-"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --quiet || fail "track exited $?"
+check_exit "track succeeds" 0 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --quiet
 compare raw.csv clip.truth.csv --pos-mm 2 --ok 0.99
-echo "ok"
+done_testing

@@ -20,16 +20,15 @@ JSON
 done
 make_cal clip0.scene.json cal0.json 0.2
 make_cal clip90.scene.json cal90.json 0.2 90
-"$WAKELINE" track clip0.mp4 --cal cal0.json -o raw0.csv --quiet || fail "track (no rotation) exited $?"
-"$WAKELINE" track clip90.mp4 --cal cal90.json -o raw90.csv --quiet || fail "track (rotation 90) exited $?"
+check_exit "track (no rotation) succeeds" 0 "$WAKELINE" track clip0.mp4 --cal cal0.json -o raw0.csv --quiet
+check_exit "track (rotation 90) succeeds" 0 "$WAKELINE" track clip90.mp4 --cal cal90.json -o raw90.csv --quiet
 # a displayed calibration of the turned clip does not fit the unturned one
-if "$WAKELINE" track clip0.mp4 --cal cal90.json -o bad.csv --quiet 2>err.txt; then
-	fail "a displayed calibration of a turned clip was accepted for an unturned one"
-fi
-grep -q 'cal90.json' err.txt || fail "the error does not name the calibration: $(cat err.txt)"
-[ ! -e bad.csv ] || fail "bad.csv left behind"
+check_exit "a displayed calibration of a turned clip is refused for an unturned one (exit 1)" 1 \
+	"$WAKELINE" track clip0.mp4 --cal cal90.json -o bad.csv --quiet
+check_grep "the error names the calibration" 'cal90.json' last.err
+check_no_file "no bad.csv is left behind" bad.csv
 compare raw90.csv clip90.truth.csv --pos-mm 2 --ok 0.99
-$PY - <<'PYEOF' || fail "positions differ with rotation metadata"
+check_py "positions are the same with and without rotation metadata (within 1e-6 m)" <<'PYEOF'
 import csv
 a = list(csv.DictReader(open("raw0.csv"))); b = list(csv.DictReader(open("raw90.csv")))
 assert len(a) == len(b) and len(a) > 30, (len(a), len(b))
@@ -43,4 +42,4 @@ for r, s in zip(a, b):
 print(f"largest position difference with/without rotation metadata: {worst * 1000:.6f} mm")
 assert worst < 1e-6
 PYEOF
-echo "ok"
+done_testing

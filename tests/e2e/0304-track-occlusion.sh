@@ -18,10 +18,10 @@ cat > scene.json <<'JSON'
 JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
-"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --quiet || fail "track exited $?"
+check_exit "track succeeds" 0 "$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --quiet
 n_truth=$(($(wc -l < clip.truth.csv) - 1))
 n_raw=$(($(wc -l < raw.csv) - 1))
-[ "$n_truth" -eq "$n_raw" ] || fail "raw.csv has $n_raw rows, the clip $n_truth frames"
+check_eq "raw.csv has a row on every frame of the clip" "$n_raw rows" "$n_truth rows"
 # (frames between reappearing and being found count as not ok: hence 0.97)
 compare raw.csv clip.truth.csv --pos-mm 2 --ok 0.97 --hidden 2:1.5:2.5 --found-within 3
-echo "ok"
+done_testing

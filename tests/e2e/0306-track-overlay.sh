@@ -18,23 +18,24 @@ cat > scene.json <<'JSON'
 JSON
 synth scene.json clip.mp4
 make_cal clip.scene.json cal.json 0.25
-"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --overlay qc.mp4 --trail trail.png --quiet ||
-	fail "track exited $?"
+check_exit "track --overlay --trail succeeds" 0 \
+	"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --overlay qc.mp4 --trail trail.png --quiet
 times() { ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$1"; }
 times clip.mp4 > t_clip.txt
 times qc.mp4 > t_qc.txt
-$PY - <<'PYEOF' || fail "overlay frame times differ from the clip's"
+check_py "the overlay has the clip's 30 frames at the same times (within 1 ms)" <<'PYEOF'
 a = [float(x) for x in open("t_clip.txt")]; b = [float(x) for x in open("t_qc.txt")]
 assert len(a) == len(b) == 30, (len(a), len(b))
 assert max(abs((x - a[0]) - (y - b[0])) for x, y in zip(a, b)) < 1e-3
 PYEOF
 rot=$(ffprobe -v error -select_streams v:0 -show_entries stream_side_data=rotation -of default=nw=1:nk=1 qc.mp4 | head -1)
 rot0=$(ffprobe -v error -select_streams v:0 -show_entries stream_side_data=rotation -of default=nw=1:nk=1 clip.mp4 | head -1)
-[ "$rot" = "$rot0" ] || fail "overlay rotation '$rot' differs from the clip's '$rot0'"
+check_eq "the overlay has the clip's rotation" "$rot" "$rot0"
+check_eq "the clip has the rotation the scene asks for (ffprobe)" "$rot0" "90"
 # first frames of both, coded pixels (no autorotate), compared around the pose
 ffmpeg -v error -nostdin -y -noautorotate -i clip.mp4 -frames:v 1 -f rawvideo -pix_fmt rgb24 f_clip.rgb
 ffmpeg -v error -nostdin -y -noautorotate -i qc.mp4 -frames:v 1 -f rawvideo -pix_fmt rgb24 f_qc.rgb
-$PY - <<'PYEOF' || fail "the overlay is not drawn at the tracked pose"
+check_py "the overlay is drawn at the tracked pose and nowhere far from it" <<'PYEOF'
 import csv
 import numpy as np
 w, h = 960, 540
@@ -51,10 +52,9 @@ far = diff[(d > 6 * s)].mean()
 print(f"mean change on the pose circle {ring:.1f}, far away {far:.1f}")
 assert ring > 60 and far < 15, (ring, far)
 PYEOF
-$PY -c "
+check "trail.png is a PNG of the clip's coded size (960 x 540)" "$PY" -c "
 import struct, sys
 d = open('trail.png', 'rb').read(32)
 assert d[:8] == b'\x89PNG\r\n\x1a\n'
-w, h = struct.unpack('>II', d[16:24]); print('trail', w, h); sys.exit(0 if (w, h) == (960, 540) else 1)" ||
-	fail "trail.png size"
-echo "ok"
+w, h = struct.unpack('>II', d[16:24]); print('trail', w, h); sys.exit(0 if (w, h) == (960, 540) else 1)"
+done_testing

@@ -23,10 +23,11 @@ cat > robots.csv <<'CSV'
 id,front_hsv_lo,front_hsv_hi
 2,"50,120,80","80,255,255"
 CSV
-"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --mode colour --robots robots.csv --quiet ||
-	fail "track exited $?"
+check_exit "track --mode colour (one cap) succeeds" 0 \
+	"$WAKELINE" track clip.mp4 --cal cal.json -o raw.csv --mode colour --robots robots.csv --quiet
 # frame 0: at rest, no heading yet
-awk -F, 'NR == 2 && ($9 != "ok" || $8 != "") { exit 1 }' raw.csv || fail "a heading was given before any motion"
-grep -q ',motion$' raw.csv || fail "no heading from motion"
+check "frame 0 (at rest) is ok with an empty heading" \
+	awk -F, 'NR == 2 { print; if ($9 != "ok" || $8 != "") exit 1 }' raw.csv
+check_grep "headings come from motion" ',motion$' raw.csv
 compare raw.csv clip.truth.csv --pos-mm 5 --head-deg 3 --ok 0.99
-echo "ok"
+done_testing

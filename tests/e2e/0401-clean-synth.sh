@@ -11,40 +11,54 @@
 #    of the final speed after a 1 s rest and an exponential speed-up);
 #  - a still run reported as still; gaps bridged / split; wall cut; resampling;
 #  - the sidecar's SHA-256 equals sha256sum's (GNU coreutils).
-set -euo pipefail
-PY=/usr/bin/python3
-T="$WL_TEST_TMP"; mkdir -p "$T"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+T="$WL_TEST_TMP"
 G="$WL_SOURCE_DIR/tests/clean/synth_raw.py"
 E="$WL_SOURCE_DIR/tests/clean/eval_clean.py"
-fail() { echo "FAIL: $*" >&2; exit 1; }
 
-run() { # name, generator args...; then clean args after --
-	local name=$1; shift
+# run NAME GENERATOR-ARGS... [-- CLEAN-ARGS...]: makes the invented run and
+# checks that clean succeeds on it (its report in NAME.out)
+run() {
+	local name=$1
+	shift
 	local gen=() cl=()
-	while [ $# -gt 0 ] && [ "$1" != "--" ]; do gen+=("$1"); shift; done
-	[ $# -gt 0 ] && shift
+	while [ $# -gt 0 ] && [ "$1" != "--" ]; do
+		gen+=("$1")
+		shift
+	done
+	[ $# -eq 0 ] || shift
 	cl=("$@")
-	$PY "$G" "${gen[@]}" --out "$T/$name.raw.csv" --truth "$T/$name.truth.csv" > "$T/$name.meta"
-	"$WAKELINE" clean "$T/$name.raw.csv" -o "$T/$name.csv" "${cl[@]}" > "$T/$name.out"
-	cat "$T/$name.out"
+	"$PY" "$G" "${gen[@]}" --out "$T/$name.raw.csv" --truth "$T/$name.truth.csv" > "$T/$name.meta" ||
+		fail "synth_raw.py ${gen[*]} exited $?"
+	check_exit "clean on the '$name' run succeeds" 0 "$WAKELINE" clean "$T/$name.raw.csv" -o "$T/$name.csv" "${cl[@]}"
+	cp "$T/last.out" "$T/$name.out"
 }
 settle() { awk '/settle_s/{print $2}' "$T/$1.meta"; }
+# evaluate NAME CLEAN.csv TRUTH RAW [eval_clean.py options]: the check that
+# the figures of eval_clean.py hold (its --check options; it prints them)
+evaluate() {
+	local name=$1
+	shift
+	local what=("${@:4}")
+	check "$name: ${what[*]//--check /}" "$PY" "$E" "$@"
+}
 
-echo "== constant frame rate, 30 fps, 0.1 m/s on a 0.6 m circle, 10 deg / 2 Hz heading oscillation"
+note "constant frame rate, 30 fps, 0.1 m/s on a 0.6 m circle, 10 deg / 2 Hz heading oscillation"
 run cfr --seed 1
-$PY "$E" "$T/cfr.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" \
+evaluate "constant rate" "$T/cfr.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" \
 	--check "pos_rmse_ratio>=2" --check "speed_mean_rel_err<=0.02" --check "trim_err_s<=0.5" \
-	--check "rmse_heading_deg<=2.0" | tee "$T/cfr.fig"
+	--check "rmse_heading_deg<=2.0"
 
-echo "== variable frame rate (steps uniform in 17-50 ms), same motion"
+note "variable frame rate (steps uniform in 17-50 ms), same motion"
 run vfr --seed 2 --vfr
-$PY "$E" "$T/vfr.csv" "$T/vfr.truth.csv" "$T/vfr.raw.csv" --settle "$(settle vfr)" \
+evaluate "variable rate" "$T/vfr.csv" "$T/vfr.truth.csv" "$T/vfr.raw.csv" --settle "$(settle vfr)" \
 	--check "pos_rmse_ratio>=2" --check "speed_mean_rel_err<=0.02" --check "trim_err_s<=0.5" \
-	--check "rmse_heading_deg<=2.0" | tee "$T/vfr.fig"
+	--check "rmse_heading_deg<=2.0"
 # same result as constant rate: the two smoothed tracks (independent noise)
 # agree to 1.5 mm RMS in position (each is ~0.6 mm from truth), their mean
 # steady speeds to 1 %, their trim times to one period (0.5 s)
-$PY - "$T/cfr.csv" "$T/vfr.csv" "$T/cfr.json" "$T/vfr.json" <<'PYEOF'
+check_py "variable rate agrees with constant rate: 1.5 mm RMS, speed 1 %, trim 0.5 s" \
+	"$T/cfr.csv" "$T/vfr.csv" "$T/cfr.json" "$T/vfr.json" <<'PYEOF'
 import csv, json, sys, numpy as np
 def load(p):
     r = list(csv.DictReader(open(p)))
@@ -62,52 +76,58 @@ print("vfr_vs_cfr: position RMS difference %.3f mm, mean speed difference %.4f, 
 assert rms <= 1.5 and sp <= 0.01 and abs(tr1 - tr2) <= 0.5, "variable frame rate differs from constant rate"
 PYEOF
 
-echo "== outliers: 5 % of frames moved by 10 cm, one heading flipped by 180 deg"
+note "outliers: 5 % of frames moved by 10 cm, one heading flipped by 180 deg"
 for v in "" "--vfr"; do
 	run outl --seed 3 --outliers 0.05 --flip-frame 150 $v
-	$PY "$E" "$T/outl.csv" "$T/outl.truth.csv" "$T/outl.raw.csv" --settle "$(settle outl)" \
+	evaluate "outliers${v:+ ($v)}" "$T/outl.csv" "$T/outl.truth.csv" "$T/outl.raw.csv" --settle "$(settle outl)" \
 		--check "outliers_missed<=0" --check "outlier_max_pos_err_mm<=5" \
 		--check "outlier_max_heading_err_deg<=6" --check "pos_rmse_ratio>=2" \
 		--check "outliers_flagged<=25"
 done
-echo "== Savitzky-Golay option (7 points, quadratic, local fits in t) on the outlier run"
-"$WAKELINE" clean -q "$T/outl.raw.csv" -o "$T/outl_sg.csv" --smoother sg --sg-window 7 --sg-order 2
-$PY "$E" "$T/outl_sg.csv" "$T/outl.truth.csv" "$T/outl.raw.csv" --settle "$(settle outl)" \
+note "Savitzky-Golay option (7 points, quadratic, local fits in t) on the outlier run"
+check_exit "clean --smoother sg succeeds" 0 \
+	"$WAKELINE" clean -q "$T/outl.raw.csv" -o "$T/outl_sg.csv" --smoother sg --sg-window 7 --sg-order 2
+evaluate "Savitzky-Golay on the outlier run" "$T/outl_sg.csv" "$T/outl.truth.csv" "$T/outl.raw.csv" --settle "$(settle outl)" \
 	--check "outliers_missed<=0" --check "outlier_max_pos_err_mm<=5" --check "pos_rmse_ratio>=1.5" \
 	--check "trim_err_s<=0.5"
 
-echo "== heading through +-pi (path direction from 2.6 rad up past pi) with a 180-degree flip at frame 200"
+note "heading through +-pi (path direction from 2.6 rad up past pi) with a 180-degree flip at frame 200"
 run pi --seed 12 --psi0 2.6 --flip-frame 200
-$PY "$E" "$T/pi.csv" "$T/pi.truth.csv" "$T/pi.raw.csv" --settle "$(settle pi)" \
+evaluate "heading through +-pi" "$T/pi.csv" "$T/pi.truth.csv" "$T/pi.raw.csv" --settle "$(settle pi)" \
 	--check "rmse_heading_deg<=1.5" --check "outliers_missed<=0" --check "outlier_max_heading_err_deg<=6"
-awk -F, 'NR > 1 && ($6 > 3.1 || $6 < -3.1)' "$T/pi.csv" | grep -q . || fail "the track did not pass +-pi"
-awk -F, 'NR > 1 && ($6 > 3.14159266 || $6 <= -3.14159265)' "$T/pi.csv" | grep -q . && fail "heading not wrapped to (-pi, pi]"
+check "the track passes +-pi (headings beyond 3.1 rad)" awk -F, 'NR > 1 && ($6 > 3.1 || $6 < -3.1) { n++ } END { print n + 0 " rows"; exit !n }' "$T/pi.csv"
+check "headings are wrapped to (-pi, pi]" \
+	awk -F, 'NR > 1 && ($6 > 3.14159266 || $6 <= -3.14159265) { print "line " NR ": " $6; bad = 1 } END { exit bad }' "$T/pi.csv"
 
-echo "== constant-acceleration model on the first run"
-"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/ca.csv" --model ca
-$PY "$E" "$T/ca.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" \
+note "constant-acceleration model on the first run"
+check_exit "clean --model ca succeeds" 0 "$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/ca.csv" --model ca
+evaluate "constant-acceleration model" "$T/ca.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" \
 	--check "pos_rmse_ratio>=2" --check "speed_mean_rel_err<=0.02" --check "trim_err_s<=0.5"
 
-echo "== --trim 3 and --trim none"
-"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/t3.csv" --trim 3
-awk -F, 'NR > 1 && $11 >= 0 { print $1; exit }' "$T/t3.csv" | grep -qx "3.000000" || fail "--trim 3: first analysed row"
-awk -F, 'NR > 1 && $1 < 3 && $13 != "start"' "$T/t3.csv" | grep -q . && fail "--trim 3: rows before 3 s not cut"
-"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/tn.csv" --trim none
-awk -F, 'NR > 1 && $11 < 0' "$T/tn.csv" | grep -q . && fail "--trim none: rows cut"
+note "--trim 3 and --trim none"
+check_exit "clean --trim 3 succeeds" 0 "$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/t3.csv" --trim 3
+check_eq "--trim 3: the first analysed row is at 3 s" \
+	"$(awk -F, 'NR > 1 && $11 >= 0 { print $1; exit }' "$T/t3.csv")" "3.000000"
+check "--trim 3: every row before 3 s is cut as 'start'" \
+	awk -F, 'NR > 1 && $1 < 3 && $13 != "start" { print "line " NR ": " $0; bad = 1 } END { exit bad }' "$T/t3.csv"
+check_exit "clean --trim none succeeds" 0 "$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/tn.csv" --trim none
+check "--trim none: no row is cut" \
+	awk -F, 'NR > 1 && $11 < 0 { print "line " NR ": " $0; bad = 1 } END { exit bad }' "$T/tn.csv"
 
-echo "== auto trim on other runs (slower speed-up, straight path, faster robot at 1 Hz)"
+note "auto trim on other runs (slower speed-up, straight path, faster robot at 1 Hz)"
 run tau --seed 4 --tau 0.8
-$PY "$E" "$T/tau.csv" "$T/tau.truth.csv" "$T/tau.raw.csv" --settle "$(settle tau)" --check "trim_err_s<=0.5"
+evaluate "slower speed-up" "$T/tau.csv" "$T/tau.truth.csv" "$T/tau.raw.csv" --settle "$(settle tau)" --check "trim_err_s<=0.5"
 run straight --seed 5 --radius 0 --amp-deg 15
-$PY "$E" "$T/straight.csv" "$T/straight.truth.csv" "$T/straight.raw.csv" --settle "$(settle straight)" --check "trim_err_s<=0.5"
+evaluate "straight path" "$T/straight.csv" "$T/straight.truth.csv" "$T/straight.raw.csv" --settle "$(settle straight)" \
+	--check "trim_err_s<=0.5"
 run fast --seed 6 --speed 0.2 --freq 1
-$PY "$E" "$T/fast.csv" "$T/fast.truth.csv" "$T/fast.raw.csv" --settle "$(settle fast)" --check "trim_err_s<=1.0" \
+evaluate "faster robot" "$T/fast.csv" "$T/fast.truth.csv" "$T/fast.raw.csv" --settle "$(settle fast)" --check "trim_err_s<=1.0" \
 	--check "speed_win_max_rel_err<=0.02"
 
-echo "== a run that never moves"
+note "a run that never moves"
 run still --seed 7 --still
-grep -q "robot 7: still" "$T/still.out" || fail "still run not reported"
-$PY - "$T/still.csv" "$T/still.json" <<'PYEOF'
+check_grep "the report says robot 7 is still" "robot 7: still" "$T/still.out"
+check_py "a still run: every row cut as still, the sidecar says still, no segments" "$T/still.csv" "$T/still.json" <<'PYEOF'
 import csv, json, sys
 rows = list(csv.DictReader(open(sys.argv[1])))
 assert rows and all(r["segment"] == "-1" and r["cut"] == "still" for r in rows), "still rows not cut"
@@ -115,18 +135,19 @@ rb = json.load(open(sys.argv[2]))["robots"][0]
 assert rb["still"] is True and rb["trim"]["reason"] == "still" and rb["segments"] == []
 PYEOF
 
-echo "== gaps: 0.3 s bridged, 0.8 s split into two segments"
+note "gaps: 0.3 s bridged, 0.8 s split into two segments"
 run gap1 --seed 8 --gap 6,0.3
-grep -q "1 gaps (1 filled, 0 split)" "$T/gap1.out" || fail "short gap not bridged"
-[ "$(grep -c ',filled,' "$T/gap1.csv")" -eq 9 ] || fail "expected 9 filled rows"
-$PY "$E" "$T/gap1.csv" "$T/gap1.truth.csv" "$T/gap1.raw.csv" --settle "$(settle gap1)" --check "rmse_pos_mm<=1.5"
+check_grep "a 0.3 s gap is bridged" "1 gaps (1 filled, 0 split)" "$T/gap1.out"
+check_eq "the bridged gap has 9 filled rows" "$(grep -c ',filled,' "$T/gap1.csv")" 9
+evaluate "bridged gap" "$T/gap1.csv" "$T/gap1.truth.csv" "$T/gap1.raw.csv" --settle "$(settle gap1)" --check "rmse_pos_mm<=1.5"
 run gap2 --seed 8 --gap 6,0.8
-grep -q "1 gaps (0 filled, 1 split); .*2 segments" "$T/gap2.out" || fail "long gap not split"
-grep -q ',lost,' "$T/gap2.csv" && fail "lost rows in CLEAN.csv"
+check_grep "a 0.8 s gap splits the run into 2 segments" "1 gaps (0 filled, 1 split); .*2 segments" "$T/gap2.out"
+check_no_grep "CLEAN.csv has no lost rows" ',lost,' "$T/gap2.csv"
 
-echo "== wall cut: tank 0..1 m x 0..1.2 m, body 0.1 m"
+note "wall cut: tank 0..1 m x 0..1.2 m, body 0.1 m"
 run wall --seed 9 -- --tank 0,0,1.0,1.2
-$PY - "$T/wall.csv" "$T/wall.json" <<'PYEOF'
+check_py "the wall cut: no analysed row within the margin, every row after it cut as wall" \
+	"$T/wall.csv" "$T/wall.json" <<'PYEOF'
 import csv, json, sys
 rows = list(csv.DictReader(open(sys.argv[1])))
 rb = json.load(open(sys.argv[2]))["robots"][0]
@@ -142,26 +163,25 @@ for r in rows:
 print("wall cut at %.3f s, distance %.4f m" % (tw, rb["end"]["distance_to_outline_m"]))
 PYEOF
 
-echo "== resampling at 50 Hz"
-"$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/rs.csv" --rate 50
-$PY "$E" "$T/rs.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" --interp \
+note "resampling at 50 Hz"
+check_exit "clean --rate 50 succeeds" 0 "$WAKELINE" clean -q "$T/cfr.raw.csv" -o "$T/rs.csv" --rate 50
+evaluate "resampled at 50 Hz" "$T/rs.csv" "$T/cfr.truth.csv" "$T/cfr.raw.csv" --settle "$(settle cfr)" --interp \
 	--check "rmse_pos_mm<=1.0" --check "speed_mean_rel_err<=0.02"
-$PY - "$T/rs.csv" <<'PYEOF'
+check_py "resampled rows are 20 ms apart" "$T/rs.csv" <<'PYEOF'
 import csv, sys, numpy as np
 t = np.array([float(r["t_s"]) for r in csv.DictReader(open(sys.argv[1]))])
 assert np.allclose(np.diff(t), 0.02, atol=2e-6), "not evenly spaced"
 PYEOF
 
-echo "== the measure stage reads CLEAN.csv: radius and speed of the first run"
-"$WAKELINE" measure "$T/cfr.csv" -o "$T/cfr.summary.json" > /dev/null
-$PY - "$T/cfr.summary.json" <<'PYEOF'
+note "the measure stage reads CLEAN.csv: radius and speed of the first run"
+check_exit "measure on CLEAN.csv succeeds" 0 "$WAKELINE" measure "$T/cfr.csv" -o "$T/cfr.summary.json"
+check_py "measure on CLEAN.csv: radius and mean speed within 1 % of the truth" "$T/cfr.summary.json" <<'PYEOF'
 import json, sys
 r = [x for x in json.load(open(sys.argv[1]))["runs"] if x["headline"]][0]
 print("measure on CLEAN.csv: radius %.4f m (truth 0.6), mean speed %.4f m/s (truth 0.1)" % (r["radius_m"], r["mean_speed_mps"]))
 assert abs(r["radius_m"] / 0.6 - 1) < 0.01 and abs(r["mean_speed_mps"] / 0.1 - 1) < 0.01
 PYEOF
 
-echo "== checksum"
 want=$(sha256sum "$T/cfr.raw.csv" | cut -d' ' -f1)
-grep -q "\"sha256\":[[:space:]]*\"$want\"" "$T/cfr.json" || fail "sidecar sha256 differs from sha256sum"
-echo "0401-clean-synth: ok"
+check_grep "the sidecar's sha256 equals sha256sum's" "\"sha256\":[[:space:]]*\"$want\"" "$T/cfr.json"
+done_testing

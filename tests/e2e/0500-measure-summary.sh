@@ -4,11 +4,8 @@
 # radius in two segments, robot 7 swims straight), checking SUMMARY.json's
 # keys and values, the --csv table, the headline marks, the decimal point
 # under a decimal-comma locale, and line-numbered errors.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}"
-PY=/usr/bin/python3
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 T="$WL_TEST_TMP"
-rm -rf "$T" && mkdir -p "$T"
 
 $PY - "$T/CLEAN.csv" <<'PYEOF'
 import math, random, sys
@@ -52,15 +49,16 @@ with open(sys.argv[1], "w") as fp:
         fp.write(f"{t:.6f},{k},{rid},{x:.6f},{y:.6f},{h:.6f},{sp:.6f},{yr:.6f},,,{seg},{st},{cut}\n")
 PYEOF
 
-LC_ALL=de_DE.UTF-8 "$WAKELINE" measure "$T/CLEAN.csv" -o "$T/SUMMARY.json" --csv "$T/runs.csv" \
-	--body-diameter-m 0.1 --commanded-period-s 0.8 > "$T/stdout"
-cat "$T/stdout"
-grep -q "^id 1 segment 1 (30.0 s): radius 0.5" "$T/stdout"
-grep -q "^id 7 segment 0 (25.0 s): straight" "$T/stdout"
-[ "$(wc -l < "$T/stdout")" -eq 2 ]
-! grep -q "[0-9],[0-9]" "$T/SUMMARY.json"
+check_exit "measure under LC_ALL=de_DE.UTF-8 succeeds" 0 env LC_ALL=de_DE.UTF-8 \
+	"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/SUMMARY.json" --csv "$T/runs.csv" \
+	--body-diameter-m 0.1 --commanded-period-s 0.8
+cp "$T/last.out" "$T/stdout"
+check_grep "the report: id 1 segment 1 (30.0 s), radius 0.5" "^id 1 segment 1 (30.0 s): radius 0.5" "$T/stdout"
+check_grep "the report: id 7 segment 0 (25.0 s), straight" "^id 7 segment 0 (25.0 s): straight" "$T/stdout"
+check_eq "the report has two lines (the headline runs)" "$(wc -l < "$T/stdout")" 2
+check_no_grep "no decimal commas in SUMMARY.json" "[0-9],[0-9]" "$T/SUMMARY.json"
 
-$PY - "$T/SUMMARY.json" "$T/runs.csv" <<'PYEOF'
+check_py "SUMMARY.json and the --csv table: keys, values, headline marks" "$T/SUMMARY.json" "$T/runs.csv" <<'PYEOF'
 import csv, json, math, sys
 d = json.load(open(sys.argv[1]))
 runs = d["runs"]
@@ -111,42 +109,26 @@ print("summary ok")
 PYEOF
 
 # errors: file and line named, exit status 1
-fail() { echo "FAIL: $*"; exit 1; }
 head -3 "$T/CLEAN.csv" > "$T/bad1.csv"
 sed -n '4p' "$T/CLEAN.csv" | sed 's/^[0-9.]*,/abc,/' >> "$T/bad1.csv"
-set +e
-"$WAKELINE" measure "$T/bad1.csv" -o "$T/x.json" 2> "$T/err1"; rc=$?
-set -e
-[ $rc -eq 1 ] || fail "bad number: exit $rc"
-grep -q "bad1.csv:4:.*t_s.*abc" "$T/err1" || fail "bad number message: $(cat "$T/err1")"
+check_exit "a bad number fails (exit 1)" 1 "$WAKELINE" measure "$T/bad1.csv" -o "$T/x.json"
+check_grep "a bad number: the message names bad1.csv line 4, t_s and abc" "bad1.csv:4:.*t_s.*abc" "$T/last.err"
 printf 't_s,id,x_m,y_m,status\n0,1,0,0,measured\n' > "$T/bad2.csv"
-set +e
-"$WAKELINE" measure "$T/bad2.csv" -o "$T/x.json" 2> "$T/err2"; rc=$?
-set -e
-[ $rc -eq 1 ] || fail "missing column: exit $rc"
-grep -q "bad2.csv:1:.*segment" "$T/err2" || fail "missing column message: $(cat "$T/err2")"
+check_exit "a missing column fails (exit 1)" 1 "$WAKELINE" measure "$T/bad2.csv" -o "$T/x.json"
+check_grep "a missing column: the message names bad2.csv line 1 and segment" "bad2.csv:1:.*segment" "$T/last.err"
 { head -1 "$T/CLEAN.csv"; sed -n '2,60p' "$T/CLEAN.csv" | grep ',1,[0-9.-]*,[0-9.-]*,' | tac; } > "$T/bad3.csv"
-set +e
-"$WAKELINE" measure "$T/bad3.csv" -o "$T/x.json" 2> "$T/err3"; rc=$?
-set -e
-[ $rc -eq 1 ] || fail "time order: exit $rc"
-grep -q "bad3.csv:3:.*not after" "$T/err3" || fail "time order message: $(cat "$T/err3")"
-[ ! -e "$T/x.json" ] || fail "output written on error"
-set +e
-"$WAKELINE" measure "$T/CLEAN.csv" 2> /dev/null; rc=$?
-set -e
-[ $rc -eq 2 ] || fail "no -o: exit $rc"
-"$WAKELINE" measure --help | grep -q "^usage: wakeline measure CLEAN.csv -o SUMMARY.json"
-set +e
-"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/y.json" --body-diameter-m -1 2> /dev/null; rc=$?
-set -e
-[ $rc -eq 2 ] || fail "negative body diameter: exit $rc"
+check_exit "times going backwards fail (exit 1)" 1 "$WAKELINE" measure "$T/bad3.csv" -o "$T/x.json"
+check_grep "times going backwards: the message names bad3.csv line 3" "bad3.csv:3:.*not after" "$T/last.err"
+check_no_file "no output is written on error" "$T/x.json"
+check_exit "no -o is a usage error (exit 2)" 2 "$WAKELINE" measure "$T/CLEAN.csv"
+check_exit "measure --help exits 0" 0 "$WAKELINE" measure --help
+check_grep "measure --help shows the usage" "^usage: wakeline measure CLEAN.csv -o SUMMARY.json" "$T/last.out"
+check_exit "a negative body diameter is a usage error (exit 2)" 2 \
+	"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/y.json" --body-diameter-m -1
 # an output that cannot be written: exit 1, the path named, no SUMMARY.json left behind
-set +e
-"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/y.json" --csv "$T/no/such/dir/runs.csv" 2> "$T/err4"; rc=$?
-set -e
-[ $rc -eq 1 ] || fail "unwritable csv: exit $rc"
-grep -q "no/such/dir/runs.csv" "$T/err4" || fail "unwritable message: $(cat "$T/err4")"
-[ ! -e "$T/y.json" ] || fail "SUMMARY.json written although --csv failed"
-[ -z "$(ls -A "$T" | grep '\.tmp-' || true)" ] || fail "temporary file left behind"
-echo ok
+check_exit "an unwritable --csv fails (exit 1)" 1 \
+	"$WAKELINE" measure "$T/CLEAN.csv" -o "$T/y.json" --csv "$T/no/such/dir/runs.csv"
+check_grep "the message names the unwritable table" "no/such/dir/runs.csv" "$T/last.err"
+check_no_file "SUMMARY.json is not written when --csv fails" "$T/y.json"
+check_eq "no temporary file is left behind" "$(ls -A "$T" | grep '\.tmp-' || true)" ""
+done_testing

@@ -3,11 +3,8 @@
 # Debian's python3-scipy (scipy.optimize.least_squares on the orthogonal
 # distances, started from numpy's Kasa fit) on a random noisy arc.  The
 # heading cells are left empty: the yaw measures must then be null.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}"
-PY=/usr/bin/python3
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 T="$WL_TEST_TMP"
-rm -rf "$T" && mkdir -p "$T"
 # three random arcs, generated and checked each in one Python run (seeds 11, 12, 13)
 $PY - "$T" <<'PYEOF'
 import sys
@@ -28,9 +25,9 @@ for seed in (11, 12, 13):
           fp.write(f"{t[i]:.6f},{i},3,{x[i]:.9f},{y[i]:.9f},,,,,,0,measured,\n")
 PYEOF
 for seed in 11 12 13; do
-	"$WAKELINE" measure "$T/CLEAN$seed.csv" -o "$T/SUMMARY$seed.json" -q
+	check_exit "measure on arc $seed succeeds" 0 "$WAKELINE" measure "$T/CLEAN$seed.csv" -o "$T/SUMMARY$seed.json" -q
 done
-$PY - "$T" <<'PYEOF'
+check_py "centre and radius within 1e-6 of scipy's geometric fit, yaw measures null (3 arcs)" "$T" <<'PYEOF'
 import csv, json, sys
 import numpy as np
 from scipy.optimize import least_squares
@@ -56,4 +53,4 @@ for seed in (11, 12, 13):
   assert run["yaw_osc_freq_hz"] is None and run["yaw_osc_amp_deg"] is None
   assert run["mean_speed_mps"] > 0
 PYEOF
-echo ok
+done_testing

@@ -6,11 +6,7 @@
 # every PNG has the PNG signature, the output is the same under a
 # decimal-comma locale, and headless Chromium loads report.html with one
 # table row per run and every image loaded (read back with --dump-dom).
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}"
-PY=/usr/bin/python3
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 
 $PY - <<'PYEOF'
 import json, math, os
@@ -49,14 +45,12 @@ json.dump({"x_col": "gain", "group_col": "shape", "body_diameter_m": 0,
           open("out/batch.json", "w"))
 PYEOF
 
-set +e
-"$WAKELINE" merge out > merge.txt 2> merge.err
-rc=$?
-set -e
-[ "$rc" -eq 1 ] || fail "merge with a failed clip exited $rc, wants 1: $(cat merge.err)"
-grep -q "5 runs from 5 clip folders, 1 failed, 1 missing" merge.txt || fail "merge said: $(cat merge.txt)"
+check_exit "merge with a failed clip exits 1" 1 "$WAKELINE" merge out
+cp last.out merge.txt
+check_grep "merge reports 5 runs, 5 clip folders, 1 failed, 1 missing" \
+	"5 runs from 5 clip folders, 1 failed, 1 missing" merge.txt
 
-$PY - <<'PYEOF' || fail "outputs"
+check_py "summary.csv rows, SVGs parse as XML, PNG signatures" <<'PYEOF'
 import csv, glob, sys
 import xml.etree.ElementTree as ET
 rows = list(csv.DictReader(open("out/summary.csv")))
@@ -82,14 +76,17 @@ PYEOF
 if locale -a 2>/dev/null | grep -qi '^de_DE\.utf-\?8$'; then
 	cp out/summary.csv summary.C.csv
 	LC_ALL=de_DE.UTF-8 "$WAKELINE" merge out > /dev/null 2>&1 || true
-	cmp summary.C.csv out/summary.csv || fail "summary.csv differs under LC_ALL=de_DE.UTF-8"
+	check "summary.csv is byte-identical under LC_ALL=de_DE.UTF-8" cmp summary.C.csv out/summary.csv
+else
+	skip_check "summary.csv is byte-identical under LC_ALL=de_DE.UTF-8" \
+		"the de_DE.UTF-8 locale is not generated (scripts/setup makes it)"
 fi
 
 # headless Chromium (Debian package chromium)
 CHROME=$(command -v chromium || command -v chromium-browser || true)
 if [ -z "$CHROME" ]; then
-	echo "SKIP (browser part): chromium is not installed (scripts/setup installs it)"
-	exit 0
+	skip_check "report.html in headless Chromium" "chromium is not installed (scripts/setup installs it)"
+	done_testing
 fi
 flags=(--headless --no-sandbox --disable-gpu --disable-background-networking --disable-component-update
 	--disable-sync --no-first-run --allow-file-access-from-files --virtual-time-budget=3000)
@@ -99,7 +96,7 @@ timeout 60 "$CHROME" "${flags[@]}" --user-data-dir="$(mktemp -d -p "$WL_TEST_TMP
 timeout 60 "$CHROME" "${flags[@]}" --user-data-dir="$(mktemp -d -p "$WL_TEST_TMP")" --window-size=1280,1800 \
 	--screenshot="$WL_TEST_TMP/report-screenshot.png" "file://$WL_TEST_TMP/out/report.html" > /dev/null 2>> chrome.err ||
 	fail "chromium --screenshot failed: $(tail -3 chrome.err)"
-$PY - <<'PYEOF' || fail "report.html in Chromium"
+check_py "report.html in Chromium: a row per run and failure, every image loaded, sorting works" <<'PYEOF'
 import re
 dom = open("dom.html").read()
 m = re.search(r'<body[^>]*data-images-total="(\d+)"[^>]*data-images-loaded="(\d+)"', dom)
@@ -128,3 +125,4 @@ assert shot == b"\x89PNG\r\n\x1a\n"
 print("chromium: %d run rows, %d failure rows, %d/%d images loaded; screenshot report-screenshot.png" %
       (runs, fails, loaded, total))
 PYEOF
+done_testing

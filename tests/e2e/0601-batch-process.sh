@@ -10,11 +10,7 @@
 # a rerun skips the done clips; a batch killed with SIGKILL in the middle
 # finishes on the rerun without redoing completed clips, and every file
 # parses; `process` on one clip gives the same summary.json runs as the batch.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
-PY=/usr/bin/python3
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 CAL_PY=$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py
 [ -f "$CAL_PY" ] || fail "tests/e2e/lib/track_cal.py (the track tests' calibration helper) is missing"
 
@@ -39,24 +35,22 @@ echo "this is not a video" > clips/broken.mp4
 printf 'clip,gain,fin\ng1.mp4,0.5,round\nday2/g2.MOV,1.0,swept\nbroken.mp4,2,round\ngone.mp4,3,round\ng3.mp4,1.5,round\ng4.mp4,2.0,swept\n' > manifest.csv
 
 # usage and manifest errors stop before anything runs
-set +e
-"$WAKELINE" batch clips --cal cal.json -o out --shard 2/2 2> usage.err; rc=$?
-[ "$rc" -eq 2 ] || fail "--shard 2/2 exited $rc, wants 2 (usage)"
+check_exit "--shard 2/2 is a usage error (exit 2)" 2 "$WAKELINE" batch clips --cal cal.json -o out --shard 2/2
 printf 'clip,gain\ng1.mp4,1\ng1.mp4,2\n' > dup.csv
-"$WAKELINE" batch clips --cal cal.json --manifest dup.csv -o out 2> dup.err; rc=$?
-[ "$rc" -eq 1 ] || fail "a manifest listing a clip twice exited $rc, wants 1"
-grep -q "dup.csv:3: clip 'g1.mp4' is listed again (first on line 2)" dup.err || fail "manifest error said: $(cat dup.err)"
-[ ! -e out/clips/g1_mp4 ] || fail "a clip ran although the manifest was bad"
+check_exit "a manifest listing a clip twice fails (exit 1)" 1 \
+	"$WAKELINE" batch clips --cal cal.json --manifest dup.csv -o out
+check_grep "the manifest error names dup.csv line 3" "dup.csv:3: clip 'g1.mp4' is listed again (first on line 2)" last.err
+check_no_file "no clip runs when the manifest is bad" out/clips/g1_mp4
 
-"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o out -j 2 --x gain --group fin > batch1.txt 2> batch1.err
-rc=$?
-set -e
-[ "$rc" -eq 1 ] || fail "batch with a bad clip exited $rc, wants 1: $(cat batch1.err)"
-grep -q "6 clips: 5 done, 0 already complete, 1 failed; 1 manifest rows name missing clips; 1 without a manifest row" batch1.txt ||
-	fail "batch said: $(cat batch1.txt)"
-grep -q "g5.mp4" batch1.err || fail "no warning for the clip without a manifest row: $(cat batch1.err)"
+check_exit "batch with a bad clip exits 1" 1 \
+	"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o out -j 2 --x gain --group fin
+cp last.out batch1.txt
+cp last.err batch1.err
+check_grep "batch: 5 done, 1 failed, 1 missing, 1 without a manifest row" \
+	"6 clips: 5 done, 0 already complete, 1 failed; 1 manifest rows name missing clips; 1 without a manifest row" batch1.txt
+check_grep "a warning names the clip without a manifest row" "g5.mp4" batch1.err
 
-$PY - <<'PYEOF' || fail "summary.csv"
+check_py "summary.csv: curvature 2.5 /m within 1 %, positive radius, failed and missing rows" <<'PYEOF'
 import csv
 rows = {r["clip"]: r for r in csv.DictReader(open("out/summary.csv"))}
 good = ("g1.mp4", "day2/g2.MOV", "g3.mp4", "g4.mp4", "g5.mp4")
@@ -77,16 +71,17 @@ assert rows["broken.mp4"]["status"] == "failed" and "broken.mp4" in rows["broken
 assert rows["gone.mp4"]["status"] == "missing" and "manifest.csv:5" in rows["gone.mp4"]["error"]
 PYEOF
 for f in raw.csv clean.csv clean.json summary.json path_m.svg path_m.png heading.svg heading.png process.log clip.json; do
-	[ -s "out/clips/day2__g2_MOV/$f" ] || fail "out/clips/day2__g2_MOV/$f missing"
+	check_file "the clip folder has $f" "out/clips/day2__g2_MOV/$f"
 done
-[ -s out/report.html ] && [ -s out/sweep_curvature.svg ] || fail "no report or sweep plot"
+check_file "the sweep has report.html" out/report.html
+check_file "the sweep has sweep_curvature.svg" out/sweep_curvature.svg
 
 # rerun: done clips are skipped, the bad one is tried again
-set +e
-"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o out -j 2 --x gain --group fin > batch2.txt 2> batch2.err
-set -e
-grep -q "6 clips: 0 done, 5 already complete, 1 failed" batch2.txt || fail "rerun said: $(cat batch2.txt)"
-[ "$(grep -c $'\tskip\t' out/journal.log)" -eq 5 ] || fail "journal has not 5 skip lines"
+check_exit "the rerun exits 1 (the bad clip fails again)" 1 \
+	"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o out -j 2 --x gain --group fin
+cp last.out batch2.txt
+check_grep "the rerun: 0 done, 5 already complete, 1 failed" "6 clips: 0 done, 5 already complete, 1 failed" batch2.txt
+check_eq "the journal has 5 skip lines" "$(grep -c $'\tskip\t' out/journal.log)" 5
 
 # SIGKILL in the middle: one worker at a time, killed once two clips are done
 rm -f clips/broken.mp4
@@ -99,13 +94,12 @@ done
 kill -9 "$bpid" 2>/dev/null || fail "the batch ended before it could be killed"
 wait "$bpid" 2>/dev/null || true
 done_before=$(ls killed/clips/*/clip.json | wc -l)
-[ "$done_before" -ge 2 ] && [ "$done_before" -lt 5 ] || fail "$done_before clips done at the kill, wants 2..4"
-set +e
-"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o killed -j 2 > batch3.txt 2> batch3.err
-set -e
-grep -q "5 clips: $((5 - done_before)) done, $done_before already complete, 0 failed" batch3.txt ||
-	fail "rerun after SIGKILL said: $(cat batch3.txt)"
-$PY - <<'PYEOF' || fail "a file in killed/ does not parse"
+check_num "at least 2 clips were done at the kill" "$done_before" ">=" 2
+check_num "fewer than 5 clips were done at the kill" "$done_before" "<" 5
+"$WAKELINE" batch clips --cal cal.json --manifest manifest.csv -o killed -j 2 > batch3.txt 2> batch3.err || true
+check_grep "the rerun after SIGKILL does only the clips left" \
+	"5 clips: $((5 - done_before)) done, $done_before already complete, 0 failed" batch3.txt
+check_py "after SIGKILL and the rerun every file in killed/ parses, 5 clips ok" <<'PYEOF'
 import csv, glob, json, os, xml.etree.ElementTree as ET
 n = 0
 for f in glob.glob("killed/**/*", recursive=True):
@@ -128,11 +122,11 @@ print("after SIGKILL and rerun: %d files parse, 5 clips ok" % n)
 PYEOF
 
 # process alone gives the same runs
-"$WAKELINE" process clips/g1.mp4 --cal cal.json -o single -q || fail "process exited $?"
-$PY - <<'PYEOF' || fail "process and batch differ"
+check_exit "process on one clip succeeds" 0 "$WAKELINE" process clips/g1.mp4 --cal cal.json -o single -q
+check_py "process gives the same curvatures as the batch" <<'PYEOF'
 import json
 a = json.load(open("single/summary.json"))["runs"]
 b = json.load(open("out/clips/g1_mp4/summary.json"))["runs"]
-assert [r["curvature_per_m"] for r in a] == [r["curvature_per_m"] for r in b], (a, b)
+assert a and [r["curvature_per_m"] for r in a] == [r["curvature_per_m"] for r in b], (a, b)
 PYEOF
-echo "ok"
+done_testing

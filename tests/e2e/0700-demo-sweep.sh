@@ -4,11 +4,10 @@
 # each clip's measured curvature with the truth of its scene.  The scenes are
 # the bundled ones, shortened to 10 s and rendered with less supersampling to
 # keep the test quick; the geometry is unchanged.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_SOURCE_DIR:?}" "${WL_TEST_TMP:?}"
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP/scenes"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+mkdir -p "$WL_TEST_TMP/scenes"
 export WAKELINE
-/usr/bin/python3 - "$WL_SOURCE_DIR/samples/demo" "$WL_TEST_TMP/scenes" <<'PY'
+"$PY" - "$WL_SOURCE_DIR/samples/demo" "$WL_TEST_TMP/scenes" <<'PY'
 import glob, json, os, shutil, sys
 src, dst = sys.argv[1:]
 for f in glob.glob(os.path.join(src, "*.json")):
@@ -20,10 +19,11 @@ for f in glob.glob(os.path.join(src, "*.json")):
 for f in ("layout.csv", "manifest.csv"):
     shutil.copy(os.path.join(src, f), dst)
 PY
-"$WL_SOURCE_DIR/scripts/demo-run" "$WL_TEST_TMP/out" "$WL_TEST_TMP/scenes" > "$WL_TEST_TMP/demo.log" 2>&1 || {
-  cat "$WL_TEST_TMP/demo.log"; echo "FAIL: the demo run failed"; exit 1; }
-grep -q "report:" "$WL_TEST_TMP/demo.log"
-/usr/bin/python3 - "$WL_TEST_TMP/out/results/summary.csv" "$WL_TEST_TMP/scenes" <<'PY'
+check_exit "scripts/demo-run succeeds" 0 "$WL_SOURCE_DIR/scripts/demo-run" "$WL_TEST_TMP/out" "$WL_TEST_TMP/scenes"
+cat last.out last.err > demo.log
+check_grep "the demo run says where the report is" "report:" demo.log
+check_py "every clip's curvature within 1 % of its scene, yaw oscillation 1 Hz 12 deg" \
+	"$WL_TEST_TMP/out/results/summary.csv" "$WL_TEST_TMP/scenes" <<'PY'
 import csv, glob, json, os, sys
 rows = list(csv.DictReader(open(sys.argv[1])))
 scenes = sorted(glob.glob(os.path.join(sys.argv[2], "run-*.json")))
@@ -53,6 +53,6 @@ for r in rows:
 sys.exit(0 if ok else 1)
 PY
 for f in report.html summary.csv sweep_curvature.svg sweep_radius.png; do
-  [ -s "$WL_TEST_TMP/out/results/$f" ] || { echo "FAIL: $f missing"; exit 1; }
+	check_file "the sweep has $f" "$WL_TEST_TMP/out/results/$f"
 done
-echo "demo sweep: every clip's curvature matches its scene"
+done_testing

@@ -13,13 +13,14 @@ asan=0
 if grep -q "^WL_SANITIZE:BOOL=ON" "${WL_BUILD_DIR:?}/CMakeCache.txt"; then asan=1; fi
 rss_max_kb=$((asan ? 1500000 : 600000))
 
-"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o end.mp4 -q # index (moov) at the end
+"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o end.mp4 -q || fail "synth exited $?" # index (moov) at the end
 ff -i end.mp4 -c copy -movflags +faststart fast.mp4                          # index first
 ff -i end.mp4 -c copy -movflags frag_keyframe+empty_moov frag.mp4            # fragmented
 nframes=45
 
 # run NAME CMD...: runs CMD bounded in time and memory; sets $rc, keeps
-# NAME.out and NAME.err.  Fails on a signal, a timeout or a large RSS.
+# NAME.out and NAME.err.  Checks that it ends by itself without a signal (a
+# timeout exits 124, a signal 128 + n) and that its peak memory stays low.
 run() {
 	local name=$1 rss
 	shift
@@ -28,18 +29,17 @@ run() {
 		[ $asan -eq 1 ] || ulimit -v 4000000
 		exec /usr/bin/time -f '%M' -o "$name.rss" timeout 60 "$@"
 	) > "$name.out" 2> "$name.err" || rc=$?
-	[ $rc -ne 124 ] || fail "$name: hangs (killed after 60 s)"
-	[ $rc -lt 125 ] || fail "$name: crashed (exit $rc): $(tail -3 "$name.err")"
+	check_num "$name: ends within 60 s without a signal (exit status $rc)" "$rc" "<" 124
 	rss=$(tail -1 "$name.rss")
-	[ "$rss" -lt $rss_max_kb ] || fail "$name: peak memory $rss KB"
-	printf '%-14s exit %d, %6d KB: %s\n' "$name" $rc "$rss" "$(grep -v '^Command exited' "$name.err" | head -1)"
+	check_num "$name: peak memory below $rss_max_kb KB" "$rss" "<" "$rss_max_kb"
+	note "$(printf '%-14s exit %d, %6d KB: %s' "$name" $rc "$rss" "$(grep -v '^Command exited' "$name.err" | head -1)")"
 }
 
 # expect_error NAME FILE PATTERN: exit 1, one error line that names FILE and matches PATTERN.
 expect_error() {
-	[ $rc -eq 1 ] || fail "$1: exit $rc, want 1"
-	grep -q "error: $2: " "$1.err" || fail "$1: the message does not name $2: $(cat "$1.err")"
-	grep -q "$3" "$1.err" || fail "$1: the message does not say '$3': $(cat "$1.err")"
+	check_eq "$1: exits 1" "$rc" 1
+	check_grep "$1: the message names $2" "error: $2: " "$1.err"
+	check_grep "$1: the message says '$3'" "$3" "$1.err"
 }
 
 # expect_partial NAME FILE MIN MAX: exit 1, MIN..MAX frames decoded (and as
@@ -47,16 +47,17 @@ expect_error() {
 # the first one named on stderr.
 expect_partial() {
 	local name=$1 f=$2 got want
-	[ $rc -eq 1 ] || fail "$name: exit $rc, want 1 (damage)"
+	check_eq "$name: exits 1 (damage)" "$rc" 1
 	got=$(sed -n 's/^frames *\([0-9]*\) decoded.*/\1/p' "$name.out")
 	want=$(ffprobe -v error -count_frames -select_streams v:0 -show_entries stream=nb_read_frames \
 		-of default=nw=1:nk=1 "$f" 2> /dev/null)
-	echo "    $got frames decoded (ffprobe reads $want), $(grep -c '^  frame' "$name.out") damage lines"
-	[ "$got" -ge "$3" ] && [ "$got" -le "$4" ] || fail "$name: $got frames, want $3..$4"
-	[ $((got - want)) -le 1 ] && [ $((want - got)) -le 1 ] || fail "$name: $got frames, ffprobe reads $want"
-	grep -Eq '^damage +[1-9][0-9]* problem' "$name.out" || fail "$name: damage not counted"
-	grep -Eq '^  frame [0-9]+ at [0-9]+\.[0-9]+ s: ' "$name.out" || fail "$name: no damage with frame and time"
-	grep -Eq "error: $f: frame [0-9]+ at [0-9.]+ s: " "$name.err" || fail "$name: stderr: $(cat "$name.err")"
+	note "    $got frames decoded (ffprobe reads $want), $(grep -c '^  frame' "$name.out") damage lines"
+	check_num "$name: at least $3 frames decoded" "$got" ">=" "$3"
+	check_num "$name: at most $4 frames decoded" "$got" "<=" "$4"
+	check_num "$name: within one frame of ffprobe's $want" "$(((got - want) * (got - want)))" "<=" 1
+	check_grep "$name: the damage is counted" -E '^damage +[1-9][0-9]* problem' "$name.out"
+	check_grep "$name: damage listed with frame and time" -E '^  frame [0-9]+ at [0-9]+\.[0-9]+ s: ' "$name.out"
+	check_grep "$name: stderr names the file, frame and time" -E "error: $f: frame [0-9]+ at [0-9.]+ s: " "$name.err"
 }
 
 size_of() { stat -c %s "$1"; }
@@ -87,12 +88,13 @@ expect_error end-cutmoov end-cutmoov.mp4 "no readable video stream: the file's i
 # 50 %, 90 %: the frames before the cut, and the damage where it is
 expect_partial fast-cut50 fast-cut50.mp4 15 30
 expect_partial fast-cut90 fast-cut90.mp4 30 $((nframes - 1))
-grep -q 'stream ends early: [0-9]* of the 45 frames listed' fast-cut50.out || fail "fast-cut50: early end not reported"
+check_grep "fast-cut50: the early end is reported" 'stream ends early: [0-9]* of the 45 frames listed' fast-cut50.out
 expect_partial frag-cut50 frag-cut50.mp4 15 30
 expect_partial frag-cut90 frag-cut90.mp4 30 $((nframes - 1))
 # frames before the cut stay usable
 run still-cut50 "$WAKELINE" still fast-cut50.mp4 --at 0.5 -o before-cut.png
-[ $rc -eq 0 ] && [ -s before-cut.png ] || fail "still before the cut: exit $rc"
+check_eq "still before the cut exits 0" "$rc" 0
+check_file "still before the cut writes the PNG" before-cut.png
 
 # 2. 200 bytes inverted in the middle of the index-first clip: decoding goes
 # on past the damage; the frames it touches are reported with their times
@@ -108,8 +110,8 @@ EOF
 # concealed frame out without its error flag, and the damage goes unseen)
 run flip "$WAKELINE" probe -q --threads 1 --frames flip.csv flip.mp4
 expect_partial flip flip.mp4 35 $nframes
-grep -Eq '^corrupt frames +[1-9]' flip.out || fail "flip: no frame flagged corrupt"
-$PY - <<'EOF' || fail "flip: frames listed after the damage"
+check_grep "flip: frames flagged corrupt" -E '^corrupt frames +[1-9]' flip.out
+check_py "flip: decoding reaches the end past the damage, times increase" <<'EOF'
 import csv
 rows = list(csv.DictReader(open("flip.csv")))
 t = [float(r["t_s"]) for r in rows]
@@ -143,8 +145,9 @@ expect_error empty empty.mp4 'the file is empty'
 ff -f lavfi -i testsrc=size=64x48 -frames:v 1 pic.png
 cp pic.png pic.mp4
 run pic "$WAKELINE" probe -q pic.mp4
-[ $rc -eq 0 ] || fail "pic.mp4: exit $rc"
-grep -q '^codec *png' pic.out && grep -q '^frames *1 decoded' pic.out || fail "pic.mp4: $(cat pic.out)"
+check_eq "pic.mp4 exits 0" "$rc" 0
+check_grep "pic.mp4 is read as codec png" '^codec *png' pic.out
+check_grep "pic.mp4 has one frame" '^frames *1 decoded' pic.out
 
 # 6. an audio stream only (MP4 made with -vn)
 ff -f lavfi -i sine=frequency=440:duration=1 -vn -c:a aac tone.mp4
@@ -177,35 +180,35 @@ run huge-mkv "$WAKELINE" probe -q huge.mkv
 expect_error huge-mkv huge.mkv 'announces frames of 20000x10000 pixels'
 # the untouched small files still read (the bound does not refuse them)
 run small-y4m "$WAKELINE" probe -q small.y4m
-[ $rc -eq 0 ] || fail "small.y4m: exit $rc: $(cat small-y4m.err)"
+check_eq "small.y4m still reads (exit 0)" "$rc" 0
 run small-mkv "$WAKELINE" probe -q small.mkv
-[ $rc -eq 0 ] || fail "small.mkv: exit $rc: $(cat small-mkv.err)"
+check_eq "small.mkv still reads (exit 0)" "$rc" 0
 
 # 8. track on the same files: frames before the damage are tracked, the
 # damage is named in a warning (exit 0: RAW.csv is usable); unreadable
 # files give one error naming the file and leave no RAW.csv.
-$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" end.scene.json cal.json 0.25
+"$PY" "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" end.scene.json cal.json 0.25 || fail "cannot build cal.json"
 run track-whole "$WAKELINE" track end.mp4 --cal cal.json -o whole.csv -q
-[ $rc -eq 0 ] || fail "track end.mp4: exit $rc: $(cat track-whole.err)"
-[ ! -s track-whole.err ] || fail "track end.mp4: a warning on a whole clip: $(cat track-whole.err)"
+check_eq "track end.mp4 exits 0" "$rc" 0
+check_eq "track end.mp4: no warning on a whole clip" "$(cat track-whole.err)" ""
 frames_in() { cut -d, -f2 "$1" | tail -n +2 | sort -u | wc -l; }
-[ "$(frames_in whole.csv)" -eq $nframes ] || fail "track end.mp4: $(frames_in whole.csv) frames"
+check_eq "track end.mp4: every frame in RAW.csv" "$(frames_in whole.csv)" $nframes
 for f in fast-cut50 fast-cut90 frag-cut50 flip; do
 	run track-$f "$WAKELINE" track $f.mp4 --threads 1 --cal cal.json -o $f.raw.csv -q
-	[ $rc -eq 0 ] || fail "track $f.mp4: exit $rc: $(cat track-$f.err)"
-	grep -Eq "warning: $f.mp4: damaged clip: [0-9]+ problems?, the first at frame -?[0-9]+, [0-9.?]+ s: " track-$f.err ||
-		fail "track $f.mp4: damage not reported: $(cat track-$f.err)"
+	check_eq "track $f.mp4 exits 0 (RAW.csv is usable)" "$rc" 0
+	check_grep "track $f.mp4: a warning names the damage" \
+		-E "warning: $f.mp4: damaged clip: [0-9]+ problems?, the first at frame -?[0-9]+, [0-9.?]+ s: " track-$f.err
 	want=$(sed -n 's/^frames *\([0-9]*\) decoded.*/\1/p' $f.out)
 	got=$(frames_in $f.raw.csv)
-	echo "    track $f.mp4: $got frames in RAW.csv, probe decodes $want"
-	[ "$got" -le "$want" ] && [ "$got" -ge $((want - 2)) ] || fail "track $f.mp4: $got frames, probe decodes $want"
+	check_num "track $f.mp4: at most the $want frames probe decodes" "$got" "<=" "$want"
+	check_num "track $f.mp4: at least $((want - 2)) frames" "$got" ">=" $((want - 2))
 done
 for f in end-cut50.mp4 nomoov.mp4 empty.mp4 tone.mp4 huge.y4m huge.mkv; do
 	n=track-${f%.*}-${f##*.}
 	run $n "$WAKELINE" track $f --cal cal.json -o $n.csv -q
 	expect_error $n $f .
-	[ ! -e $n.csv ] || fail "track $f: wrote $n.csv"
+	check_no_file "track $f writes no RAW.csv" $n.csv
 done
 run track-pic "$WAKELINE" track pic.mp4 --cal cal.json -o pic.raw.csv -q
 expect_error track-pic cal.json 'calibrated for 480x360 coded pixels but the clip gives 64x48'
-echo "0800-probe-hostile-video: ok"
+done_testing

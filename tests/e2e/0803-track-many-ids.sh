@@ -17,22 +17,21 @@ s["markers"] = [{"id": i * 8 + j, "center_m": [0.25 + i * 0.27, 0.15 + j * 0.19]
 s["robots"][0].update({"diameter_m": 0.12, "marker": {"type": "tag", "tag_id": 100, "size_m": 0.09}})
 json.dump(s, open("many.json", "w"), indent=1)
 PYEOF
-"$WAKELINE" synth many.json -o many.mp4 -q
-$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" many.scene.json cal.json 0.25
+"$WAKELINE" synth many.json -o many.mp4 -q || fail "synth exited $?"
+"$PY" "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" many.scene.json cal.json 0.25 || fail "cannot build cal.json"
 
-"$WAKELINE" track many.mp4 --cal cal.json -o all.csv -q 2> all.err || fail "track: exit $?: $(cat all.err)"
-cat all.err
-grep -q 'warning: many.mp4: more than 64 tag ids seen: [1-9][0-9]* detections of new ids (the first id 100) were left out' all.err ||
-	fail "no warning about the ids left out: $(cat all.err)"
-n=$(tail -n +2 all.csv | cut -d, -f3 | sort -u | wc -l)
-[ "$n" -eq 64 ] || fail "$n ids in all.csv, want 64"
-! cut -d, -f3 all.csv | grep -qx 100 || fail "id 100 tracked beyond the bound"
+check_exit "track with more ids than the bound succeeds" 0 "$WAKELINE" track many.mp4 --cal cal.json -o all.csv -q
+check_grep "a warning names the clip, the bound and the first id left out" \
+	'warning: many.mp4: more than 64 tag ids seen: [1-9][0-9]* detections of new ids (the first id 100) were left out' last.err
+check_eq "all.csv holds 64 ids" "$(tail -n +2 all.csv | cut -d, -f3 | sort -u | wc -l)" 64
+cut -d, -f3 all.csv > all.ids
+check_no_grep "id 100 is not tracked beyond the bound" -x 100 all.ids
 
-"$WAKELINE" track many.mp4 --cal cal.json --ids 100 -o one.csv -q 2> one.err || fail "track --ids 100: exit $?"
-[ ! -s one.err ] || fail "track --ids 100: $(cat one.err)"
-[ "$(grep -c '^[0-9.]*,[0-9]*,100,.*,ok,' one.csv)" -eq 5 ] || fail "robot 100 not tracked in all 5 frames: $(cat one.csv)"
+check_exit "track --ids 100 succeeds" 0 "$WAKELINE" track many.mp4 --cal cal.json --ids 100 -o one.csv -q
+check_eq "track --ids 100 says nothing" "$(cat last.err)" ""
+check_eq "robot 100 is tracked in all 5 frames" "$(grep -c '^[0-9.]*,[0-9]*,100,.*,ok,' one.csv)" 5
 
-rc=0
-"$WAKELINE" track many.mp4 --cal cal.json --ids "$(seq -s, 0 64)" -o x.csv -q 2> x.err || rc=$?
-[ $rc -eq 2 ] && grep -q "more than 64 robots" x.err && [ ! -e x.csv ] || fail "65 ids: exit $rc: $(cat x.err)"
-echo "0803-track-many-ids: ok"
+check_exit "65 ids are a usage error (exit 2)" 2 "$WAKELINE" track many.mp4 --cal cal.json --ids "$(seq -s, 0 64)" -o x.csv -q
+check_grep "the message names the bound" "more than 64 robots" last.err
+check_no_file "no RAW.csv for 65 ids" x.csv
+done_testing

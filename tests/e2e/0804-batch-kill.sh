@@ -7,20 +7,16 @@
 # temporary file parses (JSON, CSV with equal-length rows, PNG/SVG/HTML
 # headers).  A last run must finish with exit 0 and every clip done, and the
 # summary must equal an uninterrupted run's (same clips, same curvature).
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
-PY=/usr/bin/python3
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
-"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o clip.mp4 -q
-$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" clip.scene.json cal.json 0.25
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o clip.mp4 -q || fail "synth exited $?"
+"$PY" "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" clip.scene.json cal.json 0.25
 mkdir -p clips
 for n in a b c; do cp clip.mp4 clips/$n.mp4; done
 
 t0=$(date +%s%N)
 "$WAKELINE" batch clips --cal cal.json -o ref -j 1 -q > ref.out 2> ref.err || fail "reference batch: exit $?: $(cat ref.err)"
 run_ms=$((($(date +%s%N) - t0) / 1000000))
-echo "uninterrupted run: $run_ms ms"
+note "uninterrupted run: $run_ms ms"
 
 # parses_all DIR: every non-temporary file in DIR parses
 parses_all() {
@@ -67,12 +63,11 @@ for trial in $(seq 1 20); do
 	sleep "$(printf '%d.%03d' $((delay_ms / 1000)) $((delay_ms % 1000)))"
 	kill -KILL -- -$pid 2> /dev/null || true
 	wait $pid 2> /dev/null || true
-	parses_all out || fail "trial $trial (killed after $delay_ms ms): a file in OUTDIR does not parse"
+	check "trial $trial (killed after $delay_ms ms): every file in OUTDIR parses" parses_all out
 done
-echo "20 kills: every file in OUTDIR parsed after each"
-"$WAKELINE" batch clips --cal cal.json -o out -j 2 -q > last.out 2> last.err || fail "last run: exit $?: $(cat last.err)"
-parses_all out || fail "after the last run"
-$PY - <<'PYEOF' || fail "summary differs from the uninterrupted run"
+check_exit "the last run completes (exit 0)" 0 "$WAKELINE" batch clips --cal cal.json -o out -j 2 -q
+check "after the last run every file in OUTDIR parses" parses_all out
+check_py "the summary equals the uninterrupted run's" <<'PYEOF'
 import csv
 def rows(p):
     return sorted((r["clip"], r.get("status", ""), r.get("curvature_per_m", "")) for r in csv.DictReader(open(p)))
@@ -81,5 +76,5 @@ print(len(a), "rows;", a[:1])
 assert a == b, (a, b)
 PYEOF
 left=$(find out -name '.*tmp*' | wc -l)
-echo "temporary files left by the kills after the last run: $left"
-echo "0804-batch-kill: ok"
+note "temporary files left by the kills after the last run: $left"
+done_testing

@@ -1,25 +1,23 @@
 #!/usr/bin/env bash
 # Nothing lost when the disk fills during a batch.  OUTDIR is a small tmpfs
-# (root only: skipped with a message otherwise) that holds the outputs of
+# (root only: skipped otherwise, exit 77) that holds the outputs of
 # about one of three clips.  The batch must fail with exit 1 and say that
 # there is no space left, naming a file; every file then in OUTDIR parses and
 # no temporary file is left.  After the tmpfs is made larger, the same batch
 # command completes every clip, skipping the ones that were complete, and its
 # summary matches a batch on an ordinary disk.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
-PY=/usr/bin/python3
+# a tmpfs left mounted by an earlier run goes before the harness empties the folder
+if mountpoint -q "${WL_TEST_TMP:?}/disk" 2> /dev/null; then umount "$WL_TEST_TMP/disk"; fi
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 mnt=
-cleanup() { [ -n "$mnt" ] && umount "$mnt" 2>/dev/null || true; }
-trap cleanup EXIT
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
-if [ "$(id -u)" -ne 0 ]; then echo "skipped: mounting a tmpfs needs root"; exit 0; fi
+cleanup() { if [ -n "$mnt" ]; then umount "$mnt" 2> /dev/null || true; fi; }
+at_exit cleanup
+[ "$(id -u)" -eq 0 ] || skip_all "mounting a tmpfs needs root (tests/e2e/0806-io-fault-injection.sh covers write failures without root)"
 mkdir -p disk
-if ! mount -t tmpfs -o size=64k tmpfs disk 2>/dev/null; then echo "skipped: mount is not permitted here"; exit 0; fi
+mount -t tmpfs -o size=64k tmpfs disk 2> /dev/null || skip_all "mount is not permitted here"
 mnt=$PWD/disk
-"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o clip.mp4 -q
-$PY "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" clip.scene.json cal.json 0.25
+"$WAKELINE" synth "$WL_SOURCE_DIR/tests/data/tiny-scene.json" -o clip.mp4 -q || fail "synth exited $?"
+"$PY" "$WL_SOURCE_DIR/tests/e2e/lib/track_cal.py" clip.scene.json cal.json 0.25
 mkdir -p clips
 for n in a b c; do cp clip.mp4 clips/$n.mp4; done
 "$WAKELINE" batch clips --cal cal.json -o ref -j 1 -q > /dev/null 2> ref.err || fail "reference batch: $(cat ref.err)"
@@ -28,13 +26,11 @@ need_k=$(du -sk ref | cut -f1)
 umount disk; mnt=
 mount -t tmpfs -o size=$(( need_k / 3 + 8 ))k tmpfs disk; mnt=$PWD/disk
 
-set +e
-"$WAKELINE" batch clips --cal cal.json -o disk/out -j 1 -q > full.out 2> full.err; rc=$?
-set -e
-[ "$rc" -eq 1 ] || fail "batch on a full disk exited $rc, wants 1: $(cat full.err)"
-grep -qi "no space left on device" full.err disk/out/summary.csv disk/out/clips/*/process.log 2>/dev/null ||
-	fail "no 'no space left' message: $(cat full.err)"
-$PY - disk/out <<'PYEOF' || fail "a file on the full disk is cut or a temporary is left"
+check_exit "batch on a full disk exits 1" 1 "$WAKELINE" batch clips --cal cal.json -o disk/out -j 1 -q
+cp last.err full.err
+check "a message says 'no space left on device'" \
+	grep -qi "no space left on device" full.err disk/out/summary.csv disk/out/clips/*/process.log
+check_py "every file on the full disk is whole, no temporary is left" disk/out <<'PYEOF'
 import csv, json, os, sys
 n = 0
 for root, dirs, files in os.walk(sys.argv[1]):
@@ -58,13 +54,14 @@ PYEOF
 done_before=$(ls disk/out/clips/*/clip.json 2>/dev/null | xargs -r grep -l '"status":[[:space:]]*"ok"' | wc -l)
 
 mount -o remount,size=$(( need_k * 2 + 256 ))k disk
-"$WAKELINE" batch clips --cal cal.json -o disk/out -j 1 > again.out 2> again.err || fail "rerun exited $?: $(cat again.err)"
-grep -q "3 clips: $((3 - done_before)) done, $done_before already complete, 0 failed" again.out ||
-	fail "rerun said: $(cat again.out)"
-$PY - ref/summary.csv disk/out/summary.csv <<'PYEOF' || fail "summary differs from the ordinary-disk run"
+check_exit "the rerun with more space succeeds" 0 "$WAKELINE" batch clips --cal cal.json -o disk/out -j 1
+check_grep "the rerun does only the clips left" \
+	"3 clips: $((3 - done_before)) done, $done_before already complete, 0 failed" last.out
+check_py "the summary equals the ordinary-disk run's" ref/summary.csv disk/out/summary.csv <<'PYEOF'
 import csv, sys
 a, b = (sorted((r["clip"], r["status"], r["curvature_per_m"]) for r in csv.DictReader(open(f))) for f in sys.argv[1:])
 assert a == b, (a, b)
 print("after more space: %d summary rows, the same as on an ordinary disk" % len(b))
 PYEOF
-echo "ok ($done_before of 3 clips were complete when the disk was full)"
+note "$done_before of 3 clips were complete when the disk was full"
+done_testing

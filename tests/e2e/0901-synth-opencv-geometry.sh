@@ -6,21 +6,17 @@
 # detected quad's diagonals) are compared with the truth projected by
 # cv2.projectPoints from the camera model written in CLIP.scene.json
 # (K, distortion, R, t): OpenCV's projection, not ours.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_SOURCE_DIR:?}" "${WL_TEST_TMP:?}"
-rm -rf "$WL_TEST_TMP"; mkdir -p "$WL_TEST_TMP"; cd "$WL_TEST_TMP"
-fail() { echo "FAIL: $*" >&2; exit 1; }
-py=/usr/bin/python3
-$py -c "import cv2, numpy" 2>/dev/null || fail "Debian python3-opencv is needed"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
+"$PY" -c "import cv2, numpy" 2>/dev/null || fail "Debian python3-opencv is needed"
 
 # the demo scene, 0.5 s, no noise (a noiseless still for a clean comparison)
 sed -e 's/"duration_s": 20/"duration_s": 0.5/' -e 's/"noise_sigma": 2.0/"noise_sigma": 0/' \
 	"$WL_SOURCE_DIR/samples/scenes/demo-arc.json" > scene.json
-"$WAKELINE" synth -q scene.json -o clip.mp4
-"$WAKELINE" synth -q scene.json --image f0.png --frame 0
-[ -s f0.png ] || fail "no PNG written"
+check_exit "synth the clip succeeds" 0 "$WAKELINE" synth -q scene.json -o clip.mp4
+check_exit "synth --image succeeds" 0 "$WAKELINE" synth -q scene.json --image f0.png --frame 0
+check_file "synth --image writes the PNG" f0.png
 
-$py - f0.png clip.scene.json clip.truth.csv <<'PY'
+check_py "OpenCV's detector finds the tags within 0.5 px of cv2.projectPoints' truth" f0.png clip.scene.json clip.truth.csv <<'PY'
 import csv, json, sys
 import numpy as np, cv2
 png, scene, truth = sys.argv[1:4]
@@ -62,4 +58,4 @@ assert len(found) >= 5, "too few tags detected"
 # edges accounts for the ~0.2 px seen
 assert worst <= 0.5, "centre error %.3f px > 0.5 px" % worst
 PY
-echo ok
+done_testing

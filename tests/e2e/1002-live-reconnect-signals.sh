@@ -40,12 +40,11 @@ rc=0
 wait "$LIVE_PID" || rc=$?
 touch live-ended
 wait "$CLIENT_PID" || fail "the test client failed"
-cat rc.err rc.out
-[ "$rc" -eq 0 ] || fail "live --reconnect exited $rc on SIGINT"
-grep -q "wakeline live: stopped" rc.err || fail "no 'stopped' message"
-grep -q "1 reconnects" rc.out || fail "the summary does not count the reconnection"
+check_eq "live --reconnect exits 0 on SIGINT" "$rc" 0
+check_grep "reconnect: 'stopped' is said" "wakeline live: stopped" rc.err
+check_grep "the summary counts the reconnection" "1 reconnects" rc.out
 whole_lines rc.csv 12
-$PY - <<'PY' || fail "RAW.csv across the reconnection is not one run"
+check_py "RAW.csv across the reconnection is one run: frames and times increasing" <<'PY'
 import csv
 rows = list(csv.DictReader(open("rc.csv")))
 for i in ("3", "7"):
@@ -58,7 +57,7 @@ for i in ("3", "7"):
     assert max(fr) >= 230, max(fr)
 print("reconnect: %d rows, frames and times increasing across the gap" % len(rows))
 PY
-$PY - <<'PY' || fail "the packets across the reconnection are not one sequence"
+check_py "the packets across the reconnection are one session, seq without a gap" <<'PY'
 import csv
 p = [r for r in csv.DictReader(open("poses.csv")) if r["kind"] == "json"]
 assert len({r["session"] for r in p}) == 1, "more than one session"
@@ -66,7 +65,7 @@ assert [int(r["seq"]) for r in p] == list(range(len(p))), "seq not 0, 1, 2, ..."
 assert len(p) >= 460, len(p)
 print("reconnect: %d packets, one session, seq without a gap" % len(p))
 PY
-"$WAKELINE" clean rc.csv -o rc.clean.csv --quiet || fail "clean does not take the RAW.csv across a reconnection"
+check_exit "clean takes the RAW.csv across a reconnection" 0 "$WAKELINE" clean rc.csv -o rc.clean.csv --quiet
 
 # --- SIGINT in mid-stream
 start_live int --cal clip.cal.json --timeout-s 5 --raw int.csv
@@ -78,11 +77,10 @@ rc=0
 wait "$LIVE_PID" || rc=$?
 kill "$FF" 2>/dev/null || true
 wait "$FF" 2>/dev/null || true
-cat int.err int.out
-[ "$rc" -eq 0 ] || fail "live exited $rc on SIGINT"
-grep -q "wakeline live: stopped" int.err || fail "no 'stopped' message"
+check_eq "SIGINT in mid-stream: live exits 0" "$rc" 0
+check_grep "SIGINT: 'stopped' is said" "wakeline live: stopped" int.err
 whole_lines int.csv 12
-"$WAKELINE" clean int.csv -o int.clean.csv --quiet || fail "clean does not take the RAW.csv of an interrupted run"
+check_exit "clean takes the RAW.csv of an interrupted run" 0 "$WAKELINE" clean int.csv -o int.clean.csv --quiet
 
 # --- SIGKILL at two points
 for at in 20 150; do
@@ -95,8 +93,8 @@ for at in 20 150; do
 	kill "$FF" 2>/dev/null || true
 	wait "$FF" 2>/dev/null || true
 	whole_lines "kill$at.csv" 12
-	echo "SIGKILL after $at rows or more: $(($(wc -l < "kill$at.csv") - 1)) whole rows"
-	"$WAKELINE" clean "kill$at.csv" -o "kill$at.clean.csv" --quiet ||
-		fail "clean does not take the RAW.csv of a killed run"
+	note "SIGKILL after $at rows or more: $(($(wc -l < "kill$at.csv") - 1)) whole rows"
+	check_exit "clean takes the RAW.csv of a run killed after $at rows" 0 \
+		"$WAKELINE" clean "kill$at.csv" -o "kill$at.clean.csv" --quiet
 done
-echo "ok"
+done_testing

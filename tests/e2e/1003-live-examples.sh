@@ -26,14 +26,18 @@ R3=$!
 for p in "$p1" "$p2" "$p3"; do
 	for k in $(seq 100); do ss -Hlun "sport = :$p" | grep -q . && break; sleep 0.1; done
 done
-"$WAKELINE" live clip.mp4 --realtime --cal clip.cal.json --max-delay-ms 1000 --max-lag-ms 5000 -q \
+check_exit "live with three publish targets succeeds" 0 \
+	"$WAKELINE" live clip.mp4 --realtime --cal clip.cal.json --max-delay-ms 1000 --max-lag-ms 5000 -q \
 	--publish "udp://127.0.0.1:$p1?format=binary" --publish "udp://127.0.0.1:$p2" \
-	--publish "udp://127.0.0.1:$p3?format=binary" || fail "live exited $?"
-wait "$R1" || { cat recv.err; fail "live_receive.py failed"; }
-wait "$R2" || { cat wd.err; fail "live_watchdog.py failed"; }
-wait "$R3" || { cat c.err; fail "live_receive.c failed"; }
+	--publish "udp://127.0.0.1:$p3?format=binary"
+rc=0; wait "$R1" || rc=$?
+check_eq "live_receive.py exits 0 ($(head -c 200 recv.err))" "$rc" 0
+rc=0; wait "$R2" || rc=$?
+check_eq "live_watchdog.py exits 0 ($(head -c 200 wd.err))" "$rc" 0
+rc=0; wait "$R3" || rc=$?
+check_eq "live_receive.c exits 0 ($(head -c 200 c.err))" "$rc" 0
 
-$PY - <<'PY' || fail "live_receive.py's poses differ from offline"
+check_py "live_receive.py: 240 poses equal to offline within float32 precision" <<'PY'
 import csv
 off = {(int(r["frame"]), int(r["id"])): r for r in csv.DictReader(open("offline.csv"))}
 got = list(csv.DictReader(open("recv.csv")))
@@ -47,11 +51,11 @@ for r in got:
 assert worst < 2e-6, worst   # float32 and 6 decimals
 print("live_receive.py: %d poses, largest difference %.2e m" % (len(got), worst))
 PY
-grep -q "^DRIVE " wd.txt || fail "the watchdog never drove"
-grep -Eq "^STOP no pose for [0-9]+ ms" wd.txt || { cat wd.txt; fail "the watchdog did not stop when the poses stopped"; }
-[ "$(grep -c '^STOP' wd.txt)" -eq 1 ] || { cat wd.txt; fail "the watchdog stopped more than once"; }
-awk '/^STOP/ { s = 1 } /^DRIVE/ && s { exit 1 }' wd.txt || fail "the watchdog drove after stopping"
-echo "watchdog: $(grep -c '^DRIVE' wd.txt) drive commands, then: $(grep '^STOP' wd.txt)"
-[ "$(grep -c '^POSE ' c.txt)" -eq 120 ] || fail "live_receive.c printed $(grep -c '^POSE ' c.txt) poses of robot 7, not 120"
-tail -1 c.txt | grep -q "^STOP" || fail "live_receive.c did not stop"
-echo "ok"
+check_grep "the watchdog drives while poses come" "^DRIVE " wd.txt
+check_grep "the watchdog stops when the poses stop" -E "^STOP no pose for [0-9]+ ms" wd.txt
+check_eq "the watchdog stops once" "$(grep -c '^STOP' wd.txt)" 1
+check "the watchdog does not drive after stopping" awk '/^STOP/ { s = 1 } /^DRIVE/ && s { exit 1 }' wd.txt
+note "watchdog: $(grep -c '^DRIVE' wd.txt) drive commands, then: $(grep '^STOP' wd.txt)"
+check_eq "live_receive.c prints robot 7's 120 poses" "$(grep -c '^POSE ' c.txt)" 120
+check_eq "live_receive.c ends with a STOP" "$(tail -1 c.txt | cut -c1-4)" STOP
+done_testing

@@ -9,10 +9,9 @@
 # Every frame's message arrives, seq 0, 1, 2, ..., positions equal offline
 # track within 0.1 mm.
 source "$WL_SOURCE_DIR/tests/e2e/lib/live.bash"
-skip() { echo "skipped: $*"; exit 77; }
-"$WAKELINE" live x --cal x --lcm 2>&1 | grep -q "no LCM" && skip "this build has no LCM"
-command -v lcm-logger >/dev/null || skip "lcm-logger (liblcm-bin) is not installed"
-command -v lcm-gen >/dev/null || skip "lcm-gen (liblcm-bin) is not installed"
+if "$WAKELINE" live x --cal x --lcm 2>&1 | grep -q "no LCM"; then skip_all "this build has no LCM (liblcm-dev)"; fi
+command -v lcm-logger >/dev/null || skip_all "lcm-logger (liblcm-bin) is not installed"
+command -v lcm-gen >/dev/null || skip_all "lcm-gen (liblcm-bin) is not installed"
 need_synth
 live_scene clip 30 4
 "$WAKELINE" track clip.mp4 --cal clip.cal.json -o offline.csv --quiet || fail "track exited $?"
@@ -23,14 +22,15 @@ port=$(free_udp_port)
 url="udpm://239.255.76.67:$port?ttl=0"
 lcm-logger --lcm-url="$url" -f bus.lcm >logger.out 2>&1 &
 LG=$!
-wait_bound "$LG" "$port" || { cat logger.out; skip "lcm-logger cannot listen on $url (no multicast here?)"; }
-"$WAKELINE" live clip.mp4 --realtime --cal clip.cal.json --max-delay-ms 1000 --max-lag-ms 5000 -q \
-	--lcm-url "$url" --lcm-channel WL_TEST_POSE || fail "live exited $?"
+wait_bound "$LG" "$port" || skip_all "lcm-logger cannot listen on $url (no multicast here?): $(head -c 200 logger.out)"
+check_exit "live publishing on LCM succeeds" 0 \
+	"$WAKELINE" live clip.mp4 --realtime --cal clip.cal.json --max-delay-ms 1000 --max-lag-ms 5000 -q \
+	--lcm-url "$url" --lcm-channel WL_TEST_POSE
 sleep 0.5
 kill -INT "$LG"
 wait "$LG" || true
 
-$PY - <<'PY' || fail "the LCM messages do not match offline tracking"
+check_py "every frame's LCM message arrives in order, equal to offline within 0.1 mm" <<'PY'
 import csv, math, struct, sys
 sys.path.insert(0, "py")
 from wakeline import pose_t
@@ -57,4 +57,4 @@ for m in msgs:
 assert worst <= 0.1, worst
 print("LCM: %d messages, largest position difference from offline %.4f mm" % (len(msgs), worst))
 PY
-echo "ok"
+done_testing

@@ -9,19 +9,19 @@ source "$WL_SOURCE_DIR/tests/e2e/lib/live.bash"
 need_synth
 live_scene clip 30 1
 
-"$WAKELINE" live --help > help.txt || fail "--help exited $?"
+check_exit "live --help exits 0" 0 "$WAKELINE" live --help
+cp last.out help.txt
 for o in --publish --packet --lcm --raw --record --realtime --reconnect --timeout-s --max-delay-ms \
 	--video-size --pixel-format --q-pos --ids; do
-	grep -q -- "$o" help.txt || fail "--help does not mention $o"
+	check_grep "--help mentions $o" -- "$o" help.txt
 done
 
 # expect STATUS TEXT ARGS...: wakeline live ARGS exits STATUS with TEXT on stderr
 expect() {
-	local want=$1 text=$2 rc=0
+	local want=$1 text=$2
 	shift 2
-	"$WAKELINE" live "$@" > out.txt 2> err.txt || rc=$?
-	[ "$rc" -eq "$want" ] || { cat err.txt; fail "live $* exited $rc, not $want"; }
-	grep -q -- "$text" err.txt || { cat err.txt; fail "live $*: no '$text' in the message"; }
+	check_exit "live $*: exit $want" "$want" "$WAKELINE" live "$@"
+	check_grep "live $*: the message says '$text'" -- "$text" last.err
 }
 expect 2 "give the SOURCE" --cal clip.cal.json --raw r.csv
 expect 2 "give the calibration" clip.mp4 --raw r.csv
@@ -33,15 +33,15 @@ expect 1 "/dev/video93" /dev/video93 --cal clip.cal.json --raw r.csv --wait-s 1
 expect 1 "nosuchformat" clip.mp4 --source-format nosuchformat --cal clip.cal.json --raw r.csv
 expect 1 "udp://127.0.0.1:99999" clip.mp4 --cal clip.cal.json --publish udp://127.0.0.1:99999
 expect 1 "nosuch.json" clip.mp4 --cal nosuch.json --raw r.csv
-[ ! -e r.csv ] || fail "a run that never opened its source left r.csv"
+check_no_file "a run that never opened its source leaves no r.csv" r.csv
 # a file without --realtime is read as fast as it decodes: said so
-"$WAKELINE" live clip.mp4 --cal clip.cal.json --raw fast.csv -q 2> fast.err || fail "live on a file exited $?"
-grep -q "warning: clip.mp4 is a file: .*--realtime" fast.err || { cat fast.err; fail "no warning for a file without --realtime"; }
+check_exit "live on a file without --realtime succeeds" 0 "$WAKELINE" live clip.mp4 --cal clip.cal.json --raw fast.csv -q
+check_grep "a file without --realtime is warned about" "warning: clip.mp4 is a file: .*--realtime" last.err
 echo "keep me" > exists.csv
 expect 1 "overwrite" clip.mp4 --cal clip.cal.json --raw exists.csv
-[ "$(cat exists.csv)" = "keep me" ] || fail "an existing RAW.csv was changed without --overwrite"
-"$WAKELINE" live clip.mp4 --realtime --max-delay-ms 1000 --cal clip.cal.json --raw exists.csv --overwrite -q ||
-	fail "--overwrite exited $?"
+check_eq "an existing RAW.csv is left as it was without --overwrite" "$(cat exists.csv)" "keep me"
+check_exit "--overwrite succeeds" 0 \
+	"$WAKELINE" live clip.mp4 --realtime --max-delay-ms 1000 --cal clip.cal.json --raw exists.csv --overwrite -q
 whole_lines exists.csv 12
-[ "$(($(wc -l < exists.csv) - 1))" -eq 60 ] || fail "exists.csv does not hold the clip's 30 frames of 2 robots"
-echo "ok"
+check_eq "exists.csv holds the clip's 30 frames of 2 robots" "$(($(wc -l < exists.csv) - 1))" 60
+done_testing

@@ -25,11 +25,12 @@ CSV
 "$WAKELINE" track caps.mp4 --cal cal.json -o offline.csv --mode colour --robots robots.csv --quiet ||
 	fail "track exited $?"
 start_client poses.csv --idle 2
-"$WAKELINE" live caps.mp4 --realtime --max-delay-ms 1000 --max-lag-ms 5000 --cal cal.json --raw live.csv \
-	--mode colour --robots robots.csv --publish "udp://127.0.0.1:$JPORT" -q || fail "live exited $?"
+check_exit "live --mode colour succeeds" 0 \
+	"$WAKELINE" live caps.mp4 --realtime --max-delay-ms 1000 --max-lag-ms 5000 --cal cal.json --raw live.csv \
+	--mode colour --robots robots.csv --publish "udp://127.0.0.1:$JPORT" -q
 wait "$CLIENT_PID" || fail "the test client failed"
-$PY "$LIB/live_check.py" offline.csv - --raw-only live.csv --min-rows 60 || fail "colour mode live differs from offline"
-$PY - <<'PY' || fail "the packets lack the caps' heading"
+check "colour mode live gives offline's rows (0.1 mm)" "$PY" "$LIB/live_check.py" offline.csv - --raw-only live.csv --min-rows 60
+check_py "the packets carry the caps' heading (within 3 degrees of 20)" <<'PY'
 import csv, math
 p = [r for r in csv.DictReader(open("poses.csv")) if r["status"] == "ok"]
 assert len(p) >= 58, len(p)
@@ -37,4 +38,4 @@ err = max(abs(math.remainder(float(r["heading_rad"]) - math.radians(20), 2 * mat
 assert err < math.radians(3), math.degrees(err)  # heading from back cap to front cap: 20 degrees
 print("colour: %d packets, heading within %.2f degrees of the scene's 20" % (len(p), math.degrees(err)))
 PY
-echo "ok"
+done_testing

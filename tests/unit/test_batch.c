@@ -223,8 +223,7 @@ static wl_status fake_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	for (i = 0; i < 5; i++) {
 		if (strncmp(content, "SLOW", 4) == 0)
 			usleep(80000);
-		if (job->progress)
-			job->progress(job->progress_ctx, (long)(i + 1) * 100, 500);
+		wl_diag_progress(job->diag, "track", (double)(i + 1) * 100, 500, NAN);
 	}
 	free(content);
 	if ((s = put(job->out_dir, "raw.csv",
@@ -245,7 +244,9 @@ static wl_status fake_clip(const wl_batch_job *job, void *ctx, wl_err *err)
 	}
 	fclose(fp);
 	snprintf(buf, sizeof buf,
-	         "{\"format\":\"wakeline summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_per_m\":%"
+	         "{\"format\":\"wakeline "
+	         "summary\",\"runs\":[{\"id\":1,\"segment\":0,\"headline\":true,\"radius_m\":0.5,\"curvature_"
+	         "per_m\":%"
 	         "s,"
 	         "\"curvature_ci95_per_m\":[1.9,2.1],\"straight\":false,\"centre_x_m\":0,\"centre_y_m\":0}]}"
 	         "\n",
@@ -278,6 +279,14 @@ typedef struct {
 	char last_fail[600];
 } evcount;
 
+static void on_warn(void *ctx, const char *stage, const char *msg)
+{
+	evcount *c = ctx;
+	(void)msg;
+	assert_string_equal(stage, "batch");
+	c->warns++;
+}
+
 static void on_ev(const wl_batch_event *ev, void *ctx)
 {
 	evcount *c = ctx;
@@ -287,7 +296,6 @@ static void on_ev(const wl_batch_event *ev, void *ctx)
 	}
 	c->dones += ev->kind == WL_BATCH_EV_DONE;
 	c->skips += ev->kind == WL_BATCH_EV_SKIP;
-	c->warns += ev->kind == WL_BATCH_EV_WARN;
 	assert_true(ev->finished <= ev->total);
 }
 
@@ -364,6 +372,7 @@ static void test_run_resume_and_failures(void **state)
 	memset(&ev, 0, sizeof ev);
 	o.on_event = on_ev;
 	o.ev_ctx = &ev;
+	o.diag = &(wl_diag){on_warn, NULL, &ev};
 	o.sweep.x_col = "gain";
 	assert_int_equal(wl_batch_run(&o, &res, &err), WL_OK);
 	assert_int_equal(res.clips, 5);

@@ -12,6 +12,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <fcntl.h>
 #include <unistd.h>
 #include <dirent.h>
 
@@ -164,6 +165,54 @@ static void atomic_file_commit_and_abort(void **state)
 	rmdir(dir);
 }
 
+/* wl_afile_sync: the data reaches the disk but the target keeps its previous
+ * content until commit; a sync that fails (the descriptor replaced by
+ * /dev/full: ENOSPC at the flush) removes the temporary, names the target
+ * and leaves it as it was. */
+static void atomic_file_sync(void **state)
+{
+	char dir[] = "/tmp/wl-core-XXXXXX", path[256], *back = NULL;
+	wl_afile *af;
+	wl_err err = {0};
+	int full;
+	(void)state;
+	assert_non_null(mkdtemp(dir));
+	snprintf(path, sizeof path, "%s/out.csv", dir);
+	assert_int_equal(wl_write_file_atomic(path, "previous\n", 9, &err), WL_OK);
+
+	assert_int_equal(wl_afile_open(path, &af, &err), WL_OK);
+	fputs("new\n", wl_afile_fp(af));
+	assert_int_equal(wl_afile_sync(af, &err), WL_OK);
+	assert_int_equal(wl_read_file(path, 100, &back, NULL, &err), WL_OK);
+	assert_string_equal(back, "previous\n"); /* not replaced before commit */
+	free(back);
+	assert_int_equal(count_tmp_files(dir), 1);
+	assert_int_equal(wl_afile_commit(af, &err), WL_OK);
+	assert_int_equal(wl_read_file(path, 100, &back, NULL, &err), WL_OK);
+	assert_string_equal(back, "new\n");
+	free(back);
+	assert_int_equal(count_tmp_files(dir), 0);
+
+	assert_int_equal(wl_afile_open(path, &af, &err), WL_OK);
+	fputs("lost\n", wl_afile_fp(af));
+	full = open("/dev/full", O_WRONLY);
+	assert_true(full >= 0);
+	assert_true(dup2(full, fileno(wl_afile_fp(af))) >= 0);
+	close(full);
+	assert_int_equal(wl_afile_sync(af, &err), WL_EIO);
+	assert_non_null(strstr(err.msg, "out.csv"));
+	assert_non_null(strstr(err.msg, "free some space"));
+	assert_int_equal(count_tmp_files(dir), 0);
+	wl_afile_abort(af);
+	assert_int_equal(wl_read_file(path, 100, &back, NULL, &err), WL_OK);
+	assert_string_equal(back, "new\n");
+	free(back);
+	assert_int_equal(wl_afile_sync(NULL, &err), WL_OK);
+
+	unlink(path);
+	rmdir(dir);
+}
+
 /* ---- JSON ---- */
 
 static void json_errors_give_line_and_column(void **state)
@@ -294,7 +343,7 @@ static void projection_round_trips_with_distortion(void **state)
 
 static void refraction_worked_example(void **state)
 {
-	/* REFERENCES.md, "Refraction at a flat water surface": camera 2.0 m
+	/* tests/data/references.md, "Refraction at a flat water surface": camera 2.0 m
 	 * above the surface, ray 20 deg off nadir, marker 0.30 m deep ->
 	 * 0.80758 m from nadir (n = 1.333); 0.83713 m if refraction is ignored. */
 	wl_camera cam;
@@ -316,7 +365,7 @@ static void refraction_worked_example(void **state)
 	double su, sv;
 	assert_true(wl_camera_project_water(&cam, (double[3]){0.80758, 0, 0}, &su, &sv));
 	assert_true(fabs(su - u) < 0.05 && fabs(sv - v) < 1e-9);
-	/* paraxial apparent depth d/n = 0.2251 m for 0.30 m (REFERENCES.md) */
+	/* paraxial apparent depth d/n = 0.2251 m for 0.30 m (tests/data/references.md) */
 	/* a ray to a point 1 mm off nadir: apparent depth = d * tan(tw) / tan(ta) */
 	double s = wl_refract_surface_offset(2.0, 0.001, 0.30, 1.333);
 	double ta = s / 2.0, tw = (0.001 - s) / 0.30;
@@ -331,6 +380,7 @@ int main(void)
 	        cmocka_unit_test(csv_number_errors_name_file_line_and_column),
 	        cmocka_unit_test(numbers_use_a_dot_whatever_the_locale),
 	        cmocka_unit_test(atomic_file_commit_and_abort),
+	        cmocka_unit_test(atomic_file_sync),
 	        cmocka_unit_test(json_errors_give_line_and_column),
 	        cmocka_unit_test(json_depth_is_limited),
 	        cmocka_unit_test(jacobi_eigen_matches_the_definition),

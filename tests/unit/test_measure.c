@@ -19,7 +19,7 @@
 #define PI 3.14159265358979323846
 
 /* Gander, Golub & Strebel 1994, BIT 34:558, example data; reference rows in
- * /work/shared/REFERENCES.md (geometric recomputed with scipy.optimize.least_squares,
+ * tests/data/references.md (geometric recomputed with scipy.optimize.least_squares,
  * Kasa with numpy.linalg.lstsq) */
 static const double ggs_x[6] = {1, 2, 5, 7, 9, 3};
 static const double ggs_y[6] = {7, 6, 8, 7, 5, 7};
@@ -67,11 +67,11 @@ static void check_alg(const char *name,
 static void test_ggs_algebraic(void **state)
 {
 	(void)state;
-	/* REFERENCES.md, GGS 1994 data: Kasa row (numpy.linalg.lstsq) */
+	/* tests/data/references.md, GGS 1994 data: Kasa row (numpy.linalg.lstsq) */
 	check_alg("kasa", wl_measure_fit_kasa, 4.742331, 3.835123, 4.108762, 0.4827507);
-	/* REFERENCES.md, GGS 1994 data: Pratt 1987 row */
+	/* tests/data/references.md, GGS 1994 data: Pratt 1987 row */
 	check_alg("pratt", wl_measure_fit_pratt, 4.615482, 2.807354, 4.911302, 0.4610572);
-	/* REFERENCES.md, GGS 1994 data: Taubin 1991 row */
+	/* tests/data/references.md, GGS 1994 data: Taubin 1991 row */
 	check_alg("taubin", wl_measure_fit_taubin, 4.613933, 2.795209, 4.879213, 0.4572958);
 }
 

@@ -108,7 +108,8 @@ static void test_ticks_linear_properties(void **state)
 	}
 }
 
-/* Reference: matplotlib 3.6.3 (Debian python3-matplotlib),
+/* Reference: matplotlib 3.6.3 (Debian python3-matplotlib; tests/data/references.md,
+ * "Plot scales"; tests/tools/regen-plot-scales.py),
  * SymmetricalLogTransform(base=10, linthresh=0.5, linscale=1).transform of
  * [0.1, 0.5, 1, 5, -50] = [0.11111111, 0.55555556, 0.70607055, 1.05555556, -1.55555556]. */
 static void test_symlog_transform(void **state)
@@ -149,8 +150,8 @@ static void test_symlog_ticks(void **state)
 	assert_true(fabs(t[1] - t[0] - (t[2] - t[1])) < 1e-12);
 }
 
-/* Reference: matplotlib 3.6.3 cm.get_cmap('viridis') at t = 0, 0.37, 0.5,
- * 0.8, 1.0 (the 256-entry table, nearest entry). */
+/* Reference (tests/data/references.md, "Plot scales"): matplotlib 3.6.3 cm.get_cmap('viridis') at t = 0,
+ * 0.37, 0.5, 0.8, 1.0 (the 256-entry table, nearest entry). */
 static void test_viridis(void **state)
 {
 	const double t[5] = {0, 0.37, 0.5, 0.8, 1.0};

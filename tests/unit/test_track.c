@@ -195,7 +195,8 @@ static void test_tag_families(void **state)
 
 static void test_hsv_matches_opencv(void **state)
 {
-	/* reference: python3-opencv 4.6, cv2.cvtColor(px, cv2.COLOR_RGB2HSV) on these uint8 pixels */
+	/* reference: python3-opencv 4.6, cv2.cvtColor(px, cv2.COLOR_RGB2HSV) on these uint8
+	 * pixels (tests/data/references.md, "RGB to HSV"; tests/tools/regen-hsv.py) */
 	static const int rgb[][3] = {{255, 0, 0},   {0, 255, 0},    {0, 0, 255},  {255, 255, 0},
 	                             {200, 30, 40}, {250, 10, 200}, {10, 20, 30}, {128, 128, 128},
 	                             {255, 128, 0}, {30, 200, 180}, {0, 0, 0},    {90, 60, 200}};

@@ -1,7 +1,7 @@
 /*
  * test_vwriter.c: the H.264/MP4 writer.  Frame times and the stored
  * rotation are read back with Debian's ffprobe (FFmpeg 5.1), the reference
- * named in REFERENCES.md "Video timestamps"; error paths leave no file.
+ * named in tests/data/references.md "Video timestamps"; error paths leave no file.
  */
 #define _POSIX_C_SOURCE 200809L
 #include <math.h>
@@ -104,7 +104,7 @@ static void test_vfr_times_and_rotation(void **state)
 	}
 	assert_int_equal(pclose(fp), 0);
 	assert_int_equal(i, n);
-	/* REFERENCES.md: the display matrix of `rotate=90` reads back as 90 */
+	/* tests/data/references.md: the display matrix of `rotate=90` reads back as 90 */
 	snprintf(cmd, sizeof cmd,
 	         "ffprobe -v error -select_streams v:0 -show_entries stream_side_data=rotation -of "
 	         "default=nw=1:nk=1 '%s'",

@@ -1,28 +1,24 @@
 # lib/decode.bash: helpers shared by the probe/still end-to-end tests
 # (sourced, not a test itself).  Clips are made with the ffmpeg CLI from its
 # testsrc2 pattern; references come from Debian's ffmpeg/ffprobe 5.1 and
-# python3-opencv/numpy.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}"
-PY=/usr/bin/python3
-rm -rf "$WL_TEST_TMP"
-mkdir -p "$WL_TEST_TMP"
-cd "$WL_TEST_TMP"
-
-fail() { echo "FAIL: $*" >&2; exit 1; }
+# python3-opencv/numpy.  Sources the harness (lib/harness.sh).
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 
 # ff ARGS...: the ffmpeg CLI, quiet.
 ff() { ffmpeg -v error -nostdin -y "$@"; }
 
-# ffprobe_times CLIP: presentation time of every frame (REFERENCES.md, "Video timestamps").
+# ffprobe_times CLIP: presentation time of every frame (tests/data/references.md, "Video timestamps").
 ffprobe_times() {
 	ffprobe -v error -select_streams v:0 -show_entries frame=pts_time -of default=nw=1:nk=1 "$1"
 }
 
-# check_times CLIP: `wakeline probe --frames` agrees with ffprobe on the
-# number of frames and on every frame's time (ffprobe's minus its first) to
-# within 1 ms.  Prints the largest difference.
+# check_times CLIP: the check that `wakeline probe --frames` agrees with
+# ffprobe on the number of frames and on every frame's time (ffprobe's minus
+# its first) to within 1 ms.  Prints the largest difference.
 check_times() {
+	check "$1: probe's frame count and times equal ffprobe's within 1 ms" _times_match "$1"
+}
+_times_match() {
 	local clip=$1
 	"$WAKELINE" probe -q --frames "$clip.frames.csv" "$clip" > "$clip.probe.txt" ||
 		fail "probe $clip exited $?"
@@ -58,20 +54,19 @@ print("%.4f" % np.abs(a.astype(float) - b.astype(float)).mean())
 PYEOF
 }
 
-# lt X Y: X < Y as numbers.
-lt() { $PY -c "import sys; sys.exit(0 if float('$1') < float('$2') else 1)"; }
-
-# want_mad A.png B.png lt|gt LIMIT LABEL: queues the check "mean absolute
-# difference of A and B is below (lt) / above (gt) LIMIT levels";
-# run_mad_checks runs all queued checks in one python (python3-opencv) and
-# fails if any does not hold.  Sizes must match for every check.
+# want_mad A.png B.png lt|gt LIMIT LABEL: queues the comparison "mean
+# absolute difference of A and B is below (lt) / above (gt) LIMIT levels";
+# run_mad_checks is one check that runs all queued comparisons in one python
+# (python3-opencv) and fails if any does not hold (it prints each one).
+# Sizes must match for every comparison.
 : > mad-checks.txt
 want_mad() { printf '%s\t%s\t%s\t%s\t%s\n' "$@" >> mad-checks.txt; }
 run_mad_checks() {
-	$PY - <<'PYEOF' || fail "pixel comparisons"
+	check_py "every queued pixel comparison holds ($(wc -l < mad-checks.txt) of them)" <<'PYEOF'
 import sys, cv2, numpy as np
-bad = 0
+bad = n = 0
 for line in open("mad-checks.txt"):
+    n += 1
     a, b, op, lim, label = line.rstrip("\n").split("\t")
     x = cv2.imread(a, cv2.IMREAD_UNCHANGED); y = cv2.imread(b, cv2.IMREAD_UNCHANGED)
     if x is None or y is None or x.shape != y.shape:
@@ -81,6 +76,6 @@ for line in open("mad-checks.txt"):
     ok = d < float(lim) if op == "lt" else d > float(lim)
     print("%s %s: mean |diff| = %.4f levels (want %s %s)" % ("ok  " if ok else "FAIL", label, d, "<" if op == "lt" else ">", lim))
     bad += not ok
-sys.exit(bad)
+sys.exit(bad if n else "no comparison was queued")
 PYEOF
 }

@@ -85,8 +85,10 @@ wait_rows() {
 	return 1
 }
 
-# whole_lines FILE NCELLS: every line ends in a newline and has NCELLS cells
-whole_lines() {
+# whole_lines FILE NCELLS: the check that FILE is not empty, every line ends
+# in a newline and has NCELLS cells
+whole_lines() { check "$1: whole lines of $2 cells" _whole_lines "$1" "$2"; }
+_whole_lines() {
 	[ -s "$1" ] || fail "$1 is empty"
 	[ "$(tail -c 1 "$1" | od -An -tx1 | tr -d ' ')" = "0a" ] || fail "$1 ends inside a line"
 	awk -F, -v n="$2" 'NF != n { print FILENAME ":" NR ": " NF " cells"; bad = 1 } END { exit bad }' "$1" ||
