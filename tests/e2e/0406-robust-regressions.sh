@@ -3,14 +3,16 @@
 # once failed, each named in tests/robust/regressions.txt with what went
 # wrong; they run the same scene again with the per-scene checks.
 # Skipped (exit 77) while the list holds no seed.
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
-T="$WL_TEST_TMP"; rm -rf "$T"; mkdir -p "$T"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 R="$WL_SOURCE_DIR/tests/robust"
 seeds=$(awk '!/^#/ && NF {print $1}' "$R/regressions.txt")
-[ -n "$seeds" ] || { echo "SKIP: no seed in tests/robust/regressions.txt"; exit 77; }
+if [ -z "$seeds" ]; then
+	skip_all "no seed in tests/robust/regressions.txt"
+fi
 for s in $seeds; do
-	echo "== seed $s: $(awk -v s="$s" '$1 == s {$1 = ""; print}' "$R/regressions.txt")"
-	"$R/run_scene.sh" "$s" "$T/$s" || true
+	note "seed $s: $(awk -v s="$s" '$1 == s {$1 = ""; print}' "$R/regressions.txt")"
+	"$R/run_scene.sh" "$s" "$WL_TEST_TMP/scene-$s" || true
+	check "seed $s passes the per-scene checks" /usr/bin/python3 "$R/evaluate.py" "$WL_TEST_TMP/scene-$s" \
+		--no-suite-checks
 done
-/usr/bin/python3 "$R/evaluate.py" "$T"/* --no-suite-checks
+done_testing

@@ -9,10 +9,9 @@
 # amplitude within 3 % + 3.29 standard errors of the truth, and the 95 %
 # interval covers the truth in at least 16 of 20 tracks (a binomial 95 %
 # interval over 20 draws holds 16 or more with probability 0.98).
-set -euo pipefail
-: "${WAKELINE:?}" "${WL_TEST_TMP:?}" "${WL_SOURCE_DIR:?}"
+source "$WL_SOURCE_DIR/tests/e2e/lib/harness.sh"
 PY=/usr/bin/python3
-T="$WL_TEST_TMP"; rm -rf "$T"; mkdir -p "$T"
+T="$WL_TEST_TMP"
 G="$WL_SOURCE_DIR/tests/clean/synth_raw.py"
 $PY - "$T" <<'PYEOF' > "$T/cases.txt"
 import sys
@@ -25,10 +24,10 @@ PYEOF
 while read -r seed radius speed amp freq; do
 	$PY "$G" --seed "$seed" --fps 15 --duration 14 --rest 1 --radius "$radius" --speed "$speed" \
 		--amp-deg "$amp" --freq "$freq" --out "$T/$seed.raw.csv" --truth "$T/$seed.truth.csv"
-	"$WAKELINE" clean "$T/$seed.raw.csv" -o "$T/$seed.clean.csv" -q 2> /dev/null
-	"$WAKELINE" measure "$T/$seed.clean.csv" -o "$T/$seed.summary.json" -q
+	"$WAKELINE" clean "$T/$seed.raw.csv" -o "$T/$seed.clean.csv" -q 2> /dev/null || fail "clean, seed $seed"
+	"$WAKELINE" measure "$T/$seed.clean.csv" -o "$T/$seed.summary.json" -q || fail "measure, seed $seed"
 done < "$T/cases.txt"
-$PY - "$T" <<'PYEOF'
+check_py "yaw amplitudes within 3 % + 3.29 SE, the 95 % interval covering in 16 of 20 or more" "$T" <<'PYEOF'
 import json, sys
 d = sys.argv[1]
 cov = n = 0
@@ -51,3 +50,4 @@ print("yaw amplitude: 95%% interval covers the truth in %d of %d tracks" % (cov,
 assert not bad, "amplitude off beyond 3 %% + 3.29 SE: seeds %s" % bad
 assert cov >= 16, "coverage %d of %d is under 16" % (cov, n)
 PYEOF
+done_testing
