@@ -221,7 +221,7 @@ wl_status wl_measure_sys_create(const wl_calib *cal, const wl_measure_tolerances
 	if (tol->plane_height_sd_m > 0 && s->ndir < WL_SYS_MAX_DIR) {
 		int k = s->ndir++;
 		s->src[k] = WL_BS_PLANE_HEIGHT;
-		snprintf(s->name[k], sizeof s->name[k], "plane_height_m");
+		snprintf(s->name[k], sizeof s->name[k], "plane height");
 		s->sd[k] = s->dz[k] = tol->plane_height_sd_m;
 	}
 	/* an assumed focal length (the field of view route) */
