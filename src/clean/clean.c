@@ -18,6 +18,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/angle.h"
+
 #include "clean/clean_work.h"
 
 static int cmp_double(const void *a, const void *b)
@@ -56,6 +58,7 @@ void clean_work_free(work *w)
 	free(w->r);
 	free(w->sv);
 	free(w->sr);
+	free(w->sp);
 	free(w->cut);
 	free(w->seg);
 	free(w->pstart);
@@ -86,13 +89,14 @@ int clean_work_alloc(work *w, size_t n, size_t npieces)
 	w->r = calloc(m, sizeof *w->r);
 	w->sv = calloc(m, sizeof *w->sv);
 	w->sr = calloc(m, sizeof *w->sr);
+	w->sp = calloc(m, sizeof *w->sp);
 	w->cut = calloc(m, sizeof *w->cut);
 	w->seg = calloc(m, sizeof *w->seg);
 	w->pstart = calloc(npieces + 1, sizeof *w->pstart);
 	w->phas_h = calloc(npieces + 1, 1);
 	return w->src && w->piece && w->t && w->zx && w->zy && w->zh && w->rs && w->mpos && w->mh && w->why &&
-	       w->x && w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->cut && w->seg &&
-	       w->pstart && w->phas_h;
+	       w->x && w->y && w->h && w->vx && w->vy && w->r && w->sv && w->sr && w->sp && w->cut &&
+	       w->seg && w->pstart && w->phas_h;
 }
 
 static int gap_push(wl_clean_robot *rb, double t0, double t1, int filled)
@@ -196,8 +200,40 @@ out:
 
 /* ---------------------------------------------------------------- driver */
 
-static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, wl_clean_robot *rb,
-                             wl_clean_result *res, size_t *cap, wl_err *err)
+/* Says when the noise model had to be widened or the filter restarted, and
+ * when many detections are rejected all the same: each is a sign that the
+ * track is not what the model expects (a manoeuvre, a wrong noise level, or
+ * the tracker following something else). */
+static void warn_model(const wl_clean_params *p, const wl_diag *diag, const wl_clean_robot *rb)
+{
+	size_t ndet = rb->measured + rb->outliers;
+	double frac = ndet ? (double)rb->outliers / (double)ndet : 0;
+	if (rb->widen_pos || rb->widen_heading)
+		wl_diag_warn(
+		        diag, "clean",
+		        "robot %ld: the detections did not fit the estimated noise model (more than "
+		        "%.0f%% beyond the gate, or far more than 5%% beyond its 95%% point): the model "
+		        "was widened (position %d, heading %d steps of x4 variance and x10 process "
+		        "noise; noise now %.2f mm, %.2f deg) and %zu of %zu (%.1f%%) are rejected: check "
+		        "the track (clean.json, robots[].noise)",
+		        rb->id, 100 * p->max_reject_frac, rb->widen_pos, rb->widen_heading,
+		        1e3 * rb->sigma_pos_m, rb->sigma_heading_rad / WL_DEG, rb->outliers, ndet,
+		        100 * frac);
+	else if (frac > p->max_reject_frac)
+		wl_diag_warn(
+		        diag, "clean",
+		        "robot %ld: %zu of %zu detections (%.1f%%) rejected as outliers: check the track",
+		        rb->id, rb->outliers, ndet, 100 * frac);
+	if (rb->restarts_pos + rb->restarts_heading > 0)
+		wl_diag_warn(diag, "clean",
+		             "robot %ld: the smoother restarted %zu times (position) and %zu times (heading) "
+		             "after runs of %d or more detections it could not follow (sudden manoeuvres, or "
+		             "the tracker jumped): see clean.json, robots[].restarts",
+		             rb->id, rb->restarts_pos, rb->restarts_heading, 3);
+}
+
+static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, const wl_diag *diag,
+                             wl_clean_robot *rb, wl_clean_result *res, size_t *cap, wl_err *err)
 {
 	work w = {0};
 	wl_status st;
@@ -236,6 +272,8 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 			rb->sigma_estimated = 2;
 		rb->sigma_heading_rad = fmax(isfinite(s) ? s : 0.035, 1e-4);
 	}
+	rb->sigma_pos_est_m = rb->sigma_pos_m;
+	rb->sigma_heading_est_rad = rb->sigma_heading_rad;
 	st = p->smoother == WL_CLEAN_SG ? clean_smooth_sg(&w, p, rb, err) : clean_smooth_rts(&w, p, rb, err);
 	if (st)
 		goto out;
@@ -247,6 +285,7 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		rb->outliers_pos += (w.why[i] & 1) != 0;
 		rb->outliers_heading += (w.why[i] & 2) != 0;
 	}
+	warn_model(p, diag, rb);
 	clean_cut_and_segment(&w, p, rb);
 	if ((st = clean_list_segments(&w, rb, err)))
 		goto out;
@@ -284,7 +323,7 @@ wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, const 
 		return wl_err_set(err, WL_ENOMEM, "out of memory");
 	for (size_t k = 0; k < raw->ntracks; k++) {
 		out->nrobots++;
-		if ((st = clean_robot(&raw->tracks[k], p, &out->robots[k], out, &cap, err)))
+		if ((st = clean_robot(&raw->tracks[k], p, diag, &out->robots[k], out, &cap, err)))
 			return wl_err_prefix(err, st, "%s: robot %ld", raw->path, raw->tracks[k].id);
 	}
 	if (out->nrows)

@@ -12,7 +12,7 @@
 
 #include "clean/clean.h"
 
-#define MAX_OUTLIER_PASSES 4
+#define MAX_OUTLIER_PASSES 4 /* Savitzky-Golay leave-one-out passes */
 /* held poses' variance scale (clean.h), and they are left out of the
  * noise estimate */
 #define HELD_VAR_SCALE WL_CLEAN_HELD_VAR_SCALE
@@ -28,6 +28,7 @@ typedef struct {
 	unsigned char *why;       /* bit 0: position beyond the gate, bit 1: heading */
 	/* smoothed state */
 	double *x, *y, *h, *vx, *vy, *r, *sv, *sr;
+	double *sp; /* smoothed standard deviation of one position component */
 	wl_clean_cut *cut;
 	int *seg;
 	size_t npieces;

@@ -20,6 +20,7 @@ void wl_clean_params_init(wl_clean_params *p)
 	p->sigma_pos_m = p->sigma_heading_rad = -1;
 	p->q_pos = p->q_heading = -1;
 	p->gate_prob = 0.999;
+	p->max_reject_frac = 0.03;
 	p->sg_window = 11;
 	p->sg_order = 2;
 	p->max_gap_s = 0.5;
@@ -48,6 +49,9 @@ wl_status wl_clean_params_check(const wl_clean_params *p, wl_err *err)
 			return wl_err_set(err, WL_EINVAL, "--sg-order %d: give 1 to %d, less than the window",
 			                  p->sg_order, WL_SG_MAX_ORDER);
 	}
+	if (!(p->max_reject_frac > 0 && p->max_reject_frac < 1))
+		return wl_err_set(err, WL_EINVAL, "--max-reject %g: give a share between 0 and 1",
+		                  p->max_reject_frac);
 	if (!(p->max_gap_s >= 0))
 		return wl_err_set(err, WL_EINVAL, "--max-gap-s: must not be negative");
 	if (p->trim == WL_TRIM_FIXED && !(p->trim_s >= 0))

@@ -46,6 +46,7 @@ static void fill_row(wl_clean_row *o, const work *w, const wl_clean_raw_track *t
 	o->x_m = w->x[i];
 	o->y_m = w->y[i];
 	o->heading_rad = isfinite(w->h[i]) ? wl_wrap_pi(w->h[i]) : NAN;
+	o->heading_meas_rad = isfinite(w->zh[i]) && !w->mh[i] ? wl_wrap_pi(w->zh[i]) : NAN;
 	o->vx_mps = w->vx[i];
 	o->vy_mps = w->vy[i];
 	o->speed_mps = hypot(w->vx[i], w->vy[i]);
@@ -109,6 +110,11 @@ wl_status clean_emit_rows(const work *w, const wl_clean_raw_track *tr, const wl_
 					hermite(w->h[j], w->r[j], w->h[j + 1], w->r[j + 1], T, s, &vh,
 					        &o->yaw_rate_radps);
 					o->heading_rad = wl_wrap_pi(vh);
+					/* the nearest detection's heading moved to t along
+					 * the smoothed heading: its own deviation kept */
+					if (isfinite(o->heading_meas_rad) && isfinite(w->h[near]))
+						o->heading_meas_rad =
+						        wl_wrap_pi(o->heading_meas_rad + vh - w->h[near]);
 				}
 				o->speed_mps = hypot(o->vx_mps, o->vy_mps);
 			}

@@ -77,8 +77,16 @@ void cli_print_clean_robot(const wl_clean_robot *rb)
 		printf("end cut at %.3f s (wall)", rb->wall_s);
 	else
 		printf("end not cut (%s)", rb->end_reason);
-	printf("; %zu segment%s; noise %.2f mm, %.2f deg\n", rb->nsegments, rb->nsegments == 1 ? "" : "s",
-	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad / WL_DEG);
+	printf("; %zu segment%s; noise %.2f mm, %.2f deg%s\n", rb->nsegments, rb->nsegments == 1 ? "" : "s",
+	       rb->sigma_pos_m * 1e3, rb->sigma_heading_rad / WL_DEG,
+	       rb->widen_pos || rb->widen_heading ? " (widened)" : "");
+}
+
+static void print_reasons(const wl_summary_measures *r)
+{
+	for (int i = 0; i < r->n_reasons; i++)
+		printf("%s %s", i ? ";" : "", r->reasons[i]);
+	putchar('\n');
 }
 
 /* One line for people: each value rounded to what its 95% interval supports
@@ -90,6 +98,12 @@ void cli_print_headline(const wl_summary_run *ro)
 	char a[WL_NUMFMT_BUF], b[WL_NUMFMT_BUF], c[WL_NUMFMT_BUF];
 	double kh = 0.5 * (ci[1] - ci[0]), rh = 0.5 * fabs(1 / ci[0] - 1 / ci[1]);
 	printf("id %ld segment %ld (%s s): ", ro->id, ro->segment, wl_fmt_fixed(a, r->duration_s, 1));
+	if (r->verdict == WL_VERDICT_REJECT) {
+		/* a run the method could not follow is never printed as a number */
+		printf("REJECT, no measures reported:");
+		print_reasons(r);
+		return;
+	}
 	if (r->straight)
 		printf("straight (curvature %s /m at 95%%)", wl_numfmt_pm(a, r->curvature_per_m, kh));
 	else
@@ -102,5 +116,11 @@ void cli_print_headline(const wl_summary_run *ro)
 		       wl_numfmt_sig(b, r->yaw_osc_freq_hz, 3));
 	if (isfinite(r->sway_amp_m))
 		printf(", sway %s mm", wl_numfmt_sig(a, 1000 * r->sway_amp_m, 2));
-	printf(", tracked %s%%\n", wl_fmt_fixed(a, 100 * r->tracked_fraction, 0));
+	printf(", tracked %s%%", wl_fmt_fixed(a, 100 * r->tracked_fraction, 0));
+	if (r->verdict == WL_VERDICT_CHECK) {
+		printf("; CHECK:");
+		print_reasons(r);
+	} else {
+		printf("; %s\n", wl_verdict_name(r->verdict));
+	}
 }

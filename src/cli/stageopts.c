@@ -191,6 +191,10 @@ static void clean_table(cli_stages *s)
 		                    &c->q_heading, 0, 0),
 		        CLI_OPT_NUM("gate", "P", "chi-square gate probability (default 0.999)", &c->gate_prob,
 		                    0, 0),
+		        CLI_OPT_NUM("max-reject", "F",
+		                    "widen the noise model when more than this share\nof the detections "
+		                    "would be rejected (default 0.03)",
+		                    &c->max_reject_frac, 0, 0),
 		        CLI_OPT_NUM("rate", "HZ", "resample evenly at HZ from the smoothed state",
 		                    &c->rate_hz, 0, 0),
 		        CLI_OPT_SECTION("Gaps and trimming:"),
@@ -227,6 +231,20 @@ static void measure_tables(cli_stages *s)
 		        CLI_OPT_POS("min-arc-deg", "A",
 		                    "arcs shorter than A degrees count as straight (default 5)",
 		                    &s->p.measure.run.min_arc_deg),
+		        CLI_OPT_SECTION("Uncertainty budget (with a calibration; docs/measure.md):"),
+		        CLI_OPT_NUM("plane-height-tol-m", "T",
+		                    "the marker plane height's tolerance (default 0.002;\nROBOTS.csv's "
+		                    "plane_height_tol_m per robot)",
+		                    &s->p.tol.plane_height_sd_m, 0, 1),
+		        CLI_OPT_NUM("water-depth-tol-m", "T", "the water depth's tolerance (default 0.003)",
+		                    &s->p.tol.water_depth_sd_m, 0, 1),
+		        CLI_OPT_NUM("hfov-tol", "F",
+		                    "relative tolerance of a focal length from --hfov-deg\n(default 0.02)",
+		                    &s->p.tol.focal_sd_frac, 0, 1),
+		        CLI_OPT_NUM("principal-tol", "F",
+		                    "an assumed principal point's tolerance, share of\nthe width (default "
+		                    "0.02)",
+		                    &s->p.tol.principal_sd_frac, 0, 1),
 		        CLI_OPT_END};
 		memcpy(s->measure, measure, sizeof measure);
 	}

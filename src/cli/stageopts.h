@@ -22,7 +22,7 @@ typedef struct {
 	double tank[4];
 	int have_tank, margin_seen;
 	int no_watch; /* --no-watch */
-	cli_opt track[32], clean[24], measure[5], body[2];
+	cli_opt track[32], clean[24], measure[10], body[2];
 } cli_stages;
 
 /* Defaults, and the tables pointing into s (s must not move after this). */

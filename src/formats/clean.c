@@ -26,10 +26,10 @@ static const wl_format CLEAN_CSV = {"CLEAN.csv", NULL, 1, "wakeline clean"};
 static const wl_format SIDECAR = {"CLEAN.json", "wakeline clean sidecar", 1, "wakeline clean"};
 
 /* The columns, in file order. */
-enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_SPEED, C_YAW, C_VX, C_VY, C_SEG, C_STATUS, C_CUT, C_N };
+enum { C_T, C_FRAME, C_ID, C_X, C_Y, C_H, C_SPEED, C_YAW, C_VX, C_VY, C_SEG, C_STATUS, C_CUT, C_HM, C_N };
 static const char *const HEADER[] = {
-        "t_s",    "frame",  "id",      "x_m",    "y_m", "heading_rad", "speed_mps", "yaw_rate_radps",
-        "vx_mps", "vy_mps", "segment", "status", "cut", NULL};
+        "t_s",    "frame",  "id",      "x_m",    "y_m", "heading_rad",      "speed_mps", "yaw_rate_radps",
+        "vx_mps", "vy_mps", "segment", "status", "cut", "heading_meas_rad", NULL};
 /* What a reader needs. */
 static const char *const REQUIRED[] = {"t_s", "id", "x_m", "y_m", "segment", "status", NULL};
 
@@ -69,6 +69,7 @@ static void write_csv(FILE *fp, const wl_clean_result *res)
 			wl_csvw_empty(&w);
 		else
 			wl_csvw_str(&w, wl_clean_cut_name(r->cut));
+		wl_csvw_num(&w, r->heading_meas_rad, 6);
 		wl_csvw_end(&w);
 	}
 }
@@ -94,6 +95,7 @@ static cJSON *params_json(const wl_clean_params *p)
 	num(o, "q_pos_given", p->q_pos > 0 ? p->q_pos : NAN);
 	num(o, "q_heading_given", p->q_heading > 0 ? p->q_heading : NAN);
 	num(o, "gate_prob", p->gate_prob);
+	num(o, "max_reject_frac", p->max_reject_frac);
 	if (p->smoother == WL_CLEAN_SG) {
 		cJSON_AddNumberToObject(o, "sg_window", p->sg_window);
 		cJSON_AddNumberToObject(o, "sg_order", p->sg_order);
@@ -143,6 +145,16 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	                        isfinite(rb->q_pos) ? (rb->q_estimated ? "maximum likelihood" : "given")
 	                                            : "not used (Savitzky-Golay)");
 	num(n, "speed_sigma_mps", rb->speed_sigma_mps);
+	/* the estimates before the model's own check widened them */
+	num(n, "sigma_pos_estimated_m", rb->sigma_pos_est_m);
+	num(n, "sigma_heading_estimated_rad", rb->sigma_heading_est_rad);
+	num(n, "q_pos_estimated_m2ps3", rb->q_pos_est);
+	num(n, "q_heading_estimated_rad2ps3", rb->q_heading_est);
+	cJSON_AddNumberToObject(n, "widened_position", rb->widen_pos);
+	cJSON_AddNumberToObject(n, "widened_heading", rb->widen_heading);
+	t = cJSON_AddObjectToObject(o, "restarts");
+	cJSON_AddNumberToObject(t, "position", (double)rb->restarts_pos);
+	cJSON_AddNumberToObject(t, "heading", (double)rb->restarts_heading);
 	num(o, "t_first_s", rb->t_first_s);
 	num(o, "t_last_s", rb->t_last_s);
 	num(o, "speed_threshold_mps", rb->speed_threshold_mps);
@@ -156,6 +168,16 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	t = cJSON_AddObjectToObject(o, "trim");
 	num(t, "t_s", rb->trim_s);
 	cJSON_AddStringToObject(t, "reason", rb->trim_reason ? rb->trim_reason : "");
+	if (rb->trim_reason &&
+	    (strcmp(rb->trim_reason, "settled") == 0 || strcmp(rb->trim_reason, "not-settled") == 0)) {
+		double end = isfinite(rb->wall_s) ? rb->wall_s : rb->t_last_s;
+		num(t, "window_s", rb->window_s);
+		num(t, "unjudged_s", rb->settle_unjudged_s);
+		cJSON_AddStringToObject(t, "turn_rate_from", rb->turn_source ? rb->turn_source : "none");
+		num(t, "cut_s", rb->trim_s - rb->t_first_s);
+		num(t, "cut_share",
+		    end > rb->t_first_s ? (rb->trim_s - rb->t_first_s) / (end - rb->t_first_s) : NAN);
+	}
 	t = cJSON_AddObjectToObject(o, "end");
 	num(t, "t_s", rb->wall_s);
 	cJSON_AddStringToObject(t, "reason", rb->end_reason ? rb->end_reason : "");
@@ -370,7 +392,8 @@ static wl_status parse_row(const rctx *c, const wl_csv_row *row, wl_clean_row *r
 	    (st = opt_num(row, c->col[C_SPEED], C_SPEED, &r->speed_mps, err)) ||
 	    (st = opt_num(row, c->col[C_YAW], C_YAW, &r->yaw_rate_radps, err)) ||
 	    (st = opt_num(row, c->col[C_VX], C_VX, &r->vx_mps, err)) ||
-	    (st = opt_num(row, c->col[C_VY], C_VY, &r->vy_mps, err)))
+	    (st = opt_num(row, c->col[C_VY], C_VY, &r->vy_mps, err)) ||
+	    (st = opt_num(row, c->col[C_HM], C_HM, &r->heading_meas_rad, err)))
 		return st;
 	return WL_OK;
 }
@@ -439,6 +462,16 @@ static wl_status sidecar_robot(const char *name, const cJSON *o, size_t k, wl_cl
 	r->end_s = wl_json_number_or(e, "t_s", NAN);
 	copy_str(r->trim_reason, sizeof r->trim_reason, t, "reason");
 	copy_str(r->end_reason, sizeof r->end_reason, e, "reason");
+	{
+		const cJSON *n = cJSON_GetObjectItemCaseSensitive(o, "noise"),
+		            *ol = cJSON_GetObjectItemCaseSensitive(o, "outliers");
+		double tot = wl_json_number_or(ol, "total", 0), meas = wl_json_number_or(o, "measured", 0);
+		r->sigma_pos_m = wl_json_number_or(n, "sigma_pos_m", NAN);
+		r->widened = wl_json_number_or(n, "widened_position", 0) > 0 ||
+		             wl_json_number_or(n, "widened_heading", 0) > 0;
+		r->outliers = tot >= 0 && tot < 1e15 ? (size_t)tot : 0;
+		r->measured = meas >= 0 && meas < 1e15 ? (size_t)meas : 0;
+	}
 	if (!cJSON_IsArray(segs) || cJSON_GetArraySize(segs) == 0)
 		return WL_OK;
 	r->segments = calloc((size_t)cJSON_GetArraySize(segs), sizeof *r->segments);

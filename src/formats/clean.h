@@ -44,6 +44,8 @@ typedef struct {
 	double q_pos;             /* process noise density m^2/s^3 (CV); <= 0: maximum likelihood */
 	double q_heading;         /* rad^2/s^3 (CV); <= 0: maximum likelihood */
 	double gate_prob;         /* chi-square gate probability, default 0.999 */
+	double max_reject_frac;   /* more rejected detections than this share: the model is
+	                           * widened and the smoothing retried (default 0.03) */
 	int sg_window, sg_order;  /* Savitzky-Golay, default 11 points, order 2 */
 	double max_gap_s;         /* bridge gaps up to this (default 0.5 s) */
 	wl_trim_mode trim;
@@ -73,6 +75,12 @@ typedef struct {
 	long id;
 	double x_m, y_m, heading_rad; /* heading wrapped to (-pi, pi] */
 	double speed_mps, yaw_rate_radps, vx_mps, vy_mps;
+	/* the detection's own heading (not smoothed; the tag's mounting angle
+	 * removed), moved to t_s along the smoothed heading when the row was
+	 * resampled; NaN where none was detected or it was an outlier.  Measure
+	 * fits the yaw oscillation to it: the smoother attenuates fast
+	 * oscillations, the detections do not. */
+	double heading_meas_rad;
 	int segment; /* >= 0 analysed, -1 left out (see cut) */
 	wl_clean_status status;
 	wl_clean_cut cut;
@@ -104,14 +112,22 @@ typedef struct {
 	double sigma_pos_m, sigma_heading_rad, q_pos, q_heading; /* used */
 	int sigma_estimated; /* 0 given, 1 estimated, 2 default (too few detections) */
 	int q_estimated;
+	/* before widening (equal to the used values when widen_* is 0) */
+	double sigma_pos_est_m, sigma_heading_est_rad, q_pos_est, q_heading_est;
+	int widen_pos, widen_heading;          /* widening steps (x4 variance, x10 q each) */
+	size_t restarts_pos, restarts_heading; /* filter restarts after runs of far detections */
 	double speed_threshold_mps, speed_sigma_mps;
 	double period_s; /* heading oscillation period, NaN if none found */
 	double window_s; /* settling window used */
 	double t_first_s, t_last_s;
-	double onset_s;          /* first sustained motion, NaN if still */
-	double trim_s;           /* rows before this are cut 'start' */
-	const char *trim_reason; /* "settled", "not-settled", "fixed", "none", "still", "too-short",
-	                            "no-detections" */
+	double onset_s;           /* first sustained motion, NaN if still */
+	double trim_s;            /* rows before this are cut 'start' */
+	const char *trim_reason;  /* "settled", "not-settled", "fixed", "none", "still", "too-short",
+	                             "no-detections" */
+	double settle_unjudged_s; /* time from the onset to where the trim was decided whose
+	                           * windows could not be judged (gaps) */
+	const char *turn_source;  /* turning rate of the settling test: "heading",
+	                           * "direction of travel", "none" */
 	double speed_ref_mps, yaw_ref_radps;     /* steady values (mean over the second half) */
 	double settle_tol_mps, settle_tol_radps; /* tolerances used */
 	double wall_s;                           /* rows from here are cut 'wall'; NaN none */
@@ -167,6 +183,9 @@ typedef struct {
 	int still;
 	double trim_s, end_s;                 /* NaN when none */
 	char trim_reason[24], end_reason[24]; /* as written */
+	double sigma_pos_m;                   /* the position noise used; NaN when absent */
+	int widened;                          /* the noise model was widened (position or heading) */
+	size_t outliers, measured;            /* detections rejected and used */
 	size_t nsegments;
 	wl_clean_segment *segments;
 } wl_clean_sidecar_robot;

@@ -31,7 +31,9 @@ typedef enum {
 	K_INT,       /* int count */
 	K_PERIOD,    /* derived: 1 / yaw_osc_freq_hz */
 	K_COMMANDED, /* double, in JSON only when given */
-	K_RATIO      /* derived: yaw period / commanded period, in JSON only when given */
+	K_RATIO,     /* derived: yaw period / commanded period, in JSON only when given */
+	K_VERDICT,   /* wl_verdict, a word */
+	K_REASONS    /* the reasons: an array of strings, one cell joined with "; " */
 } kind;
 
 typedef struct {
@@ -48,7 +50,11 @@ static const field FIELDS[WL_SUMCOL_N] = {
         {"id", "id", K_ID, R(id)},
         {"segment", "segment", K_LONG, R(segment)},
         {"headline", "headline", K_BOOL, R(headline)},
+        {"verdict", "verdict", K_VERDICT, M(verdict)},
+        {"verdict_reasons", "verdict_reasons", K_REASONS, M(reasons)},
         {"radius_m", "radius_m", K_NUM, M(radius_m)},
+        {"radius_ci95_m_lo", "radius_ci95_m", K_LO, M(radius_ci95_m)},
+        {"radius_ci95_m_hi", NULL, K_HI, M(radius_ci95_m)},
         {"curvature_per_m", "curvature_per_m", K_NUM, M(curvature_per_m)},
         {"curvature_ci95_per_m_lo", "curvature_ci95_per_m", K_LO, M(curvature_ci95_per_m)},
         {"curvature_ci95_per_m_hi", NULL, K_HI, M(curvature_ci95_per_m)},
@@ -59,12 +65,20 @@ static const field FIELDS[WL_SUMCOL_N] = {
         {"path_length_m", "path_length_m", K_NUM, M(path_length_m)},
         {"net_displacement_m", "net_displacement_m", K_NUM, M(net_displacement_m)},
         {"straightness", "straightness", K_NUM, M(straightness)},
+        {"straightness_ci95_lo", "straightness_ci95", K_LO, M(straightness_ci95)},
+        {"straightness_ci95_hi", NULL, K_HI, M(straightness_ci95)},
         {"mean_speed_mps", "mean_speed_mps", K_NUM, M(mean_speed_mps)},
+        {"mean_speed_ci95_mps_lo", "mean_speed_ci95_mps", K_LO, M(mean_speed_ci95_mps)},
+        {"mean_speed_ci95_mps_hi", NULL, K_HI, M(mean_speed_ci95_mps)},
         {"speed_sd_mps", "speed_sd_mps", K_NUM, M(speed_sd_mps)},
         {"mean_yaw_rate_degps", "mean_yaw_rate_degps", K_NUM, M(mean_yaw_rate_degps)},
         {"heading_drift_degps", "heading_drift_degps", K_NUM, M(heading_drift_degps)},
         {"yaw_osc_freq_hz", "yaw_osc_freq_hz", K_NUM, M(yaw_osc_freq_hz)},
+        {"yaw_osc_freq_ci95_hz_lo", "yaw_osc_freq_ci95_hz", K_LO, M(yaw_osc_freq_ci95_hz)},
+        {"yaw_osc_freq_ci95_hz_hi", NULL, K_HI, M(yaw_osc_freq_ci95_hz)},
         {"yaw_osc_amp_deg", "yaw_osc_amp_deg", K_NUM, M(yaw_osc_amp_deg)},
+        {"yaw_osc_amp_ci95_deg_lo", "yaw_osc_amp_ci95_deg", K_LO, M(yaw_osc_amp_ci95_deg)},
+        {"yaw_osc_amp_ci95_deg_hi", NULL, K_HI, M(yaw_osc_amp_ci95_deg)},
         {"sway_amp_m", "sway_amp_m", K_NUM, M(sway_amp_m)},
         {"trim_start_s", "trim_start_s", K_NUM, R(trim_start_s)},
         {"duration_s", "duration_s", K_NUM, M(duration_s)},
@@ -88,6 +102,30 @@ static const field FIELDS[WL_SUMCOL_N] = {
 };
 #undef R
 #undef M
+
+/* the budget (contracts.md) */
+static const char *const K_BUDGET = "budget", *const K_TOTAL_SE = "total_se", *const K_SOURCES = "sources",
+                         *const K_SOURCE = "source", *const K_SE = "se", *const K_SHARE = "share";
+static const char *const BUDGET_MEASURES[WL_BM_N] = {"curvature_per_m", "radius_m",        "mean_speed_mps",
+                                                     "yaw_osc_amp_deg", "yaw_osc_freq_hz", "straightness"};
+static const char *const BUDGET_SOURCES[WL_BS_N] = {"fit", "calibration", "plane_height", "intrinsics",
+                                                    "water_depth"};
+static const char *const VERDICTS[] = {"", "ok", "check", "reject"};
+
+const char *wl_budget_measure_key(wl_budget_measure m)
+{
+	return (unsigned)m < WL_BM_N ? BUDGET_MEASURES[m] : NULL;
+}
+
+const char *wl_budget_source_name(wl_budget_source s)
+{
+	return (unsigned)s < WL_BS_N ? BUDGET_SOURCES[s] : NULL;
+}
+
+const char *wl_verdict_name(wl_verdict v)
+{
+	return (unsigned)v <= WL_VERDICT_REJECT ? VERDICTS[v] : "";
+}
 
 /* provenance and the file's structure */
 static const char *const K_PROV = "provenance", *const K_RUNS = "runs", *const K_TOOL = "tool",
@@ -128,10 +166,25 @@ void wl_summary_measures_init(wl_summary_measures *m)
 	               &m->yaw_osc_amp_deg,
 	               &m->yaw_osc_r2,
 	               &m->sway_osc_freq_hz,
-	               &m->sway_amp_m};
+	               &m->sway_amp_m,
+	               &m->radius_ci95_m[0],
+	               &m->radius_ci95_m[1],
+	               &m->mean_speed_ci95_mps[0],
+	               &m->mean_speed_ci95_mps[1],
+	               &m->straightness_ci95[0],
+	               &m->straightness_ci95[1],
+	               &m->yaw_osc_amp_ci95_deg[0],
+	               &m->yaw_osc_amp_ci95_deg[1],
+	               &m->yaw_osc_freq_ci95_hz[0],
+	               &m->yaw_osc_freq_ci95_hz[1]};
 	memset(m, 0, sizeof *m);
 	for (size_t i = 0; i < sizeof d / sizeof d[0]; i++)
 		*d[i] = NAN;
+	for (int k = 0; k < WL_BM_N; k++) {
+		m->budget[k].total_se = NAN;
+		for (int s = 0; s < WL_BS_N; s++)
+			m->budget[k].se[s] = NAN;
+	}
 }
 
 void wl_summary_init(wl_summary *s)
@@ -217,6 +270,15 @@ char *wl_summary_cell(const wl_summary_run *r, wl_summary_col col, char *buf, si
 	case K_BOOL:
 		snprintf(buf, cap, "%s", ival(r, f) ? "true" : "false");
 		break;
+	case K_VERDICT:
+		snprintf(buf, cap, "%s", wl_verdict_name(r->m.verdict));
+		break;
+	case K_REASONS: {
+		size_t len = 0;
+		for (int i = 0; i < r->m.n_reasons && len < cap; i++)
+			len += (size_t)snprintf(buf + len, cap - len, "%s%s", i ? "; " : "", r->m.reasons[i]);
+		break;
+	}
 	case K_ID:
 	case K_LONG:
 	case K_SIZE:
@@ -243,6 +305,37 @@ static cJSON *num_item(double v)
 static void add_num(cJSON *o, const char *key, double v)
 {
 	cJSON_AddItemToObject(o, key, num_item(v));
+}
+
+/* "budget": per measure with a total, {"total_se", "sources": [{"source",
+ * "se", "share"}]}, the sources that enter, in the order of wl_budget_source. */
+void wl_summary_add_budget(cJSON *o, const wl_summary_measures *m)
+{
+	cJSON *b = NULL;
+	for (int k = 0; k < WL_BM_N; k++) {
+		const wl_summary_budget *bu = &m->budget[k];
+		cJSON *e, *a;
+		if (!isfinite(bu->total_se))
+			continue;
+		if (!b && !(b = cJSON_AddObjectToObject(o, K_BUDGET)))
+			return;
+		if (!(e = cJSON_AddObjectToObject(b, BUDGET_MEASURES[k])))
+			return;
+		add_num(e, K_TOTAL_SE, bu->total_se);
+		if (!(a = cJSON_AddArrayToObject(e, K_SOURCES)))
+			return;
+		for (int s = 0; s < WL_BS_N; s++) {
+			cJSON *src;
+			if (!isfinite(bu->se[s]) || !(src = cJSON_CreateObject()))
+				continue;
+			cJSON_AddStringToObject(src, K_SOURCE, BUDGET_SOURCES[s]);
+			add_num(src, K_SE, bu->se[s]);
+			add_num(src, K_SHARE,
+			        bu->total_se > 0 ? bu->se[s] * bu->se[s] / (bu->total_se * bu->total_se)
+			                         : NAN);
+			cJSON_AddItemToArray(a, src);
+		}
+	}
 }
 
 static cJSON *run_json(const wl_summary_run *r)
@@ -275,10 +368,20 @@ static cJSON *run_json(const wl_summary_run *r)
 			if (isfinite(r->commanded_period_s))
 				add_num(o, f->json, dval(r, f));
 			break;
+		case K_VERDICT:
+			if (r->m.verdict != WL_VERDICT_NONE)
+				cJSON_AddStringToObject(o, f->json, wl_verdict_name(r->m.verdict));
+			break;
+		case K_REASONS:
+			if (r->m.verdict != WL_VERDICT_NONE && (a = cJSON_AddArrayToObject(o, f->json)))
+				for (int k = 0; k < r->m.n_reasons; k++)
+					cJSON_AddItemToArray(a, cJSON_CreateString(r->m.reasons[k]));
+			break;
 		default:
 			add_num(o, f->json, dval(r, f));
 		}
 	}
+	wl_summary_add_budget(o, &r->m);
 	return o;
 }
 
@@ -509,8 +612,72 @@ static wl_status read_value(const char *name, size_t i, const field *f, const cJ
 			return bad(name, i, f->json, "a number or null", err);
 		*(double *)p = d;
 		break;
+	case K_VERDICT: {
+		int k = 0;
+		if (cJSON_IsString(v))
+			for (k = WL_VERDICT_REJECT; k > WL_VERDICT_NONE; k--)
+				if (strcmp(v->valuestring, VERDICTS[k]) == 0)
+					break;
+		if (k == WL_VERDICT_NONE)
+			return bad(name, i, f->json, "\"ok\", \"check\" or \"reject\"", err);
+		r->m.verdict = (wl_verdict)k;
+		break;
+	}
+	case K_REASONS: {
+		const cJSON *e;
+		if (!cJSON_IsArray(v))
+			return bad(name, i, f->json, "an array of strings", err);
+		r->m.n_reasons = 0;
+		cJSON_ArrayForEach(e, v)
+		{
+			if (!cJSON_IsString(e))
+				return bad(name, i, f->json, "an array of strings", err);
+			if (r->m.n_reasons < WL_SUMMARY_MAX_REASONS)
+				snprintf(r->m.reasons[r->m.n_reasons++], WL_SUMMARY_REASON_LEN, "%s",
+				         e->valuestring);
+		}
+		break;
+	}
 	default: /* derived values are computed again, not read */
 		break;
+	}
+	return WL_OK;
+}
+
+/* "budget" (see add_budget); a measure or source this version does not know
+ * is passed over. */
+static wl_status read_budget(const char *name, size_t i, const cJSON *b, wl_summary_run *r, wl_err *err)
+{
+	const cJSON *e;
+	if (!cJSON_IsObject(b))
+		return bad(name, i, K_BUDGET, "an object", err);
+	cJSON_ArrayForEach(e, b)
+	{
+		const cJSON *src, *srcs = cJSON_GetObjectItemCaseSensitive(e, K_SOURCES);
+		int k;
+		double d;
+		for (k = 0; k < WL_BM_N && strcmp(e->string, BUDGET_MEASURES[k]) != 0; k++)
+			;
+		if (k == WL_BM_N)
+			continue;
+		if (!cJSON_IsObject(e) || !num_or_null(cJSON_GetObjectItemCaseSensitive(e, K_TOTAL_SE), &d) ||
+		    !cJSON_IsArray(srcs))
+			return bad(name, i, K_BUDGET,
+			           "an object of {\"total_se\", \"sources\": [...]} per measure", err);
+		r->m.budget[k].total_se = d;
+		cJSON_ArrayForEach(src, srcs)
+		{
+			const cJSON *sn = cJSON_GetObjectItemCaseSensitive(src, K_SOURCE);
+			int s;
+			if (!cJSON_IsString(sn) ||
+			    !num_or_null(cJSON_GetObjectItemCaseSensitive(src, K_SE), &d))
+				return bad(name, i, K_BUDGET, "sources of {\"source\", \"se\", \"share\"}",
+				           err);
+			for (s = 0; s < WL_BS_N && strcmp(sn->valuestring, BUDGET_SOURCES[s]) != 0; s++)
+				;
+			if (s < WL_BS_N)
+				r->m.budget[k].se[s] = d;
+		}
 	}
 	return WL_OK;
 }
@@ -533,7 +700,10 @@ static wl_status read_run(const char *name, size_t i, const cJSON *o, wl_summary
 		const field *f = v->string ? find_key(v->string) : NULL;
 		if (!v->string)
 			continue;
-		st = f ? read_value(name, i, f, v, r, err) : read_extra(name, v, r, err);
+		if (strcmp(v->string, K_BUDGET) == 0)
+			st = read_budget(name, i, v, r, err);
+		else
+			st = f ? read_value(name, i, f, v, r, err) : read_extra(name, v, r, err);
 		if (st)
 			return st;
 		have_id |= f == &FIELDS[WL_SUMCOL_ID];

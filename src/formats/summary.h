@@ -10,7 +10,10 @@
  *
  * Unknown values are null in JSON and empty cells in CSV.  An interval
  * [lo, hi] under key k is an array in JSON and the columns k_lo, k_hi in CSV.
- * Booleans are true/false in both.
+ * Booleans are true/false in both.  "verdict_reasons" is an array of
+ * strings in JSON and one cell joined with "; " in CSV; "budget" (per
+ * measure the total standard error and each source's se and share) is in
+ * JSON only.
  *
  * Ownership: a wl_summary owns its runs and strings; wl_summary_release frees
  * them (wl_summary_init first).  Errors follow err.h.
@@ -21,6 +24,54 @@
 #include <stddef.h>
 
 #include "core/err.h"
+
+/* ---- the uncertainty budget and the verdict (contracts.md) ---- */
+
+/* The measures that carry an interval and a budget, and their keys under
+ * "budget": "curvature_per_m", "radius_m", "mean_speed_mps",
+ * "yaw_osc_amp_deg", "yaw_osc_freq_hz", "straightness". */
+typedef enum {
+	WL_BM_CURVATURE,
+	WL_BM_RADIUS,
+	WL_BM_SPEED,
+	WL_BM_YAW_AMP,
+	WL_BM_YAW_FREQ,
+	WL_BM_STRAIGHTNESS,
+	WL_BM_N
+} wl_budget_measure;
+
+/* Where uncertainty comes from: "fit" (the statistical fit, with its
+ * autocorrelated residual model), "calibration" (the camera model's own
+ * uncertainty), "plane_height" (the marker plane's tolerance), "intrinsics"
+ * (an assumed focal length or principal point), "water_depth". */
+typedef enum {
+	WL_BS_FIT,
+	WL_BS_CALIBRATION,
+	WL_BS_PLANE_HEIGHT,
+	WL_BS_INTRINSICS,
+	WL_BS_WATER_DEPTH,
+	WL_BS_N
+} wl_budget_source;
+
+/* One measure's budget: the total standard error and each source's (in the
+ * measure's unit); sources combine in quadrature, share = se² / total_se².
+ * NaN where the measure has no budget or the source does not enter. */
+typedef struct {
+	double total_se;
+	double se[WL_BS_N];
+} wl_summary_budget;
+
+const char *wl_budget_measure_key(wl_budget_measure m);
+const char *wl_budget_source_name(wl_budget_source s);
+
+/* A run's verdict: "ok", "check" (read the reasons before using the numbers)
+ * or "reject" (the method could not follow the run); NONE when no verdict
+ * was given (an older file). */
+typedef enum { WL_VERDICT_NONE = 0, WL_VERDICT_OK, WL_VERDICT_CHECK, WL_VERDICT_REJECT } wl_verdict;
+const char *wl_verdict_name(wl_verdict v); /* "" for NONE */
+
+#define WL_SUMMARY_MAX_REASONS 8
+#define WL_SUMMARY_REASON_LEN 200
 
 /* The measures of one run (the measure stage computes them; measure.h calls
  * this type wl_measure_result).  Every value is NaN when it could not be
@@ -42,7 +93,21 @@ typedef struct {
 	/* oscillation */
 	double yaw_osc_freq_hz, yaw_osc_amp_deg, yaw_osc_r2;
 	double sway_osc_freq_hz, sway_amp_m;
+	/* 95% intervals from the budget's total (the curvature's is above) */
+	double radius_ci95_m[2], mean_speed_ci95_mps[2], straightness_ci95[2];
+	double yaw_osc_amp_ci95_deg[2], yaw_osc_freq_ci95_hz[2];
+	wl_summary_budget budget[WL_BM_N];
+	/* the verdict and its reasons, short sentences for people */
+	wl_verdict verdict;
+	int n_reasons;
+	char reasons[WL_SUMMARY_MAX_REASONS][WL_SUMMARY_REASON_LEN];
 } wl_summary_measures;
+
+struct cJSON;
+/* Adds the "budget" object of summary.json (the measures with a total, as
+ * the writer spells them) to o; nothing when no measure has a budget.  For
+ * pages that show the budget as summary.json holds it. */
+void wl_summary_add_budget(struct cJSON *o, const wl_summary_measures *m);
 
 /* A key a reader did not know, kept as text (a newer writer's, or another
  * tool's): scalars as written, intervals as key_lo / key_hi. */
@@ -96,7 +161,11 @@ typedef enum {
 	WL_SUMCOL_ID,
 	WL_SUMCOL_SEGMENT,
 	WL_SUMCOL_HEADLINE,
+	WL_SUMCOL_VERDICT,
+	WL_SUMCOL_VERDICT_REASONS,
 	WL_SUMCOL_RADIUS,
+	WL_SUMCOL_RADIUS_LO,
+	WL_SUMCOL_RADIUS_HI,
 	WL_SUMCOL_CURVATURE,
 	WL_SUMCOL_CURVATURE_LO,
 	WL_SUMCOL_CURVATURE_HI,
@@ -107,12 +176,20 @@ typedef enum {
 	WL_SUMCOL_PATH_LENGTH,
 	WL_SUMCOL_NET_DISPLACEMENT,
 	WL_SUMCOL_STRAIGHTNESS,
+	WL_SUMCOL_STRAIGHTNESS_LO,
+	WL_SUMCOL_STRAIGHTNESS_HI,
 	WL_SUMCOL_MEAN_SPEED,
+	WL_SUMCOL_MEAN_SPEED_LO,
+	WL_SUMCOL_MEAN_SPEED_HI,
 	WL_SUMCOL_SPEED_SD,
 	WL_SUMCOL_MEAN_YAW_RATE,
 	WL_SUMCOL_HEADING_DRIFT,
 	WL_SUMCOL_YAW_FREQ,
+	WL_SUMCOL_YAW_FREQ_LO,
+	WL_SUMCOL_YAW_FREQ_HI,
 	WL_SUMCOL_YAW_AMP,
+	WL_SUMCOL_YAW_AMP_LO,
+	WL_SUMCOL_YAW_AMP_HI,
 	WL_SUMCOL_SWAY_AMP,
 	WL_SUMCOL_TRIM_START,
 	WL_SUMCOL_DURATION,
@@ -140,7 +217,7 @@ typedef enum {
 const char *wl_summary_col_name(wl_summary_col col);
 /* The cell text of a run in column col ("" when unknown); buf holds cap
  * bytes (WL_SUMMARY_CELL is always enough).  Returns buf. */
-#define WL_SUMMARY_CELL 64
+#define WL_SUMMARY_CELL (WL_SUMMARY_MAX_REASONS * (WL_SUMMARY_REASON_LEN + 2))
 char *wl_summary_cell(const wl_summary_run *r, wl_summary_col col, char *buf, size_t cap);
 
 #endif

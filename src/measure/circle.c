@@ -13,6 +13,7 @@
 
 #include "core/angle.h"
 #include "core/linalg.h"
+#include "measure/measure_priv.h"
 
 /* Centred moments used by the Pratt and Taubin fits (Chernov 2010, §5). */
 typedef struct {
@@ -500,17 +501,75 @@ static int levinson_aic(const double *g, int pmax, size_t n, double phi[AR_MAX +
 	return best;
 }
 
+/* See measure_priv.h.  Γ = W⁻¹ D W⁻ᵀ, W the innovations filter of the AR
+ * model of r (row i uses the order-min(i, p) predictor, D its innovation
+ * variances): then Jᵀ Γ J = Zᵀ D Z with Wᵀ Z = J, solved by back
+ * substitution.  J is overwritten by Z. */
+int wl_measure_ar_quadform(double *J, const double *r, size_t n, int np, double *Om)
+{
+	double acov[AR_MAX + 1] = {0}, v[AR_MAX + 1], phi[AR_MAX + 1][AR_MAX + 1];
+	int order, pmax = (int)(n / 10 < AR_MAX ? n / 10 : AR_MAX);
+	memset(Om, 0, (size_t)np * (size_t)np * sizeof *Om);
+	for (int k = 0; k <= pmax; k++) {
+		for (size_t i = (size_t)k; i < n; i++)
+			acov[k] += r[i] * r[i - k];
+		acov[k] /= (double)n;
+	}
+	if (!(acov[0] > 0))
+		return -1;
+	order = levinson_aic(acov, pmax, n, phi, v);
+	for (size_t ii = n; ii-- > 0;) {
+		double *zi = J + (size_t)np * ii;
+		for (int j = 1; j <= order && ii + (size_t)j < n; j++) {
+			size_t k = ii + (size_t)j;
+			int ord = k < (size_t)order ? (int)k : order;
+			if (j > ord)
+				continue;
+			for (int a = 0; a < np; a++)
+				zi[a] += phi[ord][j] * J[(size_t)np * k + a];
+		}
+	}
+	for (size_t i = 0; i < n; i++) {
+		double d = v[i < (size_t)order ? i : (size_t)order];
+		for (int a = 0; a < np; a++)
+			for (int b = 0; b < np; b++)
+				Om[np * a + b] += d * J[(size_t)np * i + a] * J[(size_t)np * i + b];
+	}
+	return order;
+}
+
+int wl_measure_sandwich(double *J, const double *r, size_t n, int np, double *C)
+{
+	double H[NP_MAX * NP_MAX] = {0}, Hi[NP_MAX * NP_MAX], Om[NP_MAX * NP_MAX], T[NP_MAX * NP_MAX];
+	int order;
+	if (np > NP_MAX || n <= (size_t)np)
+		return -2;
+	for (size_t i = 0; i < n; i++)
+		for (int a = 0; a < np; a++)
+			for (int b = 0; b < np; b++)
+				H[np * a + b] += J[(size_t)np * i + a] * J[(size_t)np * i + b];
+	if (!wl_invert(H, Hi, np))
+		return -2;
+	order = wl_measure_ar_quadform(J, r, n, np, Om);
+	if (order < 0) {
+		memset(C, 0, (size_t)np * (size_t)np * sizeof *C);
+		return 0;
+	}
+	wl_mat_mul(Hi, Om, T, np, np, np);
+	wl_mat_mul(T, Hi, C, np, np, np);
+	for (int a = 0; a < np * np; a++)
+		C[a] *= (double)n / (double)(n - (size_t)np);
+	return order;
+}
+
 wl_status wl_measure_curvature_se(const double *x, const double *y, const double *t, size_t n,
                                   const wl_geofit *f, double *se, int *order_out, wl_err *err)
 {
-	double H[NP_MAX * NP_MAX], Hi[NP_MAX * NP_MAX], Om[NP_MAX * NP_MAX] = {0}, T[NP_MAX * NP_MAX],
-	                                                            C[NP_MAX * NP_MAX], p[NP_MAX], g[NP_MAX],
-	                                                            acov[AR_MAX + 1] = {0}, v[AR_MAX + 1];
-	double phi[AR_MAX + 1][AR_MAX + 1];
+	double C[NP_MAX * NP_MAX], p[NP_MAX];
 	double *r = NULL, *Z = NULL;
 	problem pb = {x, y, t, NULL, n, f->ref_x_m, f->ref_y_m, 2 * WL_PI * f->sway_freq_hz, 3};
 	wl_status st = WL_OK;
-	int np, order, pmax;
+	int np, order;
 	if (f->sway_freq_hz > 0) {
 		if (!t)
 			return wl_err_set(err, WL_EINVAL,
@@ -529,51 +588,17 @@ wl_status wl_measure_curvature_se(const double *x, const double *y, const double
 		goto out;
 	}
 	packed(f, p);
-	normal_eq(&pb, p, H, g);
-	if (!wl_invert(H, Hi, np)) {
+	for (size_t i = 0; i < n; i++)
+		r[i] = presid(&pb, p, sin(p[2]), cos(p[2]), i, Z + (size_t)np * i);
+	/* the sandwich with an autoregressive model of the residual series
+	 * (Yule-Walker, order by AIC) */
+	order = wl_measure_sandwich(Z, r, n, np, C);
+	if (order < -1) {
 		st = wl_err_set(err, WL_EINVAL,
 		                "curvature uncertainty: the fit is singular (too few distinct points)");
 		goto out;
 	}
-	for (size_t i = 0; i < n; i++)
-		r[i] = presid(&pb, p, sin(p[2]), cos(p[2]), i, Z + (size_t)np * i); /* Z holds J for now */
-	/* an autoregressive model of the residual series (Yule-Walker, order by AIC) */
-	pmax = (int)(n / 10 < AR_MAX ? n / 10 : AR_MAX);
-	for (int k = 0; k <= pmax; k++) {
-		for (size_t i = (size_t)k; i < n; i++)
-			acov[k] += r[i] * r[i - k];
-		acov[k] /= (double)n;
-	}
-	if (!(acov[0] > 0)) {
-		*se = 0;
-		order = 0;
-		goto done;
-	}
-	order = levinson_aic(acov, pmax, n, phi, v);
-	/* Γ = W⁻¹ D W⁻ᵀ, W the innovations filter of the AR model (row i uses the
-	 * order-min(i, p) predictor, D its innovation variances): then
-	 * Jᵀ Γ J = Zᵀ D Z with Wᵀ Z = J, solved by back substitution */
-	for (size_t ii = n; ii-- > 0;) {
-		double *zi = Z + (size_t)np * ii;
-		for (int j = 1; j <= order && ii + (size_t)j < n; j++) {
-			size_t k = ii + (size_t)j;
-			int ord = k < (size_t)order ? (int)k : order;
-			if (j > ord)
-				continue;
-			for (int a = 0; a < np; a++)
-				zi[a] += phi[ord][j] * Z[(size_t)np * k + a];
-		}
-	}
-	for (size_t i = 0; i < n; i++) {
-		double d = v[i < (size_t)order ? i : (size_t)order];
-		for (int a = 0; a < np; a++)
-			for (int b = 0; b < np; b++)
-				Om[np * a + b] += d * Z[(size_t)np * i + a] * Z[(size_t)np * i + b];
-	}
-	wl_mat_mul(Hi, Om, T, np, np, np);
-	wl_mat_mul(T, Hi, C, np, np, np);
-	*se = sqrt(fmax(C[0], 0) * (double)n / (double)(n - (size_t)np));
-done:
+	*se = sqrt(fmax(C[0], 0));
 	if (order_out)
 		*order_out = order;
 out:

@@ -21,8 +21,8 @@ typedef struct {
 	long id;
 	double first_t_s, last_t_s;
 	long seg_line, segment;
-	size_t n, cap;
-	double *t, *x, *y, *h, *sp, *yr;
+	size_t n, cap, nout; /* rows; of them rejected as outliers */
+	double *t, *x, *y, *h, *sp, *yr, *hm;
 	unsigned char *meas;
 } robot;
 
@@ -32,11 +32,14 @@ typedef struct {
 	robot *robots;
 	size_t nrobots;
 	wl_summary *out;
-	long *first_line; /* of each run, for the message about a repeated segment */
+	long *first_line;      /* of each run, for the message about a repeated segment */
+	double *outlier_share; /* of each run, for its verdict */
 	size_t caprun;
 	int skipped;
-	int camera_known;   /* CLEAN.json beside the input carries the camera watch's record */
-	wl_rawside *camera; /* that record (owned) */
+	int camera_known;      /* CLEAN.json beside the input carries the camera watch's record */
+	wl_rawside *camera;    /* that record (owned) */
+	wl_clean_sidecar side; /* nrobots 0: none */
+	const wl_calib *cal;   /* the calibration of sys (its plane height is the default) */
 } ctx;
 
 void wl_measure_clean_opts_init(wl_measure_clean_opts *o)
@@ -44,6 +47,24 @@ void wl_measure_clean_opts_init(wl_measure_clean_opts *o)
 	memset(o, 0, sizeof *o);
 	wl_measure_opts_init(&o->run);
 	o->commanded_period_s = NAN;
+	o->plane_height_m = o->plane_height_sd_m = NAN;
+}
+
+/* The marker plane of robot id and its tolerance. */
+static void plane_of(const ctx *c, long id, double *z, double *sd)
+{
+	const wl_measure_clean_opts *o = c->o;
+	*z = o->plane_height_m;
+	*sd = o->plane_height_sd_m;
+	for (size_t i = 0; i < o->nplanes; i++)
+		if (o->planes[i].id == id) {
+			if (isfinite(o->planes[i].plane_height_m))
+				*z = o->planes[i].plane_height_m;
+			if (isfinite(o->planes[i].plane_height_sd_m))
+				*sd = o->planes[i].plane_height_sd_m;
+		}
+	if (!isfinite(*z))
+		*z = c->cal ? c->cal->plane_height_m : 0;
 }
 
 static void robot_release(robot *r)
@@ -52,6 +73,7 @@ static void robot_release(robot *r)
 	free(r->x);
 	free(r->y);
 	free(r->h);
+	free(r->hm);
 	free(r->sp);
 	free(r->yr);
 	free(r->meas);
@@ -60,7 +82,7 @@ static void robot_release(robot *r)
 static wl_status robot_grow(robot *r, wl_err *err)
 {
 	size_t cap = r->cap ? 2 * r->cap : 1024;
-	double **arr[] = {&r->t, &r->x, &r->y, &r->h, &r->sp, &r->yr};
+	double **arr[] = {&r->t, &r->x, &r->y, &r->h, &r->sp, &r->yr, &r->hm};
 	unsigned char *m;
 	for (size_t i = 0; i < sizeof arr / sizeof arr[0]; i++) {
 		double *p = realloc(*arr[i], cap * sizeof **arr[i]);
@@ -89,6 +111,12 @@ static wl_status add_run(ctx *c, wl_summary_run **o, wl_err *err)
 		if (!(l = realloc(c->first_line, cap * sizeof *l)))
 			return wl_err_set(err, WL_ENOMEM, "out of memory for %zu runs", cap);
 		c->first_line = l;
+		{
+			double *os = realloc(c->outlier_share, cap * sizeof *os);
+			if (!os)
+				return wl_err_set(err, WL_ENOMEM, "out of memory for %zu runs", cap);
+			c->outlier_share = os;
+		}
 		c->caprun = cap;
 	}
 	*o = &s->runs[s->nruns];
@@ -101,9 +129,9 @@ static wl_status add_run(ctx *c, wl_summary_run **o, wl_err *err)
  * measure is skipped with a warning; a repeated (id, segment) is an error. */
 static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 {
-	wl_measure_input in = {r->n, r->t, r->x, r->y, r->h, r->sp, r->yr, r->meas};
+	wl_measure_input in = {r->n, r->t, r->x, r->y, r->h, r->sp, r->yr, r->meas, r->hm};
 	wl_summary_run *o = NULL;
-	wl_status st;
+	wl_status st, rs;
 	wl_err e2;
 	if (r->n == 0)
 		return WL_OK;
@@ -117,7 +145,15 @@ static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 	if ((st = add_run(c, &o, err)))
 		return st;
 	wl_err_clear(&e2);
-	if (wl_measure_run(&in, &c->o->run, &o->m, &e2) != WL_OK) {
+	rs = wl_measure_run(&in, &c->o->run, &o->m, &e2);
+	if (rs == WL_OK && c->o->sys) {
+		double z, sd;
+		plane_of(c, r->id, &z, &sd);
+		if ((st = wl_measure_budget(&in, &c->o->run, c->o->sys, z, sd, &o->m, err)))
+			return wl_err_prefix(err, st, "%s:%ld: id %ld segment %ld", c->path, r->seg_line,
+			                     r->id, r->segment);
+	}
+	if (rs != WL_OK) {
 		wl_diag_warn(c->o->diag, "measure", "%s:%ld: id %ld segment %ld not measured: %s", c->path,
 		             r->seg_line, r->id, r->segment, e2.msg);
 		c->skipped++;
@@ -131,9 +167,11 @@ static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 			o->camera_suspect_s = wl_rawside_suspect_s(c->camera, r->t[0], r->t[r->n - 1]);
 		}
 		c->first_line[c->out->nruns] = r->seg_line;
+		c->outlier_share[c->out->nruns] = (double)r->nout / (double)r->n;
 		c->out->nruns++;
 	}
 	r->n = 0;
+	r->nout = 0;
 	return WL_OK;
 }
 
@@ -187,9 +225,35 @@ static wl_status on_row(const wl_clean_row *row, void *vctx, wl_err *err)
 		return st;
 	k = r->n++;
 	r->t[k] = row->t_s, r->x[k] = row->x_m, r->y[k] = row->y_m, r->h[k] = row->heading_rad;
-	r->sp[k] = row->speed_mps, r->yr[k] = row->yaw_rate_radps;
+	r->sp[k] = row->speed_mps, r->yr[k] = row->yaw_rate_radps, r->hm[k] = row->heading_meas_rad;
 	r->meas[k] = row->status == WL_ST_MEASURED;
+	r->nout += row->status == WL_ST_OUTLIER;
 	return WL_OK;
+}
+
+/* The verdict of every run, once the whole file is read (a robot's track
+ * length is known only at its end). */
+static void verdicts(ctx *c)
+{
+	for (size_t i = 0; i < c->out->nruns; i++) {
+		wl_summary_run *o = &c->out->runs[i];
+		wl_verdict_input v;
+		wl_verdict_input_init(&v);
+		v.outlier_share = c->outlier_share[i];
+		for (size_t k = 0; k < c->nrobots; k++)
+			if (c->robots[k].id == o->id && c->robots[k].last_t_s > c->robots[k].first_t_s)
+				v.trim_share =
+				        o->trim_start_s / (c->robots[k].last_t_s - c->robots[k].first_t_s);
+		for (size_t k = 0; k < c->side.nrobots; k++) {
+			const wl_clean_sidecar_robot *sr = &c->side.robots[k];
+			if (sr->id != o->id)
+				continue;
+			v.noise_pos_m = sr->sigma_pos_m;
+			v.widened = sr->widened;
+			v.not_settled = strcmp(sr->trim_reason, "not-settled") == 0;
+		}
+		wl_measure_verdict(&v, &o->m);
+	}
 }
 
 static int run_cmp(const void *pa, const void *pb)
@@ -245,6 +309,9 @@ static wl_status run(const char *name, const wl_measure_clean_opts *o, wl_summar
 	c.path = name;
 	c.o = o;
 	c.out = out;
+	c.cal = o->cal;
+	if (o->clean_sidecar && (st = wl_clean_sidecar_read(o->clean_sidecar, &c.side, err)))
+		goto out;
 	wl_summary_init(out);
 	out->body_diameter_m = o->run.body_diameter_m;
 	out->commanded_period_s = o->commanded_period_s;
@@ -264,6 +331,8 @@ static wl_status run(const char *name, const wl_measure_clean_opts *o, wl_summar
 		        err, WL_EFORMAT,
 		        "%s: no segment could be measured (%d skipped): check the clean stage's segments",
 		        name, c.skipped);
+	if (!st)
+		verdicts(&c);
 	if (!st) {
 		qsort(out->runs, out->nruns, sizeof *out->runs, run_cmp);
 		mark_headlines(out);
@@ -274,6 +343,8 @@ out:
 	free(c.robots);
 	free(c.first_line);
 	free(c.camera);
+	free(c.outlier_share);
+	wl_clean_sidecar_release(&c.side);
 	return st;
 }
 

@@ -25,6 +25,7 @@
 
 #include <stddef.h>
 
+#include "calib/calib.h"
 #include "core/diag.h"
 #include "core/err.h"
 #include "formats/summary.h"
@@ -139,6 +140,11 @@ typedef struct {
 	size_t n;
 	const double *t_s, *x_m, *y_m, *heading_rad, *speed_mps, *yaw_rate_radps;
 	const unsigned char *measured;
+	/* the detections' own headings (CLEAN.csv heading_meas_rad), NaN where
+	 * none; may be NULL.  When they cover at least half the rows with a
+	 * heading, the yaw oscillation is fitted to them (the smoothed heading
+	 * attenuates oscillations near the smoother's bandwidth). */
+	const double *heading_meas_rad;
 } wl_measure_input;
 
 typedef struct {
@@ -155,7 +161,9 @@ void wl_measure_opts_init(wl_measure_opts *o);
  * heading column...); the file has null there. */
 typedef wl_summary_measures wl_measure_result;
 
-/* Computes every measure of one run.  Fails (WL_EINVAL) only when fewer than
+/* Computes every measure of one run, with each interval's measure the fit's
+ * standard error (the "fit" entry of the budget; wl_measure_budget adds the
+ * systematic sources).  Fails (WL_EINVAL) only when fewer than
  * 5 rows have a position or times are not increasing; weaker data gives NaN
  * fields instead. */
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *out,
@@ -170,13 +178,103 @@ wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt,
  * (every value when the circle could not be fitted). */
 wl_status wl_measure_run_series(const wl_measure_input *in, const wl_measure_opts *opt,
                                 wl_measure_result *out, double *yaw_rad, double *offset_m, wl_err *err);
+/* Sets every 95% interval from the budget's totals (curvature_se_per_m
+ * becomes the curvature's total): value ± 1.96 total_se, the radius's the
+ * curvature's inverted. */
+void wl_measure_set_intervals(wl_measure_result *r);
+
+/* ---- the uncertainty budget --------------------------------------------- */
+
+/* The tolerances of what the lab gave, as standard uncertainties (defaults
+ * in docs/measure.md): the marker plane's height (a robot's own, from
+ * ROBOTS.csv, overrides it), the water depth, a focal length assumed from
+ * --hfov-deg (relative), a principal point assumed at the image centre
+ * (fraction of the width). */
+typedef struct {
+	double plane_height_sd_m, water_depth_sd_m, focal_sd_frac, principal_sd_frac;
+	int calib_jackknife; /* 1 (default): the calibration's own uncertainty by the jackknife */
+} wl_measure_tolerances;
+
+void wl_measure_tolerances_init(wl_measure_tolerances *t);
+
+/* The camera part of the budget: for each uncertain input (a direction), how
+ * a tank position on a marker plane moves when the input moves by one
+ * standard deviation, through the camera model (sysmodel.c).  Created from
+ * the calibration the positions came from; freed with
+ * wl_measure_sys_destroy. */
+typedef struct wl_measure_sys wl_measure_sys;
+
+#define WL_SYS_MAX_DIR 24
+
+wl_status wl_measure_sys_create(const wl_calib *cal, const wl_measure_tolerances *tol, wl_measure_sys **out,
+                                wl_err *err);
+void wl_measure_sys_destroy(wl_measure_sys *s);
+int wl_measure_sys_ndir(const wl_measure_sys *s);
+wl_budget_source wl_measure_sys_source(const wl_measure_sys *s, int k);
+const char *wl_measure_sys_name(const wl_measure_sys *s, int k);
+double wl_measure_sys_sd(const wl_measure_sys *s, int k);
+/* The displacements (dx[k], dy[k], metres) of the tank point (x, y) on the
+ * plane z for every direction k.  Returns 0 when the point is outside the
+ * camera model. */
+int wl_measure_sys_displace(const wl_measure_sys *s, double x_m, double y_m, double z_m, double *dx,
+                            double *dy);
+
+/* Adds the systematic sources to a run's budget: every direction of sys
+ * moves the run's positions (and, through the map's local Jacobian, its
+ * speeds and headings) by ± one standard deviation, the run is measured
+ * again, and half the difference is that direction's effect on each
+ * measure (first order, central differences); directions of one source add
+ * in quadrature, sources too, the fit's included.  plane_z_m is the robot's
+ * marker plane; plane_sd_m its tolerance (NaN: the one sys was made with).
+ * Then the intervals are set from the totals and the straight rule is
+ * applied to the total curvature interval.  r must come from wl_measure_run
+ * on the same input. */
+wl_status wl_measure_budget(const wl_measure_input *in, const wl_measure_opts *opt, const wl_measure_sys *sys,
+                            double plane_z_m, double plane_sd_m, wl_measure_result *r, wl_err *err);
+
+/* ---- the verdict ---------------------------------------------------------- */
+
+/* What the verdict needs beyond a run's measures (verdict.c). */
+typedef struct {
+	double outlier_share;  /* the run's rows rejected as outliers / its rows; NaN: unknown */
+	double trim_share;     /* the robot's track cut at its start / the track's length; NaN: unknown */
+	int not_settled;       /* the clean stage found no steady motion */
+	int widened;           /* the clean stage widened its noise model (recorded, not a reason:
+	                        * a tracker's slowly varying errors often make it) */
+	double noise_pos_m;    /* the track's position noise; NaN: unknown (1 mm is assumed) */
+	int camera_moves;      /* camera moves up to the run's end, registered again */
+	int camera_moves_lost; /* ... and not */
+} wl_verdict_input;
+
+void wl_verdict_input_init(wl_verdict_input *v);
+
+/* Sets r->verdict and its reasons from the run's measures, its budget and v
+ * (rules and thresholds in docs/measure.md, "Verdict"). */
+void wl_measure_verdict(const wl_verdict_input *v, wl_measure_result *r);
 
 /* ---- the stage: CLEAN.csv -> the runs of SUMMARY.json -------------------- */
+
+/* A robot's own marker plane and its tolerance (ROBOTS.csv). */
+typedef struct {
+	long id;
+	double plane_height_m;    /* NaN: the default */
+	double plane_height_sd_m; /* NaN: the default */
+} wl_measure_plane;
 
 typedef struct {
 	wl_measure_opts run;       /* for every run */
 	double commanded_period_s; /* NaN: none; recorded and compared with the yaw period */
 	const wl_diag *diag;       /* a segment too short to measure is a warning */
+	/* the budget's camera part (NULL: the budget holds the fit alone) and the
+	 * marker planes: a robot's own, else plane_height_m (NaN: the
+	 * calibration's), with their tolerances (NaN: the one sys was made with) */
+	const wl_measure_sys *sys;
+	const wl_calib *cal; /* the calibration sys was made from */
+	double plane_height_m, plane_height_sd_m;
+	const wl_measure_plane *planes;
+	size_t nplanes;
+	/* CLEAN.json, for the verdict (noise, widening, settling); NULL: none */
+	const char *clean_sidecar;
 } wl_measure_clean_opts;
 
 void wl_measure_clean_opts_init(wl_measure_clean_opts *o);

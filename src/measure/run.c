@@ -10,6 +10,7 @@
 
 #include "core/angle.h"
 #include "core/linalg.h"
+#include "measure/measure_priv.h"
 
 void wl_measure_opts_init(wl_measure_opts *o)
 {
@@ -447,6 +448,159 @@ static void circle_measures(const double *t, const double *x, const double *y, s
 	}
 }
 
+/* ---- the fit's standard errors of the other measures ---------------------- */
+
+/* Standard error of the mean of the finite values of v, for an
+ * autocorrelated series (the AR residual model of measure_priv.h). */
+static double mean_se(const double *v, size_t n)
+{
+	double *J = malloc((n ? n : 1) * sizeof *J), *r = malloc((n ? n : 1) * sizeof *r), mean = 0, C;
+	size_t m = 0;
+	if (!J || !r) {
+		free(J);
+		free(r);
+		return NAN;
+	}
+	for (size_t i = 0; i < n; i++)
+		if (isfinite(v[i]))
+			mean += v[i], r[m++] = v[i];
+	mean /= (double)(m ? m : 1);
+	for (size_t i = 0; i < m; i++) {
+		r[i] -= mean;
+		J[i] = 1;
+	}
+	C = m >= 20 && wl_measure_sandwich(J, r, m, 1, &C) >= 0 ? sqrt(C) : NAN;
+	free(J);
+	free(r);
+	return C;
+}
+
+/* Standard error of the straightness D / L of the m positions, from the
+ * lateral offsets off[] of the positions from the mean path, read as an
+ * autocorrelated noise: to first order a lateral move e_i of position i
+ * changes it by g_i e_i, with g_i = (dD/dp_i - S dL/dp_i) / L along the
+ * normal of the path there (dL/dp_i = u_i - u_(i+1), the unit steps; dD/dp
+ * is the unit chord at the ends), so its variance is g' Γ g. */
+static double straightness_se(const double *x, const double *y, size_t m, const double *off, double S,
+                              double L)
+{
+	double *g = malloc((m ? m : 1) * sizeof *g), Om, cx, cy, cl;
+	int ok;
+	if (!g || m < 20 || !(L > 0)) {
+		free(g);
+		return NAN;
+	}
+	cx = x[m - 1] - x[0], cy = y[m - 1] - y[0], cl = hypot(cx, cy);
+	for (size_t i = 0; i < m; i++) {
+		double ux0 = 0, uy0 = 0, ux1 = 0, uy1 = 0, gx, gy, nx, ny, d;
+		size_t a = i ? i - 1 : i, b = i + 1 < m ? i + 1 : i;
+		if (i > 0 && (d = hypot(x[i] - x[i - 1], y[i] - y[i - 1])) > 0)
+			ux0 = (x[i] - x[i - 1]) / d, uy0 = (y[i] - y[i - 1]) / d;
+		if (i + 1 < m && (d = hypot(x[i + 1] - x[i], y[i + 1] - y[i])) > 0)
+			ux1 = (x[i + 1] - x[i]) / d, uy1 = (y[i + 1] - y[i]) / d;
+		gx = -S * (ux0 - ux1), gy = -S * (uy0 - uy1);
+		if (cl > 0 && i == 0)
+			gx -= cx / cl, gy -= cy / cl;
+		if (cl > 0 && i == m - 1)
+			gx += cx / cl, gy += cy / cl;
+		/* the normal: left of the local direction of travel */
+		d = hypot(x[b] - x[a], y[b] - y[a]);
+		nx = d > 0 ? -(y[b] - y[a]) / d : 0, ny = d > 0 ? (x[b] - x[a]) / d : 0;
+		g[i] = (gx * nx + gy * ny) / L;
+	}
+	ok = wl_measure_ar_quadform(g, off, m, 1, &Om) >= 0;
+	free(g);
+	return ok ? sqrt(fmax(Om, 0)) : NAN;
+}
+
+/* Standard errors of the amplitude and frequency of the sine fit o of v(t)
+ * (NaN samples skipped): the sandwich of the fit c + A sin(2π f (t - tm) +
+ * φ) in (c, A, φ, f) with the AR model of its residuals. */
+static void osc_se(const double *t, const double *v, size_t n, const wl_osc *o, double *se_amp, double *se_f)
+{
+	double *J = malloc(4 * (n ? n : 1) * sizeof *J), *r = malloc((n ? n : 1) * sizeof *r), C[16],
+	       tm = NAN, c = 0, ph, w = 2 * WL_PI * o->freq_hz;
+	size_t m = 0;
+	*se_amp = *se_f = NAN;
+	if (!J || !r || !isfinite(o->freq_hz) || !isfinite(o->amp))
+		goto out;
+	for (size_t i = 0; i < n; i++)
+		if (isfinite(v[i]) && !isfinite(tm))
+			tm = t[i];
+	for (size_t i = n; i-- > 0;)
+		if (isfinite(v[i])) {
+			tm = 0.5 * (tm + t[i]);
+			break;
+		}
+	ph = o->phase_rad + w * tm; /* the phase at tm */
+	for (size_t i = 0; i < n; i++)
+		if (isfinite(v[i])) {
+			c += v[i] - o->amp * sin(w * (t[i] - tm) + ph);
+			m++;
+		}
+	if (m < 20)
+		goto out;
+	c /= (double)m;
+	m = 0;
+	for (size_t i = 0; i < n; i++) {
+		double th, s, co, *j;
+		if (!isfinite(v[i]))
+			continue;
+		th = w * (t[i] - tm) + ph, s = sin(th), co = cos(th), j = J + 4 * m;
+		j[0] = 1, j[1] = s, j[2] = o->amp * co, j[3] = o->amp * co * 2 * WL_PI * (t[i] - tm);
+		r[m++] = v[i] - c - o->amp * s;
+	}
+	if (wl_measure_sandwich(J, r, m, 4, C) >= 0) {
+		*se_amp = sqrt(fmax(C[5], 0));
+		*se_f = sqrt(fmax(C[15], 0));
+	}
+out:
+	free(J);
+	free(r);
+}
+
+/* Fills the fit's entry of each measure's budget, the totals (the fit alone
+ * so far) and the 95% intervals; wl_measure_budget adds the systematic
+ * sources. */
+static void fit_budget(wl_measure_result *r, double se_speed, double se_straight, double se_amp_deg,
+                       double se_f)
+{
+	double se[WL_BM_N] = {r->curvature_se_per_m, NAN, se_speed, se_amp_deg, se_f, se_straight};
+	if (!r->straight && isfinite(r->curvature_se_per_m))
+		se[WL_BM_RADIUS] = r->curvature_se_per_m / (r->curvature_per_m * r->curvature_per_m);
+	for (int k = 0; k < WL_BM_N; k++) {
+		r->budget[k].se[WL_BS_FIT] = se[k];
+		r->budget[k].total_se = se[k];
+	}
+	wl_measure_set_intervals(r);
+}
+
+void wl_measure_set_intervals(wl_measure_result *r)
+{
+	const double q = 1.959964;
+	struct {
+		double v, *ci;
+		int k;
+	} iv[] = {{r->curvature_per_m, r->curvature_ci95_per_m, WL_BM_CURVATURE},
+	          {r->mean_speed_mps, r->mean_speed_ci95_mps, WL_BM_SPEED},
+	          {r->yaw_osc_amp_deg, r->yaw_osc_amp_ci95_deg, WL_BM_YAW_AMP},
+	          {r->yaw_osc_freq_hz, r->yaw_osc_freq_ci95_hz, WL_BM_YAW_FREQ},
+	          {r->straightness, r->straightness_ci95, WL_BM_STRAIGHTNESS}};
+	for (size_t i = 0; i < sizeof iv / sizeof iv[0]; i++) {
+		double se = r->budget[iv[i].k].total_se;
+		iv[i].ci[0] = isfinite(se) ? iv[i].v - q * se : NAN;
+		iv[i].ci[1] = isfinite(se) ? iv[i].v + q * se : NAN;
+	}
+	if (isfinite(r->curvature_se_per_m))
+		r->curvature_se_per_m = r->budget[WL_BM_CURVATURE].total_se;
+	/* the radius's interval is the curvature's, inverted (exact, asymmetric) */
+	r->radius_ci95_m[0] = r->radius_ci95_m[1] = NAN;
+	if (!r->straight && (r->curvature_ci95_per_m[0] > 0 || r->curvature_ci95_per_m[1] < 0)) {
+		r->radius_ci95_m[0] = 1 / r->curvature_ci95_per_m[1];
+		r->radius_ci95_m[1] = 1 / r->curvature_ci95_per_m[0];
+	}
+}
+
 /* The yaw about the mean path (circle, or line when straight) and the
  * lateral offset from it, per row, unwrapped and detrended as analysed;
  * raw_off (may be NULL) receives the offsets before detrending. */
@@ -454,6 +608,18 @@ static void osc_series(const wl_measure_input *in, const wl_geofit *gf, const wl
                        double *sway, double *yaw, double *raw_off)
 {
 	double ux = NAN, uy = NAN, mx = 0, my = 0, m = 0;
+	const double *hsrc = in->heading_rad;
+	size_t nh = 0, nhm = 0;
+	/* the detections' own headings where they cover at least half the rows
+	 * with a heading: a smoother attenuates an oscillation near its
+	 * bandwidth (by a fifth at 2.7 Hz in 15 fps clips), a least-squares
+	 * sine through the detections does not */
+	for (size_t i = 0; hsrc && in->heading_meas_rad && i < in->n; i++) {
+		nh += isfinite(in->heading_rad[i]);
+		nhm += isfinite(in->heading_meas_rad[i]);
+	}
+	if (nh > 0 && 2 * nhm >= nh)
+		hsrc = in->heading_meas_rad;
 	if (r->straight) { /* total-least-squares line through the positions */
 		double a[4] = {0}, ev[2], vec[4], fx = NAN, fy = NAN, lx = NAN, ly = NAN;
 		for (size_t i = 0; i < in->n; i++)
@@ -476,7 +642,7 @@ static void osc_series(const wl_measure_input *in, const wl_geofit *gf, const wl
 			ux = -ux, uy = -uy;
 	}
 	for (size_t i = 0; i < in->n; i++) {
-		double X = in->x_m[i], Y = in->y_m[i], h = in->heading_rad ? in->heading_rad[i] : NAN, expect;
+		double X = in->x_m[i], Y = in->y_m[i], h = hsrc ? hsrc[i] : NAN, expect;
 		if (!isfinite(X) || !isfinite(Y)) {
 			sway[i] = yaw[i] = NAN;
 			continue;
@@ -500,16 +666,20 @@ static void osc_series(const wl_measure_input *in, const wl_geofit *gf, const wl
 
 /* Yaw and sway oscillation about the mean path. */
 static void oscillation_measures(const wl_measure_input *in, const wl_measure_opts *opt, const wl_geofit *gf,
-                                 wl_measure_result *r, double *sway, double *yaw, double *raw_off)
+                                 wl_measure_result *r, double *sway, double *yaw, double *raw_off,
+                                 double *se_amp_deg, double *se_f)
 {
 	double f_lo, f_hi;
 	wl_osc o;
 	osc_series(in, gf, r, sway, yaw, raw_off);
 	osc_band(opt, r, &f_lo, &f_hi);
 	if (wl_measure_oscillation(in->t_s, yaw, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
+		double se_amp;
 		r->yaw_osc_freq_hz = o.freq_hz;
 		r->yaw_osc_amp_deg = o.amp / WL_DEG;
 		r->yaw_osc_r2 = o.r2;
+		osc_se(in->t_s, yaw, in->n, &o, &se_amp, se_f);
+		*se_amp_deg = se_amp / WL_DEG;
 	}
 	if (wl_measure_oscillation(in->t_s, sway, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
 		r->sway_osc_freq_hz = o.freq_hz;
@@ -566,9 +736,16 @@ static wl_status run_core(const wl_measure_input *in, const wl_measure_opts *opt
 	path_measures(in, x, y, m, r, hd);
 	circle_measures(tc, x, y, m, opt, r, &gf, sway);
 	if (isfinite(gf.kappa_per_m)) {
-		oscillation_measures(in, opt, &gf, r, sway, yaw, off_out);
+		double se_amp = NAN, se_f = NAN, se_s;
+		oscillation_measures(in, opt, &gf, r, sway, yaw, off_out, &se_amp, &se_f);
 		if (yaw_out)
 			memcpy(yaw_out, yaw, in->n * sizeof *yaw);
+		/* the lateral offsets from the mean path, for the straightness */
+		for (size_t i = 0, k = 0; i < in->n; i++)
+			if (isfinite(in->x_m[i]) && isfinite(in->y_m[i]))
+				hd[k++] = isfinite(sway[i]) ? sway[i] : 0;
+		se_s = straightness_se(x, y, m, hd, r->straightness, r->path_length_m);
+		fit_budget(r, in->speed_mps ? mean_se(in->speed_mps, in->n) : NAN, se_s, se_amp, se_f);
 	}
 out:
 	free(x);

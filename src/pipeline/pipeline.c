@@ -24,7 +24,44 @@ void wl_process_opts_init(wl_process_opts *o)
 	wl_watch_opts_init(&o->watch);
 	wl_clean_params_init(&o->clean);
 	wl_measure_clean_opts_init(&o->measure);
+	wl_measure_tolerances_init(&o->tol);
+	o->budget = 1;
 	o->plots = 1;
+}
+
+wl_status wl_process_budget_setup(const wl_calib *cal, const wl_track_opts *t,
+                                  const wl_measure_tolerances *tol, wl_measure_clean_opts *m,
+                                  wl_process_budget *b, wl_err *err)
+{
+	wl_status st;
+	memset(b, 0, sizeof *b);
+	if ((st = wl_measure_sys_create(cal, tol, &b->sys, err)))
+		return st;
+	if (t->n_robots > 0) {
+		if (!(b->planes = calloc((size_t)t->n_robots, sizeof *b->planes)))
+			return wl_err_set(err, WL_ENOMEM, "out of memory for the robots' planes");
+		for (int i = 0; i < t->n_robots; i++) {
+			b->planes[i].id = t->robots[i].id;
+			b->planes[i].plane_height_m = t->robots[i].plane_height_m;
+			b->planes[i].plane_height_sd_m = t->robots[i].plane_height_tol_m;
+		}
+	}
+	m->sys = b->sys;
+	m->cal = cal;
+	m->plane_height_m = t->plane_height_m;
+	m->plane_height_sd_m = tol->plane_height_sd_m;
+	m->planes = b->planes;
+	m->nplanes = t->n_robots > 0 ? (size_t)t->n_robots : 0;
+	return WL_OK;
+}
+
+void wl_process_budget_release(wl_process_budget *b)
+{
+	if (!b)
+		return;
+	wl_measure_sys_destroy(b->sys);
+	free(b->planes);
+	memset(b, 0, sizeof *b);
 }
 
 static void hsv(FILE *f, const char *name, const wl_hsv_range *r)
@@ -48,8 +85,8 @@ static void describe_track(FILE *f, const wl_track_opts *t)
 	        t->readout_s);
 	for (int i = 0; i < t->n_robots; i++) {
 		const wl_robot_spec *r = &t->robots[i];
-		fprintf(f, "robot id=%d plane=%.17g offset=%.17g body=%.17g", r->id, r->plane_height_m,
-		        r->heading_offset_rad, r->body_diameter_m);
+		fprintf(f, "robot id=%d plane=%.17g tol=%.17g offset=%.17g body=%.17g", r->id,
+		        r->plane_height_m, r->plane_height_tol_m, r->heading_offset_rad, r->body_diameter_m);
 		hsv(f, "front", &r->front);
 		hsv(f, "back", &r->back);
 		fputc('\n', f);
@@ -61,11 +98,11 @@ static void describe_clean(FILE *f, const wl_clean_params *c, int tank_rect)
 	fprintf(f,
 	        "clean smoother=%d model=%d sigma=%.17g,%.17g q=%.17g,%.17g gate=%.17g sg=%d,%d gap=%.17g "
 	        "trim=%d,%.17g settle=%.17g,%.17g window=%.17g speed=%.17g segment=%.17g body=%.17g "
-	        "wall=%.17g rate=%.17g tank=%d",
+	        "wall=%.17g rate=%.17g tank=%d maxreject=%.17g",
 	        (int)c->smoother, c->model_dim, c->sigma_pos_m, c->sigma_heading_rad, c->q_pos, c->q_heading,
 	        c->gate_prob, c->sg_window, c->sg_order, c->max_gap_s, (int)c->trim, c->trim_s, c->settle_tol,
 	        c->settle_yaw_tol_radps, c->default_window_s, c->min_speed_mps, c->min_segment_s,
-	        c->body_diameter_m, c->wall_margin_m, c->rate_hz, tank_rect);
+	        c->body_diameter_m, c->wall_margin_m, c->rate_hz, tank_rect, c->max_reject_frac);
 	for (int i = 0; i < c->n_outline; i++)
 		fprintf(f, " %.17g,%.17g", c->outline_m[i][0], c->outline_m[i][1]);
 	fputc('\n', f);
@@ -85,6 +122,9 @@ char *wl_process_opts_describe(const wl_process_opts *o)
 	describe_clean(f, &o->clean, o->tank_rect);
 	fprintf(f, "measure arc=%.17g body=%.17g osc=%.17g..%.17g commanded=%.17g plots=%d\n", m->min_arc_deg,
 	        m->body_diameter_m, m->osc_fmin_hz, m->osc_fmax_hz, o->measure.commanded_period_s, o->plots);
+	fprintf(f, "budget on=%d plane=%.17g water=%.17g focal=%.17g principal=%.17g jackknife=%d\n",
+	        o->budget, o->tol.plane_height_sd_m, o->tol.water_depth_sd_m, o->tol.focal_sd_frac,
+	        o->tol.principal_sd_frac, o->tol.calib_jackknife);
 	if (fclose(f) != 0) {
 		free(text);
 		return NULL;
@@ -171,15 +211,21 @@ out:
 	return st;
 }
 
-static wl_status measure(const paths *p, const wl_process_opts *o, wl_process_result *res, wl_err *err)
+static wl_status measure(const wl_calib *cal, const paths *p, const wl_process_opts *o,
+                         wl_process_result *res, wl_err *err)
 {
 	wl_measure_clean_opts mo = o->measure;
-	wl_status st;
+	wl_process_budget b = {0};
+	wl_status st = WL_OK;
 	mo.diag = o->diag;
+	mo.clean_sidecar = p->sidecar; /* the verdict reads what clean did */
 	wl_summary_release(&res->summary);
-	if ((st = wl_measure_clean(p->clean, &mo, &res->summary, err)))
-		return st;
-	return wl_summary_write(p->summary, NULL, &res->summary, err);
+	if (o->budget)
+		st = wl_process_budget_setup(cal, &o->track, &o->tol, &mo, &b, err);
+	if (!st && !(st = wl_measure_clean(p->clean, &mo, &res->summary, err)))
+		st = wl_summary_write(p->summary, NULL, &res->summary, err);
+	wl_process_budget_release(&b);
+	return st;
 }
 
 static wl_status plots(const wl_calib *cal, const char *out_dir, const wl_process_opts *o, wl_err *err)
@@ -207,7 +253,7 @@ static wl_status plots(const wl_calib *cal, const char *out_dir, const wl_proces
 
 wl_status wl_process_analyse_run(const wl_report_seg *in, wl_report_seg_analysis *out)
 {
-	wl_measure_input mi;
+	wl_measure_input mi = {0}; /* no detections' own headings: the smoothed ones */
 	wl_measure_opts opt;
 	wl_measure_result res;
 	wl_status st;
@@ -243,7 +289,7 @@ wl_status wl_process_clip(const char *clip, const wl_calib *cal, const char *cal
 	if ((st = clean(cal, cal_path, &p, o, res, err)))
 		return st;
 	res->stage_failed = 3;
-	if ((st = measure(&p, o, res, err)))
+	if ((st = measure(cal, &p, o, res, err)))
 		return st;
 	res->stage_failed = 4;
 	if (o->plots && (st = plots(cal, out_dir, o, err)))

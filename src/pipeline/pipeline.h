@@ -40,7 +40,10 @@ typedef struct {
 	wl_clean_params clean;         /* smoothing, gaps, trim, wall; with n_outline == 0 the outline is
 	                                  the calibration's tank_outline_m */
 	int tank_rect;                 /* 1: clean.outline_m is a rectangle given by hand */
-	wl_measure_clean_opts measure; /* min arc, body diameter, commanded period (its diag is o->diag) */
+	wl_measure_clean_opts measure; /* min arc, body diameter, commanded period (its diag is o->diag;
+	                                  its budget and sidecar are set by wl_process_clip) */
+	wl_measure_tolerances tol;     /* the uncertainty budget's tolerances (docs/measure.md) */
+	int budget;                    /* 1 (default): the budget's sources from the calibration */
 	int decode_threads;            /* 0: all cores */
 	int plots;                     /* 1 (default): trail.png, the path and heading plots, run.html */
 	const wl_diag *diag;           /* warnings and progress (may be NULL) */
@@ -50,6 +53,22 @@ typedef struct {
 	size_t nparams;
 	const char *const *param_names, *const *param_values;
 } wl_process_opts;
+
+/* The measure stage's uncertainty budget for a calibration: the camera part
+ * (the calibration solved again per uncertain input, with tolerances tol)
+ * and the marker planes of the tracker's robots (ROBOTS.csv's
+ * plane_height_m and plane_height_tol_m, else t->plane_height_m), set into
+ * m, which then borrows b's contents: release b (with
+ * wl_process_budget_release, also after a failure) after the last use of m.
+ * wl_process_clip does this itself; `wakeline measure --cal` calls it. */
+typedef struct {
+	wl_measure_sys *sys;
+	wl_measure_plane *planes;
+} wl_process_budget;
+wl_status wl_process_budget_setup(const wl_calib *cal, const wl_track_opts *t,
+                                  const wl_measure_tolerances *tol, wl_measure_clean_opts *m,
+                                  wl_process_budget *b, wl_err *err);
+void wl_process_budget_release(wl_process_budget *b);
 
 /* The documented defaults of every stage, plots on. */
 void wl_process_opts_init(wl_process_opts *o);

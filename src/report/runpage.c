@@ -213,7 +213,7 @@ static double colval(const wl_summary_run *run, wl_summary_col col)
 
 /* The run as the page's script reads it: every column of the per-run table
  * under its name (numbers, true/false, null when unknown), the keys the
- * reader kept as text, and verdict_reasons as a list. */
+ * reader kept as text; verdict_reasons as a list. */
 static cJSON *run_object(const wl_summary_run *run)
 {
 	cJSON *o = cJSON_CreateObject();
@@ -221,31 +221,24 @@ static cJSON *run_object(const wl_summary_run *run)
 	double v;
 	for (int c = 0; o && c < WL_SUMCOL_N; c++) {
 		const char *name = wl_summary_col_name((wl_summary_col)c);
+		if (c == WL_SUMCOL_VERDICT_REASONS) { /* a list, as in summary.json */
+			cJSON *a = cJSON_AddArrayToObject(o, name);
+			for (int k = 0; a && k < run->m.n_reasons; k++)
+				cJSON_AddItemToArray(a, cJSON_CreateString(run->m.reasons[k]));
+			continue;
+		}
 		wl_summary_cell(run, (wl_summary_col)c, cell, sizeof cell);
 		if (!strcmp(cell, "true") || !strcmp(cell, "false"))
 			cJSON_AddBoolToObject(o, name, cell[0] == 't');
 		else if (wl_parse_double(cell, &v))
 			cJSON_AddNumberToObject(o, name, v);
+		else if (cell[0])
+			cJSON_AddStringToObject(o, name, cell); /* the verdict */
 		else
 			cJSON_AddNullToObject(o, name);
 	}
-	for (size_t i = 0; o && i < run->nextra; i++) {
-		const char *k = run->extra[i].key, *val = run->extra[i].value;
-		if (!strcmp(k, "verdict_reasons")) { /* joined with "; " by the reader */
-			cJSON *a = cJSON_AddArrayToObject(o, k);
-			const char *p = val, *q;
-			while (a && *p) {
-				size_t len = (q = strstr(p, "; ")) ? (size_t)(q - p) : strlen(p);
-				char *one = strndup(p, len);
-				if (one)
-					cJSON_AddItemToArray(a, cJSON_CreateString(one));
-				free(one);
-				p += len + (q ? 2 : 0);
-			}
-		} else {
-			cJSON_AddStringToObject(o, k, val);
-		}
-	}
+	for (size_t i = 0; o && i < run->nextra; i++)
+		cJSON_AddStringToObject(o, run->extra[i].key, run->extra[i].value);
 	return o;
 }
 
@@ -278,15 +271,29 @@ static const number_row NUMBERS[] = {
 /* The key numbers for people: value ± half its 95% interval where one is
  * known (the curvature's; the radius's from it; the budget's total
  * standard error x 1.96 for the others), else 3 significant digits. */
-static void add_numbers(cJSON *o, const wl_summary_run *run, const cJSON *budget)
+/* The budget's total standard error of a column's measure, NaN when none. */
+static double budget_se(const wl_summary_run *run, wl_summary_col col)
+{
+	static const struct {
+		wl_summary_col col;
+		wl_budget_measure m;
+	} map[] = {{WL_SUMCOL_CURVATURE, WL_BM_CURVATURE}, {WL_SUMCOL_RADIUS, WL_BM_RADIUS},
+	           {WL_SUMCOL_MEAN_SPEED, WL_BM_SPEED},    {WL_SUMCOL_YAW_AMP, WL_BM_YAW_AMP},
+	           {WL_SUMCOL_YAW_FREQ, WL_BM_YAW_FREQ},   {WL_SUMCOL_STRAIGHTNESS, WL_BM_STRAIGHTNESS}};
+	for (size_t i = 0; i < sizeof map / sizeof map[0]; i++)
+		if (map[i].col == col)
+			return run->m.budget[map[i].m].total_se;
+	return NAN;
+}
+
+static void add_numbers(cJSON *o, const wl_summary_run *run)
 {
 	cJSON *a = cJSON_AddArrayToObject(o, "numbers");
 	double lo = run->m.curvature_ci95_per_m[0], hi = run->m.curvature_ci95_per_m[1];
 	for (size_t i = 0; a && i < sizeof NUMBERS / sizeof NUMBERS[0]; i++) {
 		const number_row *nr = &NUMBERS[i];
 		double v = colval(run, nr->col), half = NAN;
-		const cJSON *b = cJSON_GetObjectItemCaseSensitive(budget, wl_summary_col_name(nr->col));
-		const cJSON *se = cJSON_GetObjectItemCaseSensitive(b, "total_se");
+		double se = budget_se(run, nr->col);
 		char text[WL_NUMFMT_BUF], full[WL_NUMFMT_BUF];
 		cJSON *row;
 		if (nr->col == WL_SUMCOL_RADIUS && run->m.straight)
@@ -298,8 +305,8 @@ static void add_numbers(cJSON *o, const wl_summary_run *run, const cJSON *budget
 				half = 0.5 * (hi - lo);
 			else if (nr->col == WL_SUMCOL_RADIUS && lo * hi > 0)
 				half = 0.5 * fabs(1 / lo - 1 / hi);
-			else if (cJSON_IsNumber(se))
-				half = 1.959964 * se->valuedouble;
+			else if (isfinite(se))
+				half = 1.959964 * se;
 			if (nr->fixed >= 0)
 				wl_numfmt_fixed(text, v * nr->scale, nr->fixed);
 			else
@@ -541,37 +548,11 @@ static void add_clean(cJSON *root, const rreader *rd, const wl_clean_sidecar *si
 
 /* ---- the page ------------------------------------------------------------- */
 
-/* The uncertainty budgets of summary.json's runs, by run index: "budget" is
- * one of the keys contracts.md fixes for the measure stage's verdicts and
- * budgets, which formats/summary.h does not read yet (it keeps unknown
- * scalars only); read here, as found, until it does.  NULL when none. */
-static cJSON *budgets(const char *path)
-{
-	cJSON *root = NULL, *out = NULL;
-	const cJSON *run;
-	int any = 0;
-	if (wl_json_load(path, &root, NULL) != WL_OK)
-		return NULL;
-	out = cJSON_CreateArray();
-	cJSON_ArrayForEach(run, cJSON_GetObjectItemCaseSensitive(root, "runs"))
-	{
-		const cJSON *b = cJSON_GetObjectItemCaseSensitive(run, "budget");
-		any |= cJSON_IsObject(b);
-		cJSON_AddItemToArray(out, cJSON_IsObject(b) ? cJSON_Duplicate(b, 1) : cJSON_CreateNull());
-	}
-	cJSON_Delete(root);
-	if (!any) {
-		cJSON_Delete(out);
-		return NULL;
-	}
-	return out;
-}
-
 static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *root, char *title, size_t tcap,
                        wl_err *err)
 {
 	char path[4200];
-	cJSON *clip = NULL, *runs_out, *robots, *budget = NULL;
+	cJSON *clip = NULL, *runs_out, *robots;
 	const cJSON *params;
 	wl_summary sum;
 	wl_clean_sidecar side;
@@ -589,7 +570,6 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 		wl_summary_release(&sum);
 		return s;
 	}
-	budget = budgets(path);
 	snprintf(path, sizeof path, "%s/clean.json", dir);
 	have_side = wl_clean_sidecar_read(path, &side, NULL) == WL_OK;
 	snprintf(path, sizeof path, "%s/clip.json", dir);
@@ -652,7 +632,6 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 	runs_out = cJSON_AddArrayToObject(root, "runs");
 	for (size_t k = 0; k < sum.nruns; k++) {
 		const wl_summary_run *run = &sum.runs[k];
-		const cJSON *b = cJSON_GetArrayItem(budget, (int)k);
 		cJSON *o = cJSON_CreateObject(), *so = run_object(run);
 		const rtrack *tr = NULL;
 		char idt[32];
@@ -660,10 +639,10 @@ static wl_status build(const char *dir, const wl_report_scene *scene, cJSON *roo
 		snprintf(idt, sizeof idt, "%ld", run->id);
 		cJSON_AddStringToObject(o, "id", idt);
 		cJSON_AddNumberToObject(o, "segment", (double)run->segment);
-		if (so && cJSON_IsObject(b))
-			cJSON_AddItemToObject(so, "budget", cJSON_Duplicate(b, 1));
+		if (so)
+			wl_summary_add_budget(so, &run->m);
 		cJSON_AddItemToObject(o, "summary", so);
-		add_numbers(o, run, cJSON_IsObject(b) ? b : NULL);
+		add_numbers(o, run);
 		for (i = 0; i < rd.ntr; i++)
 			if (rd.tr[i].id == run->id)
 				tr = &rd.tr[i];
@@ -680,7 +659,6 @@ out:
 	wl_report_scene_release(sb);
 	free(sb);
 	cJSON_Delete(clip);
-	cJSON_Delete(budget);
 	return s;
 }
 

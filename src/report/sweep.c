@@ -107,6 +107,13 @@ typedef struct {
 	size_t nstraight;
 } sweep;
 
+/* A run whose verdict is reject: the method could not follow it, so it is
+ * never drawn as a plain point (report.html lists it, struck through). */
+static int rejected(const wl_report_runs *t, size_t i, int cv)
+{
+	return cv >= 0 && strcmp(t->rows[i].cells[cv], "reject") == 0;
+}
+
 static wl_status collect(const wl_report_runs *t, const wl_report_sweep_opts *o, sweep *sw, wl_err *err)
 {
 	int cx = wl_report_runs_col(t, o->x_col),
@@ -118,6 +125,7 @@ static wl_status collect(const wl_report_runs *t, const wl_report_sweep_opts *o,
 	int crb = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_RADIUS_BODY)),
 	    ch = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_HEADLINE));
 	int cs = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_STRAIGHT));
+	int cv = wl_report_runs_col(t, wl_summary_col_name(WL_SUMCOL_VERDICT));
 	size_t i, numeric = 1;
 
 	if (cx < 0)
@@ -136,7 +144,8 @@ static wl_status collect(const wl_report_runs *t, const wl_report_sweep_opts *o,
 	for (i = 0; i < t->nrows; i++) {
 		const wl_report_row *row = &t->rows[i];
 		double dummy;
-		if (strcmp(row->status, "ok") != 0 || (ch >= 0 && !truthy(row->cells[ch])))
+		if (strcmp(row->status, "ok") != 0 || (ch >= 0 && !truthy(row->cells[ch])) ||
+		    rejected(t, i, cv))
 			continue;
 		if (!isfinite(cellnum(t, i, ck)))
 			continue;
@@ -147,7 +156,8 @@ static wl_status collect(const wl_report_runs *t, const wl_report_sweep_opts *o,
 		const wl_report_row *row = &t->rows[i];
 		pt *q = &sw->p[sw->n];
 		const char *g = cg >= 0 ? row->cells[cg] : "";
-		if (strcmp(row->status, "ok") != 0 || (ch >= 0 && !truthy(row->cells[ch])))
+		if (strcmp(row->status, "ok") != 0 || (ch >= 0 && !truthy(row->cells[ch])) ||
+		    rejected(t, i, cv))
 			continue;
 		q->k = cellnum(t, i, ck);
 		if (!isfinite(q->k))

@@ -1,6 +1,6 @@
 /*
  * robots.c: the tracker's options: defaults, --ids, "h,s,v" triples and
- * ROBOTS.csv (id,plane_height_m,heading_offset_rad,body_diameter_m,tag_size_m,
+ * ROBOTS.csv (id,plane_height_m,plane_height_tol_m,heading_offset_rad,body_diameter_m,tag_size_m,
  * front_hsv_lo,front_hsv_hi,back_hsv_lo,back_hsv_hi).
  */
 #define _POSIX_C_SOURCE 200809L
@@ -50,6 +50,7 @@ wl_robot_spec *wl_track_robot(wl_track_opts *o, int id)
 	memset(r, 0, sizeof *r);
 	r->id = id;
 	r->plane_height_m = NAN;
+	r->plane_height_tol_m = NAN;
 	r->heading_offset_rad = 0.0;
 	r->body_diameter_m = NAN;
 	r->tag_size_m = NAN;
@@ -94,7 +95,7 @@ int wl_track_parse_hsv(const char *s, int out[3])
 
 typedef struct {
 	wl_track_opts *o;
-	int c_id, c_plane, c_off, c_diam, c_tag, c_hsv[4];
+	int c_id, c_plane, c_tol, c_off, c_diam, c_tag, c_hsv[4];
 } robots_ctx;
 
 static const char *const hsv_cols[4] = {"front_hsv_lo", "front_hsv_hi", "back_hsv_lo", "back_hsv_hi"};
@@ -111,6 +112,7 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 			return wl_err_prefix(err, st, "%s", row->path);
 		c->c_id = wl_csv_col(row, "id");
 		c->c_plane = wl_csv_col(row, "plane_height_m");
+		c->c_tol = wl_csv_col(row, "plane_height_tol_m");
 		c->c_off = wl_csv_col(row, "heading_offset_rad");
 		c->c_diam = wl_csv_col(row, "body_diameter_m");
 		c->c_tag = wl_csv_col(row, "tag_size_m");
@@ -135,6 +137,13 @@ static wl_status robots_row(const wl_csv_row *row, void *vctx, wl_err *err)
 	if (!wl_csv_empty(row, c->c_plane) &&
 	    (st = wl_csv_get_double(row, c->c_plane, "plane_height_m", &r->plane_height_m, err)) != WL_OK)
 		return st;
+	if (!wl_csv_empty(row, c->c_tol) && (st = wl_csv_get_double(row, c->c_tol, "plane_height_tol_m",
+	                                                            &r->plane_height_tol_m, err)) != WL_OK)
+		return st;
+	if (!wl_csv_empty(row, c->c_tol) && !(r->plane_height_tol_m >= 0 && r->plane_height_tol_m < 1))
+		return wl_err_set(err, WL_EFORMAT,
+		                  "%s:%ld: plane_height_tol_m %g is not a tolerance: give metres, e.g. 0.003",
+		                  row->path, row->line, r->plane_height_tol_m);
 	if (!wl_csv_empty(row, c->c_off) && (st = wl_csv_get_double(row, c->c_off, "heading_offset_rad",
 	                                                            &r->heading_offset_rad, err)) != WL_OK)
 		return st;

@@ -50,6 +50,7 @@ typedef struct {
 typedef struct {
 	int id;
 	double plane_height_m;     /* NaN: the run's default plane */
+	double plane_height_tol_m; /* its tolerance (standard uncertainty); NaN: the default */
 	double heading_offset_rad; /* added to the measured heading (mounting) */
 	double body_diameter_m;    /* NaN if unknown; sizes the colour search */
 	double tag_size_m;         /* printed side of the tag's black square; NaN if unknown
@@ -101,7 +102,7 @@ wl_status wl_track_parse_ids(const char *s, wl_track_opts *o, wl_err *err);
 /* Parses "h,s,v" (hue 0-179, s and v 0-255). */
 int wl_track_parse_hsv(const char *s, int out[3]);
 
-/* Loads ROBOTS.csv: id (required), plane_height_m, heading_offset_rad,
+/* Loads ROBOTS.csv: id (required), plane_height_m, plane_height_tol_m, heading_offset_rad,
  * body_diameter_m, tag_size_m, front_hsv_lo, front_hsv_hi, back_hsv_lo, back_hsv_hi
  * (optional columns; empty cells keep defaults).  Sets restrict_ids and
  * robots_path. */

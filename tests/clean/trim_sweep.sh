@@ -1,14 +1,15 @@
 #!/usr/bin/env bash
 # trim_sweep.sh [SEEDS]: prints the auto-trim error (trim time minus the true
 # 98 % settling time) of `wakeline clean` on invented synthetic runs over many
-# seeds: constant rate, variable rate and a slower speed-up.  Prints figures,
+# seeds: constant rate, variable rate, a slower speed-up, a 1 s occlusion
+# after the settling and a late start (5 s of rest).  Prints figures,
 # asserts nothing (the e2e test 0401 holds fixed seeds to one period).
 set -euo pipefail
 n=${1:-6}
 here=$(cd "$(dirname "$0")" && pwd)
 wl=${WAKELINE:-$here/../../build/wakeline}
 tmp=$(mktemp -d); trap 'rm -rf "$tmp"' EXIT
-for kind in "cfr:" "vfr:--vfr" "tau0.8:--tau 0.8"; do
+for kind in "cfr:" "vfr:--vfr" "tau0.8:--tau 0.8" "gap:--gap 4,1.0" "late:--rest 5 --duration 14"; do
 	name=${kind%%:*}; args=${kind#*:}
 	errs=""
 	for s in $(seq 1 "$n"); do

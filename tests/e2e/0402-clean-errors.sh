@@ -67,5 +67,5 @@ cp "$T/last.out" "$T/edge.txt"
 check_grep "robot 1 is too short" "robot 1: too short" "$T/edge.txt"
 check_grep "robot 2 has no detections in 2 rows" "robot 2: no detections in 2 rows" "$T/edge.txt"
 check_eq "the edge output holds robot 1's one row, cut as a gap" "$(tail -n +2 "$T/edge_out.csv")" \
-	"0.000000,0,1,0.000000,0.200000,0.300000,0.000000,0.000000,0.000000,0.000000,-1,measured,gap"
+	"0.000000,0,1,0.000000,0.200000,0.300000,0.000000,0.000000,0.000000,0.000000,-1,measured,gap,0.300000"
 done_testing

@@ -1,12 +1,13 @@
 #!/usr/bin/env bash
 # `process` gives byte for byte what `track`, `clean` and `measure` give when
-# run one after the other with the same options and the same paths: raw.csv,
+# run one after the other with the same options and the same paths (measure
+# with the calibration, which process always has, for the uncertainty budget): raw.csv,
 # clean.csv, clean.json and summary.json, every byte (the provenance fields
 # too: same paths, same calibration hash, same version).  Checked twice on a
 # small invented scene (one tagged robot on an arc that ends at the tank wall,
 # so the wall cut is exercised): with the default options, and with options of
 # every stage changed (smoother, trim, robot size, decimation, commanded
-# period, minimum arc).
+# period, minimum arc, the plane height's tolerance).
 source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
 need_synth
 cat > scene.json <<'JSON'
@@ -33,7 +34,7 @@ by_hand() {
 	"$WAKELINE" track clip.mp4 --cal cal.json -o res/raw.csv -q "${t[@]}" || fail "track exited $?"
 	"$WAKELINE" clean res/raw.csv -o res/clean.csv --sidecar res/clean.json --cal cal.json -q "${c[@]}" ||
 		fail "clean exited $?"
-	"$WAKELINE" measure res/clean.csv -o res/summary.json -q "${m[@]}" || fail "measure exited $?"
+	"$WAKELINE" measure res/clean.csv -o res/summary.json --cal cal.json -q "${m[@]}" || fail "measure exited $?"
 	mv res "$name"
 }
 same() { # NAME: res/ (from process) against NAME/ (by hand)
@@ -50,16 +51,19 @@ same plain
 check_grep "the scene reaches the wall (the wall cut is exercised)" '"reason":[[:space:]]*"wall"' res/clean.json
 
 by_hand changed --decimate 1 --min-margin 30 -- --smoother sg --sg-window 9 --trim 0.4 --body-diameter-m 0.14 -- \
-	--body-diameter-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3
+	--body-diameter-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 --plane-height-tol-m 0.005
 rm -rf res
 "$WAKELINE" process clip.mp4 --cal cal.json -o res -q --decimate 1 --min-margin 30 --smoother sg --sg-window 9 \
-	--trim 0.4 --body-diameter-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 || fail "process exited $?"
+	--trim 0.4 --body-diameter-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 --plane-height-tol-m 0.005 ||
+	fail "process exited $?"
 same changed
 check_grep "the smoother option reached clean" '"smoother":[[:space:]]*"sg"' res/clean.json
 check_grep "the commanded period reached measure" '"commanded_period_s":[[:space:]]*0.8' res/summary.json
+check_grep "the calibration reached measure's budget" '"source":[[:space:]]*"plane_height"' res/summary.json
 # the old spelling of the robot size is still accepted
 rm -rf res
 "$WAKELINE" process clip.mp4 --cal cal.json -o res -q --decimate 1 --min-margin 30 --smoother sg --sg-window 9 \
-	--trim 0.4 --body-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 || fail "--body-m: process exited $?"
+	--trim 0.4 --body-m 0.14 --commanded-period-s 0.8 --min-arc-deg 3 --plane-height-tol-m 0.005 ||
+	fail "--body-m: process exited $?"
 same changed
 done_testing

@@ -197,9 +197,10 @@ static wl_status keep_clean(const wl_clean_row *r, void *ctx, wl_err *err)
 
 static void test_clean_round_trip(void **state)
 {
-	wl_clean_row rows[2] = {
-	        {0.5, 15, 4, 1.25, -0.75, 3.0, 0.2, 0.1, 0.2, 0.0, 0, WL_ST_MEASURED, WL_CUT_NONE, 0, 0, 0},
-	        {0.6, 18, 4, 1.5, -0.5, -3.0, 0.3, NAN, NAN, NAN, -1, WL_ST_FILLED, WL_CUT_WALL, 0, 0, 0}};
+	wl_clean_row rows[2] = {{0.5, 15, 4, 1.25, -0.75, 3.0, 0.2, 0.1, 0.2, 0.0, 2.9, 0, WL_ST_MEASURED,
+	                         WL_CUT_NONE, 0, 0, 0},
+	                        {0.6, 18, 4, 1.5, -0.5, -3.0, 0.3, NAN, NAN, NAN, NAN, -1, WL_ST_FILLED,
+	                         WL_CUT_WALL, 0, 0, 0}};
 	wl_clean_segment seg = {0.5, 0.5, 1};
 	wl_clean_robot rb = {0};
 	wl_clean_result res = {rows, 2, &rb, 1};
@@ -233,10 +234,10 @@ static void test_clean_round_trip(void **state)
 	text = slurp(csv);
 	assert_string_equal(text,
 	                    "t_s,frame,id,x_m,y_m,heading_rad,speed_mps,yaw_rate_radps,vx_mps,vy_mps,segment,"
-	                    "status,cut\n"
+	                    "status,cut,heading_meas_rad\n"
 	                    "0.500000,15,4,1.250000,-0.750000,3.000000,0.200000,0.100000,0.200000,0.000000,0,"
-	                    "measured,\n"
-	                    "0.600000,18,4,1.500000,-0.500000,-3.000000,0.300000,,,,-1,filled,wall\n");
+	                    "measured,,2.900000\n"
+	                    "0.600000,18,4,1.500000,-0.500000,-3.000000,0.300000,,,,-1,filled,wall,\n");
 	free(text);
 	assert_int_equal(wl_clean_read(csv, keep_clean, &got, &err), WL_OK);
 	assert_int_equal(got.n, 2);
@@ -246,6 +247,7 @@ static void test_clean_round_trip(void **state)
 	assert_int_equal(got.rows[1].status, WL_ST_FILLED);
 	assert_int_equal(got.rows[1].cut, WL_CUT_WALL);
 	assert_true(isnan(got.rows[1].yaw_rate_radps) && got.rows[0].heading_rad == 3.0);
+	assert_true(got.rows[0].heading_meas_rad == 2.9 && isnan(got.rows[1].heading_meas_rad));
 	/* the sidecar reads back */
 	assert_int_equal(wl_clean_sidecar_read(js, &sc, &err), WL_OK);
 	assert_string_equal(sc.input_path, "r.csv");
@@ -316,6 +318,13 @@ static void test_summary_round_trip(void **state)
 	run.m.yaw_osc_freq_hz = 1.25;
 	run.m.n_rows = 300;
 	run.m.ar_order = 3;
+	run.m.verdict = WL_VERDICT_CHECK;
+	run.m.n_reasons = 2;
+	snprintf(run.m.reasons[0], WL_SUMMARY_REASON_LEN, "4%% of rows rejected as outliers");
+	snprintf(run.m.reasons[1], WL_SUMMARY_REASON_LEN, "arc of 20 deg");
+	run.m.budget[WL_BM_CURVATURE].total_se = 0.05;
+	run.m.budget[WL_BM_CURVATURE].se[WL_BS_FIT] = 0.03;
+	run.m.budget[WL_BM_CURVATURE].se[WL_BS_PLANE_HEIGHT] = 0.04;
 	s.input = strdup("clean.csv");
 	s.runs = &run;
 	s.nruns = 1;
@@ -327,13 +336,22 @@ static void test_summary_round_trip(void **state)
 	wl_summary_release(&s);
 	/* the CSV: one interval as _lo/_hi, booleans as words, unknown cells empty */
 	text = slurp(csv);
-	assert_non_null(strstr(text, "id,segment,headline,radius_m,curvature_per_m,curvature_ci95_per_m_lo,"
+	assert_non_null(strstr(text, "id,segment,headline,verdict,verdict_reasons,radius_m,radius_ci95_m_lo,"
+	                             "radius_ci95_m_hi,curvature_per_m,curvature_ci95_per_m_lo,"
 	                             "curvature_ci95_per_m_hi,straight,"));
-	assert_non_null(strstr(text, "\n12,1,true,0.5,2,1.9,2.1,false,"));
+	/* the reasons joined with "; " (contracts.md) */
+	assert_non_null(strstr(text,
+	                       "\n12,1,true,check,4% of rows rejected as outliers; arc of 20 deg,0.5,,,2,1.9,"
+	                       "2.1,false,"));
 	assert_null(strstr(text, "ci95_low"));
 	free(text);
 	text = slurp(js);
 	assert_non_null(strstr(text, "\"curvature_ci95_per_m\":\t[1.9, 2.1]"));
+	assert_non_null(strstr(
+	        text, "\"verdict_reasons\":\t[\"4% of rows rejected as outliers\", \"arc of 20 deg\"]"));
+	/* the budget: the sources that enter, with their shares (0.03² + 0.04² = 0.05²) */
+	assert_non_null(strstr(text, "\"source\":\t\"plane_height\""));
+	assert_non_null(strstr(text, "\"share\":\t0.64"));
 	assert_null(strstr(text, "period_ratio")); /* no commanded period given */
 	free(text);
 	assert_int_equal(wl_summary_read(js, &back, &err), WL_OK);
@@ -346,6 +364,12 @@ static void test_summary_round_trip(void **state)
 	assert_int_equal(back.runs[0].m.n_rows, 300);
 	assert_string_equal(wl_summary_cell(&back.runs[0], WL_SUMCOL_YAW_PERIOD, cell, sizeof cell), "0.8");
 	assert_int_equal(back.runs[0].nextra, 0);
+	assert_int_equal(back.runs[0].m.verdict, WL_VERDICT_CHECK);
+	assert_int_equal(back.runs[0].m.n_reasons, 2);
+	assert_string_equal(back.runs[0].m.reasons[1], "arc of 20 deg");
+	assert_true(back.runs[0].m.budget[WL_BM_CURVATURE].se[WL_BS_PLANE_HEIGHT] == 0.04);
+	assert_true(isnan(back.runs[0].m.budget[WL_BM_CURVATURE].se[WL_BS_CALIBRATION]));
+	assert_true(isnan(back.runs[0].m.budget[WL_BM_SPEED].total_se));
 	wl_summary_release(&back);
 }
 
@@ -379,13 +403,16 @@ static void test_summary_checks(void **state)
 	              "runs[0]: key 'straight' must be true or false");
 	summary_error("{\"format\": \"wakeline summary\", \"runs\": [{\"segment\": 0}]}",
 	              "runs[0] has no 'id'");
-	/* keys this version does not know are kept as text, intervals as _lo/_hi, objects left out */
+	summary_error("{\"format\": \"wakeline summary\", \"runs\": [{\"id\": 1, \"segment\": 0, "
+	              "\"verdict\": \"fine\"}]}",
+	              "runs[0]: key 'verdict' must be \"ok\", \"check\" or \"reject\"");
+	/* keys this version does not know are kept as text, intervals as _lo/_hi; a
+	 * budget's unknown measures are passed over */
 	assert_int_equal(wl_summary_parse("s.json", text, strlen(text), &s, &err), WL_OK);
-	assert_int_equal(s.runs[0].nextra, 3);
-	assert_string_equal(s.runs[0].extra[0].key, "verdict");
-	assert_string_equal(s.runs[0].extra[0].value, "ok");
-	assert_string_equal(s.runs[0].extra[1].key, "band_m_lo");
-	assert_string_equal(s.runs[0].extra[2].value, "");
+	assert_int_equal(s.runs[0].m.verdict, WL_VERDICT_OK);
+	assert_int_equal(s.runs[0].nextra, 2);
+	assert_string_equal(s.runs[0].extra[0].key, "band_m_lo");
+	assert_string_equal(s.runs[0].extra[1].value, "");
 	wl_summary_release(&s);
 }
 

@@ -410,7 +410,7 @@ static void make_run_folder(const char *dir, int with_budget)
 	static double t[900], x[900], y[900], h[900], v[900], yr[900];
 	static unsigned char meas[900];
 	unsigned long long s = 12345;
-	wl_measure_input in;
+	wl_measure_input in = {0};
 	wl_measure_opts opt;
 	wl_measure_result r;
 	cJSON *root = cJSON_CreateObject(), *runs, *run = cJSON_CreateObject();
@@ -468,6 +468,11 @@ static void make_run_folder(const char *dir, int with_budget)
 		cJSON *b = cJSON_AddObjectToObject(run, "budget"),
 		      *sp = cJSON_AddObjectToObject(b, "mean_speed_mps");
 		cJSON_AddNumberToObject(sp, "total_se", 0.0021);
+		cJSON *src = cJSON_CreateObject();
+		cJSON_AddStringToObject(src, "source", "fit");
+		cJSON_AddNumberToObject(src, "se", 0.0021);
+		cJSON_AddNumberToObject(src, "share", 1);
+		cJSON_AddItemToArray(cJSON_AddArrayToObject(sp, "sources"), src);
 	}
 	cJSON_AddItemToArray(runs, run);
 	snprintf(path, sizeof path, "%s/summary.json", dir);
@@ -670,18 +675,20 @@ static void make_runs(wl_report_runs *t, size_t n)
 	                      "curvature_ci95_per_m_lo",
 	                      "curvature_ci95_per_m_hi",
 	                      "straight",
-	                      "radius_body_diameters"};
+	                      "radius_body_diameters",
+	                      "verdict",
+	                      "verdict_reasons"};
 	size_t i, j;
 	wl_report_runs_init(t);
-	t->ncols = 9;
+	t->ncols = 11;
 	t->nparams = 2;
-	t->cols = calloc(9, sizeof *t->cols);
-	for (j = 0; j < 9; j++)
+	t->cols = calloc(11, sizeof *t->cols);
+	for (j = 0; j < 11; j++)
 		t->cols[j] = xs(cols[j]);
 	t->rows = calloc(n + 1, sizeof *t->rows);
 	for (i = 0; i <= n; i++) {
 		wl_report_row *r = &t->rows[t->nrows++];
-		char b[9][64];
+		char b[11][64];
 		double k = -3 + (double)i;
 		snprintf(b[0], 64, "%g", 0.1 * (double)i);
 		snprintf(b[1], 64, "%s", i % 2 ? "fin" : "<disc>");
@@ -692,14 +699,20 @@ static void make_runs(wl_report_runs *t, size_t n)
 		snprintf(b[6], 64, "%g", k + 0.3);
 		snprintf(b[7], 64, "%s", k == 0 ? "true" : "false");
 		snprintf(b[8], 64, "%g", k != 0 ? 1 / k / 0.1 : 0);
+		/* run 1 needs a check, run 2 was rejected */
+		snprintf(b[9], 64, "%s", i == 1 ? "check" : i == 2 ? "reject" : "ok");
+		snprintf(b[10], 64, "%s",
+		         i == 1   ? "1.5% of rows rejected as outliers"
+		         : i == 2 ? "tracked in only 40% of the rows"
+		                  : "");
 		if (k == 0)
 			b[3][0] = b[8][0] = '\0';
 		r->clip = xs(i == n ? "broken.mp4" : "c.mp4");
 		r->folder = xs("clips/c_mp4");
 		r->status = xs(i == n ? "failed" : "ok");
 		r->error = xs(i == n ? "broken.mp4: cannot decode <frame 3>" : "");
-		r->cells = calloc(9, sizeof *r->cells);
-		for (j = 0; j < 9; j++)
+		r->cells = calloc(11, sizeof *r->cells);
+		for (j = 0; j < 11; j++)
 			r->cells[j] = xs(b[j]);
 	}
 }
@@ -752,14 +765,16 @@ static void test_sweep_and_html(void **state)
 		assert_non_null(d);
 		rows = cJSON_GetObjectItem(d, "rows");
 		assert_int_equal(cJSON_GetArraySize(rows), 7);
-		assert_int_equal(cJSON_GetArraySize(cJSON_GetArrayItem(rows, 0)), 2 + 9 + 2);
+		/* clip, folder; 11 columns (verdict and verdict_reasons are the measure
+		 * stage's own); the two shown as value ± half-interval */
+		assert_int_equal(cJSON_GetArraySize(cJSON_GetArrayItem(rows, 0)), 2 + 11 + 2);
 		/* k = -3, interval [-3.3, -2.7]: curvature -3.00 ± 0.30, radius
 		 * -1/3 with half of |1/-3.3 - 1/-2.7| = 0.0337 -> -0.333 ± 0.034 */
-		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 11)->valuestring,
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 13)->valuestring,
 		                    "-3.00 \xc2\xb1 0.30");
-		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 12)->valuestring,
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 0), 14)->valuestring,
 		                    "-0.333 \xc2\xb1 0.034");
-		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 3), 12)->valuestring,
+		assert_string_equal(cJSON_GetArrayItem(cJSON_GetArrayItem(rows, 3), 14)->valuestring,
 		                    "straight");
 		assert_string_equal(cJSON_GetObjectItem(d, "x_col")->valuestring, "nothere"); /* as given */
 		assert_true(fabs(cJSON_GetObjectItem(d, "body_m")->valuedouble - 0.1) < 1e-9);
