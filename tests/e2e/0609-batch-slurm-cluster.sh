@@ -158,8 +158,15 @@ print("summary.csv: %d rows, identical to the plain batch; bad.mp4: %s" % (len(r
 PYEOF
 [ -s out/report.html ] || fail "no report.html"
 
-# --- 2. cancel shard 1 in the middle of a clip, then re-submit it alone
-"$WAKELINE" batch clips --cal cal.json --manifest m.csv -o out2 --slurm --shards 3 --cpus-per-task 1 \
+# --- 2. cancel shard 1 in the middle of a clip, then re-submit it alone.
+# A clip of the small scene takes a fraction of a second, less than scancel
+# takes to act: shard 1's clips are made long (the clip looped 80 times,
+# 240 s, a few seconds of work), so that the cancel lands inside one.
+mkdir -p clips2
+cp clips/* clips2/
+ffmpeg -v error -y -stream_loop 79 -i clip.mp4 -c copy long.mp4 || fail "ffmpeg could not loop the clip"
+for n in 03 06 09; do cp long.mp4 clips2/c$n.mp4; done
+"$WAKELINE" batch clips2 --cal cal.json --manifest m.csv -o out2 --slurm --shards 3 --cpus-per-task 1 \
 	--time 0:05:00 > sub2.txt 2> sub2.err || fail "second batch --slurm exited $?: $(cat sub2.err)"
 A2=$(awk '$1 == "array" {print $2}' out2/slurm/jobs.txt) M2=$(awk '$1 == "merge" {print $2}' out2/slurm/jobs.txt)
 # shard 1 holds c00 c03 c06 c09 (clip i goes to shard i % 3; bad.mp4 is clip 0)
@@ -176,9 +183,13 @@ ev = list(last.values())
 sys.exit(0 if ev.count("done") >= 1 and "start" in ev else 1)
 PYEOF
 }
-for _ in $(seq 1 600); do started_not_done && break; sleep 0.05; done
-started_not_done || fail "shard 1 never had a clip running after a finished one: $(cat out2/journal-1.log 2>&1)"
+# a clip takes well under a second here: polling can miss the moment, so
+# follow the journal as it is written and cancel at the first start after a
+# done (awk reads through process substitution, so it ends the wait at once)
+awk -F'\t' '$2 == "done" { d = 1 } d && $2 == "start" { exit }' \
+	< <(timeout 60 tail -n +1 -F out2/journal-1.log 2> /dev/null)
 scancel "${A2}_1"
+started_not_done || fail "shard 1 never had a clip running after a finished one: $(cat out2/journal-1.log 2>&1)"
 done_before=$(grep -c $'\tdone\t' out2/journal-1.log || true)
 echo "shard 1 cancelled with $done_before of its 4 clips finished"
 wait_jobs "$A2" "$M2"
