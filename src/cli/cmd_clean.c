@@ -10,6 +10,7 @@
 #include "cli/print.h"
 #include "cli/stageopts.h"
 #include "formats/cal.h"
+#include "formats/format.h"
 
 const char cmd_clean_summary[] =
         "smooth tracks, reject outliers, bridge gaps, trim and segment (RAW.csv -> CLEAN.csv)";
@@ -22,21 +23,6 @@ static const char HEAD[] = "usage: wakeline clean RAW.csv -o CLEAN.csv [options]
                            "and a JSON sidecar with every parameter and what was cut.  See docs/clean.md.\n"
                            "\n";
 static const char TAIL[] = "\nExit status: 0 ok, 1 failure (nothing written), 2 usage error.\n";
-
-/* The output's name with .json instead of its extension. */
-static char *default_sidecar(const char *csv)
-{
-	size_t n = strlen(csv);
-	const char *slash = strrchr(csv, '/'), *dot = strrchr(csv, '.');
-	char *s;
-	if (dot && (!slash || dot > slash + 1))
-		n = (size_t)(dot - csv);
-	if (!(s = malloc(n + 6)))
-		return NULL;
-	memcpy(s, csv, n);
-	strcpy(s + n, ".json");
-	return s;
-}
 
 /* The outline from CAL.json into the parameters; doc keeps its hash. */
 static wl_status load_outline(const char *cal, wl_clean_params *p, wl_cal_doc *doc, wl_err *err)
@@ -89,7 +75,7 @@ int cmd_clean(int argc, char **argv)
 {
 	cli_stages s;
 	const char *out = NULL, *side = NULL, *cal = NULL;
-	char *side_alloc = NULL;
+	char side_buf[4096];
 	int quiet = 0, rc, first;
 	const cli_opt own[] = {
 	        CLI_OPT_SECTION("Output:"),
@@ -110,15 +96,14 @@ int cmd_clean(int argc, char **argv)
 		return cli_usage_error("clean", "give either --cal or --tank, not both");
 	if ((rc = cli_stages_finish("clean", &s)) != CLI_CONTINUE)
 		return rc;
-	if (!side && !(side = side_alloc = default_sidecar(out))) {
-		wl_err err;
-		wl_err_set(&err, WL_ENOMEM, "out of memory");
-		return cli_fail("clean", &err);
+	if (!side) {
+		if (!wl_format_sidecar_path(out, side_buf, sizeof side_buf))
+			return cli_usage_error("clean", "the output name '%s' is too long", out);
+		side = side_buf;
 	}
 	if (strcmp(side, out) == 0)
 		rc = cli_usage_error("clean", "the sidecar '%s' would overwrite the output", side);
 	else
 		rc = run(argv[first], out, side, cal, &s, quiet);
-	free(side_alloc);
 	return cli_finish("clean", rc);
 }

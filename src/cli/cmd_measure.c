@@ -13,6 +13,7 @@
 #include "cli/cli.h"
 #include "cli/print.h"
 #include "cli/stageopts.h"
+#include "formats/format.h"
 #include "measure/measure.h"
 #include "pipeline/pipeline.h"
 
@@ -26,20 +27,6 @@ static const char HEAD[] = "usage: wakeline measure CLEAN.csv -o SUMMARY.json [o
                            "oscillation.  Each robot's longest segment is marked \"headline\": true and\n"
                            "summarised on standard output.  Methods: docs/measure.md.\n"
                            "\n";
-/* CLEAN.json beside CLEAN.csv: the same name with .json (caller frees). */
-static char *sidecar_of(const char *csv)
-{
-	size_t n = strlen(csv);
-	const char *slash = strrchr(csv, '/'), *dot = strrchr(csv, '.');
-	char *s;
-	if (dot && (!slash || dot > slash + 1))
-		n = (size_t)(dot - csv);
-	if (!(s = malloc(n + 6)))
-		return NULL;
-	memcpy(s, csv, n);
-	strcpy(s + n, ".json");
-	return s;
-}
 
 static const char TAIL[] = "\nexit status: 0 ok, 1 failure, 2 usage error.\n";
 
@@ -47,7 +34,7 @@ int cmd_measure(int argc, char **argv)
 {
 	cli_stages s;
 	const char *out = NULL, *csv = NULL, *cal_path = NULL, *side = NULL;
-	char *side_alloc = NULL;
+	char side_buf[4096];
 	int quiet = 0, rc, first;
 	wl_calib *cal = NULL;
 	wl_process_budget b = {0};
@@ -85,11 +72,11 @@ int cmd_measure(int argc, char **argv)
 	s.p.measure.diag = cli_diag_init(&cd, "measure", quiet);
 	wl_err_clear(&err);
 	wl_summary_init(&sum);
-	if (!side && (side_alloc = sidecar_of(argv[first])) && access(side_alloc, R_OK) == 0)
-		side = side_alloc;
+	if (!side && wl_format_sidecar_path(argv[first], side_buf, sizeof side_buf) &&
+	    access(side_buf, R_OK) == 0)
+		side = side_buf;
 	s.p.measure.clean_sidecar = side;
 	if (cal_path && !(cal = malloc(sizeof *cal))) {
-		free(side_alloc);
 		wl_err_set(&err, WL_ENOMEM, "out of memory for '%s'", cal_path);
 		return cli_fail("measure", &err);
 	}
@@ -110,6 +97,5 @@ int cmd_measure(int argc, char **argv)
 	if (cal)
 		wl_calib_release(cal);
 	free(cal);
-	free(side_alloc);
 	return rc;
 }

@@ -68,3 +68,11 @@ wl_status wl_format_check_header(const wl_format *f, const wl_csv_row *header, c
 	}
 	return WL_OK;
 }
+
+int wl_format_sidecar_path(const char *path, char *buf, size_t cap)
+{
+	const char *slash = strrchr(path, '/'), *dot = strrchr(path, '.');
+	const char *base = slash ? slash + 1 : path;
+	size_t stem = dot && dot > base ? (size_t)(dot - path) : strlen(path);
+	return (size_t)snprintf(buf, cap, "%.*s.json", (int)stem, path) < cap;
+}

@@ -27,6 +27,11 @@ typedef struct {
 	const char *producer; /* the command that writes it, e.g. "wakeline track" */
 } wl_format;
 
+/* The JSON sidecar beside a table: its name with ".json" for the extension
+ * (CLEAN.csv -> CLEAN.json, raw.csv -> raw.json; a name without one, or a
+ * dot file, gets ".json" added).  Into buf; 0 when it does not fit. */
+int wl_format_sidecar_path(const char *path, char *buf, size_t cap);
+
 /* Checks "format" and "format_version" of a parsed JSON file `name`.
  * A missing format_version counts as 1. */
 wl_status wl_format_check_json(const wl_format *f, const cJSON *root, const char *name, wl_err *err);

@@ -10,6 +10,7 @@
 
 #include "core/afile.h"
 #include "core/jsonio.h"
+#include "formats/format.h"
 
 static const char *const K_FORMAT = "format", *const K_VERSION = "format_version",
                          *const FORMAT_NAME = "wakeline raw sidecar", *const K_WATCH = "camera_watch",
@@ -32,9 +33,7 @@ void wl_rawside_init(wl_rawside *s)
 
 int wl_rawside_path(const char *raw_csv_path, char *buf, size_t cap)
 {
-	const char *slash = strrchr(raw_csv_path, '/'), *dot = strrchr(raw_csv_path, '.');
-	size_t stem = dot && (!slash || dot > slash) ? (size_t)(dot - raw_csv_path) : strlen(raw_csv_path);
-	return (size_t)snprintf(buf, cap, "%.*s.json", (int)stem, raw_csv_path) < cap;
+	return wl_format_sidecar_path(raw_csv_path, buf, cap);
 }
 
 static void add_num_or_null(cJSON *o, const char *key, double v)

@@ -15,6 +15,7 @@
 #include <string.h>
 
 #include "formats/clean.h"
+#include "formats/format.h"
 
 /* The rows of one open segment of one robot. */
 typedef struct {
@@ -276,17 +277,23 @@ static void mark_headlines(wl_summary *s)
 	}
 }
 
-/* The camera watch's record from CLEAN.json beside CLEAN.csv (same stem,
- * as `wakeline clean` and `process` name it), when there is one; a sidecar
- * that is missing or unreadable leaves the camera columns unknown. */
+/* The camera watch's record: from the CLEAN.json the verdict reads (given,
+ * and read once), else from CLEAN.json beside CLEAN.csv (same stem, as
+ * `wakeline clean` and `process` name it) when there is one; a sidecar that
+ * is missing or unreadable leaves the camera columns unknown. */
 static void camera_record(ctx *c, const char *clean_path)
 {
 	char path[4096];
-	const char *slash = strrchr(clean_path, '/'), *dot = strrchr(clean_path, '.');
-	size_t stem = dot && (!slash || dot > slash) ? (size_t)(dot - clean_path) : strlen(clean_path);
 	wl_clean_sidecar *sc;
 	wl_err ignore;
-	if ((size_t)snprintf(path, sizeof path, "%.*s.json", (int)stem, clean_path) >= sizeof path)
+	if (c->o->clean_sidecar) {
+		if (c->side.camera_known && (c->camera = malloc(sizeof *c->camera))) {
+			*c->camera = c->side.camera;
+			c->camera_known = 1;
+		}
+		return;
+	}
+	if (!wl_format_sidecar_path(clean_path, path, sizeof path))
 		return;
 	if (!(sc = malloc(sizeof *sc)))
 		return;
