@@ -221,6 +221,10 @@ static void add_camera(cJSON *root, const wl_rawside *c)
 	}
 	o = cJSON_AddObjectToObject(root, "camera");
 	cJSON_AddBoolToObject(o, "watched", c->enabled);
+	if (c->enabled) {
+		num_or_null(o, "threshold_px", c->threshold_px);
+		cJSON_AddNumberToObject(o, "min_markers", c->min_markers);
+	}
 	a = cJSON_AddArrayToObject(o, "moves");
 	for (int i = 0; i < c->n_moves; i++) {
 		cJSON *m = cJSON_CreateObject();
@@ -229,6 +233,10 @@ static void add_camera(cJSON *root, const wl_rawside *c)
 		num_or_null(m, "last_still_t_s", c->moves[i].last_still_t_s);
 		cJSON_AddNumberToObject(m, "shift_px", c->moves[i].shift_px);
 		cJSON_AddBoolToObject(m, "reregistered", c->moves[i].reregistered);
+		cJSON_AddNumberToObject(m, "markers", c->moves[i].markers);
+		num_or_null(m, "rms_px", c->moves[i].rms_px);
+		num_or_null(m, "turn_deg", c->moves[i].turn_deg);
+		num_or_null(m, "centre_shift_mm", c->moves[i].centre_shift_mm);
 	}
 	num_or_null(o, "suspect_from_t_s", c->suspect_from_t_s);
 	num_or_null(o, "suspect_to_t_s", c->suspect_to_t_s);
@@ -497,6 +505,8 @@ static void read_camera(const cJSON *o, wl_clean_sidecar *out)
 	if (!out->camera_known)
 		return;
 	c->enabled = cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(o, "watched"));
+	c->threshold_px = wl_json_number_or(o, "threshold_px", NAN);
+	c->min_markers = (int)wl_json_number_or(o, "min_markers", 0);
 	cJSON_ArrayForEach(m, a)
 	{
 		wl_rawside_move *mv = &c->moves[c->n_moves];
@@ -508,7 +518,11 @@ static void read_camera(const cJSON *o, wl_clean_sidecar *out)
 		mv->last_still_t_s = wl_json_number_or(m, "last_still_t_s", NAN);
 		mv->shift_px = wl_json_number_or(m, "shift_px", NAN);
 		mv->reregistered = cJSON_IsTrue(cJSON_GetObjectItemCaseSensitive(m, "reregistered"));
-		mv->rms_px = mv->turn_deg = mv->centre_shift_mm = NAN;
+		/* absent before this version: unknown */
+		mv->markers = (int)wl_json_number_or(m, "markers", 0);
+		mv->rms_px = wl_json_number_or(m, "rms_px", NAN);
+		mv->turn_deg = wl_json_number_or(m, "turn_deg", NAN);
+		mv->centre_shift_mm = wl_json_number_or(m, "centre_shift_mm", NAN);
 		mv->frame = -1;
 		c->n_moves++;
 	}

@@ -230,6 +230,12 @@ static void test_clean_round_trip(void **state)
 	cam.moves[0].last_still_t_s = 4.75;
 	cam.moves[0].shift_px = 3.5;
 	cam.moves[0].reregistered = 1;
+	cam.moves[0].markers = 7;
+	cam.moves[0].rms_px = 0.25;
+	cam.moves[0].turn_deg = 0.375;
+	cam.moves[0].centre_shift_mm = 1.5;
+	cam.threshold_px = 0.75;
+	cam.min_markers = 4;
 	assert_int_equal(wl_clean_write(csv, js, &p, &src, &res, &err), WL_OK);
 	text = slurp(csv);
 	assert_string_equal(text,
@@ -263,6 +269,11 @@ static void test_clean_round_trip(void **state)
 	assert_int_equal(sc.camera.n_moves, 1);
 	assert_true(sc.camera.moves[0].t_s == 5.25 && sc.camera.moves[0].last_still_t_s == 4.75);
 	assert_true(sc.camera.moves[0].shift_px == 3.5 && sc.camera.moves[0].reregistered == 1);
+	/* what the verdict judges a re-registration by */
+	assert_int_equal(sc.camera.moves[0].markers, 7);
+	assert_true(sc.camera.moves[0].rms_px == 0.25 && sc.camera.moves[0].turn_deg == 0.375);
+	assert_true(sc.camera.moves[0].centre_shift_mm == 1.5);
+	assert_true(sc.camera.threshold_px == 0.75 && sc.camera.min_markers == 4);
 	assert_true(isnan(sc.camera.suspect_from_t_s));
 	/* the move's bracket (4.75, 5.25] against a run's span */
 	assert_int_equal(wl_rawside_moves_in(&sc.camera, 5.0, 9.0), 1);
