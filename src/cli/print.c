@@ -120,6 +120,9 @@ void cli_print_headline(const wl_summary_run *ro)
 	if (r->verdict == WL_VERDICT_CHECK) {
 		printf("; CHECK:");
 		print_reasons(r);
+	} else if (r->n_reasons > 0) { /* ok with notes (a camera move registered again) */
+		printf("; %s:", wl_verdict_name(r->verdict));
+		print_reasons(r);
 	} else {
 		printf("; %s\n", wl_verdict_name(r->verdict));
 	}

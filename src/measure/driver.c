@@ -23,6 +23,7 @@ typedef struct {
 	double first_t_s, last_t_s;
 	long seg_line, segment;
 	size_t n, cap, nout; /* rows; of them rejected as outliers */
+	size_t nout_moved;   /* ... of those, in a held camera move's bracket (not counted) */
 	double *t, *x, *y, *h, *sp, *yr, *hm;
 	unsigned char *meas;
 } robot;
@@ -168,11 +169,11 @@ static wl_status finish_segment(ctx *c, robot *r, wl_err *err)
 			o->camera_suspect_s = wl_rawside_suspect_s(c->camera, r->t[0], r->t[r->n - 1]);
 		}
 		c->first_line[c->out->nruns] = r->seg_line;
-		c->outlier_share[c->out->nruns] = (double)r->nout / (double)r->n;
+		c->outlier_share[c->out->nruns] = (double)(r->nout - r->nout_moved) / (double)r->n;
 		c->out->nruns++;
 	}
 	r->n = 0;
-	r->nout = 0;
+	r->nout = r->nout_moved = 0;
 	return WL_OK;
 }
 
@@ -228,7 +229,14 @@ static wl_status on_row(const wl_clean_row *row, void *vctx, wl_err *err)
 	r->t[k] = row->t_s, r->x[k] = row->x_m, r->y[k] = row->y_m, r->h[k] = row->heading_rad;
 	r->sp[k] = row->speed_mps, r->yr[k] = row->yaw_rate_radps, r->hm[k] = row->heading_meas_rad;
 	r->meas[k] = row->status == WL_ST_MEASURED;
-	r->nout += row->status == WL_ST_OUTLIER;
+	if (row->status == WL_ST_OUTLIER) {
+		r->nout++;
+		for (int i = 0; c->camera_known && i < c->camera->n_moves; i++)
+			if (wl_verdict_move_held(c->camera, i, row->t_s)) {
+				r->nout_moved++;
+				break;
+			}
+	}
 	return WL_OK;
 }
 
@@ -241,6 +249,9 @@ static void verdicts(ctx *c)
 		wl_verdict_input v;
 		wl_verdict_input_init(&v);
 		v.outlier_share = c->outlier_share[i];
+		v.camera = c->camera_known ? c->camera : NULL;
+		v.t0_s = o->m.t_start_s;
+		v.t1_s = o->m.t_start_s + o->m.duration_s;
 		for (size_t k = 0; k < c->nrobots; k++)
 			if (c->robots[k].id == o->id && c->robots[k].last_t_s > c->robots[k].first_t_s)
 				v.trim_share =

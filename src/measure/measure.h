@@ -28,6 +28,7 @@
 #include "calib/calib.h"
 #include "core/diag.h"
 #include "core/err.h"
+#include "formats/rawside.h"
 #include "formats/summary.h"
 
 /* ---- circle fits ------------------------------------------------------ */
@@ -236,17 +237,27 @@ wl_status wl_measure_budget(const wl_measure_input *in, const wl_measure_opts *o
 
 /* What the verdict needs beyond a run's measures (verdict.c). */
 typedef struct {
-	double outlier_share;  /* the run's rows rejected as outliers / its rows; NaN: unknown */
-	double trim_share;     /* the robot's track cut at its start / the track's length; NaN: unknown */
-	int not_settled;       /* the clean stage found no steady motion */
-	int widened;           /* the clean stage widened its noise model (recorded, not a reason:
-	                        * a tracker's slowly varying errors often make it) */
-	double noise_pos_m;    /* the track's position noise; NaN: unknown (1 mm is assumed) */
-	int camera_moves;      /* camera moves up to the run's end, registered again */
-	int camera_moves_lost; /* ... and not */
+	double outlier_share; /* the run's rows rejected as outliers / its rows; NaN: unknown */
+	double trim_share;    /* the robot's track cut at its start / the track's length; NaN: unknown */
+	int not_settled;      /* the clean stage found no steady motion */
+	int widened;          /* the clean stage widened its noise model (recorded, not a reason:
+	                       * a tracker's slowly varying errors often make it) */
+	double noise_pos_m;   /* the track's position noise; NaN: unknown (1 mm is assumed) */
+	/* the camera watch's record of the clip (CLEAN.json "camera"; borrowed,
+	 * NULL: unknown) and the run's span [t0_s, t1_s] it is judged over */
+	const wl_rawside *camera;
+	double t0_s, t1_s;
 } wl_verdict_input;
 
 void wl_verdict_input_init(wl_verdict_input *v);
+
+/* 1 when move i of the watch's record c was registered again and held (its
+ * new pose fits the floor markers to within twice the watch's threshold),
+ * and t_s (NaN: any) lies in its bracket (last_still_t_s, t_s]: a pose there
+ * was computed with the old pose, so the clean stage's rejecting it as an
+ * outlier says nothing about the track (the verdict leaves such rows out of
+ * its outlier share). */
+int wl_verdict_move_held(const wl_rawside *c, int i, double t_s);
 
 /* Sets r->verdict and its reasons from the run's measures, its budget and v
  * (rules and thresholds in docs/measure.md, "Verdict"). */

@@ -13,7 +13,12 @@
 # two floor markers known the move cannot be registered and the poses are
 # marked suspect (raw.json "suspect", and a warning).  Through clean and
 # measure, the moves reach clean.json ("camera") and summary.json (per run
-# camera_moves and camera_suspect_s; null without a RAW sidecar).
+# camera_moves and camera_suspect_s; null without a RAW sidecar) and the
+# verdict (docs/measure.md): the registered move is a note that downgrades
+# nothing (the outliers inside its bracket are left out of the outlier
+# share), the suspect poses make the run reject (over half of it) with the
+# seconds and what to do, in summary.json, summary.csv, on the terminal of
+# measure and process, and on process's run.html.
 source "$WL_SOURCE_DIR/tests/e2e/lib/track.bash"
 need_synth
 source "$LIB/bumped_camera.bash"
@@ -82,7 +87,9 @@ assert len(su) == 1 and su[0]['from_t_s'] < 5.0 and su[0]['to_t_s'] is None"
 # a RAW.csv without its sidecar gives null (unknown)
 for r in raw few; do
 	"$WAKELINE" clean $r.csv -o ${r}_clean.csv -q --cal cal.json || fail "clean $r exited $?"
-	"$WAKELINE" measure ${r}_clean.csv -o ${r}_summary.json -q || fail "measure $r exited $?"
+	"$WAKELINE" measure ${r}_clean.csv -o ${r}_summary.json --csv ${r}_summary.csv > ${r}_measure.out ||
+		fail "measure $r exited $?"
+	cat ${r}_measure.out
 done
 cp raw.csv bare.csv
 "$WAKELINE" clean bare.csv -o bare_clean.csv -q --cal cal.json || fail "clean bare exited $?"
@@ -105,6 +112,93 @@ for m, s, t0, d in few:      # not registered: suspect from the last still check
 assert any(s > 1 for m, s, t0, d in few)
 assert all(m is None and s is None for m, s, t0, d in bare)
 PY
+
+# the moves in the verdict (docs/measure.md, "Verdict"): a move registered
+# again that held (its new pose fits the markers to under 2 x the 0.5 px
+# threshold) is a note and leaves the run ok; poses marked suspect make the
+# run check (under half its span) or reject (half or more), with the
+# seconds and what to do; in summary.json, summary.csv and on the terminal
+check_py "the verdict: a registered move is a note, suspect poses are check or reject, in summary.json and .csv" <<'PY'
+import csv, json
+def runs(stem):
+    js = json.load(open(stem + "_summary.json"))["runs"]
+    rows = {(r["id"], r["segment"]): r for r in csv.DictReader(open(stem + "_summary.csv"))}
+    for r in js:
+        c = rows[(str(r["id"]), str(r["segment"]))]
+        assert c["verdict"] == r["verdict"] and c["verdict_reasons"] == "; ".join(r["verdict_reasons"]), (c, r)
+    return js
+n_note = n_sus = 0
+# rows the clean stage rejected, inside the move's bracket (4.80, 5.33] s
+# (tracked with the old pose) and outside it
+out_in = out_all = rows = 0
+for c in csv.DictReader(open("raw_clean.csv")):
+    if int(c["segment"]) < 0:
+        continue
+    rows += 1
+    if c["status"] == "outlier":
+        out_all += 1
+        out_in += 4.8 < float(c["t_s"]) <= 5.3334
+for r in runs("raw"):
+    notes = [x for x in r["verdict_reasons"] if "the camera moved" in x]
+    print("registered: %.1f-%.1f s %s %s" % (r["t_start_s"], r["t_start_s"] + r["duration_s"], r["verdict"], r["verdict_reasons"]))
+    if r["camera_moves"]:
+        assert len(notes) == 1 and notes[0].startswith("note: the camera moved between 4.80 s and 5.33 s"), notes
+        assert "registered again from 8 markers" in notes[0]
+        n_note += 1
+    else:
+        assert not notes
+    # the note downgrades nothing: any other reason is not the camera's
+    assert r["verdict"] == "ok" or any("camera" not in x for x in r["verdict_reasons"]), r
+    # outliers inside the bracket are the move's, left out of the share
+    print("outliers: %d of %d rows, %d inside the move's bracket" % (out_all, rows, out_in))
+    assert out_in >= 2
+    share = [x for x in r["verdict_reasons"] if "rejected as outliers" in x]
+    if out_all - out_in > 0.01 * rows:
+        assert share and share[0].startswith("%.1f%%" % (100.0 * (out_all - out_in) / rows)), share
+    else:
+        assert not share, share
+for r in runs("few"):
+    sus = [x for x in r["verdict_reasons"] if "are suspect" in x]
+    t0, d, s = r["t_start_s"], r["duration_s"], r["camera_suspect_s"]
+    print("suspect: %.1f-%.1f s, %.1f s suspect: %s %s" % (t0, t0 + d, s, r["verdict"], sus))
+    if s > 0.05:
+        assert len(sus) == 1 and ("%.1f s of the run from" % s) in sus[0], sus
+        assert "keep them in view" in sus[0] and "calibrate --at 5.4" in sus[0]
+        assert r["verdict"] == ("reject" if s >= 0.5 * d else "check") or r["verdict"] == "reject", r
+        n_sus += 1
+    else:
+        assert not sus
+assert n_note >= 1 and n_sus >= 1
+PY
+check_grep "the terminal: the registered move as a note" "note: the camera moved between 4.80 s and 5.33 s" raw_measure.out
+# an ok run with the note on the terminal: the same CLEAN.csv with the
+# clean stage's outliers outside the move's bracket marked measured
+$PY - <<'PY'
+import csv
+rows = list(csv.DictReader(open("raw_clean.csv")))
+for r in rows:
+    if r["status"] == "outlier" and not 4.8 < float(r["t_s"]) <= 5.3334:
+        r["status"] = "measured"
+w = csv.DictWriter(open("okrun.csv", "w", newline=""), fieldnames=list(rows[0].keys()), lineterminator="\n")
+w.writeheader(); w.writerows(rows)
+PY
+cp raw_clean.json okrun.json
+"$WAKELINE" measure okrun.csv -o okrun_summary.json > okrun.out || fail "measure okrun exited $?"
+cat okrun.out
+check_grep "the terminal: an ok run shows the registered move as a note" "; ok: note: the camera moved between 4.80 s and 5.33 s" okrun.out
+check_grep "the terminal: the suspect seconds" "s of the run from .* are suspect" few_measure.out
+
+# process (the pipeline in one process) with too few markers: the same
+# verdict on the terminal, in summary.json and on the clip's page
+"$WAKELINE" process clip.mp4 --cal fewcal.json --ids 20 -o proc > proc.out 2> proc.err || fail "process exited $?"
+cat proc.out
+check_grep "process: the terminal names the suspect seconds" "are suspect: the camera moved" proc.out
+check "process: run.html carries the verdict's reasons" grep -q "are suspect: the camera moved" proc/run.html
+check "process: summary.json as measure wrote it" "$PY" -c "
+import json
+a = [(r['verdict'], r['verdict_reasons']) for r in json.load(open('proc/summary.json'))['runs']]
+b = [(r['verdict'], r['verdict_reasons']) for r in json.load(open('few_summary.json'))['runs']]
+print(a); assert a == b"
 
 # the sidecar never overwrites another file: a RAW.csv named like the
 # calibration (cal.csv -> cal.json) is refused before the run

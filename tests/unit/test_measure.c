@@ -677,18 +677,154 @@ static void test_budget_monte_carlo(void **state)
 		mc_check(&scenes[i], 200);
 }
 
+/* ---- the verdict on a moved camera (docs/measure.md, "Verdict") ---------- */
+
+/* A clean run from t0 to t1 (s): nothing else for the verdict to find. */
+static void quiet_run(wl_measure_result *r, double t0, double t1)
+{
+	wl_summary_measures_init(r);
+	r->t_start_s = t0;
+	r->duration_s = t1 - t0;
+	r->tracked_fraction = 1;
+	r->straight = 0;
+	r->arc_deg = 300;
+	r->curvature_per_m = 2;
+	r->fit_rms_m = 0.001;
+}
+
+static int has_reason(const wl_measure_result *r, const char *part)
+{
+	for (int i = 0; i < r->n_reasons; i++)
+		if (strstr(r->reasons[i], part))
+			return 1;
+	return 0;
+}
+
+/* A crafted watch record like the one of e2e 0308: a move seen at 5.33 s,
+ * the last still check at 4.80 s. */
+static void bumped(wl_rawside *c, int reregistered, double rms_px)
+{
+	wl_rawside_init(c);
+	c->enabled = 1;
+	c->threshold_px = 0.5;
+	c->min_markers = 3;
+	c->n_moves = 1;
+	c->moves[0].t_s = 5.3333;
+	c->moves[0].last_still_t_s = 4.8;
+	c->moves[0].shift_px = 5.4;
+	c->moves[0].markers = reregistered ? 8 : 2;
+	c->moves[0].reregistered = reregistered;
+	c->moves[0].rms_px = reregistered ? rms_px : NAN;
+	c->moves[0].turn_deg = reregistered ? 0.35 : NAN;
+	c->moves[0].centre_shift_mm = reregistered ? 0.5 : NAN;
+	if (!reregistered)
+		c->suspect_from_t_s = 4.8; /* to the end */
+}
+
+static void test_verdict_camera(void **state)
+{
+	wl_rawside cam;
+	wl_verdict_input v;
+	wl_measure_result r;
+	(void)state;
+	wl_verdict_input_init(&v);
+	v.camera = &cam;
+	/* a move registered again that held (0.20 px RMS, under 2 x 0.5 px):
+	 * a note with when and how far, the verdict stays ok */
+	bumped(&cam, 1, 0.20);
+	quiet_run(&r, 1.0, 10.0);
+	v.t0_s = 1.0, v.t1_s = 10.0;
+	wl_measure_verdict(&v, &r);
+	printf("held move: %s: %s\n", wl_verdict_name(r.verdict), r.reasons[0]);
+	assert_int_equal(r.verdict, WL_VERDICT_OK);
+	assert_int_equal(r.n_reasons, 1);
+	assert_true(has_reason(&r, "note: the camera moved between 4.80 s and 5.33 s"));
+	assert_true(has_reason(&r, "turned 0.35 deg, centre 0.5 mm") && has_reason(&r, "from 8 markers"));
+	/* the same move outside the run's span: nothing */
+	quiet_run(&r, 6.0, 10.0);
+	v.t0_s = 6.0, v.t1_s = 10.0;
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.verdict, WL_VERDICT_OK);
+	assert_int_equal(r.n_reasons, 0);
+	/* registered again, but the new pose fits the markers badly (1.5 px
+	 * against a 1 px limit): check */
+	bumped(&cam, 1, 1.5);
+	quiet_run(&r, 1.0, 10.0);
+	v.t0_s = 1.0, v.t1_s = 10.0;
+	wl_measure_verdict(&v, &r);
+	printf("poor registration: %s: %s\n", wl_verdict_name(r.verdict), r.reasons[0]);
+	assert_int_equal(r.verdict, WL_VERDICT_CHECK);
+	assert_true(has_reason(&r, "fits the floor markers to only 1.50 px RMS (limit 1.00)"));
+	assert_true(has_reason(&r, "calibrate --at 5.4"));
+	/* a larger watch threshold widens the limit with it */
+	cam.threshold_px = 1.0;
+	quiet_run(&r, 1.0, 10.0);
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.verdict, WL_VERDICT_OK);
+	/* registered, how well not recorded (an older CLEAN.json): check */
+	bumped(&cam, 1, NAN);
+	quiet_run(&r, 1.0, 10.0);
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.verdict, WL_VERDICT_CHECK);
+	assert_true(has_reason(&r, "how well is not recorded"));
+	/* too few markers: suspect from 4.80 s to the end; a run 1-10 s has
+	 * 5.2 of its 9 s suspect (over half): reject */
+	bumped(&cam, 0, NAN);
+	quiet_run(&r, 1.0, 10.0);
+	wl_measure_verdict(&v, &r);
+	printf("suspect over half: %s: %s\n", wl_verdict_name(r.verdict), r.reasons[0]);
+	assert_int_equal(r.verdict, WL_VERDICT_REJECT);
+	assert_true(has_reason(&r, "5.2 s of the run from 4.80 s are suspect"));
+	assert_true(has_reason(&r, "calibrate --at 5.4") && has_reason(&r, "keep them in view"));
+	/* a run 0-8 s: 3.2 of 8 s suspect: check */
+	quiet_run(&r, 0.0, 8.0);
+	v.t0_s = 0.0, v.t1_s = 8.0;
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.verdict, WL_VERDICT_CHECK);
+	assert_true(has_reason(&r, "3.2 s of the run from 4.80 s are suspect"));
+	/* a run that ended before the move: nothing */
+	quiet_run(&r, 0.0, 4.5);
+	v.t0_s = 0.0, v.t1_s = 4.5;
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.verdict, WL_VERDICT_OK);
+	assert_int_equal(r.n_reasons, 0);
+	/* the suspect interval closed by a later registration (at 7 s): a run
+	 * 6-10 s has 1 s suspect, and the registration is a note */
+	cam.suspect_to_t_s = 7.0;
+	cam.n_moves = 2;
+	cam.moves[1] = cam.moves[0];
+	cam.moves[1].t_s = 7.0;
+	cam.moves[1].last_still_t_s = NAN; /* none agreed in between */
+	cam.moves[1].reregistered = 1;
+	cam.moves[1].markers = 5;
+	cam.moves[1].rms_px = 0.3;
+	cam.moves[1].turn_deg = 0.36;
+	cam.moves[1].centre_shift_mm = 0.6;
+	quiet_run(&r, 6.0, 10.0);
+	v.t0_s = 6.0, v.t1_s = 10.0;
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.verdict, WL_VERDICT_CHECK);
+	assert_true(has_reason(&r, "1.0 s of the run from 6.00 s are suspect"));
+	assert_true(has_reason(&r, "registered again from 5 markers"));
+	/* no watch record (or the watch off): no camera reason */
+	v.camera = NULL;
+	quiet_run(&r, 1.0, 10.0);
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.n_reasons, 0);
+	cam.enabled = 0;
+	v.camera = &cam;
+	wl_measure_verdict(&v, &r);
+	assert_int_equal(r.n_reasons, 0);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
-	        cmocka_unit_test(test_ggs_geometric),
-	        cmocka_unit_test(test_ggs_algebraic),
-	        cmocka_unit_test(test_synth_arcs),
-	        cmocka_unit_test(test_synth_straight),
-	        cmocka_unit_test(test_short_arc_kasa_bias),
-	        cmocka_unit_test(test_uneven_times_and_gaps),
-	        cmocka_unit_test(test_errors),
-	        cmocka_unit_test(test_oscillation_exact_sine),
-	        cmocka_unit_test(test_interval_coverage),
+	        cmocka_unit_test(test_ggs_geometric),          cmocka_unit_test(test_verdict_camera),
+	        cmocka_unit_test(test_ggs_algebraic),          cmocka_unit_test(test_synth_arcs),
+	        cmocka_unit_test(test_synth_straight),         cmocka_unit_test(test_short_arc_kasa_bias),
+	        cmocka_unit_test(test_uneven_times_and_gaps),  cmocka_unit_test(test_errors),
+	        cmocka_unit_test(test_oscillation_exact_sine), cmocka_unit_test(test_interval_coverage),
 	        cmocka_unit_test(test_budget_monte_carlo),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
