@@ -94,10 +94,40 @@ void wl_kin_start(const wl_kin_cfg *cfg, double z0, wl_kin_step *s0)
 	memcpy(s0->Ps, s0->Pp, sizeof s0->Ps);
 }
 
+/* The mean's prediction, F x. */
+static void predict_mean(int d, const double *x, double dt, double *xp)
+{
+	if (d == 2) {
+		xp[0] = x[0] + dt * x[1];
+		xp[1] = x[1];
+		xp[2] = 0;
+	} else {
+		xp[0] = x[0] + dt * x[1] + 0.5 * dt * dt * x[2];
+		xp[1] = x[1] + dt * x[2];
+		xp[2] = x[2];
+	}
+}
+
 void wl_kin_predict(const wl_kin_cfg *cfg, const wl_kin_step *prev, double dt, wl_kin_step *cur)
 {
 	int d = cfg->dim;
 	double F[9], Q[9], FP[9];
+	if (d == 2) {
+		/* F P F' + Q written out for the constant-velocity model, the
+		 * default: the generic products below cost most of clean's time */
+		const double *P = prev->Ps;
+		double a = P[IX(0, 0)], b = P[IX(0, 1)], c = P[IX(1, 1)], q = cfg->q, d2 = dt * dt;
+		double *Pp = cur->Pp;
+		predict_mean(2, prev->xs, dt, cur->xp);
+		memset(Pp, 0, sizeof cur->Pp);
+		Pp[IX(0, 0)] = a + dt * (2 * b + dt * c) + q * d2 * dt / 3;
+		Pp[IX(0, 1)] = Pp[IX(1, 0)] = b + dt * c + q * d2 / 2;
+		Pp[IX(1, 1)] = c + q * dt;
+		cur->nu = cur->S = NAN;
+		memcpy(cur->xs, cur->xp, sizeof cur->xs);
+		memcpy(cur->Ps, cur->Pp, sizeof cur->Ps);
+		return;
+	}
 	trans(d, dt, F);
 	procnoise(d, cfg->q, dt, Q);
 	memset(cur, 0, sizeof *cur);
@@ -134,6 +164,19 @@ void wl_kin_update(const wl_kin_cfg *cfg, wl_kin_step *cur, double nu, double S)
 		K[i] = cur->Pp[IX(i, 0)] / S;
 	for (int i = 0; i < d; i++)
 		cur->xs[i] = cur->xp[i] + K[i] * nu;
+	if (d == 2) {
+		/* the Joseph form below, written out for H = [1 0] */
+		const double *P = cur->Pp;
+		double a = P[IX(0, 0)], b = P[IX(0, 1)], c = P[IX(1, 1)], r = cfg->r, g = 1 - K[0];
+		double *Ps = cur->Ps;
+		memset(Ps, 0, sizeof cur->Ps);
+		Ps[IX(0, 0)] = g * g * a + K[0] * K[0] * r;
+		Ps[IX(0, 1)] = Ps[IX(1, 0)] = g * (b - K[1] * a) + K[0] * K[1] * r;
+		Ps[IX(1, 1)] = K[1] * (K[1] * a - 2 * b) + c + K[1] * K[1] * r;
+		cur->nu = nu;
+		cur->S = S;
+		return;
+	}
 	/* Joseph form: (I - K H) P (I - K H)' + K r K' */
 	memset(A, 0, sizeof A);
 	for (int i = 0; i < d; i++) {
@@ -146,6 +189,26 @@ void wl_kin_update(const wl_kin_cfg *cfg, wl_kin_step *cur, double nu, double S)
 		for (int j = 0; j < d; j++)
 			cur->Ps[IX(i, j)] += K[i] * cfg->r * K[j];
 	symmetrize(d, cur->Ps);
+	cur->nu = nu;
+	cur->S = S;
+}
+
+void wl_kin_predict_shared(const wl_kin_cfg *cfg, const wl_kin_step *prev, double dt, const wl_kin_step *twin,
+                           wl_kin_step *cur)
+{
+	predict_mean(cfg->dim, prev->xs, dt, cur->xp);
+	memcpy(cur->Pp, twin->Pp, sizeof cur->Pp);
+	cur->nu = cur->S = NAN;
+	memcpy(cur->xs, cur->xp, sizeof cur->xs);
+	memcpy(cur->Ps, cur->Pp, sizeof cur->Ps);
+}
+
+void wl_kin_update_shared(const wl_kin_cfg *cfg, wl_kin_step *cur, double nu, double S,
+                          const wl_kin_step *twin)
+{
+	for (int i = 0; i < cfg->dim; i++)
+		cur->xs[i] = cur->xp[i] + cur->Pp[IX(i, 0)] / S * nu;
+	memcpy(cur->Ps, twin->Ps, sizeof cur->Ps);
 	cur->nu = nu;
 	cur->S = S;
 }
@@ -173,7 +236,7 @@ static int inv_block(int d, const double *P, double *Pi)
 	return 1;
 }
 
-int wl_kin_backward(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_step *st)
+int wl_kin_backward2(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_step *st, wl_kin_step *twin)
 {
 	int d = cfg->dim;
 	for (size_t k = n - 1; k-- > 0;) {
@@ -192,14 +255,30 @@ int wl_kin_backward(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_ste
 				a->xs[i] += C[IX(i, j)] * dx[j];
 				dP[IX(i, j)] = b->Ps[IX(i, j)] - b->Pp[IX(i, j)];
 			}
+		if (twin) {
+			wl_kin_step *ta = &twin[k];
+			const wl_kin_step *tb = &twin[k + 1];
+			for (int i = 0; i < d; i++)
+				dx[i] = tb->xs[i] - tb->xp[i];
+			for (int i = 0; i < d; i++)
+				for (int j = 0; j < d; j++)
+					ta->xs[i] += C[IX(i, j)] * dx[j];
+		}
 		mul(d, C, dP, CdP);
 		mul_t(d, CdP, C, dP);
 		for (int i = 0; i < d; i++)
 			for (int j = 0; j < d; j++)
 				a->Ps[IX(i, j)] += dP[IX(i, j)];
 		symmetrize(d, a->Ps);
+		if (twin)
+			memcpy(twin[k].Ps, a->Ps, sizeof a->Ps);
 	}
 	return 1;
+}
+
+int wl_kin_backward(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_step *st)
+{
+	return wl_kin_backward2(cfg, n, t, st, NULL);
 }
 
 int wl_kin_smooth(const wl_kin_cfg *cfg, size_t n, const double *t, const double *z, wl_kin_step *st,

@@ -46,9 +46,21 @@ void wl_kin_predict(const wl_kin_cfg *cfg, const wl_kin_step *prev, double dt, w
 /* Innovation of z at cur (wrapped for angular axes) and its variance. */
 void wl_kin_innov(const wl_kin_cfg *cfg, const wl_kin_step *cur, double z, double *nu, double *S);
 void wl_kin_update(const wl_kin_cfg *cfg, wl_kin_step *cur, double nu, double S);
+/* Two axes with the same model, times, measurement variances and left-out
+ * detections (x and y of one robot) have the same covariances: the second
+ * axis's step takes them from its twin (the first axis's step at the same
+ * sample, already predicted or updated) and only its mean is computed.
+ * Bit for bit what wl_kin_predict and wl_kin_update give. */
+void wl_kin_predict_shared(const wl_kin_cfg *cfg, const wl_kin_step *prev, double dt, const wl_kin_step *twin,
+                           wl_kin_step *cur);
+void wl_kin_update_shared(const wl_kin_cfg *cfg, wl_kin_step *cur, double nu, double S,
+                          const wl_kin_step *twin);
 /* Skips the update (no measurement or rejected): filtered = predicted. */
 void wl_kin_skip(const wl_kin_cfg *cfg, wl_kin_step *cur);
 /* Backward pass over st[0..n-1]; t as above.  Returns 0 when singular. */
 int wl_kin_backward(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_step *st);
+/* The backward pass of st and, with the same gains, of its twin axis
+ * (NULL: none) whose covariances equal st's (see wl_kin_predict_shared). */
+int wl_kin_backward2(const wl_kin_cfg *cfg, size_t n, const double *t, wl_kin_step *st, wl_kin_step *twin);
 
 #endif

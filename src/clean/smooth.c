@@ -182,10 +182,16 @@ static double forward_range(const work *w, group *g, size_t lo, size_t hi, const
 			int have = 1;
 			wl_kin_cfg c = g->cfg; /* a held pose's variance is inflated */
 			c.r *= w->rs[i];
+			/* the axes of a group share their covariances: the second
+			 * takes them from the first (wl_kin_predict_shared) */
 			for (int k = 0; k < g->naxes; k++) {
-				if (i > a)
-					wl_kin_predict(&g->cfg, &g->st[k][i - 1], w->t[i] - w->t[i - 1],
-					               &g->st[k][i]);
+				if (i > a && k == 0)
+					wl_kin_predict(&g->cfg, &g->st[0][i - 1], w->t[i] - w->t[i - 1],
+					               &g->st[0][i]);
+				else if (i > a)
+					wl_kin_predict_shared(&g->cfg, &g->st[k][i - 1],
+					                      w->t[i] - w->t[i - 1], &g->st[0][i],
+					                      &g->st[k][i]);
 				if (!isfinite(g->z[k][i]))
 					have = 0;
 			}
@@ -216,7 +222,10 @@ static double forward_range(const work *w, group *g, size_t lo, size_t hi, const
 			for (int k = 0; k < g->naxes; k++) {
 				double nk, Sk;
 				wl_kin_innov(&c, &g->st[k][i], g->z[k][i], &nk, &Sk);
-				wl_kin_update(&c, &g->st[k][i], nk, Sk);
+				if (k == 0)
+					wl_kin_update(&c, &g->st[0][i], nk, Sk);
+				else
+					wl_kin_update_shared(&c, &g->st[k][i], nk, Sk, &g->st[0][i]);
 			}
 		}
 	}
@@ -235,9 +244,9 @@ static int backward_range(const work *w, group *g, size_t lo, size_t hi)
 		       b = w->pstart[q + 1] < hi ? w->pstart[q + 1] : hi;
 		if (a >= b)
 			continue;
-		for (int k = 0; k < g->naxes; k++)
-			if (!wl_kin_backward(&g->cfg, b - a, w->t + a, g->st[k] + a))
-				return 0;
+		if (!wl_kin_backward2(&g->cfg, b - a, w->t + a, g->st[0] + a,
+		                      g->naxes > 1 ? g->st[1] + a : NULL))
+			return 0;
 	}
 	return 1;
 }

@@ -4,7 +4,10 @@
  */
 #include "cv/cv.h"
 
+#include <dlfcn.h>
+
 #include <cmath>
+#include <cstdio>
 #include <cstdlib>
 #include <cstring>
 #include <exception>
@@ -28,6 +31,49 @@ cv::Mat wrap(const uint8_t *gray, int w, int h, int stride)
 	return cv::Mat(h, w, CV_8UC1, const_cast<uint8_t *>(gray), static_cast<size_t>(stride));
 }
 
+/* OpenCV's image codecs (libopencv_imgcodecs) pull in some fifty
+ * libraries (TIFF, OpenEXR, GDCM, JPEG 2000, ...): linked directly they cost
+ * every command ~100 ms of start-up, more than `clean` and `measure` need for
+ * a whole clip.  Only `lens` and `calibrate` on a photo read image files, so
+ * cv::imread is looked up in the library on first use.  The symbol is
+ * cv::imread(const cv::String &, int) of OpenCV 4 (cv::String is std::string
+ * there), in the GCC/Clang C++ ABI; the soname is OpenCV's
+ * (libopencv_imgcodecs.so.<major><two-digit minor>, e.g. .406 for 4.6). */
+using imread_fn = cv::Mat (*)(const cv::String &, int);
+#define WL_CV_IMREAD_SYMBOL "_ZN2cv6imreadERKNSt7__cxx1112basic_stringIcSt11char_traitsIcESaIcEEEi"
+
+struct imread_lib {
+	imread_fn fn = nullptr;
+	const char *why = nullptr;
+	char msg[160];
+	imread_lib()
+	{
+		char so[64];
+		std::snprintf(so, sizeof so, "libopencv_imgcodecs.so.%d%02d", CV_VERSION_MAJOR,
+		              CV_VERSION_MINOR);
+		void *lib = dlopen(so, RTLD_NOW | RTLD_GLOBAL);
+		if (!lib)
+			std::snprintf(msg, sizeof msg,
+			              "%s could not be loaded: apt-get install libopencv-imgcodecs%d%02d", so,
+			              CV_VERSION_MAJOR, CV_VERSION_MINOR);
+		else if (!(fn = reinterpret_cast<imread_fn>(dlsym(lib, WL_CV_IMREAD_SYMBOL))))
+			std::snprintf(
+			        msg, sizeof msg,
+			        "%s has no cv::imread of the expected signature: rebuild wakeline against "
+			        "the installed OpenCV",
+			        so);
+		why = fn ? nullptr : msg;
+		/* the library stays loaded for the life of the process */
+	}
+};
+
+imread_fn load_imread(const char **why)
+{
+	static const imread_lib lib; /* initialised once, thread-safe (C++11) */
+	*why = lib.why;
+	return lib.fn;
+}
+
 } // namespace
 
 extern "C" wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixels, int *width_px,
@@ -37,8 +83,12 @@ extern "C" wl_status wl_cv_imread(const char *path, int channels, uint8_t **pixe
 	try {
 		if (channels != 1 && channels != 3)
 			return wl_err_set(err, WL_EINVAL, "imread: channels must be 1 or 3");
-		cv::Mat m = cv::imread(path, (channels == 1 ? cv::IMREAD_GRAYSCALE : cv::IMREAD_COLOR) |
-		                                     cv::IMREAD_IGNORE_ORIENTATION);
+		const char *why = nullptr;
+		imread_fn imread = load_imread(&why);
+		if (!imread)
+			return wl_err_set(err, WL_EIO, "cannot read image '%s': %s", path, why);
+		cv::Mat m = imread(path, (channels == 1 ? cv::IMREAD_GRAYSCALE : cv::IMREAD_COLOR) |
+		                                 cv::IMREAD_IGNORE_ORIENTATION);
 		if (m.empty())
 			return wl_err_set(err, WL_EIO,
 			                  "cannot read image '%s': missing, unreadable or not an image",

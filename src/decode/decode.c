@@ -11,6 +11,7 @@
 #include "core/csvio.h"
 #include "decode/record.h"
 
+#include <dlfcn.h>
 #include <errno.h>
 #include <math.h>
 #include <pthread.h>
@@ -21,7 +22,7 @@
 #include <time.h>
 
 #include <libavcodec/avcodec.h>
-#include <libavdevice/avdevice.h>
+#include <libavdevice/version_major.h>
 #include <libavformat/avformat.h>
 #include <libavutil/display.h>
 #include <libavutil/imgutils.h>
@@ -333,10 +334,28 @@ static int is_url(const char *s)
 	return strstr(s, "://") != NULL;
 }
 
+/* FFmpeg's device inputs (V4L2 and friends) live in libavdevice, which
+ * pulls in some eighty libraries (audio servers, X11, SDL, OpenGL): linked
+ * directly, it costs every command ~80 ms of start-up, most of what `clean`
+ * and `measure` take.  It is loaded here, on the first input that names a
+ * format, and only then.  Without it, formats that are not devices still
+ * work; av_find_input_format's failure message says what to install. */
+#define AVDEVICE_SONAME "libavdevice.so." AV_STRINGIFY(LIBAVDEVICE_VERSION_MAJOR)
 static pthread_once_t devices_once = PTHREAD_ONCE_INIT;
+static int devices_loaded;
 static void register_devices(void)
 {
-	avdevice_register_all();
+	void *lib = dlopen(AVDEVICE_SONAME, RTLD_NOW | RTLD_GLOBAL);
+	void (*reg)(void);
+	if (!lib)
+		return;
+	/* POSIX's sanctioned way to turn dlsym's object pointer into a function pointer */
+	*(void **)&reg = dlsym(lib, "avdevice_register_all");
+	if (reg) {
+		reg();
+		devices_loaded = 1;
+	}
+	/* the library stays loaded: FFmpeg keeps pointers into it */
 }
 
 /* A file given by path: the checks that give clearer messages than FFmpeg's. */
@@ -413,8 +432,11 @@ static wl_status open_input(wl_decoder *dec, const char *path, const wl_decode_o
 			return wl_err_set(
 			        err, WL_EINVAL,
 			        "input format '%s' is not known to this FFmpeg: see 'ffmpeg -formats' "
-			        "and 'ffmpeg -devices'",
-			        fname);
+			        "and 'ffmpeg -devices'%s",
+			        fname,
+			        devices_loaded ? ""
+			                       : " (" AVDEVICE_SONAME " could not be loaded, so no device "
+			                         "input is known: apt-get install libavdevice59)");
 	}
 	if (!(dec->fmt = avformat_alloc_context()))
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);

@@ -10,6 +10,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "measure/measure_priv.h"
+
 #include "core/angle.h"
 #include "measure/measure.h"
 
@@ -159,11 +161,11 @@ wl_status wl_measure_budget(const wl_measure_input *in, const wl_measure_opts *o
 		if (src == WL_BS_PLANE_HEIGHT && isfinite(plane_sd_m))
 			f = plane_sd_m / wl_measure_sys_sd(sys, k); /* the robot's own tolerance */
 		perturb(in, &w, k, -f, &pm);
-		if ((st = wl_measure_run(&pm, opt, &rm, err)))
+		if ((st = wl_measure_run_values(&pm, opt, &rm, err)))
 			goto out;
 		values(&rm, vm);
 		perturb(in, &w, k, f, &pp);
-		if ((st = wl_measure_run(&pp, opt, &rp, err)))
+		if ((st = wl_measure_run_values(&pp, opt, &rp, err)))
 			goto out;
 		values(&rp, vp);
 		present[src] = 1;

@@ -420,7 +420,8 @@ static int find_sway(const double *t, const double *x, const double *y, size_t m
 
 /* The circle, its uncertainty and the straight rule. */
 static void circle_measures(const double *t, const double *x, const double *y, size_t m,
-                            const wl_measure_opts *opt, wl_measure_result *r, wl_geofit *gf, double *scratch)
+                            const wl_measure_opts *opt, int values_only, wl_measure_result *r, wl_geofit *gf,
+                            double *scratch)
 {
 	wl_circle c;
 	wl_osc o;
@@ -445,6 +446,8 @@ static void circle_measures(const double *t, const double *x, const double *y, s
 	r->fit_rms_m = gf->rms_m;
 	r->arc_deg =
 	        gf->kappa_per_m != 0 ? fabs(wl_measure_swept_angle(x, y, m, gf->cx_m, gf->cy_m)) / WL_DEG : 0;
+	if (values_only)
+		return;
 	if (wl_measure_curvature_se(x, y, t, m, gf, &se, &r->ar_order, NULL) == WL_OK) {
 		double q = 1.959964;
 		r->curvature_se_per_m = se;
@@ -690,9 +693,9 @@ static void osc_series(const wl_measure_input *in, const wl_geofit *gf, const wl
 }
 
 /* Yaw and sway oscillation about the mean path. */
-static void oscillation_measures(const wl_measure_input *in, const wl_measure_opts *opt, const wl_geofit *gf,
-                                 wl_measure_result *r, double *sway, double *yaw, double *raw_off,
-                                 double *se_amp_deg, double *se_f)
+static void oscillation_measures(const wl_measure_input *in, const wl_measure_opts *opt, int values_only,
+                                 const wl_geofit *gf, wl_measure_result *r, double *sway, double *yaw,
+                                 double *raw_off, double *se_amp_deg, double *se_f)
 {
 	double f_lo, f_hi;
 	wl_osc o;
@@ -703,10 +706,12 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 		r->yaw_osc_freq_hz = o.freq_hz;
 		r->yaw_osc_amp_deg = o.amp / WL_DEG;
 		r->yaw_osc_r2 = o.r2;
-		osc_se(in->t_s, yaw, in->n, &o, &se_amp, se_f);
-		*se_amp_deg = se_amp / WL_DEG;
+		if (!values_only) {
+			osc_se(in->t_s, yaw, in->n, &o, &se_amp, se_f);
+			*se_amp_deg = se_amp / WL_DEG;
+		}
 	}
-	if (wl_measure_oscillation(in->t_s, sway, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
+	if (!values_only && wl_measure_oscillation(in->t_s, sway, in->n, f_lo, f_hi, &o, NULL) == WL_OK) {
 		r->sway_osc_freq_hz = o.freq_hz;
 		r->sway_amp_m = o.amp;
 	}
@@ -714,8 +719,8 @@ static void oscillation_measures(const wl_measure_input *in, const wl_measure_op
 
 /* wl_measure_run, and with yaw_out / off_out (in->n values each, may be
  * NULL) the series behind the oscillation measures. */
-static wl_status run_core(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
-                          double *yaw_out, double *off_out, wl_err *err)
+static wl_status run_core(const wl_measure_input *in, const wl_measure_opts *opt, int values_only,
+                          wl_measure_result *r, double *yaw_out, double *off_out, wl_err *err)
 {
 	double *x = NULL, *y = NULL, *tc = NULL, *hd = NULL, *sway = NULL, *yaw = NULL;
 	size_t m = 0;
@@ -759,12 +764,14 @@ static wl_status run_core(const wl_measure_input *in, const wl_measure_opts *opt
 	r->duration_s = in->t_s[in->n - 1] - in->t_s[0];
 	r->tracked_fraction = (double)r->n_measured / (double)in->n;
 	path_measures(in, x, y, m, r, hd);
-	circle_measures(tc, x, y, m, opt, r, &gf, sway);
+	circle_measures(tc, x, y, m, opt, values_only, r, &gf, sway);
 	if (isfinite(gf.kappa_per_m)) {
 		double se_amp = NAN, se_f = NAN, se_s;
-		oscillation_measures(in, opt, &gf, r, sway, yaw, off_out, &se_amp, &se_f);
+		oscillation_measures(in, opt, values_only, &gf, r, sway, yaw, off_out, &se_amp, &se_f);
 		if (yaw_out)
 			memcpy(yaw_out, yaw, in->n * sizeof *yaw);
+		if (values_only)
+			goto out;
 		/* the lateral offsets from the mean path, for the straightness */
 		for (size_t i = 0, k = 0; i < in->n; i++)
 			if (isfinite(in->x_m[i]) && isfinite(in->y_m[i]))
@@ -785,7 +792,13 @@ out:
 wl_status wl_measure_run(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
                          wl_err *err)
 {
-	return run_core(in, opt, r, NULL, NULL, err);
+	return run_core(in, opt, 0, r, NULL, NULL, err);
+}
+
+wl_status wl_measure_run_values(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
+                                wl_err *err)
+{
+	return run_core(in, opt, 1, r, NULL, NULL, err);
 }
 
 wl_status wl_measure_run_series(const wl_measure_input *in, const wl_measure_opts *opt, wl_measure_result *r,
@@ -793,5 +806,5 @@ wl_status wl_measure_run_series(const wl_measure_input *in, const wl_measure_opt
 {
 	for (size_t i = 0; i < in->n; i++)
 		yaw_rad[i] = offset_m[i] = NAN;
-	return run_core(in, opt, r, yaw_rad, offset_m, err);
+	return run_core(in, opt, 0, r, yaw_rad, offset_m, err);
 }

@@ -31,6 +31,11 @@ expect 2 "give KEY=VALUE" clip.mp4 --cal clip.cal.json --source-option novalue -
 expect 2 "--max-delay-ms" clip.mp4 --cal clip.cal.json --max-delay-ms -5 --raw r.csv
 expect 1 "/dev/video93" /dev/video93 --cal clip.cal.json --raw r.csv --wait-s 1
 expect 1 "nosuchformat" clip.mp4 --source-format nosuchformat --cal clip.cal.json --raw r.csv
+check_grep "the unknown format's message names 'ffmpeg -devices'" -- "ffmpeg -devices" last.err
+# FFmpeg's device inputs come from libavdevice, which wakeline loads on the
+# first --source-format: a device format is known (the message is about the
+# source, not "not known")
+expect 1 "cannot open the source" "testsrc=size=nosuch" --source-format lavfi --cal clip.cal.json --raw r.csv
 expect 1 "udp://127.0.0.1:99999" clip.mp4 --cal clip.cal.json --publish udp://127.0.0.1:99999
 expect 1 "nosuch.json" clip.mp4 --cal nosuch.json --raw r.csv
 check_no_file "a run that never opened its source leaves no r.csv" r.csv
