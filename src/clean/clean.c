@@ -363,8 +363,12 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		rb->outliers_pos += (w.why[i] & 1) != 0;
 		rb->outliers_heading += (w.why[i] & 2) != 0;
 	}
-	warn_model(p, diag, rb);
 	clean_cut_and_segment(&w, p, rb);
+	/* a still robot is not analysed, so what its model rejected changes no
+	 * number (a floor marker tracked as a robot: a small tag's detection
+	 * may jump at each key frame); the still line says what it is */
+	if (!rb->still)
+		warn_model(p, diag, rb);
 	if ((st = clean_list_segments(&w, rb, err)))
 		goto out;
 	st = clean_emit_rows(&w, tr, p, res, cap, rb, err);
