@@ -146,7 +146,9 @@ static wl_status read_source(const options *op, wl_calib_tags *tags, int *w, int
 }
 
 #define MOVE_WARN_PX 1.5 /* a marker's centre wandering more than this over the frames (our choice) */
-#define MIN_MARGIN 40.0  /* median decision margin below this: a weak detection (our choice) */
+/* farther than this, more likely a robot wearing the marker's tag id than a camera shake (our choice) */
+#define ROBOT_TAG_PX 20.0
+#define MIN_MARGIN 40.0 /* median decision margin below this: a weak detection (our choice) */
 
 /* Detected markers -> correspondences: centre, and the corners when the
  * layout gives the marker's size. */
@@ -166,7 +168,14 @@ static int markers_to_points(const wl_calib_tags *tags, const wl_calib_marker *m
 			continue;
 		}
 		(*n_seen)++;
-		if (o.move_px > MOVE_WARN_PX)
+		if (o.move_px > ROBOT_TAG_PX)
+			wl_diag_warn(
+			        diag, "calibrate",
+			        "marker %ld is seen up to %.1f px from its usual place: a robot may wear "
+			        "the same tag id (give the robots ids that no floor marker uses), or the "
+			        "camera moved (fix it, and turn image stabilisation off)",
+			        m->id, o.move_px);
+		else if (o.move_px > MOVE_WARN_PX)
 			wl_diag_warn(diag, "calibrate",
 			             "marker %ld moves by up to %.1f px between frames: turn image "
 			             "stabilisation off "

@@ -21,14 +21,8 @@
 #include <sys/stat.h>
 #include <time.h>
 
-#include <libavcodec/avcodec.h>
+#include "decode/av.h" /* FFmpeg, loaded on first use */
 #include <libavdevice/version_major.h>
-#include <libavformat/avformat.h>
-#include <libavutil/display.h>
-#include <libavutil/imgutils.h>
-#include <libavutil/opt.h>
-#include <libavutil/pixdesc.h>
-#include <libswscale/swscale.h>
 
 /* After this many receive errors in a row the stream is given up (a decoder
  * that keeps failing would otherwise spin). */
@@ -545,6 +539,8 @@ wl_status wl_decoder_open_ex(const char *path, const wl_decode_opts *o, wl_decod
 	wl_status st;
 
 	*out = NULL;
+	if ((st = wl_av_load(err)) != WL_OK)
+		return wl_err_prefix(err, st, "%s", path);
 	/* FFmpeg logs to stderr by default; the library must not print.  The
 	 * level is process-wide, which is acceptable for this program. */
 	av_log_set_level(AV_LOG_QUIET);

@@ -5,9 +5,7 @@
 
 #include <string.h>
 
-#include <libavcodec/avcodec.h>
-#include <libavutil/frame.h>
-#include <libavutil/log.h>
+#include "decode/av.h" /* FFmpeg, loaded on first use */
 
 #include "core/afile.h"
 #include "decode/decode.h"
@@ -81,6 +79,8 @@ wl_status wl_png_write(const char *path, const uint8_t *data, int width, int hei
 	AVPacket *pkt;
 	wl_status st;
 
+	if ((st = wl_av_load(err)) != WL_OK)
+		return wl_err_prefix(err, st, "%s", path);
 	av_log_set_level(AV_LOG_QUIET); /* the library never prints (process-wide, as in decode.c) */
 	if (width <= 0 || height <= 0 || (channels != 1 && channels != 3) || stride < width * channels)
 		return wl_err_set(err, WL_EINVAL,

@@ -17,8 +17,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <libavcodec/bsf.h>
-#include <libavutil/opt.h>
+#include "decode/av.h" /* FFmpeg, loaded on first use */
 
 /* packets held before the header; more means no frame decodes: dropped */
 #define HOLD_MAX 256
@@ -65,11 +64,14 @@ static void free_rec(wl_rec *r)
 
 wl_status wl_rec_open(const char *path, const AVStream *in, wl_rec **out, wl_err *err)
 {
-	wl_rec *r = calloc(1, sizeof *r);
+	wl_rec *r;
 	int ret;
-	wl_status st = WL_OK;
+	wl_status st;
 
 	*out = NULL;
+	if ((st = wl_av_load(err)) != WL_OK)
+		return wl_err_prefix(err, st, "%s", path);
+	r = calloc(1, sizeof *r);
 	if (!r)
 		return wl_err_set(err, WL_ENOMEM, "%s: out of memory", path);
 	snprintf(r->path, sizeof r->path, "%s", path);

@@ -18,12 +18,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <libavcodec/avcodec.h>
-#include <libavformat/avformat.h>
-#include <libavutil/display.h>
-#include <libavutil/imgutils.h>
-#include <libavutil/opt.h>
-#include <libswscale/swscale.h>
+#include "decode/av.h" /* FFmpeg, loaded on first use */
 
 #include "core/afile.h"
 
@@ -168,6 +163,8 @@ wl_status wl_vwriter_open(const char *path, const wl_vwriter_opts *opts, wl_vwri
 	int rc;
 
 	*out = NULL;
+	if ((st = wl_av_load(err)) != WL_OK)
+		return wl_err_prefix(err, st, "%s", path);
 	/* FFmpeg logs to stderr by default; the library must not print, and
 	 * every failure comes back as a message, so only errors remain */
 	if (av_log_get_level() > AV_LOG_ERROR)
