@@ -232,14 +232,89 @@ static void warn_model(const wl_clean_params *p, const wl_diag *diag, const wl_c
 		             rb->id, rb->restarts_pos, rb->restarts_heading, 3);
 }
 
-static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, const wl_diag *diag,
-                             wl_clean_robot *rb, wl_clean_result *res, size_t *cap, wl_err *err)
+/* The detector's resolution: no detection locates a tag better than this
+ * many pixels (sub-pixel corner and centroid refinement reaches a few
+ * hundredths of a pixel: common practice, from memory).  A robot at rest
+ * in a compressed clip is seen in identical pixels from frame to frame
+ * (the encoder repeats the block) and moves at each key frame by its real
+ * detection noise (about 0.025 px in our renders), so the MAD of its
+ * residuals is 0 and every key frame would look like an outlier; the
+ * measurement noise is kept at least this resolution.  The robustness
+ * suite's moving robots show 0.02-0.7 px (median 0.06 px, 5% under
+ * 0.024 px), so the floor hardly touches their estimates. */
+#define NOISE_FLOOR_PX 0.03
+
+/* Metres per coded pixel over the file, from RAW.csv's own pairs of image
+ * (u_px, v_px) and tank (x_m, y_m) positions: the median ratio of the
+ * distances from each pose to the farther of two anchors (the first pose
+ * and the one farthest from it in the image), over poses at least 20 px
+ * from it.  NaN when every pose lies within 20 px of the others (one still
+ * tag alone in the file): then there is no scale, and no floor.  The
+ * marker planes' heights change the scale by their share of the camera's
+ * height (a tenth or so), which is close enough for a floor. */
+static double raw_pixel_m(const wl_clean_raw *raw)
 {
+	const wl_clean_raw_sample *a = NULL, *b = NULL;
+	double best = 0, *r, out;
+	size_t m = 0;
+	for (size_t k = 0; k < raw->ntracks; k++)
+		for (size_t i = 0; i < raw->tracks[k].n; i++) {
+			const wl_clean_raw_sample *s = &raw->tracks[k].s[i];
+			double d;
+			if (!s->has_pos || !isfinite(s->u_px) || !isfinite(s->v_px))
+				continue;
+			if (!a)
+				a = s;
+			d = hypot(s->u_px - a->u_px, s->v_px - a->v_px);
+			if (d > best)
+				best = d, b = s;
+		}
+	if (!b || best < 20 || !(r = malloc(raw->nrows * sizeof *r)))
+		return NAN;
+	for (size_t k = 0; k < raw->ntracks; k++)
+		for (size_t i = 0; i < raw->tracks[k].n; i++) {
+			const wl_clean_raw_sample *s = &raw->tracks[k].s[i], *o;
+			double da, db, dp;
+			if (!s->has_pos || !isfinite(s->u_px) || !isfinite(s->v_px))
+				continue;
+			da = hypot(s->u_px - a->u_px, s->v_px - a->v_px);
+			db = hypot(s->u_px - b->u_px, s->v_px - b->v_px);
+			o = da > db ? a : b;
+			dp = fmax(da, db);
+			if (dp >= 20 && m < raw->nrows)
+				r[m++] = hypot(s->x_m - o->x_m, s->y_m - o->y_m) / dp;
+		}
+	out = clean_median(r, m);
+	free(r);
+	return out > 0 ? out : NAN;
+}
+
+/* Median tag side (or blob diameter) of a robot's poses, px; NaN if none. */
+static double track_size_px(const wl_clean_raw_track *tr)
+{
+	double *v = malloc((tr->n ? tr->n : 1) * sizeof *v), out;
+	size_t m = 0;
+	if (!v)
+		return NAN;
+	for (size_t i = 0; i < tr->n; i++)
+		if (tr->s[i].has_pos && tr->s[i].size_px > 0)
+			v[m++] = tr->s[i].size_px;
+	out = clean_median(v, m);
+	free(v);
+	return out;
+}
+
+static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params *p, double pixel_m,
+                             const wl_diag *diag, wl_clean_robot *rb, wl_clean_result *res, size_t *cap,
+                             wl_err *err)
+{
+	double size_px = track_size_px(tr);
 	work w = {0};
 	wl_status st;
 	double s;
 	rb->id = tr->id;
 	rb->rows_in = tr->n;
+	rb->sigma_pos_floor_m = rb->sigma_heading_floor_rad = NAN;
 	rb->t_first_s = tr->n ? tr->s[0].t_s : NAN;
 	rb->t_last_s = tr->n ? tr->s[tr->n - 1].t_s : NAN;
 	if ((st = build_pieces(tr, p, rb, &w, err)))
@@ -262,7 +337,8 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		s = isfinite(sx) && isfinite(sy) ? sqrt(0.5 * (sx * sx + sy * sy)) : 0.002;
 		if (!isfinite(sx) || !isfinite(sy))
 			rb->sigma_estimated = 2;
-		rb->sigma_pos_m = fmax(s, 1e-5);
+		rb->sigma_pos_floor_m = isfinite(pixel_m) ? NOISE_FLOOR_PX * pixel_m : 1e-5;
+		rb->sigma_pos_m = fmax(s, rb->sigma_pos_floor_m);
 	}
 	if (p->sigma_heading_rad > 0) {
 		rb->sigma_heading_rad = p->sigma_heading_rad;
@@ -270,7 +346,9 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		s = clean_mad_sigma(&w, w.zh, 1);
 		if (!isfinite(s))
 			rb->sigma_estimated = 2;
-		rb->sigma_heading_rad = fmax(isfinite(s) ? s : 0.035, 1e-4);
+		/* a heading from a tag's edges: the floor over the tag's side */
+		rb->sigma_heading_floor_rad = size_px > 0 ? fmax(NOISE_FLOOR_PX / size_px, 1e-4) : 1e-4;
+		rb->sigma_heading_rad = fmax(isfinite(s) ? s : 0.035, rb->sigma_heading_floor_rad);
 	}
 	rb->sigma_pos_est_m = rb->sigma_pos_m;
 	rb->sigma_heading_est_rad = rb->sigma_heading_rad;
@@ -285,8 +363,12 @@ static wl_status clean_robot(const wl_clean_raw_track *tr, const wl_clean_params
 		rb->outliers_pos += (w.why[i] & 1) != 0;
 		rb->outliers_heading += (w.why[i] & 2) != 0;
 	}
-	warn_model(p, diag, rb);
 	clean_cut_and_segment(&w, p, rb);
+	/* a still robot is not analysed, so what its model rejected changes no
+	 * number (a floor marker tracked as a robot: a small tag's detection
+	 * may jump at each key frame); the still line says what it is */
+	if (!rb->still)
+		warn_model(p, diag, rb);
 	if ((st = clean_list_segments(&w, rb, err)))
 		goto out;
 	st = clean_emit_rows(&w, tr, p, res, cap, rb, err);
@@ -310,6 +392,7 @@ wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, const 
 {
 	wl_status st;
 	size_t cap = 0;
+	double pixel_m;
 	memset(out, 0, sizeof *out);
 	if ((st = wl_clean_params_check(p, err)))
 		return st;
@@ -321,9 +404,10 @@ wl_status wl_clean_run(const wl_clean_raw *raw, const wl_clean_params *p, const 
 		        raw->path);
 	if (!(out->robots = calloc(raw->ntracks ? raw->ntracks : 1, sizeof *out->robots)))
 		return wl_err_set(err, WL_ENOMEM, "out of memory");
+	pixel_m = raw_pixel_m(raw);
 	for (size_t k = 0; k < raw->ntracks; k++) {
 		out->nrobots++;
-		if ((st = clean_robot(&raw->tracks[k], p, diag, &out->robots[k], out, &cap, err)))
+		if ((st = clean_robot(&raw->tracks[k], p, pixel_m, diag, &out->robots[k], out, &cap, err)))
 			return wl_err_prefix(err, st, "%s: robot %ld", raw->path, raw->tracks[k].id);
 	}
 	if (out->nrows)

@@ -46,10 +46,14 @@ static wl_status on_row(const wl_raw_row *r, void *ctx, wl_err *err)
 	s.t_s = r->t_s;
 	s.frame = (long)r->frame;
 	s.x_m = s.y_m = s.heading_rad = NAN;
+	s.u_px = s.v_px = s.size_px = NAN;
 	s.t_meas_s = r->t_detect_s; /* NaN when lost or not given */
 	if (r->status == WL_RAW_OK || r->status == WL_RAW_HELD) {
 		s.x_m = r->x_m;
 		s.y_m = r->y_m;
+		s.u_px = r->u_px;
+		s.v_px = r->v_px;
+		s.size_px = r->size_px;
 		s.has_pos = 1;
 		s.held = r->status == WL_RAW_HELD;
 		if (!isnan(r->heading_rad)) {

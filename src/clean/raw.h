@@ -22,6 +22,8 @@ typedef struct {
 	double t_s;
 	long frame;
 	double x_m, y_m, heading_rad; /* NaN when absent */
+	double u_px, v_px, size_px;   /* the pose in the image, the tag side (or blob
+	                               * diameter) in px; NaN when absent */
 	unsigned char has_pos;        /* status ok or held, with x_m, y_m */
 	unsigned char has_heading;    /* status ok or held, with heading_rad */
 	unsigned char held;           /* status held: a pose refined where the detector missed */

@@ -139,6 +139,8 @@ static cJSON *robot_json(const wl_clean_robot *rb)
 	                        rb->sigma_estimated == 2 ? "default (too few detections to estimate)"
 	                        : rb->sigma_estimated    ? "estimated (MAD of neighbour-line residuals)"
 	                                                 : "given");
+	num(n, "sigma_pos_floor_m", rb->sigma_pos_floor_m);
+	num(n, "sigma_heading_floor_rad", rb->sigma_heading_floor_rad);
 	num(n, "q_pos_m2ps3", rb->q_pos);
 	num(n, "q_heading_rad2ps3", rb->q_heading);
 	cJSON_AddStringToObject(n, "q_source",

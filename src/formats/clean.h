@@ -111,6 +111,8 @@ typedef struct {
 	int still;
 	double sigma_pos_m, sigma_heading_rad, q_pos, q_heading; /* used */
 	int sigma_estimated; /* 0 given, 1 estimated, 2 default (too few detections) */
+	/* the least estimated noise: the detector's resolution (NaN when given) */
+	double sigma_pos_floor_m, sigma_heading_floor_rad;
 	int q_estimated;
 	/* before widening (equal to the used values when widen_* is 0) */
 	double sigma_pos_est_m, sigma_heading_est_rad, q_pos_est, q_heading_est;

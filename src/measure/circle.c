@@ -184,7 +184,7 @@ double wl_measure_swept_angle(const double *x, const double *y, size_t n, double
 
 /* The parameters: kappa, d, phi and, with a sway term, the coefficients a, b
  * of the lateral offset a·cos(ωt) + b·sin(ωt) (left positive). */
-#define NP_MAX 5
+#define NP_MAX 6
 
 typedef struct {
 	const double *x, *y, *t; /* t: NULL without a sway term */

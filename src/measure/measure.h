@@ -116,9 +116,11 @@ typedef struct {
 /* Dominant sinusoid of v(t) (t in time order, uneven steps allowed, NaN
  * samples skipped): a Hann-windowed periodogram of v resampled on an even
  * grid locates the peak in [fmin_hz, fmax_hz]; a least-squares sine fit on
- * the original samples then refines the frequency (golden-section search of
- * the residual sum of squares within half a bin) and gives amplitude and
- * phase.  v should already be detrended.  WL_EINVAL when fewer than 16
+ * the original samples, jointly with a quadratic trend in t, then refines
+ * the frequency (golden-section search of the residual sum of squares
+ * within half a bin) and gives amplitude and phase.  v should already be
+ * detrended (for the periodogram); the joint trend keeps the removal of
+ * the trend from taking part of the sine.  WL_EINVAL when fewer than 16
  * usable samples or the band is empty. */
 wl_status wl_measure_oscillation(const double *t_s, const double *v, size_t n, double fmin_hz, double fmax_hz,
                                  wl_osc *out, wl_err *err);

@@ -21,7 +21,7 @@
 int wl_measure_ar_quadform(double *J, const double *r, size_t n, int np, double *Om);
 
 /* The sandwich (JᵀJ)⁻¹ (Jᵀ Γ J) (JᵀJ)⁻¹ × n / (n - np): the covariance of a
- * least-squares fit with Jacobian J (n × np, np <= 5, overwritten) whose
+ * least-squares fit with Jacobian J (n × np, np <= 6, overwritten) whose
  * residual series r is autocorrelated.  Returns the residual model's order,
  * 0 with C zero when r is all zero, -2 when JᵀJ is singular. */
 int wl_measure_sandwich(double *J, const double *r, size_t n, int np, double *C);

@@ -10,7 +10,9 @@ Per robot, its headline run (the longest segment) against the scene's truth:
     1000 ok runs): an ok run is never wrong beyond its stated uncertainty;
   - an "ok" run's radius is within 2% of the truth.
 Over the suite: the 95% curvature interval covers the truth in 90-98% of the
-measured runs.  Prints the figures (scenes, robots, runs, coverage, worst ok
+measured runs, and the 95% yaw amplitude interval in 90-98% of the runs with
+a yaw oscillation to measure (3 deg or more, at least 3 cycles in the run)
+when there are at least 40 of them (fewer say little about a 95% interval).  Prints the figures (scenes, robots, runs, coverage, worst ok
 error, counts per verdict, CPU time per stage) and, with --json FILE, writes
 them there.  Exit status 1 when a check fails (the failing seeds are listed),
 0 otherwise.  --no-suite-checks: per-scene checks only (for a few seeds, where
@@ -141,6 +143,8 @@ for e in errors:
 bad = list(failures)
 if not a.no_suite_checks and not (0.90 <= coverage <= 0.98):
     bad.append("coverage %.1f%% is outside 90-98%%" % (100 * coverage))
+if not a.no_suite_checks and yaw_runs >= 40 and not (0.90 <= yaw_cov / yaw_runs <= 0.98):
+    bad.append("yaw amplitude coverage %.1f%% is outside 90-98%%" % (100.0 * yaw_cov / yaw_runs))
 if errors:
     bad.extend(errors)
 for f in bad:

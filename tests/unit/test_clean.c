@@ -3,7 +3,7 @@
  * weights against the published tables and scipy, the Rauch-Tung-Striebel
  * smoother against statsmodels and least squares, SHA-256 against FIPS
  * examples, the RAW.csv reader's errors, the outline distance and the whole
- * stage on a small synthetic track.
+ * stage on small synthetic tracks (a manoeuvre, a slow blob, still tags).
  */
 #define _POSIX_C_SOURCE 200809L
 #include <stdarg.h>
@@ -625,6 +625,76 @@ static void test_moving_not_still(void **state)
 	wl_clean_result_release(&res);
 }
 
+/* Two tags at rest (floor markers tracked as robots, or robots waiting to
+ * start) in a compressed clip: the encoder repeats their pixels, so each
+ * detection equals the one before it, and at every key frame (each 30th
+ * frame, a 2 s group of pictures at 15 fps) it moves by about 0.03 px, as
+ * the suite's renders show (0.04-0.19 mm at 2.9 mm/px).  The MAD of such
+ * residuals is 0; with the noise floor of the detector's resolution
+ * (0.03 px, from RAW.csv's own pixel and tank positions) no more than 1% of
+ * the rows are flagged, the smoother does not restart, and nothing is
+ * warned about (each key frame was an outlier before: 2-4% flagged). */
+static int nwarn;
+static void count_warn(void *ctx, const char *stage, const char *msg)
+{
+	(void)ctx, (void)stage;
+	print_message("warning: %s\n", msg);
+	nwarn++;
+}
+
+static void test_still_tags_tiny_noise(void **state)
+{
+	enum { N = 300 };
+	static char text[2 * N * 120 + 200];
+	const double mpp = 0.0029, u0[2] = {640, 1000}, v0[2] = {360, 500};
+	double du[2] = {0, 0}, dv[2] = {0, 0}, dh[2] = {0, 0};
+	size_t len = 0;
+	wl_clean_raw *raw = NULL;
+	wl_err err = {0};
+	wl_clean_params p;
+	wl_clean_result res;
+	wl_diag diag = {count_warn, NULL, NULL};
+	(void)state;
+	rng_state = 5;
+	nwarn = 0;
+	len += (size_t)snprintf(text + len, sizeof text - len, HDR);
+	for (int i = 0; i < N; i++)
+		for (int k = 0; k < 2; k++) {
+			double u, v;
+			if (i % 30 == 0) { /* a key frame: the detection moves a little */
+				du[k] = 0.03 * nrand(), dv[k] = 0.03 * nrand(), dh[k] = 0.0007 * nrand();
+			}
+			u = u0[k] + du[k], v = v0[k] + dv[k];
+			len += (size_t)snprintf(text + len, sizeof text - len,
+			                        "%.6f,%d,%d,%.3f,%.3f,%.6f,%.6f,%.6f,ok,150,42,tag\n",
+			                        i / 15.0, i, 5 + k, u, v, u * mpp, (720 - v) * mpp,
+			                        0.4 + k + dh[k]);
+		}
+	assert_int_equal(wl_clean_raw_read_mem("RAW.csv", text, len, &raw, &err), WL_OK);
+	wl_clean_params_init(&p);
+	p.n_outline = 4; /* a 3.7 m x 2.1 m tank around the image */
+	p.outline_m[1][0] = p.outline_m[2][0] = 3.7;
+	p.outline_m[2][1] = p.outline_m[3][1] = 2.1;
+	assert_int_equal(wl_clean_run(raw, &p, &diag, &res, &err), WL_OK);
+	for (size_t k = 0; k < res.nrobots; k++) {
+		const wl_clean_robot *rb = &res.robots[k];
+		print_message("still tag %ld: %zu of %zu flagged, noise %.3f mm (floor %.3f mm), %.3f deg "
+		              "(floor %.3f deg), %zu + %zu restarts\n",
+		              rb->id, rb->outliers, rb->rows_in, 1e3 * rb->sigma_pos_m,
+		              1e3 * rb->sigma_pos_floor_m, rb->sigma_heading_rad * 180 / PI,
+		              rb->sigma_heading_floor_rad * 180 / PI, rb->restarts_pos, rb->restarts_heading);
+		assert_true(rb->still);
+		assert_true(100 * rb->outliers <= rb->rows_in); /* at most 1% */
+		assert_int_equal(rb->restarts_pos + rb->restarts_heading, 0);
+		/* the floor: 0.03 px at the file's own scale, and 0.03 px over the tag's side */
+		assert_true(fabs(rb->sigma_pos_floor_m / (0.03 * mpp) - 1) < 1e-3);
+		assert_true(fabs(rb->sigma_heading_floor_rad / (0.03 / 42) - 1) < 1e-9);
+	}
+	assert_int_equal(nwarn, 0);
+	wl_clean_result_release(&res);
+	wl_clean_raw_destroy(raw);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -643,6 +713,7 @@ int main(void)
 	        cmocka_unit_test(test_outline_dist),
 	        cmocka_unit_test(test_stage_synthetic),
 	        cmocka_unit_test(test_moving_not_still),
+	        cmocka_unit_test(test_still_tags_tiny_noise),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
