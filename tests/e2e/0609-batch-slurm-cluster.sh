@@ -177,17 +177,24 @@ import sys
 last = {}
 for l in open("out2/journal-1.log"):
     f = l.rstrip("\n").split("\t")
-    if len(f) == 5:
+    # a clip's state: its last start, done or failed (warn lines, e.g. the
+    # looped clips' restarts at every loop join, say nothing of the state)
+    if len(f) == 5 and f[1] in ("start", "done", "failed"):
         last[f[2]] = f[1]
 ev = list(last.values())
 sys.exit(0 if ev.count("done") >= 1 and "start" in ev else 1)
 PYEOF
 }
-# a clip takes well under a second here: polling can miss the moment, so
+# a clip takes a second or two here: polling can miss the moment, so
 # follow the journal as it is written and cancel at the first start after a
-# done (awk reads through process substitution, so it ends the wait at once)
-awk -F'\t' '$2 == "done" { d = 1 } d && $2 == "start" { exit }' \
-	< <(timeout 60 tail -n +1 -F out2/journal-1.log 2> /dev/null)
+# done.  bash's read takes a line as soon as it is written (awk, Debian's
+# mawk, reads a pipe in blocks and would wait for the 60 s timeout, by which
+# time the shard has finished)
+seen_done=0
+while IFS=$'\t' read -r _ ev _; do
+	[ "$ev" = done ] && seen_done=1
+	[ "$seen_done" = 1 ] && [ "$ev" = start ] && break
+done < <(timeout 60 tail -n +1 -F out2/journal-1.log 2> /dev/null)
 scancel "${A2}_1"
 started_not_done || fail "shard 1 never had a clip running after a finished one: $(cat out2/journal-1.log 2>&1)"
 done_before=$(grep -c $'\tdone\t' out2/journal-1.log || true)
